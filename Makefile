@@ -1,0 +1,110 @@
+# steamloft Makefile.  Toggles (set on the command line, e.g. `make MPI=1`):
+#   OPENMP=1   OpenMP across ensemble members (default on; OPENMP=0 to disable)
+#   MPI=0      build with mpicc for cluster ensembles (MPI=1)
+#   BUILD=dir  build directory (default build/)
+#   PREFIX, DESTDIR for `make install`
+# Targets: all (default), check, demo, bench, sanitize, fuzz, deps, install, clean.
+# `check`, `demo`, `bench` and `all` first install missing Debian packages
+# (scripts/deps.sh), so each is one command on a fresh machine.
+
+OPENMP  ?= 1
+MPI     ?= 0
+BUILD   ?= build
+PREFIX  ?= /usr/local
+VERSION := 0.1.0
+
+PKGS     = gsl netcdf inih
+TESTPKGS = check
+CC       = cc
+ifeq ($(MPI),1)
+  CC = mpicc
+  CPPFLAGS += -DSL_HAVE_MPI
+endif
+CFLAGS   ?= -O2 -g
+CFLAGS   += -std=c11 -Wall -Wextra -Wpedantic -MMD -MP
+CPPFLAGS += -D_GNU_SOURCE -Iinclude -I$(BUILD)/gen -DSL_VERSION=\"$(VERSION)\"
+PKG_CFLAGS := $(shell pkg-config --cflags $(PKGS) 2>/dev/null)
+PKG_LIBS   := $(shell pkg-config --libs $(PKGS) 2>/dev/null)
+CHECK_LIBS := $(shell pkg-config --libs $(TESTPKGS) 2>/dev/null)
+CFLAGS   += $(PKG_CFLAGS)
+LDLIBS   += $(PKG_LIBS) -lm
+ifeq ($(OPENMP),1)
+  CFLAGS  += -fopenmp
+  LDFLAGS += -fopenmp
+endif
+
+SRC      := $(wildcard src/*.c)
+LIBSRC   := $(filter-out src/main.c,$(SRC))
+OBJ      := $(LIBSRC:src/%.c=$(BUILD)/obj/%.o)
+LIB      := $(BUILD)/libsteamloft.a
+BIN      := $(BUILD)/steamloft
+TESTSRC  := $(wildcard tests/test_*.c)
+TESTBIN  := $(TESTSRC:tests/%.c=$(BUILD)/tests/%)
+GITHASH  := $(shell git rev-parse --short=12 HEAD 2>/dev/null || echo unknown)
+
+.PHONY: all build check check-run demo demo-run bench bench-run sanitize fuzz deps \
+        ensure-deps install clean check-symbols FORCE
+
+all: ensure-deps
+	@$(MAKE) --no-print-directory build
+
+build: $(BIN) $(TESTBIN)
+
+ensure-deps:
+	@scripts/deps.sh --if-missing
+
+deps:
+	scripts/deps.sh
+
+# The version header changes only when the git hash does, so a commit does not
+# force a full rebuild.
+$(BUILD)/gen/sl_gitversion.h: FORCE
+	@mkdir -p $(@D)
+	@echo '#define SL_GIT_HASH "$(GITHASH)"' > $@.tmp
+	@cmp -s $@.tmp $@ && rm -f $@.tmp || mv $@.tmp $@
+
+$(BUILD)/obj/%.o: src/%.c | $(BUILD)/gen/sl_gitversion.h
+	@mkdir -p $(@D)
+	$(CC) $(CPPFLAGS) $(CFLAGS) -c -o $@ $<
+
+$(BUILD)/obj/cli.o: $(BUILD)/gen/sl_gitversion.h
+
+$(LIB): $(OBJ)
+	@rm -f $@
+	ar rcs $@ $^
+
+$(BIN): $(BUILD)/obj/main.o $(LIB)
+	$(CC) $(LDFLAGS) -o $@ $^ $(LDLIBS)
+
+$(BUILD)/tests/%: tests/%.c tests/sl_test.h $(LIB)
+	@mkdir -p $(@D)
+	$(CC) $(CPPFLAGS) -Itests $(CFLAGS) $(LDFLAGS) -o $@ $< $(LIB) $(LDLIBS) $(CHECK_LIBS)
+
+check: ensure-deps
+	@$(MAKE) --no-print-directory check-run
+
+check-run: build check-symbols
+	@tests/run-all.sh $(BUILD)
+
+# Every exported symbol of the library starts with sl_ (style rule, DEVELOPERS.md).
+check-symbols: $(LIB)
+	@bad=$$(nm -g --defined-only $(LIB) | awk 'NF==3 && $$2 ~ /^[TDBRC]$$/ {print $$3}' | grep -v '^sl_' || true); \
+	if [ -n "$$bad" ]; then echo "check-symbols: exported without sl_ prefix:"; echo "$$bad"; exit 1; fi; \
+	echo "check-symbols: all exported symbols start with sl_"
+
+sanitize: ensure-deps
+	@$(MAKE) --no-print-directory BUILD=build-sanitize OPENMP=$(OPENMP) \
+	  CFLAGS="-O1 -g -fsanitize=address,undefined -fno-sanitize-recover=undefined -fno-omit-frame-pointer" \
+	  LDFLAGS="-fsanitize=address,undefined" check-run
+
+install: all
+	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/share/steamloft/atmospheres \
+	  $(DESTDIR)$(PREFIX)/share/steamloft/examples
+	install -m 755 $(BIN) $(DESTDIR)$(PREFIX)/bin/steamloft
+	install -m 644 atmospheres/* $(DESTDIR)$(PREFIX)/share/steamloft/atmospheres/
+	-install -m 644 examples/* $(DESTDIR)$(PREFIX)/share/steamloft/examples/
+
+clean:
+	rm -rf build build-sanitize build-*
+
+-include $(OBJ:.o=.d) $(BUILD)/obj/main.d $(TESTBIN:=.d)

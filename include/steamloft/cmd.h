@@ -1,0 +1,15 @@
+/* cmd: the commands of the command line, one per src/cmd_<name>.c (help lives
+ * in cli.c).  Each takes the command's own argc/argv (argv[0] = command name)
+ * and the global options, and returns an exit code from <sysexits.h>.
+ * SL_CMD_TABLE is the one list of commands, in the order --help shows them. */
+#ifndef STEAMLOFT_CMD_H
+#define STEAMLOFT_CMD_H
+
+#include "steamloft/cli.h"
+
+int sl_cmd_help(int argc, char **argv, const sl_cli_globals *g);
+
+#define SL_CMD_TABLE \
+    {"help", "print the help of steamloft or of one command", sl_cmd_help},
+
+#endif
