@@ -455,8 +455,9 @@ int sl_partition_solve(sl_partition *pt, const sl_partition_input *in, sl_err *e
         s.vapor_mass_kg = water_air;
         SL_TRY_RETURN(e, add_source(pt, &s, e));
     }
-    /* Sea plume. */
-    if (vap + water_sea + liq > 0 || heat > 0) {
+    /* Sea plume: when it carries water, or heat worth 0.1 % of the energy
+     * (not for the debris of an airburst settling at terminal speed). */
+    if (vap + water_sea + liq > 0 || heat > 1e-3 * pt->energy_total_J) {
         const sl_partition_air *a = &in->air_at_sea;
         sl_source s = {0};
         s.kind = SL_SOURCE_SEA_PLUME;
