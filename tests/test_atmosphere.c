@@ -420,6 +420,83 @@ START_TEST(test_init_levels_errors)
 }
 END_TEST
 
+
+static const char *srcdir(void)
+{
+    const char *d = getenv("SL_SRCDIR");
+    return d && *d ? d : ".";
+}
+
+START_TEST(test_netcdf_readback)
+{
+    /* A CF netCDF column written by ncgen (netcdf-bin, the reference netCDF
+     * tool) from tests/atmos_column.cdl is read back exactly: the values of
+     * the CDL after the documented conversions (geopotential height to
+     * geometric altitude z = r0 H/(r0 - H), packed shorts t = 250 + 0.01 s,
+     * hPa to Pa, specific humidity to mole fraction), bottom-up.  Tolerance
+     * 1e-12: double rounding only (PRACTICE). */
+    char dir[] = "/tmp/sl_atmos_nc_XXXXXX";
+    ck_assert(mkdtemp(dir) != NULL);
+    char nc[256], cmd[1024];
+    snprintf(nc, sizeof nc, "%s/column.nc", dir);
+    snprintf(cmd, sizeof cmd, "ncgen -o '%s' '%s/tests/atmos_column.cdl'", nc, srcdir());
+    ck_assert_msg(system(cmd) == 0, "ncgen failed: %s", cmd);
+    sl_atmosphere a;
+    memset(&a, 0, sizeof a);
+    sl_err e = {0};
+    ck_assert_msg(sl_atmosphere_init(&a, nc, &e) == SL_OK, "%s", e.msg);
+    static const double hpa[8] = {1000, 850, 500, 300, 200, 100, 50, 10};
+    static const double zgp[8] = {111, 1457, 5574, 9164, 11784, 16180, 20576, 31055};
+    static const short ts[8] = {3800, 3100, 200, -2200, -3200, -4000, -3700, -2200};
+    static const double q[8] = {0.008, 0.005, 0.001, 0.0001, 1e-05, 3e-06, 2.6e-06, 3.5e-06};
+    ck_assert_uint_eq(a.n, 8);
+    for (int i = 0; i < 8; i++) {
+        SL_CK_REL(a.altitude_m[i], geometric_of(zgp[i]), 1e-12);
+        SL_CK_REL(a.temperature_K[i], 250.0 + 0.01 * ts[i], 1e-12);
+        SL_CK_REL(a.pressure_Pa[i], hpa[i] * 100.0, 1e-12);
+        const double x = sl_water_mole_fraction_from_mixing_ratio(sl_water_mixing_ratio_from_specific_humidity(q[i]));
+        SL_CK_REL(a.h2o_mole_fraction[i], x, 1e-12);
+    }
+    ck_assert(strstr(a.source, "invented values") != NULL);
+    sl_atmosphere_free(&a);
+    snprintf(cmd, sizeof cmd, "rm -rf '%s'", dir);
+    ck_assert(system(cmd) == 0);
+}
+END_TEST
+
+START_TEST(test_shipped_files)
+{
+    /* The shipped text profiles (atmospheres/NAME.txt) read back as the
+     * built-ins to the printed precision (PRACTICE: altitude to 0.005 m,
+     * temperature to 5e-6 K, pressure to 10 digits, water to 8 digits); the
+     * derived markers and the stratospheric column agree to 1e-6. */
+    for (int k = 0; sl_atmosphere_builtin_names[k]; k++) {
+        const char *nm = sl_atmosphere_builtin_names[k];
+        char path[512];
+        snprintf(path, sizeof path, "%s/atmospheres/%s.txt", srcdir(), nm);
+        sl_atmosphere b, f;
+        memset(&b, 0, sizeof b);
+        memset(&f, 0, sizeof f);
+        sl_err e = {0};
+        ck_assert_msg(sl_atmosphere_init(&b, nm, &e) == SL_OK, "%s", e.msg);
+        ck_assert_msg(sl_atmosphere_init(&f, path, &e) == SL_OK, "%s", e.msg);
+        ck_assert_str_eq(f.name, nm);
+        ck_assert_uint_eq(f.n, b.n);
+        for (size_t i = 0; i < b.n; i++) {
+            SL_CK_ABS(f.altitude_m[i], b.altitude_m[i], 0.005);
+            SL_CK_ABS(f.temperature_K[i], b.temperature_K[i], 5e-6);
+            SL_CK_REL(f.pressure_Pa[i], b.pressure_Pa[i], 5e-10);
+            SL_CK_REL(f.h2o_mole_fraction[i], b.h2o_mole_fraction[i], 5e-8);
+        }
+        SL_CK_ABS(f.tropopause_altitude_m, b.tropopause_altitude_m, 0.005);
+        SL_CK_ABS(f.stratopause_altitude_m, b.stratopause_altitude_m, 0.005);
+        SL_CK_REL(f.strat_water_column_kg_m2, b.strat_water_column_kg_m2, 1e-6);
+        sl_atmosphere_free(&b);
+        sl_atmosphere_free(&f);
+    }
+}
+END_TEST
+
 START_TEST(test_query_speed)
 {
     /* Performance guard (PRACTICE): a query allocates nothing and costs
@@ -458,6 +535,8 @@ static Suite *atmosphere_suite(void)
     tcase_add_test(tc, test_climate_zone_surface_pressure);
     tcase_add_test(tc, test_background_water);
     tcase_add_test(tc, test_init_levels_errors);
+    tcase_add_test(tc, test_netcdf_readback);
+    tcase_add_test(tc, test_shipped_files);
     tcase_add_test(tc, test_query_speed);
     suite_add_tcase(s, tc);
     return s;
