@@ -500,7 +500,9 @@ END_TEST
 START_TEST(test_query_speed)
 {
     /* Performance guard (PRACTICE): a query allocates nothing and costs
-     * about 0.1 us; one million in under 2 s even under sanitizers. */
+     * about 0.1 us optimised (2.5 us under ASan+UBSan); a query that rebuilt
+     * or searched tables the slow way (about 10 us) would break the 8 s
+     * limit for one million. */
     sl_atmosphere a;
     memset(&a, 0, sizeof a);
     sl_err e = {0};
@@ -513,7 +515,7 @@ START_TEST(test_query_speed)
         sum += s.density_kg_m3;
     }
     const double secs = (double)(clock() - c0) / CLOCKS_PER_SEC;
-    ck_assert_msg(secs < 2.0, "1e6 queries took %.3f s", secs);
+    ck_assert_msg(secs < 8.0, "1e6 queries took %.3f s", secs);
     ck_assert(sum > 0.0);
     sl_atmosphere_free(&a);
 }
