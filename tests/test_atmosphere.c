@@ -449,14 +449,22 @@ START_TEST(test_netcdf_readback)
     static const double zgp[8] = {111, 1457, 5574, 9164, 11784, 16180, 20576, 31055};
     static const short ts[8] = {3800, 3100, 200, -2200, -3200, -4000, -3700, -2200};
     static const double q[8] = {0.008, 0.005, 0.001, 0.0001, 1e-05, 3e-06, 2.6e-06, 3.5e-06};
-    ck_assert_uint_eq(a.n, 8);
+    /* 8 levels plus the isothermal extension from 111 m down to 0 m. */
+    ck_assert_uint_eq(a.n, 9);
     for (int i = 0; i < 8; i++) {
-        SL_CK_REL(a.altitude_m[i], geometric_of(zgp[i]), 1e-12);
-        SL_CK_REL(a.temperature_K[i], 250.0 + 0.01 * ts[i], 1e-12);
-        SL_CK_REL(a.pressure_Pa[i], hpa[i] * 100.0, 1e-12);
+        SL_CK_REL(a.altitude_m[i + 1], geometric_of(zgp[i]), 1e-12);
+        SL_CK_REL(a.temperature_K[i + 1], 250.0 + 0.01 * ts[i], 1e-12);
+        SL_CK_REL(a.pressure_Pa[i + 1], hpa[i] * 100.0, 1e-12);
         const double x = sl_water_mole_fraction_from_mixing_ratio(sl_water_mixing_ratio_from_specific_humidity(q[i]));
-        SL_CK_REL(a.h2o_mole_fraction[i], x, 1e-12);
+        SL_CK_REL(a.h2o_mole_fraction[i + 1], x, 1e-12);
     }
+    /* The extension: 0 m, 288 K, and the barometric formula for 111 m of
+     * isothermal air (DERIVED, p0 = p exp(g dz / (R T)); moist R within
+     * 0.5 %: 1e-4 on p). */
+    SL_CK_ABS(a.altitude_m[0], 0.0, 0.0);
+    SL_CK_ABS(a.temperature_K[0], 288.0, 1e-12);
+    SL_CK_REL(a.pressure_Pa[0], 1.0e5 * exp(9.80665 * geometric_of(111.0) / (287.053 * 288.0)), 1e-4);
+    ck_assert(strstr(a.source, "extended isothermally") != NULL);
     ck_assert(strstr(a.source, "invented values") != NULL);
     sl_atmosphere_free(&a);
     snprintf(cmd, sizeof cmd, "rm -rf '%s'", dir);
