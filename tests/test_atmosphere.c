@@ -130,6 +130,13 @@ START_TEST(test_us1976_profile)
         ck_assert_int_eq(sl_atmosphere_at(&a, zm, &s, &e), SL_OK);
         SL_CK_ABS(s.temperature_K, t, 0.25);
     }
+    /* N in the standard's isothermal layer (11-20 km geopotential, 216.65 K):
+     * g/sqrt(cp T) exactly (DERIVED; the Steffen spline of constant data has
+     * zero slope), checked away from the layer joints. */
+    for (double zq = 11500.0; zq < 19800.0; zq += 1111.0) {
+        ck_assert_int_eq(sl_atmosphere_at(&a, zq, &s, &e), SL_OK);
+        SL_CK_REL(sqrt(s.n2_per_s2), s.gravity_m_s2 / sqrt(SL_CP_DRY_AIR_J_KG_K * 216.65), 1e-12);
+    }
     /* WMO tropopause of the standard: the 11 km geopotential layer base
      * (11019.1 m geometric), 216.65 K, 22632.1 Pa (USSA76, SEEN). */
     SL_CK_ABS(a.tropopause_altitude_m, geometric_of(11000.0), 0.01);
