@@ -516,8 +516,9 @@ static int nc_units(const char *path, int ncid, nc_var *v, enum qty q, sl_err *e
     static const char *const kel[] = {"K", "kelvin", "Kelvin", "degK", NULL};
     static const char *const cel[] = {"degC", "degree_Celsius", "degrees_Celsius", "celsius", "Celsius", NULL};
     static const char *const pa[] = {"Pa", "pascal", "Pascal", NULL};
-    static const char *const hpa[] = {"hPa", "mbar", "millibar", "mb", NULL};
-    static const char *const one[] = {"1", "mol mol-1", "mol/mol", "kg kg-1", "kg/kg", "", NULL};
+    static const char *const hpa[] = {"hPa", "mbar", "millibar", "millibars", "mb", NULL};
+    static const char *const one[] = {"1",         "mol mol-1", "mol/mol",   "mol mol**-1", "kg kg-1",
+                                      "kg kg**-1", "kg/kg",     "kg kg^-1",  "",            NULL};
     static const char *const ppmv[] = {"1e-6", "ppmv", "ppm", NULL};
     static const char *const gkg[] = {"g kg-1", "g/kg", NULL};
     const char *sn = v->standard_name;
@@ -703,7 +704,9 @@ static int read_netcdf(int ncid, const char *path, sl_atmosphere *atm, sl_err *e
         found[q] = 1;
     }
     static const char *need[3] = {"altitude (or height_above_mean_sea_level, geopotential_height, geopotential)",
-                                  "air_temperature", "air_pressure"};
+                                  "air_temperature",
+                                  "air_pressure (a pressure-level coordinate without one can be given it with "
+                                  "'ncatted -a standard_name,LEVEL,c,c,air_pressure FILE')"};
     for (int q = Q_ALT; q <= Q_PRES; q++)
         if (!found[q])
             SL_FAIL_RETURN(e, SL_EDATA, "%s: no variable with standard_name %s", path, need[q]);
