@@ -21,7 +21,8 @@ typedef struct sl_atmos_state {
     double pressure_Pa;
     double density_kg_m3;       /* moist-air density */
     double h2o_mole_fraction;   /* background water vapour, mol mol-1 */
-    double n2_per_s2;           /* squared buoyancy frequency N^2, s-2 */
+    double n2_per_s2;           /* squared buoyancy frequency of dry air,
+                                   N^2 = (g/T)(dT/dz + g/cp), s-2 */
     double ice_saturation_mole_fraction; /* e_ice(T)/p, mol mol-1 */
     double gravity_m_s2;        /* g at this altitude (inverse square) */
 } sl_atmos_state;
