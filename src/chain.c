@@ -68,7 +68,7 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         sl_atmosphere_free(&ch->atmosphere);
         if (raw)
             SL_FAIL_RETURN(e, rc, "%s:%d: [site] atmosphere = %s: %s (valid: a built-in profile, "
-                                  "one of %s, or a profile file)",
+                                  "one of %s (steamloft atmos), or a profile file)",
                            sc->path, line, raw, inner, names);
         SL_FAIL_RETURN(e, rc, "%s: atmosphere %s: %s", sc->path, name, inner);
     }
