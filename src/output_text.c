@@ -281,8 +281,10 @@ int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, sl_err *e)
     if (ch->has_entry) {
         emit_entry(&r, ch);
     } else {
-        sl_report_bool(&r, "airburst", sc->value_si[SL_P_EXPLOSION_ALTITUDE] > 0, "burst in the air");
-        sl_report_number(&r, "burst_altitude_m", sc->value_si[SL_P_EXPLOSION_ALTITUDE], "burst altitude", 1e-3, "km");
+        double z = sc->value_si[SL_P_EXPLOSION_ALTITUDE];
+        sl_report_number(&r, "explosion_altitude_m", z, "height of the burst", 1e-3, "km");
+        sl_report_bool(&r, "airburst", z > 0, "burst in the air");
+        sl_report_number(&r, "burst_altitude_m", z > 0 ? z : NAN, "burst altitude", 1e-3, "km");
     }
     sl_report_number(&r, "energy_at_sea_J", ch->partition.energy_at_sea_J, "energy reaching the sea", 1.0 / SL_J_PER_MT_TNT, "Mt");
     emit_partition(&r, ch);
