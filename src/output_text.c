@@ -42,7 +42,8 @@ static void json_member(sl_report *r, const char *key)
 
 static void text_label(sl_report *r, const char *label)
 {
-    fprintf(r->out, "%*s%-34s ", 2 * r->text_indent, "", label);
+    int pad = 34 - 2 * r->text_indent;
+    fprintf(r->out, "%*s%-*s ", 2 * r->text_indent, "", pad > 0 ? pad : 0, label);
 }
 
 void sl_report_begin(sl_report *r, FILE *out, int json)
@@ -197,8 +198,8 @@ static void emit_entry(sl_report *r, const sl_chain *ch)
         fprintf(r->out, "energy deposited by band (>= 1 %% of the air's share)\n");
         for (size_t i = 0; i < en->n_bands; i++)
             if (en->band_energy_J[i] >= 0.01 * total)
-                fprintf(r->out, "  %7.1f - %7.1f km %34.4g Mt (%.1f %%)\n", 1e-3 * (double)i * en->band_width_m,
-                        1e-3 * (double)(i + 1) * en->band_width_m, en->band_energy_J[i] / SL_J_PER_MT_TNT,
+                fprintf(r->out, "  %5.1f - %5.1f km %18s %.4g Mt (%.1f %%)\n",  1e-3 * (double)i * en->band_width_m,
+                        1e-3 * (double)(i + 1) * en->band_width_m, "", en->band_energy_J[i] / SL_J_PER_MT_TNT,
                         100.0 * en->band_energy_J[i] / total);
     }
 }
