@@ -13,7 +13,6 @@
 
 #include <stdio.h>
 #include <string.h>
-#include <time.h>
 
 /* Geometric altitude of geopotential H (USSA76 r0). */
 static double geometric_of(double h_m) { return SL_USSA_R0_M * h_m / (SL_USSA_R0_M - h_m); }
