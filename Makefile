@@ -101,6 +101,23 @@ sanitize: ensure-deps
 	  CFLAGS="-O1 -g -fsanitize=address,undefined -fno-sanitize-recover=undefined -fno-omit-frame-pointer" \
 	  LDFLAGS="-fsanitize=address,undefined" check-run
 
+# libFuzzer harnesses in tests/fuzz/ (needs clang and libclang-rt-14-dev):
+#   make fuzz FUZZ_SECONDS=60
+FUZZ_SECONDS ?= 60
+FUZZSRC := $(wildcard tests/fuzz/fuzz_*.c)
+fuzz: ensure-deps
+	@command -v clang >/dev/null || { echo "fuzz: clang is missing: apt-get install clang libclang-rt-14-dev"; exit 1; }
+	@mkdir -p $(BUILD)/fuzz $(BUILD)/gen
+	@echo '#define SL_GIT_HASH "$(GITHASH)"' > $(BUILD)/gen/sl_gitversion.h
+	@set -e; for f in $(FUZZSRC); do n=$$(basename $$f .c); \
+	  echo "fuzz: building $$n"; \
+	  clang -g -O1 -fsanitize=fuzzer,address,undefined -D_GNU_SOURCE -DSL_VERSION=\"$(VERSION)\" \
+	    -Iinclude -Isrc -I$(BUILD)/gen $(PKG_CFLAGS) $$f $(LIBSRC) $(PKG_LIBS) -lm -o $(BUILD)/fuzz/$$n; \
+	  echo "fuzz: running $$n for $(FUZZ_SECONDS) s"; \
+	  mkdir -p $(BUILD)/fuzz/corpus-$$n; \
+	  $(BUILD)/fuzz/$$n -max_total_time=$(FUZZ_SECONDS) -print_final_stats=0 $(BUILD)/fuzz/corpus-$$n examples atmospheres; \
+	done
+
 install: all
 	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/share/steamloft/atmospheres \
 	  $(DESTDIR)$(PREFIX)/share/steamloft/examples
