@@ -130,6 +130,7 @@ struct sl_plume_work {
     double z_top_m;            /* stop: top of the atmosphere profile */
     double z_bottom_m;         /* bottom of the atmosphere profile */
     int rhs_failed;            /* the atmosphere could not be evaluated */
+    double T_guess;            /* last equilibrium temperature: Newton's first guess */
     sl_err rhs_err;
     /* Root-finding context. */
     double t_prev;
@@ -151,7 +152,7 @@ void sl_plume_params_default(sl_plume_params *par)
     par->added_mass_k = 0.5;         /* sphere in potential flow (MEM-high) */
     par->fallout_speed_m_s = 1.0;    /* drizzle/snow fall speed order (Rogers & Yau 1989, MEM) */
     par->ice_sediment_fraction = 0.5;/* PRACTICE, between the end-members (see injection.c) */
-    par->rtol = 1.0e-8;
+    par->rtol = 1.0e-6;        /* halving it moves plume top and stratospheric water < 1e-5 (tests) */
     par->max_time_s = 7200.0;
 }
 
@@ -210,57 +211,70 @@ static double sat_ratio(double T_K, double p_Pa)
 }
 
 /* Enthalpy (J) of Ma, Mw at T with vapour at saturation (capped at Mw), the
- * condensate all liquid (ICE = 0) or all ice (ICE = 1). */
-static double h_sat(const sl_plume_work *w, double T_K, double Ma, double Mw, double p_Pa, int ice, double *vap)
+ * condensate all liquid (ICE = 0) or all ice (ICE = 1); its derivative in T
+ * into *DHDT (with the Clausius-Clapeyron slope of e_s: only Newton's step
+ * uses it, the bracket keeps the root exact). */
+static double h_sat(const sl_plume_work *w, double T_K, double Ma, double Mw, double p_Pa, int ice, double *vap,
+                    double *dhdt)
 {
-    double mv = fmin(Mw, Ma * sat_ratio(T_K, p_Pa));
-    double mc = Mw - mv;
     double dT = T_K - T_TRIPLE;
+    double cc = ice ? CPI : CPL;
+    double es = 0.0, rs;
+    if (T_K >= T_NO_CONDENSATE_K)
+        rs = INFINITY;
+    else if (T_K <= T_FROZEN_SOLID_K)
+        rs = 0.0;
+    else {
+        es = sl_water_esat_Pa(T_K);
+        rs = es < p_Pa ? EPS_RV * es / (p_Pa - es) : INFINITY;
+    }
+    double mv = fmin(Mw, Ma * rs);
+    double mc = Mw - mv;
     if (vap)
         *vap = mv;
-    if (ice)
-        return (Ma * CPA + mv * CPV + mc * CPI) * dT + mv * w->lv0_J_kg - mc * w->lf0_J_kg;
-    return (Ma * CPA + mv * CPV + mc * CPL) * dT + mv * w->lv0_J_kg;
+    double latent = w->lv0_J_kg + (ice ? w->lf0_J_kg : 0.0);
+    if (dhdt) {
+        double d = Ma * CPA + mv * CPV + mc * cc;
+        if (mv < Mw && es > 0.0) {
+            double lat_T = latent + (CPV - cc) * dT;
+            double des = es * lat_T / (RV * T_K * T_K);
+            double drs = EPS_RV * p_Pa / ((p_Pa - es) * (p_Pa - es)) * des;
+            d += Ma * drs * lat_T;
+        }
+        *dhdt = d;
+    }
+    return (Ma * CPA + mv * CPV + mc * cc) * dT + mv * w->lv0_J_kg - (ice ? mc * w->lf0_J_kg : 0.0);
 }
 
-/* Illinois false position for h_sat(T) = H on [lo, hi] with h(lo) <= H <= h(hi). */
-static double solve_T(const sl_plume_work *w, double H, double Ma, double Mw, double p, int ice, double lo, double hi)
+/* Root of h_sat(T) = H on [lo, hi] (h(lo) <= H <= h(hi) when hi is finite):
+ * Newton's method from GUESS, kept inside the shrinking bracket, bisection
+ * when a step leaves it; converged to 1e-12 relative in T. */
+static double solve_T(const sl_plume_work *w, double H, double Ma, double Mw, double p, int ice, double lo, double hi,
+                      double guess)
 {
-    double flo = h_sat(w, lo, Ma, Mw, p, ice, NULL) - H;
-    double fhi = h_sat(w, hi, Ma, Mw, p, ice, NULL) - H;
-    int side = 0;
-    for (int it = 0; it < 200; it++) {
-        if (flo >= 0.0)
-            return lo;
-        if (fhi <= 0.0)
-            return hi;
-        double x = (lo * fhi - hi * flo) / (fhi - flo);
-        if (!(x > lo && x < hi))
-            x = 0.5 * (lo + hi);
-        if (hi - lo < 1.0e-12 * hi)
+    double x = (guess > lo && guess < hi) ? guess : (isfinite(hi) ? 0.5 * (lo + hi) : lo + 1.0);
+    for (int it = 0; it < 100; it++) {
+        double d;
+        double f = h_sat(w, x, Ma, Mw, p, ice, NULL, &d) - H;
+        if (f == 0.0)
             return x;
-        double fx = h_sat(w, x, Ma, Mw, p, ice, NULL) - H;
-        if (fx == 0.0)
-            return x;
-        if (fx < 0.0) {
+        if (f < 0.0)
             lo = x;
-            flo = fx;
-            if (side == -1)
-                fhi *= 0.5;
-            side = -1;
-        } else {
+        else
             hi = x;
-            fhi = fx;
-            if (side == 1)
-                flo *= 0.5;
-            side = 1;
-        }
+        double xn = x - f / d;
+        if (!(xn > lo && xn < hi) || !(d > 0.0))
+            xn = isfinite(hi) ? 0.5 * (lo + hi) : 2.0 * x - lo + 1.0;
+        if (fabs(xn - x) <= 1.0e-12 * x)
+            return xn;
+        x = xn;
     }
-    return 0.5 * (lo + hi);
+    return x;
 }
 
 /* Equilibrium temperature and phases for enthalpy H, dry air Ma, water Mw at
- * pressure p (saturation adjustment). */
+ * pressure p (saturation adjustment).  *T holds a first guess on entry (the
+ * root is found to 1e-12 whatever the guess). */
 static void equilibrate(const sl_plume_work *w, double H, double Ma, double Mw, double p, double *T, double *mv,
                         double *ml, double *mi)
 {
@@ -273,28 +287,28 @@ static void equilibrate(const sl_plume_work *w, double H, double Ma, double Mw, 
         return;
     }
     double vap_t;
-    double hl = h_sat(w, T_TRIPLE, Ma, Mw, p, 0, &vap_t);
+    double hl = h_sat(w, T_TRIPLE, Ma, Mw, p, 0, &vap_t, NULL);
     double mc_t = Mw - vap_t;
     if (T1 >= T_TRIPLE || H >= hl) {
         /* Liquid condensate, T above the triple point: the root lies above T1
-         * (condensation heats).  Grow the bracket until h_sat >= H. */
-        double lo = fmax(T1, T_TRIPLE), step = 1.0, hi = lo + step;
-        while (h_sat(w, hi, Ma, Mw, p, 0, NULL) < H && hi < 1.0e5) {
-            step *= 2.0;
-            hi = lo + step;
-        }
-        *T = solve_T(w, H, Ma, Mw, p, 0, lo, hi);
+         * (condensation heats) and below the all-vapour temperature for the
+         * enthalpy H (at most T1 plus the heat of condensing all the water). */
+        double lo = fmax(T1, T_TRIPLE);
+        double hi = fmin(T1 + Mw * (w->lv0_J_kg + w->lf0_J_kg) / (Ma * CPA) + 1.0, T_NO_CONDENSATE_K);
+        while (hi < T_NO_CONDENSATE_K && h_sat(w, hi, Ma, Mw, p, 0, NULL, NULL) < H)
+            hi = fmin(2.0 * hi - lo, T_NO_CONDENSATE_K);
+        *T = solve_T(w, H, Ma, Mw, p, 0, lo, hi, *T);
         double v;
-        h_sat(w, *T, Ma, Mw, p, 0, &v);
+        h_sat(w, *T, Ma, Mw, p, 0, &v, NULL);
         *mv = v;
         *ml = Mw - v;
         return;
     }
     double hi_ice = hl - mc_t * w->lf0_J_kg;
     if (H <= hi_ice) {
-        *T = solve_T(w, H, Ma, Mw, p, 1, fmax(T1, 0.5 * T_FROZEN_SOLID_K), T_TRIPLE);
+        *T = solve_T(w, H, Ma, Mw, p, 1, fmax(T1, 0.5 * T_FROZEN_SOLID_K), T_TRIPLE, *T);
         double v;
-        h_sat(w, *T, Ma, Mw, p, 1, &v);
+        h_sat(w, *T, Ma, Mw, p, 1, &v, NULL);
         *mv = v;
         *mi = Mw - v;
         return;
@@ -333,7 +347,9 @@ static int diagnose(sl_plume_work *w, const double *s, diag *d)
         return GSL_EBADFUNC;
     }
     d->z_m = z;
+    d->T_K = w->T_guess;
     equilibrate(w, H, Ma, Mw, d->amb.pressure_Pa, &d->T_K, &d->vapor_kg, &d->liquid_kg, &d->ice_kg);
+    w->T_guess = d->T_K;
     if (!(d->T_K > 0.0) || !isfinite(d->T_K))
         return GSL_EBADFUNC;
     d->volume_m3 = (Ma * RA + d->vapor_kg * RV) * d->T_K / d->amb.pressure_Pa;
@@ -619,6 +635,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     w->z_bottom_m = zlo;
     w->z_top_m = zhi;
     w->rhs_failed = 0;
+    w->T_guess = 0.0;
 
     out->source_altitude_m = src->altitude_m;
     out->source_radius_m = st.radius_m;

@@ -32,7 +32,7 @@ typedef struct sl_plume_params {
     double added_mass_k;           /* added-mass coefficient; 0.5 (sphere in potential flow) */
     double fallout_speed_m_s;      /* settling speed of condensate relative to the thermal; 1.0 */
     double ice_sediment_fraction;  /* share of the ice formed at cloud level that falls out; 0.5 */
-    double rtol;                   /* ODE relative tolerance (scaled state); 1e-8 */
+    double rtol;                   /* ODE relative tolerance (scaled state); 1e-6 */
     double max_time_s;             /* give up when no apex by then; 7200 s */
 } sl_plume_params;
 
