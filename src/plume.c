@@ -110,9 +110,11 @@ enum { IZ, IMA, IMW, IPI, IH, IEIN, IEOUT, IWIN, IWOUT, IAIN, NY };
 /* Below this the saturation vapour pressure over ice is < 1e-8 Pa (Murphy &
  * Koop 2005 hold above 110 K): vapour is taken as zero. */
 #define T_FROZEN_SOLID_K 120.0
-/* Hottest initial fireball of air the source set-up uses when its radius is too
- * small to hold its heat at ambient pressure (PRACTICE; the rise depends on the
- * heat, not on this temperature, see plume_start). */
+/* Hottest initial thermal the heat-and-radius set-up makes (PRACTICE: a
+ * fireball after its radiative phase is a few thousand kelvin; the ideal-gas,
+ * constant-cp model of air is used no hotter).  A source with more heat than
+ * its sphere can hold below it expands at this temperature to the volume it
+ * needs.  The rise depends on the heat, hardly on this temperature. */
 #define T_FIREBALL_CAP_K 3000.0
 
 struct sl_plume_work {
@@ -557,31 +559,45 @@ static int source_state(const sl_source *src, const sl_atmos_state *amb, start *
         /* Heat and radius: find the air mass and temperature such that the gas
          * fills the sphere at ambient pressure and holds the heat as sensible
          * enthalpy over ambient:  p V = (Ma Ra + Mv Rv) T,
-         * Q = (Ma cpa + Mv cpv + Ml cl)(T - Ta).  p V(T) is monotone (see the
-         * module notes), so bisection on T finds the one root. */
+         * Q = (Ma cpa + Mv cpv + Ml cl)(T - Ta).  With Ma(T) from the second,
+         * the gas volume falls as T rises (Ra cpv / cpa > Rv), so bisection on
+         * T finds the one root when there is one. */
         double V = FOUR_PI / 3.0 * src->radius_m * src->radius_m * src->radius_m;
         double Q = src->heat_J, cw = st->vapor_kg * CPV + st->liquid_kg * CPL;
-        double Tmax = cw > 0.0 ? Ta + Q / cw : INFINITY;
-        if (Tmax > T_FIREBALL_CAP_K)
-            Tmax = T_FIREBALL_CAP_K;
-        double lo = Ta * (1.0 + 1.0e-12), hi = Tmax;
+        double lo = Ta * (1.0 + 1.0e-12), hi = cw > 0.0 ? Ta + Q / cw : INFINITY;
 #define PV_OF(T) ((fmax(0.0, (Q / ((T) - Ta) - cw) / CPA) * RA + st->vapor_kg * RV) * (T) - p * V)
-        if (PV_OF(hi) > 0.0) {
-            /* The sphere is too small to hold this heat and water at ambient
-             * pressure: the gas expands to the volume it needs at Tmax. */
-            st->T_K = hi;
-        } else {
-            for (int it = 0; it < 200 && hi - lo > 1.0e-12 * hi; it++) {
-                double mid = 0.5 * (lo + hi);
-                if (PV_OF(mid) > 0.0)
-                    lo = mid;
-                else
-                    hi = mid;
+        double T_root = NAN;
+        if (!isfinite(hi) || PV_OF(hi) <= 0.0) {
+            if (!isfinite(hi))
+                hi = 2.0 * T_FIREBALL_CAP_K;
+            if (PV_OF(hi) <= 0.0) {
+                for (int it = 0; it < 200 && hi - lo > 1.0e-12 * hi; it++) {
+                    double mid = 0.5 * (lo + hi);
+                    if (PV_OF(mid) > 0.0)
+                        lo = mid;
+                    else
+                        hi = mid;
+                }
+                T_root = 0.5 * (lo + hi);
             }
-            st->T_K = 0.5 * (lo + hi);
+        }
+        double ma_cap = (Q / (T_FIREBALL_CAP_K - Ta) - cw) / CPA;
+        if (T_root <= T_FIREBALL_CAP_K) {
+            st->T_K = T_root;
+            st->air_kg = fmax(0.0, (Q / (T_root - Ta) - cw) / CPA);
+        } else if (ma_cap > 0.0) {
+            /* Too much heat for the sphere below the cap: the gas at the cap
+             * temperature holding the heat fills a larger volume. */
+            st->T_K = T_FIREBALL_CAP_K;
+            st->air_kg = ma_cap;
+        } else {
+            /* The water's gas alone overfills the sphere: the thermal is the
+             * sphere's own air with the heat and the water added at constant
+             * pressure; it fills a larger volume. */
+            st->air_kg = amb->density_kg_m3 * V;
+            st->T_K = Ta + Q / (st->air_kg * CPA + cw);
         }
 #undef PV_OF
-        st->air_kg = fmax(0.0, (Q / (st->T_K - Ta) - cw) / CPA);
     } else {
         SL_FAIL_RETURN(e, SL_EDATA,
                        "%s source: needs either air_mass_kg > 0 and temperature_K, or heat_J > 0 and radius_m > 0", what);
@@ -649,10 +665,12 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     out->water_initial_kg = Mw0;
     out->air_initial_kg = st.air_kg;
 
-    /* The fireball's size: the source's radius when it gives one (the gas
-     * volume at ambient pressure can be larger for a very hot source). */
+    /* The fireball's size: the source's radius when it gives one.  The regime
+     * check also looks at the gas volume at ambient pressure, which is larger
+     * when the source holds more heat or water than its sphere can at that
+     * pressure (it then expands before it can rise). */
     double r_fireball = src->radius_m > 0.0 ? src->radius_m : st.radius_m;
-    if (r_fireball > out->scale_height_m) {
+    if (fmax(r_fireball, st.radius_m) > out->scale_height_m) {
         /* Blow-out: the release is larger than the atmosphere's scale height. */
         out->regime = SL_REGIME_BLOWOUT;
         out->source_radius_m = r_fireball;
