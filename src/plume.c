@@ -82,6 +82,7 @@
  *
  * Units: SI throughout (m, s, kg, J, K, Pa). */
 #include "steamloft/plume.h"
+#include "steamloft/scenario.h"
 #include "steamloft/units.h"
 #include "steamloft/water.h"
 
@@ -506,6 +507,30 @@ int sl_plume_init(sl_plume *pl, const sl_plume_params *par, sl_err *e)
     return SL_OK;
 }
 
+int sl_plume_set_params(sl_plume *pl, const sl_plume_params *par, sl_err *e)
+{
+    if (pl == NULL || pl->work == NULL || par == NULL)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "sl_plume_set_params: plume not initialised");
+    SL_TRY_RETURN(e, sl_plume_params_check(par, e));
+    if (par->rtol != pl->par.rtol) {
+        int st = gsl_odeiv2_control_init(pl->work->ctl, par->rtol, par->rtol, 1.0, 0.0);
+        if (st != GSL_SUCCESS)
+            SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: cannot set the tolerance %g (%s)", par->rtol, gsl_strerror(st));
+    }
+    pl->par = *par;
+    return SL_OK;
+}
+
+void sl_plume_params_from_scenario(sl_plume_params *par, const sl_scenario *sc)
+{
+    sl_plume_params_default(par);
+    par->entrainment_alpha = sl_scenario_value(sc, SL_P_PLUME_ALPHA);
+    par->added_mass_k = sl_scenario_value(sc, SL_P_PLUME_ADDED_MASS);
+    par->fallout_speed_m_s = sl_scenario_value(sc, SL_P_PLUME_FALLOUT_SPEED);
+    par->ice_sediment_fraction = sl_scenario_value(sc, SL_P_PLUME_ICE_SEDIMENT);
+    par->rtol = sl_scenario_value(sc, SL_P_PLUME_RTOL);
+}
+
 void sl_plume_free(sl_plume *pl)
 {
     if (pl == NULL || pl->work == NULL)
@@ -696,19 +721,40 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     double Es = M0 * CPA * amb.temperature_K;
     double sc[NY] = {Ls, M0, M0, M0 * Us, Es, Es, Es, M0, M0, M0};
     memcpy(w->scale, sc, sizeof sc);
+    double w0 = src->vertical_speed_m_s, phi0 = potential_J_kg(src->altitude_m);
+    double kin0 = 0.5 * (1.0 + w->k) * w0 * w0;
+    out->energy_initial_J = H0 + M0 * (phi0 + kin0);
+
+    /* Spray collapse: the source's water is first brought to equilibrium at
+     * the ambient pressure (hot liquid flashes to vapour, excess vapour
+     * condenses), then the condensate present at that moment - spray and
+     * drops thrown up with the plume, millimetres to centimetres across and
+     * falling at ~10 m/s (Gunn & Kinzer 1949, MEM) - falls back at once with
+     * its enthalpy, counted as fallout.  Only the gas phase starts to rise; a
+     * plume loaded with more water than air would otherwise collapse (the
+     * column collapse of eruption columns, Sparks et al. 1997). */
+    double T_eq, mv0, ml0, mi0;
+    w->T_guess = 0.0;
+    T_eq = 0.0;
+    equilibrate(w, H0, st.air_kg, Mw0, amb.pressure_Pa, &T_eq, &mv0, &ml0, &mi0);
+    double spray = ml0 + mi0;
+    double h_spray = ml0 * CPL * (T_eq - T_TRIPLE) + mi0 * (CPI * (T_eq - T_TRIPLE) - w->lf0_J_kg);
+    double Mw1 = Mw0 - spray, M1 = st.air_kg + Mw1;
+
     double y0[NY] = {0};
     y0[IZ] = src->altitude_m;
     y0[IMA] = st.air_kg;
-    y0[IMW] = Mw0;
-    y0[IPI] = (1.0 + w->k) * M0 * src->vertical_speed_m_s;
-    y0[IH] = H0;
+    y0[IMW] = Mw1;
+    y0[IPI] = (1.0 + w->k) * M1 * w0;
+    y0[IH] = H0 - h_spray;
+    y0[IWOUT] = spray;
+    y0[IEOUT] = h_spray + spray * (phi0 + kin0);
     for (int i = 0; i < NY; i++)
         w->y[i] = y0[i] / w->scale[i];
 
     diag d;
     if (diagnose(w, w->y, &d) != GSL_SUCCESS)
         SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: the initial state of the source is not usable (T, masses)");
-    out->energy_initial_J = total_energy(w, w->y, &d);
     double w_prev = d.w_m_s, f_prev = d.buoy_N;
     int have_neutral = 0;
     if (!(f_prev > 0.0)) {

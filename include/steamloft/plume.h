@@ -101,6 +101,15 @@ typedef struct sl_plume {
  * SL_EDATA for bad parameters, SL_ENOMEM. */
 int sl_plume_init(sl_plume *pl, const sl_plume_params *par, sl_err *e);
 
+/* Change the parameters of an initialised plume without reallocating (an
+ * ensemble member with its own entrainment coefficient, say).  SL_EDATA for
+ * bad parameters (PL unchanged). */
+int sl_plume_set_params(sl_plume *pl, const sl_plume_params *par, sl_err *e);
+
+/* Parameters from a finished scenario's [plume] section. */
+struct sl_scenario;
+void sl_plume_params_from_scenario(sl_plume_params *par, const struct sl_scenario *sc);
+
 /* Rise one source through ATM; fill OUT.  Allocates nothing.  SL_EDATA for
  * an unusable source (naming the field and the range), SL_ENUMERIC when the
  * solver fails or no apex is reached within max_time_s. */
