@@ -49,7 +49,13 @@
  * (the flux n v_s pi b^2 of a uniformly loaded sphere; the sedimentation rule
  * of particle clouds, Bush, Thurber & Blanchette 2003, J. Fluid Mech. 489).
  * v_s is a parameter (default 1 m/s, the order of drizzle and snowflake fall
- * speeds, Rogers & Yau 1989, MEM; 0 keeps all condensate aloft).
+ * speeds, Rogers & Yau 1989, MEM; 0 keeps all condensate aloft).  The water a
+ * source brings is first put in equilibrium at the ambient pressure (hot
+ * liquid flashes) and the condensate then present - spray and drops thrown
+ * up with the plume - falls back at once with its enthalpy ("spray
+ * collapse", counted as fallout): drops of millimetres fall at ~10 m/s, and
+ * a plume carrying more water than air would otherwise collapse like an
+ * overloaded eruption column (Sparks et al. 1997).
  *
  * Apex and cloud.  The ODEs are integrated with GSL odeiv2 (Cash-Karp RK45,
  * step-by-step evolve on a scaled state).  Events are found by root finding

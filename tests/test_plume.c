@@ -485,6 +485,40 @@ START_TEST(test_moist_adiabat)
 }
 END_TEST
 
+
+START_TEST(test_spray_collapse)
+{
+    /* A source carrying ten times more liquid than air: the liquid falls back
+     * at once (spray collapse) with its enthalpy, the gas rises.  Checked:
+     * the fallout holds the liquid less what flashed to vapour at the start
+     * (at most the water that saturates the air: PRACTICE bound), the water
+     * and energy budgets still close, and the gas phase rises. */
+    sl_atmosphere atm = {0};
+    sl_err e = {0};
+    ck_assert_msg(sl_atmosphere_init(&atm, "tropical", &e) == SL_OK, "%s", e.msg);
+    sl_plume pl = {0};
+    init_plume(&pl, 0.25, 0.5, 1e-8, 1.0);
+    sl_source s = {0};
+    s.kind = SL_SOURCE_SEA_PLUME;
+    s.altitude_m = 500.0;
+    s.air_mass_kg = 1.0e9;
+    s.vapor_mass_kg = 2.0e8;
+    s.liquid_mass_kg = 1.0e10;
+    s.temperature_K = 330.0;
+    sl_thermal th;
+    ck_assert_msg(sl_plume_rise(&pl, &atm, &s, &th, &e) == SL_OK, "%s", e.msg);
+    double r_sat_330 = SL_R_DRY_AIR_J_KG_K / SL_R_VAPOR_J_KG_K * sl_water_esat_Pa(330.0) / (95.0e3 - sl_water_esat_Pa(330.0));
+    ck_assert(th.water_fallout_kg >= 1.0e10 + 2.0e8 - 1.0e9 * r_sat_330);
+    ck_assert_msg(th.apex_altitude_m > 3000.0, "apex %g m", th.apex_altitude_m);
+    double wscale = th.water_initial_kg + th.water_entrained_kg;
+    SL_CK_ABS((th.water_final_kg - th.water_initial_kg - th.water_entrained_kg + th.water_fallout_kg) / wscale, 0.0, 1e-7);
+    double escale = fabs(th.energy_initial_J) + fabs(th.energy_entrained_J);
+    SL_CK_ABS((th.energy_final_J - th.energy_initial_J - th.energy_entrained_J + th.energy_fallout_J) / escale, 0.0, 1e-6);
+    sl_plume_free(&pl);
+    sl_atmosphere_free(&atm);
+}
+END_TEST
+
 static Suite *plume_suite(void)
 {
     Suite *s = suite_create("plume");
@@ -499,6 +533,7 @@ static Suite *plume_suite(void)
     tcase_add_test(tc, test_blowout_regime);
     tcase_add_test(tc, test_freeze_out);
     tcase_add_test(tc, test_moist_adiabat);
+    tcase_add_test(tc, test_spray_collapse);
     suite_add_tcase(s, tc);
     return s;
 }
