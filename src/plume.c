@@ -222,7 +222,7 @@ static double sat_ratio(double T_K, double p_Pa)
 /* Enthalpy (J) of Ma, Mw at T with vapour at saturation (capped at Mw), the
  * condensate all liquid (ICE = 0) or all ice (ICE = 1); its derivative in T
  * into *DHDT (with the Clausius-Clapeyron slope of e_s: only Newton's step
- * uses it, the bracket keeps the root exact). */
+ * uses it, the bracket keeps the root exact; over ice the slope is exact). */
 static double h_sat(const sl_plume_work *w, double T_K, double Ma, double Mw, double p_Pa, int ice, double *vap,
                     double *dhdt)
 {
@@ -246,7 +246,10 @@ static double h_sat(const sl_plume_work *w, double T_K, double Ma, double Mw, do
         double d = Ma * CPA + mv * CPV + mc * cc;
         if (mv < Mw && es > 0.0) {
             double lat_T = latent + (CPV - cc) * dT;
-            double des = es * lat_T / (RV * T_K * T_K);
+            /* de_s/dT: exact for Murphy & Koop's ice equation (their eq. 7),
+             * Clausius-Clapeyron over liquid. */
+            double des = T_K < T_TRIPLE ? es * (5723.265 / (T_K * T_K) + 3.53068 / T_K - 0.00728332)
+                                        : es * lat_T / (RV * T_K * T_K);
             double drs = EPS_RV * p_Pa / ((p_Pa - es) * (p_Pa - es)) * des;
             d += Ma * drs * lat_T;
         }
@@ -259,25 +262,29 @@ static double h_sat(const sl_plume_work *w, double T_K, double Ma, double Mw, do
  * Newton's method from GUESS, kept inside the shrinking bracket, bisection
  * when a step leaves it; converged to 1e-12 relative in T. */
 static double solve_T(const sl_plume_work *w, double H, double Ma, double Mw, double p, int ice, double lo, double hi,
-                      double guess)
+                      double guess, double *vap)
 {
     double x = (guess > lo && guess < hi) ? guess : (isfinite(hi) ? 0.5 * (lo + hi) : lo + 1.0);
     for (int it = 0; it < 100; it++) {
         double d;
-        double f = h_sat(w, x, Ma, Mw, p, ice, NULL, &d) - H;
+        double f = h_sat(w, x, Ma, Mw, p, ice, vap, &d) - H;
         if (f == 0.0)
             return x;
         if (f < 0.0)
             lo = x;
         else
             hi = x;
-        double xn = x - f / d;
-        if (!(xn > lo && xn < hi) || !(d > 0.0))
-            xn = isfinite(hi) ? 0.5 * (lo + hi) : 2.0 * x - lo + 1.0;
-        if (fabs(xn - x) <= 1.0e-12 * x)
+        double xn = d > 0.0 ? x - f / d : NAN;
+        if (fabs(xn - x) <= 1.0e-12 * x) {
+            /* Converged: the vapour of the last evaluation is that of XN to
+             * well below the step (dMv/dT * 1e-12 T). */
             return xn;
+        }
+        if (!(xn > lo && xn < hi))
+            xn = isfinite(hi) ? 0.5 * (lo + hi) : 2.0 * x - lo + 1.0;
         x = xn;
     }
+    h_sat(w, x, Ma, Mw, p, ice, vap, NULL);
     return x;
 }
 
@@ -306,18 +313,16 @@ static void equilibrate(const sl_plume_work *w, double H, double Ma, double Mw, 
         double hi = fmin(T1 + Mw * (w->lv0_J_kg + w->lf0_J_kg) / (Ma * CPA) + 1.0, T_NO_CONDENSATE_K);
         while (hi < T_NO_CONDENSATE_K && h_sat(w, hi, Ma, Mw, p, 0, NULL, NULL) < H)
             hi = fmin(2.0 * hi - lo, T_NO_CONDENSATE_K);
-        *T = solve_T(w, H, Ma, Mw, p, 0, lo, hi, *T);
         double v;
-        h_sat(w, *T, Ma, Mw, p, 0, &v, NULL);
+        *T = solve_T(w, H, Ma, Mw, p, 0, lo, hi, *T, &v);
         *mv = v;
         *ml = Mw - v;
         return;
     }
     double hi_ice = hl - mc_t * w->lf0_J_kg;
     if (H <= hi_ice) {
-        *T = solve_T(w, H, Ma, Mw, p, 1, fmax(T1, 0.5 * T_FROZEN_SOLID_K), T_TRIPLE, *T);
         double v;
-        h_sat(w, *T, Ma, Mw, p, 1, &v, NULL);
+        *T = solve_T(w, H, Ma, Mw, p, 1, fmax(T1, 0.5 * T_FROZEN_SOLID_K), T_TRIPLE, *T, &v);
         *mv = v;
         *mi = Mw - v;
         return;

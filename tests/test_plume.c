@@ -519,6 +519,40 @@ START_TEST(test_spray_collapse)
 }
 END_TEST
 
+
+START_TEST(test_reuse_is_deterministic)
+{
+    /* One workspace serves many scenarios (an ensemble thread): solving A,
+     * then B, then A again gives A's results bit for bit (PRACTICE: the
+     * ensembles promise identical results for any thread count). */
+    sl_atmosphere atm = {0};
+    sl_err e = {0};
+    ck_assert_msg(sl_atmosphere_init(&atm, "midlatitude-summer", &e) == SL_OK, "%s", e.msg);
+    sl_plume pl = {0};
+    init_plume(&pl, 0.25, 0.5, 1e-6, 1.0);
+    sl_injection inj = {0};
+    ck_assert_int_eq(sl_injection_init_uniform(&inj, 0.0, 100e3, 1e3, &e), SL_OK);
+    sl_source_list a = {0}, b = {0};
+    a.n = 2;
+    a.src[0] = burst(3.0, HEAT_FRACTION);
+    a.src[1] = wet_source();
+    b.n = 1;
+    b.src[0] = burst(0.05, HEAT_FRACTION);
+    double first[100], top;
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &a, &inj, &e) == SL_OK, "%s", e.msg);
+    memcpy(first, inj.vapor_kg, sizeof first);
+    top = pl.plume_top_m;
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &b, &inj, &e) == SL_OK, "%s", e.msg);
+    ck_assert(pl.plume_top_m != top);
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &a, &inj, &e) == SL_OK, "%s", e.msg);
+    ck_assert(pl.plume_top_m == top);
+    ck_assert(memcmp(first, inj.vapor_kg, sizeof first) == 0);
+    sl_injection_free(&inj);
+    sl_plume_free(&pl);
+    sl_atmosphere_free(&atm);
+}
+END_TEST
+
 static Suite *plume_suite(void)
 {
     Suite *s = suite_create("plume");
@@ -534,6 +568,7 @@ static Suite *plume_suite(void)
     tcase_add_test(tc, test_freeze_out);
     tcase_add_test(tc, test_moist_adiabat);
     tcase_add_test(tc, test_spray_collapse);
+    tcase_add_test(tc, test_reuse_is_deterministic);
     suite_add_tcase(s, tc);
     return s;
 }
