@@ -141,8 +141,9 @@ END_TEST
 START_TEST(test_quarter_power_law)
 {
     /* z_max proportional to B^(1/4) over four decades of B (impact-facts.md s.1,
-     * DERIVED): fitted slope 0.25 within 0.005 (non-Boussinesq drift across the
-     * range, z_max 40-400 m against H = 7.3 km). */
+     * DERIVED): fitted slope 0.25 within 0.001 (the non-Boussinesq drift across
+     * the range, z_max 40-400 m against H = 7.3 km, is +0.35 % in z_max, i.e.
+     * +0.0004 in the slope; measured 0.25026). */
     sl_atmosphere atm = {0};
     isothermal(&atm, 250.0, 0.0);
     sl_plume pl = {0};
@@ -159,7 +160,8 @@ START_TEST(test_quarter_power_law)
         sx += x; sy += y; sxx += x * x; sxy += x * y; n++;
     }
     double slope = (n * sxy - sx * sy) / (n * sxx - sx * sx);
-    SL_CK_ABS(slope, 0.25, 0.005);
+    printf("quarter power law: fitted slope %.5f over B x 1e4\n", slope);
+    SL_CK_ABS(slope, 0.25, 0.001);
     sl_plume_free(&pl);
     sl_atmosphere_free(&atm);
 }
