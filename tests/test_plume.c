@@ -555,6 +555,46 @@ START_TEST(test_reuse_is_deterministic)
 }
 END_TEST
 
+
+START_TEST(test_sources_add_up)
+{
+    /* Several sources rise on their own and their water adds up (issue 5):
+     * the profile of an airburst plus a sea plume equals the sum of the two
+     * profiles computed alone, band by band, to rounding (PRACTICE). */
+    sl_atmosphere atm = {0};
+    sl_err e = {0};
+    ck_assert_msg(sl_atmosphere_init(&atm, "tropical", &e) == SL_OK, "%s", e.msg);
+    sl_plume pl = {0};
+    init_plume(&pl, 0.25, 0.5, 1e-6, 1.0);
+    sl_source_list one = {0}, two = {0}, both = {0};
+    one.n = two.n = 1;
+    both.n = 2;
+    one.src[0] = both.src[0] = burst(5.0, HEAT_FRACTION);
+    two.src[0] = both.src[1] = wet_source();
+    sl_injection a = {0}, b = {0}, ab = {0};
+    ck_assert_int_eq(sl_injection_init_uniform(&a, 0.0, 100e3, 1e3, &e), SL_OK);
+    ck_assert_int_eq(sl_injection_init_uniform(&b, 0.0, 100e3, 1e3, &e), SL_OK);
+    ck_assert_int_eq(sl_injection_init_uniform(&ab, 0.0, 100e3, 1e3, &e), SL_OK);
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &one, &a, &e) == SL_OK, "%s", e.msg);
+    double strat_a = pl.stratospheric_water_kg, top_a = pl.plume_top_m;
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &two, &b, &e) == SL_OK, "%s", e.msg);
+    double strat_b = pl.stratospheric_water_kg, top_b = pl.plume_top_m;
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &both, &ab, &e) == SL_OK, "%s", e.msg);
+    for (size_t i = 0; i < ab.n_bands; i++) {
+        SL_CK_ABS(ab.vapor_kg[i], a.vapor_kg[i] + b.vapor_kg[i], 1e-12 * (ab.vapor_kg[i] + 1.0));
+        SL_CK_ABS(ab.ice_kg[i], a.ice_kg[i] + b.ice_kg[i], 1e-12 * (ab.ice_kg[i] + 1.0));
+    }
+    SL_CK_REL(pl.stratospheric_water_kg, strat_a + strat_b, 1e-12);
+    SL_CK_REL(pl.plume_top_m, fmax(top_a, top_b), 0.0);
+    ck_assert_uint_eq(pl.n_thermals, 2);
+    sl_injection_free(&a);
+    sl_injection_free(&b);
+    sl_injection_free(&ab);
+    sl_plume_free(&pl);
+    sl_atmosphere_free(&atm);
+}
+END_TEST
+
 static Suite *plume_suite(void)
 {
     Suite *s = suite_create("plume");
@@ -571,6 +611,7 @@ static Suite *plume_suite(void)
     tcase_add_test(tc, test_moist_adiabat);
     tcase_add_test(tc, test_spray_collapse);
     tcase_add_test(tc, test_reuse_is_deterministic);
+    tcase_add_test(tc, test_sources_add_up);
     suite_add_tcase(s, tc);
     return s;
 }
