@@ -271,10 +271,11 @@ START_TEST(test_budgets_close)
     /* Condensate formed and some fell out: the budget below is not trivial. */
     ck_assert(th.water_fallout_kg > 1.0e-3 * th.water_initial_kg);
     ck_assert(th.water_entrained_kg > 0.0);
-    /* Water: final = initial + entrained - fallout (conservation; PRACTICE:
-     * tolerance a few solver tolerances of the scaled state). */
+    /* Water: final = initial + entrained - fallout (conservation; PRACTICE).
+     * The water and its fluxes are integrated by the same linear combination
+     * of stages, so it closes to rounding (measured 4e-16): tolerance 1e-12. */
     double wscale = th.water_initial_kg + th.water_entrained_kg;
-    SL_CK_ABS((th.water_final_kg - th.water_initial_kg - th.water_entrained_kg + th.water_fallout_kg) / wscale, 0.0, 1e-7);
+    SL_CK_ABS((th.water_final_kg - th.water_initial_kg - th.water_entrained_kg + th.water_fallout_kg) / wscale, 0.0, 1e-12);
     double wapex = th.vapor_kg + th.liquid_kg + th.ice_kg;
     SL_CK_REL(wapex, th.water_final_kg, 1e-12);
     /* Energy: E_final = E_initial + brought by entrainment - removed by fallout,
@@ -282,7 +283,11 @@ START_TEST(test_budgets_close)
      * the solver tolerance because the enthalpy is an exact state function). */
     double escale = fabs(th.energy_initial_J) + fabs(th.energy_entrained_J);
     double resid = th.energy_final_J - th.energy_initial_J - th.energy_entrained_J + th.energy_fallout_J;
-    SL_CK_ABS(resid / escale, 0.0, 1e-6);
+    printf("budgets (rtol 1e-8): water residual %.2e, energy residual %.2e (relative)\n",
+           (th.water_final_kg - th.water_initial_kg - th.water_entrained_kg + th.water_fallout_kg) / wscale, resid / escale);
+    /* The energy is a nonlinear function of the state, so it closes to the
+     * solver's tolerance (measured 9e-10 at rtol 1e-8): tolerance 10 rtol. */
+    SL_CK_ABS(resid / escale, 0.0, 1e-7);
 
     /* Whole chain: the water reaching the bands plus what fell out, froze out
      * and the background share equals the source water plus entrained water. */
