@@ -206,7 +206,7 @@ double sl_partition_vapor_fraction(double pressure_Pa, double sea_temperature_K,
 static double pressure_for_fraction(double x_target, double t0)
 {
     double lo = log(1e6), hi = log(1e13);
-    for (int i = 0; i < 200 && hi - lo > 1e-10; i++) {
+    for (int i = 0; i < 200 && hi - lo > 1e-7; i++) {
         double mid = 0.5 * (lo + hi);
         double x = sl_partition_vapor_fraction(exp(mid), t0, NULL);
         if (x >= x_target)
@@ -263,15 +263,35 @@ static int shock_vapor(sl_partition *pt, const sl_partition_input *in, double *v
     double e_target = in->target_heat_fraction * pt->energy_at_sea_J;
     double wh = halfspace_waste_heat_J(p_ic, r_ic, n, p_end);
     if (wh > e_target) {
-        double lo = n, hi = n;
-        while (halfspace_waste_heat_J(p_ic, r_ic, hi, p_end) > e_target && hi < 1e3)
+        /* f(n) = ln(W(n)/E_t) falls with n: bracket it, then the Illinois
+         * variant of regula falsi (a few evaluations instead of ~20). */
+        double lo = n, flo = log(wh / e_target), hi = 2.0 * n, fhi;
+        while ((fhi = log(halfspace_waste_heat_J(p_ic, r_ic, hi, p_end) / e_target)) > 0 && hi < 1e3) {
+            lo = hi;
+            flo = fhi;
             hi *= 2.0;
-        for (int it = 0; it < 60 && hi - lo > 1e-5 * hi; it++) {
-            double mid = 0.5 * (lo + hi);
-            if (halfspace_waste_heat_J(p_ic, r_ic, mid, p_end) > e_target)
+        }
+        int side = 0;
+        for (int it = 0; it < 100 && fabs(hi - lo) > 1e-9 * hi; it++) {
+            double mid = (lo * fhi - hi * flo) / (fhi - flo);
+            double fm = log(halfspace_waste_heat_J(p_ic, r_ic, mid, p_end) / e_target);
+            if (fabs(fm) < 1e-7) {
+                lo = hi = mid;
+                break;
+            }
+            if (fm > 0) {
                 lo = mid;
-            else
+                flo = fm;
+                if (side == -1)
+                    fhi *= 0.5;
+                side = -1;
+            } else {
                 hi = mid;
+                fhi = fm;
+                if (side == 1)
+                    flo *= 0.5;
+                side = 1;
+            }
         }
         n = hi;
         wh = halfspace_waste_heat_J(p_ic, r_ic, n, p_end);
@@ -455,8 +475,9 @@ int sl_partition_solve(sl_partition *pt, const sl_partition_input *in, sl_err *e
         s.vapor_mass_kg = water_air;
         SL_TRY_RETURN(e, add_source(pt, &s, e));
     }
-    /* Sea plume. */
-    if (vap + water_sea + liq > 0 || heat > 0) {
+    /* Sea plume: when it carries water, or heat worth 0.1 % of the energy
+     * (not for the debris of an airburst settling at terminal speed). */
+    if (vap + water_sea + liq > 0 || heat > 1e-3 * pt->energy_total_J) {
         const sl_partition_air *a = &in->air_at_sea;
         sl_source s = {0};
         s.kind = SL_SOURCE_SEA_PLUME;
