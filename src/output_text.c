@@ -260,7 +260,7 @@ static void emit_plume(sl_report *r, const sl_chain *ch)
     sl_report_number(r, "cloud_top_m", pl->cloud_top_m, "cloud top", 1e-3, "km");
     sl_report_number(r, "tropopause_altitude_m", pl->tropopause_altitude_m, "tropopause", 1e-3, "km");
     sl_report_number(r, "water_lofted_kg", pl->water_lofted_kg, "water in the young clouds", 1e-9, "Tg");
-    sl_report_number(r, "fallout_kg", pl->fallout_kg, "condensate fallen out during the rise", 1e-9, "Tg");
+    sl_report_number(r, "fallout_kg", pl->fallout_kg, "fallen out: spray and condensate", 1e-9, "Tg");
     sl_report_number(r, "frozen_out_kg", pl->frozen_out_kg, "ice sedimented out at cloud level", 1e-9, "Tg");
     sl_report_number(r, "background_water_kg", pl->background_kg, "background vapour of the cloud air", 1e-9, "Tg");
     sl_report_number(r, "injected_vapor_kg", sl_injection_total_vapor_kg(inj), "vapour injected (all bands)", 1e-9, "Tg");

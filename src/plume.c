@@ -199,13 +199,15 @@ const char *sl_plume_regime_name(int regime)
 
 /* ------------------------------------------------------------------ thermo */
 
+/* Gravity of the atmosphere module (inverse square, USSA76 g0 and r0), so the
+ * thermal feels the field the profile is hydrostatic in. */
 static double gravity_m_s2(double z_m)
 {
-    double r = SL_USSA_R0_M / (SL_USSA_R0_M + z_m);
-    return SL_USSA_G0_M_S2 * r * r;
+    return sl_atmosphere_gravity_m_s2(z_m);
 }
 
-/* Potential of the inverse-square field, zero at sea level: integral of g dz. */
+/* Potential of that inverse-square field, zero at sea level: the integral of
+ * g dz, g0 r0 z / (r0 + z). */
 static double potential_J_kg(double z_m)
 {
     return SL_USSA_G0_M_S2 * SL_USSA_R0_M * z_m / (SL_USSA_R0_M + z_m);
