@@ -52,6 +52,14 @@ assert b["plume_top_m"] < 0.95 * a["plume_top_m"], (a["plume_top_m"], b["plume_t
 PY
 then sl_ok "larger entrainment coefficient, lower plume"; else sl_fail "entrainment coefficient has no effect"; fi
 
+# A 1 km stony body into the ocean: its vapour plume is wider than the scale
+# height, so the blow-out regime is marked in both formats (DESIGN.md 4.5).
+ex1km="$SL_SRCDIR/examples/ocean-stony-1km-budget.ini"
+sl_expect_exit 0 "run the 1 km example" "$SL_BIN" run --json "$ex1km"
+sl_expect_grep "$SL_TMP/out" '"regime": "blow-out"' "JSON marks the blow-out regime"
+sl_expect_exit 0 "run the 1 km example (text)" "$SL_BIN" run "$ex1km"
+sl_expect_grep "$SL_TMP/out" "regime  *blow-out" "text marks the blow-out regime"
+
 # Mistakes in [plume].
 printf '[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 0\n[plume]\nentrainment_coefficient = 1.5\n' >"$SL_TMP/bad1.ini"
 sl_expect_exit 65 "entrainment coefficient out of range" "$SL_BIN" run "$SL_TMP/bad1.ini"
