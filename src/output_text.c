@@ -277,6 +277,8 @@ static void emit_plume(sl_report *r, const sl_chain *ch)
         sl_report_number(r, "apex_time_s", th->apex_time_s, "time to apex", 1.0 / 60.0, "min");
         sl_report_number(r, "apex_altitude_m", th->apex_altitude_m, "apex (centre)", 1e-3, "km");
         sl_report_number(r, "apex_radius_m", th->apex_radius_m, "radius at apex", 1e-3, "km");
+        sl_report_number(r, "apex_radius_to_scale_height", th->apex_radius_m / th->apex_scale_height_m,
+                         "radius / scale height at apex", 1.0, "");
         sl_report_number(r, "neutral_altitude_m", th->neutral_altitude_m, "neutral-buoyancy level", 1e-3, "km");
         sl_report_number(r, "cloud_bottom_m", th->cloud_bottom_m, "cloud bottom", 1e-3, "km");
         sl_report_number(r, "cloud_top_m", th->cloud_top_m, "cloud top", 1e-3, "km");

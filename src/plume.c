@@ -721,6 +721,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
         out->source_radius_m = r_fireball;
         out->apex_altitude_m = src->altitude_m;
         out->apex_radius_m = r_fireball;
+        out->apex_scale_height_m = out->scale_height_m;
         out->top_altitude_m = src->altitude_m + r_fireball;
         out->neutral_altitude_m = src->altitude_m;
         out->cloud_bottom_m = fmax(zlo, src->altitude_m - r_fireball);
@@ -787,6 +788,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
         /* Neither rising nor buoyant: it stays where it is. */
         out->apex_altitude_m = d.z_m;
         out->apex_radius_m = d.radius_m;
+        out->apex_scale_height_m = out->scale_height_m;
         out->top_altitude_m = d.z_m + d.radius_m;
         out->cloud_bottom_m = d.z_m;
         out->cloud_top_m = d.z_m + d.radius_m;
@@ -854,6 +856,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     out->apex_time_s = t;
     out->apex_altitude_m = d.z_m;
     out->apex_radius_m = d.radius_m;
+    out->apex_scale_height_m = d.amb.pressure_Pa / (d.amb.density_kg_m3 * d.g_m_s2);
     out->top_altitude_m = d.z_m + d.radius_m;
     finish_budget(w, out, w->y, &d);
     if (out->regime == SL_REGIME_BLOWOUT) {

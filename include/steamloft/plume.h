@@ -61,6 +61,8 @@ typedef struct sl_thermal {
     double apex_time_s;            /* time of w = 0 (0 when it never rose) */
     double apex_altitude_m;        /* centre at the apex */
     double apex_radius_m;
+    double apex_scale_height_m;    /* p/(rho g) at the apex: a radius well above it strains the
+                                    * bulk-thermal picture (the report shows the ratio) */
     double top_altitude_m;         /* apex centre + apex radius: highest reach */
     double neutral_altitude_m;     /* first level where the buoyancy force vanished */
     double neutral_time_s;
