@@ -215,7 +215,8 @@ static void emit_partition(sl_report *r, const sl_chain *ch)
         sl_report_number(r, "water_vapor_limit_kg", pt->water_vapor_limit_kg, "limit (all energy into vapour)", 1e-9, "Tg");
         sl_report_number(r, "water_liquid_lofted_kg", pt->water_liquid_lofted_kg, "liquid thrown up with it", 1e-9, "Tg");
         sl_report_number(r, "impactor_water_kg", pt->impactor_water_kg, "water carried by the impactor", 1e-9, "Tg");
-        sl_report_number(r, "plume_heat_J", pt->energy_plume_heat_J, "sensible heat of the sea plume", 1.0 / SL_J_PER_MT_TNT, "Mt");
+        sl_report_number(r, "plume_heat_J", pt->energy_plume_heat_J, "extra heat of the sea plume", 1.0 / SL_J_PER_MT_TNT, "Mt");
+        sl_report_number(r, "liquid_heat_J", pt->energy_liquid_heat_J, "heating the thrown-up liquid", 1.0 / SL_J_PER_MT_TNT, "Mt");
         sl_report_number(r, "energy_other_J", pt->energy_other_J, "crater, waves, rock", 1.0 / SL_J_PER_MT_TNT, "Mt");
         sl_report_number(r, "cavity_diameter_m", pt->cavity_diameter_m, "transient cavity diameter", 1e-3, "km");
         sl_report_bool(r, "shallow_water", pt->shallow, "cavity reaches the sea floor");
