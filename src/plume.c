@@ -89,9 +89,13 @@
  * to the bands; r the source's radius when it gives one), the
  * regime is marked "blow-out" and the freeze-out applies as usual.  This rule
  * is a transparent lower bound on the height (blow-out material rises
- * higher); results in this regime are flagged everywhere.  A thermal that
- * reaches the top of the atmosphere profile is marked the same way and its
- * water placed in the layer of its radius below the profile top.
+ * higher); results in this regime are flagged everywhere.  A thermal whose
+ * centre reaches the top of the atmosphere profile is marked the same way and
+ * its water placed in the layer of its radius below the profile top; one
+ * whose top (apex + radius) reaches past the profile top keeps the cloud rule
+ * (clipped into the bands) but is marked blow-out too.  Each thermal also
+ * reports its radius over the scale height at the apex: near 1 for a 1-2 Mt
+ * cloud, 2.2 for 15 Mt, where the bulk thermal starts to strain.
  *
  * Units: SI throughout (m, s, kg, J, K, Pa). */
 #include "steamloft/plume.h"
@@ -868,6 +872,10 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
         /* The cloud rule: from the neutral level to the thermal's highest reach. */
         out->cloud_bottom_m = fmax(zlo, fmin(out->neutral_altitude_m, out->top_altitude_m));
         out->cloud_top_m = out->top_altitude_m;
+        /* A thermal whose top reaches past the top of the atmosphere profile
+         * has blown out of it as well (it has grown to many scale heights). */
+        if (out->top_altitude_m > zhi)
+            out->regime = SL_REGIME_BLOWOUT;
     }
     return SL_OK;
 }
