@@ -399,6 +399,23 @@ START_TEST(test_blowout_regime)
     double in_bands = sl_injection_total_vapor_kg(&inj) + sl_injection_total_ice_kg(&inj);
     SL_CK_REL(in_bands + pl.frozen_out_kg + pl.background_kg, 1.0e13, 1e-12);
     ck_assert(pl.stratospheric_water_kg > 0.0);
+    /* A steam thermal that starts smaller than the scale height but whose top
+     * passes the top of the profile (120 km) while it rises: the sea plume of
+     * the 300 m example (air 70.6 Tg, vapour 183 Tg, spray 747 Tg at 501 K,
+     * 5 km up).  It rises (apex time > 0) and is marked blow-out. */
+    list.src[0].kind = SL_SOURCE_SEA_PLUME;
+    list.src[0].altitude_m = 4978.0;
+    list.src[0].radius_m = 4978.0;
+    list.src[0].air_mass_kg = 7.058e10;
+    list.src[0].vapor_mass_kg = 1.826e11;
+    list.src[0].liquid_mass_kg = 7.473e11;
+    list.src[0].temperature_K = 500.9;
+    list.src[0].heat_J = 0.0;
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &list, &inj, &e) == SL_OK, "%s", e.msg);
+    ck_assert(pl.th[0].apex_time_s > 60.0);
+    ck_assert(pl.th[0].top_altitude_m > atm.altitude_m[atm.n - 1]);
+    ck_assert_int_eq(pl.th[0].regime, SL_REGIME_BLOWOUT);
+    ck_assert_int_eq(pl.regime, SL_REGIME_BLOWOUT);
     sl_injection_free(&inj);
     sl_plume_free(&pl);
     sl_atmosphere_free(&atm);
