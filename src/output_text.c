@@ -264,6 +264,7 @@ static void emit_plume(sl_report *r, const sl_chain *ch)
     sl_report_number(r, "fallout_kg", pl->fallout_kg, "fallen out: spray and condensate", 1e-9, "Tg");
     sl_report_number(r, "frozen_out_kg", pl->frozen_out_kg, "ice sedimented out at cloud level", 1e-9, "Tg");
     sl_report_number(r, "background_water_kg", pl->background_kg, "background vapour of the cloud air", 1e-9, "Tg");
+    sl_report_number(r, "water_below_bands_kg", pl->below_bands_kg, "cloud water below the lowest band", 1e-9, "Tg");
     sl_report_number(r, "injected_vapor_kg", sl_injection_total_vapor_kg(inj), "vapour injected (all bands)", 1e-9, "Tg");
     sl_report_number(r, "injected_ice_kg", sl_injection_total_ice_kg(inj), "ice remaining (all bands)", 1e-9, "Tg");
     sl_report_number(r, "stratospheric_water_kg", pl->stratospheric_water_kg, "vapour above the tropopause", 1e-9, "Tg");

@@ -894,7 +894,7 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
     pl->regime = SL_REGIME_THERMAL;
     pl->plume_top_m = pl->cloud_bottom_m = pl->cloud_top_m = pl->neutral_altitude_m = NAN;
     pl->tropopause_altitude_m = atm->tropopause_altitude_m;
-    pl->water_lofted_kg = pl->fallout_kg = pl->frozen_out_kg = pl->background_kg = 0.0;
+    pl->water_lofted_kg = pl->fallout_kg = pl->frozen_out_kg = pl->background_kg = pl->below_bands_kg = 0.0;
     pl->stratospheric_water_kg = pl->stratospheric_ice_kg = 0.0;
     double most_water = -1.0, t_last = 0.0, area = 0.0;
     double band_lo = inj->band_bottom_m[0], band_hi = inj->band_top_m[inj->n_bands - 1];
@@ -919,13 +919,22 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
         pl->fallout_kg += th->water_fallout_kg;
         t_last = fmax(t_last, th->apex_time_s);
         area += SL_PI * th->apex_radius_m * th->apex_radius_m;
-        /* The cloud layer, clipped into the band range (a cloud above the top
-         * band is pressed against it). */
+        /* The cloud layer in the band range: the share below the lowest band
+         * is left out of the profile (tallied), a cloud reaching above the
+         * top band is pressed into it. */
         sl_young_cloud c;
-        c.bottom_m = fmin(fmax(th->cloud_bottom_m, band_lo), band_hi);
-        c.top_m = fmin(fmax(th->cloud_top_m, band_lo), band_hi);
-        c.air_kg = th->air_kg;
-        c.water_kg = water;
+        double cb = th->cloud_bottom_m, ct = th->cloud_top_m, keep = 1.0;
+        if (ct <= band_lo)
+            keep = 0.0;
+        else if (cb < band_lo)
+            keep = (ct - band_lo) / (ct - cb);
+        pl->below_bands_kg += water * (1.0 - keep);
+        if (keep == 0.0)
+            continue;
+        c.bottom_m = fmin(fmax(cb, band_lo), band_hi);
+        c.top_m = fmin(fmax(ct, band_lo), band_hi);
+        c.air_kg = th->air_kg * keep;
+        c.water_kg = water * keep;
         sl_freeze_out fo;
         SL_TRY_RETURN(e, sl_injection_add_cloud(inj, atm, &c, pl->par.ice_sediment_fraction, &fo, e));
         pl->frozen_out_kg += fo.sedimented_kg;

@@ -95,6 +95,8 @@ typedef struct sl_plume {
     double fallout_kg;             /* condensate that fell out during the rise */
     double frozen_out_kg;          /* ice formed at cloud level that sedimented out */
     double background_kg;          /* background vapour carried by the cloud air (not injection) */
+    double below_bands_kg;         /* cloud water below the lowest band, left out of the profile;
+                                    * water_lofted = bands + frozen_out + background + below_bands */
     double stratospheric_water_kg; /* injected vapour above the tropopause */
     double stratospheric_ice_kg;   /* ice remaining above the tropopause */
 } sl_plume;
@@ -119,7 +121,9 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
 
 /* Rise every source of SRC, place each cloud, apply the freeze-out and add the
  * water into INJ (which must have bands; its masses are cleared first, its
- * tropopause set from ATM), and fill the event totals.  Allocates nothing. */
+ * tropopause set from ATM), and fill the event totals.  A cloud's share
+ * below the lowest band is left out (below_bands_kg); a cloud reaching above
+ * the top band is pressed into it.  Allocates nothing. */
 int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list *src, sl_injection *inj, sl_err *e);
 
 /* Release the workspace; safe on a zeroed or half-built struct. */
