@@ -472,6 +472,16 @@ static int locate(sl_plume_work *w, int event, double t_now, double *t_root, sl_
 {
     w->event = event;
     gsl_function F = {event_at, w};
+    double f0 = event_at(w->t_prev, w), f1 = event_at(t_now, w);
+    if (isfinite(f0) && isfinite(f1) && f0 * f1 > 0.0) {
+        /* The re-step to the step's end can differ from the accepted step by
+         * rounding; when that hides a sign change the event sits at an end
+         * of the step, within rounding: take the end nearer to zero. */
+        *t_root = fabs(f1) <= fabs(f0) ? t_now : w->t_prev;
+        if (step_to(w, *t_root) != GSL_SUCCESS)
+            SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: step to the event at t = %g s failed", *t_root);
+        return SL_OK;
+    }
     int st = gsl_root_fsolver_set(w->root, &F, w->t_prev, t_now);
     if (st != GSL_SUCCESS)
         SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: event %d not bracketed between t = %g and %g s (%s)", event, w->t_prev,
