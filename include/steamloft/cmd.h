@@ -8,8 +8,10 @@
 #include "steamloft/cli.h"
 
 int sl_cmd_help(int argc, char **argv, const sl_cli_globals *g);
+int sl_cmd_decay(int argc, char **argv, const sl_cli_globals *g);
 
 #define SL_CMD_TABLE \
-    {"help", "print the help of steamloft or of one command", sl_cmd_help},
+    {"help", "print the help of steamloft or of one command", sl_cmd_help}, \
+    {"decay", "stratospheric box model on an injection profile or one layer", sl_cmd_decay},
 
 #endif
