@@ -134,7 +134,8 @@ typedef struct sl_strat_model {
     size_t n_run;                   /* output times computed (>= n_out, covers 3 years) */
     size_t n_aug;                   /* n_boxes + SL_STRAT_N_SINKS */
     double *rate;                   /* n_aug x n_aug, annual-mean rates (no seasonal sink), column = source */
-    double *propagator[12];         /* per calendar month, n_aug x n_aug, for internal_step_s */
+    double *propagator[12];         /* per calendar month, n_aug x n_aug, for internal_step_s,
+                                       column-major: element (i, j) at [j * n_aug + i] */
     double slowest_mode_s;          /* e-folding of the slowest transport mode (conserved tracer) */
 } sl_strat_model;
 
