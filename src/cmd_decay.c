@@ -223,7 +223,9 @@ static void print_json(const sl_strat_model *m, const sl_strat_result *r, const 
     printf("  \"percent_of_background\": %.6g,\n", r->percent_of_background_peak);
     printf("  \"peak_global_anomaly_ppmv\": %.6g,\n", sl_mole_fraction_to_ppmv(r->peak_global_anomaly_mole_fraction));
     printf("  \"peak_global_column_kg_m2\": %.6g,\n", r->peak_global_column_kg_m2);
+    printf("  \"peak_global_column_precip_um\": %.6g,\n", sl_kg_m2_to_precip_um(r->peak_global_column_kg_m2));
     printf("  \"peak_local_column_kg_m2\": %.6g,\n", r->peak_local_column_kg_m2);
+    printf("  \"peak_local_column_precip_um\": %.6g,\n", sl_kg_m2_to_precip_um(r->peak_local_column_kg_m2));
     printf("  \"forcing_indicator_W_m2\": %.6g,\n", r->forcing_indicator_W_m2);
     printf("  \"fraction_remaining_1y\": %.6g,\n  \"fraction_remaining_3y\": %.6g,\n", r->fraction_remaining_1y,
            r->fraction_remaining_3y);

@@ -793,7 +793,20 @@ int sl_strat_model_init(sl_strat_model *m, const sl_strat_params *p, const sl_at
         m->n_out = (size_t)floor(p->span_s / p->step_s + 1e-9) + 1;
         size_t n3 = (size_t)ceil(3.0 * SL_S_PER_YEAR / p->step_s - 1e-9) + 2;
         m->n_run = m->n_out > n3 ? m->n_out : n3;
+        /* Months with the same seasonal sinks share one exponential
+         * (2 or 3 distinct ones instead of 12). */
+        int key[12];
         for (int c = 0; c < 12 && rc == SL_OK; c++) {
+            key[c] = (antarctic_months[c] && p->antarctic_vortex_fraction > 0.0) +
+                     2 * (arctic_months[c] && p->arctic_vortex_fraction > 0.0);
+            int same = -1;
+            for (int d = 0; d < c && same < 0; d++)
+                if (key[d] == key[c])
+                    same = d;
+            if (same >= 0) {
+                memcpy(m->propagator[c], m->propagator[same], sizeof(double) * n * n);
+                continue;
+            }
             memcpy(A, m->rate, sizeof(double) * n * n);
             add_polar(m, &gx, A, n, c);
             rc = propagator(A, n, m->n_boxes, m->internal_step_s, m->propagator[c], e);
