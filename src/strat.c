@@ -254,8 +254,9 @@ int sl_strat_params_check(const sl_strat_params *p, sl_err *e)
                        p->region_spread_time_s, p->zonal_spread_time_s);
     if (p->step_s > p->span_s)
         SL_FAIL_RETURN(e, SL_EDATA, "strat output step %g s is longer than the span %g s", p->step_s, p->span_s);
-    if (p->start_month < 1 || p->start_month > 12)
-        SL_FAIL_RETURN(e, SL_EDATA, "strat parameter start_month = %d is outside the valid range 1 to 12", p->start_month);
+    if (p->start_month < 0 || p->start_month > 12)
+        SL_FAIL_RETURN(e, SL_EDATA, "strat parameter start_month = %d is outside the valid range 0 (unknown) to 12",
+                       p->start_month);
     return SL_OK;
 }
 
@@ -538,11 +539,13 @@ static void add_polar(const sl_strat_model *m, const geom_extra *gx, double *A, 
     const sl_strat_params *p = &m->par;
     size_t sink = m->n_boxes + SL_STRAT_SINK_POLAR_WINTER;
     for (size_t b = 0; b < m->n_boxes; b++) {
+        /* start_month 0 (month unknown): the annual-mean rate in every month. */
+        int annual = p->start_month == 0;
         double rate = 0.0;
-        if (m->box_region[b] == SL_STRAT_SOUTH && antarctic_months[cal] && p->antarctic_vortex_fraction > 0.0)
-            rate = -log1p(-p->antarctic_vortex_fraction) / (4.0 * MONTH_S);
-        else if (m->box_region[b] == SL_STRAT_NORTH && arctic_months[cal] && p->arctic_vortex_fraction > 0.0)
-            rate = -log1p(-p->arctic_vortex_fraction) / (3.0 * MONTH_S);
+        if (m->box_region[b] == SL_STRAT_SOUTH && (annual || antarctic_months[cal]) && p->antarctic_vortex_fraction > 0.0)
+            rate = -log1p(-p->antarctic_vortex_fraction) / (annual ? SL_S_PER_YEAR : 4.0 * MONTH_S);
+        else if (m->box_region[b] == SL_STRAT_NORTH && (annual || arctic_months[cal]) && p->arctic_vortex_fraction > 0.0)
+            rate = -log1p(-p->arctic_vortex_fraction) / (annual ? SL_S_PER_YEAR : 3.0 * MONTH_S);
         if (rate > 0.0 && gx->psc_share[b] > 0.0)
             add_flow(A, n, sink, b, rate * gx->psc_share[b]);
     }
@@ -797,8 +800,9 @@ int sl_strat_model_init(sl_strat_model *m, const sl_strat_params *p, const sl_at
          * (2 or 3 distinct ones instead of 12). */
         int key[12];
         for (int c = 0; c < 12 && rc == SL_OK; c++) {
-            key[c] = (antarctic_months[c] && p->antarctic_vortex_fraction > 0.0) +
-                     2 * (arctic_months[c] && p->arctic_vortex_fraction > 0.0);
+            key[c] = p->start_month == 0 ? 0
+                                         : (antarctic_months[c] && p->antarctic_vortex_fraction > 0.0) +
+                                               2 * (arctic_months[c] && p->arctic_vortex_fraction > 0.0);
             int same = -1;
             for (int d = 0; d < c && same < 0; d++)
                 if (key[d] == key[c])
@@ -1287,7 +1291,8 @@ static int integrate(const sl_strat_model *m, sl_strat_result *r, double a0, dou
     for (size_t i = 1; i < m->n_run; i++) {
         for (size_t s = 0; s < m->substeps; s++) {
             double tmid = ((double)((i - 1) * m->substeps + s) + 0.5) * h;
-            int cal = (int)(((long)(p->start_month - 1) + (long)floor(tmid / MONTH_S)) % 12);
+            int start = p->start_month > 0 ? p->start_month - 1 : 0;
+            int cal = (int)(((long)start + (long)floor(tmid / MONTH_S)) % 12);
             /* y2 = P y as a sum of columns (stored contiguously, so the
              * inner loop vectorises).  The sink columns of P are unit
              * vectors: sinks keep their value plus what flows in. */

@@ -88,7 +88,8 @@ typedef struct sl_strat_params {
     /* Run. */
     double span_s;                  /* length of the output time series (default 20 years) */
     double step_s;                  /* output step (default 1/12 year) */
-    int start_month;                /* calendar month of the event, 1-12 */
+    int start_month;                /* calendar month of the event, 1-12; 0 = unknown: the
+                                       seasonal polar sink acts at its annual-mean rate */
 } sl_strat_params;
 
 /* Fill the defaults (all published or calibrated; see src/strat.c). */
