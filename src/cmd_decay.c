@@ -337,6 +337,13 @@ int sl_cmd_decay(int argc, char **argv, const sl_cli_globals *g)
             inj.cloud_area_m2 = o.area_m2;
         st = sl_strat_model_init(&m, &p, atm, &e);
     }
+    /* The pipe's flux is the tropical 100-hPa flux: a mid-latitude profile in
+     * the tropics (tropopause near 11 km) slows the whole circulation. */
+    if (st == SL_OK && g->verbosity >= 0 && m.tropopause_m[SL_STRAT_TROPICS] < 14.0e3)
+        fprintf(stderr,
+                "steamloft decay: warning: the tropical background '%s' has its tropopause at %.1f km; the box "
+                "model is calibrated for a tropical profile there (--tropics-atmosphere tropical)\n",
+                at.name, sl_m_to_km(m.tropopause_m[SL_STRAT_TROPICS]));
     if (st == SL_OK)
         st = sl_strat_result_init(&r, &m, &e);
     if (st == SL_OK)

@@ -192,8 +192,13 @@ int sl_strat_result_init(sl_strat_result *r, const sl_strat_model *m, sl_err *e)
 void sl_strat_result_free(sl_strat_result *r);
 
 /* Run the box model on INJ (bands, masses, latitude_deg, cloud_area_m2).
- * No allocation.  SL_EDATA for negative or non-finite masses or a latitude
- * outside -90..90; SL_EINTERNAL if the mass budget does not close. */
+ * What lies above each region's tropopause (from the model's background
+ * profiles, not inj->tropopause_altitude_m) enters; the rest is
+ * r->not_entered_kg.  t = 0 is the time of the profile (inj->time_s is not
+ * used).  With cloud_area_m2 > 0 the young cloud first freezes out what it
+ * cannot hold at ice saturation.  No allocation.  SL_EDATA for negative or
+ * non-finite masses or a latitude outside -90..90; SL_EINTERNAL if the mass
+ * budget does not close or a mass turns negative. */
 int sl_strat_run(const sl_strat_model *m, const sl_injection *inj, sl_strat_result *r, sl_err *e);
 
 /* Run from given box masses BOX_KG[n_boxes] at t = 0 (no young cloud, no
