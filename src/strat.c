@@ -254,6 +254,10 @@ int sl_strat_params_check(const sl_strat_params *p, sl_err *e)
                        p->region_spread_time_s, p->zonal_spread_time_s);
     if (p->step_s > p->span_s)
         SL_FAIL_RETURN(e, SL_EDATA, "strat output step %g s is longer than the span %g s", p->step_s, p->span_s);
+    /* Bounded memory: at most 1e5 output times (20 years of 2-hour steps). */
+    if (p->span_s / p->step_s > 1.0e5)
+        SL_FAIL_RETURN(e, SL_EDATA, "strat span %g s / step %g s gives more than 100000 output times; "
+                       "use a longer step or a shorter span", p->span_s, p->step_s);
     if (p->start_month < 0 || p->start_month > 12)
         SL_FAIL_RETURN(e, SL_EDATA, "strat parameter start_month = %d is outside the valid range 0 (unknown) to 12",
                        p->start_month);
