@@ -39,8 +39,10 @@ static void usage(FILE *out)
             "  --inject MASS_KG         water mass of a single layer, kg\n"
             "  --between BOTTOM_M TOP_M altitude range of that layer, m (or BOTTOM_M,TOP_M)\n"
             "  --latitude DEG           latitude of the event, -90..90 (overrides the profile's)\n"
-            "  --cloud-area M2          area of the young cloud, m2 (then water above ice\n"
-            "                           saturation in it freezes out at once)\n"
+            "  --cloud-area M2          area of the young cloud, m2 (for the local column)\n"
+            "  --freeze-out             freeze out at once the water above ice saturation in\n"
+            "                           the young cloud (for raw lofted water; profiles from\n"
+            "                           steamloft are frozen out already)\n"
             "  --month N                calendar month of the event, 1-12 (default 1); 0 = unknown\n"
             "                           (the polar winter sink then acts at its annual mean)\n"
             "  --span-years Y           length of the time series, years (default 20)\n"
@@ -65,13 +67,13 @@ typedef struct decay_opts {
     int month;
     double span_years, step_days;
     const char *atm_tropics, *atm_extra;
-    int json, series, calibrate;
+    int json, series, calibrate, freeze_out;
 } decay_opts;
 
 static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts *o, int *done)
 {
     enum { O_INJECT = 256, O_BETWEEN, O_LAT, O_AREA, O_MONTH, O_SPAN, O_STEP, O_ATM, O_ATM_T, O_ATM_X, O_JSON,
-           O_SERIES, O_CAL };
+           O_SERIES, O_CAL, O_FREEZE };
     static const struct option lo[] = {
         {"inject", required_argument, NULL, O_INJECT},   {"between", required_argument, NULL, O_BETWEEN},
         {"latitude", required_argument, NULL, O_LAT},    {"cloud-area", required_argument, NULL, O_AREA},
@@ -81,6 +83,7 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
         {"extratropics-atmosphere", required_argument, NULL, O_ATM_X},
         {"json", no_argument, NULL, O_JSON},             {"series", no_argument, NULL, O_SERIES},
         {"calibrate", no_argument, NULL, O_CAL},         {"help", no_argument, NULL, 'h'},
+        {"freeze-out", no_argument, NULL, O_FREEZE},
         {NULL, 0, NULL, 0}};
     sl_err e = {0};
     int c;
@@ -160,6 +163,7 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
         case O_JSON: o->json = 1; break;
         case O_SERIES: o->series = 1; break;
         case O_CAL: o->calibrate = 1; break;
+        case O_FREEZE: o->freeze_out = 1; break;
         default: return sl_cli_usage_error(g, "decay", "unknown option (see --help)");
         }
     }
@@ -315,6 +319,7 @@ int sl_cmd_decay(int argc, char **argv, const sl_cli_globals *g)
     p.start_month = o.month;
     p.span_s = sl_years_to_s(o.span_years);
     p.step_s = sl_days_to_s(o.step_days);
+    p.cloud_freeze_out = o.freeze_out;
     if (st == SL_OK && o.calibrate) {
         rc = run_calibration(&p, atm, g);
         goto out;
