@@ -314,7 +314,7 @@ static int profile_vars(ncw *w, const sl_output_view *v, int nv, int *zdim, sl_e
     int id;
     SL_TRY_RETURN(e, def_zaxis(w, "altitude", "altitude of the band centre", inj->band_bottom_m,
                                inj->band_top_m, n, nv, zdim, e));
-    SL_TRY_RETURN(e, def_var(w, "water_vapor_mass", 1, zdim, inj->vapor_kg, NULL,
+    SL_TRY_RETURN(e, def_var(w, "vapor_mass", 1, zdim, inj->vapor_kg, NULL,
                              "water vapour lofted into the altitude band", "kg", &id, e));
     SL_TRY_RETURN(e, att_text(w, id, "cell_methods", "altitude: sum", e));
     SL_TRY_RETURN(e, def_var(w, "ice_mass", 1, zdim, inj->ice_kg, NULL,
@@ -333,7 +333,7 @@ static int profile_vars(ncw *w, const sl_output_view *v, int nv, int *zdim, sl_e
                              "kg m-2", &id, e));
     SL_TRY_RETURN(e, att_text(w, id, "cell_methods", "area: mean", e));
     SL_TRY_RETURN(e, att_text(w, id, "comment",
-                              "water_vapor_mass divided by the area of the Earth (4 pi R^2, "
+                              "vapor_mass divided by the area of the Earth (4 pi R^2, "
                               "R = 6371.0088 km); the layer is given by altitude_bnds", e));
     if (inj->cloud_area_m2 > 0) {
         double *loc = own(w, n, e);
@@ -346,7 +346,7 @@ static int profile_vars(ncw *w, const sl_output_view *v, int nv, int *zdim, sl_e
                                  "lofted water vapour per unit area over the young cloud", "kg m-2",
                                  &id, e));
         SL_TRY_RETURN(e, att_text(w, id, "comment",
-                                  "water_vapor_mass divided by cloud_area; the layer is given by "
+                                  "vapor_mass divided by cloud_area; the layer is given by "
                                   "altitude_bnds", e));
         SL_TRY_RETURN(e, def_scalar(w, "cloud_area", inj->cloud_area_m2, NULL,
                                     "horizontal area of the young cloud", "m2", e));
@@ -356,7 +356,7 @@ static int profile_vars(ncw *w, const sl_output_view *v, int nv, int *zdim, sl_e
         tv += inj->vapor_kg[i];
         ti += inj->ice_kg[i];
     }
-    SL_TRY_RETURN(e, def_scalar(w, "total_water_vapor_mass", tv, NULL,
+    SL_TRY_RETURN(e, def_scalar(w, "total_vapor_mass", tv, NULL,
                                 "total water vapour lofted (sum over the bands)", "kg", e));
     SL_TRY_RETURN(e, def_scalar(w, "total_ice_mass", ti, NULL,
                                 "total condensed water lofted (sum over the bands)", "kg", e));
@@ -370,7 +370,7 @@ static int profile_vars(ncw *w, const sl_output_view *v, int nv, int *zdim, sl_e
                                     "water (vapour and condensate) lofted above the tropopause",
                                     "kg", e));
     }
-    SL_TRY_RETURN(e, def_scalar(w, "injection_latitude", inj->latitude_deg, "latitude",
+    SL_TRY_RETURN(e, def_scalar(w, "latitude", inj->latitude_deg, "latitude",
                                 "latitude of the event", "degrees_north", e));
     SL_TRY_RETURN(e, def_scalar(w, "injection_time", inj->time_s, NULL,
                                 "time after the event that the injection profile refers to", "s", e));

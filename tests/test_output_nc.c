@@ -199,13 +199,13 @@ static int check_with_python(const char *nc, const char *format, int layers_equa
     fprintf(f, "format %s\n", format);
     /* Masses in the file equal the run's to double rounding: written as doubles. */
     for (int i = 0; i < NB; i += 7) {
-        fprintf(f, "var water_vapor_mass %d %.17g 1e-15\n", i, F.vap[i]);
+        fprintf(f, "var vapor_mass %d %.17g 1e-15\n", i, F.vap[i]);
         fprintf(f, "var ice_mass %d %.17g 1e-15\n", i, F.ice[i]);
         fprintf(f, "var altitude_bnds %d %.17g 0\n", 2 * i, F.bottom[i]);
         fprintf(f, "var altitude_bnds %d %.17g 0\n", 2 * i + 1, F.top[i]);
     }
-    fprintf(f, "var total_water_vapor_mass 0 %.17g 1e-13\n", F.total_vapor_kg);
-    fprintf(f, "sum water_vapor_mass 1.0e11 1e-12\n");
+    fprintf(f, "var total_vapor_mass 0 %.17g 1e-13\n", F.total_vapor_kg);
+    fprintf(f, "sum vapor_mass 1.0e11 1e-12\n");
     fprintf(f, "var tropopause_altitude 0 16500 0\n");
     /* Vapour + ice above 16.5 km: bands 17.. in full plus half of band 16. */
     double strat = 0.5 * (F.vap[16] + F.ice[16]);
@@ -214,7 +214,7 @@ static int check_with_python(const char *nc, const char *format, int layers_equa
     fprintf(f, "var stratospheric_water_mass 0 %.17g 1e-13\n", strat);
     fprintf(f, "var cloud_vapor_mass_content 25 %.17g 1e-15\n", F.vap[25] / 2.0e11);
     fprintf(f, "var air_temperature 3 250 0\nvar air_pressure 10 %.17g 1e-15\n", F.p[10]);
-    fprintf(f, "var injection_latitude 0 -20.5 0\n");
+    fprintf(f, "var latitude 0 -20.5 0\n");
     fprintf(f, "var time 12 %.17g 1e-13\n", 365.25); /* 12 months of a Julian year, in days */
     fprintf(f, "var lat 1 0 0\nvar lat_bnds 5 90 0\n");
     fprintf(f, "var global_excess_water_mass 36 %.17g 1e-15\n", F.glob[36]);
@@ -257,7 +257,7 @@ START_TEST(netcdf4_read_back)
     snprintf(cmd, sizeof cmd, "ncdump -k '%s'", nc);
     ck_assert_int_eq(run_cmd(cmd, out, sizeof out), 0);
     ck_assert_msg(strstr(out, "netCDF-4 classic model") != NULL, "ncdump -k: %s", out);
-    snprintf(cmd, sizeof cmd, "ncdump -hs '%s' | grep -A8 'double water_vapor_mass'", nc);
+    snprintf(cmd, sizeof cmd, "ncdump -hs '%s' | grep -A8 'double vapor_mass'", nc);
     ck_assert_int_eq(run_cmd(cmd, out, sizeof out), 0);
     ck_assert_msg(strstr(out, "_DeflateLevel = 4") != NULL, "no deflate: %s", out);
     rm_tmp();
@@ -299,7 +299,7 @@ START_TEST(cdo_reads_vertical_axis)
     snprintf(nc, sizeof nc, "%s/cdo.nc", tmpdir);
     sl_err e = {0};
     ck_assert_msg(sl_output_nc_write(&F.view, nc, NULL, &e) == SL_OK, "%s", e.msg);
-    snprintf(cmd, sizeof cmd, "cdo -s zaxisdes -selname,water_vapor_mass '%s' 2>&1", nc);
+    snprintf(cmd, sizeof cmd, "cdo -s zaxisdes -selname,vapor_mass '%s' 2>&1", nc);
     ck_assert_int_eq(run_cmd(cmd, out, sizeof out), 0);
     ck_assert_msg(strstr(out, "zaxistype = altitude") || strstr(out, "zaxistype = height"),
                   "cdo zaxis type: %s", out);
@@ -308,7 +308,7 @@ START_TEST(cdo_reads_vertical_axis)
                   "cdo sees no bounds: %s", out);
     /* CDO's vertical sum over the bands equals the total (independent arithmetic). */
     snprintf(cmd, sizeof cmd,
-             "cdo -s outputf,%%.17g -vertsum -selname,water_vapor_mass '%s' 2>&1", nc);
+             "cdo -s outputf,%%.17g -vertsum -selname,vapor_mass '%s' 2>&1", nc);
     ck_assert_int_eq(run_cmd(cmd, out, sizeof out), 0);
     SL_CK_REL(strtod(out, NULL), F.total_vapor_kg, 1e-12); /* PRACTICE: double summation order */
     rm_tmp();
@@ -500,7 +500,7 @@ START_TEST(checker_rejects_bad_file)
     const char *want[] = {"contains CF-1.11", "units 'km' fit standard_name altitude",
                           "positive is up/down", "'water_vapor_mixing_ratio' is in the allowed",
                           "no ppm/ppb units", "bit-identical edges",
-                          "profile sums to total_water_vapor_mass"};
+                          "profile sums to total_vapor_mass"};
     for (size_t i = 0; i < sizeof want / sizeof want[0]; i++)
         ck_assert_msg(strstr(out, want[i]) != NULL, "checker missed: %s", want[i]);
     rm_tmp();

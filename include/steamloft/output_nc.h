@@ -2,11 +2,11 @@
  *
  * Layout (names are the netCDF variable names):
  *   altitude(altitude), altitude_bnds(altitude,nv)  band centres and edges, m, positive up, axis Z
- *   water_vapor_mass, ice_mass (altitude)            lofted mass per band, kg
+ *   vapor_mass, ice_mass (altitude)                  lofted mass per band, kg
  *   vapor_mass_content (altitude)                    standard_name
  *       mass_content_of_water_vapor_in_atmosphere_layer, kg m-2, averaged over the Earth
  *   cloud_vapor_mass_content (altitude)              same, over the young cloud (when its area is known)
- *   tropopause_altitude, total_water_vapor_mass, total_ice_mass, stratospheric_water_mass (scalars)
+ *   tropopause_altitude, total_vapor_mass, total_ice_mass, stratospheric_water_mass (scalars)
  *   atm_altitude(atm_altitude) with air_temperature, air_pressure, air_density,
  *       mole_fraction_of_water_vapor_in_air, buoyancy_frequency_squared   the background used
  *   time(time) days since the event, calendar standard; lat(lat), lat_bnds(lat,nv)
