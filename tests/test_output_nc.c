@@ -10,6 +10,7 @@
  * climate tools rely on. */
 #include "output_fixture.h"
 
+#include "steamloft/injection.h"
 #include "steamloft/outfile.h"
 #include "steamloft/output_nc.h"
 
@@ -333,6 +334,31 @@ START_TEST(checker_rejects_bad_file)
 }
 END_TEST
 
+/* The injection module's netCDF reader (written independently, for the
+ * `decay` input) reads the profile back from a full output file. */
+START_TEST(injection_reader_reads_output)
+{
+    build_fixture(0);
+    mk_tmp();
+    char nc[400];
+    snprintf(nc, sizeof nc, "%s/round.nc", tmpdir);
+    sl_err e = {0};
+    ck_assert_msg(sl_output_nc_write(&F.view, nc, NULL, &e) == SL_OK, "%s", e.msg);
+    sl_injection inj = {0};
+    ck_assert_msg(sl_injection_read(&inj, nc, &e) == SL_OK, "reader: %s", e.msg);
+    ck_assert_uint_eq(inj.n_bands, NB);
+    for (size_t i = 0; i < NB; i++) {
+        ck_assert(inj.band_bottom_m[i] == F.bottom[i] && inj.band_top_m[i] == F.top[i]);
+        ck_assert(inj.vapor_kg[i] == F.vap[i] && inj.ice_kg[i] == F.ice[i]); /* bit-exact doubles */
+    }
+    ck_assert(inj.tropopause_altitude_m == F.inj.tropopause_altitude_m);
+    ck_assert(inj.latitude_deg == F.inj.latitude_deg);
+    ck_assert(inj.cloud_area_m2 == F.inj.cloud_area_m2);
+    sl_injection_free(&inj);
+    rm_tmp();
+}
+END_TEST
+
 static Suite *suite(void)
 {
     Suite *s = suite_create("output_nc");
@@ -347,6 +373,7 @@ static Suite *suite(void)
     tcase_add_test(tc, netcdf_error_leaves_nothing);
     tcase_add_test(tc, outset_all_or_nothing);
     tcase_add_test(tc, checker_rejects_bad_file);
+    tcase_add_test(tc, injection_reader_reads_output);
     suite_add_tcase(s, tc);
     TCase *ro = tcase_create("read_only");
     tcase_add_unchecked_fixture(ro, ro_setup, ro_teardown);
