@@ -121,9 +121,9 @@ static inline void build_fixture(int layers_equal_bands)
                                       "s", NULL, tau_s};
     F.scalars[1] = (sl_output_scalar){"burst_altitude", "altitude of the airburst", "m", NULL,
                                       31300.0};
-    F.params[0] = (sl_output_param){"impactor.diameter_m", NULL, 300.0};
-    F.params[1] = (sl_output_param){"impactor.type", "stony", 0};
-    F.params[2] = (sl_output_param){"atmosphere.profile", "us1976", 0};
+    F.params[0] = (sl_output_param){"impactor.diameter_m", NULL, 300.0, "file"};
+    F.params[1] = (sl_output_param){"impactor.type", "stony", 0, "file"};
+    F.params[2] = (sl_output_param){"atmosphere.profile", "us1976", 0, "default"};
     static char *argv[] = {"steamloft", "run", "my scenario.ini", "-o", "out.nc", NULL};
     F.view = (sl_output_view){&F.inj, &F.atm, &F.series, F.scalars, 2, F.params, 3,
                               "invented test scenario", "my scenario.ini", NULL, NULL,
@@ -167,7 +167,7 @@ static inline int count_entries(const char *dir)
 }
 
 /* Run a shell command, return its exit status; its output goes to OUT (may be NULL). */
-static inline int run_cmd(const char *cmd, char *out, size_t len)
+static inline int run_cmd_echo(const char *cmd, char *out, size_t len, int echo)
 {
     FILE *p = popen(cmd, "r");
     ck_assert_ptr_nonnull(p);
@@ -179,12 +179,19 @@ static inline int run_cmd(const char *cmd, char *out, size_t len)
             memcpy(out + used, buf, n);
             used += n;
         }
-        fwrite(buf, 1, n, stdout); /* visible in the test log */
+        if (echo)
+            fwrite(buf, 1, n, stdout); /* visible in the test log */
     }
     if (out)
         out[used] = '\0';
     int st = pclose(p);
     return WIFEXITED(st) ? WEXITSTATUS(st) : -1;
+}
+
+/* Run a shell command, echo its output into the test log. */
+static inline int run_cmd(const char *cmd, char *out, size_t len)
+{
+    return run_cmd_echo(cmd, out, len, 1);
 }
 
 #endif
