@@ -137,6 +137,21 @@ START_TEST(profile_only)
 }
 END_TEST
 
+/* The shipped prescribed-profile example loads and holds what its comment says. */
+START_TEST(example_profile_loads)
+{
+    char path[600];
+    snprintf(path, sizeof path, "%s/examples/injection-profile.csv", srcdir());
+    sl_injection inj = {0};
+    sl_err e = {0};
+    ck_assert_msg(sl_injection_read(&inj, path, &e) == SL_OK, "%s", e.msg);
+    SL_CK_REL(sl_injection_total_vapor_kg(&inj), 60e9, 1e-12); /* "60 Tg of water vapour" */
+    SL_CK_REL(sl_injection_total_ice_kg(&inj), 6e9, 1e-12);    /* "6 Tg of ice" */
+    SL_CK_REL(inj.tropopause_altitude_m, 16500.0, 1e-12);
+    sl_injection_free(&inj);
+}
+END_TEST
+
 static Suite *suite(void)
 {
     Suite *s = suite_create("output_csv");
@@ -146,6 +161,7 @@ static Suite *suite(void)
     tcase_add_test(tc, series_read_by_python);
     tcase_add_test(tc, refuses_overwrite_and_missing_parent);
     tcase_add_test(tc, profile_only);
+    tcase_add_test(tc, example_profile_loads);
     suite_add_tcase(s, tc);
     return s;
 }
