@@ -82,6 +82,7 @@
  *
  * Units: SI throughout (m, s, kg, J, K, Pa). */
 #include "steamloft/plume.h"
+#include "steamloft/scenario.h"
 #include "steamloft/units.h"
 #include "steamloft/water.h"
 
@@ -110,9 +111,11 @@ enum { IZ, IMA, IMW, IPI, IH, IEIN, IEOUT, IWIN, IWOUT, IAIN, NY };
 /* Below this the saturation vapour pressure over ice is < 1e-8 Pa (Murphy &
  * Koop 2005 hold above 110 K): vapour is taken as zero. */
 #define T_FROZEN_SOLID_K 120.0
-/* Hottest initial fireball of air the source set-up uses when its radius is too
- * small to hold its heat at ambient pressure (PRACTICE; the rise depends on the
- * heat, not on this temperature, see plume_start). */
+/* Hottest initial thermal the heat-and-radius set-up makes (PRACTICE: a
+ * fireball after its radiative phase is a few thousand kelvin; the ideal-gas,
+ * constant-cp model of air is used no hotter).  A source with more heat than
+ * its sphere can hold below it expands at this temperature to the volume it
+ * needs.  The rise depends on the heat, hardly on this temperature. */
 #define T_FIREBALL_CAP_K 3000.0
 
 struct sl_plume_work {
@@ -130,6 +133,7 @@ struct sl_plume_work {
     double z_top_m;            /* stop: top of the atmosphere profile */
     double z_bottom_m;         /* bottom of the atmosphere profile */
     int rhs_failed;            /* the atmosphere could not be evaluated */
+    double T_guess;            /* last equilibrium temperature: Newton's first guess */
     sl_err rhs_err;
     /* Root-finding context. */
     double t_prev;
@@ -151,7 +155,7 @@ void sl_plume_params_default(sl_plume_params *par)
     par->added_mass_k = 0.5;         /* sphere in potential flow (MEM-high) */
     par->fallout_speed_m_s = 1.0;    /* drizzle/snow fall speed order (Rogers & Yau 1989, MEM) */
     par->ice_sediment_fraction = 0.5;/* PRACTICE, between the end-members (see injection.c) */
-    par->rtol = 1.0e-8;
+    par->rtol = 1.0e-6;        /* halving it moves plume top and stratospheric water < 1e-5 (tests) */
     par->max_time_s = 7200.0;
 }
 
@@ -210,57 +214,70 @@ static double sat_ratio(double T_K, double p_Pa)
 }
 
 /* Enthalpy (J) of Ma, Mw at T with vapour at saturation (capped at Mw), the
- * condensate all liquid (ICE = 0) or all ice (ICE = 1). */
-static double h_sat(const sl_plume_work *w, double T_K, double Ma, double Mw, double p_Pa, int ice, double *vap)
+ * condensate all liquid (ICE = 0) or all ice (ICE = 1); its derivative in T
+ * into *DHDT (with the Clausius-Clapeyron slope of e_s: only Newton's step
+ * uses it, the bracket keeps the root exact). */
+static double h_sat(const sl_plume_work *w, double T_K, double Ma, double Mw, double p_Pa, int ice, double *vap,
+                    double *dhdt)
 {
-    double mv = fmin(Mw, Ma * sat_ratio(T_K, p_Pa));
-    double mc = Mw - mv;
     double dT = T_K - T_TRIPLE;
+    double cc = ice ? CPI : CPL;
+    double es = 0.0, rs;
+    if (T_K >= T_NO_CONDENSATE_K)
+        rs = INFINITY;
+    else if (T_K <= T_FROZEN_SOLID_K)
+        rs = 0.0;
+    else {
+        es = sl_water_esat_Pa(T_K);
+        rs = es < p_Pa ? EPS_RV * es / (p_Pa - es) : INFINITY;
+    }
+    double mv = fmin(Mw, Ma * rs);
+    double mc = Mw - mv;
     if (vap)
         *vap = mv;
-    if (ice)
-        return (Ma * CPA + mv * CPV + mc * CPI) * dT + mv * w->lv0_J_kg - mc * w->lf0_J_kg;
-    return (Ma * CPA + mv * CPV + mc * CPL) * dT + mv * w->lv0_J_kg;
+    double latent = w->lv0_J_kg + (ice ? w->lf0_J_kg : 0.0);
+    if (dhdt) {
+        double d = Ma * CPA + mv * CPV + mc * cc;
+        if (mv < Mw && es > 0.0) {
+            double lat_T = latent + (CPV - cc) * dT;
+            double des = es * lat_T / (RV * T_K * T_K);
+            double drs = EPS_RV * p_Pa / ((p_Pa - es) * (p_Pa - es)) * des;
+            d += Ma * drs * lat_T;
+        }
+        *dhdt = d;
+    }
+    return (Ma * CPA + mv * CPV + mc * cc) * dT + mv * w->lv0_J_kg - (ice ? mc * w->lf0_J_kg : 0.0);
 }
 
-/* Illinois false position for h_sat(T) = H on [lo, hi] with h(lo) <= H <= h(hi). */
-static double solve_T(const sl_plume_work *w, double H, double Ma, double Mw, double p, int ice, double lo, double hi)
+/* Root of h_sat(T) = H on [lo, hi] (h(lo) <= H <= h(hi) when hi is finite):
+ * Newton's method from GUESS, kept inside the shrinking bracket, bisection
+ * when a step leaves it; converged to 1e-12 relative in T. */
+static double solve_T(const sl_plume_work *w, double H, double Ma, double Mw, double p, int ice, double lo, double hi,
+                      double guess)
 {
-    double flo = h_sat(w, lo, Ma, Mw, p, ice, NULL) - H;
-    double fhi = h_sat(w, hi, Ma, Mw, p, ice, NULL) - H;
-    int side = 0;
-    for (int it = 0; it < 200; it++) {
-        if (flo >= 0.0)
-            return lo;
-        if (fhi <= 0.0)
-            return hi;
-        double x = (lo * fhi - hi * flo) / (fhi - flo);
-        if (!(x > lo && x < hi))
-            x = 0.5 * (lo + hi);
-        if (hi - lo < 1.0e-12 * hi)
+    double x = (guess > lo && guess < hi) ? guess : (isfinite(hi) ? 0.5 * (lo + hi) : lo + 1.0);
+    for (int it = 0; it < 100; it++) {
+        double d;
+        double f = h_sat(w, x, Ma, Mw, p, ice, NULL, &d) - H;
+        if (f == 0.0)
             return x;
-        double fx = h_sat(w, x, Ma, Mw, p, ice, NULL) - H;
-        if (fx == 0.0)
-            return x;
-        if (fx < 0.0) {
+        if (f < 0.0)
             lo = x;
-            flo = fx;
-            if (side == -1)
-                fhi *= 0.5;
-            side = -1;
-        } else {
+        else
             hi = x;
-            fhi = fx;
-            if (side == 1)
-                flo *= 0.5;
-            side = 1;
-        }
+        double xn = x - f / d;
+        if (!(xn > lo && xn < hi) || !(d > 0.0))
+            xn = isfinite(hi) ? 0.5 * (lo + hi) : 2.0 * x - lo + 1.0;
+        if (fabs(xn - x) <= 1.0e-12 * x)
+            return xn;
+        x = xn;
     }
-    return 0.5 * (lo + hi);
+    return x;
 }
 
 /* Equilibrium temperature and phases for enthalpy H, dry air Ma, water Mw at
- * pressure p (saturation adjustment). */
+ * pressure p (saturation adjustment).  *T holds a first guess on entry (the
+ * root is found to 1e-12 whatever the guess). */
 static void equilibrate(const sl_plume_work *w, double H, double Ma, double Mw, double p, double *T, double *mv,
                         double *ml, double *mi)
 {
@@ -273,28 +290,28 @@ static void equilibrate(const sl_plume_work *w, double H, double Ma, double Mw, 
         return;
     }
     double vap_t;
-    double hl = h_sat(w, T_TRIPLE, Ma, Mw, p, 0, &vap_t);
+    double hl = h_sat(w, T_TRIPLE, Ma, Mw, p, 0, &vap_t, NULL);
     double mc_t = Mw - vap_t;
     if (T1 >= T_TRIPLE || H >= hl) {
         /* Liquid condensate, T above the triple point: the root lies above T1
-         * (condensation heats).  Grow the bracket until h_sat >= H. */
-        double lo = fmax(T1, T_TRIPLE), step = 1.0, hi = lo + step;
-        while (h_sat(w, hi, Ma, Mw, p, 0, NULL) < H && hi < 1.0e5) {
-            step *= 2.0;
-            hi = lo + step;
-        }
-        *T = solve_T(w, H, Ma, Mw, p, 0, lo, hi);
+         * (condensation heats) and below the all-vapour temperature for the
+         * enthalpy H (at most T1 plus the heat of condensing all the water). */
+        double lo = fmax(T1, T_TRIPLE);
+        double hi = fmin(T1 + Mw * (w->lv0_J_kg + w->lf0_J_kg) / (Ma * CPA) + 1.0, T_NO_CONDENSATE_K);
+        while (hi < T_NO_CONDENSATE_K && h_sat(w, hi, Ma, Mw, p, 0, NULL, NULL) < H)
+            hi = fmin(2.0 * hi - lo, T_NO_CONDENSATE_K);
+        *T = solve_T(w, H, Ma, Mw, p, 0, lo, hi, *T);
         double v;
-        h_sat(w, *T, Ma, Mw, p, 0, &v);
+        h_sat(w, *T, Ma, Mw, p, 0, &v, NULL);
         *mv = v;
         *ml = Mw - v;
         return;
     }
     double hi_ice = hl - mc_t * w->lf0_J_kg;
     if (H <= hi_ice) {
-        *T = solve_T(w, H, Ma, Mw, p, 1, fmax(T1, 0.5 * T_FROZEN_SOLID_K), T_TRIPLE);
+        *T = solve_T(w, H, Ma, Mw, p, 1, fmax(T1, 0.5 * T_FROZEN_SOLID_K), T_TRIPLE, *T);
         double v;
-        h_sat(w, *T, Ma, Mw, p, 1, &v);
+        h_sat(w, *T, Ma, Mw, p, 1, &v, NULL);
         *mv = v;
         *mi = Mw - v;
         return;
@@ -333,7 +350,9 @@ static int diagnose(sl_plume_work *w, const double *s, diag *d)
         return GSL_EBADFUNC;
     }
     d->z_m = z;
+    d->T_K = w->T_guess;
     equilibrate(w, H, Ma, Mw, d->amb.pressure_Pa, &d->T_K, &d->vapor_kg, &d->liquid_kg, &d->ice_kg);
+    w->T_guess = d->T_K;
     if (!(d->T_K > 0.0) || !isfinite(d->T_K))
         return GSL_EBADFUNC;
     d->volume_m3 = (Ma * RA + d->vapor_kg * RV) * d->T_K / d->amb.pressure_Pa;
@@ -488,6 +507,30 @@ int sl_plume_init(sl_plume *pl, const sl_plume_params *par, sl_err *e)
     return SL_OK;
 }
 
+int sl_plume_set_params(sl_plume *pl, const sl_plume_params *par, sl_err *e)
+{
+    if (pl == NULL || pl->work == NULL || par == NULL)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "sl_plume_set_params: plume not initialised");
+    SL_TRY_RETURN(e, sl_plume_params_check(par, e));
+    if (par->rtol != pl->par.rtol) {
+        int st = gsl_odeiv2_control_init(pl->work->ctl, par->rtol, par->rtol, 1.0, 0.0);
+        if (st != GSL_SUCCESS)
+            SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: cannot set the tolerance %g (%s)", par->rtol, gsl_strerror(st));
+    }
+    pl->par = *par;
+    return SL_OK;
+}
+
+void sl_plume_params_from_scenario(sl_plume_params *par, const sl_scenario *sc)
+{
+    sl_plume_params_default(par);
+    par->entrainment_alpha = sl_scenario_value(sc, SL_P_PLUME_ALPHA);
+    par->added_mass_k = sl_scenario_value(sc, SL_P_PLUME_ADDED_MASS);
+    par->fallout_speed_m_s = sl_scenario_value(sc, SL_P_PLUME_FALLOUT_SPEED);
+    par->ice_sediment_fraction = sl_scenario_value(sc, SL_P_PLUME_ICE_SEDIMENT);
+    par->rtol = sl_scenario_value(sc, SL_P_PLUME_RTOL);
+}
+
 void sl_plume_free(sl_plume *pl)
 {
     if (pl == NULL || pl->work == NULL)
@@ -541,31 +584,45 @@ static int source_state(const sl_source *src, const sl_atmos_state *amb, start *
         /* Heat and radius: find the air mass and temperature such that the gas
          * fills the sphere at ambient pressure and holds the heat as sensible
          * enthalpy over ambient:  p V = (Ma Ra + Mv Rv) T,
-         * Q = (Ma cpa + Mv cpv + Ml cl)(T - Ta).  p V(T) is monotone (see the
-         * module notes), so bisection on T finds the one root. */
+         * Q = (Ma cpa + Mv cpv + Ml cl)(T - Ta).  With Ma(T) from the second,
+         * the gas volume falls as T rises (Ra cpv / cpa > Rv), so bisection on
+         * T finds the one root when there is one. */
         double V = FOUR_PI / 3.0 * src->radius_m * src->radius_m * src->radius_m;
         double Q = src->heat_J, cw = st->vapor_kg * CPV + st->liquid_kg * CPL;
-        double Tmax = cw > 0.0 ? Ta + Q / cw : INFINITY;
-        if (Tmax > T_FIREBALL_CAP_K)
-            Tmax = T_FIREBALL_CAP_K;
-        double lo = Ta * (1.0 + 1.0e-12), hi = Tmax;
+        double lo = Ta * (1.0 + 1.0e-12), hi = cw > 0.0 ? Ta + Q / cw : INFINITY;
 #define PV_OF(T) ((fmax(0.0, (Q / ((T) - Ta) - cw) / CPA) * RA + st->vapor_kg * RV) * (T) - p * V)
-        if (PV_OF(hi) > 0.0) {
-            /* The sphere is too small to hold this heat and water at ambient
-             * pressure: the gas expands to the volume it needs at Tmax. */
-            st->T_K = hi;
-        } else {
-            for (int it = 0; it < 200 && hi - lo > 1.0e-12 * hi; it++) {
-                double mid = 0.5 * (lo + hi);
-                if (PV_OF(mid) > 0.0)
-                    lo = mid;
-                else
-                    hi = mid;
+        double T_root = NAN;
+        if (!isfinite(hi) || PV_OF(hi) <= 0.0) {
+            if (!isfinite(hi))
+                hi = 2.0 * T_FIREBALL_CAP_K;
+            if (PV_OF(hi) <= 0.0) {
+                for (int it = 0; it < 200 && hi - lo > 1.0e-12 * hi; it++) {
+                    double mid = 0.5 * (lo + hi);
+                    if (PV_OF(mid) > 0.0)
+                        lo = mid;
+                    else
+                        hi = mid;
+                }
+                T_root = 0.5 * (lo + hi);
             }
-            st->T_K = 0.5 * (lo + hi);
+        }
+        double ma_cap = (Q / (T_FIREBALL_CAP_K - Ta) - cw) / CPA;
+        if (T_root <= T_FIREBALL_CAP_K) {
+            st->T_K = T_root;
+            st->air_kg = fmax(0.0, (Q / (T_root - Ta) - cw) / CPA);
+        } else if (ma_cap > 0.0) {
+            /* Too much heat for the sphere below the cap: the gas at the cap
+             * temperature holding the heat fills a larger volume. */
+            st->T_K = T_FIREBALL_CAP_K;
+            st->air_kg = ma_cap;
+        } else {
+            /* The water's gas alone overfills the sphere: the thermal is the
+             * sphere's own air with the heat and the water added at constant
+             * pressure; it fills a larger volume. */
+            st->air_kg = amb->density_kg_m3 * V;
+            st->T_K = Ta + Q / (st->air_kg * CPA + cw);
         }
 #undef PV_OF
-        st->air_kg = fmax(0.0, (Q / (st->T_K - Ta) - cw) / CPA);
     } else {
         SL_FAIL_RETURN(e, SL_EDATA,
                        "%s source: needs either air_mass_kg > 0 and temperature_K, or heat_J > 0 and radius_m > 0", what);
@@ -619,6 +676,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     w->z_bottom_m = zlo;
     w->z_top_m = zhi;
     w->rhs_failed = 0;
+    w->T_guess = 0.0;
 
     out->source_altitude_m = src->altitude_m;
     out->source_radius_m = st.radius_m;
@@ -632,10 +690,12 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     out->water_initial_kg = Mw0;
     out->air_initial_kg = st.air_kg;
 
-    /* The fireball's size: the source's radius when it gives one (the gas
-     * volume at ambient pressure can be larger for a very hot source). */
+    /* The fireball's size: the source's radius when it gives one.  The regime
+     * check also looks at the gas volume at ambient pressure, which is larger
+     * when the source holds more heat or water than its sphere can at that
+     * pressure (it then expands before it can rise). */
     double r_fireball = src->radius_m > 0.0 ? src->radius_m : st.radius_m;
-    if (r_fireball > out->scale_height_m) {
+    if (fmax(r_fireball, st.radius_m) > out->scale_height_m) {
         /* Blow-out: the release is larger than the atmosphere's scale height. */
         out->regime = SL_REGIME_BLOWOUT;
         out->source_radius_m = r_fireball;
@@ -661,19 +721,40 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     double Es = M0 * CPA * amb.temperature_K;
     double sc[NY] = {Ls, M0, M0, M0 * Us, Es, Es, Es, M0, M0, M0};
     memcpy(w->scale, sc, sizeof sc);
+    double w0 = src->vertical_speed_m_s, phi0 = potential_J_kg(src->altitude_m);
+    double kin0 = 0.5 * (1.0 + w->k) * w0 * w0;
+    out->energy_initial_J = H0 + M0 * (phi0 + kin0);
+
+    /* Spray collapse: the source's water is first brought to equilibrium at
+     * the ambient pressure (hot liquid flashes to vapour, excess vapour
+     * condenses), then the condensate present at that moment - spray and
+     * drops thrown up with the plume, millimetres to centimetres across and
+     * falling at ~10 m/s (Gunn & Kinzer 1949, MEM) - falls back at once with
+     * its enthalpy, counted as fallout.  Only the gas phase starts to rise; a
+     * plume loaded with more water than air would otherwise collapse (the
+     * column collapse of eruption columns, Sparks et al. 1997). */
+    double T_eq, mv0, ml0, mi0;
+    w->T_guess = 0.0;
+    T_eq = 0.0;
+    equilibrate(w, H0, st.air_kg, Mw0, amb.pressure_Pa, &T_eq, &mv0, &ml0, &mi0);
+    double spray = ml0 + mi0;
+    double h_spray = ml0 * CPL * (T_eq - T_TRIPLE) + mi0 * (CPI * (T_eq - T_TRIPLE) - w->lf0_J_kg);
+    double Mw1 = Mw0 - spray, M1 = st.air_kg + Mw1;
+
     double y0[NY] = {0};
     y0[IZ] = src->altitude_m;
     y0[IMA] = st.air_kg;
-    y0[IMW] = Mw0;
-    y0[IPI] = (1.0 + w->k) * M0 * src->vertical_speed_m_s;
-    y0[IH] = H0;
+    y0[IMW] = Mw1;
+    y0[IPI] = (1.0 + w->k) * M1 * w0;
+    y0[IH] = H0 - h_spray;
+    y0[IWOUT] = spray;
+    y0[IEOUT] = h_spray + spray * (phi0 + kin0);
     for (int i = 0; i < NY; i++)
         w->y[i] = y0[i] / w->scale[i];
 
     diag d;
     if (diagnose(w, w->y, &d) != GSL_SUCCESS)
         SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: the initial state of the source is not usable (T, masses)");
-    out->energy_initial_J = total_energy(w, w->y, &d);
     double w_prev = d.w_m_s, f_prev = d.buoy_N;
     int have_neutral = 0;
     if (!(f_prev > 0.0)) {

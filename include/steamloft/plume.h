@@ -32,7 +32,7 @@ typedef struct sl_plume_params {
     double added_mass_k;           /* added-mass coefficient; 0.5 (sphere in potential flow) */
     double fallout_speed_m_s;      /* settling speed of condensate relative to the thermal; 1.0 */
     double ice_sediment_fraction;  /* share of the ice formed at cloud level that falls out; 0.5 */
-    double rtol;                   /* ODE relative tolerance (scaled state); 1e-8 */
+    double rtol;                   /* ODE relative tolerance (scaled state); 1e-6 */
     double max_time_s;             /* give up when no apex by then; 7200 s */
 } sl_plume_params;
 
@@ -100,6 +100,15 @@ typedef struct sl_plume {
 /* Set parameters and allocate the ODE workspace.  PL must be zeroed.
  * SL_EDATA for bad parameters, SL_ENOMEM. */
 int sl_plume_init(sl_plume *pl, const sl_plume_params *par, sl_err *e);
+
+/* Change the parameters of an initialised plume without reallocating (an
+ * ensemble member with its own entrainment coefficient, say).  SL_EDATA for
+ * bad parameters (PL unchanged). */
+int sl_plume_set_params(sl_plume *pl, const sl_plume_params *par, sl_err *e);
+
+/* Parameters from a finished scenario's [plume] section. */
+struct sl_scenario;
+void sl_plume_params_from_scenario(sl_plume_params *par, const struct sl_scenario *sc);
 
 /* Rise one source through ATM; fill OUT.  Allocates nothing.  SL_EDATA for
  * an unusable source (naming the field and the range), SL_ENUMERIC when the
