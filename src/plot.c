@@ -209,8 +209,13 @@ static void write_script(FILE *fp, const sl_output_view *v)
         fprintf(fp, "\"\nhave_local = %d\n", s->local_column_anomaly_kg_m2 != NULL);
     }
     if (v->regime_note && v->regime_note[0]) {
+        /* The full note is in the netCDF and CSV files; the plot gets its head. */
+        char head[96];
+        size_t k = strcspn(v->regime_note, ":;.");
+        snprintf(head, sizeof head, "%.*s: see the validity warning", (int)(k < 60 ? k : 60),
+                 v->regime_note);
         fputs("validity = ", fp);
-        gp_string(fp, v->regime_note);
+        gp_string(fp, head);
         fputc('\n', fp);
     } else {
         fputs("validity = \"\"\n", fp);
@@ -241,7 +246,7 @@ static void write_script(FILE *fp, const sl_output_view *v)
           "    set arrow 1 from graph 0, first trop_km to graph 1, first trop_km nohead dt 2 lw line_w lc rgb c_trop\n"
           "    set label 1 sprintf(\"tropopause %.1f km\", trop_km) at graph 0.02, first trop_km offset 0, 0.7 tc rgb c_trop\n"
           "  }\n"
-          "  if (strlen(validity) > 0) { set label 2 validity at graph 0.02, graph 0.04 noenhanced font \",9\" }\n"
+          "  if (strlen(validity) > 0) { set label 2 validity at graph 0.02, graph 0.04 noenhanced tc rgb c_trop }\n"
           "  if (have_bg) {\n"
           "    plot \"background.dat\" using 2:1 with lines dt 3 lw line_w lc rgb c_bg title \"background water vapour\", \\\n"
           "         \"profile.dat\" using 2:1 with lines lw line_w lc rgb c_vapor title \"lofted vapour\", \\\n"

@@ -155,6 +155,46 @@ ncdump "$D/r2/same.nc" | grep -v ':history = ' >"$SL_TMP/d2"
 if [ -s "$SL_TMP/d1" ] && cmp -s "$SL_TMP/d1" "$SL_TMP/d2"; then sl_ok "two identical runs: identical ncdump without history"
 else sl_fail "runs differ"; diff "$SL_TMP/d1" "$SL_TMP/d2" | head -5 | sed 's/^/#   /'; fi
 
+# run: the chain's results in the file equal its own JSON report (10 digits).
+SCEN="$SRC/examples/ocean-stony-300m.ini"
+sl_expect_exit 0 "run with -o, --csv, --plot" "$SL_BIN" run "$SCEN" -o "$D/run.nc" --csv "$D/runcsv" --plot "$D/runplot"
+"$SL_BIN" run --json "$SCEN" >"$SL_TMP/runjson"
+cat >"$SL_TMP/expect_run" <<EOF
+att . scenario_impactor_diameter_m 300
+att . scenario_site_atmosphere us1976
+att . scenario_file $SCEN
+att air_temperature standard_name air_temperature
+has vapor_mass_content
+EOF
+if $PY "$SRC/tests/tools/nc_check.py" "$D/run.nc" "$SL_TMP/expect_run" >"$SL_TMP/chk" 2>&1; then
+  sl_ok "run netCDF passes the independent CF check ($(tail -1 "$SL_TMP/chk" | sed 's/.*: //'))"
+else sl_fail "run netCDF check"; sed 's/^/#   /' "$SL_TMP/chk" | head -20; fi
+$PY - "$D/run.nc" "$SL_TMP/runjson" >"$SL_TMP/cmp" 2>&1 <<'EOF'
+import json, sys, netCDF4, numpy as np
+j = json.load(open(sys.argv[2]))
+bad = 0
+with netCDF4.Dataset(sys.argv[1]) as ds:
+    def close(name, got, want, rtol=1e-9):   # JSON prints 10 significant digits
+        global bad
+        if abs(got - want) > rtol * abs(want):
+            print("mismatch", name, got, want); bad += 1
+    close("sum vapor_mass", float(np.sum(ds.variables["vapor_mass"][:])), j["injected_vapor_kg"])
+    close("sum ice_mass", float(np.sum(ds.variables["ice_mass"][:])), j["injected_ice_kg"])
+    close("stratospheric_vapor", float(ds.variables["stratospheric_vapor"][...]), j["stratospheric_water_kg"])
+    close("event_energy", float(ds.variables["event_energy"][...]), j["energy_J"])
+    close("water_vaporized", float(ds.variables["water_vaporized"][...]), j["water_vaporized_kg"])
+    n = 0
+    for b in j["bands"]:
+        i = int(round(b["bottom_m"] / 1000.0))
+        if b["vapor_kg"] > 0:
+            close("vapor_mass[%d]" % i, float(ds.variables["vapor_mass"][i]), b["vapor_kg"]); n += 1
+    if n == 0:
+        print("no band with vapour in the report"); bad += 1
+sys.exit(bad)
+EOF
+if [ $? -eq 0 ]; then sl_ok "run netCDF masses equal the run's JSON report, band by band"; else sl_fail "run netCDF vs JSON"; sed 's/^/#   /' "$SL_TMP/cmp" | head; fi
+[ -s "$D/runcsv/profile.csv" ] && [ -s "$D/runplot/steamloft.gp" ] && sl_ok "run CSV and plot files written" || sl_fail "run CSV/plot"
+
 # Nothing stray anywhere: no staging directories left behind.
 if [ -z "$(find "$D" -name '.steamloft-stage-*')" ]; then sl_ok "no staging directories left"; else sl_fail "staging left"; fi
 sl_done
