@@ -92,6 +92,24 @@ check-symbols: $(LIB)
 	if [ -n "$$bad" ]; then echo "check-symbols: exported without sl_ prefix:"; echo "$$bad"; exit 1; fi; \
 	echo "check-symbols: all exported symbols start with sl_"
 
+# The demo: one invented scenario through every stage, with every output.
+DEMO_SCENARIO ?= examples/demo.ini
+DEMO_OUT      ?= demo-output
+
+demo: ensure-deps
+	@$(MAKE) --no-print-directory demo-run
+
+demo-run: $(BIN)
+	@mkdir -p $(DEMO_OUT)
+	$(BIN) --force run $(DEMO_SCENARIO) -o $(DEMO_OUT)/run.nc --csv $(DEMO_OUT)/run-csv --plot $(DEMO_OUT)/run-plots
+	@echo
+	$(BIN) --force decay $(DEMO_OUT)/run.nc -o $(DEMO_OUT)/decay.nc --csv $(DEMO_OUT)/decay-csv --plot $(DEMO_OUT)/decay-plots
+	@echo
+	@echo "demo: outputs in $(DEMO_OUT)/:"
+	@echo "  run.nc, decay.nc      CF-1.11 netCDF (ncdump -h $(DEMO_OUT)/run.nc; cdo sinfon; ncview; xarray)"
+	@echo "  run-csv/, decay-csv/  the profile and the time series as CSV"
+	@echo "  run-plots/, decay-plots/  SVG and PNG plots and the editable gnuplot script steamloft.gp"
+
 sanitize: ensure-deps
 	@$(MAKE) --no-print-directory BUILD=build-sanitize OPENMP=$(OPENMP) \
 	  CFLAGS="-O1 -g -fsanitize=address,undefined -fno-sanitize-recover=undefined -fno-omit-frame-pointer" \
