@@ -178,13 +178,13 @@ static void write_script(FILE *fp, const sl_output_view *v)
         fprintf(fp, "trop_km = %.6g\n", sl_m_to_km(trop));
     else
         fputs("trop_km = NaN   # unknown: no tropopause line\n", fp);
-    fprintf(fp, "have_bg = %d\nlog_mass = %d   # log mass axis (0 when nothing was lofted)\n",
-            v->atm != NULL, total > 0);
     fprintf(fp, "z_top_km = %.6g\n", sl_m_to_km(inj->band_top_m[inj->n_bands - 1]));
-    /* Mass axis: from four decades below the lofted peak (or a third of the
-     * driest stratospheric background) to three times the larger of the peak
-     * and the wettest stratospheric background within the bands' height. */
-    double x_min = peak * 1e-4, x_max = peak * 3.0;
+    /* Mass axis (log): from four decades below the lofted peak (or a third of
+     * the driest stratospheric background) to three times the larger of the
+     * peak and the wettest stratospheric background within the bands' height.
+     * With nothing lofted the background alone sets it; with neither, a
+     * linear 0-1 axis. */
+    double x_min = peak > 0 ? peak * 1e-4 : INFINITY, x_max = peak > 0 ? peak * 3.0 : 0.0;
     if (v->atm && isfinite(trop)) {
         const sl_atmosphere *a = v->atm;
         double z_top = inj->band_top_m[inj->n_bands - 1];
@@ -192,12 +192,17 @@ static void write_script(FILE *fp, const sl_output_view *v)
             if (a->altitude_m[i] < trop || a->altitude_m[i] > z_top)
                 continue;
             double bg = background_tg_per_km(a, i);
-            x_min = fmin(x_min, bg / 3.0);
-            x_max = fmax(x_max, bg * 3.0);
+            if (bg > 0) {
+                x_min = fmin(x_min, bg / 3.0);
+                x_max = fmax(x_max, bg * 3.0);
+            }
         }
     }
-    fprintf(fp, "x_min = %.4g; x_max = %.4g   # range of the mass axis\n", peak > 0 ? x_min : 0.0,
-            peak > 0 ? x_max : 1.0);
+    int log_mass = isfinite(x_min) && x_min > 0 && x_max > x_min;
+    fprintf(fp, "have_bg = %d\nlog_mass = %d   # log mass axis\n", v->atm != NULL, log_mass);
+    fprintf(fp, "nothing_lofted = %d\n", !(total > 0));
+    fprintf(fp, "x_min = %.4g; x_max = %.4g   # range of the mass axis\n", log_mass ? x_min : 0.0,
+            log_mass ? x_max : 1.0);
     if (s) {
         fprintf(fp, "n_region = %zu\nregion_names = \"", s->n_region);
         for (size_t r = 0; r < s->n_region; r++) {
@@ -246,6 +251,7 @@ static void write_script(FILE *fp, const sl_output_view *v)
           "    set arrow 1 from graph 0, first trop_km to graph 1, first trop_km nohead dt 2 lw line_w lc rgb c_trop\n"
           "    set label 1 sprintf(\"tropopause %.1f km\", trop_km) at graph 0.02, first trop_km offset 0, 0.7 tc rgb c_trop\n"
           "  }\n"
+          "  if (nothing_lofted) { set label 3 \"no water lofted\" at graph 0.5, graph 0.5 center tc rgb c_vapor }\n"
           "  if (strlen(validity) > 0) { set label 2 validity at graph 0.02, graph 0.04 noenhanced tc rgb c_trop }\n"
           "  if (have_bg) {\n"
           "    plot \"background.dat\" using 2:1 with lines dt 3 lw line_w lc rgb c_bg title \"background water vapour\", \\\n"
