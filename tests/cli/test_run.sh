@@ -42,6 +42,13 @@ printf '[explosion]\nenergy_Mt = 15\n[site]\nlatitude_deg = 11.7\n' >"$SL_TMP/br
 sl_expect_exit 0 "run an explosion" "$SL_BIN" run --json "$SL_TMP/bravo.ini"
 sl_expect_grep "$SL_TMP/out" '"kind": "explosion"' "explosion source"
 
+# A relative profile path is found next to the scenario file.
+mkdir -p "$SL_TMP/sub"
+cp "$SL_SRCDIR/atmospheres/tropical.txt" "$SL_TMP/sub/myprofile.txt"
+printf '[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 0\natmosphere = myprofile.txt\n' >"$SL_TMP/sub/near.ini"
+sl_expect_exit 0 "profile next to the scenario" "$SL_BIN" run --json "$SL_TMP/sub/near.ini"
+sl_expect_grep "$SL_TMP/out" '"burst_altitude_m": null' "surface explosion has no burst altitude"
+
 # One test per kind of mistake.
 base='[impactor]\ndiameter_m = 19\ndensity_kg_m3 = 3300\nspeed_km_s = 19.16\nangle_deg = 18\n'
 site='[site]\nlatitude_deg = 54.8\n'
