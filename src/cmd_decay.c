@@ -240,7 +240,9 @@ static void print_json(const sl_strat_model *m, const sl_strat_result *r, const 
     printf("  \"percent_of_background\": %.6g,\n", r->percent_of_background_peak);
     printf("  \"peak_global_anomaly_ppmv\": %.6g,\n", sl_mole_fraction_to_ppmv(r->peak_global_anomaly_mole_fraction));
     printf("  \"peak_global_column_kg_m2\": %.6g,\n", r->peak_global_column_kg_m2);
+    printf("  \"peak_global_column_precip_um\": %.6g,\n", sl_kg_m2_to_precip_um(r->peak_global_column_kg_m2));
     printf("  \"peak_local_column_kg_m2\": %.6g,\n", r->peak_local_column_kg_m2);
+    printf("  \"peak_local_column_precip_um\": %.6g,\n", sl_kg_m2_to_precip_um(r->peak_local_column_kg_m2));
     printf("  \"forcing_indicator_W_m2\": %.6g,\n", r->forcing_indicator_W_m2);
     printf("  \"fraction_remaining_1y\": %.6g,\n  \"fraction_remaining_3y\": %.6g,\n", r->fraction_remaining_1y,
            r->fraction_remaining_3y);
@@ -380,6 +382,13 @@ int sl_cmd_decay(int argc, char **argv, const sl_cli_globals *g)
             inj.cloud_area_m2 = o.area_m2;
         st = sl_strat_model_init(&m, &p, atm, &e);
     }
+    /* The pipe's flux is the tropical 100-hPa flux: a mid-latitude profile in
+     * the tropics (tropopause near 11 km) slows the whole circulation. */
+    if (st == SL_OK && g->verbosity >= 0 && m.tropopause_m[SL_STRAT_TROPICS] < 14.0e3)
+        fprintf(stderr,
+                "steamloft decay: warning: the tropical background '%s' has its tropopause at %.1f km; the box "
+                "model is calibrated for a tropical profile there (--tropics-atmosphere tropical)\n",
+                at.name, sl_m_to_km(m.tropopause_m[SL_STRAT_TROPICS]));
     if (st == SL_OK)
         st = sl_strat_result_init(&r, &m, &e);
     if (st == SL_OK)

@@ -17,9 +17,12 @@
  * 1999, JGR 104, 19243).  The excess q_b (kg) obeys the linear system
  * dq/dt = A q, A built from air-mass fluxes (kg air/s) acting on the mixing
  * ratio q_b/m_b (upwind):
- *  - tropical upward mass flux F(z) = F_tp exp(-(z - z_tp)/H_F) through each
- *    layer edge; F_tp = 1.018e10 kg/s is the annual-mean tropical upward flux
- *    across 100 hPa (Seol & Yamazaki 1999, JMSJ 77, 985);
+ *  - tropical upward mass flux across the tropopause F_tp = 1.018e10 kg/s,
+ *    the annual-mean flux across 100 hPa (Seol & Yamazaki 1999, JMSJ 77, 985,
+ *    SEEN).  A share f_deep rises on at constant speed (the deep branch):
+ *    F(z) = f_deep F_tp rho(z)/rho(z_tp) through each edge above, zero at the
+ *    model top; the rest turns poleward within the lowest tropical layer (the
+ *    shallow branch into the lowermost stratosphere);
  *  - the divergence F(bottom) - F(top) of each tropical layer detrains, half
  *    into each extratropical region of the same layer;
  *  - the extratropics carry the returning air down: F(bottom of the tropical
@@ -28,27 +31,36 @@
  *    a test checks it);
  *  - two-way mixing between the tropics and each extratropical region with an
  *    in-mixing time tau_in for tropical air (Neu & Plumb's entrainment; Volk
- *    et al. 1996, Science 272, 1763, found about a year at 20 km);
+ *    et al. 1996, Science 272, 1763: mid-latitude air is entrained into the
+ *    tropical lower stratosphere within about 13.5 months, SEEN);
  *  - vertical eddy diffusion in every column, K(z) = K_s below 30 km,
  *    growing by e every 10 km above (1-D model profiles grow from ~0.1-1 m2/s
  *    in the lower stratosphere to ~1e2 m2/s near the mesopause; Massie &
- *    Hunten 1981, JGR 86, 9859), flux rho K A dq/dz between layer centres;
+ *    Hunten 1981, JGR 86, 9859, magnitudes MEM-M), flux rho K A dq/dz
+ *    between layer centres, and across the tropical tropopause;
  *  - the lowermost stratosphere (bottom extratropical box) is flushed by
  *    quasi-isentropic exchange with the troposphere: its total exit rate is
  *    1/tau_LMS with tau_LMS = 50 days, the residence of aircraft emissions
- *    deposited there (Gettelman 1999, PhD thesis, U. Washington).
+ *    deposited there (Gettelman 1999, PhD thesis, U. Washington, SEEN).
  * Air re-entering from the troposphere carries no excess: the cold tropical
  * tropopause sets the entry humidity (about 4.0 ppmv, Hurst et al. 1999, JGR
  * 104, 8191), so any returned excess is freeze-dried on re-entry.
  *
- * Calibration.  F_tp and tau_LMS are used as published.  H_F, tau_in and K_s
- * are fitted (sl_strat_calibrate, Nelder-Mead on their logarithms; run it with
- * `steamloft decay --calibrate`; tests/test_strat.c re-runs it and checks the
+ * Calibration.  F_tp and tau_LMS are used as published.  f_deep, tau_in and
+ * K_s are fitted (sl_strat_calibrate, Nelder-Mead on their logarithms, the
+ * logit for f_deep; run it with `steamloft decay --calibrate`; tests/test_strat.c re-runs it and checks the
  * defaults below) to: mean age of air about 1 yr in the tropics at 20 km and
  * 4-5 yr in the extratropics at 25-40 km (Waugh & Hall 2002, Rev. Geophys. 40,
- * 1010), slowest decay mode 3.8-5.3 yr (Ehhalt et al. 2004, JGR 109, D08309),
- * tropical upwelling 0.2-0.4 mm/s (Mote et al. 1996, JGR 101, 3989), each
- * misfit measured in units of half its published range.  Mean age is the
+ * 1010, SEEN), slowest decay mode 3.8-5.3 yr (Ehhalt et al. 2004, JGR 109,
+ * SEEN), tropical upwelling 0.2-0.4 mm/s at 20-30 km (Mote et al. 1996, JGR
+ * 101, 3989, SEEN) and the in-mixing time of 13.5 months (Volk et al. 1996,
+ * +-4 months), each misfit measured in units of half its published range.
+ * The fit (tropical and us1976 profiles) gives f_deep = 0.71, tau_in = 12.8
+ * months, K_s = 0.014 m2/s (below the <= 1 m2/s of Wofsy et al. 1994, SEEN)
+ * with mean ages 0.84 yr (tropics, 20 km) and 4.4 yr (extratropics, 25-40
+ * km), slowest mode 4.7 yr and upwelling 0.25 mm/s: every target inside its
+ * published range.  The turnover of the air above 100 hPa, mass / F_tp, is
+ * then 1.6 yr as Seol & Yamazaki found (a check, not a fit).  Mean age is the
  * steady solution of A (Gamma m) = -m (the age tracer ages one second per
  * second and enters with age zero), the slowest mode the eigenvalue of A
  * closest to zero (GSL nonsymmetric eigensolver).
@@ -60,21 +72,25 @@
  *  - cold tropical tropopause: the bottom tropical box holds at most
  *    S * x_ice(T_cp, p_cp) (ice saturation at the cold point, S = 1:
  *    deposition on existing cirrus; Jensen et al. 2013, PNAS 110, 2041, saw
- *    up to 1.7); water above that freezes out each internal step;
+ *    up to 1.7, SEEN, authors MEM-M); water above that freezes out after
+ *    each internal step;
  *  - polar winter: the Antarctic vortex (poleward of 65 S, 14 % of the
  *    southern extratropics) falls below the frost point at 12-26 km from June
  *    to September and is dried to ice saturation, removing the excess it holds
- *    (observed for the Hunga water in 2023: Wohltmann et al. 2024, GRL; the
- *    reset to ice saturation in the vortex); modelled as a first-order loss
- *    -ln(1 - f_v)/(4 months) on the southern boxes, weighted by the share of
- *    their air inside 12-26 km.  The Arctic rarely reaches the frost point, so
+ *    (observed for the Hunga water in 2023: the vortex took in 20-40 % more
+ *    water and was reset to ice saturation, SEEN; authors Wohltmann et al.
+ *    2024, GRL, MEM-M); the 65 S edge is MEM-M, the months MEM-H, the
+ *    12-26 km range of polar ice clouds MEM-M; modelled as a first-order
+ *    loss -ln(1 - f_v)/(4 months) on the southern boxes, weighted by the
+ *    share of their air inside 12-26 km.  The Arctic rarely reaches the frost point, so
  *    its fraction is 0 by default (a parameter);
  *  - mesospheric photolysis by Lyman-alpha and 175-200 nm light: diurnal-mean
  *    lifetime 100 days at 70 km, e-folding every 6.2 km (days near 90 km,
  *    weeks at 75-80 km, months at 70 km, years below 60-65 km: Brasseur &
  *    Solomon 2005, Aeronomy of the Middle Atmosphere, ch. 4-5, numbers from
  *    memory, see climate-facts.md section 4); no net loss below 60 km where
- *    water is produced (Sonnemann & Grygalashvyly 2005, JGR 110, D15303);
+ *    water is produced (Sonnemann & Grygalashvyly 2005, JGR,
+ *    doi:10.1029/2004JD005593, SEEN: crossover near 65 km);
  *  - young-cloud freeze-out at t = 0: the cloud of area A0 (the injection's
  *    cloud_area_m2 or a default) holds at most ice saturation in each band;
  *    the water above that is ice that grows and falls out (fall speeds of
@@ -84,9 +100,13 @@
  * Early spreading (local column anomaly): the cloud keeps its width sqrt(A0)
  * while wind shear stretches it around the latitude circle within
  * t_z = 14 days (Pinatubo's SO2 cloud took 22 days, Bluth et al. 1992, GRL
- * 19, 151; the Hunga plume about a week, both from memory), then it widens to
- * the whole latitude region by t_r = 90 days (Hunga water reached Mauna Loa,
- * 19.5 N, from 20.5 S by April 2022, Nedoluha et al. 2023, JGR 128).
+ * 19, 151; the Hunga plume about a week, both MEM-M), then it widens to the
+ * whole latitude region by t_r = 90 days (Hunga water spread from 20.5 S to
+ * Mauna Loa, 19.5 N, by April 2022: doi:10.1029/2022JD038100, SEEN).  When
+ * the profile gives no cloud area, it is taken as the settled stratospheric
+ * injection (as satellite estimates are) and the area is the default
+ * (500 km across, the order of the Hunga umbrella cloud, MEM-M) or the
+ * smallest area holding the water at ice saturation, whichever is larger.
  *
  * Time integration.  The system is linear with coefficients that are
  * constant within each calendar month (only the polar sink is seasonal), so
@@ -94,7 +114,8 @@
  * twelve propagators exp(A_c h) (GSL scaling and squaring, Moler & Van Loan
  * 1978) are computed once per model; a run is then 12 x 20 small matrix-vector
  * products: exact for the linear part (no step-size error, unlike an ODE
- * solver), cheap, and allocation-free.  Entries below zero from rounding are
+ * solver such as odeiv2, which the tests use as an independent check), cheap
+ * (well under a millisecond for 20 years) and allocation-free.  Entries below zero from rounding are
  * set to zero and each column renormalised to sum 1, which keeps masses
  * non-negative and the budget closed.  The cold-point freeze-out is a
  * threshold (non-linear) and is applied after every internal step (operator
@@ -105,8 +126,10 @@
  * 26, 3309; Solomon et al. 2010, Science 327, 1219; climate-facts.md section
  * 5), larger for water near the tropopause and smaller higher up: per-box
  * weight exp(-(z - 16 km)/14 km), normalised so that a uniform increase above
- * 100 hPa gives 0.2 W/m2 per ppmv.  It is an order-of-magnitude indicator,
- * not a radiative-transfer result.
+ * 100 hPa gives 0.2 W/m2 per ppmv.  The shape is PRACTICE (no published
+ * forcing-per-layer kernel was found): 14 km makes water at 25-30 km count
+ * about half as much as water at the tropopause.  It is an order-of-magnitude
+ * indicator, not a radiative-transfer result.
  *
  * Percent of background: the stratospheric water burden that the Hunga
  * papers compare with (146 Tg ~ 10 %, Millán et al. 2022; 139 Tg = 8.9 %,
@@ -231,8 +254,13 @@ int sl_strat_params_check(const sl_strat_params *p, sl_err *e)
                        p->region_spread_time_s, p->zonal_spread_time_s);
     if (p->step_s > p->span_s)
         SL_FAIL_RETURN(e, SL_EDATA, "strat output step %g s is longer than the span %g s", p->step_s, p->span_s);
-    if (p->start_month < 1 || p->start_month > 12)
-        SL_FAIL_RETURN(e, SL_EDATA, "strat parameter start_month = %d is outside the valid range 1 to 12", p->start_month);
+    /* Bounded memory: at most 1e5 output times (20 years of 2-hour steps). */
+    if (p->span_s / p->step_s > 1.0e5)
+        SL_FAIL_RETURN(e, SL_EDATA, "strat span %g s / step %g s gives more than 100000 output times; "
+                       "use a longer step or a shorter span", p->span_s, p->step_s);
+    if (p->start_month < 0 || p->start_month > 12)
+        SL_FAIL_RETURN(e, SL_EDATA, "strat parameter start_month = %d is outside the valid range 0 (unknown) to 12",
+                       p->start_month);
     return SL_OK;
 }
 
@@ -515,11 +543,13 @@ static void add_polar(const sl_strat_model *m, const geom_extra *gx, double *A, 
     const sl_strat_params *p = &m->par;
     size_t sink = m->n_boxes + SL_STRAT_SINK_POLAR_WINTER;
     for (size_t b = 0; b < m->n_boxes; b++) {
+        /* start_month 0 (month unknown): the annual-mean rate in every month. */
+        int annual = p->start_month == 0;
         double rate = 0.0;
-        if (m->box_region[b] == SL_STRAT_SOUTH && antarctic_months[cal] && p->antarctic_vortex_fraction > 0.0)
-            rate = -log1p(-p->antarctic_vortex_fraction) / (4.0 * MONTH_S);
-        else if (m->box_region[b] == SL_STRAT_NORTH && arctic_months[cal] && p->arctic_vortex_fraction > 0.0)
-            rate = -log1p(-p->arctic_vortex_fraction) / (3.0 * MONTH_S);
+        if (m->box_region[b] == SL_STRAT_SOUTH && (annual || antarctic_months[cal]) && p->antarctic_vortex_fraction > 0.0)
+            rate = -log1p(-p->antarctic_vortex_fraction) / (annual ? SL_S_PER_YEAR : 4.0 * MONTH_S);
+        else if (m->box_region[b] == SL_STRAT_NORTH && (annual || arctic_months[cal]) && p->arctic_vortex_fraction > 0.0)
+            rate = -log1p(-p->arctic_vortex_fraction) / (annual ? SL_S_PER_YEAR : 3.0 * MONTH_S);
         if (rate > 0.0 && gx->psc_share[b] > 0.0)
             add_flow(A, n, sink, b, rate * gx->psc_share[b]);
     }
@@ -682,8 +712,10 @@ void sl_strat_model_free(sl_strat_model *m)
 
 /* exp(A h) into P, cleaned: negatives from rounding set to 0, each column
  * renormalised to sum 1 (the exact propagator of a conservative Metzler
- * matrix is non-negative with unit column sums). */
-static int propagator(const double *A, size_t n, double h, double *P, sl_err *e)
+ * matrix is non-negative with unit column sums), and the columns of the
+ * absorbing sink states (index >= N_BOXES, zero columns of A) set to unit
+ * vectors, which they are exactly. */
+static int propagator(const double *A, size_t n, size_t n_boxes, double h, double *P, sl_err *e)
 {
     gsl_matrix *M = gsl_matrix_alloc(n, n), *E = gsl_matrix_alloc(n, n);
     if (!M || !E) {
@@ -715,8 +747,15 @@ static int propagator(const double *A, size_t n, double h, double *P, sl_err *e)
             s += v;
         }
         for (size_t i = 0; i < n; i++)
-            P[i * n + j] /= s;
+            P[i * n + j] = j < n_boxes ? P[i * n + j] / s : (i == j ? 1.0 : 0.0);
     }
+    /* Store column-major (P[j * n + i] = element (i, j)) for the run loop. */
+    for (size_t i = 0; i < n; i++)
+        for (size_t j = i + 1; j < n; j++) {
+            double t = P[i * n + j];
+            P[i * n + j] = P[j * n + i];
+            P[j * n + i] = t;
+        }
     gsl_matrix_free(M);
     gsl_matrix_free(E);
     return SL_OK;
@@ -761,10 +800,24 @@ int sl_strat_model_init(sl_strat_model *m, const sl_strat_params *p, const sl_at
         m->n_out = (size_t)floor(p->span_s / p->step_s + 1e-9) + 1;
         size_t n3 = (size_t)ceil(3.0 * SL_S_PER_YEAR / p->step_s - 1e-9) + 2;
         m->n_run = m->n_out > n3 ? m->n_out : n3;
+        /* Months with the same seasonal sinks share one exponential
+         * (2 or 3 distinct ones instead of 12). */
+        int key[12];
         for (int c = 0; c < 12 && rc == SL_OK; c++) {
+            key[c] = p->start_month == 0 ? 0
+                                         : (antarctic_months[c] && p->antarctic_vortex_fraction > 0.0) +
+                                               2 * (arctic_months[c] && p->arctic_vortex_fraction > 0.0);
+            int same = -1;
+            for (int d = 0; d < c && same < 0; d++)
+                if (key[d] == key[c])
+                    same = d;
+            if (same >= 0) {
+                memcpy(m->propagator[c], m->propagator[same], sizeof(double) * n * n);
+                continue;
+            }
             memcpy(A, m->rate, sizeof(double) * n * n);
             add_polar(m, &gx, A, n, c);
-            rc = propagator(A, n, m->internal_step_s, m->propagator[c], e);
+            rc = propagator(A, n, m->n_boxes, m->internal_step_s, m->propagator[c], e);
         }
     }
     free(A);
@@ -1015,8 +1068,13 @@ static double cloud_room_kg(const sl_strat_model *m, int r, double a0, double z0
 {
     double room = 0.0, dz = m->fine_dz_m;
     const double *t = m->fine_room_kg_m3 + (size_t)r * m->n_fine;
-    /* Trapezoid-free cell sum: cell i covers [i dz, (i+1) dz) with the value at its lower node averaged. */
-    for (size_t i = 0; i + 1 < m->n_fine; i++) {
+    /* Trapezoid rule on the fine nodes, cells cut at z0 and z1. */
+    if (!(z1 > z0))
+        return 0.0;
+    size_t i0 = (size_t)fmax(0.0, floor(z0 / dz)), i1 = (size_t)fmax(0.0, ceil(z1 / dz));
+    if (i1 + 1 > m->n_fine)
+        i1 = m->n_fine - 1;
+    for (size_t i = i0; i < i1; i++) {
         double lo = (double)i * dz, hi = lo + dz;
         double a = fmax(lo, z0), b = fmin(hi, z1);
         if (b > a)
@@ -1237,14 +1295,28 @@ static int integrate(const sl_strat_model *m, sl_strat_result *r, double a0, dou
     for (size_t i = 1; i < m->n_run; i++) {
         for (size_t s = 0; s < m->substeps; s++) {
             double tmid = ((double)((i - 1) * m->substeps + s) + 0.5) * h;
-            int cal = (int)(((long)(p->start_month - 1) + (long)floor(tmid / MONTH_S)) % 12);
+            int start = p->start_month > 0 ? p->start_month - 1 : 0;
+            int cal = (int)(((long)start + (long)floor(tmid / MONTH_S)) % 12);
+            /* y2 = P y as a sum of columns (stored contiguously, so the
+             * inner loop vectorises).  The sink columns of P are unit
+             * vectors: sinks keep their value plus what flows in. */
             const double *P = m->propagator[cal];
-            for (size_t a = 0; a < n; a++) {
-                double acc = 0.0;
-                const double *row = P + a * n;
-                for (size_t b = 0; b < n; b++)
-                    acc += row[b] * y[b];
-                y2[a] = acc;
+            double *restrict out = y2;
+            for (size_t a = 0; a < n; a++)
+                out[a] = a < nb ? 0.0 : y[a];
+            size_t b = 0;
+            for (; b + 4 <= nb; b += 4) { /* four columns per pass over OUT */
+                const double *restrict c0 = P + b * n, *restrict c1 = c0 + n, *restrict c2 = c1 + n,
+                                       *restrict c3 = c2 + n;
+                const double y0 = y[b], y1 = y[b + 1], y2b = y[b + 2], y3 = y[b + 3];
+                for (size_t a = 0; a < n; a++)
+                    out[a] += c0[a] * y0 + c1[a] * y1 + c2[a] * y2b + c3[a] * y3;
+            }
+            for (; b < nb; b++) {
+                const double *restrict col = P + b * n;
+                const double yb = y[b];
+                for (size_t a = 0; a < n; a++)
+                    out[a] += col[a] * yb;
             }
             double *tmp = y;
             y = y2;

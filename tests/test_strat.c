@@ -101,6 +101,8 @@ START_TEST(test_params)
     sl_strat_params_default(&p);
     p.start_month = 13;
     ck_assert_int_eq(sl_strat_params_check(&p, &e), SL_EDATA);
+    p.start_month = 0; /* month unknown is allowed */
+    ck_assert_int_eq(sl_strat_params_check(&p, &e), SL_OK);
     ck_assert_ptr_nonnull(strstr(e.msg, "start_month"));
     sl_strat_params_default(&p);
     p.step_s = 2.0 * SL_S_PER_YEAR;
@@ -500,6 +502,23 @@ START_TEST(test_polar_winter_seasonal)
             ck_assert_msg(d > 0.0, "no polar loss in month %d", month + 1);
         else
             ck_assert_msg(d == 0.0, "polar loss %g kg in month %d", d, month + 1);
+    }
+    /* Month unknown (0): the annual-mean rate every month removes about the
+     * same over the years (within 10 %: the loss depends a little on when the
+     * water meets the vortex; PRACTICE). */
+    {
+        sl_strat_params p;
+        sl_strat_params_default(&p);
+        p.start_month = 0;
+        sl_strat_model m0;
+        sl_strat_result r0;
+        run_layer(&f, &p, 146.0e9, 22.0e3, 27.0e3, -20.0, &m0, &r0);
+        size_t l = r0.n_times - 1;
+        SL_CK_REL(r0.sink_kg[l * SL_STRAT_N_SINKS + SL_STRAT_SINK_POLAR_WINTER],
+                  r.sink_kg[l * SL_STRAT_N_SINKS + SL_STRAT_SINK_POLAR_WINTER], 0.10);
+        ck_assert(r0.sink_kg[SL_STRAT_N_SINKS + SL_STRAT_SINK_POLAR_WINTER] > 0.0); /* acts in January too */
+        sl_strat_result_free(&r0);
+        sl_strat_model_free(&m0);
     }
     /* The vortex removes a part, not all: 5-25 % of the Hunga water (the 2023
      * vortex took in 20-40 % more water than usual and was reset to ice

@@ -88,7 +88,8 @@ typedef struct sl_strat_params {
     /* Run. */
     double span_s;                  /* length of the output time series (default 20 years) */
     double step_s;                  /* output step (default 1/12 year) */
-    int start_month;                /* calendar month of the event, 1-12 */
+    int start_month;                /* calendar month of the event, 1-12; 0 = unknown: the
+                                       seasonal polar sink acts at its annual-mean rate */
 } sl_strat_params;
 
 /* Fill the defaults (all published or calibrated; see src/strat.c). */
@@ -134,7 +135,8 @@ typedef struct sl_strat_model {
     size_t n_run;                   /* output times computed (>= n_out, covers 3 years) */
     size_t n_aug;                   /* n_boxes + SL_STRAT_N_SINKS */
     double *rate;                   /* n_aug x n_aug, annual-mean rates (no seasonal sink), column = source */
-    double *propagator[12];         /* per calendar month, n_aug x n_aug, for internal_step_s */
+    double *propagator[12];         /* per calendar month, n_aug x n_aug, for internal_step_s,
+                                       column-major: element (i, j) at [j * n_aug + i] */
     double slowest_mode_s;          /* e-folding of the slowest transport mode (conserved tracer) */
 } sl_strat_model;
 
@@ -190,8 +192,13 @@ int sl_strat_result_init(sl_strat_result *r, const sl_strat_model *m, sl_err *e)
 void sl_strat_result_free(sl_strat_result *r);
 
 /* Run the box model on INJ (bands, masses, latitude_deg, cloud_area_m2).
- * No allocation.  SL_EDATA for negative or non-finite masses or a latitude
- * outside -90..90; SL_EINTERNAL if the mass budget does not close. */
+ * What lies above each region's tropopause (from the model's background
+ * profiles, not inj->tropopause_altitude_m) enters; the rest is
+ * r->not_entered_kg.  t = 0 is the time of the profile (inj->time_s is not
+ * used).  With cloud_area_m2 > 0 the young cloud first freezes out what it
+ * cannot hold at ice saturation.  No allocation.  SL_EDATA for negative or
+ * non-finite masses or a latitude outside -90..90; SL_EINTERNAL if the mass
+ * budget does not close or a mass turns negative. */
 int sl_strat_run(const sl_strat_model *m, const sl_injection *inj, sl_strat_result *r, sl_err *e);
 
 /* Run from given box masses BOX_KG[n_boxes] at t = 0 (no young cloud, no
