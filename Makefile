@@ -101,14 +101,12 @@ demo: ensure-deps
 
 demo-run: $(BIN)
 	@mkdir -p $(DEMO_OUT)
-	$(BIN) --force run $(DEMO_SCENARIO) -o $(DEMO_OUT)/run.nc --csv $(DEMO_OUT)/run-csv --plot $(DEMO_OUT)/run-plots
-	@echo
-	$(BIN) --force decay $(DEMO_OUT)/run.nc -o $(DEMO_OUT)/decay.nc --csv $(DEMO_OUT)/decay-csv --plot $(DEMO_OUT)/decay-plots
+	$(BIN) --force run $(DEMO_SCENARIO) -o $(DEMO_OUT)/demo.nc --csv $(DEMO_OUT)/csv --plot $(DEMO_OUT)/plots
 	@echo
 	@echo "demo: outputs in $(DEMO_OUT)/:"
-	@echo "  run.nc, decay.nc      CF-1.11 netCDF (ncdump -h $(DEMO_OUT)/run.nc; cdo sinfon; ncview; xarray)"
-	@echo "  run-csv/, decay-csv/  the profile and the time series as CSV"
-	@echo "  run-plots/, decay-plots/  SVG and PNG plots and the editable gnuplot script steamloft.gp"
+	@echo "  demo.nc   CF-1.11 netCDF: try 'ncdump -h $(DEMO_OUT)/demo.nc' or 'cdo sinfon $(DEMO_OUT)/demo.nc'"
+	@echo "  csv/      profile.csv, background.csv, series.csv, series_layers.csv"
+	@echo "  plots/    profile, decay and column plots (SVG, PNG) and the editable script steamloft.gp"
 
 # Regenerate the shipped profiles in atmospheres/ (scripts/make-atmospheres.sh).
 atmospheres: build

@@ -165,6 +165,9 @@ att . scenario_site_atmosphere us1976
 att . scenario_file $SCEN
 att air_temperature standard_name air_temperature
 has vapor_mass_content
+has excess_water_mass
+has efolding_time
+has region_tropopause_altitude
 EOF
 if $PY "$SRC/tests/tools/nc_check.py" "$D/run.nc" "$SL_TMP/expect_run" >"$SL_TMP/chk" 2>&1; then
   sl_ok "run netCDF passes the independent CF check ($(tail -1 "$SL_TMP/chk" | sed 's/.*: //'))"
@@ -193,7 +196,13 @@ with netCDF4.Dataset(sys.argv[1]) as ds:
 sys.exit(bad)
 EOF
 if [ $? -eq 0 ]; then sl_ok "run netCDF masses equal the run's JSON report, band by band"; else sl_fail "run netCDF vs JSON"; sed 's/^/#   /' "$SL_TMP/cmp" | head; fi
-[ -s "$D/runcsv/profile.csv" ] && [ -s "$D/runplot/steamloft.gp" ] && sl_ok "run CSV and plot files written" || sl_fail "run CSV/plot"
+[ -s "$D/runcsv/series.csv" ] && [ -s "$D/runplot/decay.dat" ] && sl_ok "run CSV and plot files include the box-model series" || sl_fail "run CSV/plot"
+"$SL_BIN" run "$SCEN" -o "$D/r1/run.nc" >/dev/null 2>&1
+"$SL_BIN" run "$SCEN" -o "$D/r2/run.nc" >/dev/null 2>&1
+ncdump "$D/r1/run.nc" | grep -v ':history = ' >"$SL_TMP/d1"
+ncdump "$D/r2/run.nc" | grep -v ':history = ' >"$SL_TMP/d2"
+if [ -s "$SL_TMP/d1" ] && cmp -s "$SL_TMP/d1" "$SL_TMP/d2"; then sl_ok "run twice: identical ncdump without history"
+else sl_fail "run outputs differ"; diff "$SL_TMP/d1" "$SL_TMP/d2" | head -5 | sed 's/^/#   /'; fi
 
 # Nothing stray anywhere: no staging directories left behind.
 if [ -z "$(find "$D" -name '.steamloft-stage-*')" ]; then sl_ok "no staging directories left"; else sl_fail "staging left"; fi
