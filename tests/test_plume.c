@@ -9,6 +9,7 @@
 #include "steamloft/units.h"
 #include "steamloft/water.h"
 
+#include <stdint.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -620,6 +621,70 @@ START_TEST(test_sources_add_up)
 }
 END_TEST
 
+
+/* A small deterministic generator for the robustness test (splitmix64). */
+static double rnd(uint64_t *state, double lo, double hi)
+{
+    uint64_t z = (*state += 0x9e3779b97f4a7c15ULL);
+    z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
+    z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
+    z ^= z >> 31;
+    return lo + (hi - lo) * (double)(z >> 11) / 9007199254740992.0;
+}
+
+START_TEST(test_random_sources)
+{
+    /* 600 random sources over and beyond the range the chain produces (air
+     * 1e3-1e14 kg, water up to 100 times the air, 160-9000 K, 0-90 km, or a
+     * heat of 1e9-1e20 J in a 10 m-30 km sphere; three profiles): every one
+     * rises or is classed without a failure, the outputs are finite and the
+     * water budget closes to rounding, the energy budget to 10 rtol
+     * (PRACTICE: robustness is what the ensembles need). */
+    const char *profiles[3] = {"us1976", "tropical", "subarctic-winter"};
+    sl_plume pl = {0};
+    init_plume(&pl, 0.25, 0.5, 1e-6, 1.0);
+    sl_injection inj = {0};
+    sl_err e = {0};
+    ck_assert_int_eq(sl_injection_init_uniform(&inj, 0.0, 100e3, 1e3, &e), SL_OK);
+    uint64_t seed = 20260101;
+    for (int p = 0; p < 3; p++) {
+        sl_atmosphere atm = {0};
+        ck_assert_msg(sl_atmosphere_init(&atm, profiles[p], &e) == SL_OK, "%s", e.msg);
+        for (int i = 0; i < 200; i++) {
+            sl_source_list list = {0};
+            list.n = 1;
+            sl_source *s = &list.src[0];
+            s->kind = SL_SOURCE_SEA_PLUME;
+            s->altitude_m = rnd(&seed, 0, 1) < 0.5 ? rnd(&seed, 0, 2000) : rnd(&seed, 0, 90000);
+            s->air_mass_kg = pow(10.0, rnd(&seed, 3, 14));
+            s->temperature_K = rnd(&seed, 160, 9000);
+            s->vapor_mass_kg = rnd(&seed, 0, 1) < 0.2 ? 0.0 : s->air_mass_kg * pow(10.0, rnd(&seed, -4, 2));
+            s->liquid_mass_kg = rnd(&seed, 0, 1) < 0.5 ? 0.0 : s->air_mass_kg * pow(10.0, rnd(&seed, -4, 1));
+            s->vertical_speed_m_s = rnd(&seed, 0, 1) < 0.5 ? 0.0 : rnd(&seed, 0, 500);
+            if (rnd(&seed, 0, 1) < 0.3) {
+                s->air_mass_kg = s->temperature_K = 0.0;
+                s->heat_J = pow(10.0, rnd(&seed, 9, 20));
+                s->radius_m = pow(10.0, rnd(&seed, 1, 4.5));
+            }
+            int rc = sl_plume_solve(&pl, &atm, &list, &inj, &e);
+            ck_assert_msg(rc == SL_OK, "%s source %d: %s", profiles[p], i, e.msg);
+            const sl_thermal *th = &pl.th[0];
+            ck_assert(isfinite(pl.plume_top_m) && isfinite(pl.stratospheric_water_kg) && isfinite(pl.cloud_bottom_m));
+            double ws = th->water_initial_kg + th->water_entrained_kg;
+            if (ws > 0.0)
+                SL_CK_ABS((th->water_final_kg - th->water_initial_kg - th->water_entrained_kg + th->water_fallout_kg) / ws,
+                          0.0, 1e-12);
+            double es = fabs(th->energy_initial_J) + fabs(th->energy_entrained_J);
+            SL_CK_ABS((th->energy_final_J - th->energy_initial_J - th->energy_entrained_J + th->energy_fallout_J) / es,
+                      0.0, 1e-5);
+        }
+        sl_atmosphere_free(&atm);
+    }
+    sl_injection_free(&inj);
+    sl_plume_free(&pl);
+}
+END_TEST
+
 static Suite *plume_suite(void)
 {
     Suite *s = suite_create("plume");
@@ -637,6 +702,7 @@ static Suite *plume_suite(void)
     tcase_add_test(tc, test_spray_collapse);
     tcase_add_test(tc, test_reuse_is_deterministic);
     tcase_add_test(tc, test_sources_add_up);
+    tcase_add_test(tc, test_random_sources);
     suite_add_tcase(s, tc);
     return s;
 }
