@@ -43,7 +43,8 @@ static void usage(FILE *out)
             "  --latitude DEG           latitude of the event, -90..90 (overrides the profile's)\n"
             "  --cloud-area M2          area of the young cloud, m2 (then water above ice\n"
             "                           saturation in it freezes out at once)\n"
-            "  --month N                calendar month of the event, 1-12 (default 1)\n"
+            "  --month N                calendar month of the event, 1-12 (default 1); 0 = unknown\n"
+            "                           (the polar winter sink then acts at its annual mean)\n"
             "  --span-years Y           length of the time series, years (default 20)\n"
             "  --step-days D            output step, days (default 30.4375 = 1/12 year)\n"
             "  --atmosphere NAME|FILE   background profile for all regions\n"
@@ -142,8 +143,8 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
         case O_MONTH:
             if (sl_cli_parse_double(optarg, "--month", &v, &e) != SL_OK)
                 return sl_cli_usage_error(g, "decay", "%s", e.msg);
-            if (!(v >= 1.0 && v <= 12.0 && v == floor(v)))
-                return sl_cli_usage_error(g, "decay", "--month %s: valid values 1 to 12", optarg);
+            if (!(v >= 0.0 && v <= 12.0 && v == floor(v)))
+                return sl_cli_usage_error(g, "decay", "--month %s: valid values 0 (unknown) to 12", optarg);
             o->month = (int)v;
             break;
         case O_SPAN:
