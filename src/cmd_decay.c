@@ -311,8 +311,11 @@ static int write_outputs(const decay_opts *o, const sl_strat_model *m, const sl_
 {
     sl_output_strat os;
     SL_TRY_RETURN(e, sl_output_strat_init(&os, m, r, e));
-    char title[600];
+    char title[600], event_time[32];
     snprintf(title, sizeof title, "steamloft decay of %s", source);
+    /* Nominal date: the month is known, the day and year are not. */
+    snprintf(event_time, sizeof event_time, "2000-%02d-01 00:00:00",
+             o->month >= 1 && o->month <= 12 ? o->month : 1);
     const sl_output_param params[] = {
         {"decay.source", source, 0, NULL},
         {"decay.month", NULL, (double)o->month, NULL},
@@ -322,7 +325,7 @@ static int write_outputs(const decay_opts *o, const sl_strat_model *m, const sl_
         {"decay.extratropics_atmosphere", o->atm_extra, 0, NULL},
     };
     sl_output_view v = {inj, atm, &os.series, os.scalars, os.n_scalars, params,
-                        sizeof params / sizeof params[0], title, o->profile, NULL, NULL,
+                        sizeof params / sizeof params[0], title, o->profile, event_time, NULL,
                         SL_OUTPUT_USED_ATMOSPHERE | SL_OUTPUT_USED_WATER | SL_OUTPUT_USED_STRAT,
                         g->full_argc, g->full_argv};
     int rc = sl_output_request_write(&o->out, &v, g, "decay", e);
