@@ -14,6 +14,8 @@
 #include "steamloft/units.h"
 
 #include <getopt.h>
+
+#include "steamloft/output_request.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -55,6 +57,7 @@ static void usage(FILE *out)
             "  --calibrate              fit the transport constants to the published time\n"
             "                           scales and print them (no run)\n"
             "  -h, --help               print this help\n"
+            "\n" SL_OUTPUT_HELP
             "\n"
             "%s\n",
             sl_cli_caution());
@@ -68,6 +71,7 @@ typedef struct decay_opts {
     double span_years, step_days;
     const char *atm_tropics, *atm_extra;
     int json, series, calibrate, freeze_out;
+    sl_output_request out; /* -o, --format, --csv, --plot */
 } decay_opts;
 
 static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts *o, int *done)
@@ -84,11 +88,12 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
         {"json", no_argument, NULL, O_JSON},             {"series", no_argument, NULL, O_SERIES},
         {"calibrate", no_argument, NULL, O_CAL},         {"help", no_argument, NULL, 'h'},
         {"freeze-out", no_argument, NULL, O_FREEZE},
+        SL_OUTPUT_LONG_OPTIONS,
         {NULL, 0, NULL, 0}};
     sl_err e = {0};
     int c;
     *done = 0;
-    while ((c = getopt_long(argc, argv, "h", lo, NULL)) != -1) {
+    while ((c = getopt_long(argc, argv, "ho:", lo, NULL)) != -1) {
         double v;
         switch (c) {
         case 'h':
@@ -164,7 +169,13 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
         case O_SERIES: o->series = 1; break;
         case O_CAL: o->calibrate = 1; break;
         case O_FREEZE: o->freeze_out = 1; break;
-        default: return sl_cli_usage_error(g, "decay", "unknown option (see --help)");
+        default:
+            if (sl_output_request_is_option(c)) {
+                if (sl_output_request_option(&o->out, c, optarg, &e) != SL_OK)
+                    return sl_cli_usage_error(g, "decay", "%s", e.msg);
+                break;
+            }
+            return sl_cli_usage_error(g, "decay", "unknown option (see --help)");
         }
     }
     if (optind < argc)
@@ -177,6 +188,12 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
         return sl_cli_usage_error(g, "decay", "give either PROFILE or --inject/--between, not both");
     if (!o->profile && !(o->have_inject && o->have_between && o->have_latitude))
         return sl_cli_usage_error(g, "decay", "give PROFILE, or --inject MASS_KG --between BOTTOM_M TOP_M --latitude DEG");
+    /* Output destinations are checked before the run: a bad one fails at once. */
+    int st = sl_output_request_preflight(&o->out, g->force, &e);
+    if (st == SL_EUSAGE)
+        return sl_cli_usage_error(g, "decay", "%s", e.msg);
+    if (st != SL_OK)
+        return sl_cli_report(g, "decay", &e);
     return EX_OK;
 }
 
@@ -289,6 +306,37 @@ static int run_calibration(const sl_strat_params *p, const sl_atmosphere *const 
     return EX_OK;
 }
 
+/* The files asked for with -o/--csv/--plot: the profile, the background at
+ * the event's latitude, the box-model series and scalars, and the options of
+ * this command as the provenance. */
+static int write_outputs(const decay_opts *o, const sl_strat_model *m, const sl_strat_result *r,
+                         const sl_injection *inj, const sl_atmosphere *atm, const char *source,
+                         const sl_cli_globals *g, sl_err *e)
+{
+    sl_output_strat os;
+    SL_TRY_RETURN(e, sl_output_strat_init(&os, m, r, e));
+    char title[600], event_time[32];
+    snprintf(title, sizeof title, "steamloft decay of %s", source);
+    /* Nominal date: the month is known, the day and year are not. */
+    snprintf(event_time, sizeof event_time, "2000-%02d-01 00:00:00",
+             o->month >= 1 && o->month <= 12 ? o->month : 1);
+    const sl_output_param params[] = {
+        {"decay.source", source, 0, NULL},
+        {"decay.month", NULL, (double)o->month, NULL},
+        {"decay.span_years", NULL, o->span_years, NULL},
+        {"decay.step_days", NULL, o->step_days, NULL},
+        {"decay.tropics_atmosphere", o->atm_tropics, 0, NULL},
+        {"decay.extratropics_atmosphere", o->atm_extra, 0, NULL},
+    };
+    sl_output_view v = {inj, atm, &os.series, os.scalars, os.n_scalars, params,
+                        sizeof params / sizeof params[0], title, o->profile, event_time, NULL,
+                        SL_OUTPUT_USED_ATMOSPHERE | SL_OUTPUT_USED_WATER | SL_OUTPUT_USED_STRAT,
+                        g->full_argc, g->full_argv};
+    int rc = sl_output_request_write(&o->out, &v, g, "decay", e);
+    sl_output_strat_free(&os);
+    return rc;
+}
+
 int sl_cmd_decay(int argc, char **argv, const sl_cli_globals *g)
 {
     decay_opts o;
@@ -365,6 +413,14 @@ int sl_cmd_decay(int argc, char **argv, const sl_cli_globals *g)
     if (o.series)
         print_series(&r);
     rc = EX_OK;
+    if (sl_output_request_any(&o.out)) {
+        st = write_outputs(&o, &m, &r, &inj, inj.latitude_deg < -p.tropics_edge_deg ||
+                                                     inj.latitude_deg > p.tropics_edge_deg
+                                                 ? &ax : &at,
+                           source, g, &e);
+        if (st != SL_OK)
+            rc = sl_cli_report(g, "decay", &e);
+    }
 out:
     if (st != SL_OK && rc == EX_OK)
         rc = sl_cli_report(g, "decay", &e);
