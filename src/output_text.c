@@ -290,14 +290,23 @@ static void emit_plume(sl_report *r, const sl_chain *ch)
         sl_report_end_object(r);
     }
     sl_report_end_array(r);
-    /* JSON: every band; text: the bands holding water. */
-    sl_report_begin_array(r, "bands", r->json ? NULL : "\nBands holding lofted water");
+    /* JSON: every band as an object; text: one table row per band holding water. */
+    if (!r->json) {
+        fprintf(r->out, "\n%*sBands holding lofted water\n", 2 * r->text_indent, "");
+        fprintf(r->out, "%*s  %8s %8s %14s %14s\n", 2 * r->text_indent, "", "bottom", "top", "vapour", "ice");
+        fprintf(r->out, "%*s  %8s %8s %14s %14s\n", 2 * r->text_indent, "", "km", "km", "Tg", "Tg");
+        for (size_t i = 0; i < inj->n_bands; i++) {
+            if (inj->vapor_kg[i] == 0.0 && inj->ice_kg[i] == 0.0)
+                continue;
+            fprintf(r->out, "%*s  %8.1f %8.1f %14.4g %14.4g\n", 2 * r->text_indent, "",
+                    inj->band_bottom_m[i] * 1e-3, inj->band_top_m[i] * 1e-3, inj->vapor_kg[i] * 1e-9,
+                    inj->ice_kg[i] * 1e-9);
+        }
+        return;
+    }
+    sl_report_begin_array(r, "bands", NULL);
     for (size_t i = 0; i < inj->n_bands; i++) {
-        if (!r->json && inj->vapor_kg[i] == 0.0 && inj->ice_kg[i] == 0.0)
-            continue;
-        char label[64];
-        snprintf(label, sizeof label, "%.1f-%.1f km", inj->band_bottom_m[i] * 1e-3, inj->band_top_m[i] * 1e-3);
-        sl_report_begin_object(r, NULL, label);
+        sl_report_begin_object(r, NULL, NULL);
         sl_report_number(r, "bottom_m", inj->band_bottom_m[i], "bottom", 1e-3, "km");
         sl_report_number(r, "top_m", inj->band_top_m[i], "top", 1e-3, "km");
         sl_report_number(r, "vapor_kg", inj->vapor_kg[i], "vapour", 1e-9, "Tg");
