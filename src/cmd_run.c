@@ -24,8 +24,9 @@ int sl_cmd_run(int argc, char **argv, const sl_cli_globals *g)
         case 'h':
             printf("Usage: steamloft run [--json] [-o FILE.nc] [--csv DIR] [--plot DIR] SCENARIO\n"
                    "Run one scenario (an INI file; '-' reads standard input) through the\n"
-                   "atmospheric entry, the energy partition at the sea and the plume rise,\n"
-                   "and print a summary with the lofted water by altitude band.\n"
+                   "atmospheric entry, the energy partition at the sea, the plume rise and\n"
+                   "the stratospheric box model, and print a summary: the lofted water by\n"
+                   "altitude band, how long it stays and how it compares with the background.\n"
                    "  -j, --json  print the summary as JSON (SI values, unit in each key)\n"
                    "  -h, --help  print this help\n"
                    "'steamloft params' lists every scenario key.  Exit status: 0 ok, 64 usage,\n"
