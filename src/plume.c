@@ -919,6 +919,7 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
     pl->water_lofted_kg = pl->fallout_kg = pl->frozen_out_kg = pl->background_kg = pl->below_bands_kg = 0.0;
     pl->stratospheric_water_kg = pl->stratospheric_ice_kg = 0.0;
     double most_water = -1.0, t_last = 0.0, area = 0.0;
+    int any_wet = 0;
     double band_lo = inj->band_bottom_m[0], band_hi = inj->band_top_m[inj->n_bands - 1];
     for (size_t i = 0; i < src->n; i++) {
         sl_thermal *th = &pl->th[i];
@@ -929,10 +930,21 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
         double water = th->vapor_kg + th->liquid_kg + th->ice_kg;
         if (!(pl->plume_top_m >= th->top_altitude_m))
             pl->plume_top_m = th->top_altitude_m;
-        if (!(pl->cloud_bottom_m <= th->cloud_bottom_m))
-            pl->cloud_bottom_m = th->cloud_bottom_m;
-        if (!(pl->cloud_top_m >= th->cloud_top_m))
-            pl->cloud_top_m = th->cloud_top_m;
+        /* The combined cloud spans the thermals that carry water; a dry
+         * thermal (a blown-out airburst fireball that entrained nothing)
+         * says nothing about where the water is.  If none carries water,
+         * every thermal counts. */
+        int wet = water > 0.0;
+        if (wet && !any_wet) {
+            any_wet = 1;
+            pl->cloud_bottom_m = pl->cloud_top_m = NAN;
+        }
+        if (wet || !any_wet) {
+            if (!(pl->cloud_bottom_m <= th->cloud_bottom_m))
+                pl->cloud_bottom_m = th->cloud_bottom_m;
+            if (!(pl->cloud_top_m >= th->cloud_top_m))
+                pl->cloud_top_m = th->cloud_top_m;
+        }
         if (water > most_water) {
             most_water = water;
             pl->neutral_altitude_m = th->neutral_altitude_m;

@@ -622,6 +622,45 @@ START_TEST(test_sources_add_up)
 END_TEST
 
 
+START_TEST(test_dry_blowout_does_not_set_cloud)
+{
+    /* Regression (2026-12-01): a dry airburst fireball larger than the scale
+     * height is placed without rising and carries no water; the combined cloud
+     * bottom and top must come from the thermal that carries the water, not
+     * from the dry one (the demo reported a cloud bottom of 0 km while all its
+     * water sat above 25 km).  Expected values: the wet thermal computed alone
+     * (PRACTICE: the combined cloud is the union of the wet clouds). */
+    sl_atmosphere atm = {0};
+    sl_err e = {0};
+    ck_assert_msg(sl_atmosphere_init(&atm, "tropical", &e) == SL_OK, "%s", e.msg);
+    sl_plume pl = {0};
+    init_plume(&pl, 0.25, 0.5, 1e-6, 1.0);
+    sl_source_list wet = {0}, both = {0};
+    wet.n = 1;
+    both.n = 2;
+    both.src[0].kind = SL_SOURCE_AIRBURST; /* dry, 15 km radius against ~7 km scale height */
+    both.src[0].altitude_m = 15000.0;
+    both.src[0].radius_m = 15000.0;
+    both.src[0].air_mass_kg = 3.0e15;
+    both.src[0].temperature_K = 400.0;
+    wet.src[0] = both.src[1] = wet_source();
+    sl_injection inj = {0};
+    ck_assert_int_eq(sl_injection_init_uniform(&inj, 0.0, 100e3, 1e3, &e), SL_OK);
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &wet, &inj, &e) == SL_OK, "%s", e.msg);
+    double bottom = pl.cloud_bottom_m, top = pl.cloud_top_m;
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &both, &inj, &e) == SL_OK, "%s", e.msg);
+    ck_assert_int_eq(pl.th[0].regime, SL_REGIME_BLOWOUT);
+    SL_CK_ABS(pl.th[0].vapor_kg + pl.th[0].liquid_kg + pl.th[0].ice_kg, 0.0, 0.0);
+    ck_assert(pl.th[0].cloud_bottom_m < bottom);
+    SL_CK_REL(pl.cloud_bottom_m, bottom, 0.0);
+    SL_CK_REL(pl.cloud_top_m, fmax(top, 0.0), 0.0);
+    ck_assert_int_eq(pl.regime, SL_REGIME_BLOWOUT); /* any blown-out source is still flagged */
+    sl_injection_free(&inj);
+    sl_plume_free(&pl);
+    sl_atmosphere_free(&atm);
+}
+END_TEST
+
 /* A small deterministic generator for the robustness test (splitmix64). */
 static double rnd(uint64_t *state, double lo, double hi)
 {
@@ -697,6 +736,7 @@ static Suite *plume_suite(void)
     tcase_add_test(tc, test_dry_plume_lofts_no_water);
     tcase_add_test(tc, test_convergence);
     tcase_add_test(tc, test_blowout_regime);
+    tcase_add_test(tc, test_dry_blowout_does_not_set_cloud);
     tcase_add_test(tc, test_freeze_out);
     tcase_add_test(tc, test_moist_adiabat);
     tcase_add_test(tc, test_spray_collapse);
