@@ -14,6 +14,7 @@
  * 3957) and Neu & Plumb 1999 (JGR 104, 19243) for the box model with Hurst
  * et al. 1999 (JGR 104, 8191) for the background water. */
 #include "steamloft/output.h"
+#include "steamloft/outfile.h"
 
 #include "steamloft/scenario.h"
 #include "steamloft/strat.h"
@@ -292,5 +293,15 @@ int sl_output_view_check(const sl_output_view *v, sl_err *e)
             SL_FAIL_RETURN(e, SL_EINTERNAL, "scenario parameter '%s' is not finite",
                            v->params[i].name);
     }
+    return SL_OK;
+}
+
+int sl_output_write_file(struct sl_outset *set, const char *name, sl_output_writer_fn fn,
+                         const sl_output_view *v, sl_err *e)
+{
+    FILE *fp = NULL;
+    SL_TRY_RETURN(e, sl_outset_fopen(set, name, &fp, e));
+    fn(fp, v);
+    SL_TRY_RETURN(e, sl_outset_fclose(set, name, fp, e));
     return SL_OK;
 }

@@ -158,18 +158,6 @@ static void write_series_layers(FILE *fp, const sl_output_view *v)
         }
 }
 
-typedef void (*writer_fn)(FILE *, const sl_output_view *);
-
-static int one_file(sl_outset *set, const char *name, writer_fn fn, const sl_output_view *v,
-                    sl_err *e)
-{
-    FILE *fp = NULL;
-    SL_TRY_RETURN(e, sl_outset_fopen(set, name, &fp, e));
-    fn(fp, v);
-    SL_TRY_RETURN(e, sl_outset_fclose(set, name, fp, e));
-    return SL_OK;
-}
-
 int sl_output_csv_write(const sl_output_view *v, const char *dir, int force, sl_err *e)
 {
     SL_TRY_RETURN(e, sl_output_view_check(v, e));
@@ -178,13 +166,13 @@ int sl_output_csv_write(const sl_output_view *v, const char *dir, int force, sl_
         SL_FAIL_RETURN(e, SL_ENOMEM, "writing CSV into '%s': out of memory", dir);
     int rc = sl_outset_begin(set, dir, force, 1, e);
     if (rc == SL_OK)
-        rc = one_file(set, "profile.csv", write_profile, v, e);
+        rc = sl_output_write_file(set, "profile.csv", write_profile, v, e);
     if (rc == SL_OK && v->atm)
-        rc = one_file(set, "background.csv", write_background, v, e);
+        rc = sl_output_write_file(set, "background.csv", write_background, v, e);
     if (rc == SL_OK && v->series)
-        rc = one_file(set, "series.csv", write_series, v, e);
+        rc = sl_output_write_file(set, "series.csv", write_series, v, e);
     if (rc == SL_OK && v->series)
-        rc = one_file(set, "series_layers.csv", write_series_layers, v, e);
+        rc = sl_output_write_file(set, "series_layers.csv", write_series_layers, v, e);
     if (rc == SL_OK)
         rc = sl_outset_commit(set, e);
     if (rc != SL_OK) {

@@ -296,18 +296,6 @@ static void write_script(FILE *fp, const sl_output_view *v)
     fputs("  unset output\n}\n", fp);
 }
 
-typedef void (*writer_fn)(FILE *, const sl_output_view *);
-
-static int one_file(sl_outset *set, const char *name, writer_fn fn, const sl_output_view *v,
-                    sl_err *e)
-{
-    FILE *fp = NULL;
-    SL_TRY_RETURN(e, sl_outset_fopen(set, name, &fp, e));
-    fn(fp, v);
-    SL_TRY_RETURN(e, sl_outset_fclose(set, name, fp, e));
-    return SL_OK;
-}
-
 /* First line of the stage's gnuplot.log into BUF (for the warning). */
 static void first_log_line(const char *stage, char *buf, size_t len)
 {
@@ -399,15 +387,15 @@ int sl_plot_write(const sl_output_view *v, const char *dir, const sl_plot_option
         SL_FAIL_RETURN(e, SL_ENOMEM, "writing plots into '%s': out of memory", dir);
     int rc = sl_outset_begin(set, dir, o.force, 1, e);
     if (rc == SL_OK)
-        rc = one_file(set, "profile.dat", write_profile, v, e);
+        rc = sl_output_write_file(set, "profile.dat", write_profile, v, e);
     if (rc == SL_OK && v->atm)
-        rc = one_file(set, "background.dat", write_background, v, e);
+        rc = sl_output_write_file(set, "background.dat", write_background, v, e);
     if (rc == SL_OK && v->series)
-        rc = one_file(set, "decay.dat", write_decay, v, e);
+        rc = sl_output_write_file(set, "decay.dat", write_decay, v, e);
     if (rc == SL_OK && v->series)
-        rc = one_file(set, "column.dat", write_column, v, e);
+        rc = sl_output_write_file(set, "column.dat", write_column, v, e);
     if (rc == SL_OK)
-        rc = one_file(set, "steamloft.gp", write_script, v, e);
+        rc = sl_output_write_file(set, "steamloft.gp", write_script, v, e);
     /* Claim the image names now: an existing image without force stops us
      * before gnuplot runs. */
     for (size_t i = 0; rc == SL_OK && i < n_images; i++)

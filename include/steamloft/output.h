@@ -14,6 +14,7 @@
 #define STEAMLOFT_OUTPUT_H
 
 #include <stddef.h>
+#include <stdio.h>
 
 #include "steamloft/atmosphere.h"
 #include "steamloft/err.h"
@@ -128,5 +129,14 @@ int sl_output_view_check(const sl_output_view *v, sl_err *e);
 
 /* The event time used as the time origin: v->event_time or the nominal date. */
 const char *sl_output_event_time(const sl_output_view *v);
+
+/* A function that writes one text file of a view to an open stream. */
+typedef void (*sl_output_writer_fn)(FILE *fp, const sl_output_view *v);
+
+/* Open NAME in the output set SET (see outfile.h), let FN write it, close it.
+ * Fails as sl_outset_fopen / sl_outset_fclose do. */
+struct sl_outset;
+int sl_output_write_file(struct sl_outset *set, const char *name, sl_output_writer_fn fn,
+                         const sl_output_view *v, sl_err *e);
 
 #endif
