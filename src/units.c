@@ -21,6 +21,7 @@ static const sl_unit unit_table[] = {
     {"MPa", "MPa", "Pa", 1.0e6},
     {"K", "K", "K", 1.0},
     {"J", "J", "J", 1.0},
+    {"J_kg", "J/kg", "J kg-1", 1.0},
     {"Mt", "Mt TNT", "J", SL_J_PER_MT_TNT},
     {"deg", "degree", "rad", SL_PI / 180.0},
     {"ppmv", "ppmv", "mol mol-1", 1.0e-6},

@@ -8,8 +8,10 @@
 #include "steamloft/cli.h"
 
 int sl_cmd_help(int argc, char **argv, const sl_cli_globals *g);
+int sl_cmd_params(int argc, char **argv, const sl_cli_globals *g);
 
 #define SL_CMD_TABLE \
-    {"help", "print the help of steamloft or of one command", sl_cmd_help},
+    {"help", "print the help of steamloft or of one command", sl_cmd_help}, \
+    {"params", "list every scenario key with unit, default, range and meaning", sl_cmd_params},
 
 #endif

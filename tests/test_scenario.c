@@ -1,0 +1,276 @@
+/* Tests of the scenario module: the parameter table, parsing, defaults,
+ * derived values, every kind of mistake with its status and message, setting
+ * values by name (ensembles) and provenance. */
+#include "sl_test.h"
+
+#include "steamloft/scenario.h"
+#include "steamloft/units.h"
+#include "steamloft/units_table.h"
+
+#include <stdio.h>
+#include <string.h>
+
+static const char *good =
+    "; Chelyabinsk-like body\n"
+    "[impactor]\n"
+    "diameter_m = 19\n"
+    "density_kg_m3 = 3300\n"
+    "speed_km_s = 19.16   ; at the top of the atmosphere\n"
+    "angle_deg = 18\n"
+    "\n"
+    "[site]\n"
+    "latitude_deg = 54.8\n"
+    "longitude_deg = 61.1\n"
+    "ocean_depth_m = 0\n";
+
+START_TEST(table_is_consistent)
+{
+    /* Every key's name ends in the unit the row declares (PRACTICE: our own
+     * rule that keys carry their unit), defaults lie in their ranges, and no
+     * section.key appears twice. */
+    for (int i = 0; i < SL_P_COUNT; i++) {
+        const sl_param_def *d = &sl_scenario_params[i];
+        ck_assert_msg(d->meaning && d->meaning[0], "%s.%s has no meaning", d->section, d->key);
+        if (d->type == SL_PT_REAL && strcmp(d->unit, "1") != 0) {
+            const sl_unit *u = sl_units_for_key(d->key);
+            ck_assert_msg(u != NULL && strcmp(u->suffix, d->unit) == 0,
+                          "%s.%s does not end in its unit %s", d->section, d->key, d->unit);
+        }
+        if (d->type == SL_PT_REAL && strcmp(d->unit, "1") == 0)
+            ck_assert_msg(sl_units_for_key(d->key) == NULL, "%s.%s ends in a unit but says 1",
+                          d->section, d->key);
+        if ((d->type == SL_PT_REAL || d->type == SL_PT_INT) && !isnan(d->default_value))
+            SL_CK_RANGE(d->default_value, d->min_value, d->max_value);
+        char name[80];
+        snprintf(name, sizeof name, "%s.%s", d->section, d->key);
+        ck_assert_int_eq(sl_scenario_find(name), i);
+    }
+    ck_assert_int_eq(sl_scenario_find("impactor.nonsense_m"), -1);
+    ck_assert_int_eq(sl_scenario_find("diameter_m"), -1);
+}
+END_TEST
+
+START_TEST(parses_and_converts_to_si)
+{
+    sl_scenario sc;
+    sl_err e = {0};
+    ck_assert_int_eq(sl_scenario_load_string(&sc, "chel.ini", good, &e), SL_OK);
+    ck_assert_int_eq(sc.kind, SL_SCENARIO_IMPACTOR);
+    SL_CK_REL(sl_scenario_value(&sc, SL_P_IMPACTOR_DIAMETER), 19.0, 1e-15);
+    /* km/s -> m/s and degrees -> radians: exact conversions (PRACTICE). */
+    SL_CK_REL(sl_scenario_value(&sc, SL_P_IMPACTOR_SPEED), 19160.0, 1e-14);
+    SL_CK_REL(sl_scenario_value(&sc, SL_P_IMPACTOR_ANGLE), 18.0 * SL_PI / 180.0, 1e-14);
+    SL_CK_REL(sl_scenario_value(&sc, SL_P_SITE_LATITUDE), 54.8 * SL_PI / 180.0, 1e-14);
+    /* Defaults from the table. */
+    SL_CK_REL(sl_scenario_value(&sc, SL_P_SITE_SST), 288.15, 1e-15);
+    ck_assert_str_eq(sl_scenario_text(&sc, SL_P_SITE_ATMOSPHERE), "us1976");
+    ck_assert_str_eq(sl_scenario_text(&sc, SL_P_PARTITION_METHOD), "shock");
+    ck_assert_int_eq(sc.origin[SL_P_SITE_SST], SL_ORIGIN_DEFAULT);
+    ck_assert_int_eq(sc.origin[SL_P_IMPACTOR_SPEED], SL_ORIGIN_FILE);
+    /* Raw text and line survive (the inline ';' comment is stripped by inih). */
+    int line = 0;
+    ck_assert_str_eq(sl_scenario_raw(&sc, SL_P_IMPACTOR_SPEED, &line), "19.16");
+    ck_assert_int_eq(line, 5);
+    ck_assert_ptr_null(sl_scenario_raw(&sc, SL_P_SITE_SST, &line));
+    /* Optional [airburst] keys stay unset. */
+    ck_assert(!sl_scenario_has(&sc, SL_P_AIRBURST_ALTITUDE));
+    ck_assert(isnan(sl_scenario_value(&sc, SL_P_AIRBURST_ALTITUDE)));
+}
+END_TEST
+
+START_TEST(derived_strength_collins_eq9)
+{
+    /* Collins, Melosh & Marcus 2005 eq. 9; DERIVED check values in
+     * impact-facts.md #14: Yi(3000) = 0.33 MPa, Yi(7800) = 41 MPa (two
+     * significant digits, hence 2 %). */
+    sl_scenario sc;
+    sl_err e = {0};
+    const char *t3000 = "[impactor]\ndiameter_m=60\ndensity_kg_m3=3000\nspeed_km_s=15\nangle_deg=45\n"
+                        "[site]\nlatitude_deg=60\n";
+    ck_assert_int_eq(sl_scenario_load_string(&sc, "t.ini", t3000, &e), SL_OK);
+    SL_CK_REL(sl_scenario_value(&sc, SL_P_IMPACTOR_STRENGTH), 0.33e6, 0.02);
+    ck_assert_int_eq(sc.origin[SL_P_IMPACTOR_STRENGTH], SL_ORIGIN_DERIVED);
+    /* Re-derived when an ensemble changes the density. */
+    ck_assert_int_eq(sl_scenario_set(&sc, "impactor.density_kg_m3", 7800.0, &e), SL_OK);
+    SL_CK_REL(sl_scenario_value(&sc, SL_P_IMPACTOR_STRENGTH), 41e6, 0.02);
+    /* A strength given in the file is kept. */
+    const char *given = "[impactor]\ndiameter_m=60\ndensity_kg_m3=3000\nspeed_km_s=15\nangle_deg=45\n"
+                        "strength_Pa = 2e6\n[site]\nlatitude_deg=60\n";
+    ck_assert_int_eq(sl_scenario_load_string(&sc, "t.ini", given, &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_set(&sc, "impactor.density_kg_m3", 7800.0, &e), SL_OK);
+    SL_CK_REL(sl_scenario_value(&sc, SL_P_IMPACTOR_STRENGTH), 2e6, 1e-15);
+}
+END_TEST
+
+/* Load TEXT, expect status CODE and every fragment in the message. */
+static void expect_error(const char *text, int code, const char *f1, const char *f2, const char *f3)
+{
+    sl_scenario sc;
+    sl_err e = {0};
+    int rc = sl_scenario_load_string(&sc, "bad.ini", text, &e);
+    ck_assert_msg(rc == code, "status %d, want %d (%s)", rc, code, e.msg);
+    const char *frag[3] = {f1, f2, f3};
+    for (int i = 0; i < 3; i++)
+        if (frag[i])
+            ck_assert_msg(strstr(e.msg, frag[i]) != NULL, "'%s' not in '%s'", frag[i], e.msg);
+}
+
+#define SITE "[site]\nlatitude_deg = 10\n"
+
+START_TEST(each_mistake_has_its_message)
+{
+    /* Syntax (78): unknown key, names file:line, key and the keys there are. */
+    expect_error("[impactor]\ndiameter_m=19\ndensity_kg_m3=3300\nspeed_km_s=19\nangle_deg=18\n"
+                 "diametre_m = 3\n" SITE,
+                 SL_ECONFIG, "bad.ini:6:", "unknown key 'diametre_m'", "diameter_m");
+    /* Duplicate key: both lines named. */
+    expect_error("[impactor]\ndiameter_m=19\ndensity_kg_m3=3300\nspeed_km_s=19\nangle_deg=18\n"
+                 "diameter_m = 20\n" SITE,
+                 SL_ECONFIG, "bad.ini:6:", "duplicate key [impactor] diameter_m", "line 2");
+    /* Unknown section. */
+    expect_error("[impacter]\ndiameter_m=19\n", SL_ECONFIG, "bad.ini:2:", "unknown section [impacter]",
+                 "[impactor]");
+    /* Missing required key: file, section line, key, range. */
+    expect_error("[impactor]\ndiameter_m=19\ndensity_kg_m3=3300\nangle_deg=18\n" SITE, SL_ECONFIG,
+                 "bad.ini:2:", "[impactor] speed_km_s is required", "11 to 73 km/s");
+    expect_error("[impactor]\ndiameter_m=19\ndensity_kg_m3=3300\nspeed_km_s=19\nangle_deg=18\n",
+                 SL_ECONFIG, "bad.ini", "[site] latitude_deg is required", "-90 to 90");
+    /* A line that is not a key = value. */
+    expect_error("[impactor]\ndiameter_m 19\n", SL_ECONFIG, "bad.ini:2:", "syntax error",
+                 "diameter_m 19");
+    /* Key before a section. */
+    expect_error("diameter_m = 19\n", SL_ECONFIG, "bad.ini:1:", "before any [section]", NULL);
+    /* Both [impactor] and [explosion]. */
+    expect_error("[impactor]\ndiameter_m=19\n[explosion]\nenergy_Mt=1\n" SITE, SL_ECONFIG,
+                 "bad.ini:4:", "[explosion] cannot go with [impactor]", NULL);
+    /* Neither. */
+    expect_error(SITE, SL_ECONFIG, "bad.ini", "needs an [impactor] section", NULL);
+    /* Half an [airburst]. */
+    expect_error("[impactor]\ndiameter_m=19\ndensity_kg_m3=3300\nspeed_km_s=19\nangle_deg=18\n"
+                 "[airburst]\naltitude_m = 30000\n" SITE,
+                 SL_ECONFIG, "bad.ini:7:", "energy_fraction is required", "0 to 1");
+    /* [entry] with an explosion. */
+    expect_error("[explosion]\nenergy_Mt=1\n[entry]\ndrag_coefficient=1\n" SITE, SL_ECONFIG,
+                 "bad.ini:4:", "[entry] does not apply", NULL);
+    /* Over-long line. */
+    char longline[400];
+    snprintf(longline, sizeof longline, "[site]\nlatitude_deg = 1%0250d\n", 0);
+    expect_error(longline, SL_ECONFIG, "bad.ini:2:", "longer than", NULL);
+
+    /* Bad values (65): not a number, names the range. */
+    expect_error("[impactor]\ndiameter_m=nineteen\ndensity_kg_m3=3300\nspeed_km_s=19\nangle_deg=18\n" SITE,
+                 SL_EDATA, "bad.ini:2: [impactor] diameter_m", "'nineteen' is not a number",
+                 "0.1 to 100000 m");
+    /* A '#' inline comment is not a comment for inih: hint. */
+    expect_error("[impactor]\ndiameter_m=19  # metres\ndensity_kg_m3=3300\nspeed_km_s=19\nangle_deg=18\n" SITE,
+                 SL_EDATA, "bad.ini:2:", "is not a number", "' ;'");
+    /* Empty value. */
+    expect_error("[impactor]\ndiameter_m=\ndensity_kg_m3=3300\nspeed_km_s=19\nangle_deg=18\n" SITE,
+                 SL_EDATA, "bad.ini:2:", "is not a number", NULL);
+    /* Out of range (speed below escape speed), with the range in the key's unit. */
+    expect_error("[impactor]\ndiameter_m=19\ndensity_kg_m3=3300\nspeed_km_s=5\nangle_deg=18\n" SITE,
+                 SL_EDATA, "bad.ini:4: [impactor] speed_km_s", "out of range", "11 to 73 km/s");
+    expect_error("[impactor]\ndiameter_m=19\ndensity_kg_m3=3300\nspeed_km_s=19\nangle_deg=18\n"
+                 "[site]\nlatitude_deg = 91\n",
+                 SL_EDATA, "bad.ini:7: [site] latitude_deg", "out of range", "-90 to 90 degree");
+    /* Not an integer month; unknown choice. */
+    expect_error("[explosion]\nenergy_Mt=1\n[site]\nlatitude_deg=0\nmonth = 3.5\n", SL_EDATA,
+                 "bad.ini:5: [site] month", "not an integer", "0 to 12");
+    expect_error("[impactor]\ndiameter_m=19\ndensity_kg_m3=3300\nspeed_km_s=19\nangle_deg=18\n"
+                 "[partition]\nmethod = guess\n" SITE,
+                 SL_EDATA, "bad.ini:7: [partition] method", "'guess'", "shock|budget");
+    /* Imposed burst above the start of the integration. */
+    expect_error("[impactor]\ndiameter_m=19\ndensity_kg_m3=3300\nspeed_km_s=19\nangle_deg=18\n"
+                 "[airburst]\naltitude_m = 100000\nenergy_fraction = 0.5\n" SITE,
+                 SL_EDATA, "bad.ini:7: [airburst] altitude_m", "start_altitude_m", NULL);
+}
+END_TEST
+
+START_TEST(missing_file_is_no_input)
+{
+    sl_scenario sc;
+    sl_err e = {0};
+    ck_assert_int_eq(sl_scenario_load(&sc, "/nonexistent/x.ini", &e), SL_ENOINPUT);
+    ck_assert_ptr_nonnull(strstr(e.msg, "/nonexistent/x.ini"));
+}
+END_TEST
+
+START_TEST(external_values_and_set_by_name)
+{
+    /* An ensemble takes a key over before conversion: its raw text (a
+     * distribution) is kept with its line, and it is set later in SI. */
+    const char *t = "[impactor]\ndiameter_m = uniform(10, 50)\ndensity_kg_m3=3300\nspeed_km_s=19\n"
+                    "angle_deg=45\n" SITE;
+    sl_scenario sc;
+    sl_err e = {0};
+    ck_assert_int_eq(sl_scenario_read_string(&sc, "ens.ini", t, &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_finish(&sc, &e), SL_EDATA); /* not a number without the hand-over */
+    ck_assert_int_eq(sl_scenario_read_string(&sc, "ens.ini", t, &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_mark_external(&sc, SL_P_IMPACTOR_DIAMETER, &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_finish(&sc, &e), SL_OK);
+    int line = 0;
+    ck_assert_str_eq(sl_scenario_raw(&sc, SL_P_IMPACTOR_DIAMETER, &line), "uniform(10, 50)");
+    ck_assert_int_eq(line, 2);
+    ck_assert(isnan(sl_scenario_value(&sc, SL_P_IMPACTOR_DIAMETER)));
+    ck_assert_int_eq(sl_scenario_set(&sc, "impactor.diameter_m", 30.0, &e), SL_OK);
+    SL_CK_REL(sl_scenario_value(&sc, SL_P_IMPACTOR_DIAMETER), 30.0, 0);
+    /* SI values: 20 km/s is 20000 m/s; 30 degrees in radians. */
+    ck_assert_int_eq(sl_scenario_set(&sc, "impactor.speed_km_s", 20000.0, &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_set(&sc, "impactor.angle_deg", SL_PI / 6, &e), SL_OK);
+    /* Range checked in SI: 5 km/s is below escape speed. */
+    ck_assert_int_eq(sl_scenario_set(&sc, "impactor.speed_km_s", 5000.0, &e), SL_EDATA);
+    ck_assert_ptr_nonnull(strstr(e.msg, "11 to 73 km/s"));
+    ck_assert_int_eq(sl_scenario_set(&sc, "impactor.bogus", 1.0, &e), SL_EUSAGE);
+    ck_assert_int_eq(sl_scenario_set(&sc, "partition.method", 1.0, &e), SL_EUSAGE);
+    ck_assert_int_eq(sl_scenario_set(&sc, "explosion.energy_Mt", 4e15, &e), SL_EUSAGE);
+}
+END_TEST
+
+START_TEST(provenance_lists_resolved_values)
+{
+    sl_scenario sc;
+    sl_err e = {0};
+    ck_assert_int_eq(sl_scenario_load_string(&sc, "chel.ini", good, &e), SL_OK);
+    size_t n = sl_scenario_provenance(&sc, NULL, 0);
+    sl_param_value rec[SL_P_COUNT];
+    ck_assert_uint_eq(sl_scenario_provenance(&sc, rec, SL_P_COUNT), n);
+    int seen_speed = 0, seen_strength = 0;
+    for (size_t i = 0; i < n; i++) {
+        ck_assert_ptr_null(strstr(rec[i].name, "explosion.")); /* not in use */
+        ck_assert_ptr_null(strstr(rec[i].name, "airburst."));  /* unset */
+        if (strcmp(rec[i].name, "impactor.speed_km_s") == 0) {
+            seen_speed = 1;
+            ck_assert_str_eq(rec[i].text, "19.16");
+            ck_assert_str_eq(rec[i].unit, "km/s");
+            ck_assert_str_eq(rec[i].si_unit, "m s-1");
+            ck_assert_str_eq(rec[i].origin, "file");
+            ck_assert_int_eq(rec[i].line, 5);
+            SL_CK_REL(rec[i].value_si, 19160.0, 1e-14);
+        }
+        if (strcmp(rec[i].name, "impactor.strength_Pa") == 0) {
+            seen_strength = 1;
+            ck_assert_str_eq(rec[i].origin, "derived");
+        }
+    }
+    ck_assert(seen_speed && seen_strength);
+    /* Every numeric key of the active sections is there. */
+    ck_assert_uint_ge(n, 20);
+}
+END_TEST
+
+static Suite *scenario_suite(void)
+{
+    Suite *s = suite_create("scenario");
+    TCase *tc = tcase_create("core");
+    tcase_add_test(tc, table_is_consistent);
+    tcase_add_test(tc, parses_and_converts_to_si);
+    tcase_add_test(tc, derived_strength_collins_eq9);
+    tcase_add_test(tc, each_mistake_has_its_message);
+    tcase_add_test(tc, missing_file_is_no_input);
+    tcase_add_test(tc, external_values_and_set_by_name);
+    tcase_add_test(tc, provenance_lists_resolved_values);
+    suite_add_tcase(s, tc);
+    return s;
+}
+
+SL_TEST_MAIN(scenario_suite)
