@@ -1,7 +1,24 @@
 /* injection: lofted water by altitude band (vapour and ice), the result of the
  * plume stage or read from a file, and the input of the stratospheric box
  * model.  Bands are contiguous, bottom to top; masses are totals per band (kg).
- * Owner: the injection module (src/injection.c). */
+ * Owner: the injection module (src/injection.c).
+ *
+ * File formats read by sl_injection_read (the format is told by the content:
+ * netCDF files by their magic number, everything else is read as CSV):
+ *
+ * CSV: '#' starts a comment line; comment lines of the form "# key = value"
+ * set metadata: tropopause_altitude_m|_km, latitude_deg, time_s|_days,
+ * cloud_area_m2.  The first other line is a header naming the columns, each
+ * with its unit suffix: bottom_m|bottom_km, top_m|top_km, vapor_kg|vapor_Tg
+ * (mass_kg|mass_Tg are read as vapour) and optionally ice_kg|ice_Tg, in any
+ * order.  Then one row per band, bottom to top, contiguous (each bottom equal
+ * to the previous top), altitudes 0 to 1000 km, masses >= 0.
+ *
+ * CF netCDF: a coordinate variable altitude(altitude) (units "m" or "km",
+ * increasing) with a "bounds" attribute naming altitude_bnds(altitude, 2);
+ * vapor_mass(altitude) with units "kg" or "Tg" (required) and ice_mass(altitude)
+ * (optional); optional scalar variables tropopause_altitude (m or km),
+ * latitude (degrees_north), cloud_area (m2) and time (s or days). */
 #ifndef STEAMLOFT_INJECTION_H
 #define STEAMLOFT_INJECTION_H
 
@@ -32,7 +49,13 @@ double sl_injection_total_vapor_kg(const sl_injection *inj);
 double sl_injection_total_ice_kg(const sl_injection *inj);
 /* Vapour + ice above ALTITUDE_M (bands split proportionally). */
 double sl_injection_mass_above_kg(const sl_injection *inj, double altitude_m);
-/* Read a profile from a CSV (band bottom, top, mass) or CF netCDF file. */
+/* Set every band's vapour and ice to zero, keeping the bands (for reuse of one
+ * profile across ensemble members without allocation). */
+void sl_injection_clear(sl_injection *inj);
+/* Read a profile from a CSV (band bottom, top, mass) or CF netCDF file (see
+ * the formats above).  INJ must be zeroed or freed.  Errors name the file and
+ * line (or netCDF variable), the column or key, and the valid range:
+ * SL_ENOINPUT (cannot open), SL_EDATA (bad content), SL_ENOMEM. */
 int sl_injection_read(sl_injection *inj, const char *path, sl_err *e);
 void sl_injection_free(sl_injection *inj);
 

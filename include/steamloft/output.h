@@ -1,0 +1,99 @@
+/* output: the read-only view of one run's results that every writer takes
+ * (netCDF in output_nc, CSV in output_csv, gnuplot in plot).
+ *
+ * The view holds pointers into results owned elsewhere (the injection
+ * profile, the atmosphere, the box-model time series) plus the scenario
+ * parameters and provenance; writers never modify or free anything.  All
+ * physical values are SI with the unit in the name; writers convert to the
+ * output units (km, Tg, years, ppmv in text and plots; CF units in netCDF)
+ * at the boundary only.
+ *
+ * Only inj is required.  atm, series, scalars and params may be NULL/0 and
+ * are then left out of every output. */
+#ifndef STEAMLOFT_OUTPUT_H
+#define STEAMLOFT_OUTPUT_H
+
+#include <stddef.h>
+
+#include "steamloft/atmosphere.h"
+#include "steamloft/err.h"
+#include "steamloft/injection.h"
+
+/* Box-model time series.  Arrays are row-major: excess_kg[(t*n_region+r)*n_layer+l].
+ * Layers are contiguous and increasing; regions are contiguous latitude bands
+ * from south to north.  Optional arrays may be NULL. */
+typedef struct sl_output_series {
+    size_t n_time, n_region, n_layer;
+    const double *time_s;                  /* n_time, seconds after the event, increasing */
+    const double *region_south_deg;        /* n_region, degrees north */
+    const double *region_north_deg;        /* n_region */
+    const double *layer_bottom_m;          /* n_layer */
+    const double *layer_top_m;             /* n_layer */
+    const double *excess_kg;               /* n_time*n_region*n_layer: excess water per box */
+    const double *mole_fraction_anomaly;   /* n_time*n_layer: global-mean excess, mol mol-1 (optional) */
+    const double *global_excess_kg;        /* n_time: total excess in the stratosphere */
+    const double *column_anomaly_kg_m2;    /* n_time: global-mean column excess (optional) */
+    const double *local_column_anomaly_kg_m2; /* n_time: over the early local cloud (optional) */
+    const double *percent_of_background;   /* n_time: global excess / background burden * 100 (optional) */
+    const double *forcing_W_m2;            /* n_time: first-order forcing indicator (optional) */
+    size_t n_sink;                         /* removal paths (transport, freeze-drying, photolysis) */
+    const char *const *sink_name;          /* n_sink short names, [A-Za-z0-9_] */
+    const double *sink_kg;                 /* n_sink*n_time: cumulative mass removed by each path */
+} sl_output_series;
+
+/* A named scalar result (burst altitude, e-folding time, ...), in SI. */
+typedef struct sl_output_scalar {
+    const char *name;          /* netCDF variable / CSV key: [A-Za-z][A-Za-z0-9_]* */
+    const char *long_name;     /* one line for people */
+    const char *units;         /* UDUNITS spelling of the SI unit: "m", "kg", "s", "J", "1" */
+    const char *standard_name; /* a name from the CF table, or NULL (never invented) */
+    double value;              /* finite */
+} sl_output_scalar;
+
+/* One scenario parameter as it was used (after defaults), for provenance. */
+typedef struct sl_output_param {
+    const char *name;  /* "section.key" or "key", e.g. "impactor.diameter_m" */
+    const char *text;  /* text value, or NULL for a number */
+    double value;      /* the number (in the unit its key names) when text is NULL */
+} sl_output_param;
+
+/* Which published methods the run used (for the references attribute). */
+enum {
+    SL_OUTPUT_USED_ATMOSPHERE = 1u << 0, /* U.S. Standard Atmosphere 1976 / profile, WMO tropopause */
+    SL_OUTPUT_USED_WATER = 1u << 1,      /* Murphy & Koop 2005 */
+    SL_OUTPUT_USED_ENTRY = 1u << 2,      /* Chyba et al. 1993, Hills & Goda 1993, Collins et al. 2005 */
+    SL_OUTPUT_USED_SHOCK = 1u << 3,      /* Melosh 1989, Pierazzo et al. 1997 */
+    SL_OUTPUT_USED_PLUME = 1u << 4,      /* Morton, Taylor & Turner 1956 */
+    SL_OUTPUT_USED_STRAT = 1u << 5       /* Plumb 1996, Neu & Plumb 1999, Hurst et al. 1999 */
+};
+
+typedef struct sl_output_view {
+    const sl_injection *inj;          /* required: the injection profile */
+    const sl_atmosphere *atm;         /* background profile used, or NULL */
+    const sl_output_series *series;   /* box-model time series, or NULL */
+    const sl_output_scalar *scalars;  /* n_scalars scalar results */
+    size_t n_scalars;
+    const sl_output_param *params;    /* n_params scenario parameters */
+    size_t n_params;
+    const char *title;                /* one line: what was run (scenario name) */
+    const char *scenario_path;        /* scenario file, or NULL */
+    const char *event_time;           /* "YYYY-MM-DD hh:mm:ss" of the event; NULL: nominal 2000-01-01 00:00:00 */
+    const char *regime_note;          /* validity warning to carry into every output, or NULL */
+    unsigned methods;                 /* SL_OUTPUT_USED_* bits */
+    int argc;                         /* command line for history (0: none) */
+    char *const *argv;
+} sl_output_view;
+
+/* The reference list for the methods in METHODS (SL_OUTPUT_USED_* bits),
+ * "; "-separated, into BUF.  Returns BUF (truncated at LEN-1 if needed). */
+const char *sl_output_references(unsigned methods, char *buf, size_t len);
+
+/* Check a view before writing: inj present with bands; every value finite;
+ * series shapes consistent.  SL_EINTERNAL naming the offending field (a
+ * non-finite result is a bug upstream, never written). */
+int sl_output_view_check(const sl_output_view *v, sl_err *e);
+
+/* The event time used as the time origin: v->event_time or the nominal date. */
+const char *sl_output_event_time(const sl_output_view *v);
+
+#endif

@@ -1,0 +1,59 @@
+/* output_nc: the results of one run as a CF-1.11 netCDF file.
+ *
+ * Layout (names are the netCDF variable names):
+ *   altitude(altitude), altitude_bnds(altitude,nv)  band centres and edges, m, positive up, axis Z
+ *   vapor_mass, ice_mass (altitude)                  lofted mass per band, kg
+ *   vapor_mass_content (altitude)                    standard_name
+ *       mass_content_of_water_vapor_in_atmosphere_layer, kg m-2, averaged over the Earth
+ *   cloud_vapor_mass_content (altitude)              same, over the young cloud (when its area is known)
+ *   tropopause_altitude, total_vapor_mass, total_ice_mass, stratospheric_water_mass (scalars)
+ *   atm_altitude(atm_altitude) with air_temperature, air_pressure, air_density,
+ *       mole_fraction_of_water_vapor_in_air, buoyancy_frequency_squared   the background used
+ *   time(time) days since the event, calendar standard; lat(lat), lat_bnds(lat,nv)
+ *   excess_water_mass(time,lat,<z>), mole_fraction_anomaly(time,<z>), global_excess_water_mass,
+ *       column_anomaly, local_column_anomaly, percent_of_background, forcing_indicator,
+ *       removed_<sink> (time)                        the box-model series; <z> is altitude when the
+ *                                                    box layers equal the bands, else layer(layer)
+ *   one scalar variable per sl_output_scalar
+ *   global attributes: Conventions, title, source, history, references, comment, tool_version,
+ *       git_hash, event_time, scenario_file, and scenario_<param> for every parameter.
+ * Standard names come only from the CF standard-name table (version 83); a
+ * quantity without one (mass per band in kg, anomalies, the forcing
+ * indicator) has long_name and units only.  Data are written in double
+ * precision so that the masses read back equal the run's to rounding.
+ *
+ * The file is written through the outfile module: a temporary file in the
+ * same directory, renamed into place when complete; an existing file is not
+ * replaced unless FORCE; no partial file remains on any error.  Every
+ * netCDF-C call is checked; a failure names the file, the variable or
+ * attribute and nc_strerror's text.  netCDF-C is not thread-safe: call from
+ * one thread. */
+#ifndef STEAMLOFT_OUTPUT_NC_H
+#define STEAMLOFT_OUTPUT_NC_H
+
+#include "steamloft/err.h"
+#include "steamloft/output.h"
+
+typedef enum sl_nc_format {
+    SL_NC_NETCDF4_CLASSIC = 0, /* HDF5-based netCDF-4, classic data model, deflate */
+    SL_NC_CLASSIC = 1          /* netCDF-3 classic format (CDF-1), no compression */
+} sl_nc_format;
+
+typedef struct sl_nc_options {
+    sl_nc_format format;
+    int deflate_level; /* 0-9, netCDF-4 only; 0 means the default (4) */
+    int force;         /* replace an existing file */
+} sl_nc_options;
+
+/* Parse "netcdf4" / "netcdf4-classic" / "nc4" or "classic" / "netcdf3" / "nc3"
+ * into *FMT; SL_EUSAGE naming the valid values otherwise. */
+int sl_output_nc_parse_format(const char *text, sl_nc_format *fmt, sl_err *e);
+
+/* Write view V (checked with sl_output_view_check) to PATH.  Errors:
+ * SL_ECANTCREAT (directory missing or read-only, file exists without
+ * force), SL_EIO (a netCDF call failed while writing), SL_EINTERNAL (bad
+ * view).  On any error PATH is untouched and no temporary file remains. */
+int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_options *opt,
+                       sl_err *e);
+
+#endif

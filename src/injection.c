@@ -1,0 +1,771 @@
+/* injection: the lofted water by altitude band.
+ *
+ * A profile is a set of contiguous altitude bands (geometric altitude above
+ * mean sea level, m), each holding the mass of water vapour and of condensed
+ * water (ice, and any liquid not yet frozen) in kg.  Masses are extensive
+ * totals per band, not densities: a layer of mass M spread uniformly in
+ * altitude over [z0, z1] gives each band the share M |band ∩ [z0,z1]| / (z1 - z0),
+ * which conserves mass exactly (to rounding).  Altitudes are kept in m and
+ * masses in kg; km and Tg appear only in files, converted on reading through
+ * the units table.
+ *
+ * Files: CSV (header with unit-suffixed column names) or CF netCDF (altitude
+ * coordinate with cell bounds, CF conventions section 7.1); the layouts are
+ * documented in include/steamloft/injection.h.  Every error names the file and
+ * the line (or netCDF variable), the column or key and the valid range.
+ *
+ * The physics that fills a profile from a rising plume (freeze-out of water
+ * above ice saturation and its sedimentation) is in sl_injection_freeze_out,
+ * below the bookkeeping. */
+#include "steamloft/injection.h"
+#include "steamloft/units_table.h"
+
+#include <errno.h>
+#include <math.h>
+#include <netcdf.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* Altitudes accepted from files: sea level to 1000 km (PRACTICE: nothing the
+ * tool models reaches higher; a larger number is almost surely a unit slip). */
+#define MAX_FILE_ALTITUDE_M 1.0e6
+
+static void set_empty_meta(sl_injection *inj)
+{
+    inj->tropopause_altitude_m = NAN;
+    inj->latitude_deg = 0.0;
+    inj->time_s = 0.0;
+    inj->cloud_area_m2 = 0.0;
+}
+
+int sl_injection_init_bands(sl_injection *inj, const double *edges_m, size_t n_edges, sl_err *e)
+{
+    if (inj == NULL || edges_m == NULL)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "sl_injection_init_bands: null argument");
+    memset(inj, 0, sizeof *inj);
+    set_empty_meta(inj);
+    if (n_edges < 2)
+        SL_FAIL_RETURN(e, SL_EDATA, "injection bands: %zu band edges given, need at least 2", n_edges);
+    for (size_t i = 0; i < n_edges; i++) {
+        if (!isfinite(edges_m[i]))
+            SL_FAIL_RETURN(e, SL_EDATA, "injection bands: edge %zu is not a finite number", i);
+        if (i > 0 && !(edges_m[i] > edges_m[i - 1]))
+            SL_FAIL_RETURN(e, SL_EDATA,
+                           "injection bands: edge %zu (%g m) is not above edge %zu (%g m); "
+                           "edges must increase strictly",
+                           i, edges_m[i], i - 1, edges_m[i - 1]);
+    }
+    size_t n = n_edges - 1;
+    inj->band_bottom_m = malloc(n * sizeof(double));
+    inj->band_top_m = malloc(n * sizeof(double));
+    inj->vapor_kg = calloc(n, sizeof(double));
+    inj->ice_kg = calloc(n, sizeof(double));
+    if (!inj->band_bottom_m || !inj->band_top_m || !inj->vapor_kg || !inj->ice_kg) {
+        sl_injection_free(inj);
+        SL_FAIL_RETURN(e, SL_ENOMEM, "injection bands: out of memory for %zu bands", n);
+    }
+    for (size_t i = 0; i < n; i++) {
+        inj->band_bottom_m[i] = edges_m[i];
+        inj->band_top_m[i] = edges_m[i + 1];
+    }
+    inj->n_bands = n;
+    return SL_OK;
+}
+
+int sl_injection_init_uniform(sl_injection *inj, double bottom_m, double top_m, double step_m, sl_err *e)
+{
+    if (!isfinite(bottom_m) || !isfinite(top_m) || !(top_m > bottom_m))
+        SL_FAIL_RETURN(e, SL_EDATA, "injection bands: top %g m must lie above bottom %g m", top_m, bottom_m);
+    if (!isfinite(step_m) || !(step_m > 0.0))
+        SL_FAIL_RETURN(e, SL_EDATA, "injection bands: band width %g m must be positive", step_m);
+    double span = (top_m - bottom_m) / step_m;
+    if (span > 1.0e6)
+        SL_FAIL_RETURN(e, SL_EDATA,
+                       "injection bands: %g bands from %g m to %g m every %g m; valid range 1 to 1e6 bands",
+                       ceil(span), bottom_m, top_m, step_m);
+    /* A last band narrower than STEP_M closes the range when it does not divide evenly;
+     * a remainder below 1e-9 of a step is rounding and is dropped. */
+    size_t n = (size_t)ceil(span - 1.0e-9);
+    if (n < 1)
+        n = 1;
+    double *edges = malloc((n + 1) * sizeof(double));
+    if (edges == NULL)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "injection bands: out of memory for %zu bands", n);
+    for (size_t i = 0; i < n; i++)
+        edges[i] = bottom_m + (double)i * step_m;
+    edges[n] = top_m;
+    int rc = sl_injection_init_bands(inj, edges, n + 1, e);
+    free(edges);
+    SL_TRY_RETURN(e, rc);
+    return SL_OK;
+}
+
+int sl_injection_add_layer(sl_injection *inj, double vapor_kg, double ice_kg, double bottom_m, double top_m, sl_err *e)
+{
+    if (inj == NULL || inj->n_bands == 0)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "sl_injection_add_layer: profile has no bands");
+    if (!isfinite(vapor_kg) || !isfinite(ice_kg) || vapor_kg < 0.0 || ice_kg < 0.0)
+        SL_FAIL_RETURN(e, SL_EDATA, "injection layer: vapour %g kg and ice %g kg must be finite and >= 0",
+                       vapor_kg, ice_kg);
+    double lo = inj->band_bottom_m[0], hi = inj->band_top_m[inj->n_bands - 1];
+    if (!isfinite(bottom_m) || !isfinite(top_m) || top_m < bottom_m)
+        SL_FAIL_RETURN(e, SL_EDATA, "injection layer: bottom %g m and top %g m must be finite, bottom <= top",
+                       bottom_m, top_m);
+    if (bottom_m < lo || top_m > hi)
+        SL_FAIL_RETURN(e, SL_EDATA,
+                       "injection layer %g-%g m lies outside the bands (valid range %g to %g m); "
+                       "widen the band range",
+                       bottom_m, top_m, lo, hi);
+    if (vapor_kg == 0.0 && ice_kg == 0.0)
+        return SL_OK;
+    if (top_m == bottom_m) {
+        /* A layer of zero thickness: everything goes into the band that holds
+         * its altitude (the upper band when it sits on an edge, except at the top). */
+        size_t k = inj->n_bands - 1;
+        for (size_t i = 0; i < inj->n_bands; i++)
+            if (bottom_m < inj->band_top_m[i]) {
+                k = i;
+                break;
+            }
+        inj->vapor_kg[k] += vapor_kg;
+        inj->ice_kg[k] += ice_kg;
+        return SL_OK;
+    }
+    double thick = top_m - bottom_m;
+    double vap_left = vapor_kg, ice_left = ice_kg;
+    size_t last = 0;
+    for (size_t i = 0; i < inj->n_bands; i++) {
+        double a = fmax(bottom_m, inj->band_bottom_m[i]);
+        double b = fmin(top_m, inj->band_top_m[i]);
+        if (b <= a)
+            continue;
+        double f = (b - a) / thick;
+        inj->vapor_kg[i] += vapor_kg * f;
+        inj->ice_kg[i] += ice_kg * f;
+        vap_left -= vapor_kg * f;
+        ice_left -= ice_kg * f;
+        last = i;
+    }
+    /* The shares sum to 1 only to rounding; give the rounding residue to the
+     * last band touched so the layer's mass is conserved to the last bit we can. */
+    inj->vapor_kg[last] = fmax(0.0, inj->vapor_kg[last] + vap_left);
+    inj->ice_kg[last] = fmax(0.0, inj->ice_kg[last] + ice_left);
+    return SL_OK;
+}
+
+void sl_injection_clear(sl_injection *inj)
+{
+    if (inj == NULL)
+        return;
+    for (size_t i = 0; i < inj->n_bands; i++) {
+        inj->vapor_kg[i] = 0.0;
+        inj->ice_kg[i] = 0.0;
+    }
+}
+
+double sl_injection_total_vapor_kg(const sl_injection *inj)
+{
+    double s = 0.0;
+    for (size_t i = 0; inj != NULL && i < inj->n_bands; i++)
+        s += inj->vapor_kg[i];
+    return s;
+}
+
+double sl_injection_total_ice_kg(const sl_injection *inj)
+{
+    double s = 0.0;
+    for (size_t i = 0; inj != NULL && i < inj->n_bands; i++)
+        s += inj->ice_kg[i];
+    return s;
+}
+
+double sl_injection_mass_above_kg(const sl_injection *inj, double altitude_m)
+{
+    double s = 0.0;
+    for (size_t i = 0; inj != NULL && i < inj->n_bands; i++) {
+        double b0 = inj->band_bottom_m[i], b1 = inj->band_top_m[i];
+        double m = inj->vapor_kg[i] + inj->ice_kg[i];
+        if (altitude_m <= b0)
+            s += m;
+        else if (altitude_m < b1)
+            s += m * (b1 - altitude_m) / (b1 - b0);
+    }
+    return s;
+}
+
+void sl_injection_free(sl_injection *inj)
+{
+    if (inj == NULL)
+        return;
+    free(inj->band_bottom_m);
+    free(inj->band_top_m);
+    free(inj->vapor_kg);
+    free(inj->ice_kg);
+    inj->band_bottom_m = inj->band_top_m = inj->vapor_kg = inj->ice_kg = NULL;
+    inj->n_bands = 0;
+}
+
+/* ------------------------------------------------------------------ files */
+
+/* Rows collected while reading, before the bands are built. */
+typedef struct rows {
+    size_t n, cap;
+    double *bottom_m, *top_m, *vapor_kg, *ice_kg;
+} rows;
+
+static void rows_free(rows *r)
+{
+    free(r->bottom_m);
+    free(r->top_m);
+    free(r->vapor_kg);
+    free(r->ice_kg);
+    memset(r, 0, sizeof *r);
+}
+
+static int rows_push(rows *r, double b, double t, double v, double ice)
+{
+    if (r->n == r->cap) {
+        size_t cap = r->cap ? 2 * r->cap : 128;
+        double *nb = realloc(r->bottom_m, cap * sizeof(double));
+        if (nb) r->bottom_m = nb;
+        double *nt = realloc(r->top_m, cap * sizeof(double));
+        if (nt) r->top_m = nt;
+        double *nv = realloc(r->vapor_kg, cap * sizeof(double));
+        if (nv) r->vapor_kg = nv;
+        double *ni = realloc(r->ice_kg, cap * sizeof(double));
+        if (ni) r->ice_kg = ni;
+        if (!nb || !nt || !nv || !ni)
+            return -1;
+        r->cap = cap;
+    }
+    r->bottom_m[r->n] = b;
+    r->top_m[r->n] = t;
+    r->vapor_kg[r->n] = v;
+    r->ice_kg[r->n] = ice;
+    r->n++;
+    return 0;
+}
+
+/* Build INJ from collected rows (already checked contiguous). */
+static int rows_to_injection(const rows *r, sl_injection *inj, sl_err *e)
+{
+    double *edges = malloc((r->n + 1) * sizeof(double));
+    if (edges == NULL)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "injection file: out of memory for %zu bands", r->n);
+    for (size_t i = 0; i < r->n; i++)
+        edges[i] = r->bottom_m[i];
+    edges[r->n] = r->top_m[r->n - 1];
+    int rc = sl_injection_init_bands(inj, edges, r->n + 1, e);
+    free(edges);
+    SL_TRY_RETURN(e, rc);
+    for (size_t i = 0; i < r->n; i++) {
+        inj->vapor_kg[i] = r->vapor_kg[i];
+        inj->ice_kg[i] = r->ice_kg[i];
+    }
+    return SL_OK;
+}
+
+static char *trim(char *s)
+{
+    while (*s == ' ' || *s == '\t')
+        s++;
+    size_t n = strlen(s);
+    while (n > 0 && (s[n - 1] == ' ' || s[n - 1] == '\t' || s[n - 1] == '\r' || s[n - 1] == '\n'))
+        s[--n] = '\0';
+    return s;
+}
+
+/* Parse the whole of TEXT as a finite double. */
+static int parse_number(const char *text, double *out)
+{
+    char *end;
+    errno = 0;
+    double v = strtod(text, &end);
+    if (end == text || errno == ERANGE || !isfinite(v))
+        return -1;
+    while (*end == ' ' || *end == '\t')
+        end++;
+    if (*end != '\0')
+        return -1;
+    *out = v;
+    return 0;
+}
+
+/* Column roles in a CSV header. */
+enum { COL_NONE = -1, COL_BOTTOM, COL_TOP, COL_VAPOR, COL_ICE, N_ROLES };
+static const char *const role_names[N_ROLES] = {"bottom", "top", "vapor", "ice"};
+
+/* Role and SI factor of header NAME, e.g. "bottom_km" -> COL_BOTTOM, 1000. */
+static int header_role(const char *name, double *factor)
+{
+    static const struct {
+        const char *name;
+        int role;
+        const char *unit_suffix;
+    } accepted[] = {
+        {"bottom_m", COL_BOTTOM, "m"}, {"bottom_km", COL_BOTTOM, "km"},
+        {"top_m", COL_TOP, "m"},       {"top_km", COL_TOP, "km"},
+        {"vapor_kg", COL_VAPOR, "kg"}, {"vapor_Tg", COL_VAPOR, "Tg"},
+        {"mass_kg", COL_VAPOR, "kg"},  {"mass_Tg", COL_VAPOR, "Tg"},
+        {"ice_kg", COL_ICE, "kg"},     {"ice_Tg", COL_ICE, "Tg"},
+    };
+    for (size_t i = 0; i < sizeof accepted / sizeof accepted[0]; i++)
+        if (strcmp(name, accepted[i].name) == 0) {
+            const sl_unit *u = sl_units_lookup(accepted[i].unit_suffix);
+            *factor = u ? u->to_si : NAN;
+            return accepted[i].role;
+        }
+    return COL_NONE;
+}
+
+#define CSV_COLUMNS "bottom_m|bottom_km, top_m|top_km, vapor_kg|vapor_Tg (or mass_kg|mass_Tg), optional ice_kg|ice_Tg"
+#define CSV_META "tropopause_altitude_m|_km, latitude_deg, time_s|_days, cloud_area_m2"
+
+/* "# key = value" metadata into META; a comment without '=' is ignored. */
+static int csv_meta(char *body, sl_injection *meta, const char *path, size_t line, sl_err *e)
+{
+    char *eq = strchr(body, '=');
+    if (eq == NULL)
+        return SL_OK;
+    *eq = '\0';
+    char *key = trim(body), *val = trim(eq + 1);
+    static const struct {
+        const char *key;
+        const char *unit_suffix; /* NULL: value used as is */
+        double lo, hi;           /* valid range in the key's own unit */
+    } known[] = {
+        {"tropopause_altitude_m", "m", 0.0, 1.0e5},
+        {"tropopause_altitude_km", "km", 0.0, 100.0},
+        {"latitude_deg", NULL, -90.0, 90.0},
+        {"time_s", "s", 0.0, 1.0e10},
+        {"time_days", "days", 0.0, 1.0e5},
+        {"cloud_area_m2", NULL, 0.0, 1.0e15},
+    };
+    for (size_t i = 0; i < sizeof known / sizeof known[0]; i++) {
+        if (strcmp(key, known[i].key) != 0)
+            continue;
+        double v;
+        if (parse_number(val, &v) != 0 || v < known[i].lo || v > known[i].hi)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s:%zu: %s = '%s' is not a number in the valid range %g to %g",
+                           path, line, key, val, known[i].lo, known[i].hi);
+        double f = 1.0;
+        if (known[i].unit_suffix) {
+            const sl_unit *u = sl_units_lookup(known[i].unit_suffix);
+            if (u == NULL)
+                SL_FAIL_RETURN(e, SL_EINTERNAL, "units table lacks '%s'", known[i].unit_suffix);
+            f = u->to_si;
+        }
+        v *= f;
+        if (strncmp(key, "tropopause", 10) == 0)
+            meta->tropopause_altitude_m = v;
+        else if (strncmp(key, "latitude", 8) == 0)
+            meta->latitude_deg = v;
+        else if (strncmp(key, "time", 4) == 0)
+            meta->time_s = v;
+        else
+            meta->cloud_area_m2 = v;
+        return SL_OK;
+    }
+    /* "# something = x" with an unknown key is most likely a typo of a metadata key. */
+    SL_FAIL_RETURN(e, SL_EDATA, "%s:%zu: unknown metadata key '%s' (known: " CSV_META ")", path, line, key);
+}
+
+static int read_csv(FILE *f, const char *path, sl_injection *inj, sl_err *e)
+{
+    sl_injection meta;
+    memset(&meta, 0, sizeof meta);
+    set_empty_meta(&meta);
+    rows r = {0};
+    char *buf = NULL;
+    size_t cap = 0, line = 0;
+    int col_role[16];
+    double col_factor[16];
+    size_t n_cols = 0;
+    int have_header = 0;
+    int rc = SL_OK;
+    ssize_t len;
+    while ((len = getline(&buf, &cap, f)) != -1) {
+        line++;
+        if ((size_t)len != strlen(buf)) {
+            rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: NUL byte in a text line (is this a CSV file?)", path, line);
+            goto done;
+        }
+        char *s = trim(buf);
+        if (*s == '\0')
+            continue;
+        if (*s == '#') {
+            rc = csv_meta(s + 1, &meta, path, line, e);
+            if (rc != SL_OK)
+                goto done;
+            continue;
+        }
+        /* Split on commas. */
+        char *fields[16];
+        size_t nf = 0;
+        char *p = s;
+        for (;;) {
+            if (nf == 16) {
+                rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: more than 16 columns (expected " CSV_COLUMNS ")", path, line);
+                goto done;
+            }
+            char *comma = strchr(p, ',');
+            if (comma)
+                *comma = '\0';
+            fields[nf++] = trim(p);
+            if (!comma)
+                break;
+            p = comma + 1;
+        }
+        if (!have_header) {
+            int seen[N_ROLES] = {0};
+            for (size_t c = 0; c < nf; c++) {
+                col_role[c] = header_role(fields[c], &col_factor[c]);
+                if (col_role[c] == COL_NONE) {
+                    rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: unknown column '%s' in the header (expected " CSV_COLUMNS ")",
+                                    path, line, fields[c]);
+                    goto done;
+                }
+                if (seen[col_role[c]]++) {
+                    rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: column '%s' repeats the %s column", path, line, fields[c],
+                                    role_names[col_role[c]]);
+                    goto done;
+                }
+            }
+            for (int k = COL_BOTTOM; k <= COL_VAPOR; k++)
+                if (!seen[k]) {
+                    rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: header lacks a %s column (expected " CSV_COLUMNS ")", path,
+                                    line, role_names[k]);
+                    goto done;
+                }
+            n_cols = nf;
+            have_header = 1;
+            continue;
+        }
+        if (nf != n_cols) {
+            rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: %zu fields, the header has %zu columns", path, line, nf, n_cols);
+            goto done;
+        }
+        double v[N_ROLES] = {NAN, NAN, NAN, 0.0};
+        for (size_t c = 0; c < nf; c++) {
+            double x;
+            if (parse_number(fields[c], &x) != 0) {
+                rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: column %zu (%s): '%s' is not a finite number", path, line,
+                                c + 1, role_names[col_role[c]], fields[c]);
+                goto done;
+            }
+            x *= col_factor[c];
+            if ((col_role[c] == COL_VAPOR || col_role[c] == COL_ICE) && x < 0.0) {
+                rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: column %zu (%s): mass %s is negative (valid range 0 to inf)",
+                                path, line, c + 1, role_names[col_role[c]], fields[c]);
+                goto done;
+            }
+            if ((col_role[c] == COL_BOTTOM || col_role[c] == COL_TOP) && (x < 0.0 || x > MAX_FILE_ALTITUDE_M)) {
+                rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: column %zu (%s): altitude %s is outside the valid range 0 to %g m",
+                                path, line, c + 1, role_names[col_role[c]], fields[c], MAX_FILE_ALTITUDE_M);
+                goto done;
+            }
+            v[col_role[c]] = x;
+        }
+        if (!(v[COL_TOP] > v[COL_BOTTOM])) {
+            rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: band top %g m is not above its bottom %g m", path, line, v[COL_TOP],
+                            v[COL_BOTTOM]);
+            goto done;
+        }
+        if (r.n > 0 && v[COL_BOTTOM] != r.top_m[r.n - 1]) {
+            rc = sl_err_set(e, SL_EDATA, __func__, __LINE__,
+                            "%s:%zu: band bottom %g m differs from the previous band's top %g m; bands must be "
+                            "contiguous, bottom to top",
+                            path, line, v[COL_BOTTOM], r.top_m[r.n - 1]);
+            goto done;
+        }
+        if (rows_push(&r, v[COL_BOTTOM], v[COL_TOP], v[COL_VAPOR], v[COL_ICE]) != 0) {
+            rc = sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "%s:%zu: out of memory", path, line);
+            goto done;
+        }
+    }
+    if (ferror(f)) {
+        rc = sl_err_set(e, SL_EIO, __func__, __LINE__, "%s:%zu: read error: %s", path, line + 1, strerror(errno));
+        goto done;
+    }
+    if (!have_header || r.n == 0) {
+        rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: no %s found (a header " CSV_COLUMNS " and one row per band)", path,
+                        line, have_header ? "bands" : "header");
+        goto done;
+    }
+    rc = rows_to_injection(&r, inj, e);
+    if (rc == SL_OK) {
+        inj->tropopause_altitude_m = meta.tropopause_altitude_m;
+        inj->latitude_deg = meta.latitude_deg;
+        inj->time_s = meta.time_s;
+        inj->cloud_area_m2 = meta.cloud_area_m2;
+    }
+done:
+    free(buf);
+    rows_free(&r);
+    if (rc != SL_OK)
+        sl_err_push(e, rc, __func__, __LINE__);
+    return rc;
+}
+
+/* ---- netCDF */
+
+#define NCK(call, what)                                                                           \
+    do {                                                                                          \
+        int nc_st_ = (call);                                                                      \
+        if (nc_st_ != NC_NOERR) {                                                                 \
+            rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s: %s: %s", path, (what), nc_strerror(nc_st_)); \
+            goto done;                                                                            \
+        }                                                                                         \
+    } while (0)
+
+/* Text attribute NAME of VARID into BUF (empty when absent). */
+static int nc_text_att(int ncid, int varid, const char *name, char *buf, size_t cap)
+{
+    nc_type t;
+    size_t len;
+    buf[0] = '\0';
+    if (nc_inq_att(ncid, varid, name, &t, &len) != NC_NOERR)
+        return 0;
+    if (t != NC_CHAR || len + 1 > cap)
+        return -1;
+    if (nc_get_att_text(ncid, varid, name, buf) != NC_NOERR)
+        return -1;
+    buf[len] = '\0';
+    char *s = buf;
+    while (*s == ' ')
+        s++;
+    memmove(buf, s, strlen(s) + 1);
+    size_t n = strlen(buf);
+    while (n > 0 && buf[n - 1] == ' ')
+        buf[--n] = '\0';
+    return 1;
+}
+
+/* SI factor for the units attribute of VAR among the accepted UNITS (NULL-terminated). */
+static int nc_units_factor(int ncid, int varid, const char *path, const char *var, const char *const *accepted,
+                           const double *factors, double *factor, sl_err *e)
+{
+    char u[128];
+    if (nc_text_att(ncid, varid, "units", u, sizeof u) != 1)
+        SL_FAIL_RETURN(e, SL_EDATA, "%s: netCDF variable %s: no text 'units' attribute", path, var);
+    for (size_t i = 0; accepted[i]; i++)
+        if (strcmp(u, accepted[i]) == 0) {
+            *factor = factors[i];
+            return SL_OK;
+        }
+    char list[128] = "";
+    for (size_t i = 0; accepted[i]; i++) {
+        strncat(list, i ? ", " : "", sizeof list - strlen(list) - 1);
+        strncat(list, accepted[i], sizeof list - strlen(list) - 1);
+    }
+    SL_FAIL_RETURN(e, SL_EDATA, "%s: netCDF variable %s: units '%s' not accepted (valid: %s)", path, var, u, list);
+}
+
+/* Optional scalar variable NAME: read and scale it into OUT when present. */
+static int nc_scalar(int ncid, const char *path, const char *name, const char *const *accepted, const double *factors,
+                     double lo_si, double hi_si, double *out, sl_err *e)
+{
+    int varid, ndims;
+    if (nc_inq_varid(ncid, name, &varid) != NC_NOERR)
+        return SL_OK;
+    if (nc_inq_varndims(ncid, varid, &ndims) != NC_NOERR || ndims != 0)
+        SL_FAIL_RETURN(e, SL_EDATA, "%s: netCDF variable %s: must be a scalar", path, name);
+    double f, v;
+    SL_TRY_RETURN(e, nc_units_factor(ncid, varid, path, name, accepted, factors, &f, e));
+    int st = nc_get_var_double(ncid, varid, &v);
+    if (st != NC_NOERR)
+        SL_FAIL_RETURN(e, SL_EDATA, "%s: netCDF variable %s: %s", path, name, nc_strerror(st));
+    v *= f;
+    if (!isfinite(v) || v < lo_si || v > hi_si)
+        SL_FAIL_RETURN(e, SL_EDATA, "%s: netCDF variable %s: value %g (SI) outside the valid range %g to %g", path, name,
+                       v, lo_si, hi_si);
+    *out = v;
+    return SL_OK;
+}
+
+/* Mass variable NAME(altitude) in kg or Tg into OUT (n values). */
+static int nc_mass(int ncid, int dimid, size_t n, const char *path, const char *name, int required, double *out, sl_err *e)
+{
+    static const char *const units[] = {"kg", "Tg", NULL};
+    static const double factors[] = {1.0, 1.0e9};
+    int varid, ndims, dims[NC_MAX_VAR_DIMS];
+    if (nc_inq_varid(ncid, name, &varid) != NC_NOERR) {
+        if (required)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: netCDF variable %s(altitude) is missing (water vapour mass per band, kg)",
+                           path, name);
+        for (size_t i = 0; i < n; i++)
+            out[i] = 0.0;
+        return SL_OK;
+    }
+    if (nc_inq_varndims(ncid, varid, &ndims) != NC_NOERR || ndims != 1 ||
+        nc_inq_vardimid(ncid, varid, dims) != NC_NOERR || dims[0] != dimid)
+        SL_FAIL_RETURN(e, SL_EDATA, "%s: netCDF variable %s: must have the single dimension altitude", path, name);
+    double f;
+    SL_TRY_RETURN(e, nc_units_factor(ncid, varid, path, name, units, factors, &f, e));
+    int st = nc_get_var_double(ncid, varid, out);
+    if (st != NC_NOERR)
+        SL_FAIL_RETURN(e, SL_EDATA, "%s: netCDF variable %s: %s", path, name, nc_strerror(st));
+    double fill;
+    int has_fill = nc_get_att_double(ncid, varid, "_FillValue", &fill) == NC_NOERR;
+    for (size_t i = 0; i < n; i++) {
+        if (!isfinite(out[i]) || (has_fill && out[i] == fill) || out[i] < 0.0)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: netCDF variable %s[%zu] = %g: masses must be finite and >= 0, no missing values",
+                           path, name, i, out[i]);
+        out[i] *= f;
+    }
+    return SL_OK;
+}
+
+static int read_netcdf(const char *path, sl_injection *inj, sl_err *e)
+{
+    int ncid = -1, rc = SL_OK;
+    rows r = {0};
+    double *z = NULL, *bnds = NULL;
+    int st = nc_open(path, NC_NOWRITE, &ncid);
+    if (st != NC_NOERR)
+        SL_FAIL_RETURN(e, SL_EDATA, "%s: cannot open as netCDF: %s", path, nc_strerror(st));
+    int dimid, zid, bid, ndims, dims[NC_MAX_VAR_DIMS];
+    size_t n, nv;
+    NCK(nc_inq_dimid(ncid, "altitude", &dimid), "dimension altitude (the band coordinate)");
+    NCK(nc_inq_dimlen(ncid, dimid, &n), "dimension altitude");
+    if (n == 0) {
+        rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s: dimension altitude has length 0 (need at least one band)", path);
+        goto done;
+    }
+    NCK(nc_inq_varid(ncid, "altitude", &zid), "coordinate variable altitude");
+    static const char *const zunits[] = {"m", "km", NULL};
+    static const double zfactors[] = {1.0, 1.0e3};
+    double zf;
+    rc = nc_units_factor(ncid, zid, path, "altitude", zunits, zfactors, &zf, e);
+    if (rc != SL_OK)
+        goto done;
+    char bname[NC_MAX_NAME + 1];
+    if (nc_text_att(ncid, zid, "bounds", bname, sizeof bname) != 1) {
+        rc = sl_err_set(e, SL_EDATA, __func__, __LINE__,
+                        "%s: netCDF variable altitude: no 'bounds' attribute; band edges are required (CF section 7.1)", path);
+        goto done;
+    }
+    st = nc_inq_varid(ncid, bname, &bid);
+    if (st != NC_NOERR) {
+        rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s: netCDF variable %s (named by altitude:bounds): %s", path, bname,
+                        nc_strerror(st));
+        goto done;
+    }
+    NCK(nc_inq_varndims(ncid, bid, &ndims), bname);
+    if (ndims != 2) {
+        rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s: netCDF variable %s: must have dimensions (altitude, 2)", path, bname);
+        goto done;
+    }
+    NCK(nc_inq_vardimid(ncid, bid, dims), bname);
+    NCK(nc_inq_dimlen(ncid, dims[1], &nv), bname);
+    if (dims[0] != dimid || nv != 2) {
+        rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s: netCDF variable %s: must have dimensions (altitude, 2)", path, bname);
+        goto done;
+    }
+    z = malloc(n * sizeof(double));
+    bnds = malloc(2 * n * sizeof(double));
+    r.bottom_m = malloc(n * sizeof(double));
+    r.top_m = malloc(n * sizeof(double));
+    r.vapor_kg = malloc(n * sizeof(double));
+    r.ice_kg = malloc(n * sizeof(double));
+    if (!z || !bnds || !r.bottom_m || !r.top_m || !r.vapor_kg || !r.ice_kg) {
+        rc = sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "%s: out of memory for %zu bands", path, n);
+        goto done;
+    }
+    r.n = r.cap = n;
+    NCK(nc_get_var_double(ncid, zid, z), "altitude");
+    NCK(nc_get_var_double(ncid, bid, bnds), bname);
+    /* CF 7.1: bounds inherit the coordinate's units. */
+    for (size_t i = 0; i < n; i++) {
+        double b0 = bnds[2 * i] * zf, b1 = bnds[2 * i + 1] * zf, zc = z[i] * zf;
+        if (!isfinite(b0) || !isfinite(b1) || b0 < 0.0 || b1 > MAX_FILE_ALTITUDE_M || !(b1 > b0)) {
+            rc = sl_err_set(e, SL_EDATA, __func__, __LINE__,
+                            "%s: netCDF variable %s[%zu] = (%g, %g) m: need bottom < top within 0 to %g m, increasing", path,
+                            bname, i, b0, b1, MAX_FILE_ALTITUDE_M);
+            goto done;
+        }
+        if (!(zc >= b0 && zc <= b1)) {
+            rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s: netCDF variable altitude[%zu] = %g m lies outside its bounds %g-%g m",
+                            path, i, zc, b0, b1);
+            goto done;
+        }
+        if (i > 0 && b0 != r.top_m[i - 1]) {
+            rc = sl_err_set(e, SL_EDATA, __func__, __LINE__,
+                            "%s: netCDF variable %s[%zu]: bottom %g m differs from the previous top %g m; bands must be "
+                            "contiguous and increasing",
+                            path, bname, i, b0, r.top_m[i - 1]);
+            goto done;
+        }
+        r.bottom_m[i] = b0;
+        r.top_m[i] = b1;
+    }
+    rc = nc_mass(ncid, dimid, n, path, "vapor_mass", 1, r.vapor_kg, e);
+    if (rc == SL_OK)
+        rc = nc_mass(ncid, dimid, n, path, "ice_mass", 0, r.ice_kg, e);
+    if (rc != SL_OK)
+        goto done;
+    sl_injection meta;
+    memset(&meta, 0, sizeof meta);
+    set_empty_meta(&meta);
+    {
+        static const char *const lat_u[] = {"degrees_north", "degree_north", "degrees", NULL};
+        static const double lat_f[] = {1.0, 1.0, 1.0};
+        static const char *const area_u[] = {"m2", "m^2", NULL};
+        static const double area_f[] = {1.0, 1.0};
+        static const char *const t_u[] = {"s", "days", "d", NULL};
+        static const double t_f[] = {1.0, 86400.0, 86400.0};
+        rc = nc_scalar(ncid, path, "tropopause_altitude", zunits, zfactors, 0.0, 1.0e5, &meta.tropopause_altitude_m, e);
+        if (rc == SL_OK)
+            rc = nc_scalar(ncid, path, "latitude", lat_u, lat_f, -90.0, 90.0, &meta.latitude_deg, e);
+        if (rc == SL_OK)
+            rc = nc_scalar(ncid, path, "cloud_area", area_u, area_f, 0.0, 1.0e15, &meta.cloud_area_m2, e);
+        if (rc == SL_OK)
+            rc = nc_scalar(ncid, path, "time", t_u, t_f, 0.0, 1.0e10, &meta.time_s, e);
+        if (rc != SL_OK)
+            goto done;
+    }
+    rc = rows_to_injection(&r, inj, e);
+    if (rc == SL_OK) {
+        inj->tropopause_altitude_m = meta.tropopause_altitude_m;
+        inj->latitude_deg = meta.latitude_deg;
+        inj->time_s = meta.time_s;
+        inj->cloud_area_m2 = meta.cloud_area_m2;
+    }
+done:
+    if (ncid >= 0)
+        nc_close(ncid);
+    free(z);
+    free(bnds);
+    rows_free(&r);
+    if (rc != SL_OK)
+        sl_err_push(e, rc, __func__, __LINE__);
+    return rc;
+}
+
+int sl_injection_read(sl_injection *inj, const char *path, sl_err *e)
+{
+    if (inj == NULL || path == NULL)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "sl_injection_read: null argument");
+    memset(inj, 0, sizeof *inj);
+    set_empty_meta(inj);
+    FILE *f = fopen(path, "rb");
+    if (f == NULL)
+        SL_FAIL_RETURN(e, SL_ENOINPUT, "%s: cannot open injection profile: %s", path, strerror(errno));
+    unsigned char magic[4] = {0};
+    size_t got = fread(magic, 1, 4, f);
+    /* netCDF classic/64-bit/CDF-5 start with "CDF" and a version byte;
+     * netCDF-4 files are HDF5 files, which start with "\x89HDF". */
+    int is_nc = got == 4 && ((magic[0] == 'C' && magic[1] == 'D' && magic[2] == 'F' && magic[3] >= 1 && magic[3] <= 5) ||
+                             (magic[0] == 0x89 && magic[1] == 'H' && magic[2] == 'D' && magic[3] == 'F'));
+    if (is_nc) {
+        fclose(f);
+        SL_TRY_RETURN(e, read_netcdf(path, inj, e));
+        return SL_OK;
+    }
+    rewind(f);
+    int rc = read_csv(f, path, inj, e);
+    fclose(f);
+    SL_TRY_RETURN(e, rc);
+    return SL_OK;
+}

@@ -1,0 +1,585 @@
+/* output_nc: CF-1.11 netCDF writer (see include/steamloft/output_nc.h).
+ *
+ * What is computed here are only unit conversions at the output boundary:
+ * band centres z_c = (z_bottom + z_top)/2 with the edges as CF cell bounds
+ * (CF-1.11 section 7.1; shared edges written bit-identically); the mass
+ * content of a layer, m_i / A in kg m-2, with A the area of the Earth
+ * (4 pi R^2, R = 6371.0088 km, the IUGG mean radius) for the global mean and
+ * the young cloud's area for the local value, which is what the CF standard
+ * name mass_content_of_water_vapor_in_atmosphere_layer describes ("mass per
+ * unit area of the layer whose extent is given by the vertical bounds");
+ * time in days since the event (CF section 4.4: "days since" a reference
+ * date with a calendar; CF advises against months and years); latitude
+ * region centres as the midpoints of their bounds.  The stratospheric part
+ * of the profile is the vapour plus ice above the tropopause, a band that
+ * straddles it counted in proportion to the part of its depth above (the
+ * same uniform-in-altitude assumption the injection module uses).
+ *
+ * Conventions used: CF-1.11 (Conventions, history, source, references,
+ * comment; coordinate variables with units, axis, positive; bounds without
+ * repeated attributes; units_metadata for temperatures; no ppmv on
+ * standard-named variables), netCDF-C practice (text attributes as NC_CHAR,
+ * never NC_STRING, so netCDF-3 and Fortran readers work; every call
+ * checked). */
+#include "steamloft/output_nc.h"
+
+#include "steamloft/cli.h"
+#include "steamloft/outfile.h"
+#include "steamloft/units.h"
+
+#include "sl_gitversion.h"
+
+#include <math.h>
+#include <netcdf.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+
+enum { MAX_PUT = 96 };
+
+typedef struct ncw {
+    int ncid;
+    const char *path;  /* final path, for messages */
+    int nc4;           /* deflate allowed */
+    int deflate_level;
+    size_t n_put;
+    struct {
+        int varid;
+        const double *data;
+    } put[MAX_PUT];
+    size_t n_owned;
+    double *owned[MAX_PUT];
+} ncw;
+
+int sl_output_nc_parse_format(const char *text, sl_nc_format *fmt, sl_err *e)
+{
+    static const char *const nc4[] = {"netcdf4", "netcdf4-classic", "netcdf4_classic", "nc4", NULL};
+    static const char *const nc3[] = {"classic", "netcdf3", "nc3", NULL};
+    for (size_t i = 0; text && nc4[i]; i++)
+        if (strcmp(text, nc4[i]) == 0) {
+            *fmt = SL_NC_NETCDF4_CLASSIC;
+            return SL_OK;
+        }
+    for (size_t i = 0; text && nc3[i]; i++)
+        if (strcmp(text, nc3[i]) == 0) {
+            *fmt = SL_NC_CLASSIC;
+            return SL_OK;
+        }
+    SL_FAIL_RETURN(e, SL_EUSAGE,
+                   "--format: '%s' is not a netCDF format (valid: netcdf4 (default: netCDF-4 "
+                   "classic model with deflate) or classic (netCDF-3))",
+                   text ? text : "");
+}
+
+static const char *var_label(const ncw *w, int varid, char *buf)
+{
+    if (varid == NC_GLOBAL)
+        return "global attributes";
+    if (nc_inq_varname(w->ncid, varid, buf) != NC_NOERR)
+        strcpy(buf, "?");
+    return buf;
+}
+
+/* "writing 'out.nc': attribute 'units' of altitude: NetCDF: ..." */
+static int nc_fail(const ncw *w, int varid, const char *what, const char *name, int status,
+                   sl_err *e, int line)
+{
+    char vn[NC_MAX_NAME + 1];
+    const char *label = var_label(w, varid, vn);
+    if (name && name[0] && varid == NC_GLOBAL)
+        return sl_err_set(e, SL_EIO, "sl_output_nc_write", line, "writing '%s': %s '%s': %s",
+                          w->path, what, name, nc_strerror(status));
+    if (name && name[0])
+        return sl_err_set(e, SL_EIO, "sl_output_nc_write", line, "writing '%s': %s '%s' of %s: %s",
+                          w->path, what, name, label, nc_strerror(status));
+    return sl_err_set(e, SL_EIO, "sl_output_nc_write", line, "writing '%s': %s %s: %s", w->path,
+                      what, label, nc_strerror(status));
+}
+
+static int queue(ncw *w, int varid, const double *data, sl_err *e)
+{
+    if (w->n_put >= MAX_PUT)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "writing '%s': too many variables", w->path);
+    w->put[w->n_put].varid = varid;
+    w->put[w->n_put].data = data;
+    w->n_put++;
+    return SL_OK;
+}
+
+#define NCK(w, varid, what, name, call)                                          \
+    do {                                                                         \
+        int nck_st_ = (call);                                                    \
+        if (nck_st_ != NC_NOERR)                                                 \
+            return nc_fail((w), (varid), (what), (name), nck_st_, e, __LINE__);  \
+    } while (0)
+
+static int att_text(ncw *w, int varid, const char *name, const char *text, sl_err *e)
+{
+    if (text == NULL)
+        return SL_OK;
+    NCK(w, varid, "attribute", name, nc_put_att_text(w->ncid, varid, name, strlen(text), text));
+    return SL_OK;
+}
+
+static int att_double(ncw *w, int varid, const char *name, double value, sl_err *e)
+{
+    NCK(w, varid, "attribute", name, nc_put_att_double(w->ncid, varid, name, NC_DOUBLE, 1, &value));
+    return SL_OK;
+}
+
+/* A buffer freed when the writer finishes. */
+static double *own(ncw *w, size_t n, sl_err *e)
+{
+    if (w->n_owned >= MAX_PUT) {
+        sl_err_set(e, SL_EINTERNAL, __func__, __LINE__, "writing '%s': too many buffers", w->path);
+        return NULL;
+    }
+    double *p = calloc(n ? n : 1, sizeof *p);
+    if (p == NULL) {
+        sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "writing '%s': out of memory", w->path);
+        return NULL;
+    }
+    w->owned[w->n_owned++] = p;
+    return p;
+}
+
+/* Define an NC_DOUBLE variable with long_name and units (and standard_name
+ * when given); queue DATA to be written after enddef. */
+static int def_var(ncw *w, const char *name, int ndims, const int *dims, const double *data,
+                   const char *standard_name, const char *long_name, const char *units,
+                   int *varid, sl_err *e)
+{
+    int id;
+    NCK(w, NC_GLOBAL, "defining variable", name, nc_def_var(w->ncid, name, NC_DOUBLE, ndims, dims, &id));
+    if (w->nc4 && ndims > 0)
+        NCK(w, id, "compression of", NULL, nc_def_var_deflate(w->ncid, id, 1, 1, w->deflate_level));
+    SL_TRY_RETURN(e, att_text(w, id, "standard_name", standard_name, e));
+    SL_TRY_RETURN(e, att_text(w, id, "long_name", long_name, e));
+    SL_TRY_RETURN(e, att_text(w, id, "units", units, e));
+    SL_TRY_RETURN(e, queue(w, id, data, e));
+    if (varid)
+        *varid = id;
+    return SL_OK;
+}
+
+/* A vertical coordinate NAME(NAME) with bounds NAME_bnds(NAME, nv). */
+static int def_zaxis(ncw *w, const char *name, const char *long_name, const double *bottom,
+                     const double *top, size_t n, int nv_dim, int *dim, sl_err *e)
+{
+    char bname[NC_MAX_NAME + 1];
+    snprintf(bname, sizeof bname, "%s_bnds", name);
+    NCK(w, NC_GLOBAL, "defining dimension", name, nc_def_dim(w->ncid, name, n, dim));
+    double *c = own(w, n, e), *b = own(w, 2 * n, e);
+    if (c == NULL || b == NULL)
+        return e ? e->code : SL_ENOMEM;
+    for (size_t i = 0; i < n; i++) {
+        c[i] = 0.5 * (bottom[i] + top[i]);
+        b[2 * i] = bottom[i];
+        b[2 * i + 1] = top[i];
+    }
+    int id, bid, bd[2] = {*dim, nv_dim};
+    SL_TRY_RETURN(e, def_var(w, name, 1, dim, c, "altitude", long_name, "m", &id, e));
+    SL_TRY_RETURN(e, att_text(w, id, "positive", "up", e));
+    SL_TRY_RETURN(e, att_text(w, id, "axis", "Z", e));
+    SL_TRY_RETURN(e, att_text(w, id, "bounds", bname, e));
+    /* CF 7.1: bounds inherit units etc. from their coordinate; none repeated. */
+    NCK(w, NC_GLOBAL, "defining variable", bname, nc_def_var(w->ncid, bname, NC_DOUBLE, 2, bd, &bid));
+    if (w->nc4)
+        NCK(w, bid, "compression of", NULL, nc_def_var_deflate(w->ncid, bid, 1, 1, w->deflate_level));
+    return queue(w, bid, b, e);
+}
+
+static int def_scalar(ncw *w, const char *name, double value, const char *standard_name,
+                      const char *long_name, const char *units, sl_err *e)
+{
+    double *p = own(w, 1, e);
+    if (p == NULL)
+        return e ? e->code : SL_ENOMEM;
+    *p = value;
+    return def_var(w, name, 0, NULL, p, standard_name, long_name, units, NULL, e);
+}
+
+/* Vapour + ice above ALT_M, a straddling band counted in proportion. */
+static double mass_above(const sl_injection *inj, double alt_m)
+{
+    double sum = 0;
+    for (size_t i = 0; i < inj->n_bands; i++) {
+        double b = inj->band_bottom_m[i], t = inj->band_top_m[i];
+        double m = inj->vapor_kg[i] + inj->ice_kg[i];
+        if (b >= alt_m)
+            sum += m;
+        else if (t > alt_m)
+            sum += m * (t - alt_m) / (t - b);
+    }
+    return sum;
+}
+
+static int safe_arg(const char *s)
+{
+    if (*s == '\0')
+        return 0;
+    for (; *s; s++)
+        if (!strchr("abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ0123456789_./=:,+-@%", *s))
+            return 0;
+    return 1;
+}
+
+/* "2026-12-01T17:00:00Z: steamloft run 'my scen.ini' -o out.nc" */
+static void history_line(const sl_output_view *v, char *buf, size_t len)
+{
+    time_t now = time(NULL);
+    struct tm tmv;
+    size_t used = 0;
+    if (gmtime_r(&now, &tmv) != NULL)
+        used = strftime(buf, len, "%Y-%m-%dT%H:%M:%SZ: ", &tmv);
+    buf[used] = '\0';
+    if (v->argc <= 0 || v->argv == NULL) {
+        snprintf(buf + used, len - used, "written by %s", sl_cli_version());
+        return;
+    }
+    for (int i = 0; i < v->argc && used + 4 < len; i++) {
+        const char *a = v->argv[i] ? v->argv[i] : "";
+        if (i > 0)
+            buf[used++] = ' ';
+        if (safe_arg(a)) {
+            int n = snprintf(buf + used, len - used, "%s", a);
+            used += n > 0 ? (size_t)n : 0;
+        } else {
+            buf[used++] = '\'';
+            for (; *a && used + 6 < len; a++) {
+                if (*a == '\'') {
+                    memcpy(buf + used, "'\\''", 4);
+                    used += 4;
+                } else {
+                    buf[used++] = *a;
+                }
+            }
+            buf[used++] = '\'';
+        }
+        if (used >= len)
+            used = len - 1;
+        buf[used] = '\0';
+    }
+    buf[used < len ? used : len - 1] = '\0';
+}
+
+static int global_attrs(ncw *w, const sl_output_view *v, sl_err *e)
+{
+    char buf[4096];
+    SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "Conventions", "CF-1.11", e));
+    snprintf(buf, sizeof buf, "Water lofted into the stratosphere and its decay: %s",
+             v->title && v->title[0] ? v->title : "steamloft run");
+    SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "title", buf, e));
+    SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "source", sl_cli_version(), e));
+    history_line(v, buf, sizeof buf);
+    SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "history", buf, e));
+    sl_output_references(v->methods, buf, sizeof buf);
+    if (buf[0])
+        SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "references", buf, e));
+    snprintf(buf, sizeof buf,
+             "%s%s%s Masses are totals per altitude band, not rates. Time 0 is the event; "
+             "its date in the time units is %s.",
+             sl_cli_caution(), v->regime_note && v->regime_note[0] ? " Validity: " : "",
+             v->regime_note && v->regime_note[0] ? v->regime_note : "",
+             v->event_time && v->event_time[0] ? "the scenario's" : "nominal");
+    SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "comment", buf, e));
+    SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "tool_version", sl_cli_version(), e));
+    SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "git_hash", SL_GIT_HASH, e));
+    SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "event_time", sl_output_event_time(v), e));
+    if (v->scenario_path)
+        SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "scenario_file", v->scenario_path, e));
+    if (v->regime_note && v->regime_note[0])
+        SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "validity_warning", v->regime_note, e));
+    for (size_t i = 0; i < v->n_params; i++) {
+        const sl_output_param *p = &v->params[i];
+        size_t n = (size_t)snprintf(buf, NC_MAX_NAME + 1, "scenario_%s", p->name);
+        if (n > NC_MAX_NAME)
+            SL_FAIL_RETURN(e, SL_EINTERNAL, "scenario parameter name too long: '%s'", p->name);
+        for (char *c = buf; *c; c++)
+            if (!((*c >= 'a' && *c <= 'z') || (*c >= 'A' && *c <= 'Z') || (*c >= '0' && *c <= '9')))
+                *c = '_';
+        if (p->text)
+            SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, buf, p->text, e));
+        else
+            SL_TRY_RETURN(e, att_double(w, NC_GLOBAL, buf, p->value, e));
+    }
+    return SL_OK;
+}
+
+static int profile_vars(ncw *w, const sl_output_view *v, int nv, int *zdim, sl_err *e)
+{
+    const sl_injection *inj = v->inj;
+    size_t n = inj->n_bands;
+    int id;
+    SL_TRY_RETURN(e, def_zaxis(w, "altitude", "altitude of the band centre", inj->band_bottom_m,
+                               inj->band_top_m, n, nv, zdim, e));
+    SL_TRY_RETURN(e, def_var(w, "vapor_mass", 1, zdim, inj->vapor_kg, NULL,
+                             "water vapour lofted into the altitude band", "kg", &id, e));
+    SL_TRY_RETURN(e, att_text(w, id, "cell_methods", "altitude: sum", e));
+    SL_TRY_RETURN(e, def_var(w, "ice_mass", 1, zdim, inj->ice_kg, NULL,
+                             "condensed water (ice and liquid) lofted into the altitude band", "kg",
+                             &id, e));
+    SL_TRY_RETURN(e, att_text(w, id, "cell_methods", "altitude: sum", e));
+
+    double *glob = own(w, n, e);
+    if (glob == NULL)
+        return e ? e->code : SL_ENOMEM;
+    for (size_t i = 0; i < n; i++)
+        glob[i] = inj->vapor_kg[i] / SL_EARTH_AREA_M2;
+    SL_TRY_RETURN(e, def_var(w, "vapor_mass_content", 1, zdim, glob,
+                             "mass_content_of_water_vapor_in_atmosphere_layer",
+                             "lofted water vapour per unit area, averaged over the whole Earth",
+                             "kg m-2", &id, e));
+    SL_TRY_RETURN(e, att_text(w, id, "cell_methods", "area: mean", e));
+    SL_TRY_RETURN(e, att_text(w, id, "comment",
+                              "vapor_mass divided by the area of the Earth (4 pi R^2, "
+                              "R = 6371.0088 km); the layer is given by altitude_bnds", e));
+    if (inj->cloud_area_m2 > 0) {
+        double *loc = own(w, n, e);
+        if (loc == NULL)
+            return e ? e->code : SL_ENOMEM;
+        for (size_t i = 0; i < n; i++)
+            loc[i] = inj->vapor_kg[i] / inj->cloud_area_m2;
+        SL_TRY_RETURN(e, def_var(w, "cloud_vapor_mass_content", 1, zdim, loc,
+                                 "mass_content_of_water_vapor_in_atmosphere_layer",
+                                 "lofted water vapour per unit area over the young cloud", "kg m-2",
+                                 &id, e));
+        SL_TRY_RETURN(e, att_text(w, id, "comment",
+                                  "vapor_mass divided by cloud_area; the layer is given by "
+                                  "altitude_bnds", e));
+        SL_TRY_RETURN(e, def_scalar(w, "cloud_area", inj->cloud_area_m2, NULL,
+                                    "horizontal area of the young cloud", "m2", e));
+    }
+    double tv = 0, ti = 0;
+    for (size_t i = 0; i < n; i++) {
+        tv += inj->vapor_kg[i];
+        ti += inj->ice_kg[i];
+    }
+    SL_TRY_RETURN(e, def_scalar(w, "total_vapor_mass", tv, NULL,
+                                "total water vapour lofted (sum over the bands)", "kg", e));
+    SL_TRY_RETURN(e, def_scalar(w, "total_ice_mass", ti, NULL,
+                                "total condensed water lofted (sum over the bands)", "kg", e));
+    double trop = inj->tropopause_altitude_m;
+    if (!isfinite(trop) && v->atm)
+        trop = v->atm->tropopause_altitude_m;
+    if (isfinite(trop)) {
+        SL_TRY_RETURN(e, def_scalar(w, "tropopause_altitude", trop, "tropopause_altitude",
+                                    "tropopause altitude (WMO lapse-rate definition)", "m", e));
+        SL_TRY_RETURN(e, def_scalar(w, "stratospheric_water_mass", mass_above(inj, trop), NULL,
+                                    "water (vapour and condensate) lofted above the tropopause",
+                                    "kg", e));
+    }
+    SL_TRY_RETURN(e, def_scalar(w, "latitude", inj->latitude_deg, "latitude",
+                                "latitude of the event", "degrees_north", e));
+    SL_TRY_RETURN(e, def_scalar(w, "injection_time", inj->time_s, NULL,
+                                "time after the event that the injection profile refers to", "s", e));
+    return SL_OK;
+}
+
+static int atmosphere_vars(ncw *w, const sl_atmosphere *a, sl_err *e)
+{
+    int dim, id;
+    NCK(w, NC_GLOBAL, "defining dimension", "atm_altitude", nc_def_dim(w->ncid, "atm_altitude", a->n, &dim));
+    SL_TRY_RETURN(e, def_var(w, "atm_altitude", 1, &dim, a->altitude_m, "altitude",
+                             "altitude of the background profile level", "m", &id, e));
+    SL_TRY_RETURN(e, att_text(w, id, "positive", "up", e));
+    SL_TRY_RETURN(e, att_text(w, id, "axis", "Z", e));
+    SL_TRY_RETURN(e, def_var(w, "air_temperature", 1, &dim, a->temperature_K, "air_temperature",
+                             "background air temperature", "K", &id, e));
+    SL_TRY_RETURN(e, att_text(w, id, "units_metadata", "temperature: on_scale", e));
+    SL_TRY_RETURN(e, def_var(w, "air_pressure", 1, &dim, a->pressure_Pa, "air_pressure",
+                             "background air pressure", "Pa", &id, e));
+    SL_TRY_RETURN(e, def_var(w, "air_density", 1, &dim, a->density_kg_m3, "air_density",
+                             "background moist-air density", "kg m-3", &id, e));
+    SL_TRY_RETURN(e, def_var(w, "h2o_mole_fraction", 1, &dim, a->h2o_mole_fraction,
+                             "mole_fraction_of_water_vapor_in_air",
+                             "background water vapour mole fraction", "mol mol-1", &id, e));
+    SL_TRY_RETURN(e, def_var(w, "buoyancy_frequency_squared", 1, &dim, a->n2_per_s2, NULL,
+                             "square of the background buoyancy (Brunt-Vaisala) frequency", "s-2",
+                             &id, e));
+    SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "background_atmosphere", a->name, e));
+    if (a->source[0])
+        SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "background_atmosphere_source", a->source, e));
+    if (isfinite(a->strat_water_burden_kg) && a->strat_water_burden_kg > 0) {
+        SL_TRY_RETURN(e, def_scalar(w, "background_stratospheric_water_mass", a->strat_water_burden_kg,
+                                    NULL, "background water vapour in the stratosphere (global)",
+                                    "kg", e));
+        SL_TRY_RETURN(e, def_scalar(w, "background_stratospheric_water_column",
+                                    a->strat_water_column_kg_m2, NULL,
+                                    "background stratospheric water vapour column", "kg m-2", e));
+    }
+    return SL_OK;
+}
+
+static int same_cells(const double *b1, const double *t1, size_t n1, const double *b2,
+                      const double *t2, size_t n2)
+{
+    if (n1 != n2)
+        return 0;
+    for (size_t i = 0; i < n1; i++)
+        if (b1[i] != b2[i] || t1[i] != t2[i])
+            return 0;
+    return 1;
+}
+
+static int series_vars(ncw *w, const sl_output_view *v, int nv, int band_dim, sl_err *e)
+{
+    const sl_output_series *s = v->series;
+    const sl_injection *inj = v->inj;
+    size_t nt = s->n_time, nr = s->n_region;
+    int tdim, ldim, zdim, id;
+    char units[96];
+
+    NCK(w, NC_GLOBAL, "defining dimension", "time", nc_def_dim(w->ncid, "time", nt, &tdim));
+    double *days = own(w, nt, e);
+    if (days == NULL)
+        return e ? e->code : SL_ENOMEM;
+    for (size_t t = 0; t < nt; t++)
+        days[t] = sl_s_to_days(s->time_s[t]);
+    snprintf(units, sizeof units, "days since %s", sl_output_event_time(v));
+    SL_TRY_RETURN(e, def_var(w, "time", 1, &tdim, days, "time", "time since the event", units, &id, e));
+    SL_TRY_RETURN(e, att_text(w, id, "calendar", "standard", e));
+    SL_TRY_RETURN(e, att_text(w, id, "axis", "T", e));
+
+    NCK(w, NC_GLOBAL, "defining dimension", "lat", nc_def_dim(w->ncid, "lat", nr, &ldim));
+    double *lat = own(w, nr, e), *lb = own(w, 2 * nr, e);
+    if (lat == NULL || lb == NULL)
+        return e ? e->code : SL_ENOMEM;
+    for (size_t r = 0; r < nr; r++) {
+        lat[r] = 0.5 * (s->region_south_deg[r] + s->region_north_deg[r]);
+        lb[2 * r] = s->region_south_deg[r];
+        lb[2 * r + 1] = s->region_north_deg[r];
+    }
+    SL_TRY_RETURN(e, def_var(w, "lat", 1, &ldim, lat, "latitude", "centre of the latitude region",
+                             "degrees_north", &id, e));
+    SL_TRY_RETURN(e, att_text(w, id, "axis", "Y", e));
+    SL_TRY_RETURN(e, att_text(w, id, "bounds", "lat_bnds", e));
+    int bd[2] = {ldim, nv}, bid;
+    NCK(w, NC_GLOBAL, "defining variable", "lat_bnds", nc_def_var(w->ncid, "lat_bnds", NC_DOUBLE, 2, bd, &bid));
+    if (w->nc4)
+        NCK(w, bid, "compression of", NULL, nc_def_var_deflate(w->ncid, bid, 1, 1, w->deflate_level));
+    SL_TRY_RETURN(e, queue(w, bid, lb, e));
+
+    if (same_cells(s->layer_bottom_m, s->layer_top_m, s->n_layer, inj->band_bottom_m,
+                   inj->band_top_m, inj->n_bands))
+        zdim = band_dim;
+    else
+        SL_TRY_RETURN(e, def_zaxis(w, "layer", "altitude of the box-model layer centre",
+                                   s->layer_bottom_m, s->layer_top_m, s->n_layer, nv, &zdim, e));
+
+    int d3[3] = {tdim, ldim, zdim}, d2[2] = {tdim, zdim};
+    SL_TRY_RETURN(e, def_var(w, "excess_water_mass", 3, d3, s->excess_kg, NULL,
+                             "excess water in the box (latitude region and layer) over background",
+                             "kg", &id, e));
+    SL_TRY_RETURN(e, att_text(w, id, "cell_methods", "area: sum", e));
+    if (s->mole_fraction_anomaly)
+        SL_TRY_RETURN(e, def_var(w, "mole_fraction_anomaly", 2, d2, s->mole_fraction_anomaly, NULL,
+                                 "global-mean excess water vapour mole fraction over background",
+                                 "mol mol-1", &id, e));
+    SL_TRY_RETURN(e, def_var(w, "global_excess_water_mass", 1, &tdim, s->global_excess_kg, NULL,
+                             "excess water remaining in the stratosphere (global total)", "kg",
+                             &id, e));
+    if (s->column_anomaly_kg_m2)
+        SL_TRY_RETURN(e, def_var(w, "column_anomaly", 1, &tdim, s->column_anomaly_kg_m2, NULL,
+                                 "global-mean column of excess stratospheric water", "kg m-2",
+                                 &id, e));
+    if (s->local_column_anomaly_kg_m2)
+        SL_TRY_RETURN(e, def_var(w, "local_column_anomaly", 1, &tdim, s->local_column_anomaly_kg_m2,
+                                 NULL, "column of excess stratospheric water over the early local cloud",
+                                 "kg m-2", &id, e));
+    if (s->percent_of_background)
+        SL_TRY_RETURN(e, def_var(w, "percent_of_background", 1, &tdim, s->percent_of_background,
+                                 NULL, "excess as a percentage of the background stratospheric water",
+                                 "percent", &id, e));
+    if (s->forcing_W_m2) {
+        SL_TRY_RETURN(e, def_var(w, "forcing_indicator", 1, &tdim, s->forcing_W_m2, NULL,
+                                 "first-order radiative forcing indicator of the excess water",
+                                 "W m-2", &id, e));
+        SL_TRY_RETURN(e, att_text(w, id, "comment",
+                                  "coarse: a constant forcing per ppmv of global-mean excess; not a "
+                                  "radiative-transfer result", e));
+    }
+    for (size_t k = 0; k < s->n_sink; k++) {
+        char name[NC_MAX_NAME + 1], ln[256];
+        snprintf(name, sizeof name, "removed_%s", s->sink_name[k]);
+        snprintf(ln, sizeof ln, "excess water removed so far by %s (cumulative)", s->sink_name[k]);
+        SL_TRY_RETURN(e, def_var(w, name, 1, &tdim, s->sink_kg + k * nt, NULL, ln, "kg", &id, e));
+    }
+    return SL_OK;
+}
+
+static int write_all(ncw *w, const sl_output_view *v, sl_err *e)
+{
+    int nv, zdim;
+    SL_TRY_RETURN(e, global_attrs(w, v, e));
+    NCK(w, NC_GLOBAL, "defining dimension", "nv", nc_def_dim(w->ncid, "nv", 2, &nv));
+    SL_TRY_RETURN(e, profile_vars(w, v, nv, &zdim, e));
+    if (v->atm)
+        SL_TRY_RETURN(e, atmosphere_vars(w, v->atm, e));
+    if (v->series)
+        SL_TRY_RETURN(e, series_vars(w, v, nv, zdim, e));
+    for (size_t i = 0; i < v->n_scalars; i++) {
+        const sl_output_scalar *sc = &v->scalars[i];
+        SL_TRY_RETURN(e, def_scalar(w, sc->name, sc->value, sc->standard_name, sc->long_name,
+                                    sc->units, e));
+    }
+    NCK(w, NC_GLOBAL, "leaving define mode after", NULL, nc_enddef(w->ncid));
+    for (size_t i = 0; i < w->n_put; i++)
+        NCK(w, w->put[i].varid, "writing data of", NULL, nc_put_var_double(w->ncid, w->put[i].varid, w->put[i].data));
+    return SL_OK;
+}
+
+int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_options *opt,
+                       sl_err *e)
+{
+    SL_TRY_RETURN(e, sl_output_view_check(v, e));
+    sl_nc_options o = opt ? *opt : (sl_nc_options){SL_NC_NETCDF4_CLASSIC, 0, 0};
+    if (o.deflate_level < 0 || o.deflate_level > 9)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "deflate level %d outside 0-9", o.deflate_level);
+    ncw *w = calloc(1, sizeof *w);
+    sl_outset *set = calloc(1, sizeof *set);
+    if (w == NULL || set == NULL) {
+        free(w);
+        free(set);
+        SL_FAIL_RETURN(e, SL_ENOMEM, "writing '%s': out of memory", path);
+    }
+    w->path = path;
+    w->nc4 = o.format == SL_NC_NETCDF4_CLASSIC;
+    w->deflate_level = o.deflate_level ? o.deflate_level : 4;
+    w->ncid = -1;
+
+    const char *stage = NULL;
+    int rc = sl_outset_begin_file(set, path, o.force, &stage, e);
+    if (rc == SL_OK) {
+        int cmode = NC_NOCLOBBER | (w->nc4 ? (NC_NETCDF4 | NC_CLASSIC_MODEL) : 0);
+        int st = nc_create(stage, cmode, &w->ncid);
+        if (st != NC_NOERR) {
+            w->ncid = -1;
+            rc = sl_err_set(e, SL_ECANTCREAT, __func__, __LINE__, "cannot create '%s': %s", path,
+                            nc_strerror(st));
+        }
+    }
+    if (rc == SL_OK)
+        rc = write_all(w, v, e);
+    if (rc == SL_OK) {
+        int st = nc_close(w->ncid);
+        w->ncid = -1;
+        if (st != NC_NOERR)
+            rc = sl_err_set(e, SL_EIO, __func__, __LINE__, "writing '%s': closing: %s", path,
+                            nc_strerror(st));
+    }
+    if (rc == SL_OK)
+        rc = sl_outset_commit(set, e);
+    if (rc != SL_OK) {
+        if (w->ncid >= 0)
+            (void)nc_abort(w->ncid);
+        sl_outset_abort(set);
+        sl_err_push(e, rc, __func__, __LINE__);
+    }
+    for (size_t i = 0; i < w->n_owned; i++)
+        free(w->owned[i]);
+    free(w);
+    free(set);
+    return rc;
+}
