@@ -569,6 +569,48 @@ int sl_ens_is_root(void)
 #endif
 }
 
+void sl_ens_mpi_begin(void)
+{
+#ifdef SL_HAVE_MPI
+    int init = 0, provided = 0;
+    MPI_Initialized(&init);
+    if (!init)
+        MPI_Init_thread(NULL, NULL, MPI_THREAD_FUNNELED, &provided);
+#endif
+}
+
+void sl_ens_mpi_end(void)
+{
+#ifdef SL_HAVE_MPI
+    int init = 0, fin = 0;
+    MPI_Initialized(&init);
+    MPI_Finalized(&fin);
+    if (init && !fin)
+        MPI_Finalize();
+#endif
+}
+
+int sl_ens_agree(int status, sl_err *e)
+{
+#ifdef SL_HAVE_MPI
+    int init = 0, size = 1;
+    MPI_Initialized(&init);
+    if (init)
+        MPI_Comm_size(MPI_COMM_WORLD, &size);
+    if (size > 1) {
+        int worst = status;
+        MPI_Allreduce(&status, &worst, 1, MPI_INT, MPI_MAX, MPI_COMM_WORLD);
+        if (status == SL_OK && worst != SL_OK)
+            return sl_err_set(e, worst, __func__, __LINE__, "another MPI rank failed (%s)",
+                              sl_err_name(worst));
+        return worst == SL_OK ? SL_OK : status;
+    }
+#else
+    (void)e;
+#endif
+    return status;
+}
+
 void sl_ens_result_free(sl_ens_result *r)
 {
     if (r == NULL)

@@ -235,6 +235,18 @@ void sl_ens_result_free(sl_ens_result *r);
 /* 1 on MPI rank 0 or without MPI, 0 on other ranks. */
 int sl_ens_is_root(void);
 
+/* With an MPI build (SL_HAVE_MPI): initialise MPI (MPI_Init_thread, funneled:
+ * only the master thread calls MPI) unless it is already; sl_ens_mpi_end
+ * finalises it.  Without MPI both do nothing.  Call them from the command,
+ * around everything else, on every rank. */
+void sl_ens_mpi_begin(void);
+void sl_ens_mpi_end(void);
+
+/* Make every rank agree on a status before collective work: returns the
+ * worst (largest) status over the ranks; a rank that was fine but sees
+ * another fail gets a message saying so.  Without MPI returns STATUS. */
+int sl_ens_agree(int status, sl_err *e);
+
 /* ------------------------------------------------------------ statistics */
 
 /* Percentiles pct[0..np-1] (0..100) of output j over successful members,
