@@ -44,11 +44,17 @@ typedef struct sl_atmosphere {
     double tropopause_altitude_m;   /* WMO lapse-rate definition */
     double tropopause_temperature_K;
     double tropopause_pressure_Pa;
-    double cold_point_altitude_m;   /* temperature minimum below 30 km */
+    double cold_point_altitude_m;   /* temperature minimum at or above 500 hPa and below 30 km */
     double cold_point_temperature_K;
     double stratopause_altitude_m;  /* temperature maximum between tropopause and 70 km */
-    double strat_water_column_kg_m2;/* background H2O from tropopause to stratopause... see atmosphere.c */
-    double strat_water_burden_kg;   /* the column times the Earth's area */
+    double stratopause_temperature_K;
+    double strat_water_column_kg_m2;/* background H2O vapour mass per area between the
+                                       tropopause and the stratopause, kg m-2 */
+    double strat_water_burden_kg;   /* the column times the Earth's area (SL_EARTH_AREA_M2):
+                                       the global burden if the whole globe had this profile */
+    /* Markers that a profile does not have (no level satisfies the WMO rule,
+     * the profile ends below the stratopause, ...) are NaN; so are the water
+     * column and burden when either boundary is missing. */
 } sl_atmosphere;
 
 /* Names of the built-in profiles, NULL-terminated. */
@@ -59,8 +65,36 @@ extern const char *const sl_atmosphere_builtin_names[];
  * SL_ENOINPUT (cannot open) or SL_ENOMEM. */
 int sl_atmosphere_init(sl_atmosphere *atm, const char *name_or_path, sl_err *e);
 
-/* State at ALTITUDE_M.  SL_EDATA when outside [altitude_m[0], altitude_m[n-1]]. */
+/* Build a profile named NAME from N >= 3 levels (copied; strictly increasing
+ * finite altitudes, temperatures 50-2000 K).  PRESSURE_PA_OR_NULL NULL: the
+ * pressure is integrated hydrostatically (moist air, inverse-square gravity)
+ * from 101325 Pa at the lowest level.  H2O_MOLE_FRACTION_OR_NULL NULL: dry air.
+ * Fails with SL_EDATA naming the level, or SL_ENOMEM. */
+int sl_atmosphere_init_levels(sl_atmosphere *atm, const char *name, size_t n, const double *altitude_m,
+                              const double *temperature_K, const double *pressure_Pa_or_NULL,
+                              const double *h2o_mole_fraction_or_NULL, sl_err *e);
+
+/* State at ALTITUDE_M.  SL_EDATA when outside [altitude_m[0], altitude_m[n-1]].
+ * Allocates nothing and does not modify ATM: safe from many threads at once. */
 int sl_atmosphere_at(const sl_atmosphere *atm, double altitude_m, sl_atmos_state *out, sl_err *e);
+
+/* Gravity at geometric altitude Z above mean sea level, inverse-square law
+ * with the USSA76 constants g0 and r0, m s-2. */
+double sl_atmosphere_gravity_m_s2(double altitude_m);
+
+/* The U.S. Standard Atmosphere 1976 evaluated directly from its defining
+ * constants at geometric ALTITUDE_M in [0, 120 km]: kinetic temperature,
+ * pressure and (dry-air) density.  Above 86 km the temperature follows the
+ * standard's defining segments and the pressure is our hydrostatic extension
+ * (constant molar mass, see atmosphere.c).  SL_EDATA outside the range.
+ * Any output pointer may be NULL. */
+int sl_atmosphere_us1976(double altitude_m, double *temperature_K, double *pressure_Pa,
+                         double *density_kg_m3, sl_err *e);
+
+/* Write ATM as a text profile (the format of atmospheres/README.md; readable
+ * by sl_atmosphere_init).  CSV != 0: comma-separated with one header line and
+ * no comment lines.  SL_EIO on a write error. */
+int sl_atmosphere_write_text(const sl_atmosphere *atm, int csv, void *stdio_file, sl_err *e);
 
 /* Release everything; safe on a zeroed or half-built struct. */
 void sl_atmosphere_free(sl_atmosphere *atm);

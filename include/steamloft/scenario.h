@@ -130,11 +130,17 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
       NULL, "relative error tolerance of the ODE solver")                                           \
     X(PARTITION_METHOD, "partition", "method", SL_PT_CHOICE, "", 0.0, 0.0, 0.0, 0u, "shock|budget", \
       "how the sea's share is computed: shock physics or a fixed energy budget")                    \
-    X(PARTITION_VAPOR_FRACTION, "partition", "vapor_energy_fraction", SL_PT_REAL, "1", 0.25, 0.01, \
+    X(PARTITION_VAPOR_FRACTION, "partition", "vapor_energy_fraction", SL_PT_REAL, "1", 0.1, 0.01,  \
       1.0, 0u, NULL,                                                                                \
       "budget method: fraction of the energy at the sea that heats and vaporises water")            \
+    X(PARTITION_TARGET_HEAT, "partition", "target_heat_fraction", SL_PT_REAL, "1", 0.5, 0.05, 1.0, \
+      0u, NULL, "shock method: most of the impact energy left as waste heat in the target (about "  \
+      "half above ~15 km/s, O'Keefe & Ahrens 1977); bounds the pressure decay in water")             \
     X(PARTITION_HEAT_FRACTION, "partition", "plume_heat_fraction", SL_PT_REAL, "1", 0.1, 0.0, 1.0, \
       0u, NULL, "both methods: fraction of the energy at the sea left as sensible heat in the plume") \
+    X(PARTITION_AIRBURST_HEAT, "partition", "air_heat_fraction", SL_PT_REAL, "1", 0.4, 0.05, 1.0,  \
+      0u, NULL, "fraction of the energy deposited in the air left as buoyant heat (as for "          \
+      "[explosion] heat_fraction)")                                                                 \
     X(PARTITION_IMPACTOR_HUGONIOT, "partition", "impactor_material", SL_PT_CHOICE, "", 0.0, 0.0,    \
       0.0, 0u, "auto|basalt|granite|iron|ice",                                                       \
       "shock method: linear Hugoniot of the impactor (auto: iron above 5000 kg/m3, else basalt)")

@@ -12,20 +12,31 @@
 #define SL_CP_VAPOR_J_KG_K 1865.0      /* water vapour, near 0-100 C */
 #define SL_CP_LIQUID_J_KG_K 4186.0     /* liquid water */
 #define SL_CP_ICE_J_KG_K 2106.0        /* ice near 0 C */
-#define SL_R_DRY_AIR_J_KG_K 287.053    /* USSA76 R*/M0 */
+#define SL_R_DRY_AIR_J_KG_K 287.053    /* USSA76 R-star over M0 */
 #define SL_R_VAPOR_J_KG_K 461.52       /* R / M_H2O */
 #define SL_T_TRIPLE_K 273.16
 #define SL_P_TRIPLE_PA 611.657
 
+/* All functions return NaN for arguments outside their physical domain
+ * (non-positive temperature or pressure, ...). */
+
 /* Saturation vapour pressure over plane ice, Pa (Murphy & Koop eq. 7), T > 110 K. */
 double sl_water_esat_ice_Pa(double temperature_K);
-/* Over plane liquid water, supercooled included, Pa (Murphy & Koop eq. 10), 123-332 K. */
+/* Over plane liquid water, Pa: supercooled (below 273.16 K) Murphy & Koop
+ * eq. 10 (123-273.16 K); at and above 273.16 K the IAPWS 1992 equation of
+ * Wagner & Pruss (to the critical point 647.096 K). */
 double sl_water_esat_liquid_Pa(double temperature_K);
 /* Over liquid above 273.16 K, over ice below: the phase the plume condenses into. */
 double sl_water_esat_Pa(double temperature_K);
-/* Frost point for water partial pressure E_PA (Murphy & Koop eq. 8), K. */
+/* Frost point for water partial pressure E_PA, K: the exact inverse of
+ * sl_water_esat_ice_Pa (Newton, started from Murphy & Koop eq. 8). */
 double sl_water_frost_point_K(double vapor_pressure_Pa);
-/* Latent heats, J kg-1, as functions of temperature. */
+/* Boiling point of pure water at pressure P (611.657 Pa - 22 MPa), K: the
+ * inverse of sl_water_esat_liquid_Pa above the triple point. */
+double sl_water_boiling_point_K(double pressure_Pa);
+/* Latent heats, J kg-1, as functions of temperature: sublimation Murphy & Koop
+ * eq. 5; vaporisation Murphy & Koop eq. 9 below 273.16 K and a fit to IAPWS-95
+ * from 273.16 to 500 K; fusion their difference. */
 double sl_water_latent_vaporization_J_kg(double temperature_K);
 double sl_water_latent_sublimation_J_kg(double temperature_K);
 double sl_water_latent_fusion_J_kg(double temperature_K);

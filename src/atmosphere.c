@@ -1,0 +1,836 @@
+/* atmosphere: vertical profiles of the background atmosphere.
+ *
+ * A profile is a table on geometric altitude z (m): temperature T (K),
+ * pressure p (Pa), moist-air density rho (kg m-3), water-vapour mole fraction
+ * x (mol/mol) and the squared buoyancy frequency N^2 (s-2).  Between levels it
+ * is interpolated with monotone Steffen splines (Steffen 1990, A&A 239, 443;
+ * GSL gsl_interp_steffen): T and x directly, p as ln p.  Steffen splines are
+ * C1 and never overshoot the data, so N^2 is continuous for the plume ODEs and
+ * x never goes negative.  Density is recomputed at a query from the
+ * interpolated p, T and x (Dalton's law), so interpolated states are always
+ * in the ideal-gas equation of state.
+ *
+ *   N^2 = (g/T) (dT/dz + g/cp)          (dry air, cp = 1004.64 J/kg/K)
+ *   g(z) = g0 (r0 / (r0 + z))^2         (inverse-square, USSA76 g0 and r0)
+ *   dp/dz = -rho g                      (hydrostatic balance)
+ *
+ * U.S. Standard Atmosphere 1976 (NOAA-S/T 76-1562): computed from its defining
+ * constants (g0, R*, M0, r0, P0, T0) and its seven layers linear in
+ * geopotential height H = r0 z/(r0 + z) up to 84.852 km (z = 86 km), with the
+ * kinetic temperature T = T_M (M/M0) from the standard's molar-mass ratio
+ * table between 80 and 86 km.  Above 86 km the temperature follows the
+ * standard's own geometric-altitude segments (isothermal 186.8673 K to 91 km,
+ * the ellipse Tc + A sqrt(1 - ((z - 91 km)/a)^2) to 110 km with Tc = 263.1905
+ * K, A = -76.3232 K, a = -19.9429 km, then +12 K/km to 120 km), but the
+ * pressure is OUR simple extension: hydrostatic integration with the
+ * sea-level molar mass M0 held constant.  The standard itself lets the mean
+ * molar mass fall above 86 km (diffusive separation, O2 dissociation), so our
+ * pressures there are lower than its tables (by 0.7 % at 100 km, 7 % at
+ * 110 km and 14 % at 120 km, measured in tests/test_atmosphere.c against the
+ * standard's values quoted from memory); the air there is too thin for
+ * plumes to care.
+ *
+ * Climate-zone profiles (tropical, mid-latitude summer and winter, sub-arctic
+ * summer and winter) are our own piecewise-linear temperature profiles in
+ * geometric altitude through a few nodes read from the AFGL reference
+ * atmospheres (Anderson et al. 1986, AFGL-TR-86-0110; tables seen in the
+ * pyrtlib transcription, see ../shared/reference/climate-facts.md section 7):
+ * surface, tropopause, stratopause, mesopause and 120 km.  Pressure is
+ * integrated hydrostatically (moist air, 4th-order Runge-Kutta, 4 steps per
+ * level) from the AFGL surface pressure.
+ *
+ * Background water (used when a profile does not bring its own):
+ *  - troposphere: the fixed relative-humidity profile of Manabe & Wetherald
+ *    (1967, J. Atmos. Sci. 24, 241), RH = 0.77 (p/ps - 0.02)/(1 - 0.02),
+ *    over liquid water, capped at ice saturation below 273.16 K and never below
+ *    the stratospheric entry value;
+ *  - stratosphere: H2O = 7.4 ppmv - 2 CH4 (Hurst et al. 1999, JGR 104, 8191:
+ *    H2O + 2 CH4 = 7.4 +- 0.5 ppmv, entry H2O 4.0 +- 0.3 ppmv, so entry CH4
+ *    1.7 ppmv), with the oxidised fraction of methane growing with height
+ *    above the tropopause dz as f = 1 - exp(-(dz/35 km)^2).  The 35 km scale
+ *    is our fit to the AFGL water profiles (tropical 5.2 ppmv at 40 km and
+ *    6.0 at 50 km, mid-latitude summer 4.7 ppmv at 30 km, all reproduced to
+ *    0.1-0.2 ppmv);
+ *  - mesosphere: above the stratopause the mixing ratio falls (photolysis)
+ *    by the factor the AFGL tropical profile shows at the same height above
+ *    its stratopause (50 km: 6.0 ppmv; 60 km 6.0, 65 km 5.4, 70 km 4.5, 75 km
+ *    3.3, 80 km 2.1, 85 km 1.3, 90 km 0.85, 95 km 0.54, 100 km 0.40, 120 km
+ *    0.20 ppmv; SEEN in the pyrtlib transcription), log-linear in between;
+ *  - everywhere capped at saturation (ice below 273.16 K).
+ *
+ * Markers: the tropopause by the WMO (1957) lapse-rate rule: the lowest level
+ * at or above 500 hPa (the 500 hPa floor, as in Reichler et al. 2003, keeps
+ * surface inversions out) where the lapse rate falls to 2 K/km or less and the
+ * mean lapse rate between it and every level within the next 2 km stays at or
+ * below 2 K/km; the cold point (lowest temperature at or above 500 hPa and
+ * below 30 km); the stratopause (highest temperature between the tropopause
+ * and 70 km).  The background stratospheric water column is the vapour mass
+ * per area between tropopause and stratopause (Simpson's rule on the
+ * interpolants, 2 panels per level interval), and the burden that column
+ * times the Earth's area. */
+#include "atmosphere_internal.h"
+
+#include "steamloft/units.h"
+#include "steamloft/water.h"
+
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_interp.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+struct sl_atmosphere_splines {
+    gsl_interp *temperature;
+    gsl_interp *log_pressure;
+    gsl_interp *h2o;
+    double *log_pressure_Pa; /* ln p at the levels */
+};
+
+const char *const sl_atmosphere_builtin_names[] = {
+    "us1976",           "tropical",         "midlatitude-summer", "midlatitude-winter",
+    "subarctic-summer", "subarctic-winter", NULL};
+
+/* ---- constants ---------------------------------------------------------- */
+
+#define GMR_K_M (SL_USSA_G0_M_S2 * SL_USSA_M0_KG_KMOL / SL_USSA_RSTAR_J_KMOL_K) /* g0 M0 / R*, K/m */
+#define R_DRY_USSA (SL_USSA_RSTAR_J_KMOL_K / SL_USSA_M0_KG_KMOL)              /* 287.053 J/kg/K */
+#define BUILTIN_TOP_M 120000.0
+#define BUILTIN_STEP_M 250.0
+
+/* Background water model parameters (sources in the file comment). */
+#define RH_SURFACE 0.77            /* Manabe & Wetherald 1967 */
+#define RH_Q_TOP 0.02              /* p/ps where their RH reaches zero */
+#define H2O_ENTRY 4.0e-6           /* Hurst et al. 1999 */
+#define H2O_TOTAL_HYDROGEN 7.4e-6  /* H2O + 2 CH4, Hurst et al. 1999 */
+#define CH4_OXIDATION_SCALE_M 35.0e3
+
+/* Mesospheric decline: ratio of the AFGL tropical water mixing ratio to its
+ * stratopause value (6.0 ppmv at 50 km), every 5 km above the stratopause
+ * from 0 to 50 km, and at 70 km (120 km). */
+static const double meso_ratio[12] = {1.0,        1.0,         1.0,         0.9,          0.75,
+                                      0.55,       0.35,        1.3 / 6.0,   0.85 / 6.0,   0.54 / 6.0,
+                                      0.40 / 6.0, 0.20 / 6.0};
+static double meso_factor(double dz_m)
+{
+    const double u = dz_m / 5000.0;
+    if (u >= 10.0) {
+        const double f = fmin((u - 10.0) / 4.0, 1.0); /* 50 -> 70 km above */
+        return exp(log(meso_ratio[10]) + f * (log(meso_ratio[11]) - log(meso_ratio[10])));
+    }
+    const int i = (int)u;
+    const double f = u - i;
+    return exp(log(meso_ratio[i]) + f * (log(meso_ratio[i + 1]) - log(meso_ratio[i])));
+}
+
+double sl_atmosphere_gravity_m_s2(double altitude_m)
+{
+    const double r = SL_USSA_R0_M / (SL_USSA_R0_M + altitude_m);
+    return SL_USSA_G0_M_S2 * r * r;
+}
+
+/* ---- U.S. Standard Atmosphere 1976 -------------------------------------- */
+
+/* Layer bases in geopotential metres and lapse rates in K per geopotential
+ * metre (NOAA-S/T 76-1562 Table 4; SEEN in climate-facts.md section 7). */
+static const double ussa_hb_m[8] = {0.0, 11000.0, 20000.0, 32000.0, 47000.0, 51000.0, 71000.0, 84852.0};
+static const double ussa_lapse_K_m[7] = {-6.5e-3, 0.0, 1.0e-3, 2.8e-3, 0.0, -2.8e-3, -2.0e-3};
+
+/* Molar-mass ratio M/M0 at 80.0, 80.5, ..., 86.0 km geometric (USSA76 Table 8;
+ * from memory, consistent with the 186.87 K at 86 km seen in the notes). */
+static const double ussa_m_ratio[13] = {1.000000, 0.999996, 0.999989, 0.999971, 0.999941,
+                                        0.999909, 0.999870, 0.999829, 0.999786, 0.999741,
+                                        0.999694, 0.999641, 0.999579};
+
+/* Molecular-scale temperature and pressure at geopotential H (m), H in
+ * [0, 84852]: base values are computed by chaining the layers from P0, T0. */
+static void ussa_molecular(double h_m, double *tm_K, double *p_Pa)
+{
+    double tb = SL_USSA_T0_K, pb = SL_USSA_P0_PA;
+    int k = 0;
+    for (; k < 6; k++) {
+        if (h_m < ussa_hb_m[k + 1])
+            break;
+        const double dh = ussa_hb_m[k + 1] - ussa_hb_m[k];
+        const double l = ussa_lapse_K_m[k];
+        const double tn = tb + l * dh;
+        pb = l == 0.0 ? pb * exp(-GMR_K_M * dh / tb) : pb * pow(tb / tn, GMR_K_M / l);
+        tb = tn;
+    }
+    const double dh = h_m - ussa_hb_m[k];
+    const double l = ussa_lapse_K_m[k];
+    const double t = tb + l * dh;
+    *tm_K = t;
+    *p_Pa = l == 0.0 ? pb * exp(-GMR_K_M * dh / tb) : pb * pow(tb / t, GMR_K_M / l);
+}
+
+/* Kinetic temperature above 86 km from the standard's defining segments. */
+static double ussa_upper_T(double z_m)
+{
+    if (z_m <= 91000.0)
+        return 186.8673;
+    if (z_m <= 110000.0) {
+        const double u = (z_m - 91000.0) / -19942.9;
+        return 263.1905 - 76.3232 * sqrt(fmax(0.0, 1.0 - u * u));
+    }
+    return 240.0 + 12.0e-3 * (z_m - 110000.0);
+}
+
+static double ussa_upper_integrand(double z_m)
+{
+    return sl_atmosphere_gravity_m_s2(z_m) * SL_USSA_M0_KG_KMOL / (SL_USSA_RSTAR_J_KMOL_K * ussa_upper_T(z_m));
+}
+
+/* ln(p(z)/p(86 km)) = -int_86km^z g M0/(R* T) dz, by 5-point Gauss-Legendre
+ * on panels of at most 500 m that do not straddle the segment joints. */
+static double ussa_upper_log_ratio(double z_m)
+{
+    static const double gx[5] = {0.0, -0.5384693101056831, 0.5384693101056831, -0.9061798459386640,
+                                 0.9061798459386640};
+    static const double gw[5] = {0.5688888888888889, 0.4786286704993665, 0.4786286704993665,
+                                 0.2369268850561891, 0.2369268850561891};
+    static const double joints[3] = {91000.0, 110000.0, 120000.0};
+    double sum = 0.0, a = 86000.0;
+    for (int j = 0; j < 3 && a < z_m; j++) {
+        const double b_seg = fmin(joints[j], z_m);
+        const int panels = (int)ceil((b_seg - a) / 500.0);
+        const double w = (b_seg - a) / (panels > 0 ? panels : 1);
+        for (int k = 0; k < panels; k++) {
+            const double lo = a + k * w, mid = lo + 0.5 * w;
+            for (int q = 0; q < 5; q++)
+                sum += 0.5 * w * gw[q] * ussa_upper_integrand(mid + 0.5 * w * gx[q]);
+        }
+        a = b_seg;
+    }
+    return -sum;
+}
+
+int sl_atmosphere_us1976(double altitude_m, double *temperature_K, double *pressure_Pa,
+                         double *density_kg_m3, sl_err *e)
+{
+    const double z = altitude_m;
+    if (!(z >= 0.0 && z <= BUILTIN_TOP_M))
+        SL_FAIL_RETURN(e, SL_EDATA, "U.S. Standard Atmosphere 1976: altitude %.6g m outside 0 to %.0f m", z,
+                       BUILTIN_TOP_M);
+    double t, p, rho;
+    if (z <= 86000.0) {
+        const double h = SL_USSA_R0_M * z / (SL_USSA_R0_M + z);
+        double tm;
+        ussa_molecular(fmin(h, ussa_hb_m[7]), &tm, &p);
+        rho = p * SL_USSA_M0_KG_KMOL / (SL_USSA_RSTAR_J_KMOL_K * tm);
+        t = tm;
+        if (z > 80000.0) {
+            const double u = (z - 80000.0) / 500.0;
+            int i = (int)u;
+            if (i > 11)
+                i = 11;
+            const double f = u - i;
+            t = tm * (ussa_m_ratio[i] + f * (ussa_m_ratio[i + 1] - ussa_m_ratio[i]));
+        }
+    } else {
+        double tm86, p86;
+        ussa_molecular(ussa_hb_m[7], &tm86, &p86);
+        t = ussa_upper_T(z);
+        p = p86 * exp(ussa_upper_log_ratio(z));
+        rho = p * SL_USSA_M0_KG_KMOL / (SL_USSA_RSTAR_J_KMOL_K * t);
+    }
+    if (temperature_K)
+        *temperature_K = t;
+    if (pressure_Pa)
+        *pressure_Pa = p;
+    if (density_kg_m3)
+        *density_kg_m3 = rho;
+    return SL_OK;
+}
+
+/* ---- climate-zone definitions ------------------------------------------- */
+
+typedef struct zone_node {
+    double altitude_km, temperature_K;
+} zone_node;
+
+typedef struct zone_def {
+    const char *name;
+    double surface_pressure_Pa;
+    const zone_node *nodes;
+    size_t n_nodes;
+} zone_def;
+
+/* Nodes read from the AFGL 1986 tables (SEEN, pyrtlib transcription): the
+ * tropopause and stratopause heights and temperatures are the tables' own
+ * (climate-facts.md section 7); the other nodes follow the tables at the
+ * surface, 2-3 km, 20-47.5 km, the mesopause and 100-120 km. */
+static const zone_node tropical_nodes[] = {
+    {0, 299.7},    {17, 194.8}, {20, 206.7}, {30, 232.3}, {40, 254.0},  {47.5, 269.6},
+    {50, 270.2},   {60, 253.1}, {70, 218.9}, {80, 184.8}, {85, 177.1},  {90, 177.0},
+    {100, 190.7},  {110, 241.6}, {120, 380.0}};
+static const zone_node mls_nodes[] = {
+    {0, 294.2},   {2, 285.2},   {13, 215.8},  {17, 215.7},  {20, 219.2},  {25, 225.1},
+    {30, 233.7},  {40, 257.5},  {47.5, 275.2}, {50, 275.7}, {60, 257.1},  {70, 218.1},
+    {80, 174.1},  {85, 165.1},  {90, 165.0},  {100, 190.5}, {110, 262.4}, {120, 380.0}};
+static const zone_node mlw_nodes[] = {
+    {0, 272.2},   {3, 261.7},   {11, 219.2},  {19, 215.2},  {25, 215.2},  {30, 217.4},
+    {40, 243.2},  {47.5, 265.1}, {50, 265.7}, {55, 260.6},  {60, 250.8},  {70, 230.7},
+    {80, 210.1},  {85, 199.8},  {90, 199.5},  {100, 218.6}, {110, 259.5}, {120, 333.0}};
+static const zone_node sas_nodes[] = {
+    {0, 287.2},   {10, 225.2},  {23, 225.2},  {25, 228.1},  {30, 235.1},  {40, 262.1},
+    {47.5, 276.2}, {50, 277.2}, {55, 274.0},  {60, 262.7},  {70, 216.6},  {80, 170.6},
+    {85, 161.7},  {90, 161.6},  {100, 190.4}, {110, 270.1}, {120, 380.0}};
+static const zone_node saw_nodes[] = {
+    {0, 257.2},   {1, 259.1},   {9, 217.2},   {15, 217.2},  {25, 211.2},  {30, 216.0},
+    {40, 234.7},  {50, 259.3},  {55, 259.1},  {60, 250.9},  {70, 245.4},  {80, 223.9},
+    {85, 213.1},  {90, 202.3},  {100, 218.5}, {110, 252.6}, {120, 333.0}};
+
+#define ZONE(nm, ps, arr) {nm, ps, arr, sizeof arr / sizeof arr[0]}
+static const zone_def zones[] = {
+    ZONE("tropical", 101300.0, tropical_nodes),
+    ZONE("midlatitude-summer", 101300.0, mls_nodes),
+    ZONE("midlatitude-winter", 101800.0, mlw_nodes),
+    ZONE("subarctic-summer", 101000.0, sas_nodes),
+    ZONE("subarctic-winter", 101300.0, saw_nodes),
+};
+
+static double zone_temperature(const zone_def *zd, double z_m)
+{
+    const double zk = z_m * 1e-3;
+    size_t i = 0;
+    while (i + 2 < zd->n_nodes && zk > zd->nodes[i + 1].altitude_km)
+        i++;
+    const zone_node *a = &zd->nodes[i], *b = &zd->nodes[i + 1];
+    return a->temperature_K + (b->temperature_K - a->temperature_K) * (zk - a->altitude_km) /
+                                  (b->altitude_km - a->altitude_km);
+}
+
+/* ---- background water --------------------------------------------------- */
+
+typedef struct water_ctx {
+    double surface_pressure_Pa;
+    double tropopause_m; /* NaN: no tropopause, tropospheric model throughout */
+    double stratopause_m;
+} water_ctx;
+
+static double strat_h2o(double dz_m)
+{
+    const double u = dz_m / CH4_OXIDATION_SCALE_M;
+    const double oxidised = 1.0 - exp(-u * u);
+    const double ch4_entry = 0.5 * (H2O_TOTAL_HYDROGEN - H2O_ENTRY);
+    return H2O_ENTRY + 2.0 * ch4_entry * oxidised;
+}
+
+static double background_h2o(const water_ctx *w, double z_m, double t_K, double p_Pa)
+{
+    double x;
+    if (!isfinite(w->tropopause_m) || z_m < w->tropopause_m) {
+        double rh = RH_SURFACE * (p_Pa / w->surface_pressure_Pa - RH_Q_TOP) / (1.0 - RH_Q_TOP);
+        if (rh < 0.0)
+            rh = 0.0;
+        double ev = rh * sl_water_esat_liquid_Pa(t_K);
+        if (t_K < SL_T_TRIPLE_K) {
+            const double ei = sl_water_esat_ice_Pa(t_K);
+            if (ev > ei)
+                ev = ei;
+        }
+        x = ev / p_Pa;
+        if (x < H2O_ENTRY)
+            x = H2O_ENTRY;
+    } else if (!isfinite(w->stratopause_m) || z_m <= w->stratopause_m) {
+        x = strat_h2o(z_m - w->tropopause_m);
+    } else {
+        x = strat_h2o(w->stratopause_m - w->tropopause_m) * meso_factor(z_m - w->stratopause_m);
+    }
+    const double xs = sl_water_esat_Pa(t_K) / p_Pa;
+    if (isfinite(xs) && x > xs)
+        x = xs;
+    return x;
+}
+
+/* ---- level arrays, hydrostatics, markers --------------------------------- */
+
+static double dlnp_dz(double z_m, double t_K, double x)
+{
+    /* dp/dz = -rho g with rho = p [(1-x)/Rd + x/Rv] / T. */
+    return -sl_atmosphere_gravity_m_s2(z_m) * ((1.0 - x) / SL_R_DRY_AIR_J_KG_K + x / SL_R_VAPOR_J_KG_K) / t_K;
+}
+
+/* Water at (z, T, p) for the integrator: dry, given (linear in the interval
+ * between levels i and i+1), or the background model. */
+typedef struct water_src {
+    int mode;              /* 0 dry, 1 background model, 2 given */
+    const water_ctx *ctx;
+    const double *x_levels;
+} water_src;
+
+static double water_at(const water_src *ws, const double *z, size_t i, double zq, double t, double p)
+{
+    if (ws->mode == 1)
+        return background_h2o(ws->ctx, zq, t, p);
+    if (ws->mode == 2) {
+        const double f = (zq - z[i]) / (z[i + 1] - z[i]);
+        return ws->x_levels[i] + f * (ws->x_levels[i + 1] - ws->x_levels[i]);
+    }
+    return 0.0;
+}
+
+/* Integrate ln p upward from p[0] with RK4, 4 steps per level interval, T
+ * linear in z within each interval. */
+static void integrate_pressure(size_t n, const double *z, const double *t, const water_src *ws, double *p)
+{
+    enum { SUB = 4 };
+    double lp = log(p[0]);
+    for (size_t i = 0; i + 1 < n; i++) {
+        const double h = (z[i + 1] - z[i]) / SUB;
+        for (int k = 0; k < SUB; k++) {
+            const double za = z[i] + k * h;
+            const double zb = za + 0.5 * h, zc = za + h;
+            const double ta = t[i] + (t[i + 1] - t[i]) * (za - z[i]) / (z[i + 1] - z[i]);
+            const double tb = t[i] + (t[i + 1] - t[i]) * (zb - z[i]) / (z[i + 1] - z[i]);
+            const double tc = t[i] + (t[i + 1] - t[i]) * (zc - z[i]) / (z[i + 1] - z[i]);
+            const double k1 = dlnp_dz(za, ta, water_at(ws, z, i, za, ta, exp(lp)));
+            const double l2 = lp + 0.5 * h * k1;
+            const double k2 = dlnp_dz(zb, tb, water_at(ws, z, i, zb, tb, exp(l2)));
+            const double l3 = lp + 0.5 * h * k2;
+            const double k3 = dlnp_dz(zb, tb, water_at(ws, z, i, zb, tb, exp(l3)));
+            const double l4 = lp + h * k3;
+            const double k4 = dlnp_dz(zc, tc, water_at(ws, z, i, zc, tc, exp(l4)));
+            lp += h / 6.0 * (k1 + 2.0 * k2 + 2.0 * k3 + k4);
+        }
+        p[i + 1] = exp(lp);
+    }
+}
+
+#define TROPOPAUSE_FLOOR_PA 50000.0
+#define WMO_LAPSE_K_M 2.0e-3
+#define WMO_DEPTH_M 2000.0
+#define COLD_POINT_TOP_M 30000.0
+#define STRATOPAUSE_TOP_M 70000.0
+
+/* Level markers from the level arrays only (interpolation-free). */
+static void find_markers(sl_atmosphere *a)
+{
+    const size_t n = a->n;
+    const double *z = a->altitude_m, *t = a->temperature_K, *p = a->pressure_Pa;
+    a->tropopause_altitude_m = a->tropopause_temperature_K = a->tropopause_pressure_Pa = NAN;
+    a->cold_point_altitude_m = a->cold_point_temperature_K = NAN;
+    a->stratopause_altitude_m = a->stratopause_temperature_K = NAN;
+    for (size_t i = 0; i + 1 < n; i++) {
+        if (p[i] > TROPOPAUSE_FLOOR_PA)
+            continue;
+        const double lapse = -(t[i + 1] - t[i]) / (z[i + 1] - z[i]);
+        if (lapse > WMO_LAPSE_K_M)
+            continue;
+        const double zt = z[i] + WMO_DEPTH_M;
+        if (zt > z[n - 1])
+            break; /* not 2 km of profile left above: the rule cannot be applied */
+        int ok = 1;
+        size_t j = i + 1;
+        for (; j < n && z[j] <= zt; j++)
+            if (-(t[j] - t[i]) / (z[j] - z[i]) > WMO_LAPSE_K_M) {
+                ok = 0;
+                break;
+            }
+        if (ok && j < n) { /* the point exactly 2 km above, linear between levels */
+            const double tt = t[j - 1] + (t[j] - t[j - 1]) * (zt - z[j - 1]) / (z[j] - z[j - 1]);
+            if (-(tt - t[i]) / WMO_DEPTH_M > WMO_LAPSE_K_M)
+                ok = 0;
+        }
+        if (ok) {
+            a->tropopause_altitude_m = z[i];
+            a->tropopause_temperature_K = t[i];
+            a->tropopause_pressure_Pa = p[i];
+            break;
+        }
+    }
+    for (size_t i = 0; i < n && z[i] <= COLD_POINT_TOP_M; i++) {
+        if (p[i] > TROPOPAUSE_FLOOR_PA)
+            continue;
+        if (!(t[i] >= a->cold_point_temperature_K)) { /* true for NaN: first candidate */
+            a->cold_point_altitude_m = z[i];
+            a->cold_point_temperature_K = t[i];
+        }
+    }
+    if (isfinite(a->tropopause_altitude_m)) {
+        size_t best = n;
+        for (size_t i = 0; i < n && z[i] <= STRATOPAUSE_TOP_M; i++)
+            if (z[i] >= a->tropopause_altitude_m && (best == n || t[i] > t[best]))
+                best = i;
+        /* A maximum at the top of a profile that ends below 70 km is only the
+         * end of the data, not a stratopause. */
+        if (best < n && !(best == n - 1 && z[n - 1] < STRATOPAUSE_TOP_M) && best > 0 &&
+            z[best] > a->tropopause_altitude_m) {
+            a->stratopause_altitude_m = z[best];
+            a->stratopause_temperature_K = t[best];
+        }
+    }
+}
+
+/* Vapour mass per area between the tropopause and the stratopause. */
+static int strat_water(sl_atmosphere *a, sl_err *e)
+{
+    a->strat_water_column_kg_m2 = a->strat_water_burden_kg = NAN;
+    if (!isfinite(a->tropopause_altitude_m) || !isfinite(a->stratopause_altitude_m))
+        return SL_OK;
+    const double z0 = a->tropopause_altitude_m, z1 = a->stratopause_altitude_m;
+    double sum = 0.0;
+    for (size_t i = 0; i + 1 < a->n; i++) {
+        const double lo = fmax(a->altitude_m[i], z0), hi = fmin(a->altitude_m[i + 1], z1);
+        if (!(hi > lo))
+            continue;
+        double f[3];
+        for (int k = 0; k < 3; k++) {
+            sl_atmos_state s;
+            SL_TRY_RETURN(e, sl_atmosphere_at(a, lo + 0.5 * k * (hi - lo), &s, e));
+            f[k] = s.h2o_mole_fraction * s.pressure_Pa / (SL_R_VAPOR_J_KG_K * s.temperature_K);
+        }
+        sum += (hi - lo) / 6.0 * (f[0] + 4.0 * f[1] + f[2]);
+    }
+    a->strat_water_column_kg_m2 = sum;
+    a->strat_water_burden_kg = sum * SL_EARTH_AREA_M2;
+    return SL_OK;
+}
+
+static int alloc_levels(sl_atmosphere *a, size_t n, sl_err *e)
+{
+    a->n = n;
+    a->altitude_m = calloc(n, sizeof(double));
+    a->temperature_K = calloc(n, sizeof(double));
+    a->pressure_Pa = calloc(n, sizeof(double));
+    a->density_kg_m3 = calloc(n, sizeof(double));
+    a->h2o_mole_fraction = calloc(n, sizeof(double));
+    a->n2_per_s2 = calloc(n, sizeof(double));
+    a->sp = calloc(1, sizeof *a->sp);
+    if (!a->altitude_m || !a->temperature_K || !a->pressure_Pa || !a->density_kg_m3 || !a->h2o_mole_fraction ||
+        !a->n2_per_s2 || !a->sp)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere: cannot allocate %zu levels", n);
+    a->sp->log_pressure_Pa = calloc(n, sizeof(double));
+    if (!a->sp->log_pressure_Pa)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere: cannot allocate %zu levels", n);
+    return SL_OK;
+}
+
+static int build_splines(sl_atmosphere *a, sl_err *e)
+{
+    struct sl_atmosphere_splines *sp = a->sp;
+    for (size_t i = 0; i < a->n; i++)
+        sp->log_pressure_Pa[i] = log(a->pressure_Pa[i]);
+    sp->temperature = gsl_interp_alloc(gsl_interp_steffen, a->n);
+    sp->log_pressure = gsl_interp_alloc(gsl_interp_steffen, a->n);
+    sp->h2o = gsl_interp_alloc(gsl_interp_steffen, a->n);
+    if (!sp->temperature || !sp->log_pressure || !sp->h2o)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere '%s': cannot allocate interpolants", a->name);
+    int s = gsl_interp_init(sp->temperature, a->altitude_m, a->temperature_K, a->n);
+    if (s == GSL_SUCCESS)
+        s = gsl_interp_init(sp->log_pressure, a->altitude_m, sp->log_pressure_Pa, a->n);
+    if (s == GSL_SUCCESS)
+        s = gsl_interp_init(sp->h2o, a->altitude_m, a->h2o_mole_fraction, a->n);
+    if (s != GSL_SUCCESS)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "atmosphere '%s': spline set-up failed: %s", a->name, gsl_strerror(s));
+    return SL_OK;
+}
+
+static void copy_str(char *dst, size_t cap, const char *src)
+{
+    snprintf(dst, cap, "%s", src ? src : "");
+}
+
+int sl_atmosphere_build_(sl_atmosphere *atm, const char *name, const char *source, size_t n,
+                         const double *altitude_m, const double *temperature_K, const double *pressure_Pa,
+                         const double *h2o_mole_fraction, int water_mode, sl_err *e)
+{
+    const char *nm = name ? name : "profile";
+    if (n < 3)
+        SL_FAIL_RETURN(e, SL_EDATA, "atmosphere '%s': %zu levels, need at least 3", nm, n);
+    if (!altitude_m || !temperature_K)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "atmosphere '%s': altitude or temperature array missing", nm);
+    for (size_t i = 0; i < n; i++) {
+        if (!isfinite(altitude_m[i]) || !(altitude_m[i] >= -1000.0 && altitude_m[i] <= 1.0e6))
+            SL_FAIL_RETURN(e, SL_EDATA, "atmosphere '%s': level %zu: altitude %g m is not within -1000 to 1e6 m",
+                           nm, i + 1, altitude_m[i]);
+        if (i > 0 && !(altitude_m[i] > altitude_m[i - 1]))
+            SL_FAIL_RETURN(e, SL_EDATA,
+                           "atmosphere '%s': level %zu: altitude %g m is not above the previous level (%g m); "
+                           "altitudes must increase strictly",
+                           nm, i + 1, altitude_m[i], altitude_m[i - 1]);
+        if (!(temperature_K[i] >= 50.0 && temperature_K[i] <= 2000.0))
+            SL_FAIL_RETURN(e, SL_EDATA, "atmosphere '%s': level %zu: temperature %g K is not within 50 to 2000 K",
+                           nm, i + 1, temperature_K[i]);
+        if (pressure_Pa) {
+            if (!(pressure_Pa[i] > 0.0 && pressure_Pa[i] <= 2.0e5))
+                SL_FAIL_RETURN(e, SL_EDATA,
+                               "atmosphere '%s': level %zu: pressure %g Pa is not within 0 (exclusive) to 2e5 Pa",
+                               nm, i + 1, pressure_Pa[i]);
+            if (i > 0 && !(pressure_Pa[i] < pressure_Pa[i - 1]))
+                SL_FAIL_RETURN(e, SL_EDATA,
+                               "atmosphere '%s': level %zu: pressure %g Pa does not fall with altitude "
+                               "(%g Pa below)",
+                               nm, i + 1, pressure_Pa[i], pressure_Pa[i - 1]);
+        }
+        if (h2o_mole_fraction && !(h2o_mole_fraction[i] >= 0.0 && h2o_mole_fraction[i] < 0.5))
+            SL_FAIL_RETURN(e, SL_EDATA,
+                           "atmosphere '%s': level %zu: water mole fraction %g is not within 0 to 0.5", nm, i + 1,
+                           h2o_mole_fraction[i]);
+    }
+    sl_atmosphere_free(atm);
+    copy_str(atm->name, sizeof atm->name, nm);
+    copy_str(atm->source, sizeof atm->source, source);
+    SL_TRY_RETURN(e, alloc_levels(atm, n, e));
+    memcpy(atm->altitude_m, altitude_m, n * sizeof(double));
+    memcpy(atm->temperature_K, temperature_K, n * sizeof(double));
+
+    water_src ws = {0, NULL, h2o_mole_fraction};
+    if (h2o_mole_fraction) {
+        ws.mode = 2;
+        memcpy(atm->h2o_mole_fraction, h2o_mole_fraction, n * sizeof(double));
+    }
+    if (pressure_Pa) {
+        memcpy(atm->pressure_Pa, pressure_Pa, n * sizeof(double));
+    } else {
+        atm->pressure_Pa[0] = SL_USSA_P0_PA;
+        /* Dry first when the water model needs the tropopause (it needs p). */
+        water_src dry = {0, NULL, NULL};
+        integrate_pressure(n, atm->altitude_m, atm->temperature_K, ws.mode == 2 ? &ws : &dry, atm->pressure_Pa);
+    }
+    if (!h2o_mole_fraction && water_mode == SL_ATM_WATER_BACKGROUND) {
+        find_markers(atm);
+        water_ctx ctx = {atm->pressure_Pa[0], atm->tropopause_altitude_m, atm->stratopause_altitude_m};
+        if (!pressure_Pa) { /* moist hydrostatics with the model water, markers again */
+            water_src bg = {1, &ctx, NULL};
+            integrate_pressure(n, atm->altitude_m, atm->temperature_K, &bg, atm->pressure_Pa);
+            find_markers(atm);
+            ctx.tropopause_m = atm->tropopause_altitude_m;
+            ctx.stratopause_m = atm->stratopause_altitude_m;
+        }
+        for (size_t i = 0; i < n; i++)
+            atm->h2o_mole_fraction[i] =
+                background_h2o(&ctx, atm->altitude_m[i], atm->temperature_K[i], atm->pressure_Pa[i]);
+    }
+    for (size_t i = 0; i < n; i++)
+        atm->density_kg_m3[i] =
+            sl_water_moist_air_density_kg_m3(atm->pressure_Pa[i], atm->temperature_K[i], atm->h2o_mole_fraction[i]);
+    SL_TRY_RETURN(e, build_splines(atm, e));
+    for (size_t i = 0; i < n; i++) {
+        sl_atmos_state s;
+        SL_TRY_RETURN(e, sl_atmosphere_at(atm, atm->altitude_m[i], &s, e));
+        atm->n2_per_s2[i] = s.n2_per_s2;
+    }
+    find_markers(atm);
+    SL_TRY_RETURN(e, strat_water(atm, e));
+    return SL_OK;
+}
+
+int sl_atmosphere_init_levels(sl_atmosphere *atm, const char *name, size_t n, const double *altitude_m,
+                              const double *temperature_K, const double *pressure_Pa_or_NULL,
+                              const double *h2o_mole_fraction_or_NULL, sl_err *e)
+{
+    char source[256];
+    snprintf(source, sizeof source, "%zu levels given by the caller%s%s", n,
+             pressure_Pa_or_NULL ? "" : ", pressure hydrostatic from 101325 Pa",
+             h2o_mole_fraction_or_NULL ? "" : ", dry");
+    SL_TRY_RETURN(e, sl_atmosphere_build_(atm, name, source, n, altitude_m, temperature_K, pressure_Pa_or_NULL,
+                                          h2o_mole_fraction_or_NULL, SL_ATM_WATER_DRY, e));
+    return SL_OK;
+}
+
+/* ---- built-in profiles ---------------------------------------------------- */
+
+static int cmp_double(const void *a, const void *b)
+{
+    const double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+/* The built-in level grid: every 250 m from 0 to 120 km plus the KINKS (joints
+ * of the defining segments), so the splines bend only next to a joint. */
+static int builtin_grid(const double *kinks, size_t nk, double **z_out, size_t *n_out, sl_err *e)
+{
+    const size_t ng = (size_t)(BUILTIN_TOP_M / BUILTIN_STEP_M) + 1;
+    double *z = malloc((ng + nk) * sizeof(double));
+    if (!z)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere: cannot allocate the level grid");
+    for (size_t i = 0; i < ng; i++)
+        z[i] = i * BUILTIN_STEP_M;
+    for (size_t k = 0; k < nk; k++)
+        z[ng + k] = kinks[k];
+    qsort(z, ng + nk, sizeof(double), cmp_double);
+    size_t m = 0;
+    for (size_t i = 0; i < ng + nk; i++)
+        if (m == 0 || z[i] - z[m - 1] > 1e-6)
+            z[m++] = z[i];
+    *z_out = z;
+    *n_out = m;
+    return SL_OK;
+}
+
+static int init_us1976(sl_atmosphere *atm, sl_err *e)
+{
+    double kinks[7];
+    for (int k = 1; k < 7; k++) /* geometric altitudes of the geopotential layer bases */
+        kinks[k - 1] = SL_USSA_R0_M * ussa_hb_m[k] / (SL_USSA_R0_M - ussa_hb_m[k]);
+    kinks[6] = 80000.0;
+    double *z = NULL, *t = NULL, *p = NULL;
+    size_t n = 0;
+    int rc = builtin_grid(kinks, 7, &z, &n, e);
+    if (rc == SL_OK) {
+        t = malloc(n * sizeof(double));
+        p = malloc(n * sizeof(double));
+        if (!t || !p)
+            rc = sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "atmosphere: cannot allocate us1976 levels");
+    }
+    for (size_t i = 0; rc == SL_OK && i < n; i++)
+        rc = sl_atmosphere_us1976(z[i], &t[i], &p[i], NULL, e);
+    if (rc == SL_OK)
+        rc = sl_atmosphere_build_(atm, "us1976",
+                                  "U.S. Standard Atmosphere 1976 (NOAA-S/T 76-1562) from its defining constants "
+                                  "to 86 km, steamloft hydrostatic extension to 120 km; background water model",
+                                  n, z, t, p, NULL, SL_ATM_WATER_BACKGROUND, e);
+    free(z);
+    free(t);
+    free(p);
+    return rc == SL_OK ? SL_OK : sl_err_push(e, rc, __func__, __LINE__);
+}
+
+static int init_zone(sl_atmosphere *atm, const zone_def *zd, sl_err *e)
+{
+    double kinks[32];
+    size_t nk = 0;
+    for (size_t k = 0; k < zd->n_nodes && nk < 32; k++)
+        kinks[nk++] = zd->nodes[k].altitude_km * 1e3;
+    double *z = NULL, *t = NULL;
+    size_t n = 0;
+    SL_TRY_RETURN(e, builtin_grid(kinks, nk, &z, &n, e));
+    t = malloc(n * sizeof(double));
+    if (!t) {
+        free(z);
+        SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere: cannot allocate %s levels", zd->name);
+    }
+    for (size_t i = 0; i < n; i++)
+        t[i] = zone_temperature(zd, z[i]);
+    char source[256];
+    snprintf(source, sizeof source,
+             "steamloft climate-zone profile: piecewise-linear temperature through AFGL 1986 "
+             "(AFGL-TR-86-0110) nodes, hydrostatic from %.0f Pa; background water model",
+             zd->surface_pressure_Pa);
+    /* Integrate from the zone's surface pressure: build_ starts from 101325 Pa
+     * when given no pressure, so integrate here and pass the result. */
+    double *p = malloc(n * sizeof(double));
+    int rc = p ? SL_OK : sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "atmosphere: cannot allocate levels");
+    if (rc == SL_OK) {
+        sl_atmosphere tmp;
+        memset(&tmp, 0, sizeof tmp);
+        /* Pass 1: dry hydrostatics for the markers the water model needs. */
+        p[0] = zd->surface_pressure_Pa;
+        water_src dry = {0, NULL, NULL};
+        integrate_pressure(n, z, t, &dry, p);
+        tmp.n = n;
+        tmp.altitude_m = z;
+        tmp.temperature_K = t;
+        tmp.pressure_Pa = p;
+        find_markers(&tmp);
+        /* Pass 2: moist hydrostatics with the background water. */
+        water_ctx ctx = {zd->surface_pressure_Pa, tmp.tropopause_altitude_m, tmp.stratopause_altitude_m};
+        water_src bg = {1, &ctx, NULL};
+        integrate_pressure(n, z, t, &bg, p);
+        rc = sl_atmosphere_build_(atm, zd->name, source, n, z, t, p, NULL, SL_ATM_WATER_BACKGROUND, e);
+    }
+    free(z);
+    free(t);
+    free(p);
+    return rc == SL_OK ? SL_OK : sl_err_push(e, rc, __func__, __LINE__);
+}
+
+/* Is PATH a netCDF file (classic "CDF\001|\002|\005" or HDF5 signature)? */
+static int looks_like_netcdf(const char *path, int *is_nc)
+{
+    FILE *f = fopen(path, "rb");
+    if (!f)
+        return -1;
+    unsigned char b[8] = {0};
+    size_t got = fread(b, 1, sizeof b, f);
+    fclose(f);
+    *is_nc = (got >= 4 && b[0] == 'C' && b[1] == 'D' && b[2] == 'F' && (b[3] == 1 || b[3] == 2 || b[3] == 5)) ||
+             (got >= 8 && memcmp(b, "\211HDF\r\n\032\n", 8) == 0);
+    return 0;
+}
+
+int sl_atmosphere_init(sl_atmosphere *atm, const char *name_or_path, sl_err *e)
+{
+    if (!atm || !name_or_path)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "sl_atmosphere_init: NULL argument");
+    if (strcmp(name_or_path, "us1976") == 0) {
+        SL_TRY_RETURN(e, init_us1976(atm, e));
+        return SL_OK;
+    }
+    for (size_t k = 0; k < sizeof zones / sizeof zones[0]; k++)
+        if (strcmp(name_or_path, zones[k].name) == 0) {
+            SL_TRY_RETURN(e, init_zone(atm, &zones[k], e));
+            return SL_OK;
+        }
+    int is_nc = 0;
+    if (looks_like_netcdf(name_or_path, &is_nc) != 0)
+        SL_FAIL_RETURN(e, SL_ENOINPUT,
+                       "atmosphere '%s' is neither a built-in profile (us1976, tropical, midlatitude-summer, "
+                       "midlatitude-winter, subarctic-summer, subarctic-winter) nor a readable file",
+                       name_or_path);
+    if (is_nc)
+        SL_TRY_RETURN(e, sl_atmosphere_read_netcdf_(atm, name_or_path, e));
+    else
+        SL_TRY_RETURN(e, sl_atmosphere_read_text_(atm, name_or_path, e));
+    return SL_OK;
+}
+
+/* ---- queries ------------------------------------------------------------ */
+
+int sl_atmosphere_at(const sl_atmosphere *atm, double altitude_m, sl_atmos_state *out, sl_err *e)
+{
+    if (!atm || !atm->sp || !atm->sp->temperature || atm->n < 3)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "sl_atmosphere_at: profile not initialised");
+    const double *za = atm->altitude_m;
+    if (!(altitude_m >= za[0] && altitude_m <= za[atm->n - 1]))
+        SL_FAIL_RETURN(e, SL_EDATA, "altitude %.6g m is outside atmosphere profile '%s' (%.6g to %.6g m)",
+                       altitude_m, atm->name, za[0], za[atm->n - 1]);
+    const struct sl_atmosphere_splines *sp = atm->sp;
+    /* A stack accelerator: the first evaluation does the binary search, the
+     * others reuse its interval; nothing is shared, nothing allocated. */
+    gsl_interp_accel acc = {0, 0, 0};
+    double t, dtdz, lp, x;
+    int s = gsl_interp_eval_e(sp->temperature, za, atm->temperature_K, altitude_m, &acc, &t);
+    if (s == GSL_SUCCESS)
+        s = gsl_interp_eval_deriv_e(sp->temperature, za, atm->temperature_K, altitude_m, &acc, &dtdz);
+    if (s == GSL_SUCCESS)
+        s = gsl_interp_eval_e(sp->log_pressure, za, sp->log_pressure_Pa, altitude_m, &acc, &lp);
+    if (s == GSL_SUCCESS)
+        s = gsl_interp_eval_e(sp->h2o, za, atm->h2o_mole_fraction, altitude_m, &acc, &x);
+    if (s != GSL_SUCCESS)
+        SL_FAIL_RETURN(e, SL_ENUMERIC, "atmosphere '%s' at %.6g m: interpolation failed: %s", atm->name,
+                       altitude_m, gsl_strerror(s));
+    const double p = exp(lp);
+    const double g = sl_atmosphere_gravity_m_s2(altitude_m);
+    out->altitude_m = altitude_m;
+    out->temperature_K = t;
+    out->pressure_Pa = p;
+    out->h2o_mole_fraction = x;
+    out->density_kg_m3 = sl_water_moist_air_density_kg_m3(p, t, x);
+    out->n2_per_s2 = g / t * (dtdz + g / SL_CP_DRY_AIR_J_KG_K);
+    out->ice_saturation_mole_fraction = sl_water_esat_ice_Pa(t) / p;
+    out->gravity_m_s2 = g;
+    return SL_OK;
+}
+
+void sl_atmosphere_free(sl_atmosphere *atm)
+{
+    if (!atm)
+        return;
+    if (atm->sp) {
+        gsl_interp_free(atm->sp->temperature);
+        gsl_interp_free(atm->sp->log_pressure);
+        gsl_interp_free(atm->sp->h2o);
+        free(atm->sp->log_pressure_Pa);
+        free(atm->sp);
+    }
+    free(atm->altitude_m);
+    free(atm->temperature_K);
+    free(atm->pressure_Pa);
+    free(atm->density_kg_m3);
+    free(atm->h2o_mole_fraction);
+    free(atm->n2_per_s2);
+    memset(atm, 0, sizeof *atm);
+}
