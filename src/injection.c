@@ -569,8 +569,13 @@ static int nc_scalar(int ncid, const char *path, const char *name, const char *c
     int varid, ndims;
     if (nc_inq_varid(ncid, name, &varid) != NC_NOERR)
         return SL_OK;
-    if (nc_inq_varndims(ncid, varid, &ndims) != NC_NOERR || ndims != 0)
+    if (nc_inq_varndims(ncid, varid, &ndims) != NC_NOERR || ndims != 0) {
+        /* In a full steamloft output file "time" is the box-model time axis,
+         * not the profile's time (that one is injection_time there). */
+        if (strcmp(name, "time") == 0 && ndims == 1)
+            return SL_OK;
         SL_FAIL_RETURN(e, SL_EDATA, "%s: netCDF variable %s: must be a scalar", path, name);
+    }
     double f, v;
     SL_TRY_RETURN(e, nc_units_factor(ncid, varid, path, name, accepted, factors, &f, e));
     int st = nc_get_var_double(ncid, varid, &v);

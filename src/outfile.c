@@ -218,6 +218,19 @@ int sl_outset_fclose(sl_outset *set, const char *name, FILE *fp, sl_err *e)
     return SL_OK;
 }
 
+void sl_outset_forget(sl_outset *set, const char *name)
+{
+    long i = set && set->active ? find_name(set, name) : -1;
+    if (i < 0)
+        return;
+    (void)unlink(set->stage_path[i]);
+    for (size_t k = (size_t)i; k + 1 < set->n; k++) {
+        memcpy(set->name[k], set->name[k + 1], sizeof set->name[k]);
+        memcpy(set->stage_path[k], set->stage_path[k + 1], sizeof set->stage_path[k]);
+    }
+    set->n--;
+}
+
 const char *sl_outset_final_path(const sl_outset *set, const char *name, char *buf, size_t len)
 {
     if (find_name(set, name) < 0 || !join(buf, len, set->dir, name))

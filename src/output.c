@@ -15,6 +15,8 @@
  * et al. 1999 (JGR 104, 8191) for the background water. */
 #include "steamloft/output.h"
 
+#include "steamloft/scenario.h"
+
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
@@ -59,6 +61,17 @@ const char *sl_output_references(unsigned methods, char *buf, size_t len)
         used += (size_t)n;
     }
     return buf;
+}
+
+void sl_output_params_from_provenance(const struct sl_param_value *pv, size_t n,
+                                      sl_output_param *out)
+{
+    for (size_t i = 0; i < n; i++) {
+        out[i].name = pv[i].name;
+        out[i].text = isfinite(pv[i].value) ? NULL : pv[i].text;
+        out[i].value = pv[i].value;
+        out[i].origin = pv[i].origin;
+    }
 }
 
 const char *sl_output_event_time(const sl_output_view *v)

@@ -291,6 +291,20 @@ static int global_attrs(ncw *w, const sl_output_view *v, sl_err *e)
         SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "scenario_file", v->scenario_path, e));
     if (v->regime_note && v->regime_note[0])
         SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "validity_warning", v->regime_note, e));
+    /* Where each value came from, in one attribute: "key: origin; ...". */
+    size_t used = 0;
+    buf[0] = '\0';
+    for (size_t i = 0; i < v->n_params && used + 2 < sizeof buf; i++) {
+        if (v->params[i].origin == NULL)
+            continue;
+        int n = snprintf(buf + used, sizeof buf - used, "%s%s: %s", used ? "; " : "",
+                         v->params[i].name, v->params[i].origin);
+        if (n < 0 || (size_t)n >= sizeof buf - used)
+            break;
+        used += (size_t)n;
+    }
+    if (used > 0)
+        SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "scenario_parameter_origins", buf, e));
     for (size_t i = 0; i < v->n_params; i++) {
         const sl_output_param *p = &v->params[i];
         size_t n = (size_t)snprintf(buf, NC_MAX_NAME + 1, "scenario_%s", p->name);

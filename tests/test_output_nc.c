@@ -4,190 +4,17 @@
  * overwrite without force, missing or read-only directory, no partial file)
  * are exercised on the real file system.
  *
- * The fixture is a synthetic run, not physics under test: vapour in 1-km
- * bands shaped like a Gaussian around 25 km, an isothermal hydrostatic
- * background, and a box-model series decaying as exp(-t/tau).  What is
- * checked is that these numbers survive the trip through the file exactly
- * (double precision, so rounding only) with the CF metadata that climate
- * tools rely on. */
-#include "sl_test.h"
+ * The fixture (tests/output_fixture.h) is a synthetic run, not physics under
+ * test.  What is checked is that its numbers survive the trip through the
+ * file exactly (double precision, so rounding only) with the CF metadata that
+ * climate tools rely on. */
+#include "output_fixture.h"
 
+#include "steamloft/injection.h"
 #include "steamloft/outfile.h"
 #include "steamloft/output_nc.h"
-#include "steamloft/units.h"
 
-#include <dirent.h>
 #include <errno.h>
-#include <stdio.h>
-#include <string.h>
-#include <sys/stat.h>
-#include <unistd.h>
-
-enum { NB = 60, NLEV = 31, NT = 121, NR = 3, NL = 33, NSINK = 2 };
-
-typedef struct fixture {
-    double bottom[NB], top[NB], vap[NB], ice[NB];
-    sl_injection inj;
-    double z[NLEV], T[NLEV], p[NLEV], rho[NLEV], x[NLEV], n2[NLEV];
-    sl_atmosphere atm;
-    double t_s[NT], south[NR], north[NR], lbot[NB], ltop[NB]; /* NB >= NL */
-    double excess[NT * NR * NB], xan[NT * NB], glob[NT], col[NT], pct[NT], frc[NT];
-    double sink[NSINK * NT];
-    const char *sink_names[NSINK];
-    sl_output_series series;
-    sl_output_scalar scalars[2];
-    sl_output_param params[3];
-    sl_output_view view;
-    double total_vapor_kg;
-} fixture;
-
-static fixture F;
-static char tmpdir[256];
-
-static const char *srcdir(void)
-{
-    const char *s = getenv("SL_SRCDIR");
-    return s && s[0] ? s : ".";
-}
-
-static void build_fixture(int layers_equal_bands)
-{
-    memset(&F, 0, sizeof F);
-    /* Injection: 0-60 km, 1-km bands, vapour ~ Gaussian(25 km, 3 km), 100 Tg in all. */
-    double w = 0;
-    for (int i = 0; i < NB; i++) {
-        F.bottom[i] = 1000.0 * i;
-        F.top[i] = 1000.0 * (i + 1);
-        double zc = 1000.0 * (i + 0.5);
-        F.vap[i] = exp(-0.5 * pow((zc - 25000.0) / 3000.0, 2));
-        w += F.vap[i];
-    }
-    F.total_vapor_kg = 0;
-    for (int i = 0; i < NB; i++) {
-        F.vap[i] *= 100.0e9 / w;
-        F.ice[i] = 0.1 * F.vap[i];
-        F.total_vapor_kg += F.vap[i];
-    }
-    F.inj = (sl_injection){NB, F.bottom, F.top, F.vap, F.ice, 16500.0, -20.5, 3600.0, 2.0e11};
-
-    /* Isothermal hydrostatic background, T = 250 K, scale height R T / (M g). */
-    double H = SL_GAS_CONSTANT_J_MOL_K * 250.0 / (SL_MOLAR_MASS_DRY_AIR_KG_MOL * SL_USSA_G0_M_S2);
-    for (int i = 0; i < NLEV; i++) {
-        F.z[i] = 2000.0 * i;
-        F.T[i] = 250.0;
-        F.p[i] = 101325.0 * exp(-F.z[i] / H);
-        F.rho[i] = F.p[i] * SL_MOLAR_MASS_DRY_AIR_KG_MOL / (SL_GAS_CONSTANT_J_MOL_K * F.T[i]);
-        F.x[i] = 5.0e-6;
-        F.n2[i] = 3.9e-4;
-    }
-    F.atm = (sl_atmosphere){.name = "isothermal-test", .source = "test fixture", .n = NLEV,
-                            .altitude_m = F.z, .temperature_K = F.T, .pressure_Pa = F.p,
-                            .density_kg_m3 = F.rho, .h2o_mole_fraction = F.x, .n2_per_s2 = F.n2,
-                            .tropopause_altitude_m = 16500.0, .strat_water_burden_kg = 1.4e12,
-                            .strat_water_column_kg_m2 = 1.4e12 / SL_EARTH_AREA_M2};
-
-    /* Box model: monthly for 10 years, e-folding 3 years, three regions. */
-    const double tau_s = sl_years_to_s(3.0);
-    int nl = layers_equal_bands ? NB : NL;
-    for (int l = 0; l < nl; l++) {
-        F.lbot[l] = layers_equal_bands ? F.bottom[l] : 17000.0 + 1000.0 * l;
-        F.ltop[l] = layers_equal_bands ? F.top[l] : 18000.0 + 1000.0 * l;
-    }
-    double s_[NR] = {-90, -20, 20}, n_[NR] = {-20, 20, 90}, share[NR] = {0.3, 0.5, 0.2};
-    memcpy(F.south, s_, sizeof s_);
-    memcpy(F.north, n_, sizeof n_);
-    F.sink_names[0] = "transport";
-    F.sink_names[1] = "photolysis";
-    for (int t = 0; t < NT; t++) {
-        F.t_s[t] = t * (SL_S_PER_YEAR / 12.0);
-        double f = exp(-F.t_s[t] / tau_s);
-        F.glob[t] = 0;
-        for (int r = 0; r < NR; r++)
-            for (int l = 0; l < nl; l++) {
-                double m = 100.0e9 / nl * share[r] * f;
-                F.excess[(t * NR + r) * nl + l] = m;
-                F.glob[t] += m;
-            }
-        for (int l = 0; l < nl; l++)
-            F.xan[t * nl + l] = 1.0e-6 * f;
-        F.col[t] = F.glob[t] / SL_EARTH_AREA_M2;
-        F.pct[t] = 100.0 * F.glob[t] / 1.4e12;
-        F.frc[t] = 0.1 * f;
-        F.sink[t] = 0.9 * (100.0e9 - F.glob[t]);
-        F.sink[NT + t] = 0.1 * (100.0e9 - F.glob[t]);
-    }
-    F.series = (sl_output_series){NT, NR, (size_t)nl, F.t_s, F.south, F.north, F.lbot, F.ltop,
-                                  F.excess, F.xan, F.glob, F.col, NULL, F.pct, F.frc,
-                                  NSINK, F.sink_names, F.sink};
-    F.scalars[0] = (sl_output_scalar){"efolding_time", "e-folding time of the global excess",
-                                      "s", NULL, tau_s};
-    F.scalars[1] = (sl_output_scalar){"burst_altitude", "altitude of the airburst", "m", NULL,
-                                      31300.0};
-    F.params[0] = (sl_output_param){"impactor.diameter_m", NULL, 300.0};
-    F.params[1] = (sl_output_param){"impactor.type", "stony", 0};
-    F.params[2] = (sl_output_param){"atmosphere.profile", "us1976", 0};
-    static char *argv[] = {"steamloft", "run", "my scenario.ini", "-o", "out.nc", NULL};
-    F.view = (sl_output_view){&F.inj, &F.atm, &F.series, F.scalars, 2, F.params, 3,
-                              "invented test scenario", "my scenario.ini", NULL, NULL,
-                              SL_OUTPUT_USED_ATMOSPHERE | SL_OUTPUT_USED_PLUME |
-                                  SL_OUTPUT_USED_STRAT,
-                              5, argv};
-}
-
-static void mk_tmp(void)
-{
-    snprintf(tmpdir, sizeof tmpdir, "%s/slnc.XXXXXX", getenv("TMPDIR") ? getenv("TMPDIR") : "/tmp");
-    ck_assert_ptr_nonnull(mkdtemp(tmpdir));
-    chmod(tmpdir, 0755);
-}
-
-static void rm_tmp(void)
-{
-    if (getenv("SL_TEST_KEEP")) { /* debugging: keep the files and say where */
-        printf("# kept %s\n", tmpdir);
-        return;
-    }
-    char cmd[600];
-    snprintf(cmd, sizeof cmd, "rm -rf '%s'", tmpdir);
-    if (system(cmd) != 0)
-        fprintf(stderr, "could not remove %s\n", tmpdir);
-}
-
-/* Number of entries in DIR other than . and .. (-1 if it cannot be read). */
-static int count_entries(const char *dir)
-{
-    DIR *d = opendir(dir);
-    if (!d)
-        return -1;
-    int n = 0;
-    struct dirent *de;
-    while ((de = readdir(d)))
-        if (strcmp(de->d_name, ".") && strcmp(de->d_name, ".."))
-            n++;
-    closedir(d);
-    return n;
-}
-
-/* Run a shell command, return its exit status; its output goes to OUT (may be NULL). */
-static int run_cmd(const char *cmd, char *out, size_t len)
-{
-    FILE *p = popen(cmd, "r");
-    ck_assert_ptr_nonnull(p);
-    size_t used = 0;
-    char buf[4096];
-    size_t n;
-    while ((n = fread(buf, 1, sizeof buf, p)) > 0) {
-        if (out && used + n < len) {
-            memcpy(out + used, buf, n);
-            used += n;
-        }
-        fwrite(buf, 1, n, stdout); /* visible in the test log */
-    }
-    if (out)
-        out[used] = '\0';
-    int st = pclose(p);
-    return WIFEXITED(st) ? WEXITSTATUS(st) : -1;
-}
 
 /* Write expectations derived from the fixture and run the independent reader. */
 static int check_with_python(const char *nc, const char *format, int layers_equal_bands)
@@ -226,6 +53,8 @@ static int check_with_python(const char *nc, const char *format, int layers_equa
     fprintf(f, "att . scenario_impactor_diameter_m 300\n");
     fprintf(f, "att . scenario_impactor_type stony\n");
     fprintf(f, "att . scenario_file my scenario.ini\n");
+    fprintf(f, "att . scenario_parameter_origins impactor.diameter_m: file; impactor.type: file; "
+               "atmosphere.profile: default\n");
     fprintf(f, "att altitude positive up\natt altitude axis Z\natt altitude bounds altitude_bnds\n");
     fprintf(f, "att vapor_mass_content standard_name mass_content_of_water_vapor_in_atmosphere_layer\n");
     fprintf(f, "att vapor_mass_content units kg m-2\n");
@@ -496,13 +325,38 @@ START_TEST(checker_rejects_bad_file)
              "ncgen -o '%s/bad.nc' %s/tests/tools/nc_check_bad.cdl && "
              "/usr/bin/python3 %s/tests/tools/nc_check.py '%s/bad.nc'",
              tmpdir, srcdir(), srcdir(), tmpdir);
-    ck_assert_int_eq(run_cmd(cmd, out, sizeof out), 1);
+    ck_assert_int_eq(run_cmd_echo(cmd, out, sizeof out, 0), 1); /* FAIL lines expected: not echoed */
     const char *want[] = {"contains CF-1.11", "units 'km' fit standard_name altitude",
                           "positive is up/down", "'water_vapor_mixing_ratio' is in the allowed",
                           "no ppm/ppb units", "bit-identical edges",
                           "profile sums to total_vapor_mass"};
     for (size_t i = 0; i < sizeof want / sizeof want[0]; i++)
         ck_assert_msg(strstr(out, want[i]) != NULL, "checker missed: %s", want[i]);
+    rm_tmp();
+}
+END_TEST
+
+/* The injection module's netCDF reader (written independently, for the
+ * `decay` input) reads the profile back from a full output file. */
+START_TEST(injection_reader_reads_output)
+{
+    build_fixture(0);
+    mk_tmp();
+    char nc[400];
+    snprintf(nc, sizeof nc, "%s/round.nc", tmpdir);
+    sl_err e = {0};
+    ck_assert_msg(sl_output_nc_write(&F.view, nc, NULL, &e) == SL_OK, "%s", e.msg);
+    sl_injection inj = {0};
+    ck_assert_msg(sl_injection_read(&inj, nc, &e) == SL_OK, "reader: %s", e.msg);
+    ck_assert_uint_eq(inj.n_bands, NB);
+    for (size_t i = 0; i < NB; i++) {
+        ck_assert(inj.band_bottom_m[i] == F.bottom[i] && inj.band_top_m[i] == F.top[i]);
+        ck_assert(inj.vapor_kg[i] == F.vap[i] && inj.ice_kg[i] == F.ice[i]); /* bit-exact doubles */
+    }
+    ck_assert(inj.tropopause_altitude_m == F.inj.tropopause_altitude_m);
+    ck_assert(inj.latitude_deg == F.inj.latitude_deg);
+    ck_assert(inj.cloud_area_m2 == F.inj.cloud_area_m2);
+    sl_injection_free(&inj);
     rm_tmp();
 }
 END_TEST
@@ -521,6 +375,7 @@ static Suite *suite(void)
     tcase_add_test(tc, netcdf_error_leaves_nothing);
     tcase_add_test(tc, outset_all_or_nothing);
     tcase_add_test(tc, checker_rejects_bad_file);
+    tcase_add_test(tc, injection_reader_reads_output);
     suite_add_tcase(s, tc);
     TCase *ro = tcase_create("read_only");
     tcase_add_unchecked_fixture(ro, ro_setup, ro_teardown);

@@ -73,6 +73,12 @@ int sl_outset_fopen(sl_outset *set, const char *name, FILE **fp, sl_err *e);
  * failure. */
 int sl_outset_fclose(sl_outset *set, const char *name, FILE *fp, sl_err *e);
 
+/* Take NAME out of the set again (its staged file, if written, is deleted).
+ * For outputs that turn out not to be produced (plots without gnuplot).
+ * Unknown names are ignored.  Stage paths handed out for names added after
+ * NAME are invalidated (they move up one slot). */
+void sl_outset_forget(sl_outset *set, const char *name);
+
 /* The final path of NAME in the destination (for messages), or NULL. */
 const char *sl_outset_final_path(const sl_outset *set, const char *name, char *buf, size_t len);
 

@@ -52,10 +52,18 @@ typedef struct sl_output_scalar {
 
 /* One scenario parameter as it was used (after defaults), for provenance. */
 typedef struct sl_output_param {
-    const char *name;  /* "section.key" or "key", e.g. "impactor.diameter_m" */
-    const char *text;  /* text value, or NULL for a number */
-    double value;      /* the number (in the unit its key names) when text is NULL */
+    const char *name;   /* "section.key" or "key", e.g. "impactor.diameter_m" */
+    const char *text;   /* text value, or NULL for a number */
+    double value;       /* the number (in the unit its key names) when text is NULL */
+    const char *origin; /* "file", "default", "derived", "set", or NULL when not known */
 } sl_output_param;
+
+struct sl_param_value;
+/* Fill OUT[0..N-1] from the scenario provenance records PV (scenario.h):
+ * text values stay text, numbers are given in their key's unit.  OUT points
+ * into PV, which must outlive it. */
+void sl_output_params_from_provenance(const struct sl_param_value *pv, size_t n,
+                                      sl_output_param *out);
 
 /* Which published methods the run used (for the references attribute). */
 enum {

@@ -1,0 +1,36 @@
+/* output_csv: the results of one run as CSV files for spreadsheets and
+ * scripts (the CSV part of the text outputs; the stdout summary is in
+ * output_text).
+ *
+ * `--csv DIR` writes, through the outfile module (all files or none; no
+ * overwrite without force; DIR is created if its parent exists):
+ *   profile.csv        bottom_km, top_km, vapor_Tg, ice_Tg: one row per band, with
+ *                      "# key = value" metadata lines (tropopause_altitude_km,
+ *                      latitude_deg, time_s, cloud_area_m2).  This is exactly the
+ *                      prescribed-profile format sl_injection_read accepts, so a
+ *                      run's profile can be fed to `decay` or edited and re-run.
+ *   background.csv     altitude_km, temperature_K, pressure_Pa, density_kg_m3,
+ *                      h2o_ppmv, n2_per_s2 (when the view has an atmosphere)
+ *   series.csv         time_days, time_years, global_excess_Tg, then the optional
+ *                      columns percent_of_background, column_anomaly_kg_m2,
+ *                      column_anomaly_precip_um, local_column_anomaly_kg_m2,
+ *                      forcing_W_m2, removed_<sink>_Tg (when the view has a series)
+ *   series_layers.csv  long format, one row per time and layer: time_days,
+ *                      layer_bottom_km, layer_top_km, mole_fraction_anomaly_ppmv (if
+ *                      given), then excess_Tg_<region> per latitude region
+ * Every column name ends in its unit; comment lines start with '#', carry the
+ * tool version and the caution, and never contain '=' except the metadata
+ * lines.  Numbers are printed with 10 significant digits (the netCDF file holds
+ * the full double precision). */
+#ifndef STEAMLOFT_OUTPUT_CSV_H
+#define STEAMLOFT_OUTPUT_CSV_H
+
+#include "steamloft/err.h"
+#include "steamloft/output.h"
+
+/* Write the CSV files of view V into DIR.  Errors: SL_ECANTCREAT (DIR's
+ * parent missing, DIR not writable, a file exists without FORCE), SL_EIO,
+ * SL_EINTERNAL (bad view).  On error nothing is left behind. */
+int sl_output_csv_write(const sl_output_view *v, const char *dir, int force, sl_err *e);
+
+#endif

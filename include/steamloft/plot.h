@@ -1,0 +1,47 @@
+/* plot: gnuplot data files and an editable script for one run, rendered to
+ * SVG and PNG when gnuplot is installed.
+ *
+ * `--plot DIR` writes, all together or not at all (outfile module):
+ *   profile.dat   band centre, bottom and top (km); lofted vapour and ice per km
+ *                 of altitude (Tg km-1: band mass / band depth, so bands of any
+ *                 width compare); columns carry units in a '#' header
+ *   background.dat  background water per km of altitude over the whole Earth
+ *                 (Tg km-1) and its mole fraction (ppmv), at the profile levels
+ *   decay.dat     time (years), global excess and excess per latitude region (Tg),
+ *                 percent of background
+ *   column.dat    time (years), global-mean and local column anomaly (precipitable um)
+ *   steamloft.gp  the script: `gnuplot steamloft.gp` in DIR redraws everything;
+ *                 colours, sizes and labels are variables at its top
+ *   profile.svg/png  lofted water against altitude, tropopause and background marked
+ *   decay.svg/png    the excess over years (with a series)
+ *   column.svg/png   the column anomaly over years (with a series)
+ * gnuplot runs with posix_spawnp (no shell) in a private staging directory;
+ * when it is not installed, or fails, the data and the script are still
+ * written and a warning (not an error) is returned. */
+#ifndef STEAMLOFT_PLOT_H
+#define STEAMLOFT_PLOT_H
+
+#include "steamloft/err.h"
+#include "steamloft/output.h"
+
+typedef struct sl_plot_options {
+    int force;           /* replace existing files */
+    int render;          /* 1: run gnuplot to make SVG and PNG; 0: data and script only */
+    const char *gnuplot; /* program to run (searched in PATH); NULL: "gnuplot" */
+} sl_plot_options;
+
+typedef struct sl_plot_result {
+    int rendered;        /* 1 when every SVG and PNG was produced */
+    size_t n_files;      /* files written into DIR */
+    char warning[512];   /* non-empty when rendering was skipped or failed (not an error) */
+} sl_plot_result;
+
+/* Write the plot files of view V into DIR (created when its parent exists).
+ * Errors: SL_ECANTCREAT (directory, or a file exists without force), SL_EIO,
+ * SL_EINTERNAL (bad view), SL_ENOMEM.  A missing or failing gnuplot is not an
+ * error: RES->warning says why and the data and script are still written.
+ * RES may be NULL. */
+int sl_plot_write(const sl_output_view *v, const char *dir, const sl_plot_options *opt,
+                  sl_plot_result *res, sl_err *e);
+
+#endif

@@ -1,0 +1,196 @@
+/* output_csv: CSV files of one run (see include/steamloft/output_csv.h).
+ *
+ * Only boundary unit conversions happen here, through units.h: altitudes m ->
+ * km, masses kg -> Tg (1 Tg = 1e9 kg), time s -> days and Julian years
+ * (365.25 d), mole fraction -> ppmv (1e-6 mol mol-1; allowed in CSV, which
+ * carries no CF standard names), column kg m-2 -> precipitable micrometres
+ * (1 um of liquid water = 1e-3 kg m-2, water density 1000 kg m-3 by
+ * convention). */
+#include "steamloft/output_csv.h"
+
+#include "steamloft/cli.h"
+#include "steamloft/outfile.h"
+#include "steamloft/units.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* A comment line with any '=' replaced by ':' (the profile reader treats
+ * "# key = value" as metadata). */
+static void comment(FILE *fp, const char *text)
+{
+    fputs("# ", fp);
+    for (const char *c = text; *c; c++)
+        fputc(*c == '=' ? ':' : (*c == '\n' ? ' ' : *c), fp);
+    fputc('\n', fp);
+}
+
+static void preamble(FILE *fp, const sl_output_view *v, const char *what)
+{
+    char buf[512];
+    snprintf(buf, sizeof buf, "%s: %s", what, v->title && v->title[0] ? v->title : "steamloft run");
+    comment(fp, buf);
+    snprintf(buf, sizeof buf, "written by %s", sl_cli_version());
+    comment(fp, buf);
+    comment(fp, sl_cli_caution());
+    if (v->regime_note && v->regime_note[0]) {
+        snprintf(buf, sizeof buf, "validity: %s", v->regime_note);
+        comment(fp, buf);
+    }
+}
+
+static void lat_label(double deg, char *buf, size_t len)
+{
+    if (deg == 0)
+        snprintf(buf, len, "0");
+    else
+        snprintf(buf, len, "%g%c", fabs(deg), deg < 0 ? 'S' : 'N');
+}
+
+static void write_profile(FILE *fp, const sl_output_view *v)
+{
+    const sl_injection *inj = v->inj;
+    double tv = 0, ti = 0;
+    for (size_t i = 0; i < inj->n_bands; i++) {
+        tv += inj->vapor_kg[i];
+        ti += inj->ice_kg[i];
+    }
+    preamble(fp, v, "steamloft injection profile (lofted water per altitude band)");
+    char buf[256];
+    snprintf(buf, sizeof buf, "total vapour %.10g Tg, total ice %.10g Tg, %zu bands",
+             sl_kg_to_tg(tv), sl_kg_to_tg(ti), inj->n_bands);
+    comment(fp, buf);
+    comment(fp, "columns: band bottom and top (km above mean sea level), water vapour and "
+                "condensed water (ice and liquid) in the band (Tg; totals per band, not rates)");
+    if (isfinite(inj->tropopause_altitude_m))
+        fprintf(fp, "# tropopause_altitude_km = %.10g\n", sl_m_to_km(inj->tropopause_altitude_m));
+    fprintf(fp, "# latitude_deg = %.10g\n", inj->latitude_deg);
+    fprintf(fp, "# time_s = %.10g\n", inj->time_s);
+    if (inj->cloud_area_m2 > 0)
+        fprintf(fp, "# cloud_area_m2 = %.10g\n", inj->cloud_area_m2);
+    fputs("bottom_km,top_km,vapor_Tg,ice_Tg\n", fp);
+    for (size_t i = 0; i < inj->n_bands; i++)
+        fprintf(fp, "%.10g,%.10g,%.10g,%.10g\n", sl_m_to_km(inj->band_bottom_m[i]),
+                sl_m_to_km(inj->band_top_m[i]), sl_kg_to_tg(inj->vapor_kg[i]),
+                sl_kg_to_tg(inj->ice_kg[i]));
+}
+
+static void write_background(FILE *fp, const sl_output_view *v)
+{
+    const sl_atmosphere *a = v->atm;
+    preamble(fp, v, "steamloft background atmosphere used");
+    char buf[512];
+    snprintf(buf, sizeof buf, "profile %s (%s); tropopause %.10g km", a->name,
+             a->source[0] ? a->source : "no source given", sl_m_to_km(a->tropopause_altitude_m));
+    comment(fp, buf);
+    fputs("altitude_km,temperature_K,pressure_Pa,density_kg_m3,h2o_ppmv,n2_per_s2\n", fp);
+    for (size_t i = 0; i < a->n; i++)
+        fprintf(fp, "%.10g,%.10g,%.10g,%.10g,%.10g,%.10g\n", sl_m_to_km(a->altitude_m[i]),
+                a->temperature_K[i], a->pressure_Pa[i], a->density_kg_m3[i],
+                sl_mole_fraction_to_ppmv(a->h2o_mole_fraction[i]), a->n2_per_s2[i]);
+}
+
+static void write_series(FILE *fp, const sl_output_view *v)
+{
+    const sl_output_series *s = v->series;
+    preamble(fp, v, "steamloft stratospheric box model: global time series");
+    comment(fp, "time after the event in days and Julian years (365.25 d); excess water remaining "
+                "in the stratosphere (Tg); removed_*: cumulative mass removed by each path (Tg)");
+    fputs("time_days,time_years,global_excess_Tg", fp);
+    if (s->percent_of_background)
+        fputs(",percent_of_background", fp);
+    if (s->column_anomaly_kg_m2)
+        fputs(",column_anomaly_kg_m2,column_anomaly_precip_um", fp);
+    if (s->local_column_anomaly_kg_m2)
+        fputs(",local_column_anomaly_kg_m2", fp);
+    if (s->forcing_W_m2)
+        fputs(",forcing_W_m2", fp);
+    for (size_t k = 0; k < s->n_sink; k++)
+        fprintf(fp, ",removed_%s_Tg", s->sink_name[k]);
+    fputc('\n', fp);
+    for (size_t t = 0; t < s->n_time; t++) {
+        fprintf(fp, "%.10g,%.10g,%.10g", sl_s_to_days(s->time_s[t]), sl_s_to_years(s->time_s[t]),
+                sl_kg_to_tg(s->global_excess_kg[t]));
+        if (s->percent_of_background)
+            fprintf(fp, ",%.10g", s->percent_of_background[t]);
+        if (s->column_anomaly_kg_m2)
+            fprintf(fp, ",%.10g,%.10g", s->column_anomaly_kg_m2[t],
+                    sl_kg_m2_to_precip_um(s->column_anomaly_kg_m2[t]));
+        if (s->local_column_anomaly_kg_m2)
+            fprintf(fp, ",%.10g", s->local_column_anomaly_kg_m2[t]);
+        if (s->forcing_W_m2)
+            fprintf(fp, ",%.10g", s->forcing_W_m2[t]);
+        for (size_t k = 0; k < s->n_sink; k++)
+            fprintf(fp, ",%.10g", sl_kg_to_tg(s->sink_kg[k * s->n_time + t]));
+        fputc('\n', fp);
+    }
+}
+
+static void write_series_layers(FILE *fp, const sl_output_view *v)
+{
+    const sl_output_series *s = v->series;
+    preamble(fp, v, "steamloft stratospheric box model: excess water by time, layer and region");
+    comment(fp, "one row per time and layer; mole_fraction_anomaly_ppmv is the global-mean "
+                "excess; excess_Tg_<south>_<north> is the excess mass in that latitude region");
+    fputs("time_days,layer_bottom_km,layer_top_km", fp);
+    if (s->mole_fraction_anomaly)
+        fputs(",mole_fraction_anomaly_ppmv", fp);
+    for (size_t r = 0; r < s->n_region; r++) {
+        char a[32], b[32];
+        lat_label(s->region_south_deg[r], a, sizeof a);
+        lat_label(s->region_north_deg[r], b, sizeof b);
+        fprintf(fp, ",excess_Tg_%s_%s", a, b);
+    }
+    fputc('\n', fp);
+    for (size_t t = 0; t < s->n_time; t++)
+        for (size_t l = 0; l < s->n_layer; l++) {
+            fprintf(fp, "%.10g,%.10g,%.10g", sl_s_to_days(s->time_s[t]),
+                    sl_m_to_km(s->layer_bottom_m[l]), sl_m_to_km(s->layer_top_m[l]));
+            if (s->mole_fraction_anomaly)
+                fprintf(fp, ",%.10g",
+                        sl_mole_fraction_to_ppmv(s->mole_fraction_anomaly[t * s->n_layer + l]));
+            for (size_t r = 0; r < s->n_region; r++)
+                fprintf(fp, ",%.10g",
+                        sl_kg_to_tg(s->excess_kg[(t * s->n_region + r) * s->n_layer + l]));
+            fputc('\n', fp);
+        }
+}
+
+typedef void (*writer_fn)(FILE *, const sl_output_view *);
+
+static int one_file(sl_outset *set, const char *name, writer_fn fn, const sl_output_view *v,
+                    sl_err *e)
+{
+    FILE *fp = NULL;
+    SL_TRY_RETURN(e, sl_outset_fopen(set, name, &fp, e));
+    fn(fp, v);
+    SL_TRY_RETURN(e, sl_outset_fclose(set, name, fp, e));
+    return SL_OK;
+}
+
+int sl_output_csv_write(const sl_output_view *v, const char *dir, int force, sl_err *e)
+{
+    SL_TRY_RETURN(e, sl_output_view_check(v, e));
+    sl_outset *set = calloc(1, sizeof *set);
+    if (set == NULL)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "writing CSV into '%s': out of memory", dir);
+    int rc = sl_outset_begin(set, dir, force, 1, e);
+    if (rc == SL_OK)
+        rc = one_file(set, "profile.csv", write_profile, v, e);
+    if (rc == SL_OK && v->atm)
+        rc = one_file(set, "background.csv", write_background, v, e);
+    if (rc == SL_OK && v->series)
+        rc = one_file(set, "series.csv", write_series, v, e);
+    if (rc == SL_OK && v->series)
+        rc = one_file(set, "series_layers.csv", write_series_layers, v, e);
+    if (rc == SL_OK)
+        rc = sl_outset_commit(set, e);
+    if (rc != SL_OK) {
+        sl_outset_abort(set);
+        sl_err_push(e, rc, __func__, __LINE__);
+    }
+    free(set);
+    return rc;
+}

@@ -1,0 +1,169 @@
+/* Tests of output_csv: the files are read back by code that shares nothing
+ * with the writer: profile.csv by the injection module's prescribed-profile
+ * reader (sl_injection_read, written independently for the `decay` input)
+ * and the series by Python's csv module (/usr/bin/python3).  Numbers carry 10
+ * significant digits, so a value read back is within 5e-10 relative of the
+ * run's (half a unit in the 10th digit: DERIVED from the print format). */
+#include "output_fixture.h"
+
+#include "steamloft/injection.h"
+#include "steamloft/output_csv.h"
+
+START_TEST(profile_reads_back_as_injection)
+{
+    build_fixture(0);
+    F.view.title = "a title with key = value inside"; /* must not become metadata */
+    mk_tmp();
+    char dir[400], path[500];
+    snprintf(dir, sizeof dir, "%s/csv", tmpdir);
+    sl_err e = {0};
+    ck_assert_msg(sl_output_csv_write(&F.view, dir, 0, &e) == SL_OK, "%s", e.msg);
+    ck_assert_int_eq(count_entries(dir), 4); /* profile, background, series, series_layers */
+
+    snprintf(path, sizeof path, "%s/profile.csv", dir);
+    sl_injection inj = {0};
+    ck_assert_msg(sl_injection_read(&inj, path, &e) == SL_OK, "reader: %s", e.msg);
+    ck_assert_uint_eq(inj.n_bands, NB);
+    double sum = 0;
+    for (size_t i = 0; i < NB; i++) {
+        SL_CK_ABS(inj.band_bottom_m[i], F.bottom[i], 1e-6); /* whole km: exact in 10 digits */
+        SL_CK_ABS(inj.band_top_m[i], F.top[i], 1e-6);
+        SL_CK_REL(inj.vapor_kg[i], F.vap[i], 5e-10);
+        SL_CK_REL(inj.ice_kg[i], F.ice[i], 5e-10);
+        sum += inj.vapor_kg[i];
+    }
+    SL_CK_REL(sum, F.total_vapor_kg, 5e-10); /* the profile sums to the run's total */
+    SL_CK_REL(inj.tropopause_altitude_m, F.inj.tropopause_altitude_m, 1e-12);
+    SL_CK_REL(inj.latitude_deg, F.inj.latitude_deg, 1e-12);
+    SL_CK_REL(inj.time_s, F.inj.time_s, 1e-12);
+    SL_CK_REL(inj.cloud_area_m2, F.inj.cloud_area_m2, 1e-12);
+    sl_injection_free(&inj);
+
+    /* Unit header and caution. */
+    char out[4096], cmd[1200];
+    snprintf(cmd, sizeof cmd, "grep -v '^#' '%s' | head -1; grep -c 'Screening estimate' '%s'",
+             path, path);
+    ck_assert_int_eq(run_cmd(cmd, out, sizeof out), 0);
+    ck_assert_str_eq(out, "bottom_km,top_km,vapor_Tg,ice_Tg\n1\n");
+    rm_tmp();
+}
+END_TEST
+
+/* The series files, read by Python's csv module. */
+START_TEST(series_read_by_python)
+{
+    build_fixture(0);
+    mk_tmp();
+    char dir[400];
+    snprintf(dir, sizeof dir, "%s/csv", tmpdir);
+    sl_err e = {0};
+    ck_assert_msg(sl_output_csv_write(&F.view, dir, 0, &e) == SL_OK, "%s", e.msg);
+    char cmd[2000], out[4096];
+    snprintf(cmd, sizeof cmd,
+             "/usr/bin/python3 -c \"\n"
+             "import csv\n"
+             "rows = [r for r in csv.DictReader(l for l in open('%s/series.csv') if not l.startswith('#'))]\n"
+             "r = rows[36]\n"
+             "print(len(rows), r['time_years'], r['global_excess_Tg'], r['removed_transport_Tg'],"
+             " r['removed_photolysis_Tg'], r['column_anomaly_precip_um'])\n"
+             "lay = [r for r in csv.DictReader(l for l in open('%s/series_layers.csv') if not l.startswith('#'))]\n"
+             "print(len(lay), ' '.join(k for k in lay[0].keys()))\n"
+             "print(lay[7 * %d + 4]['excess_Tg_20N_90N'])\n"
+             "\"",
+             dir, dir, NL);
+    ck_assert_int_eq(run_cmd(cmd, out, sizeof out), 0);
+    int nrows, nlay;
+    double yr, glob_tg, tr_tg, ph_tg, col_um, exc_tg;
+    char keys[512];
+    ck_assert_int_eq(sscanf(out, "%d %lf %lf %lf %lf %lf %d %511[^\n] %lf", &nrows, &yr, &glob_tg,
+                            &tr_tg, &ph_tg, &col_um, &nlay, keys, &exc_tg), 9);
+    ck_assert_int_eq(nrows, NT);
+    SL_CK_REL(yr, 3.0, 1e-12); /* row 36 = 36 months of Julian years */
+    SL_CK_REL(glob_tg * 1e9, F.glob[36], 5e-10);
+    /* Mass closure survives the file: remaining + removed = injected 100 Tg (fixture budget). */
+    SL_CK_REL(glob_tg + tr_tg + ph_tg, 100.0, 2e-9);
+    /* Precipitable depth: kg m-2 / 1000 kg m-3 in um (DERIVED from the definition). */
+    SL_CK_REL(col_um, F.col[36] * 1e3, 5e-10);
+    ck_assert_int_eq(nlay, NT * NL);
+    ck_assert_str_eq(keys, "time_days layer_bottom_km layer_top_km mole_fraction_anomaly_ppmv "
+                           "excess_Tg_90S_20S excess_Tg_20S_20N excess_Tg_20N_90N");
+    SL_CK_REL(exc_tg * 1e9, F.excess[(7 * NR + 2) * NL + 4], 5e-10);
+    rm_tmp();
+}
+END_TEST
+
+START_TEST(refuses_overwrite_and_missing_parent)
+{
+    build_fixture(0);
+    mk_tmp();
+    char dir[400], bad[500];
+    snprintf(dir, sizeof dir, "%s/csv", tmpdir);
+    sl_err e = {0};
+    ck_assert_int_eq(sl_output_csv_write(&F.view, dir, 0, &e), SL_OK);
+    struct stat before, after;
+    char prof[500];
+    snprintf(prof, sizeof prof, "%s/profile.csv", dir);
+    ck_assert_int_eq(stat(prof, &before), 0);
+    int rc = sl_output_csv_write(&F.view, dir, 0, &e);
+    ck_assert_int_eq(rc, SL_ECANTCREAT);
+    ck_assert_int_eq(sl_err_exit_code(rc), 73);
+    ck_assert_msg(strstr(e.msg, "profile.csv") && strstr(e.msg, "--force"), "%s", e.msg);
+    ck_assert_int_eq(count_entries(dir), 4);
+    ck_assert_int_eq(stat(prof, &after), 0);
+    ck_assert(before.st_ino == after.st_ino); /* the same file, untouched */
+    ck_assert_int_eq(sl_output_csv_write(&F.view, dir, 1, &e), SL_OK); /* --force */
+    ck_assert_int_eq(count_entries(dir), 4);
+
+    snprintf(bad, sizeof bad, "%s/missing/parent/csv", tmpdir);
+    rc = sl_output_csv_write(&F.view, bad, 0, &e);
+    ck_assert_int_eq(rc, SL_ECANTCREAT);
+    ck_assert_msg(strstr(e.msg, "missing/parent") != NULL, "names the path: %s", e.msg);
+    ck_assert_int_eq(count_entries(tmpdir), 1); /* only csv/ */
+    rm_tmp();
+}
+END_TEST
+
+/* Without a series or atmosphere only the profile is written. */
+START_TEST(profile_only)
+{
+    build_fixture(0);
+    F.view.series = NULL;
+    F.view.atm = NULL;
+    mk_tmp();
+    sl_err e = {0};
+    ck_assert_msg(sl_output_csv_write(&F.view, tmpdir, 0, &e) == SL_OK, "%s", e.msg);
+    ck_assert_int_eq(count_entries(tmpdir), 1);
+    rm_tmp();
+}
+END_TEST
+
+/* The shipped prescribed-profile example loads and holds what its comment says. */
+START_TEST(example_profile_loads)
+{
+    char path[600];
+    snprintf(path, sizeof path, "%s/examples/injection-profile.csv", srcdir());
+    sl_injection inj = {0};
+    sl_err e = {0};
+    ck_assert_msg(sl_injection_read(&inj, path, &e) == SL_OK, "%s", e.msg);
+    SL_CK_REL(sl_injection_total_vapor_kg(&inj), 60e9, 1e-12); /* "60 Tg of water vapour" */
+    SL_CK_REL(sl_injection_total_ice_kg(&inj), 6e9, 1e-12);    /* "6 Tg of ice" */
+    SL_CK_REL(inj.tropopause_altitude_m, 16500.0, 1e-12);
+    sl_injection_free(&inj);
+}
+END_TEST
+
+static Suite *suite(void)
+{
+    Suite *s = suite_create("output_csv");
+    TCase *tc = tcase_create("csv");
+    tcase_set_timeout(tc, 60);
+    tcase_add_test(tc, profile_reads_back_as_injection);
+    tcase_add_test(tc, series_read_by_python);
+    tcase_add_test(tc, refuses_overwrite_and_missing_parent);
+    tcase_add_test(tc, profile_only);
+    tcase_add_test(tc, example_profile_loads);
+    suite_add_tcase(s, tc);
+    return s;
+}
+
+SL_TEST_MAIN(suite)
