@@ -92,6 +92,14 @@ check-symbols: $(LIB)
 	if [ -n "$$bad" ]; then echo "check-symbols: exported without sl_ prefix:"; echo "$$bad"; exit 1; fi; \
 	echo "check-symbols: all exported symbols start with sl_"
 
+# A benchmark, not a timed test: full-chain scenarios per second on 1 and 2
+# threads, peak memory and the per-stage time split (scripts/bench.sh).
+bench: ensure-deps
+	@$(MAKE) --no-print-directory bench-run
+
+bench-run: $(BIN)
+	@scripts/bench.sh $(BUILD)
+
 sanitize: ensure-deps
 	@$(MAKE) --no-print-directory BUILD=build-sanitize OPENMP=$(OPENMP) \
 	  CFLAGS="-O1 -g -fsanitize=address,undefined -fno-sanitize-recover=undefined -fno-omit-frame-pointer" \
