@@ -217,7 +217,7 @@ static double pressure_for_fraction(double x_target, double t0)
     return exp(hi);
 }
 
-enum { N_SHELLS = 240 };
+enum { N_SHELLS = 120 };
 
 /* Waste heat of a water half-space (no floor) under the pressure field
  * P_ic inside r_ic, P_ic (r/r_ic)^-n outside, out to where it falls to
@@ -266,7 +266,7 @@ static int shock_vapor(sl_partition *pt, const sl_partition_input *in, double *v
         double lo = n, hi = n;
         while (halfspace_waste_heat_J(p_ic, r_ic, hi, p_end) > e_target && hi < 1e3)
             hi *= 2.0;
-        for (int it = 0; it < 60 && hi - lo > 1e-6 * hi; it++) {
+        for (int it = 0; it < 60 && hi - lo > 1e-5 * hi; it++) {
             double mid = 0.5 * (lo + hi);
             if (halfspace_waste_heat_J(p_ic, r_ic, mid, p_end) > e_target)
                 lo = mid;

@@ -122,6 +122,10 @@ int sl_entry_solve(sl_entry *en, const sl_entry_params *p, const sl_entry_air *a
 /* Energy deposited in the air between BOTTOM_M and TOP_M (bands split in proportion). */
 double sl_entry_energy_between(const sl_entry *en, double bottom_m, double top_m);
 
+/* Energy-weighted mean altitude of the energy deposited in the air (NaN when
+ * none was). */
+double sl_entry_deposition_centroid_m(const sl_entry *en);
+
 /* Release the workspace and the bands; safe on a zeroed struct. */
 void sl_entry_free(sl_entry *en);
 

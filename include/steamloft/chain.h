@@ -1,0 +1,41 @@
+/* chain: the stages of steamloft run in order for one scenario:
+ *   scenario -> atmosphere -> entry (impactors) -> partition -> sources
+ * (later stages, plume and box model, add their members and calls here).
+ *
+ * An sl_chain is reusable: zero it once, call sl_chain_run() as many times
+ * as wanted (an ensemble calls it once per member), then sl_chain_free().
+ * The atmosphere is loaded on the first run and kept while later scenarios
+ * name the same profile; the entry workspace is allocated once.  No global
+ * state: one chain per thread. */
+#ifndef STEAMLOFT_CHAIN_H
+#define STEAMLOFT_CHAIN_H
+
+#include "steamloft/atmosphere.h"
+#include "steamloft/entry.h"
+#include "steamloft/err.h"
+#include "steamloft/partition.h"
+#include "steamloft/scenario.h"
+
+typedef struct sl_chain {
+    sl_scenario scenario;          /* copy of the scenario last run */
+    sl_atmosphere atmosphere;      /* the background profile */
+    int have_atmosphere;
+    char atmosphere_name[SL_SCENARIO_RAW_LEN]; /* what it was loaded from */
+    sl_entry entry;                /* valid when has_entry */
+    int has_entry;                 /* the scenario is an [impactor] */
+    double air_source_altitude_m;  /* where the air's share was released */
+    sl_partition partition;        /* energy shares and the plume sources */
+} sl_chain;
+
+/* Run every stage for the finished scenario SC into CH.  On failure CH keeps
+ * what it had allocated (sl_chain_free releases it) and E says which stage
+ * failed and why. */
+int sl_chain_run(const sl_scenario *sc, sl_chain *ch, sl_err *e);
+
+/* The sources handed to the plume stage (valid after a successful run). */
+const sl_source_list *sl_chain_sources(const sl_chain *ch);
+
+/* Release everything; safe on a zeroed or half-run chain. */
+void sl_chain_free(sl_chain *ch);
+
+#endif

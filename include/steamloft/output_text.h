@@ -1,0 +1,52 @@
+/* output_text: the summary of a run, as a readable table or as JSON.
+ *
+ * Both formats come from one list of calls on an sl_report: each quantity is
+ * emitted once with its JSON key (SI, unit in the key: energy_J), and a label
+ * plus a display factor and unit for people (energy in Mt, altitudes in km).
+ * NaN prints as null in JSON and "none" in text.  Later stages add their
+ * quantities by adding calls in sl_output_text_summary (or a function of
+ * their own called from it) with the same helpers.
+ *
+ * Every report carries the caution (sl_cli_caution()). */
+#ifndef STEAMLOFT_OUTPUT_TEXT_H
+#define STEAMLOFT_OUTPUT_TEXT_H
+
+#include <stdio.h>
+
+#include "steamloft/chain.h"
+#include "steamloft/err.h"
+
+enum { SL_REPORT_MAX_DEPTH = 8 };
+
+typedef struct sl_report {
+    FILE *out;
+    int json;                         /* 1 JSON, 0 text */
+    int depth;                        /* nesting of JSON objects/arrays */
+    int count[SL_REPORT_MAX_DEPTH];   /* members written at each depth */
+    int in_array[SL_REPORT_MAX_DEPTH];
+    int text_indent;
+} sl_report;
+
+/* Start a report on OUT (opens the top-level JSON object). */
+void sl_report_begin(sl_report *r, FILE *out, int json);
+/* Close it; SL_EIO when writing failed. */
+int sl_report_end(sl_report *r, sl_err *e);
+/* A heading in text (nothing in JSON). */
+void sl_report_heading(sl_report *r, const char *title);
+/* A number: JSON "KEY": VALUE_SI; text "LABEL  VALUE_SI*FACTOR UNIT". */
+void sl_report_number(sl_report *r, const char *key, double value_si, const char *label, double factor,
+                      const char *unit);
+void sl_report_bool(sl_report *r, const char *key, int value, const char *label);
+void sl_report_string(sl_report *r, const char *key, const char *value, const char *label);
+/* Nested JSON object / array (KEY is NULL for an element of an array); in
+ * text, LABEL starts an indented block. */
+void sl_report_begin_object(sl_report *r, const char *key, const char *label);
+void sl_report_end_object(sl_report *r);
+void sl_report_begin_array(sl_report *r, const char *key, const char *label);
+void sl_report_end_array(sl_report *r);
+
+/* The summary of a finished chain: event, entry, partition, sources, the
+ * resolved parameters (JSON only) and the caution. */
+int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, sl_err *e);
+
+#endif

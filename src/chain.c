@@ -1,0 +1,126 @@
+/* chain: the stages in order for one scenario (see include/steamloft/chain.h).
+ *
+ * Between the atmosphere and the entry sits the air-density adapter: the
+ * entry asks for the density at any altitude, also a little below the lowest
+ * level (Runge-Kutta stages overshoot the sea-level event) or above the top of
+ * the profile; there the density is continued exponentially with the local
+ * density scale height, H = R T / g, evaluated at the end level, which is the
+ * isothermal hydrostatic continuation of the profile. */
+#include "steamloft/chain.h"
+#include "steamloft/units.h"
+#include "steamloft/water.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+
+typedef struct air_ctx {
+    const sl_atmosphere *atm;
+} air_ctx;
+
+static int atmosphere_density(void *ctx, double altitude_m, double *rho, sl_err *e)
+{
+    const sl_atmosphere *atm = ((const air_ctx *)ctx)->atm;
+    double lo = atm->altitude_m[0], hi = atm->altitude_m[atm->n - 1];
+    double h = altitude_m < lo ? lo : (altitude_m > hi ? hi : altitude_m);
+    sl_atmos_state s;
+    SL_TRY_RETURN(e, sl_atmosphere_at(atm, h, &s, e));
+    *rho = s.density_kg_m3;
+    if (h != altitude_m) {
+        double scale_m = SL_R_DRY_AIR_J_KG_K * s.temperature_K / s.gravity_m_s2;
+        *rho *= exp(-(altitude_m - h) / scale_m);
+    }
+    return SL_OK;
+}
+
+/* Ambient air for a source at ALTITUDE_M (clamped into the profile). */
+static int ambient(const sl_atmosphere *atm, double altitude_m, sl_partition_air *out, sl_err *e)
+{
+    double lo = atm->altitude_m[0], hi = atm->altitude_m[atm->n - 1];
+    double h = fmin(fmax(altitude_m, lo), hi);
+    sl_atmos_state s;
+    SL_TRY_RETURN(e, sl_atmosphere_at(atm, h, &s, e));
+    out->temperature_K = s.temperature_K;
+    out->pressure_Pa = s.pressure_Pa;
+    out->density_kg_m3 = s.density_kg_m3;
+    return SL_OK;
+}
+
+static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
+{
+    const char *name = sl_scenario_text(sc, SL_P_SITE_ATMOSPHERE);
+    if (ch->have_atmosphere && strcmp(ch->atmosphere_name, name) == 0)
+        return SL_OK;
+    if (ch->have_atmosphere) {
+        sl_atmosphere_free(&ch->atmosphere);
+        ch->have_atmosphere = 0;
+    }
+    int rc = sl_atmosphere_init(&ch->atmosphere, name, e);
+    if (rc != SL_OK) {
+        int line = 0;
+        const char *raw = sl_scenario_raw(sc, SL_P_SITE_ATMOSPHERE, &line);
+        char inner[SL_ERR_MSG_LEN / 2], names[160] = "";
+        snprintf(inner, sizeof inner, "%.380s", e ? e->msg : "");
+        for (size_t i = 0; sl_atmosphere_builtin_names[i]; i++) {
+            size_t used = strlen(names);
+            snprintf(names + used, sizeof names - used, "%s%s", i ? ", " : "", sl_atmosphere_builtin_names[i]);
+        }
+        sl_atmosphere_free(&ch->atmosphere);
+        if (raw)
+            SL_FAIL_RETURN(e, rc, "%s:%d: [site] atmosphere = %s: %s (valid: a built-in profile, "
+                                  "one of %s, or a profile file)",
+                           sc->path, line, raw, inner, names);
+        SL_FAIL_RETURN(e, rc, "%s: atmosphere %s: %s", sc->path, name, inner);
+    }
+    snprintf(ch->atmosphere_name, sizeof ch->atmosphere_name, "%s", name);
+    ch->have_atmosphere = 1;
+    return SL_OK;
+}
+
+int sl_chain_run(const sl_scenario *sc, sl_chain *ch, sl_err *e)
+{
+    if (!sc->finished)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "chain: the scenario was not finished (sl_scenario_finish)");
+    ch->scenario = *sc;
+    ch->has_entry = 0;
+    SL_TRY_RETURN(e, load_atmosphere(sc, ch, e));
+    const sl_atmosphere *atm = &ch->atmosphere;
+
+    sl_partition_input in;
+    sl_partition_input_from_scenario(&in, sc);
+    SL_TRY_RETURN(e, ambient(atm, 0.0, &in.air_at_sea, e));
+    if (sc->kind == SL_SCENARIO_IMPACTOR) {
+        sl_entry_params p;
+        sl_entry_params_from_scenario(&p, sc);
+        air_ctx actx = {atm};
+        sl_entry_air air = {atmosphere_density, &actx};
+        SL_TRY_RETURN(e, sl_entry_solve(&ch->entry, &p, &air, e));
+        ch->has_entry = 1;
+        in.entry = &ch->entry;
+        in.impactor_mass_kg = ch->entry.initial_mass_kg;
+        double z = ch->entry.airburst ? ch->entry.burst_altitude_m : sl_entry_deposition_centroid_m(&ch->entry);
+        in.air_source_altitude_m = isfinite(z) ? z : 0.0;
+    } else {
+        in.air_source_altitude_m = in.explosion_altitude_m;
+    }
+    ch->air_source_altitude_m = in.air_source_altitude_m;
+    SL_TRY_RETURN(e, ambient(atm, in.air_source_altitude_m, &in.air_at_source, e));
+    SL_TRY_RETURN(e, sl_partition_solve(&ch->partition, &in, e));
+    return SL_OK;
+}
+
+const sl_source_list *sl_chain_sources(const sl_chain *ch)
+{
+    return &ch->partition.sources;
+}
+
+void sl_chain_free(sl_chain *ch)
+{
+    if (ch == NULL)
+        return;
+    sl_entry_free(&ch->entry);
+    if (ch->have_atmosphere)
+        sl_atmosphere_free(&ch->atmosphere);
+    sl_partition_free(&ch->partition);
+    memset(ch, 0, sizeof *ch);
+}
