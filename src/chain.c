@@ -77,6 +77,41 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     return SL_OK;
 }
 
+/* Plume stage: parameters and bands from [plume] (workspace and bands reused
+ * across runs), then every source rises and its water goes into the bands. */
+static int run_plume(const sl_scenario *sc, sl_chain *ch, sl_err *e)
+{
+    sl_plume_params par;
+    sl_plume_params_from_scenario(&par, sc);
+    if (!ch->have_plume) {
+        SL_TRY_RETURN(e, sl_plume_init(&ch->plume, &par, e));
+        ch->have_plume = 1;
+    } else {
+        SL_TRY_RETURN(e, sl_plume_set_params(&ch->plume, &par, e));
+    }
+    double b0 = sl_scenario_value(sc, SL_P_PLUME_BAND_BOTTOM), b1 = sl_scenario_value(sc, SL_P_PLUME_BAND_TOP);
+    double bw = sl_scenario_value(sc, SL_P_PLUME_BAND_WIDTH);
+    if (!(b1 - b0 >= bw)) {
+        int l0 = 0, l1 = 0;
+        sl_scenario_raw(sc, SL_P_PLUME_BAND_BOTTOM, &l0);
+        sl_scenario_raw(sc, SL_P_PLUME_BAND_TOP, &l1);
+        SL_FAIL_RETURN(e, SL_EDATA,
+                       "%s:%d: [plume] band_top_m = %g must exceed band_bottom_m = %g (line %d) by at least "
+                       "band_width_m = %g",
+                       sc->path, l1, b1, b0, l0, bw);
+    }
+    if (ch->injection.n_bands == 0 || b0 != ch->band_bottom_m || b1 != ch->band_top_m || bw != ch->band_width_m) {
+        sl_injection_free(&ch->injection);
+        SL_TRY_RETURN(e, sl_injection_init_uniform(&ch->injection, b0, b1, bw, e));
+        ch->band_bottom_m = b0;
+        ch->band_top_m = b1;
+        ch->band_width_m = bw;
+    }
+    SL_TRY_RETURN(e, sl_plume_solve(&ch->plume, &ch->atmosphere, &ch->partition.sources, &ch->injection, e));
+    ch->injection.latitude_deg = sl_rad_to_deg(sl_scenario_value(sc, SL_P_SITE_LATITUDE));
+    return SL_OK;
+}
+
 int sl_chain_run(const sl_scenario *sc, sl_chain *ch, sl_err *e)
 {
     if (!sc->finished)
@@ -106,6 +141,7 @@ int sl_chain_run(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     ch->air_source_altitude_m = in.air_source_altitude_m;
     SL_TRY_RETURN(e, ambient(atm, in.air_source_altitude_m, &in.air_at_source, e));
     SL_TRY_RETURN(e, sl_partition_solve(&ch->partition, &in, e));
+    SL_TRY_RETURN(e, run_plume(sc, ch, e));
     return SL_OK;
 }
 
@@ -122,5 +158,7 @@ void sl_chain_free(sl_chain *ch)
     if (ch->have_atmosphere)
         sl_atmosphere_free(&ch->atmosphere);
     sl_partition_free(&ch->partition);
+    sl_plume_free(&ch->plume);
+    sl_injection_free(&ch->injection);
     memset(ch, 0, sizeof *ch);
 }

@@ -19,7 +19,8 @@ int sl_cmd_run(int argc, char **argv, const sl_cli_globals *g)
         case 'h':
             printf("Usage: steamloft run [--json] SCENARIO\n"
                    "Run one scenario (an INI file; '-' reads standard input) through the\n"
-                   "atmospheric entry and the energy partition at the sea, and print a summary.\n"
+                   "atmospheric entry, the energy partition at the sea and the plume rise,\n"
+                   "and print a summary with the lofted water by altitude band.\n"
                    "  -j, --json  print the summary as JSON (SI values, unit in each key)\n"
                    "  -h, --help  print this help\n"
                    "'steamloft params' lists every scenario key.  Exit status: 0 ok, 64 usage,\n"

@@ -14,11 +14,32 @@
  * documented in include/steamloft/injection.h.  Every error names the file and
  * the line (or netCDF variable), the column or key and the valid range.
  *
- * The physics that fills a profile from a rising plume (freeze-out of water
- * above ice saturation and its sedimentation) is in sl_injection_freeze_out,
- * below the bookkeeping. */
+ * Freeze-out (sl_injection_add_cloud).  A young cloud left by a plume is a
+ * layer of cloud air (dry mass A) carrying water W (all phases), spread
+ * uniformly in altitude over its layer.  In each band it is taken at the
+ * ambient temperature and pressure there (the cloud has come to rest near its
+ * neutral level).  It can hold vapour up to ice saturation,
+ *   r_ice = eps e_ice(T) / (p - e_ice(T))  (kg per kg of dry air; Murphy & Koop 2005
+ *   through the atmosphere module), so the band keeps V = min(W_b, A_b r_ice)
+ * as vapour and the excess W_b - V forms ice.  A fraction f_s of that ice
+ * sediments out of the layer and is removed (frozen_out); the rest stays as
+ * ice in the band.  The band's vapour is then counted as the anomaly over the
+ * background: the cloud air would hold A_b r_bg at the background mixing
+ * ratio r_bg of that level anyway (it replaced air that did), so the band
+ * receives max(V - A_b r_bg, 0) and the rest is tallied as background.  Water
+ * is conserved exactly: W = anomaly + ice kept + sedimented + background.
+ *
+ * The sedimented fraction f_s is a parameter (scenario key
+ * [plume] ice_sediment_fraction, default 0.5, PRACTICE).  Its end-members are
+ * documented: in ordinary overshooting convection the ice crystals are small
+ * (<= 20 um) and mostly sublimate again, hydrating rather than drying the
+ * lower stratosphere (Jensen et al. 2007, JGR 112, D11209, SEEN abstract;
+ * Corti et al. 2008, GRL 35, L10810, SEEN abstract), i.e. f_s near 0; with the
+ * huge water excess of an impact plume the crystals grow large and fall, f_s
+ * towards 1.  It is a leading uncertainty and meant to be varied in ensembles. */
 #include "steamloft/injection.h"
 #include "steamloft/units_table.h"
+#include "steamloft/water.h"
 
 #include <errno.h>
 #include <math.h>
@@ -204,6 +225,86 @@ void sl_injection_free(sl_injection *inj)
     free(inj->ice_kg);
     inj->band_bottom_m = inj->band_top_m = inj->vapor_kg = inj->ice_kg = NULL;
     inj->n_bands = 0;
+}
+
+double sl_injection_vapor_above_kg(const sl_injection *inj, double altitude_m)
+{
+    double s = 0.0;
+    for (size_t i = 0; inj != NULL && i < inj->n_bands; i++) {
+        double b0 = inj->band_bottom_m[i], b1 = inj->band_top_m[i];
+        if (altitude_m <= b0)
+            s += inj->vapor_kg[i];
+        else if (altitude_m < b1)
+            s += inj->vapor_kg[i] * (b1 - altitude_m) / (b1 - b0);
+    }
+    return s;
+}
+
+/* ---------------------------------------------------------------- freeze-out */
+
+/* Ice-saturation and background mixing ratios (kg/kg dry air) at ALTITUDE_M,
+ * the altitude clamped into the profile (above its top the top level is used). */
+static int cloud_level(const sl_atmosphere *atm, double altitude_m, double *r_ice, double *r_bg, sl_err *e)
+{
+    double z = fmin(fmax(altitude_m, atm->altitude_m[0]), atm->altitude_m[atm->n - 1]);
+    sl_atmos_state a;
+    SL_TRY_RETURN(e, sl_atmosphere_at(atm, z, &a, e));
+    double xi = a.ice_saturation_mole_fraction, xb = a.h2o_mole_fraction;
+    *r_ice = xi >= 1.0 ? INFINITY : sl_water_mixing_ratio_from_mole_fraction(fmax(xi, 0.0));
+    *r_bg = sl_water_mixing_ratio_from_mole_fraction(fmin(fmax(xb, 0.0), 0.999));
+    return SL_OK;
+}
+
+int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl_young_cloud *c,
+                           double sediment_fraction, sl_freeze_out *tally, sl_err *e)
+{
+    sl_freeze_out t = {0};
+    if (inj == NULL || inj->n_bands == 0 || atm == NULL || atm->n < 2 || c == NULL)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "sl_injection_add_cloud: null argument or profile without bands");
+    if (!isfinite(sediment_fraction) || sediment_fraction < 0.0 || sediment_fraction > 1.0)
+        SL_FAIL_RETURN(e, SL_EDATA, "ice_sediment_fraction = %g is outside the valid range 0 to 1", sediment_fraction);
+    if (!isfinite(c->air_kg) || !isfinite(c->water_kg) || c->air_kg < 0.0 || c->water_kg < 0.0)
+        SL_FAIL_RETURN(e, SL_EDATA, "young cloud: air %g kg and water %g kg must be finite and >= 0", c->air_kg, c->water_kg);
+    double lo = inj->band_bottom_m[0], hi = inj->band_top_m[inj->n_bands - 1];
+    if (!isfinite(c->bottom_m) || !isfinite(c->top_m) || c->top_m < c->bottom_m || c->bottom_m < lo || c->top_m > hi)
+        SL_FAIL_RETURN(e, SL_EDATA, "young cloud %g-%g m lies outside the bands (valid range %g to %g m)", c->bottom_m,
+                       c->top_m, lo, hi);
+    double thick = c->top_m - c->bottom_m;
+    for (size_t i = 0; i < inj->n_bands && c->water_kg > 0.0; i++) {
+        double a, b, f;
+        if (thick > 0.0) {
+            a = fmax(c->bottom_m, inj->band_bottom_m[i]);
+            b = fmin(c->top_m, inj->band_top_m[i]);
+            if (b <= a)
+                continue;
+            f = (b - a) / thick;
+        } else {
+            /* A thin sheet: all in the band holding it (the top band at the very top). */
+            if (!(c->bottom_m < inj->band_top_m[i] || i + 1 == inj->n_bands))
+                continue;
+            a = b = c->bottom_m;
+            f = 1.0;
+        }
+        double r_ice = 0.0, r_bg = 0.0;
+        SL_TRY_RETURN(e, cloud_level(atm, 0.5 * (a + b), &r_ice, &r_bg, e));
+        double air = c->air_kg * f, water = c->water_kg * f;
+        double vap = fmin(water, air * r_ice);
+        double ice = water - vap;
+        double sed = ice * sediment_fraction;
+        double anomaly = fmax(vap - air * r_bg, 0.0);
+        inj->vapor_kg[i] += anomaly;
+        inj->ice_kg[i] += ice - sed;
+        t.frozen_kg += ice;
+        t.sedimented_kg += sed;
+        t.background_kg += vap - anomaly;
+        t.vapor_kg += anomaly;
+        t.ice_kg += ice - sed;
+        if (thick == 0.0)
+            break;
+    }
+    if (tally)
+        *tally = t;
+    return SL_OK;
 }
 
 /* ------------------------------------------------------------------ files */

@@ -220,6 +220,64 @@ static void emit_partition(sl_report *r, const sl_chain *ch)
     sl_report_end_array(r);
 }
 
+/* Plume stage: the event's cloud, the stratospheric water and the profile. */
+static void emit_plume(sl_report *r, const sl_chain *ch)
+{
+    if (!ch->have_plume)
+        return;
+    const sl_plume *pl = &ch->plume;
+    const sl_injection *inj = &ch->injection;
+    sl_report_heading(r, "Plume and lofted water");
+    sl_report_string(r, "regime", sl_plume_regime_name(pl->regime), "regime");
+    sl_report_number(r, "plume_top_m", pl->plume_top_m, "plume top (highest reach)", 1e-3, "km");
+    sl_report_number(r, "neutral_altitude_m", pl->neutral_altitude_m, "neutral-buoyancy level", 1e-3, "km");
+    sl_report_number(r, "cloud_bottom_m", pl->cloud_bottom_m, "cloud bottom", 1e-3, "km");
+    sl_report_number(r, "cloud_top_m", pl->cloud_top_m, "cloud top", 1e-3, "km");
+    sl_report_number(r, "tropopause_altitude_m", pl->tropopause_altitude_m, "tropopause", 1e-3, "km");
+    sl_report_number(r, "water_lofted_kg", pl->water_lofted_kg, "water in the young clouds", 1e-9, "Tg");
+    sl_report_number(r, "fallout_kg", pl->fallout_kg, "condensate fallen out during the rise", 1e-9, "Tg");
+    sl_report_number(r, "frozen_out_kg", pl->frozen_out_kg, "ice sedimented out at cloud level", 1e-9, "Tg");
+    sl_report_number(r, "background_water_kg", pl->background_kg, "background vapour of the cloud air", 1e-9, "Tg");
+    sl_report_number(r, "injected_vapor_kg", sl_injection_total_vapor_kg(inj), "vapour injected (all bands)", 1e-9, "Tg");
+    sl_report_number(r, "injected_ice_kg", sl_injection_total_ice_kg(inj), "ice remaining (all bands)", 1e-9, "Tg");
+    sl_report_number(r, "stratospheric_water_kg", pl->stratospheric_water_kg, "vapour above the tropopause", 1e-9, "Tg");
+    sl_report_number(r, "stratospheric_ice_kg", pl->stratospheric_ice_kg, "ice above the tropopause", 1e-9, "Tg");
+    sl_report_begin_array(r, "thermals", r->json ? NULL : "\nThermals");
+    for (size_t i = 0; i < pl->n_thermals; i++) {
+        const sl_thermal *th = &pl->th[i];
+        char label[48];
+        snprintf(label, sizeof label, "thermal %zu (%s)", i + 1, source_kind_name(th->kind));
+        sl_report_begin_object(r, NULL, label);
+        sl_report_string(r, "regime", sl_plume_regime_name(th->regime), "regime");
+        sl_report_number(r, "apex_time_s", th->apex_time_s, "time to apex", 1.0 / 60.0, "min");
+        sl_report_number(r, "apex_altitude_m", th->apex_altitude_m, "apex (centre)", 1e-3, "km");
+        sl_report_number(r, "apex_radius_m", th->apex_radius_m, "radius at apex", 1e-3, "km");
+        sl_report_number(r, "neutral_altitude_m", th->neutral_altitude_m, "neutral-buoyancy level", 1e-3, "km");
+        sl_report_number(r, "cloud_bottom_m", th->cloud_bottom_m, "cloud bottom", 1e-3, "km");
+        sl_report_number(r, "cloud_top_m", th->cloud_top_m, "cloud top", 1e-3, "km");
+        sl_report_number(r, "max_speed_m_s", th->max_speed_m_s, "fastest rise", 1.0, "m/s");
+        sl_report_number(r, "water_kg", th->vapor_kg + th->liquid_kg + th->ice_kg, "water at apex", 1e-9, "Tg");
+        sl_report_number(r, "entrained_air_kg", th->air_entrained_kg, "air entrained", 1e-9, "Tg");
+        sl_report_end_object(r);
+    }
+    sl_report_end_array(r);
+    /* JSON: every band; text: the bands holding water. */
+    sl_report_begin_array(r, "bands", r->json ? NULL : "\nBands holding lofted water");
+    for (size_t i = 0; i < inj->n_bands; i++) {
+        if (!r->json && inj->vapor_kg[i] == 0.0 && inj->ice_kg[i] == 0.0)
+            continue;
+        char label[64];
+        snprintf(label, sizeof label, "%.1f-%.1f km", inj->band_bottom_m[i] * 1e-3, inj->band_top_m[i] * 1e-3);
+        sl_report_begin_object(r, NULL, label);
+        sl_report_number(r, "bottom_m", inj->band_bottom_m[i], "bottom", 1e-3, "km");
+        sl_report_number(r, "top_m", inj->band_top_m[i], "top", 1e-3, "km");
+        sl_report_number(r, "vapor_kg", inj->vapor_kg[i], "vapour", 1e-9, "Tg");
+        sl_report_number(r, "ice_kg", inj->ice_kg[i], "ice", 1e-9, "Tg");
+        sl_report_end_object(r);
+    }
+    sl_report_end_array(r);
+}
+
 static void emit_parameters(sl_report *r, const sl_chain *ch)
 {
     if (!r->json)
@@ -262,6 +320,7 @@ int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, sl_err *e)
     }
     sl_report_number(&r, "energy_at_sea_J", ch->partition.energy_at_sea_J, "energy reaching the sea", 1.0 / SL_J_PER_MT_TNT, "Mt");
     emit_partition(&r, ch);
+    emit_plume(&r, ch);
     emit_parameters(&r, ch);
     if (!json)
         fputc('\n', out);

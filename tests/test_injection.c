@@ -245,6 +245,49 @@ START_TEST(test_read_netcdf)
 }
 END_TEST
 
+
+START_TEST(test_read_netcdf_python)
+{
+    /* A profile written by an independent writer, python3-netcdf4 (Debian),
+     * run as /usr/bin/python3: 10 bands of 1 km from 20 to 30 km in metres,
+     * vapour 1..10 Tg as float32, CF bounds.  Skipped with a note when the
+     * module is missing (it is a listed dependency of the project). */
+    char path[512], cmd[2048];
+    tmp_path(path, sizeof path, "py.nc");
+    snprintf(cmd, sizeof cmd,
+             "/usr/bin/python3 -c \"import netCDF4, numpy as np\n"
+             "d = netCDF4.Dataset('%s', 'w', format='NETCDF4_CLASSIC')\n"
+             "d.Conventions = 'CF-1.11'\n"
+             "d.createDimension('altitude', 10); d.createDimension('nv', 2)\n"
+             "z = d.createVariable('altitude', 'f8', ('altitude',))\n"
+             "z.units = 'm'; z.positive = 'up'; z.axis = 'Z'; z.standard_name = 'altitude'; z.bounds = 'altitude_bnds'\n"
+             "b = d.createVariable('altitude_bnds', 'f8', ('altitude', 'nv'))\n"
+             "v = d.createVariable('vapor_mass', 'f4', ('altitude',))\n"
+             "v.units = 'Tg'; v.long_name = 'water vapour mass in each band'\n"
+             "e = np.arange(20000.0, 30001.0, 1000.0)\n"
+             "z[:] = 0.5 * (e[:-1] + e[1:]); b[:, 0] = e[:-1]; b[:, 1] = e[1:]\n"
+             "v[:] = np.arange(1, 11)\n"
+             "d.close()\" 2>/dev/null",
+             path);
+    if (system(cmd) != 0) {
+        printf("test_read_netcdf_python: skipped (python3-netcdf4 not available)\n");
+        return;
+    }
+    sl_injection inj = {0};
+    sl_err e = {0};
+    ck_assert_msg(sl_injection_read(&inj, path, &e) == SL_OK, "%s", e.msg);
+    ck_assert_uint_eq(inj.n_bands, 10);
+    ck_assert(inj.band_bottom_m[0] == 20000.0 && inj.band_top_m[9] == 30000.0);
+    /* 1 + 2 + ... + 10 = 55 Tg, exact in float32 and after the Tg -> kg factor. */
+    SL_CK_REL(sl_injection_total_vapor_kg(&inj), 55.0e9, 1e-15);
+    SL_CK_REL(inj.vapor_kg[6], 7.0e9, 1e-15);
+    ck_assert(sl_injection_total_ice_kg(&inj) == 0.0);
+    ck_assert(isnan(inj.tropopause_altitude_m));
+    sl_injection_free(&inj);
+    unlink(path);
+}
+END_TEST
+
 static Suite *injection_suite(void)
 {
     Suite *s = suite_create("injection");
@@ -254,6 +297,7 @@ static Suite *injection_suite(void)
     tcase_add_test(tc, test_read_csv);
     tcase_add_test(tc, test_read_csv_errors);
     tcase_add_test(tc, test_read_netcdf);
+    tcase_add_test(tc, test_read_netcdf_python);
     suite_add_tcase(s, tc);
     return s;
 }

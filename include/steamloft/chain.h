@@ -1,11 +1,13 @@
 /* chain: the stages of steamloft run in order for one scenario:
  *   scenario -> atmosphere -> entry (impactors) -> partition -> sources
- * (later stages, plume and box model, add their members and calls here).
+ *   -> plume rise and freeze-out -> injection profile
+ * (later stages add their members and calls here).
  *
  * An sl_chain is reusable: zero it once, call sl_chain_run() as many times
  * as wanted (an ensemble calls it once per member), then sl_chain_free().
  * The atmosphere is loaded on the first run and kept while later scenarios
- * name the same profile; the entry workspace is allocated once.  No global
+ * name the same profile; the entry and plume workspaces are allocated once,
+ * the injection bands again only when the band keys change.  No global
  * state: one chain per thread. */
 #ifndef STEAMLOFT_CHAIN_H
 #define STEAMLOFT_CHAIN_H
@@ -13,7 +15,9 @@
 #include "steamloft/atmosphere.h"
 #include "steamloft/entry.h"
 #include "steamloft/err.h"
+#include "steamloft/injection.h"
 #include "steamloft/partition.h"
+#include "steamloft/plume.h"
 #include "steamloft/scenario.h"
 
 typedef struct sl_chain {
@@ -25,6 +29,10 @@ typedef struct sl_chain {
     int has_entry;                 /* the scenario is an [impactor] */
     double air_source_altitude_m;  /* where the air's share was released */
     sl_partition partition;        /* energy shares and the plume sources */
+    sl_plume plume;                /* rise of each source, cloud, freeze-out (workspace kept) */
+    int have_plume;
+    sl_injection injection;        /* lofted water by altitude band */
+    double band_bottom_m, band_top_m, band_width_m; /* the bands the injection holds */
 } sl_chain;
 
 /* Run every stage for the finished scenario SC into CH.  On failure CH keeps

@@ -24,6 +24,7 @@
 
 #include <stddef.h>
 
+#include "steamloft/atmosphere.h"
 #include "steamloft/err.h"
 
 typedef struct sl_injection {
@@ -58,5 +59,34 @@ void sl_injection_clear(sl_injection *inj);
  * SL_ENOINPUT (cannot open), SL_EDATA (bad content), SL_ENOMEM. */
 int sl_injection_read(sl_injection *inj, const char *path, sl_err *e);
 void sl_injection_free(sl_injection *inj);
+
+/* Water vapour alone above ALTITUDE_M (bands split proportionally). */
+double sl_injection_vapor_above_kg(const sl_injection *inj, double altitude_m);
+
+/* A young cloud as the plume leaves it: a layer of cloud air carrying water. */
+typedef struct sl_young_cloud {
+    double bottom_m, top_m;    /* the layer (bottom <= top; equal for a thin sheet) */
+    double air_kg;             /* dry air in the cloud */
+    double water_kg;           /* all its water: vapour, liquid and ice */
+} sl_young_cloud;
+
+/* What the freeze-out did with a cloud's water (kg).  water_kg of the cloud =
+ * vapour anomaly added + ice added + sedimented_kg + background_kg. */
+typedef struct sl_freeze_out {
+    double frozen_kg;          /* water above ice saturation at the cloud level: became ice */
+    double sedimented_kg;      /* the share of that ice that fell out (removed) */
+    double background_kg;      /* vapour the cloud air holds at the background mixing ratio */
+    double vapor_kg, ice_kg;   /* what was added to the bands */
+} sl_freeze_out;
+
+/* Freeze-out in the young cloud, then add its water to INJ.  The cloud's air
+ * and water are spread uniformly in altitude over its layer; in each band the
+ * cloud takes the ambient temperature and pressure of ATM at the middle of the
+ * overlap, keeps vapour up to ice saturation, and turns the rest into ice, of
+ * which SEDIMENT_FRACTION (0 to 1) falls out.  The band gets the vapour in
+ * excess of the background mixing ratio (the anomaly) and the remaining ice.
+ * The layer must lie within the bands.  TALLY may be NULL. */
+int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl_young_cloud *cloud,
+                           double sediment_fraction, sl_freeze_out *tally, sl_err *e);
 
 #endif

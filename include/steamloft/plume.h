@@ -1,0 +1,126 @@
+/* plume: rise of hot, moist buoyant thermals through a real atmosphere, and
+ * the young cloud each one leaves.
+ *
+ * Each source (include/steamloft/source.h) is an instantaneous release: a
+ * thermal after Morton, Taylor & Turner (1956), written in terms of mass so it
+ * holds across several scale heights (non-Boussinesq), with added mass,
+ * entrainment velocity alpha*w through the surface of a sphere, moist
+ * thermodynamics (vapour, liquid, ice in equilibrium; the entrained air brings
+ * its humidity; latent heats of the water module) and fallout of condensate.
+ * The apex is found by event detection (root of w(t)).  The young cloud fills
+ * the layer from the neutral-buoyancy level to the highest reach of the
+ * thermal's top (apex + radius), the umbrella layer of Sparks (1986).
+ * Several sources rise on their own; their water adds up in the injection
+ * profile, after freeze-out (sl_injection_add_cloud).  The equations, units
+ * and references are in the header comment of src/plume.c.
+ *
+ * Usage: sl_plume_init once (allocates the ODE workspace), then
+ * sl_plume_solve for each scenario (allocates nothing), sl_plume_free. */
+#ifndef STEAMLOFT_PLUME_H
+#define STEAMLOFT_PLUME_H
+
+#include <stddef.h>
+
+#include "steamloft/atmosphere.h"
+#include "steamloft/err.h"
+#include "steamloft/injection.h"
+#include "steamloft/source.h"
+
+/* Parameters (scenario section [plume]); defaults from sl_plume_params_default. */
+typedef struct sl_plume_params {
+    double entrainment_alpha;      /* alpha in u_e = alpha*w; 0.25 (Scorer 1957; Turner 1973) */
+    double added_mass_k;           /* added-mass coefficient; 0.5 (sphere in potential flow) */
+    double fallout_speed_m_s;      /* settling speed of condensate relative to the thermal; 1.0 */
+    double ice_sediment_fraction;  /* share of the ice formed at cloud level that falls out; 0.5 */
+    double rtol;                   /* ODE relative tolerance (scaled state); 1e-6 */
+    double max_time_s;             /* give up when no apex by then; 7200 s */
+} sl_plume_params;
+
+void sl_plume_params_default(sl_plume_params *par);
+
+/* Check ranges (alpha 0-1 (0: a parcel that does not mix), k 0-2, fallout speed 0-50 m/s, fraction 0-1,
+ * rtol 1e-12-1e-3, max time 60-1e5 s).  SL_EDATA naming the key otherwise. */
+int sl_plume_params_check(const sl_plume_params *par, sl_err *e);
+
+typedef enum sl_plume_regime {
+    SL_REGIME_THERMAL = 0, /* buoyant thermal: the model applies */
+    SL_REGIME_BLOWOUT = 1  /* fireball larger than the scale height, or the thermal left the
+                            * atmosphere profile: water placed by the blow-out rule */
+} sl_plume_regime;
+
+/* "thermal" or "blow-out". */
+const char *sl_plume_regime_name(int regime);
+
+/* The rise of one source. */
+typedef struct sl_thermal {
+    int regime;                    /* sl_plume_regime */
+    sl_source_kind kind;
+    double source_altitude_m;      /* centre of the initial thermal */
+    double source_radius_m;        /* initial radius (from the source or its gas volume) */
+    double scale_height_m;         /* R T / g at the source level */
+    double apex_time_s;            /* time of w = 0 (0 when it never rose) */
+    double apex_altitude_m;        /* centre at the apex */
+    double apex_radius_m;
+    double top_altitude_m;         /* apex centre + apex radius: highest reach */
+    double neutral_altitude_m;     /* first level where the buoyancy force vanished */
+    double neutral_time_s;
+    double cloud_bottom_m, cloud_top_m; /* the young cloud placed by the cloud rule */
+    double temperature_apex_K;
+    double air_kg;                 /* dry air in the thermal at the apex */
+    double vapor_kg, liquid_kg, ice_kg; /* water at the apex */
+    double max_speed_m_s;
+    /* Budgets, integrated with the state (all in J or kg). */
+    double water_initial_kg, water_entrained_kg, water_fallout_kg, water_final_kg;
+    double energy_initial_J, energy_entrained_J, energy_fallout_J, energy_final_J;
+    double air_initial_kg, air_entrained_kg;
+    size_t n_steps;                /* accepted ODE steps */
+} sl_thermal;
+
+typedef struct sl_plume_work sl_plume_work; /* opaque: GSL stepper, control, evolve, root solver */
+
+typedef struct sl_plume {
+    sl_plume_params par;
+    sl_plume_work *work;
+    size_t n_thermals;
+    sl_thermal th[SL_MAX_SOURCES];
+    /* Whole event (all sources). */
+    int regime;                    /* SL_REGIME_BLOWOUT when any source is */
+    double plume_top_m;            /* highest thermal top */
+    double cloud_bottom_m, cloud_top_m; /* envelope of the clouds */
+    double neutral_altitude_m;     /* of the source carrying the most water to its apex */
+    double tropopause_altitude_m;  /* of the atmosphere used */
+    double water_lofted_kg;        /* water in all clouds before freeze-out */
+    double fallout_kg;             /* condensate that fell out during the rise */
+    double frozen_out_kg;          /* ice formed at cloud level that sedimented out */
+    double background_kg;          /* background vapour carried by the cloud air (not injection) */
+    double stratospheric_water_kg; /* injected vapour above the tropopause */
+    double stratospheric_ice_kg;   /* ice remaining above the tropopause */
+} sl_plume;
+
+/* Set parameters and allocate the ODE workspace.  PL must be zeroed.
+ * SL_EDATA for bad parameters, SL_ENOMEM. */
+int sl_plume_init(sl_plume *pl, const sl_plume_params *par, sl_err *e);
+
+/* Change the parameters of an initialised plume without reallocating (an
+ * ensemble member with its own entrainment coefficient, say).  SL_EDATA for
+ * bad parameters (PL unchanged). */
+int sl_plume_set_params(sl_plume *pl, const sl_plume_params *par, sl_err *e);
+
+/* Parameters from a finished scenario's [plume] section. */
+struct sl_scenario;
+void sl_plume_params_from_scenario(sl_plume_params *par, const struct sl_scenario *sc);
+
+/* Rise one source through ATM; fill OUT.  Allocates nothing.  SL_EDATA for
+ * an unusable source (naming the field and the range), SL_ENUMERIC when the
+ * solver fails or no apex is reached within max_time_s. */
+int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, sl_thermal *out, sl_err *e);
+
+/* Rise every source of SRC, place each cloud, apply the freeze-out and add the
+ * water into INJ (which must have bands; its masses are cleared first, its
+ * tropopause set from ATM), and fill the event totals.  Allocates nothing. */
+int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list *src, sl_injection *inj, sl_err *e);
+
+/* Release the workspace; safe on a zeroed or half-built struct. */
+void sl_plume_free(sl_plume *pl);
+
+#endif

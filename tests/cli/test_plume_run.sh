@@ -1,0 +1,63 @@
+#!/bin/sh
+# `steamloft run` through the plume stage: the summary keys of issue 5, the
+# 1.69 Mt surface-burst cloud end to end, the water bookkeeping of the bands,
+# and the [plume] keys' errors (file, line, key, range; exit 65).
+. "$(dirname "$0")/lib.inc"
+
+# Castle NECTAR, 1.69 Mt surface burst at Bikini (11.6 N, tropical profile):
+# cloud top 21.6 km, bottom 12.3 km (test report Fig. 94, SEEN via
+# ../shared/reference/impact-facts.md s.2).  Tolerance 10 %: one heat fraction
+# (the default 0.4) for every yield, no wind shear, heights read off a figure.
+printf '[explosion]\nenergy_Mt = 1.69\naltitude_m = 0\n[site]\nlatitude_deg = 11.6\natmosphere = tropical\n' >"$SL_TMP/nectar.ini"
+sl_expect_exit 0 "run a 1.69 Mt surface burst" "$SL_BIN" run --json "$SL_TMP/nectar.ini"
+cp "$SL_TMP/out" "$SL_TMP/nectar.json"
+if /usr/bin/python3 - "$SL_TMP/nectar.json" <<'PY'
+import json, sys
+d = json.load(open(sys.argv[1]))
+for k in ("plume_top_m", "cloud_bottom_m", "cloud_top_m", "neutral_altitude_m", "regime",
+          "tropopause_altitude_m", "stratospheric_water_kg", "frozen_out_kg", "bands", "thermals"):
+    assert k in d, k
+assert d["regime"] == "thermal", d["regime"]
+assert abs(d["cloud_top_m"] / 21600.0 - 1) < 0.10, d["cloud_top_m"]
+assert abs(d["cloud_bottom_m"] / 12300.0 - 1) < 0.10, d["cloud_bottom_m"]
+# Stops rising 4-14 min after the burst (Army manual, SEEN via impact-facts.md s.2).
+assert 240 <= d["thermals"][0]["apex_time_s"] <= 840, d["thermals"][0]["apex_time_s"]
+b = d["bands"]
+assert len(b) == 100 and b[0]["bottom_m"] == 0 and b[-1]["top_m"] == 100000
+for x, y in zip(b, b[1:]):
+    assert x["top_m"] == y["bottom_m"]
+    assert x["vapor_kg"] >= 0 and x["ice_kg"] >= 0
+# Water bookkeeping: bands + sedimented + background = water in the clouds.
+tot = sum(x["vapor_kg"] + x["ice_kg"] for x in b)
+assert abs(tot + d["frozen_out_kg"] + d["background_water_kg"] - d["water_lofted_kg"]) <= 1e-9 * d["water_lofted_kg"]
+# Stratospheric vapour = band vapour above the tropopause (split in its band).
+tp = d["tropopause_altitude_m"]
+above = sum(x["vapor_kg"] * min(1.0, max(0.0, (x["top_m"] - tp) / (x["top_m"] - x["bottom_m"]))) for x in b)
+assert abs(above - d["stratospheric_water_kg"]) <= 1e-9 * max(above, 1.0), (above, d["stratospheric_water_kg"])
+assert d["parameters"]["plume.entrainment_coefficient"]["value"] == 0.25
+PY
+then sl_ok "NECTAR cloud within 10 %, keys and band bookkeeping"; else sl_fail "NECTAR cloud, keys or bookkeeping"; fi
+
+sl_expect_exit 0 "text summary" "$SL_BIN" run "$SL_TMP/nectar.ini"
+sl_expect_grep "$SL_TMP/out" "vapour above the tropopause" "text summary gives the stratospheric water"
+sl_expect_grep "$SL_TMP/out" "Bands holding lofted water" "text summary lists the bands"
+
+# A wider entrainment makes a lower cloud (MTT: z_max ~ alpha^-3/4).
+printf '[plume]\nentrainment_coefficient = 0.35\n' >>"$SL_TMP/nectar.ini"
+sl_expect_exit 0 "run with alpha 0.35" "$SL_BIN" run --json "$SL_TMP/nectar.ini"
+if /usr/bin/python3 - "$SL_TMP/nectar.json" "$SL_TMP/out" <<'PY'
+import json, sys
+a = json.load(open(sys.argv[1])); b = json.load(open(sys.argv[2]))
+assert b["plume_top_m"] < 0.95 * a["plume_top_m"], (a["plume_top_m"], b["plume_top_m"])
+PY
+then sl_ok "larger entrainment coefficient, lower plume"; else sl_fail "entrainment coefficient has no effect"; fi
+
+# Mistakes in [plume].
+printf '[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 0\n[plume]\nentrainment_coefficient = 1.5\n' >"$SL_TMP/bad1.ini"
+sl_expect_exit 65 "entrainment coefficient out of range" "$SL_BIN" run "$SL_TMP/bad1.ini"
+sl_expect_grep "$SL_TMP/err" "bad1.ini:6" "message names file and line"
+sl_expect_grep "$SL_TMP/err" "0 to 1" "message gives the valid range"
+printf '[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 0\n[plume]\nband_bottom_m = 50000\nband_top_m = 40000\n' >"$SL_TMP/bad2.ini"
+sl_expect_exit 65 "band top below band bottom" "$SL_BIN" run "$SL_TMP/bad2.ini"
+sl_expect_grep "$SL_TMP/err" "bad2.ini:7: \[plume\] band_top_m" "band message names file, line and key"
+sl_done
