@@ -55,13 +55,17 @@ assert [int(r["member"]) for r in rows] == list(range(300)), "members out of ord
 bad = [r for r in rows if r["status"] != "ok"]
 m = re.search(r"(\d+) ok, (\d+) failed", summ)
 assert m and int(m.group(2)) == len(bad), "summary failed count %s vs %d" % (m and m.group(2), len(bad))
+slow = 0
 for r in bad:
-    assert r["reason"] and "out of range" in r["reason"], r
+    assert r["reason"], r
     assert r["energy_Mt"] == "", "failed member has an output"
-    assert float(r["impactor.speed_km_s"]) < 11.0, r
+    if float(r["impactor.speed_km_s"]) < 11.0:
+        assert r["status"] == "bad_data" and "out of range (valid range: 11 to 73 km/s)" in r["reason"], r
+        slow += 1
 for r in rows:
     if r["status"] == "ok":
         assert 11.0 <= float(r["impactor.speed_km_s"]) <= 73.0
+assert slow >= 1, "no member below 11 km/s with this seed"
 print("failed", len(bad))
 EOF
 if [ $? -eq 0 ]; then sl_ok "all 300 members in order; failures kept with reason ($(cat "$SL_TMP/py.txt"))"; else
@@ -113,7 +117,7 @@ for i, r in enumerate(rows):
         assert st[i] == 0 and abs(e[i] - float(r["energy_Mt"])) <= 1e-11 * abs(e[i])
     else:
         assert st[i] != 0 and np.ma.is_masked(e[i])
-        assert "out of range" in "".join(c.decode() for c in ds["reason"][i].compressed())
+        assert "".join(c.decode() for c in ds["reason"][i].compressed()) == r["reason"]
 print("ok")
 EOF
 if [ $? -eq 0 ]; then sl_ok "netCDF member file matches the CSV"; else
@@ -156,11 +160,20 @@ ab = [int(float(r["airburst"])) for r in rows]
 k = ab.index(0)
 assert all(x == 1 for x in ab[:k]) and all(x == 0 for x in ab[k:]), ab
 assert W[-1] > 10 * W[k], W
+# Stratospheric water grows with size for sea impacts up to 340 m (a factor
+# > 1000 from the first impact to 340 m).  Beyond ~350 m the sea plume's own
+# fireball outgrows the scale height and the blow-out rule of the plume stage
+# places its water from the sea surface up, most of it below the tropopause,
+# so the trend breaks there: a property of that rule, not tested here.
+S = [float(r["strat_water_Tg"]) for r in rows]
+imp = [i for i in range(k, len(d)) if d[i] <= 340]
+assert all(S[j] > S[i] for i, j in zip(imp, imp[1:])), [S[i] for i in imp]
+assert S[imp[-1]] > 1000 * S[imp[0]] > 0, (S[imp[0]], S[imp[-1]])
 print("%g %g" % (d[k - 1], d[k]))
 EOF
 if [ $? -eq 0 ]; then
   set -- $(cat "$SL_TMP/py.txt"); lo=$1; hi=$2
-  sl_ok "sweep: energy = (pi/6) rho D^3 v^2/2, water grows with size, one transition ($lo-$hi m)"
+  sl_ok "sweep: energy = (pi/6) rho D^3 v^2/2, vaporised and stratospheric water grow with size, one transition ($lo-$hi m)"
 else
   sl_fail "sweep over diameter"; sed 's/^/#   /' "$SL_TMP/py.txt" | tail -3; lo=""; fi
 # The transition of the sweep is where the entry model puts it for single runs:
@@ -234,8 +247,9 @@ sl_expect_exit 66 "missing scenario" "$SL_BIN" ensemble "$SL_TMP/none.ini"
 # ---- MPI: `make MPI=1` in its own build directory; 2 ranks give the same file.
 if command -v mpirun >/dev/null 2>&1 && command -v mpicc >/dev/null 2>&1; then
   export OMPI_MCA_btl_vader_single_copy_mechanism=none OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1
-  mb="${SL_MPI_BUILD:-$SL_SRCDIR/build-mpi}"
-  if (cd "$SL_SRCDIR" && make -s --no-print-directory MPI=1 BUILD="$mb" "$mb/steamloft") >"$SL_TMP/mk.txt" 2>&1; then
+  # BUILD relative to the source tree, as the Makefile's dependency files name it.
+  mbrel=build-mpi; mb="$SL_SRCDIR/$mbrel"
+  if (cd "$SL_SRCDIR" && make -s --no-print-directory MPI=1 BUILD=$mbrel $mbrel/steamloft) >"$SL_TMP/mk.txt" 2>&1; then
     sl_ok "make MPI=1 builds"
     (cd "$SL_TMP/t1" && OMP_NUM_THREADS=1 mpirun --allow-run-as-root --oversubscribe -np 2 "$mb/steamloft" \
       ensemble ../ens.ini -n 300 --seed 11 -o mpi.csv >mpi.txt 2>mpi.err)
