@@ -30,6 +30,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/resource.h>
 #include <sysexits.h>
 #include <unistd.h>
 
@@ -252,11 +253,13 @@ typedef struct ens_chain {
     size_t n_out;
     out_id which[O_N_OUT];
     sl_ens_output outputs[O_N_OUT];
+    double stage_s[SL_CHAIN_N_TIMED]; /* summed over the workspaces when they are freed */
 } ens_chain;
 
 typedef struct chain_ws {
     sl_scenario sc;
     sl_chain chain;
+    ens_chain *owner;
 } chain_ws;
 
 /* Set the member's inputs on a copy of the base scenario (range checks and
@@ -274,6 +277,9 @@ static void chain_ws_free(void *p)
     chain_ws *w = p;
     if (w == NULL)
         return;
+    /* Workspaces are freed serially after the member loop: no race. */
+    for (int k = 0; k < SL_CHAIN_N_TIMED; k++)
+        w->owner->stage_s[k] += w->chain.stage_s[k];
     sl_chain_free(&w->chain);
     free(w);
 }
@@ -284,7 +290,7 @@ static void chain_ws_free(void *p)
  * that warm-up run is not an error (members report their own). */
 static void *chain_ws_new(void *ctx, sl_err *e)
 {
-    const ens_chain *c = ctx;
+    ens_chain *c = ctx;
     chain_ws *w = calloc(1, sizeof *w);
     if (w == NULL) {
         sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "out of memory for a chain workspace");
@@ -295,8 +301,12 @@ static void *chain_ws_new(void *ctx, sl_err *e)
         si[k] = sl_dist_median(&c->plan->inputs[k].dist) * c->plan->inputs[k].to_si;
     sl_err warm;
     sl_err_clear(&warm);
+    w->owner = c;
     if (set_inputs(c, &w->sc, si, &warm) == SL_OK)
         (void)sl_chain_run(&w->sc, &w->chain, &warm);
+    /* Time only the members. */
+    for (int k = 0; k < SL_CHAIN_N_TIMED; k++)
+        w->chain.stage_s[k] = 0;
     return w;
 }
 
@@ -724,6 +734,24 @@ static void print_summary(FILE *f, const ens_cli *c, const sl_ens_plan *p, const
     fprintf(f, "%s\n", sl_cli_caution());
 }
 
+/* -v: peak memory and where the time went (for `make bench`). */
+static void print_timing(const ens_chain *ch, const sl_ens_result *r)
+{
+    struct rusage ru;
+    if (getrusage(RUSAGE_SELF, &ru) == 0)
+        fprintf(stderr, "steamloft: peak resident memory %.1f MiB (getrusage ru_maxrss)\n",
+                (double)ru.ru_maxrss / 1024.0);
+    double total = 0;
+    for (int k = 0; k < SL_CHAIN_N_TIMED; k++)
+        total += ch->stage_s[k];
+    double busy = r->wall_s * r->threads;
+    fprintf(stderr, "steamloft: time per member %.4g ms per thread; chain stages (rank 0, all threads):",
+            r->n_members ? 1e3 * busy / (double)r->n_members : 0.0);
+    for (int k = 0; k < SL_CHAIN_N_TIMED; k++)
+        fprintf(stderr, " %s %.1f %%", sl_chain_stage_names[k], total > 0 ? 100 * ch->stage_s[k] / total : 0.0);
+    fprintf(stderr, "; outside the chain %.1f %%\n", busy > 0 ? 100 * (busy - total) / busy : 0.0);
+}
+
 /* ------------------------------------------------------------ the command */
 
 static void print_help(const char *cmd)
@@ -989,6 +1017,8 @@ static int run_command(int argc, char **argv, const sl_cli_globals *g, int sweep
         }
         if (st == SL_OK)
             print_summary(csv_stdout ? stderr : stdout, &c, &plan, &model, &res, thr, thr_out, &e);
+        if (st == SL_OK && g->verbosity > 0)
+            print_timing(&chain, &res);
     }
     if (sink.csv && sink.csv != stdout)
         fclose(sink.csv);

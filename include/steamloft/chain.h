@@ -20,6 +20,11 @@
 #include "steamloft/plume.h"
 #include "steamloft/scenario.h"
 
+/* Stages timed by sl_chain_run (for `make bench`). */
+enum { SL_CHAIN_T_ATMOSPHERE = 0, SL_CHAIN_T_ENTRY, SL_CHAIN_T_PARTITION, SL_CHAIN_T_PLUME,
+       SL_CHAIN_N_TIMED };
+extern const char *const sl_chain_stage_names[SL_CHAIN_N_TIMED];
+
 typedef struct sl_chain {
     sl_scenario scenario;          /* copy of the scenario last run */
     sl_atmosphere atmosphere;      /* the background profile */
@@ -33,6 +38,7 @@ typedef struct sl_chain {
     int have_plume;
     sl_injection injection;        /* lofted water by altitude band */
     double band_bottom_m, band_top_m, band_width_m; /* the bands the injection holds */
+    double stage_s[SL_CHAIN_N_TIMED]; /* wall-clock seconds per stage, summed over runs */
 } sl_chain;
 
 /* Run every stage for the finished scenario SC into CH.  On failure CH keeps
