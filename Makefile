@@ -43,7 +43,7 @@ TESTBIN  := $(TESTSRC:tests/%.c=$(BUILD)/tests/%)
 GITHASH  := $(shell git rev-parse --short=12 HEAD 2>/dev/null || echo unknown)
 
 .PHONY: all build check check-run demo demo-run bench bench-run sanitize fuzz deps \
-        ensure-deps install clean check-symbols FORCE
+        ensure-deps install clean check-symbols atmospheres FORCE
 
 all: ensure-deps
 	@$(MAKE) --no-print-directory build
@@ -88,7 +88,7 @@ check-run: build check-symbols
 
 # Every exported symbol of the library starts with sl_ (style rule, DEVELOPERS.md).
 check-symbols: $(LIB)
-	@bad=$$(nm -g --defined-only $(LIB) | awk 'NF==3 && $$2 ~ /^[TDBRC]$$/ {print $$3}' | grep -v '^sl_' || true); \
+	@bad=$$(nm -g --defined-only $(LIB) | awk 'NF==3 && $$2 ~ /^[TDBRC]$$/ {print $$3}' | grep -v -e '^sl_' -e '^__odr_asan[._]' || true); \
 	if [ -n "$$bad" ]; then echo "check-symbols: exported without sl_ prefix:"; echo "$$bad"; exit 1; fi; \
 	echo "check-symbols: all exported symbols start with sl_"
 
@@ -99,6 +99,10 @@ bench: ensure-deps
 
 bench-run: $(BIN)
 	@scripts/bench.sh $(BUILD)
+
+# Regenerate the shipped profiles in atmospheres/ (scripts/make-atmospheres.sh).
+atmospheres: build
+	scripts/make-atmospheres.sh $(BIN) atmospheres
 
 sanitize: ensure-deps
 	@$(MAKE) --no-print-directory BUILD=build-sanitize OPENMP=$(OPENMP) \

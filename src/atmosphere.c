@@ -532,9 +532,9 @@ static void copy_str(char *dst, size_t cap, const char *src)
     snprintf(dst, cap, "%s", src ? src : "");
 }
 
-int sl_atmosphere_build_(sl_atmosphere *atm, const char *name, const char *source, size_t n,
-                         const double *altitude_m, const double *temperature_K, const double *pressure_Pa,
-                         const double *h2o_mole_fraction, int water_mode, sl_err *e)
+static int build_body(sl_atmosphere *atm, const char *name, const char *source, size_t n,
+                      const double *altitude_m, const double *temperature_K, const double *pressure_Pa,
+                      const double *h2o_mole_fraction, int water_mode, sl_err *e)
 {
     const char *nm = name ? name : "profile";
     if (n < 3)
@@ -569,7 +569,7 @@ int sl_atmosphere_build_(sl_atmosphere *atm, const char *name, const char *sourc
                            "atmosphere '%s': level %zu: water mole fraction %g is not within 0 to 0.5", nm, i + 1,
                            h2o_mole_fraction[i]);
     }
-    sl_atmosphere_free(atm);
+    memset(atm, 0, sizeof *atm);
     copy_str(atm->name, sizeof atm->name, nm);
     copy_str(atm->source, sizeof atm->source, source);
     SL_TRY_RETURN(e, alloc_levels(atm, n, e));
@@ -614,6 +614,21 @@ int sl_atmosphere_build_(sl_atmosphere *atm, const char *name, const char *sourc
     }
     find_markers(atm);
     SL_TRY_RETURN(e, strat_water(atm, e));
+    return SL_OK;
+}
+
+int sl_atmosphere_build_(sl_atmosphere *atm, const char *name, const char *source, size_t n,
+                         const double *altitude_m, const double *temperature_K, const double *pressure_Pa,
+                         const double *h2o_mole_fraction, int water_mode, sl_err *e)
+{
+    /* On failure nothing stays allocated: ATM is left zeroed. */
+    memset(atm, 0, sizeof *atm);
+    const int rc = build_body(atm, name, source, n, altitude_m, temperature_K, pressure_Pa, h2o_mole_fraction,
+                              water_mode, e);
+    if (rc != SL_OK) {
+        sl_atmosphere_free(atm);
+        return sl_err_push(e, rc, __func__, __LINE__);
+    }
     return SL_OK;
 }
 
@@ -755,6 +770,7 @@ int sl_atmosphere_init(sl_atmosphere *atm, const char *name_or_path, sl_err *e)
 {
     if (!atm || !name_or_path)
         SL_FAIL_RETURN(e, SL_EINTERNAL, "sl_atmosphere_init: NULL argument");
+    memset(atm, 0, sizeof *atm);
     if (strcmp(name_or_path, "us1976") == 0) {
         SL_TRY_RETURN(e, init_us1976(atm, e));
         return SL_OK;

@@ -28,7 +28,9 @@
  * pressure drop, T = g M0 dz / (R* ln(p1/p2)), within a factor 2 of the
  * given one: catches km-for-m and similar unit mistakes), and the lowest
  * pressure within a factor 3 of the U.S. Standard Atmosphere at that altitude
- * (catches hPa-for-Pa).  Messages name the file and the line, or the netCDF
+ * (catches hPa-for-Pa).  A profile starting between 0 and 2000 m is extended
+ * to 0 m by one isothermal hydrostatic layer (noted in the source line), so
+ * plumes can start at the sea surface.  Messages name the file and the line, or the netCDF
  * variable and index, and the valid range; all are SL_EDATA (exit 65). */
 #include "atmosphere_internal.h"
 
@@ -203,6 +205,39 @@ static void reverse_sz(size_t *a, size_t n)
         a[i] = a[j];
         a[j] = t;
     }
+}
+
+
+/* Build ATM from checked levels; a profile starting between 0 and 2000 m is
+ * first extended to 0 m with one isothermal level in hydrostatic balance:
+ * p(0) = p(z0) exp(g z0 [(1-x)/Rd + x/Rv] / T0), g at z0/2. */
+#define SURFACE_EXTENSION_MAX_M 2000.0
+static int build_extended(sl_atmosphere *atm, const char *name, const char *source, size_t n, const double *z,
+                          const double *t, const double *p, const double *x, sl_err *e)
+{
+    if (!(z[0] > 0.0 && z[0] <= SURFACE_EXTENSION_MAX_M))
+        return sl_atmosphere_build_(atm, name, source, n, z, t, p, x, SL_ATM_WATER_BACKGROUND, e);
+    double *buf = malloc(4 * (n + 1) * sizeof(double));
+    if (!buf)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere '%s': out of memory", name);
+    double *z2 = buf, *t2 = buf + (n + 1), *p2 = buf + 2 * (n + 1), *x2 = buf + 3 * (n + 1);
+    const double x0 = x ? x[0] : 0.0;
+    z2[0] = 0.0;
+    t2[0] = t[0];
+    x2[0] = x0;
+    p2[0] = p[0] * exp(sl_atmosphere_gravity_m_s2(0.5 * z[0]) * z[0] *
+                       ((1.0 - x0) / SL_R_DRY_AIR_J_KG_K + x0 / SL_R_VAPOR_J_KG_K) / t[0]);
+    memcpy(z2 + 1, z, n * sizeof(double));
+    memcpy(t2 + 1, t, n * sizeof(double));
+    memcpy(p2 + 1, p, n * sizeof(double));
+    if (x)
+        memcpy(x2 + 1, x, n * sizeof(double));
+    char src2[512];
+    snprintf(src2, sizeof src2, "%.400s; extended isothermally from %.6g m down to 0 m", source, z[0]);
+    const int rc = sl_atmosphere_build_(atm, name, src2, n + 1, z2, t2, p2, x ? x2 : NULL,
+                                        SL_ATM_WATER_BACKGROUND, e);
+    free(buf);
+    return rc;
 }
 
 /* ---- text reader ---------------------------------------------------------- */
@@ -428,8 +463,8 @@ int sl_atmosphere_read_text_(sl_atmosphere *atm, const char *path, sl_err *e)
         char source[512];
         snprintf(source, sizeof source, "file %.100s%s%.140s%s", path, src[0] ? ": " : "", src,
                  has_h2o ? "" : "; background water model");
-        rc = sl_atmosphere_build_(atm, name, source, b.n, b.v[Q_ALT], b.v[Q_TEMP], b.v[Q_PRES],
-                                  has_h2o ? b.v[Q_H2O] : NULL, SL_ATM_WATER_BACKGROUND, e);
+        rc = build_extended(atm, name, source, b.n, b.v[Q_ALT], b.v[Q_TEMP], b.v[Q_PRES],
+                            has_h2o ? b.v[Q_H2O] : NULL, e);
     }
     text_buf_free(&b);
     return rc == SL_OK ? SL_OK : sl_err_push(e, rc, __func__, __LINE__);
@@ -481,8 +516,9 @@ static int nc_units(const char *path, int ncid, nc_var *v, enum qty q, sl_err *e
     static const char *const kel[] = {"K", "kelvin", "Kelvin", "degK", NULL};
     static const char *const cel[] = {"degC", "degree_Celsius", "degrees_Celsius", "celsius", "Celsius", NULL};
     static const char *const pa[] = {"Pa", "pascal", "Pascal", NULL};
-    static const char *const hpa[] = {"hPa", "mbar", "millibar", "mb", NULL};
-    static const char *const one[] = {"1", "mol mol-1", "mol/mol", "kg kg-1", "kg/kg", "", NULL};
+    static const char *const hpa[] = {"hPa", "mbar", "millibar", "millibars", "mb", NULL};
+    static const char *const one[] = {"1",         "mol mol-1", "mol/mol",   "mol mol**-1", "kg kg-1",
+                                      "kg kg**-1", "kg/kg",     "kg kg^-1",  "",            NULL};
     static const char *const ppmv[] = {"1e-6", "ppmv", "ppm", NULL};
     static const char *const gkg[] = {"g kg-1", "g/kg", NULL};
     const char *sn = v->standard_name;
@@ -668,7 +704,9 @@ static int read_netcdf(int ncid, const char *path, sl_atmosphere *atm, sl_err *e
         found[q] = 1;
     }
     static const char *need[3] = {"altitude (or height_above_mean_sea_level, geopotential_height, geopotential)",
-                                  "air_temperature", "air_pressure"};
+                                  "air_temperature",
+                                  "air_pressure (a pressure-level coordinate without one can be given it with "
+                                  "'ncatted -a standard_name,LEVEL,c,c,air_pressure FILE')"};
     for (int q = Q_ALT; q <= Q_PRES; q++)
         if (!found[q])
             SL_FAIL_RETURN(e, SL_EDATA, "%s: no variable with standard_name %s", path, need[q]);
@@ -708,8 +746,7 @@ static int read_netcdf(int ncid, const char *path, sl_atmosphere *atm, sl_err *e
             title[0] = '\0';
         snprintf(source, sizeof source, "netCDF file %.100s%s%.100s%s", path, title[0] ? ": " : "", title,
                  found[Q_H2O] ? "" : "; background water model");
-        rc = sl_atmosphere_build_(atm, name, source, n, col[Q_ALT], col[Q_TEMP], col[Q_PRES], col[Q_H2O],
-                                  SL_ATM_WATER_BACKGROUND, e);
+        rc = build_extended(atm, name, source, n, col[Q_ALT], col[Q_TEMP], col[Q_PRES], col[Q_H2O], e);
     }
     for (int q = 0; q < Q_N; q++)
         free(col[q]);

@@ -130,6 +130,13 @@ START_TEST(test_us1976_profile)
         ck_assert_int_eq(sl_atmosphere_at(&a, zm, &s, &e), SL_OK);
         SL_CK_ABS(s.temperature_K, t, 0.25);
     }
+    /* N in the standard's isothermal layer (11-20 km geopotential, 216.65 K):
+     * g/sqrt(cp T) exactly (DERIVED; the Steffen spline of constant data has
+     * zero slope), checked away from the layer joints. */
+    for (double zq = 11500.0; zq < 19800.0; zq += 1111.0) {
+        ck_assert_int_eq(sl_atmosphere_at(&a, zq, &s, &e), SL_OK);
+        SL_CK_REL(sqrt(s.n2_per_s2), s.gravity_m_s2 / sqrt(SL_CP_DRY_AIR_J_KG_K * 216.65), 1e-12);
+    }
     /* WMO tropopause of the standard: the 11 km geopotential layer base
      * (11019.1 m geometric), 216.65 K, 22632.1 Pa (USSA76, SEEN). */
     SL_CK_ABS(a.tropopause_altitude_m, geometric_of(11000.0), 0.01);
@@ -420,10 +427,97 @@ START_TEST(test_init_levels_errors)
 }
 END_TEST
 
+
+static const char *srcdir(void)
+{
+    const char *d = getenv("SL_SRCDIR");
+    return d && *d ? d : ".";
+}
+
+START_TEST(test_netcdf_readback)
+{
+    /* A CF netCDF column written by ncgen (netcdf-bin, the reference netCDF
+     * tool) from tests/atmos_column.cdl is read back exactly: the values of
+     * the CDL after the documented conversions (geopotential height to
+     * geometric altitude z = r0 H/(r0 - H), packed shorts t = 250 + 0.01 s,
+     * hPa to Pa, specific humidity to mole fraction), bottom-up.  Tolerance
+     * 1e-12: double rounding only (PRACTICE). */
+    char dir[] = "/tmp/sl_atmos_nc_XXXXXX";
+    ck_assert(mkdtemp(dir) != NULL);
+    char nc[256], cmd[1024];
+    snprintf(nc, sizeof nc, "%s/column.nc", dir);
+    snprintf(cmd, sizeof cmd, "ncgen -o '%s' '%s/tests/atmos_column.cdl'", nc, srcdir());
+    ck_assert_msg(system(cmd) == 0, "ncgen failed: %s", cmd);
+    sl_atmosphere a;
+    memset(&a, 0, sizeof a);
+    sl_err e = {0};
+    ck_assert_msg(sl_atmosphere_init(&a, nc, &e) == SL_OK, "%s", e.msg);
+    static const double hpa[8] = {1000, 850, 500, 300, 200, 100, 50, 10};
+    static const double zgp[8] = {111, 1457, 5574, 9164, 11784, 16180, 20576, 31055};
+    static const short ts[8] = {3800, 3100, 200, -2200, -3200, -4000, -3700, -2200};
+    static const double q[8] = {0.008, 0.005, 0.001, 0.0001, 1e-05, 3e-06, 2.6e-06, 3.5e-06};
+    /* 8 levels plus the isothermal extension from 111 m down to 0 m. */
+    ck_assert_uint_eq(a.n, 9);
+    for (int i = 0; i < 8; i++) {
+        SL_CK_REL(a.altitude_m[i + 1], geometric_of(zgp[i]), 1e-12);
+        SL_CK_REL(a.temperature_K[i + 1], 250.0 + 0.01 * ts[i], 1e-12);
+        SL_CK_REL(a.pressure_Pa[i + 1], hpa[i] * 100.0, 1e-12);
+        const double x = sl_water_mole_fraction_from_mixing_ratio(sl_water_mixing_ratio_from_specific_humidity(q[i]));
+        SL_CK_REL(a.h2o_mole_fraction[i + 1], x, 1e-12);
+    }
+    /* The extension: 0 m, 288 K, and the barometric formula for 111 m of
+     * isothermal air (DERIVED, p0 = p exp(g dz / (R T)); moist R within
+     * 0.5 %: 1e-4 on p). */
+    SL_CK_ABS(a.altitude_m[0], 0.0, 0.0);
+    SL_CK_ABS(a.temperature_K[0], 288.0, 1e-12);
+    SL_CK_REL(a.pressure_Pa[0], 1.0e5 * exp(9.80665 * geometric_of(111.0) / (287.053 * 288.0)), 1e-4);
+    ck_assert(strstr(a.source, "extended isothermally") != NULL);
+    ck_assert(strstr(a.source, "invented values") != NULL);
+    sl_atmosphere_free(&a);
+    snprintf(cmd, sizeof cmd, "rm -rf '%s'", dir);
+    ck_assert(system(cmd) == 0);
+}
+END_TEST
+
+START_TEST(test_shipped_files)
+{
+    /* The shipped text profiles (atmospheres/NAME.txt) read back as the
+     * built-ins to the printed precision (PRACTICE: altitude to 0.005 m,
+     * temperature to 5e-6 K, pressure to 10 digits, water to 8 digits); the
+     * derived markers and the stratospheric column agree to 1e-6. */
+    for (int k = 0; sl_atmosphere_builtin_names[k]; k++) {
+        const char *nm = sl_atmosphere_builtin_names[k];
+        char path[512];
+        snprintf(path, sizeof path, "%s/atmospheres/%s.txt", srcdir(), nm);
+        sl_atmosphere b, f;
+        memset(&b, 0, sizeof b);
+        memset(&f, 0, sizeof f);
+        sl_err e = {0};
+        ck_assert_msg(sl_atmosphere_init(&b, nm, &e) == SL_OK, "%s", e.msg);
+        ck_assert_msg(sl_atmosphere_init(&f, path, &e) == SL_OK, "%s", e.msg);
+        ck_assert_str_eq(f.name, nm);
+        ck_assert_uint_eq(f.n, b.n);
+        for (size_t i = 0; i < b.n; i++) {
+            SL_CK_ABS(f.altitude_m[i], b.altitude_m[i], 0.005);
+            SL_CK_ABS(f.temperature_K[i], b.temperature_K[i], 5e-6);
+            SL_CK_REL(f.pressure_Pa[i], b.pressure_Pa[i], 5e-10);
+            SL_CK_REL(f.h2o_mole_fraction[i], b.h2o_mole_fraction[i], 5e-8);
+        }
+        SL_CK_ABS(f.tropopause_altitude_m, b.tropopause_altitude_m, 0.005);
+        SL_CK_ABS(f.stratopause_altitude_m, b.stratopause_altitude_m, 0.005);
+        SL_CK_REL(f.strat_water_column_kg_m2, b.strat_water_column_kg_m2, 1e-6);
+        sl_atmosphere_free(&b);
+        sl_atmosphere_free(&f);
+    }
+}
+END_TEST
+
 START_TEST(test_query_speed)
 {
     /* Performance guard (PRACTICE): a query allocates nothing and costs
-     * about 0.1 us; one million in under 2 s even under sanitizers. */
+     * about 0.1 us optimised (2.5 us under ASan+UBSan); a query that rebuilt
+     * or searched tables the slow way (about 10 us) would break the 8 s
+     * limit for one million. */
     sl_atmosphere a;
     memset(&a, 0, sizeof a);
     sl_err e = {0};
@@ -436,7 +530,7 @@ START_TEST(test_query_speed)
         sum += s.density_kg_m3;
     }
     const double secs = (double)(clock() - c0) / CLOCKS_PER_SEC;
-    ck_assert_msg(secs < 2.0, "1e6 queries took %.3f s", secs);
+    ck_assert_msg(secs < 8.0, "1e6 queries took %.3f s", secs);
     ck_assert(sum > 0.0);
     sl_atmosphere_free(&a);
 }
@@ -458,6 +552,8 @@ static Suite *atmosphere_suite(void)
     tcase_add_test(tc, test_climate_zone_surface_pressure);
     tcase_add_test(tc, test_background_water);
     tcase_add_test(tc, test_init_levels_errors);
+    tcase_add_test(tc, test_netcdf_readback);
+    tcase_add_test(tc, test_shipped_files);
     tcase_add_test(tc, test_query_speed);
     suite_add_tcase(s, tc);
     return s;

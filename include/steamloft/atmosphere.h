@@ -21,7 +21,8 @@ typedef struct sl_atmos_state {
     double pressure_Pa;
     double density_kg_m3;       /* moist-air density */
     double h2o_mole_fraction;   /* background water vapour, mol mol-1 */
-    double n2_per_s2;           /* squared buoyancy frequency N^2, s-2 */
+    double n2_per_s2;           /* squared buoyancy frequency of dry air,
+                                   N^2 = (g/T)(dT/dz + g/cp), s-2 */
     double ice_saturation_mole_fraction; /* e_ice(T)/p, mol mol-1 */
     double gravity_m_s2;        /* g at this altitude (inverse square) */
 } sl_atmos_state;
@@ -62,14 +63,20 @@ extern const char *const sl_atmosphere_builtin_names[];
 
 /* Build profile NAME_OR_PATH: a built-in name, else a text or CF netCDF file.
  * Fails with SL_EDATA (bad content, naming file and line or variable),
- * SL_ENOINPUT (cannot open) or SL_ENOMEM. */
+ * SL_ENOINPUT (cannot open) or SL_ENOMEM.  ATM's previous contents are
+ * ignored (free an initialised profile first); on failure ATM is left zeroed
+ * with nothing to free, on success release it with sl_atmosphere_free.
+ * A file profile whose lowest level lies between 0 and 2000 m (a reanalysis
+ * column whose 1000 hPa level is at 100 m, say) is extended down to 0 m
+ * isothermally and hydrostatically; the source line says so. */
 int sl_atmosphere_init(sl_atmosphere *atm, const char *name_or_path, sl_err *e);
 
 /* Build a profile named NAME from N >= 3 levels (copied; strictly increasing
  * finite altitudes, temperatures 50-2000 K).  PRESSURE_PA_OR_NULL NULL: the
  * pressure is integrated hydrostatically (moist air, inverse-square gravity)
  * from 101325 Pa at the lowest level.  H2O_MOLE_FRACTION_OR_NULL NULL: dry air.
- * Fails with SL_EDATA naming the level, or SL_ENOMEM. */
+ * Fails with SL_EDATA naming the level, or SL_ENOMEM; ATM as for
+ * sl_atmosphere_init. */
 int sl_atmosphere_init_levels(sl_atmosphere *atm, const char *name, size_t n, const double *altitude_m,
                               const double *temperature_K, const double *pressure_Pa_or_NULL,
                               const double *h2o_mole_fraction_or_NULL, sl_err *e);
