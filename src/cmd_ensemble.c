@@ -134,7 +134,12 @@ static int check_support(const sl_dist *d, int id, const char *where, int quiet,
 static int build_plan(const ens_cli *c, sl_scenario *sc, sl_ens_plan *p, int *ids, int quiet,
                       sl_err *e)
 {
-    SL_TRY_RETURN(e, sl_scenario_read(sc, c->scenario, e));
+    char *text = NULL;
+    if (strcmp(c->scenario, "-") == 0)
+        SL_TRY_RETURN(e, sl_ens_share_stdin(&text, 1 << 20, e));
+    int rc = text ? sl_scenario_read_string(sc, "<stdin>", text, e) : sl_scenario_read(sc, c->scenario, e);
+    free(text);
+    SL_TRY_RETURN(e, rc);
     for (int id = 0; id < SL_P_COUNT; id++) {
         int line = 0;
         const char *raw = sl_scenario_raw(sc, (sl_param_id)id, &line);

@@ -590,6 +590,56 @@ void sl_ens_mpi_end(void)
 #endif
 }
 
+int sl_ens_share_stdin(char **text, size_t max_bytes, sl_err *e)
+{
+    *text = NULL;
+#ifdef SL_HAVE_MPI
+    int init = 0, size = 1, rank = 0;
+    MPI_Initialized(&init);
+    if (init) {
+        MPI_Comm_size(MPI_COMM_WORLD, &size);
+        MPI_Comm_rank(MPI_COMM_WORLD, &rank);
+    }
+    if (size < 2)
+        return SL_OK;
+    /* hdr[0] status, hdr[1] length */
+    long long hdr[2] = {SL_OK, 0};
+    char *buf = NULL;
+    if (rank == 0) {
+        buf = malloc(max_bytes + 2);
+        if (buf == NULL) {
+            hdr[0] = SL_ENOMEM;
+        } else {
+            size_t n = fread(buf, 1, max_bytes + 1, stdin);
+            if (ferror(stdin))
+                hdr[0] = SL_EIO;
+            else if (n > max_bytes)
+                hdr[0] = SL_ECONFIG;
+            hdr[1] = (long long)n;
+        }
+    }
+    MPI_Bcast(hdr, 2, MPI_LONG_LONG, 0, MPI_COMM_WORLD);
+    if (hdr[0] != SL_OK) {
+        free(buf);
+        SL_FAIL_RETURN(e, (int)hdr[0], "<stdin>: %s", hdr[0] == SL_EIO ? "read error"
+                       : hdr[0] == SL_ECONFIG ? "too large for a scenario file" : "out of memory");
+    }
+    size_t n = (size_t)hdr[1];
+    if (rank != 0) {
+        buf = malloc(n + 1);
+        if (buf == NULL)
+            MPI_Abort(MPI_COMM_WORLD, 71); /* cannot take part in the collective any more */
+    }
+    MPI_Bcast(buf, (int)n, MPI_CHAR, 0, MPI_COMM_WORLD);
+    buf[n] = '\0';
+    *text = buf;
+#else
+    (void)max_bytes;
+    (void)e;
+#endif
+    return SL_OK;
+}
+
 int sl_ens_agree(int status, sl_err *e)
 {
 #ifdef SL_HAVE_MPI

@@ -242,6 +242,14 @@ int sl_ens_is_root(void);
 void sl_ens_mpi_begin(void);
 void sl_ens_mpi_end(void);
 
+/* With MPI on more than one rank, mpirun gives standard input to rank 0 only:
+ * read it there (at most MAX_BYTES) and broadcast it, so every rank can parse
+ * the same scenario '-'.  *TEXT gets a malloc'd NUL-terminated copy on every
+ * rank (free it), or NULL when not running on several ranks (read stdin
+ * directly then).  Every rank returns the same status: SL_EIO for a read
+ * error, SL_ECONFIG when the input exceeds MAX_BYTES, SL_ENOMEM. */
+int sl_ens_share_stdin(char **text, size_t max_bytes, sl_err *e);
+
 /* Make every rank agree on a status before collective work: returns the
  * worst (largest) status over the ranks; a rank that was fine but sees
  * another fail gets a message saying so.  Without MPI returns STATUS. */

@@ -263,6 +263,11 @@ if command -v mpirun >/dev/null 2>&1 && command -v mpicc >/dev/null 2>&1; then
     if cmp -s "$SL_TMP/t1/m.csv" "$SL_TMP/t1/mpi.csv"; then sl_ok "mpirun -np 2 gives the single-process CSV"; else
       sl_fail "mpirun -np 2 CSV differs"; sed 's/^/#   /' "$SL_TMP/t1/mpi.err" | head -5; fi
     sl_expect_grep "$SL_TMP/t1/mpi.txt" "on 2 ranks" "the MPI run used 2 ranks"
+    # Sobol points and a scenario on standard input (rank 0 reads, broadcasts).
+    (cd "$SL_TMP/t1" && mpirun --allow-run-as-root --oversubscribe -np 2 "$mb/steamloft" \
+      ensemble - -n 64 --sobol -o mpisob.csv <../ens.ini >/dev/null 2>mpi.err)
+    if cmp -s "$SL_TMP/t1/sob.csv" "$SL_TMP/t1/mpisob.csv"; then sl_ok "mpirun -np 2: Sobol from stdin gives the single-process CSV"; else
+      sl_fail "mpirun -np 2 Sobol/stdin CSV differs"; sed 's/^/#   /' "$SL_TMP/t1/mpi.err" | head -5; fi
   else
     sl_fail "make MPI=1"; sed 's/^/#   /' "$SL_TMP/mk.txt" | tail -5
   fi
