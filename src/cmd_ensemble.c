@@ -52,6 +52,7 @@ typedef struct ens_cli {
     size_t nvary;
     int threads;
     int progress;          /* -1 auto (stderr is a terminal), 0 off, 1 on */
+    int json;              /* summary as JSON */
     size_t block;
     const char *scenario;
 } ens_cli;
@@ -626,6 +627,132 @@ static void sink_free(ens_sink *s)
 
 /* ------------------------------------------------------------ summary */
 
+/* 5, 50, 95 and the user's percentiles, sorted, without repeats. */
+static size_t percentile_list(const ens_cli *c, double *pct)
+{
+    size_t np = 0;
+    pct[np++] = 5;
+    pct[np++] = 50;
+    pct[np++] = 95;
+    for (size_t k = 0; k < c->npct; k++) {
+        int dup = 0;
+        for (size_t q = 0; q < np; q++)
+            dup |= pct[q] == c->pct[k];
+        if (!dup)
+            pct[np++] = c->pct[k];
+    }
+    for (size_t a = 1; a < np; a++)
+        for (size_t b = a; b > 0 && pct[b - 1] > pct[b]; b--) {
+            double t = pct[b];
+            pct[b] = pct[b - 1];
+            pct[b - 1] = t;
+        }
+    return np;
+}
+
+/* A JSON string (escaped); non-finite numbers are written as null. */
+static void json_str(FILE *f, const char *s)
+{
+    fputc('"', f);
+    for (; *s; s++) {
+        unsigned char ch = (unsigned char)*s;
+        if (ch == '"' || ch == '\\')
+            fprintf(f, "\\%c", ch);
+        else if (ch < 0x20)
+            fprintf(f, "\\u%04x", ch);
+        else
+            fputc(ch, f);
+    }
+    fputc('"', f);
+}
+
+static void json_num(FILE *f, double x)
+{
+    if (isfinite(x))
+        fprintf(f, "%.10g", x);
+    else
+        fputs("null", f);
+}
+
+/* The summary as JSON, for scripts (--json). */
+static void print_summary_json(FILE *f, const ens_cli *c, const sl_ens_plan *p, const sl_ens_model *m,
+                               const sl_ens_result *r, const sl_ens_threshold *thr,
+                               const int *thr_out, sl_err *e)
+{
+    fprintf(f, "{\n  \"steamloft\": ");
+    json_str(f, sl_cli_version());
+    fprintf(f, ",\n  \"command\": \"%s\",\n  \"scenario\": ", c->cmd);
+    json_str(f, c->scenario);
+    fprintf(f, ",\n  \"sampling\": \"%s\",", p->mode == SL_ENS_GRID ? "grid" : p->mode == SL_ENS_SOBOL ? "sobol" : "monte_carlo");
+    if (p->mode == SL_ENS_MONTE_CARLO)
+        fprintf(f, "\n  \"seed\": %" PRIu64 ",", p->seed);
+    fprintf(f, "\n  \"members\": %zu,\n  \"ok\": %zu,\n  \"failed\": %zu,", r->n_members,
+            r->n_members - r->n_failed, r->n_failed);
+    if (r->n_failed) {
+        fprintf(f, "\n  \"first_failure\": {\"member\": %zu, \"reason\": ", r->first_failed_member);
+        json_str(f, r->first_failure);
+        fputs("},", f);
+    }
+    fputs("\n  \"inputs\": [", f);
+    for (size_t k = 0; k < p->n_inputs; k++) {
+        char desc[160];
+        sl_dist_describe(&p->inputs[k].dist, desc, sizeof desc);
+        fprintf(f, "%s\n    {\"key\": ", k ? "," : "");
+        json_str(f, p->inputs[k].key);
+        fputs(", \"distribution\": ", f);
+        json_str(f, desc);
+        fputc('}', f);
+    }
+    fputs("\n  ],\n  \"outputs\": {", f);
+    double pct[MAX_PCT + 3], v[MAX_PCT + 3];
+    size_t np = percentile_list(c, pct);
+    for (size_t j = 0; j < m->n_outputs; j++) {
+        double mean, sd, rho;
+        size_t nok;
+        sl_ens_mean_sd(r, j, &mean, &sd, &nok);
+        if (sl_ens_percentiles(r, j, pct, np, v, &nok, e) != SL_OK)
+            return;
+        fprintf(f, "%s\n    \"%s\": {\"n_ok\": %zu, \"mean\": ", j ? "," : "", m->outputs[j].name, nok);
+        json_num(f, mean);
+        fputs(", \"sd\": ", f);
+        json_num(f, sd);
+        fputs(", \"percentiles\": {", f);
+        for (size_t q = 0; q < np; q++) {
+            fprintf(f, "%s\"%g\": ", q ? ", " : "", pct[q]);
+            json_num(f, v[q]);
+        }
+        fputs("}, \"spearman\": {", f);
+        for (size_t k = 0; k < p->n_inputs; k++) {
+            if (sl_ens_spearman(r, k, j, &rho, e) != SL_OK)
+                rho = NAN;
+            fprintf(f, "%s", k ? ", " : "");
+            json_str(f, p->inputs[k].key);
+            fputs(": ", f);
+            json_num(f, rho);
+        }
+        fputs("}}", f);
+    }
+    fputs("\n  },\n  \"exceedance\": [", f);
+    for (size_t t = 0; t < c->nthr; t++) {
+        double pe, se;
+        size_t nok;
+        sl_ens_exceedance(r, (size_t)thr_out[t], &thr[t], &pe, &se, &nok);
+        const char *op = thr[t].op == '>' ? ">" : thr[t].op == 'g' ? ">=" : thr[t].op == '<' ? "<" : "<=";
+        fprintf(f, "%s\n    {\"output\": \"%s\", \"op\": \"%s\", \"threshold\": ", t ? "," : "",
+                thr[t].name, op);
+        json_num(f, thr[t].value);
+        fputs(", \"probability\": ", f);
+        json_num(f, pe);
+        fputs(", \"standard_error\": ", f);
+        json_num(f, se);
+        fprintf(f, ", \"n_ok\": %zu}", nok);
+    }
+    fprintf(f, "\n  ],\n  \"ranks\": %d,\n  \"threads\": %d,\n  \"wall_s\": %.4g,\n  \"caution\": ",
+            r->mpi_ranks, r->threads, r->wall_s);
+    json_str(f, sl_cli_caution());
+    fputs("\n}\n", f);
+}
+
 static void print_summary(FILE *f, const ens_cli *c, const sl_ens_plan *p, const sl_ens_model *m,
                           const sl_ens_result *r, const sl_ens_threshold *thr, const int *thr_out,
                           sl_err *e)
@@ -646,24 +773,7 @@ static void print_summary(FILE *f, const ens_cli *c, const sl_ens_plan *p, const
         fprintf(f, "  %-36s %s\n", p->inputs[k].key, desc);
     }
     double pct[MAX_PCT + 3];
-    size_t np = 0;
-    pct[np++] = 5;
-    pct[np++] = 50;
-    pct[np++] = 95;
-    for (size_t k = 0; k < c->npct; k++) {
-        int dup = 0;
-        for (size_t q = 0; q < np; q++)
-            dup |= pct[q] == c->pct[k];
-        if (!dup)
-            pct[np++] = c->pct[k];
-    }
-    /* sort the percentile list */
-    for (size_t a = 1; a < np; a++)
-        for (size_t b = a; b > 0 && pct[b - 1] > pct[b]; b--) {
-            double t = pct[b];
-            pct[b] = pct[b - 1];
-            pct[b - 1] = t;
-        }
+    size_t np = percentile_list(c, pct);
     fprintf(f, "\n%-28s %8s %11s %11s", "output", "n_ok", "mean", "sd");
     for (size_t q = 0; q < np; q++) {
         char h[16];
@@ -790,6 +900,7 @@ static void print_help(const char *cmd)
            "  -x, --exceed SPEC       probability that an output passes a threshold,\n"
            "                          e.g. percent_of_background>10 (repeatable)\n"
            "  -j, --threads N         OpenMP threads (default: OMP_NUM_THREADS or all cores)\n"
+           "      --json              the summary as JSON (for scripts)\n"
            "      --progress          draw the progress bar even when stderr is not a terminal\n"
            "      --no-progress       never draw it\n"
            "  -h, --help              print this help\n"
@@ -812,7 +923,7 @@ static int parse_size(const char *text, const char *what, size_t lo, size_t hi, 
 
 static int parse_args(int argc, char **argv, ens_cli *c, const sl_cli_globals *g, int *done)
 {
-    enum { OPT_SOBOL = 256, OPT_NETCDF, OPT_PROGRESS, OPT_NOPROGRESS, OPT_BLOCK };
+    enum { OPT_SOBOL = 256, OPT_NETCDF, OPT_PROGRESS, OPT_NOPROGRESS, OPT_BLOCK, OPT_JSON };
     static const struct option opts[] = {
         {"members", required_argument, NULL, 'n'}, {"seed", required_argument, NULL, 's'},
         {"sobol", no_argument, NULL, OPT_SOBOL},     {"output", required_argument, NULL, 'o'},
@@ -820,7 +931,8 @@ static int parse_args(int argc, char **argv, ens_cli *c, const sl_cli_globals *g
         {"percentiles", required_argument, NULL, 'p'}, {"exceed", required_argument, NULL, 'x'},
         {"vary", required_argument, NULL, 'V'},      {"threads", required_argument, NULL, 'j'},
         {"progress", no_argument, NULL, OPT_PROGRESS}, {"no-progress", no_argument, NULL, OPT_NOPROGRESS},
-        {"block", required_argument, NULL, OPT_BLOCK}, {"help", no_argument, NULL, 'h'},
+        {"block", required_argument, NULL, OPT_BLOCK}, {"json", no_argument, NULL, OPT_JSON},
+        {"help", no_argument, NULL, 'h'},
         {NULL, 0, NULL, 0}};
     sl_err e;
     sl_err_clear(&e);
@@ -883,6 +995,7 @@ static int parse_args(int argc, char **argv, ens_cli *c, const sl_cli_globals *g
             c->threads = (int)v;
             break;
         case OPT_PROGRESS: c->progress = 1; break;
+        case OPT_JSON: c->json = 1; break;
         case OPT_NOPROGRESS: c->progress = 0; break;
         case OPT_BLOCK:
             if (parse_size(optarg, "--block", 1, 1 << 20, &c->block, &e) != SL_OK)
@@ -1021,7 +1134,8 @@ static int run_command(int argc, char **argv, const sl_cli_globals *g, int sweep
             }
         }
         if (st == SL_OK)
-            print_summary(csv_stdout ? stderr : stdout, &c, &plan, &model, &res, thr, thr_out, &e);
+            (c.json ? print_summary_json : print_summary)(csv_stdout ? stderr : stdout, &c, &plan,
+                                                          &model, &res, thr, thr_out, &e);
         if (st == SL_OK && g->verbosity > 0)
             print_timing(&chain, &res);
     }

@@ -107,6 +107,42 @@ EOF
 if [ $? -eq 0 ]; then sl_ok "mean, sd, percentiles and exceedance match numpy ($(cat "$SL_TMP/py.txt"))"; else
   sl_fail "statistics vs numpy"; sed 's/^/#   /' "$SL_TMP/py.txt" | tail -3; fi
 
+# --json: every output's percentiles and Spearman coefficients against numpy
+# on the CSV (ranks with ties averaged, as scipy.stats.spearmanr does: MEM) to
+# 1e-9 (the JSON has 10 digits, the CSV 12).
+(cd "$SL_TMP/t1" && "$SL_BIN" ensemble ../ens.ini -n 300 --seed 11 --json -p 1,99 \
+  --exceed 'strat_water_Tg>=1' >summary.json 2>/dev/null)
+$PY - "$SL_TMP/t1/m.csv" "$SL_TMP/t1/summary.json" <<'EOF' >"$SL_TMP/py.txt" 2>&1
+import csv, json, sys
+import numpy as np
+rows = [r for r in csv.DictReader(open(sys.argv[1])) if r["status"] == "ok"]
+js = json.load(open(sys.argv[2]))
+assert js["members"] == 300 and js["seed"] == 11 and js["ok"] == len(rows)
+def ranks(a):
+    a = np.asarray(a); o = np.argsort(a, kind="stable"); r = np.empty(len(a)); r[o] = np.arange(1, len(a) + 1)
+    for v in np.unique(a):
+        m = a == v; r[m] = r[m].mean()
+    return r
+n = 0
+for name, o in js["outputs"].items():
+    y = np.array([float(r[name]) for r in rows])
+    for p, v in o["percentiles"].items():
+        w = np.percentile(y, float(p))
+        assert abs(v - w) <= 1e-9 * abs(w) + 1e-300, (name, p, v, w); n += 1
+    for key, rho in o["spearman"].items():
+        x = np.array([float(r[key]) for r in rows])
+        if np.all(y == y[0]) or np.all(x == x[0]):
+            assert rho is None; continue
+        w = np.corrcoef(ranks(x), ranks(y))[0, 1]
+        assert abs(rho - w) <= 1e-9, (name, key, rho, w); n += 1
+ex = js["exceedance"][0]
+y = np.array([float(r["strat_water_Tg"]) for r in rows])
+assert ex["op"] == ">=" and abs(ex["probability"] - np.mean(y >= 1)) <= 1e-9
+print(n, "values")
+EOF
+if [ $? -eq 0 ]; then sl_ok "--json percentiles and Spearman match numpy ($(cat "$SL_TMP/py.txt"))"; else
+  sl_fail "--json vs numpy"; sed 's/^/#   /' "$SL_TMP/py.txt" | tail -3; fi
+
 # netCDF: the member dimension holds every member; failed ones carry _FillValue.
 $PY - "$SL_TMP/t1/m.nc" "$SL_TMP/t1/m.csv" <<'EOF' >"$SL_TMP/py.txt" 2>&1
 import csv, sys
