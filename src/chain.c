@@ -5,7 +5,11 @@
  * level (Runge-Kutta stages overshoot the sea-level event) or above the top of
  * the profile; there the density is continued exponentially with the local
  * density scale height, H = R T / g, evaluated at the end level, which is the
- * isothermal hydrostatic continuation of the profile. */
+ * isothermal hydrostatic continuation of the profile.
+ *
+ * [site] atmosphere: a built-in name, or a profile file; a relative path in
+ * a scenario file is looked for next to that file first, then from the
+ * working directory. */
 #include "steamloft/chain.h"
 #include "steamloft/units.h"
 #include "steamloft/water.h"
@@ -25,6 +29,7 @@ static double chain_clock_s(void)
     clock_gettime(CLOCK_MONOTONIC, &ts);
     return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
 }
+#include <unistd.h>
 
 typedef struct air_ctx {
     const sl_atmosphere *atm;
@@ -67,7 +72,20 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         sl_atmosphere_free(&ch->atmosphere);
         ch->have_atmosphere = 0;
     }
-    int rc = sl_atmosphere_init(&ch->atmosphere, name, e);
+    /* A relative profile path in a scenario file is looked for next to the
+     * file first, then from the working directory. */
+    char near[2 * SL_SCENARIO_PATH_LEN];
+    const char *use = name;
+    int builtin = 0;
+    for (size_t i = 0; sl_atmosphere_builtin_names[i]; i++)
+        builtin |= strcmp(name, sl_atmosphere_builtin_names[i]) == 0;
+    const char *slash = strrchr(sc->path, '/');
+    if (!builtin && name[0] != '/' && slash != NULL && sc->line[SL_P_SITE_ATMOSPHERE] > 0) {
+        snprintf(near, sizeof near, "%.*s/%s", (int)(slash - sc->path), sc->path, name);
+        if (access(near, R_OK) == 0)
+            use = near;
+    }
+    int rc = sl_atmosphere_init(&ch->atmosphere, use, e);
     if (rc != SL_OK) {
         int line = 0;
         const char *raw = sl_scenario_raw(sc, SL_P_SITE_ATMOSPHERE, &line);
@@ -80,7 +98,7 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         sl_atmosphere_free(&ch->atmosphere);
         if (raw)
             SL_FAIL_RETURN(e, rc, "%s:%d: [site] atmosphere = %s: %s (valid: a built-in profile, "
-                                  "one of %s, or a profile file)",
+                                  "one of %s (steamloft atmos), or a profile file)",
                            sc->path, line, raw, inner, names);
         SL_FAIL_RETURN(e, rc, "%s: atmosphere %s: %s", sc->path, name, inner);
     }

@@ -42,7 +42,8 @@ static void json_member(sl_report *r, const char *key)
 
 static void text_label(sl_report *r, const char *label)
 {
-    fprintf(r->out, "%*s%-34s ", 2 * r->text_indent, "", label);
+    int pad = 34 - 2 * r->text_indent;
+    fprintf(r->out, "%*s%-*s ", 2 * r->text_indent, "", pad > 0 ? pad : 0, label);
 }
 
 void sl_report_begin(sl_report *r, FILE *out, int json)
@@ -177,6 +178,30 @@ static void emit_entry(sl_report *r, const sl_chain *ch)
     sl_report_number(r, "sea_mass_kg", en->reached_sea ? en->sea_mass_kg : NAN, "mass at the sea", 1.0, "kg");
     sl_report_number(r, "sea_angle_rad", en->reached_sea ? en->sea_angle_rad : NAN, "angle at the sea", 180.0 / SL_PI, "degree");
     sl_report_number(r, "energy_bookkeeping_residual_J", en->energy_error_J, "energy bookkeeping residual", 1.0, "J");
+    /* Energy deposited in the air per band: every non-empty band in JSON,
+     * the bands holding at least 1 % of it in text. */
+    double total = en->energy_in_air_J;
+    sl_report_number(r, "band_width_m", en->band_width_m, "altitude band width", 1e-3, "km");
+    if (r->json) {
+        sl_report_begin_array(r, "air_deposition", NULL);
+        for (size_t i = 0; i < en->n_bands; i++) {
+            if (en->band_energy_J[i] <= 0)
+                continue;
+            sl_report_begin_object(r, NULL, NULL);
+            sl_report_number(r, "bottom_m", (double)i * en->band_width_m, "", 1, "");
+            sl_report_number(r, "top_m", (double)(i + 1) * en->band_width_m, "", 1, "");
+            sl_report_number(r, "energy_J", en->band_energy_J[i], "", 1, "");
+            sl_report_end_object(r);
+        }
+        sl_report_end_array(r);
+    } else if (total > 0) {
+        fprintf(r->out, "energy deposited by band (>= 1 %% of the air's share)\n");
+        for (size_t i = 0; i < en->n_bands; i++)
+            if (en->band_energy_J[i] >= 0.01 * total)
+                fprintf(r->out, "  %5.1f - %5.1f km %18s %.4g Mt (%.1f %%)\n",  1e-3 * (double)i * en->band_width_m,
+                        1e-3 * (double)(i + 1) * en->band_width_m, "", en->band_energy_J[i] / SL_J_PER_MT_TNT,
+                        100.0 * en->band_energy_J[i] / total);
+    }
 }
 
 static void emit_partition(sl_report *r, const sl_chain *ch)
@@ -190,7 +215,8 @@ static void emit_partition(sl_report *r, const sl_chain *ch)
         sl_report_number(r, "water_vapor_limit_kg", pt->water_vapor_limit_kg, "limit (all energy into vapour)", 1e-9, "Tg");
         sl_report_number(r, "water_liquid_lofted_kg", pt->water_liquid_lofted_kg, "liquid thrown up with it", 1e-9, "Tg");
         sl_report_number(r, "impactor_water_kg", pt->impactor_water_kg, "water carried by the impactor", 1e-9, "Tg");
-        sl_report_number(r, "plume_heat_J", pt->energy_plume_heat_J, "sensible heat of the sea plume", 1.0 / SL_J_PER_MT_TNT, "Mt");
+        sl_report_number(r, "plume_heat_J", pt->energy_plume_heat_J, "extra heat of the sea plume", 1.0 / SL_J_PER_MT_TNT, "Mt");
+        sl_report_number(r, "liquid_heat_J", pt->energy_liquid_heat_J, "heating the thrown-up liquid", 1.0 / SL_J_PER_MT_TNT, "Mt");
         sl_report_number(r, "energy_other_J", pt->energy_other_J, "crater, waves, rock", 1.0 / SL_J_PER_MT_TNT, "Mt");
         sl_report_number(r, "cavity_diameter_m", pt->cavity_diameter_m, "transient cavity diameter", 1e-3, "km");
         sl_report_bool(r, "shallow_water", pt->shallow, "cavity reaches the sea floor");
@@ -315,8 +341,10 @@ int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, sl_err *e)
     if (ch->has_entry) {
         emit_entry(&r, ch);
     } else {
-        sl_report_bool(&r, "airburst", sc->value_si[SL_P_EXPLOSION_ALTITUDE] > 0, "burst in the air");
-        sl_report_number(&r, "burst_altitude_m", sc->value_si[SL_P_EXPLOSION_ALTITUDE], "burst altitude", 1e-3, "km");
+        double z = sc->value_si[SL_P_EXPLOSION_ALTITUDE];
+        sl_report_number(&r, "explosion_altitude_m", z, "height of the burst", 1e-3, "km");
+        sl_report_bool(&r, "airburst", z > 0, "burst in the air");
+        sl_report_number(&r, "burst_altitude_m", z > 0 ? z : NAN, "burst altitude", 1e-3, "km");
     }
     sl_report_number(&r, "energy_at_sea_J", ch->partition.energy_at_sea_J, "energy reaching the sea", 1.0 / SL_J_PER_MT_TNT, "Mt");
     emit_partition(&r, ch);

@@ -51,12 +51,15 @@
  * the hemisphere of water under the impact point (cut at the sea floor) gives
  * M_v, capped by the energy available after the plume heat.
  *
- * Both methods: a fraction f_h of E_w stays as sensible heat in the sea
- * plume; E_w - h_v M_v - f_h E_w goes to the crater, waves and rock.
- * The sea plume starts as a sphere sitting on the sea holding the vapour, the
- * thrown-up liquid and the air that stood over the cavity (a hemisphere of
- * the cavity's radius), at the temperature its heat gives them, with the
- * volume of that gas at ambient pressure.
+ * Both methods: a fraction f_h of E_w stays as extra sensible heat in the sea
+ * plume, the thrown-up liquid is heated to the boiling point, and the rest,
+ * E_w - h_v M_v - f_h E_w - liquid heating, goes to the crater, waves and
+ * rock.  The sea plume starts as a sphere sitting on the sea holding the
+ * vapour, the thrown-up liquid and the air that stood over the cavity (a
+ * hemisphere of the cavity's radius); its heat is its enthalpy excess over
+ * ambient without the vapour's latent heat (the extra heat plus the sensible
+ * heat of vapour and liquid from the sea temperature to boiling), which sets
+ * its temperature; its volume is that of its gas at ambient pressure.
  *
  * Air share (an airburst, or the trail of a body that reaches the sea) and
  * explosions: a fraction f_a of the energy is buoyant heat (default 0.4: the
@@ -96,6 +99,7 @@ static const double salinity_g_kg = 35.0;   /* standard sea water */
 static const double fireball_r_1mt_m = 1097.0;
 static const double fireball_exponent = 0.393;
 static const double fireball_q_max = 0.9;
+static const double boiling_K = 373.124;    /* at 101325 Pa (IAPWS-95) */
 
 void sl_partition_free(sl_partition *pt)
 {
@@ -206,7 +210,7 @@ double sl_partition_vapor_fraction(double pressure_Pa, double sea_temperature_K,
 static double pressure_for_fraction(double x_target, double t0)
 {
     double lo = log(1e6), hi = log(1e13);
-    for (int i = 0; i < 200 && hi - lo > 1e-10; i++) {
+    for (int i = 0; i < 200 && hi - lo > 1e-7; i++) {
         double mid = 0.5 * (lo + hi);
         double x = sl_partition_vapor_fraction(exp(mid), t0, NULL);
         if (x >= x_target)
@@ -263,15 +267,35 @@ static int shock_vapor(sl_partition *pt, const sl_partition_input *in, double *v
     double e_target = in->target_heat_fraction * pt->energy_at_sea_J;
     double wh = halfspace_waste_heat_J(p_ic, r_ic, n, p_end);
     if (wh > e_target) {
-        double lo = n, hi = n;
-        while (halfspace_waste_heat_J(p_ic, r_ic, hi, p_end) > e_target && hi < 1e3)
+        /* f(n) = ln(W(n)/E_t) falls with n: bracket it, then the Illinois
+         * variant of regula falsi (a few evaluations instead of ~20). */
+        double lo = n, flo = log(wh / e_target), hi = 2.0 * n, fhi;
+        while ((fhi = log(halfspace_waste_heat_J(p_ic, r_ic, hi, p_end) / e_target)) > 0 && hi < 1e3) {
+            lo = hi;
+            flo = fhi;
             hi *= 2.0;
-        for (int it = 0; it < 60 && hi - lo > 1e-5 * hi; it++) {
-            double mid = 0.5 * (lo + hi);
-            if (halfspace_waste_heat_J(p_ic, r_ic, mid, p_end) > e_target)
+        }
+        int side = 0;
+        for (int it = 0; it < 100 && fabs(hi - lo) > 1e-9 * hi; it++) {
+            double mid = (lo * fhi - hi * flo) / (fhi - flo);
+            double fm = log(halfspace_waste_heat_J(p_ic, r_ic, mid, p_end) / e_target);
+            if (fabs(fm) < 1e-7) {
+                lo = hi = mid;
+                break;
+            }
+            if (fm > 0) {
                 lo = mid;
-            else
+                flo = fm;
+                if (side == -1)
+                    fhi *= 0.5;
+                side = -1;
+            } else {
                 hi = mid;
+                fhi = fm;
+                if (side == 1)
+                    flo *= 0.5;
+                side = 1;
+            }
         }
         n = hi;
         wh = halfspace_waste_heat_J(p_ic, r_ic, n, p_end);
@@ -430,12 +454,22 @@ int sl_partition_solve(sl_partition *pt, const sl_partition_input *in, sl_err *e
         vap = vap_max;
         pt->vapor_capped = 1;
     }
+    /* The thrown-up liquid leaves at the boiling point: its heating comes
+     * out of what is left (it is limited to that). */
+    double dT_boil = fmax(0.0, boiling_K - in->sea_temperature_K);
+    double e_liq = liq * SL_CP_LIQUID_J_KG_K * dT_boil;
+    double e_left = E_w - heat - vap * hv;
+    if (e_liq > e_left) {
+        liq = e_left > 0 ? liq * e_left / e_liq : 0.0;
+        e_liq = fmax(e_left, 0.0);
+    }
     pt->energy_to_water_J = E_w;
     pt->water_vaporized_kg = vap;
     pt->water_liquid_lofted_kg = liq;
     pt->energy_vaporization_J = vap * hv;
     pt->energy_plume_heat_J = heat;
-    pt->energy_other_J = E_sea - pt->energy_vaporization_J - heat;
+    pt->energy_liquid_heat_J = e_liq;
+    pt->energy_other_J = E_sea - pt->energy_vaporization_J - heat - e_liq;
 
     /* Impactor water, shared by energy between air and sea. */
     double water = in->impactor_water_fraction * en->initial_mass_kg;
@@ -455,8 +489,9 @@ int sl_partition_solve(sl_partition *pt, const sl_partition_input *in, sl_err *e
         s.vapor_mass_kg = water_air;
         SL_TRY_RETURN(e, add_source(pt, &s, e));
     }
-    /* Sea plume. */
-    if (vap + water_sea + liq > 0 || heat > 0) {
+    /* Sea plume: when it carries water, or heat worth 0.1 % of the energy
+     * (not for the debris of an airburst settling at terminal speed). */
+    if (vap + water_sea + liq > 0 || heat > 1e-3 * pt->energy_total_J) {
         const sl_partition_air *a = &in->air_at_sea;
         sl_source s = {0};
         s.kind = SL_SOURCE_SEA_PLUME;
@@ -466,10 +501,13 @@ int sl_partition_solve(sl_partition *pt, const sl_partition_input *in, sl_err *e
         s.air_mass_kg = a->density_kg_m3 * 2.0 / 3.0 * SL_PI * r_cav * r_cav * r_cav;
         double heat_cap = s.air_mass_kg * SL_CP_DRY_AIR_J_KG_K + s.vapor_mass_kg * SL_CP_VAPOR_J_KG_K +
                           s.liquid_mass_kg * SL_CP_LIQUID_J_KG_K;
-        /* Vapour is at least at the boiling point; air at ambient. */
-        s.temperature_K = heat_cap > 0 ? fmax(a->temperature_K + heat / heat_cap, s.vapor_mass_kg > 0 ? 373.15 : 0.0)
-                                       : a->temperature_K;
-        s.heat_J = heat;
+        /* Enthalpy excess over ambient, latent heat apart: the extra heat
+         * plus the sensible heat the vapour and the liquid got on their way
+         * to the boiling point (part of the vaporisation energy and of the
+         * liquid heating above). */
+        double h_excess = heat + (vap + liq) * SL_CP_LIQUID_J_KG_K * dT_boil;
+        s.temperature_K = a->temperature_K + (heat_cap > 0 ? h_excess / heat_cap : 0.0);
+        s.heat_J = h_excess;
         double gas_vol = (s.air_mass_kg * SL_R_DRY_AIR_J_KG_K + s.vapor_mass_kg * SL_R_VAPOR_J_KG_K) *
                          s.temperature_K / a->pressure_Pa;
         s.radius_m = cbrt(3.0 * gas_vol / (4.0 * SL_PI));

@@ -28,6 +28,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 
 const sl_param_def sl_scenario_params[SL_P_COUNT] = {
 #define SL_X_ROW_(id, sec, key, type, unit, def, lo, hi, flags, choices, meaning) \
@@ -324,6 +325,12 @@ int sl_scenario_read(sl_scenario *sc, const char *path, sl_err *e)
     if (f == NULL) {
         scenario_reset(sc, shown);
         SL_FAIL_RETURN(e, SL_ENOINPUT, "%s: cannot open scenario file: %s", shown, strerror(errno));
+    }
+    struct stat st;
+    if (!use_stdin && fstat(fileno(f), &st) == 0 && S_ISDIR(st.st_mode)) {
+        fclose(f);
+        scenario_reset(sc, shown);
+        SL_FAIL_RETURN(e, SL_ENOINPUT, "%s: is a directory, not a scenario file", shown);
     }
     char *buf = malloc(MAX_FILE_BYTES + 1);
     if (buf == NULL) {

@@ -261,6 +261,7 @@ END_TEST
 
 static Suite *entry_suite(void)
 {
+    sl_err_gsl_handler_off(); /* as main() does: every GSL status is checked */
     Suite *s = suite_create("entry");
     TCase *tc = tcase_create("core");
     tcase_set_timeout(tc, 60);

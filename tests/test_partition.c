@@ -123,7 +123,8 @@ START_TEST(bookkeeping_bounds_and_method_agreement)
 {
     /* For both methods over sizes 100 m - 3 km, speeds 15-30 km/s, angles
      * 45-90 degrees into deep ocean:
-     *  - vaporisation + plume heat + other = energy at the sea (rounding),
+     *  - vaporisation + plume heat + liquid heating + other = energy at the
+     *    sea (rounding),
      *    other >= 0, and the vapour never exceeds the all-energy limit
      *    (DERIVED bound, impact-facts.md §6);
      *  - the shock method's waste heat equals the stated half of the energy;
@@ -147,13 +148,22 @@ START_TEST(bookkeeping_bounds_and_method_agreement)
                     sl_partition pt;
                     ck_assert_int_eq(sl_partition_solve(&pt, &in, &e), SL_OK);
                     ck_assert(pt.energy_at_sea_J > 0);
-                    SL_CK_REL(pt.energy_vaporization_J + pt.energy_plume_heat_J + pt.energy_other_J,
+                    SL_CK_REL(pt.energy_vaporization_J + pt.energy_plume_heat_J + pt.energy_liquid_heat_J +
+                                  pt.energy_other_J,
                               pt.energy_at_sea_J, 1e-12);
                     ck_assert(pt.energy_other_J >= 0);
                     ck_assert(pt.water_vaporized_kg <= pt.water_vapor_limit_kg);
                     ck_assert(pt.water_vaporized_kg > 0);
                     if (m == SL_PARTITION_SHOCK)
                         SL_CK_REL(pt.target_waste_heat_J, 0.5 * pt.energy_at_sea_J, 1e-4);
+                    /* The sea plume's heat is its enthalpy excess: it sets its
+                     * temperature exactly (energy closes). */
+                    const sl_source *sp = &pt.sources.src[pt.sources.n - 1];
+                    ck_assert_int_eq(sp->kind, SL_SOURCE_SEA_PLUME);
+                    double cap = sp->air_mass_kg * SL_CP_DRY_AIR_J_KG_K + sp->vapor_mass_kg * SL_CP_VAPOR_J_KG_K +
+                                 sp->liquid_mass_kg * SL_CP_LIQUID_J_KG_K;
+                    SL_CK_REL(cap * (sp->temperature_K - 288.15), sp->heat_J, 1e-9);
+                    SL_CK_REL(sp->vapor_mass_kg, pt.water_vaporized_kg, 1e-12);
                     vap[m] = pt.water_vaporized_kg;
                 }
                 double ratio = vap[0] / vap[1];
@@ -274,6 +284,7 @@ END_TEST
 
 static Suite *partition_suite(void)
 {
+    sl_err_gsl_handler_off(); /* as main() does: every GSL status is checked */
     Suite *s = suite_create("partition");
     TCase *tc = tcase_create("core");
     tcase_set_timeout(tc, 60);

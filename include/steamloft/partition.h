@@ -12,8 +12,8 @@
  * hot-air source.  The water the impactor carries joins the sources.
  * Explosions become one source directly.
  *
- * Bookkeeping: energy_at_sea_J = vaporisation + plume heat + other, with
- * other >= 0, exactly; vaporised mass never exceeds energy_at_sea_J divided
+ * Bookkeeping: energy_at_sea_J = vaporisation + plume heat + liquid heating
+ * + other, with other >= 0, exactly; vaporised mass never exceeds energy_at_sea_J divided
  * by the energy to vaporise one kilogram of sea water (water_vapor_limit_kg).
  *
  * Plain data: no allocation; sl_partition_free() zeroes. */
@@ -82,7 +82,8 @@ typedef struct sl_partition {
     double energy_at_sea_J;
     double energy_to_water_J;        /* of energy_at_sea_J, after the shallow-water share */
     double energy_vaporization_J;    /* water_vaporized_kg times the vaporisation energy */
-    double energy_plume_heat_J;      /* sensible heat of the sea plume */
+    double energy_plume_heat_J;      /* extra sensible heat of the sea plume (fraction f_h) */
+    double energy_liquid_heat_J;     /* heating the thrown-up liquid to the boiling point */
     double energy_other_J;           /* crater, waves, rock, radiation: the rest */
     double vaporization_energy_J_kg; /* sea water from the sea temperature to vapour */
     double water_vapor_limit_kg;     /* energy_at_sea_J / vaporization_energy_J_kg */

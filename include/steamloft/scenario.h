@@ -105,7 +105,8 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
     X(SITE_SST, "site", "sea_surface_temperature_K", SL_PT_REAL, "K", 288.15, 271.0, 310.0, 0u,    \
       NULL, "temperature of the sea water that is heated and vaporised")                            \
     X(SITE_ATMOSPHERE, "site", "atmosphere", SL_PT_TEXT, "", SL_NODEFAULT, 0.0, 0.0, 0u, NULL,     \
-      "background atmosphere: a built-in profile name or a profile file (default us1976)")          \
+      "background atmosphere: a built-in profile (steamloft atmos) or a profile file, relative "    \
+      "paths first next to the scenario file (default us1976)")                                     \
     X(SITE_MONTH, "site", "month", SL_PT_INT, "", 0.0, 0.0, 12.0, 0u, NULL,                         \
       "month of the event, 1-12 (0 = not given; annual-mean conditions)")                           \
     X(AIRBURST_ALTITUDE, "airburst", "altitude_m", SL_PT_REAL, "m", SL_NODEFAULT, 0.0, 100000.0,   \

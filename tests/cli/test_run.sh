@@ -26,6 +26,11 @@ assert d["parameters"]["impactor.diameter_m"]["value"] == 300
 PY
 then sl_ok "JSON parses and has the required keys"; else sl_fail "JSON keys"; fi
 
+# Every shipped example runs.
+for f in "$SL_SRCDIR"/examples/*.ini; do
+  sl_expect_exit 0 "example $(basename "$f") runs" "$SL_BIN" run --json "$f"
+done
+
 # Chelyabinsk through stdin: an airburst near 30 km.
 printf '[impactor]\ndiameter_m = 19\ndensity_kg_m3 = 3300\nspeed_km_s = 19.16\nangle_deg = 18\n[site]\nlatitude_deg = 54.8\nocean_depth_m = 0\n' >"$SL_TMP/chel.ini"
 sl_expect_exit 0 "run from stdin" sh -c "'$SL_BIN' run --json - <'$SL_TMP/chel.ini'"
@@ -36,6 +41,13 @@ sl_expect_grep "$SL_TMP/out" '"burst_altitude_m": 3[01][0-9]*\.' "Chelyabinsk bu
 printf '[explosion]\nenergy_Mt = 15\n[site]\nlatitude_deg = 11.7\n' >"$SL_TMP/bravo.ini"
 sl_expect_exit 0 "run an explosion" "$SL_BIN" run --json "$SL_TMP/bravo.ini"
 sl_expect_grep "$SL_TMP/out" '"kind": "explosion"' "explosion source"
+
+# A relative profile path is found next to the scenario file.
+mkdir -p "$SL_TMP/sub"
+cp "$SL_SRCDIR/atmospheres/tropical.txt" "$SL_TMP/sub/myprofile.txt"
+printf '[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 0\natmosphere = myprofile.txt\n' >"$SL_TMP/sub/near.ini"
+sl_expect_exit 0 "profile next to the scenario" "$SL_BIN" run --json "$SL_TMP/sub/near.ini"
+sl_expect_grep "$SL_TMP/out" '"burst_altitude_m": null' "surface explosion has no burst altitude"
 
 # One test per kind of mistake.
 base='[impactor]\ndiameter_m = 19\ndensity_kg_m3 = 3300\nspeed_km_s = 19.16\nangle_deg = 18\n'
