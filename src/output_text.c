@@ -261,9 +261,10 @@ static void emit_plume(sl_report *r, const sl_chain *ch)
     sl_report_number(r, "cloud_top_m", pl->cloud_top_m, "cloud top", 1e-3, "km");
     sl_report_number(r, "tropopause_altitude_m", pl->tropopause_altitude_m, "tropopause", 1e-3, "km");
     sl_report_number(r, "water_lofted_kg", pl->water_lofted_kg, "water in the young clouds", 1e-9, "Tg");
-    sl_report_number(r, "fallout_kg", pl->fallout_kg, "condensate fallen out during the rise", 1e-9, "Tg");
+    sl_report_number(r, "fallout_kg", pl->fallout_kg, "fallen out: spray and condensate", 1e-9, "Tg");
     sl_report_number(r, "frozen_out_kg", pl->frozen_out_kg, "ice sedimented out at cloud level", 1e-9, "Tg");
     sl_report_number(r, "background_water_kg", pl->background_kg, "background vapour of the cloud air", 1e-9, "Tg");
+    sl_report_number(r, "water_below_bands_kg", pl->below_bands_kg, "cloud water below the lowest band", 1e-9, "Tg");
     sl_report_number(r, "injected_vapor_kg", sl_injection_total_vapor_kg(inj), "vapour injected (all bands)", 1e-9, "Tg");
     sl_report_number(r, "injected_ice_kg", sl_injection_total_ice_kg(inj), "ice remaining (all bands)", 1e-9, "Tg");
     sl_report_number(r, "stratospheric_water_kg", pl->stratospheric_water_kg, "vapour above the tropopause", 1e-9, "Tg");
@@ -278,6 +279,8 @@ static void emit_plume(sl_report *r, const sl_chain *ch)
         sl_report_number(r, "apex_time_s", th->apex_time_s, "time to apex", 1.0 / 60.0, "min");
         sl_report_number(r, "apex_altitude_m", th->apex_altitude_m, "apex (centre)", 1e-3, "km");
         sl_report_number(r, "apex_radius_m", th->apex_radius_m, "radius at apex", 1e-3, "km");
+        sl_report_number(r, "apex_radius_to_scale_height", th->apex_radius_m / th->apex_scale_height_m,
+                         "radius / scale height at apex", 1.0, "");
         sl_report_number(r, "neutral_altitude_m", th->neutral_altitude_m, "neutral-buoyancy level", 1e-3, "km");
         sl_report_number(r, "cloud_bottom_m", th->cloud_bottom_m, "cloud bottom", 1e-3, "km");
         sl_report_number(r, "cloud_top_m", th->cloud_top_m, "cloud top", 1e-3, "km");

@@ -9,6 +9,7 @@
 #include "steamloft/units.h"
 #include "steamloft/water.h"
 
+#include <stdint.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -141,8 +142,9 @@ END_TEST
 START_TEST(test_quarter_power_law)
 {
     /* z_max proportional to B^(1/4) over four decades of B (impact-facts.md s.1,
-     * DERIVED): fitted slope 0.25 within 0.005 (non-Boussinesq drift across the
-     * range, z_max 40-400 m against H = 7.3 km). */
+     * DERIVED): fitted slope 0.25 within 0.001 (the non-Boussinesq drift across
+     * the range, z_max 40-400 m against H = 7.3 km, is +0.35 % in z_max, i.e.
+     * +0.0004 in the slope; measured 0.25026). */
     sl_atmosphere atm = {0};
     isothermal(&atm, 250.0, 0.0);
     sl_plume pl = {0};
@@ -159,7 +161,8 @@ START_TEST(test_quarter_power_law)
         sx += x; sy += y; sxx += x * x; sxy += x * y; n++;
     }
     double slope = (n * sxy - sx * sy) / (n * sxx - sx * sx);
-    SL_CK_ABS(slope, 0.25, 0.005);
+    printf("quarter power law: fitted slope %.5f over B x 1e4\n", slope);
+    SL_CK_ABS(slope, 0.25, 0.001);
     sl_plume_free(&pl);
     sl_atmosphere_free(&atm);
 }
@@ -269,10 +272,11 @@ START_TEST(test_budgets_close)
     /* Condensate formed and some fell out: the budget below is not trivial. */
     ck_assert(th.water_fallout_kg > 1.0e-3 * th.water_initial_kg);
     ck_assert(th.water_entrained_kg > 0.0);
-    /* Water: final = initial + entrained - fallout (conservation; PRACTICE:
-     * tolerance a few solver tolerances of the scaled state). */
+    /* Water: final = initial + entrained - fallout (conservation; PRACTICE).
+     * The water and its fluxes are integrated by the same linear combination
+     * of stages, so it closes to rounding (measured 4e-16): tolerance 1e-12. */
     double wscale = th.water_initial_kg + th.water_entrained_kg;
-    SL_CK_ABS((th.water_final_kg - th.water_initial_kg - th.water_entrained_kg + th.water_fallout_kg) / wscale, 0.0, 1e-7);
+    SL_CK_ABS((th.water_final_kg - th.water_initial_kg - th.water_entrained_kg + th.water_fallout_kg) / wscale, 0.0, 1e-12);
     double wapex = th.vapor_kg + th.liquid_kg + th.ice_kg;
     SL_CK_REL(wapex, th.water_final_kg, 1e-12);
     /* Energy: E_final = E_initial + brought by entrainment - removed by fallout,
@@ -280,7 +284,11 @@ START_TEST(test_budgets_close)
      * the solver tolerance because the enthalpy is an exact state function). */
     double escale = fabs(th.energy_initial_J) + fabs(th.energy_entrained_J);
     double resid = th.energy_final_J - th.energy_initial_J - th.energy_entrained_J + th.energy_fallout_J;
-    SL_CK_ABS(resid / escale, 0.0, 1e-6);
+    printf("budgets (rtol 1e-8): water residual %.2e, energy residual %.2e (relative)\n",
+           (th.water_final_kg - th.water_initial_kg - th.water_entrained_kg + th.water_fallout_kg) / wscale, resid / escale);
+    /* The energy is a nonlinear function of the state, so it closes to the
+     * solver's tolerance (measured 9e-10 at rtol 1e-8): tolerance 10 rtol. */
+    SL_CK_ABS(resid / escale, 0.0, 1e-7);
 
     /* Whole chain: the water reaching the bands plus what fell out, froze out
      * and the background share equals the source water plus entrained water. */
@@ -392,6 +400,23 @@ START_TEST(test_blowout_regime)
     double in_bands = sl_injection_total_vapor_kg(&inj) + sl_injection_total_ice_kg(&inj);
     SL_CK_REL(in_bands + pl.frozen_out_kg + pl.background_kg, 1.0e13, 1e-12);
     ck_assert(pl.stratospheric_water_kg > 0.0);
+    /* A steam thermal that starts smaller than the scale height but whose top
+     * passes the top of the profile (120 km) while it rises: the sea plume of
+     * the 300 m example (air 70.6 Tg, vapour 183 Tg, spray 747 Tg at 501 K,
+     * 5 km up).  It rises (apex time > 0) and is marked blow-out. */
+    list.src[0].kind = SL_SOURCE_SEA_PLUME;
+    list.src[0].altitude_m = 4978.0;
+    list.src[0].radius_m = 4978.0;
+    list.src[0].air_mass_kg = 7.058e10;
+    list.src[0].vapor_mass_kg = 1.826e11;
+    list.src[0].liquid_mass_kg = 7.473e11;
+    list.src[0].temperature_K = 500.9;
+    list.src[0].heat_J = 0.0;
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &list, &inj, &e) == SL_OK, "%s", e.msg);
+    ck_assert(pl.th[0].apex_time_s > 60.0);
+    ck_assert(pl.th[0].top_altitude_m > atm.altitude_m[atm.n - 1]);
+    ck_assert_int_eq(pl.th[0].regime, SL_REGIME_BLOWOUT);
+    ck_assert_int_eq(pl.regime, SL_REGIME_BLOWOUT);
     sl_injection_free(&inj);
     sl_plume_free(&pl);
     sl_atmosphere_free(&atm);
@@ -423,7 +448,10 @@ START_TEST(test_freeze_out)
     SL_CK_REL(fo.frozen_kg, 1.0e8 - vap, 1e-9);
     SL_CK_REL(fo.sedimented_kg, 0.5 * (1.0e8 - vap), 1e-9);
     SL_CK_REL(inj.ice_kg[17], 0.5 * (1.0e8 - vap), 1e-9);
-    SL_CK_REL(inj.vapor_kg[17], fmax(vap - 1.0e9 * r_bg, 0.0) + 1e-300, 1e-6);
+    /* The band keeps the vapour anomaly over the background (here positive:
+     * ice saturation above the ~4 ppmv background). */
+    ck_assert(vap > 1.0e9 * r_bg);
+    SL_CK_REL(inj.vapor_kg[17], vap - 1.0e9 * r_bg, 1e-9);
     SL_CK_REL(fo.vapor_kg + fo.ice_kg + fo.sedimented_kg + fo.background_kg, 1.0e8, 1e-14);
     ck_assert_int_eq(sl_injection_add_cloud(&inj, &atm, &c, 1.5, &fo, &e), SL_EDATA);
     sl_injection_free(&inj);
@@ -519,6 +547,144 @@ START_TEST(test_spray_collapse)
 }
 END_TEST
 
+
+START_TEST(test_reuse_is_deterministic)
+{
+    /* One workspace serves many scenarios (an ensemble thread): solving A,
+     * then B, then A again gives A's results bit for bit (PRACTICE: the
+     * ensembles promise identical results for any thread count). */
+    sl_atmosphere atm = {0};
+    sl_err e = {0};
+    ck_assert_msg(sl_atmosphere_init(&atm, "midlatitude-summer", &e) == SL_OK, "%s", e.msg);
+    sl_plume pl = {0};
+    init_plume(&pl, 0.25, 0.5, 1e-6, 1.0);
+    sl_injection inj = {0};
+    ck_assert_int_eq(sl_injection_init_uniform(&inj, 0.0, 100e3, 1e3, &e), SL_OK);
+    sl_source_list a = {0}, b = {0};
+    a.n = 2;
+    a.src[0] = burst(3.0, HEAT_FRACTION);
+    a.src[1] = wet_source();
+    b.n = 1;
+    b.src[0] = burst(0.05, HEAT_FRACTION);
+    double first[100], top;
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &a, &inj, &e) == SL_OK, "%s", e.msg);
+    memcpy(first, inj.vapor_kg, sizeof first);
+    top = pl.plume_top_m;
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &b, &inj, &e) == SL_OK, "%s", e.msg);
+    ck_assert(pl.plume_top_m != top);
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &a, &inj, &e) == SL_OK, "%s", e.msg);
+    ck_assert(pl.plume_top_m == top);
+    ck_assert(memcmp(first, inj.vapor_kg, sizeof first) == 0);
+    sl_injection_free(&inj);
+    sl_plume_free(&pl);
+    sl_atmosphere_free(&atm);
+}
+END_TEST
+
+
+START_TEST(test_sources_add_up)
+{
+    /* Several sources rise on their own and their water adds up (issue 5):
+     * the profile of an airburst plus a sea plume equals the sum of the two
+     * profiles computed alone, band by band, to rounding (PRACTICE). */
+    sl_atmosphere atm = {0};
+    sl_err e = {0};
+    ck_assert_msg(sl_atmosphere_init(&atm, "tropical", &e) == SL_OK, "%s", e.msg);
+    sl_plume pl = {0};
+    init_plume(&pl, 0.25, 0.5, 1e-6, 1.0);
+    sl_source_list one = {0}, two = {0}, both = {0};
+    one.n = two.n = 1;
+    both.n = 2;
+    one.src[0] = both.src[0] = burst(5.0, HEAT_FRACTION);
+    two.src[0] = both.src[1] = wet_source();
+    sl_injection a = {0}, b = {0}, ab = {0};
+    ck_assert_int_eq(sl_injection_init_uniform(&a, 0.0, 100e3, 1e3, &e), SL_OK);
+    ck_assert_int_eq(sl_injection_init_uniform(&b, 0.0, 100e3, 1e3, &e), SL_OK);
+    ck_assert_int_eq(sl_injection_init_uniform(&ab, 0.0, 100e3, 1e3, &e), SL_OK);
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &one, &a, &e) == SL_OK, "%s", e.msg);
+    double strat_a = pl.stratospheric_water_kg, top_a = pl.plume_top_m;
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &two, &b, &e) == SL_OK, "%s", e.msg);
+    double strat_b = pl.stratospheric_water_kg, top_b = pl.plume_top_m;
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &both, &ab, &e) == SL_OK, "%s", e.msg);
+    for (size_t i = 0; i < ab.n_bands; i++) {
+        SL_CK_ABS(ab.vapor_kg[i], a.vapor_kg[i] + b.vapor_kg[i], 1e-12 * (ab.vapor_kg[i] + 1.0));
+        SL_CK_ABS(ab.ice_kg[i], a.ice_kg[i] + b.ice_kg[i], 1e-12 * (ab.ice_kg[i] + 1.0));
+    }
+    SL_CK_REL(pl.stratospheric_water_kg, strat_a + strat_b, 1e-12);
+    SL_CK_REL(pl.plume_top_m, fmax(top_a, top_b), 0.0);
+    ck_assert_uint_eq(pl.n_thermals, 2);
+    sl_injection_free(&a);
+    sl_injection_free(&b);
+    sl_injection_free(&ab);
+    sl_plume_free(&pl);
+    sl_atmosphere_free(&atm);
+}
+END_TEST
+
+
+/* A small deterministic generator for the robustness test (splitmix64). */
+static double rnd(uint64_t *state, double lo, double hi)
+{
+    uint64_t z = (*state += 0x9e3779b97f4a7c15ULL);
+    z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
+    z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
+    z ^= z >> 31;
+    return lo + (hi - lo) * (double)(z >> 11) / 9007199254740992.0;
+}
+
+START_TEST(test_random_sources)
+{
+    /* 600 random sources over and beyond the range the chain produces (air
+     * 1e3-1e14 kg, water up to 100 times the air, 160-9000 K, 0-90 km, or a
+     * heat of 1e9-1e20 J in a 10 m-30 km sphere; three profiles): every one
+     * rises or is classed without a failure, the outputs are finite and the
+     * water budget closes to rounding, the energy budget to 10 rtol
+     * (PRACTICE: robustness is what the ensembles need). */
+    const char *profiles[3] = {"us1976", "tropical", "subarctic-winter"};
+    sl_plume pl = {0};
+    init_plume(&pl, 0.25, 0.5, 1e-6, 1.0);
+    sl_injection inj = {0};
+    sl_err e = {0};
+    ck_assert_int_eq(sl_injection_init_uniform(&inj, 0.0, 100e3, 1e3, &e), SL_OK);
+    uint64_t seed = 20260101;
+    for (int p = 0; p < 3; p++) {
+        sl_atmosphere atm = {0};
+        ck_assert_msg(sl_atmosphere_init(&atm, profiles[p], &e) == SL_OK, "%s", e.msg);
+        for (int i = 0; i < 200; i++) {
+            sl_source_list list = {0};
+            list.n = 1;
+            sl_source *s = &list.src[0];
+            s->kind = SL_SOURCE_SEA_PLUME;
+            s->altitude_m = rnd(&seed, 0, 1) < 0.5 ? rnd(&seed, 0, 2000) : rnd(&seed, 0, 90000);
+            s->air_mass_kg = pow(10.0, rnd(&seed, 3, 14));
+            s->temperature_K = rnd(&seed, 160, 9000);
+            s->vapor_mass_kg = rnd(&seed, 0, 1) < 0.2 ? 0.0 : s->air_mass_kg * pow(10.0, rnd(&seed, -4, 2));
+            s->liquid_mass_kg = rnd(&seed, 0, 1) < 0.5 ? 0.0 : s->air_mass_kg * pow(10.0, rnd(&seed, -4, 1));
+            s->vertical_speed_m_s = rnd(&seed, 0, 1) < 0.5 ? 0.0 : rnd(&seed, 0, 500);
+            if (rnd(&seed, 0, 1) < 0.3) {
+                s->air_mass_kg = s->temperature_K = 0.0;
+                s->heat_J = pow(10.0, rnd(&seed, 9, 20));
+                s->radius_m = pow(10.0, rnd(&seed, 1, 4.5));
+            }
+            int rc = sl_plume_solve(&pl, &atm, &list, &inj, &e);
+            ck_assert_msg(rc == SL_OK, "%s source %d: %s", profiles[p], i, e.msg);
+            const sl_thermal *th = &pl.th[0];
+            ck_assert(isfinite(pl.plume_top_m) && isfinite(pl.stratospheric_water_kg) && isfinite(pl.cloud_bottom_m));
+            double ws = th->water_initial_kg + th->water_entrained_kg;
+            if (ws > 0.0)
+                SL_CK_ABS((th->water_final_kg - th->water_initial_kg - th->water_entrained_kg + th->water_fallout_kg) / ws,
+                          0.0, 1e-12);
+            double es = fabs(th->energy_initial_J) + fabs(th->energy_entrained_J);
+            SL_CK_ABS((th->energy_final_J - th->energy_initial_J - th->energy_entrained_J + th->energy_fallout_J) / es,
+                      0.0, 1e-5);
+        }
+        sl_atmosphere_free(&atm);
+    }
+    sl_injection_free(&inj);
+    sl_plume_free(&pl);
+}
+END_TEST
+
 static Suite *plume_suite(void)
 {
     Suite *s = suite_create("plume");
@@ -534,6 +700,9 @@ static Suite *plume_suite(void)
     tcase_add_test(tc, test_freeze_out);
     tcase_add_test(tc, test_moist_adiabat);
     tcase_add_test(tc, test_spray_collapse);
+    tcase_add_test(tc, test_reuse_is_deterministic);
+    tcase_add_test(tc, test_sources_add_up);
+    tcase_add_test(tc, test_random_sources);
     suite_add_tcase(s, tc);
     return s;
 }

@@ -61,6 +61,8 @@ typedef struct sl_thermal {
     double apex_time_s;            /* time of w = 0 (0 when it never rose) */
     double apex_altitude_m;        /* centre at the apex */
     double apex_radius_m;
+    double apex_scale_height_m;    /* p/(rho g) at the apex: a radius well above it strains the
+                                    * bulk-thermal picture (the report shows the ratio) */
     double top_altitude_m;         /* apex centre + apex radius: highest reach */
     double neutral_altitude_m;     /* first level where the buoyancy force vanished */
     double neutral_time_s;
@@ -93,6 +95,8 @@ typedef struct sl_plume {
     double fallout_kg;             /* condensate that fell out during the rise */
     double frozen_out_kg;          /* ice formed at cloud level that sedimented out */
     double background_kg;          /* background vapour carried by the cloud air (not injection) */
+    double below_bands_kg;         /* cloud water below the lowest band, left out of the profile;
+                                    * water_lofted = bands + frozen_out + background + below_bands */
     double stratospheric_water_kg; /* injected vapour above the tropopause */
     double stratospheric_ice_kg;   /* ice remaining above the tropopause */
 } sl_plume;
@@ -117,7 +121,9 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
 
 /* Rise every source of SRC, place each cloud, apply the freeze-out and add the
  * water into INJ (which must have bands; its masses are cleared first, its
- * tropopause set from ATM), and fill the event totals.  Allocates nothing. */
+ * tropopause set from ATM), and fill the event totals.  A cloud's share
+ * below the lowest band is left out (below_bands_kg); a cloud reaching above
+ * the top band is pressed into it.  Allocates nothing. */
 int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list *src, sl_injection *inj, sl_err *e);
 
 /* Release the workspace; safe on a zeroed or half-built struct. */

@@ -29,6 +29,7 @@ for x, y in zip(b, b[1:]):
     assert x["vapor_kg"] >= 0 and x["ice_kg"] >= 0
 # Water bookkeeping: bands + sedimented + background = water in the clouds.
 tot = sum(x["vapor_kg"] + x["ice_kg"] for x in b)
+assert d["water_below_bands_kg"] == 0
 assert abs(tot + d["frozen_out_kg"] + d["background_water_kg"] - d["water_lofted_kg"]) <= 1e-9 * d["water_lofted_kg"]
 # Stratospheric vapour = band vapour above the tropopause (split in its band).
 tp = d["tropopause_altitude_m"]
@@ -51,6 +52,28 @@ a = json.load(open(sys.argv[1])); b = json.load(open(sys.argv[2]))
 assert b["plume_top_m"] < 0.95 * a["plume_top_m"], (a["plume_top_m"], b["plume_top_m"])
 PY
 then sl_ok "larger entrainment coefficient, lower plume"; else sl_fail "entrainment coefficient has no effect"; fi
+
+# A 1 km stony body into the ocean: its vapour plume is wider than the scale
+# height, so the blow-out regime is marked in both formats (DESIGN.md 4.5).
+ex1km="$SL_SRCDIR/examples/ocean-stony-1km-budget.ini"
+sl_expect_exit 0 "run the 1 km example" "$SL_BIN" run --json "$ex1km"
+sl_expect_grep "$SL_TMP/out" '"regime": "blow-out"' "JSON marks the blow-out regime"
+sl_expect_exit 0 "run the 1 km example (text)" "$SL_BIN" run "$ex1km"
+sl_expect_grep "$SL_TMP/out" "regime  *blow-out" "text marks the blow-out regime"
+
+# Bands from 15 km up: the cloud water below them is left out and tallied.
+printf '[explosion]\nenergy_Mt = 1.69\n[site]\nlatitude_deg = 11.6\natmosphere = tropical\n[plume]\nband_bottom_m = 15000\n' >"$SL_TMP/high.ini"
+sl_expect_exit 0 "run with bands from 15 km" "$SL_BIN" run --json "$SL_TMP/high.ini"
+if /usr/bin/python3 - "$SL_TMP/out" <<'PY'
+import json, sys
+d = json.load(open(sys.argv[1]))
+b = d["bands"]
+assert b[0]["bottom_m"] == 15000 and len(b) == 85
+tot = sum(x["vapor_kg"] + x["ice_kg"] for x in b)
+assert d["water_below_bands_kg"] > 0
+assert abs(tot + d["frozen_out_kg"] + d["background_water_kg"] + d["water_below_bands_kg"] - d["water_lofted_kg"]) <= 1e-9 * d["water_lofted_kg"]
+PY
+then sl_ok "water below the bands tallied, budget closes"; else sl_fail "water below the bands"; fi
 
 # Mistakes in [plume].
 printf '[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 0\n[plume]\nentrainment_coefficient = 1.5\n' >"$SL_TMP/bad1.ini"
