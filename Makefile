@@ -103,6 +103,22 @@ bench: ensure-deps
 bench-run: $(BIN)
 	@scripts/bench.sh $(BUILD)
 
+# The demo: one invented scenario through every stage, with every output.
+DEMO_SCENARIO ?= examples/demo.ini
+DEMO_OUT      ?= demo-output
+
+demo: ensure-deps
+	@$(MAKE) --no-print-directory demo-run
+
+demo-run: $(BIN)
+	@mkdir -p $(DEMO_OUT)
+	$(BIN) --force run $(DEMO_SCENARIO) -o $(DEMO_OUT)/demo.nc --csv $(DEMO_OUT)/csv --plot $(DEMO_OUT)/plots
+	@echo
+	@echo "demo: outputs in $(DEMO_OUT)/:"
+	@echo "  demo.nc   CF-1.11 netCDF: try 'ncdump -h $(DEMO_OUT)/demo.nc' or 'cdo sinfon $(DEMO_OUT)/demo.nc'"
+	@echo "  csv/      profile.csv, background.csv, series.csv, series_layers.csv"
+	@echo "  plots/    profile, decay and column plots (SVG, PNG) and the editable script steamloft.gp"
+
 # Regenerate the shipped profiles in atmospheres/ (scripts/make-atmospheres.sh).
 atmospheres: build
 	scripts/make-atmospheres.sh $(BIN) atmospheres

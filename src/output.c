@@ -16,6 +16,10 @@
 #include "steamloft/output.h"
 
 #include "steamloft/scenario.h"
+#include "steamloft/strat.h"
+#include "steamloft/units.h"
+
+#include <stdlib.h>
 
 #include <math.h>
 #include <stdio.h>
@@ -72,6 +76,106 @@ void sl_output_params_from_provenance(const struct sl_param_value *pv, size_t n,
         out[i].value = pv[i].value;
         out[i].origin = pv[i].origin;
     }
+}
+
+void sl_output_strat_free(sl_output_strat *os)
+{
+    if (os == NULL)
+        return;
+    free(os->layer_bottom_m);
+    free(os->layer_top_m);
+    free(os->excess_kg);
+    free(os->sink_kg);
+    memset(os, 0, sizeof *os);
+}
+
+int sl_output_strat_init(sl_output_strat *os, const struct sl_strat_model *m,
+                         const struct sl_strat_result *r, sl_err *e)
+{
+    memset(os, 0, sizeof *os);
+    const size_t nt = r->n_times, nl = m->n_layers, nr = SL_STRAT_N_REGIONS, ns = SL_STRAT_N_SINKS;
+    if (nt == 0 || nl == 0)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "box-model result without times or layers");
+    os->layer_bottom_m = malloc(nl * sizeof(double));
+    os->layer_top_m = malloc(nl * sizeof(double));
+    os->excess_kg = calloc(nt * nr * nl, sizeof(double));
+    os->sink_kg = malloc(ns * nt * sizeof(double));
+    if (!os->layer_bottom_m || !os->layer_top_m || !os->excess_kg || !os->sink_kg) {
+        sl_output_strat_free(os);
+        SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory for the box-model output");
+    }
+    double lowest = INFINITY;
+    for (size_t b = 0; b < m->n_boxes; b++)
+        if (m->box_layer[b] == 0)
+            lowest = fmin(lowest, m->box_bottom_m[b]);
+    for (size_t l = 0; l < nl; l++) {
+        os->layer_top_m[l] = m->layer_top_m[l];
+        os->layer_bottom_m[l] = l > 0 ? m->layer_top_m[l - 1] : (isfinite(lowest) ? lowest : 0.0);
+    }
+    for (size_t t = 0; t < nt; t++)
+        for (size_t b = 0; b < m->n_boxes; b++) {
+            size_t reg = (size_t)m->box_region[b], lay = (size_t)m->box_layer[b];
+            os->excess_kg[(t * nr + reg) * nl + lay] = r->box_excess_kg[t * m->n_boxes + b];
+        }
+    for (size_t k = 0; k < ns; k++)
+        for (size_t t = 0; t < nt; t++)
+            os->sink_kg[k * nt + t] = r->sink_kg[t * ns + k];
+    double edge = m->par.tropics_edge_deg;
+    double south[3] = {-90.0, -edge, edge}, north[3] = {-edge, edge, 90.0};
+    for (size_t g = 0; g < nr; g++) {
+        os->region_south_deg[g] = south[g];
+        os->region_north_deg[g] = north[g];
+        os->region_tropopause_m[g] = m->tropopause_m[g];
+    }
+    os->series = (sl_output_series){nt, nr, nl, r->time_s, os->region_south_deg,
+                                    os->region_north_deg, os->layer_bottom_m, os->layer_top_m,
+                                    os->excess_kg, r->layer_anomaly_mole_fraction,
+                                    r->global_excess_kg, r->global_column_kg_m2,
+                                    r->local_column_kg_m2, r->percent_of_background, r->forcing_W_m2,
+                                    ns, sl_strat_sink_names, os->sink_kg, os->region_tropopause_m};
+    const struct {
+        const char *name, *long_name, *units;
+        double value;
+    } sc[] = {
+        {"injected_water_mass", "water (vapour and ice) above the tropopause at the start", "kg",
+         r->injected_kg},
+        {"not_entered_water_mass", "water of the profile below the tropopause (never entered)", "kg",
+         r->not_entered_kg},
+        {"initial_excess_water_mass", "excess after the young-cloud freeze-out", "kg",
+         r->initial_excess_kg},
+        {"efolding_time", "time for the global excess to fall to 1/e of its initial value", "s",
+         r->efolding_s},
+        {"mean_residence_time", "time integral of the excess divided by the initial excess", "s",
+         r->mean_residence_s},
+        {"peak_percent_of_background",
+         "largest excess as a percentage of the background stratospheric water", "percent",
+         r->percent_of_background_peak},
+        {"peak_mole_fraction_anomaly", "largest global-mean excess mole fraction above ~100 hPa",
+         "mol mol-1", r->peak_global_anomaly_mole_fraction},
+        {"peak_column_anomaly", "largest global-mean column of excess water", "kg m-2",
+         r->peak_global_column_kg_m2},
+        {"peak_local_column_anomaly", "largest column of excess water over the early local cloud",
+         "kg m-2", r->peak_local_column_kg_m2},
+        {"peak_forcing_indicator", "largest first-order radiative forcing indicator (coarse)",
+         "W m-2", r->forcing_indicator_W_m2},
+        {"fraction_remaining_1y", "fraction of the initial excess left after one year", "1",
+         r->fraction_remaining_1y},
+        {"fraction_remaining_3y", "fraction of the initial excess left after three years", "1",
+         r->fraction_remaining_3y},
+        {"reference_background_water_mass",
+         "background water in the box model's reference domain (above ~100 hPa)", "kg",
+         m->reference_background_kg},
+        {"budget_max_relative_error",
+         "largest |injected - remaining - removed| / injected over the run (mass conservation)", "1",
+         r->budget_max_rel_error},
+    };
+    for (size_t i = 0; i < sizeof sc / sizeof sc[0] && i < SL_OUTPUT_STRAT_MAX_SCALARS; i++) {
+        if (!isfinite(sc[i].value))
+            continue; /* e.g. no e-folding when nothing entered: left out, never NaN */
+        os->scalars[os->n_scalars++] =
+            (sl_output_scalar){sc[i].name, sc[i].long_name, sc[i].units, NULL, sc[i].value};
+    }
+    return SL_OK;
 }
 
 const char *sl_output_event_time(const sl_output_view *v)
@@ -167,6 +271,7 @@ int sl_output_view_check(const sl_output_view *v, sl_err *e)
                                       "local_column_anomaly_kg_m2", e));
         SL_TRY_RETURN(e, check_finite(s->percent_of_background, nt, "percent_of_background", e));
         SL_TRY_RETURN(e, check_finite(s->forcing_W_m2, nt, "forcing_W_m2", e));
+        SL_TRY_RETURN(e, check_finite(s->region_tropopause_m, s->n_region, "region_tropopause_m", e));
         if (s->n_sink > 0) {
             if (s->sink_name == NULL || s->sink_kg == NULL)
                 SL_FAIL_RETURN(e, SL_EINTERNAL, "series sinks without names or masses");

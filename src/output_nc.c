@@ -278,10 +278,11 @@ static int global_attrs(ncw *w, const sl_output_view *v, sl_err *e)
     if (buf[0])
         SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "references", buf, e));
     snprintf(buf, sizeof buf,
-             "%s%s%s Masses are totals per altitude band, not rates. Time 0 is the event; "
+             "%s%s%s%s Masses are totals per altitude band, not rates. Time 0 is the event; "
              "its date in the time units is %s.",
              sl_cli_caution(), v->regime_note && v->regime_note[0] ? " Validity: " : "",
              v->regime_note && v->regime_note[0] ? v->regime_note : "",
+             v->regime_note && v->regime_note[0] ? "." : "",
              v->event_time && v->event_time[0] ? "the scenario's" : "nominal");
     SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "comment", buf, e));
     SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "tool_version", sl_cli_version(), e));
@@ -482,6 +483,13 @@ static int series_vars(ncw *w, const sl_output_view *v, int nv, int band_dim, sl
         SL_TRY_RETURN(e, def_zaxis(w, "layer", "altitude of the box-model layer centre",
                                    s->layer_bottom_m, s->layer_top_m, s->n_layer, nv, &zdim, e));
 
+    if (s->region_tropopause_m) {
+        SL_TRY_RETURN(e, def_var(w, "region_tropopause_altitude", 1, &ldim, s->region_tropopause_m,
+                                 "tropopause_altitude", "tropopause altitude of the latitude region",
+                                 "m", &id, e));
+        SL_TRY_RETURN(e, att_text(w, id, "comment",
+                                  "the box model's lowest box in each region starts here", e));
+    }
     int d3[3] = {tdim, ldim, zdim}, d2[2] = {tdim, zdim};
     SL_TRY_RETURN(e, def_var(w, "excess_water_mass", 3, d3, s->excess_kg, NULL,
                              "excess water in the box (latitude region and layer) over background",

@@ -76,19 +76,23 @@ static void write_profile(FILE *fp, const sl_output_view *v)
     }
 }
 
+/* Background water vapour per km of altitude over the whole Earth at level I. */
+static double background_tg_per_km(const sl_atmosphere *a, size_t i)
+{
+    const double mw = SL_MOLAR_MASS_H2O_KG_MOL, md = SL_MOLAR_MASS_DRY_AIR_KG_MOL;
+    double x = a->h2o_mole_fraction[i];
+    double rho_w = x * mw * a->density_kg_m3[i] / (x * mw + (1.0 - x) * md);
+    return sl_kg_to_tg(rho_w * SL_EARTH_AREA_M2 * 1.0e3);
+}
+
 static void write_background(FILE *fp, const sl_output_view *v)
 {
     const sl_atmosphere *a = v->atm;
     header(fp, v, "background water vapour per km of altitude over the whole Earth");
     fputs("# altitude_km background_water_Tg_per_km h2o_ppmv\n", fp);
-    const double mw = SL_MOLAR_MASS_H2O_KG_MOL, md = SL_MOLAR_MASS_DRY_AIR_KG_MOL;
-    for (size_t i = 0; i < a->n; i++) {
-        double x = a->h2o_mole_fraction[i];
-        double rho_w = x * mw * a->density_kg_m3[i] / (x * mw + (1.0 - x) * md);
-        double tg_per_km = sl_kg_to_tg(rho_w * SL_EARTH_AREA_M2 * 1.0e3);
-        fprintf(fp, "%.10g %.10g %.10g\n", sl_m_to_km(a->altitude_m[i]), tg_per_km,
-                sl_mole_fraction_to_ppmv(x));
-    }
+    for (size_t i = 0; i < a->n; i++)
+        fprintf(fp, "%.10g %.10g %.10g\n", sl_m_to_km(a->altitude_m[i]), background_tg_per_km(a, i),
+                sl_mole_fraction_to_ppmv(a->h2o_mole_fraction[i]));
 }
 
 static void write_decay(FILE *fp, const sl_output_view *v)
@@ -174,11 +178,31 @@ static void write_script(FILE *fp, const sl_output_view *v)
         fprintf(fp, "trop_km = %.6g\n", sl_m_to_km(trop));
     else
         fputs("trop_km = NaN   # unknown: no tropopause line\n", fp);
-    fprintf(fp, "have_bg = %d\nlog_mass = %d   # log mass axis (0 when nothing was lofted)\n",
-            v->atm != NULL, total > 0);
     fprintf(fp, "z_top_km = %.6g\n", sl_m_to_km(inj->band_top_m[inj->n_bands - 1]));
-    fprintf(fp, "x_min = %.6g   # left end of the mass axis: six decades below the peak\n",
-            peak > 0 ? peak * 1e-6 : 0.0);
+    /* Mass axis (log): from four decades below the lofted peak (or a third of
+     * the driest stratospheric background) to three times the larger of the
+     * peak and the wettest stratospheric background within the bands' height.
+     * With nothing lofted the background alone sets it; with neither, a
+     * linear 0-1 axis. */
+    double x_min = peak > 0 ? peak * 1e-4 : INFINITY, x_max = peak > 0 ? peak * 3.0 : 0.0;
+    if (v->atm && isfinite(trop)) {
+        const sl_atmosphere *a = v->atm;
+        double z_top = inj->band_top_m[inj->n_bands - 1];
+        for (size_t i = 0; i < a->n; i++) {
+            if (a->altitude_m[i] < trop || a->altitude_m[i] > z_top)
+                continue;
+            double bg = background_tg_per_km(a, i);
+            if (bg > 0) {
+                x_min = fmin(x_min, bg / 3.0);
+                x_max = fmax(x_max, bg * 3.0);
+            }
+        }
+    }
+    int log_mass = isfinite(x_min) && x_min > 0 && x_max > x_min;
+    fprintf(fp, "have_bg = %d\nlog_mass = %d   # log mass axis\n", v->atm != NULL, log_mass);
+    fprintf(fp, "nothing_lofted = %d\n", !(total > 0));
+    fprintf(fp, "x_min = %.4g; x_max = %.4g   # range of the mass axis\n", log_mass ? x_min : 0.0,
+            log_mass ? x_max : 1.0);
     if (s) {
         fprintf(fp, "n_region = %zu\nregion_names = \"", s->n_region);
         for (size_t r = 0; r < s->n_region; r++) {
@@ -190,8 +214,13 @@ static void write_script(FILE *fp, const sl_output_view *v)
         fprintf(fp, "\"\nhave_local = %d\n", s->local_column_anomaly_kg_m2 != NULL);
     }
     if (v->regime_note && v->regime_note[0]) {
+        /* The full note is in the netCDF and CSV files; the plot gets its head. */
+        char head[96];
+        size_t k = strcspn(v->regime_note, ":;.");
+        snprintf(head, sizeof head, "%.*s: see the validity warning", (int)(k < 60 ? k : 60),
+                 v->regime_note);
         fputs("validity = ", fp);
-        gp_string(fp, v->regime_note);
+        gp_string(fp, head);
         fputc('\n', fp);
     } else {
         fputs("validity = \"\"\n", fp);
@@ -216,13 +245,14 @@ static void write_script(FILE *fp, const sl_output_view *v)
           "  set xlabel \"water per km of altitude, whole Earth (Tg km^{-1})\"\n"
           "  set ylabel \"altitude (km)\"\n"
           "  set yrange [0:z_top_km]\n"
-          "  if (log_mass) { set logscale x; set format x \"10^{%L}\"; set xrange [x_min:*] } else { unset logscale x }\n"
+          "  if (log_mass) { set logscale x; set format x \"10^{%L}\"; set xrange [x_min:x_max] } else { unset logscale x }\n"
           "  set key below\n"
           "  if (trop_km == trop_km) {\n"
           "    set arrow 1 from graph 0, first trop_km to graph 1, first trop_km nohead dt 2 lw line_w lc rgb c_trop\n"
           "    set label 1 sprintf(\"tropopause %.1f km\", trop_km) at graph 0.02, first trop_km offset 0, 0.7 tc rgb c_trop\n"
           "  }\n"
-          "  if (strlen(validity) > 0) { set label 2 validity at graph 0.02, graph 0.04 noenhanced font \",9\" }\n"
+          "  if (nothing_lofted) { set label 3 \"no water lofted\" at graph 0.5, graph 0.5 center tc rgb c_vapor }\n"
+          "  if (strlen(validity) > 0) { set label 2 validity at graph 0.02, graph 0.04 noenhanced tc rgb c_trop }\n"
           "  if (have_bg) {\n"
           "    plot \"background.dat\" using 2:1 with lines dt 3 lw line_w lc rgb c_bg title \"background water vapour\", \\\n"
           "         \"profile.dat\" using 2:1 with lines lw line_w lc rgb c_vapor title \"lofted vapour\", \\\n"
@@ -231,7 +261,7 @@ static void write_script(FILE *fp, const sl_output_view *v)
           "    plot \"profile.dat\" using 2:1 with lines lw line_w lc rgb c_vapor title \"lofted vapour\", \\\n"
           "         \"profile.dat\" using 3:1 with lines lw line_w lc rgb c_ice title \"lofted ice and liquid\"\n"
           "  }\n"
-          "  unset arrow; unset label; unset logscale x; set format x \"% h\"; set autoscale; set key inside\n",
+          "  unset arrow; unset label; unset logscale x; set format x \"% h\"; set autoscale; set key inside top right vertical\n",
           fp);
     if (s) {
         fputs("\n"
@@ -241,7 +271,7 @@ static void write_script(FILE *fp, const sl_output_view *v)
               "  set xlabel \"years after the event\"\n"
               "  set ylabel \"excess stratospheric water (Tg)\"\n"
               "  set yrange [0:*]\n"
-              "  set key top right\n"
+              "  set key inside top right vertical\n"
               "  plot \"decay.dat\" using 1:2 with lines lw line_w+1 lc rgb c_global title \"global\", \\\n"
               "       for [i=1:n_region] \"decay.dat\" using 1:(column(2+i)) with lines lw line_w \\\n"
               "           lc rgb word(c_region, (i-1)%words(c_region)+1) title word(region_names, i)\n"
@@ -250,17 +280,17 @@ static void write_script(FILE *fp, const sl_output_view *v)
               "  set output \"column.\".fmt\n"
               "  set title run_title noenhanced\n"
               "  set xlabel \"years after the event\"\n"
-              "  set ylabel \"global-mean column anomaly (precipitable µm)\"\n"
-              "  set yrange [0:*]\n"
+              "  set ylabel \"column anomaly (precipitable µm)\"\n"
               "  if (have_local) {\n"
-              "    set y2label \"column over the early local cloud (precipitable µm)\"\n"
-              "    set y2tics; set ytics nomirror; set y2range [0:*]\n"
-              "    plot \"column.dat\" using 1:2 axes x1y1 with lines lw line_w lc rgb c_global title \"global mean\", \\\n"
-              "         \"column.dat\" using 1:3 axes x1y2 with lines lw line_w dt 2 lc rgb c_local title \"early local cloud (right axis)\"\n"
+              "    # the local column starts orders of magnitude above the global mean: log axis\n"
+              "    set logscale y; set format y \"10^{%L}\"; set yrange [*:*]\n"
+              "    plot \"column.dat\" using 1:2 with lines lw line_w lc rgb c_global title \"global mean\", \\\n"
+              "         \"column.dat\" using 1:3 with lines lw line_w dt 2 lc rgb c_local title \"over the early local cloud, then the wettest region\"\n"
               "  } else {\n"
+              "    set yrange [0:*]\n"
               "    plot \"column.dat\" using 1:2 with lines lw line_w lc rgb c_global title \"global mean\"\n"
               "  }\n"
-              "  unset y2tics; unset y2label; set ytics mirror\n",
+              "  unset logscale y; set format y \"% h\"\n",
               fp);
     }
     fputs("  unset output\n}\n", fp);

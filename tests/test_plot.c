@@ -175,6 +175,30 @@ START_TEST(existing_image_not_overwritten)
 }
 END_TEST
 
+/* Nothing lofted (a small airburst): the plot still renders, on the
+ * background's log axis, labelled as such. */
+START_TEST(nothing_lofted_renders)
+{
+    if (!have_gnuplot())
+        return;
+    build_fixture(0);
+    for (int i = 0; i < NB; i++)
+        F.vap[i] = F.ice[i] = 0.0;
+    F.view.series = NULL;
+    mk_tmp();
+    sl_err e = {0};
+    sl_plot_result res;
+    ck_assert_msg(sl_plot_write(&F.view, tmpdir, NULL, &res, &e) == SL_OK, "%s", e.msg);
+    ck_assert_msg(res.rendered, "not rendered: %s", res.warning);
+    char p[500], cmd[700], out[256];
+    snprintf(p, sizeof p, "%s/profile.svg", tmpdir);
+    check_svg(p);
+    snprintf(cmd, sizeof cmd, "grep -c 'no water lofted' '%s'", p);
+    ck_assert_int_eq(run_cmd(cmd, out, sizeof out), 0);
+    rm_tmp();
+}
+END_TEST
+
 static Suite *suite(void)
 {
     Suite *s = suite_create("plot");
@@ -184,6 +208,7 @@ static Suite *suite(void)
     tcase_add_test(tc, data_values);
     tcase_add_test(tc, missing_gnuplot_is_a_warning);
     tcase_add_test(tc, existing_image_not_overwritten);
+    tcase_add_test(tc, nothing_lofted_renders);
     suite_add_tcase(s, tc);
     return s;
 }

@@ -39,6 +39,7 @@ typedef struct sl_output_series {
     size_t n_sink;                         /* removal paths (transport, freeze-drying, photolysis) */
     const char *const *sink_name;          /* n_sink short names, [A-Za-z0-9_] */
     const double *sink_kg;                 /* n_sink*n_time: cumulative mass removed by each path */
+    const double *region_tropopause_m;     /* n_region: where each region's lowest box starts (optional) */
 } sl_output_series;
 
 /* A named scalar result (burst altitude, e-folding time, ...), in SI. */
@@ -64,6 +65,30 @@ struct sl_param_value;
  * into PV, which must outlive it. */
 void sl_output_params_from_provenance(const struct sl_param_value *pv, size_t n,
                                       sl_output_param *out);
+
+/* The box model's results as a series view and scalars.  The model's boxes
+ * (regions x layers, a region's lowest box starting at its own tropopause)
+ * go onto one common layer axis: layer l spans [top of layer l-1, top of
+ * layer l], the lowest layer starting at the lowest tropopause; a box a
+ * region does not have holds 0 kg. */
+enum { SL_OUTPUT_STRAT_MAX_SCALARS = 16 };
+struct sl_strat_model;
+struct sl_strat_result;
+typedef struct sl_output_strat {
+    sl_output_series series;                    /* the view; points into this struct and the result */
+    sl_output_scalar scalars[SL_OUTPUT_STRAT_MAX_SCALARS];
+    size_t n_scalars;
+    double region_south_deg[3], region_north_deg[3], region_tropopause_m[3];
+    double *layer_bottom_m, *layer_top_m;       /* n_layer */
+    double *excess_kg;                          /* n_time * 3 * n_layer */
+    double *sink_kg;                            /* n_sink * n_time */
+} sl_output_strat;
+
+/* Build OS from model M and result R (which must outlive OS).  SL_ENOMEM. */
+int sl_output_strat_init(sl_output_strat *os, const struct sl_strat_model *m,
+                         const struct sl_strat_result *r, sl_err *e);
+/* Release; safe on a zeroed struct. */
+void sl_output_strat_free(sl_output_strat *os);
 
 /* Which published methods the run used (for the references attribute). */
 enum {

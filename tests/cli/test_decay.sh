@@ -1,0 +1,63 @@
+#!/bin/sh
+# `steamloft decay`: single layer and profile file, text and JSON summaries,
+# the calibration command, and usage / bad-data errors with their exit codes.
+. "$(dirname "$0")/lib.inc"
+
+# Hunga-like layer (146 Tg at 22-27 km, 20 S, January; Millan et al. 2022).
+sl_expect_exit 0 "decay --inject" "$SL_BIN" decay --inject 1.46e11 --between 22000 27000 --latitude -20
+for k in efolding_years mean_residence_years percent_of_background peak_global_anomaly_ppmv \
+         peak_global_column_kg_m2 peak_local_column_kg_m2 forcing_indicator_W_m2 \
+         fraction_remaining_1y fraction_remaining_3y "Screening estimate"; do
+  sl_expect_grep "$SL_TMP/out" "$k" "text summary has $k"
+done
+sl_expect_exit 0 "decay --json" "$SL_BIN" decay --json --inject 1.46e11 --between 22000,27000 --latitude -20
+# The JSON parses and its e-folding lies between 2.5 yr (Fleming et al. 2024)
+# and 43 months (Zhuo et al. 2025), its percentage within 8.9-13 % (Xu 2022,
+# Khaykin 2022), as in tests/test_strat.c.
+if /usr/bin/python3 -c '
+import json, sys
+d = json.load(open(sys.argv[1]))
+keys = ["efolding_years", "mean_residence_years", "percent_of_background", "peak_global_anomaly_ppmv",
+        "peak_global_column_kg_m2", "peak_local_column_kg_m2", "forcing_indicator_W_m2",
+        "fraction_remaining_1y", "fraction_remaining_3y", "caution"]
+assert all(k in d for k in keys), [k for k in keys if k not in d]
+assert 2.5 <= d["efolding_years"] <= 43 / 12, d["efolding_years"]
+assert 8.9 <= d["percent_of_background"] <= 13, d["percent_of_background"]
+tot = d["remaining_kg"] + sum(d["sinks_kg"].values())
+assert abs(tot - d["injected_kg"]) <= 1e-5 * d["injected_kg"], (tot, d["injected_kg"])
+' "$SL_TMP/out"; then sl_ok "JSON keys, Hunga ranges and budget"; else sl_fail "JSON keys, Hunga ranges and budget"; fi
+
+# A profile file in the injection CSV format (Tg and km units).
+cat > "$SL_TMP/prof.csv" <<'CSV'
+# latitude_deg = -20
+bottom_km,top_km,vapor_Tg
+22,23,29.2
+23,24,29.2
+24,25,29.2
+25,26,29.2
+26,27,29.2
+CSV
+sl_expect_exit 0 "decay PROFILE.csv" "$SL_BIN" decay --json "$SL_TMP/prof.csv"
+sl_expect_grep "$SL_TMP/out" '"injected_kg": 1.46e+11' "profile: 146 Tg injected"
+sl_expect_exit 0 "decay --series" "$SL_BIN" decay --series --span-years 2 "$SL_TMP/prof.csv"
+sl_expect_grep "$SL_TMP/out" "^time_days,global_excess_kg" "series header"
+n=$(grep -c '^[0-9]' "$SL_TMP/out")
+if [ "$n" -eq 25 ]; then sl_ok "2 years monthly = 25 rows"; else sl_fail "2 years monthly: $n rows, want 25"; fi
+
+sl_expect_exit 0 "decay --calibrate" "$SL_BIN" decay --calibrate
+sl_expect_grep "$SL_TMP/out" "deep_branch_fraction" "calibration prints the fitted constants"
+sl_expect_exit 0 "decay --help" "$SL_BIN" decay --help
+sl_expect_grep "$SL_TMP/out" "Usage: steamloft decay" "help text"
+
+# Usage errors (64) and bad data (65), no input (66).
+sl_expect_exit 64 "no profile, no layer" "$SL_BIN" decay
+sl_expect_exit 64 "latitude out of range" "$SL_BIN" decay --inject 1e9 --between 20000 21000 --latitude 91
+sl_expect_grep "$SL_TMP/err" "valid range -90 to 90" "latitude range named"
+sl_expect_exit 64 "--between reversed" "$SL_BIN" decay --inject 1e9 --between 21000 20000 --latitude 0
+sl_expect_exit 64 "month 13" "$SL_BIN" decay --month 13 --inject 1e9 --between 20000 21000 --latitude 0
+sl_expect_exit 66 "missing profile" "$SL_BIN" decay "$SL_TMP/nope.csv"
+printf 'bottom_km,top_km,vapor_Tg\n20,21,-3\n' > "$SL_TMP/bad.csv"
+sl_expect_exit 65 "negative mass in profile" "$SL_BIN" decay "$SL_TMP/bad.csv"
+sl_expect_grep "$SL_TMP/err" "bad.csv:2" "bad profile names file and line"
+sl_expect_exit 66 "unknown atmosphere" "$SL_BIN" decay --atmosphere nowhere --inject 1e9 --between 20000 21000 --latitude 0
+sl_done

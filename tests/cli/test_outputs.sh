@@ -1,0 +1,209 @@
+#!/bin/sh
+# File outputs of the commands (-o, --format, --csv, --plot), end to end, read
+# back by tools that share no code with steamloft: python3-netcdf4
+# (tests/tools/nc_check.py), ncdump, CDO, Python's csv module.  Also the
+# safe-output rules: no overwrite without --force (exit 73), a missing or
+# read-only directory (exit 73, checked before the run, nothing left), and two
+# identical runs giving identical ncdump text apart from the history line.
+. "$(dirname "$0")/lib.inc"
+SRC=${SL_SRCDIR:-.}
+PY=/usr/bin/python3
+PROF="$SRC/examples/injection-profile.csv"
+D="$SL_TMP/o"
+mkdir -p "$D"
+
+# A full decay run with every output.
+sl_expect_exit 0 "decay with -o, --csv, --plot" "$SL_BIN" decay "$PROF" -o "$D/decay.nc" --csv "$D/csv" --plot "$D/plot"
+cp "$SL_TMP/out" "$SL_TMP/summary"
+sl_expect_grep "$SL_TMP/summary" "Screening estimate" "summary still printed with the caution"
+
+# The independent reader: CF structure plus values.  The example profile holds
+# 60 Tg vapour and 6 Tg ice (its own comment; exact in binary after x1e9).
+cat >"$SL_TMP/expect" <<EOF
+format NETCDF4_CLASSIC
+sum vapor_mass 6.0e10 1e-12
+sum ice_mass 6.0e9 1e-12
+var total_vapor_mass 0 6.0e10 1e-12
+var tropopause_altitude 0 16500 0
+var altitude_bnds 0 16000 0
+var altitude_bnds 15 32000 0
+var latitude 0 -5 0
+var injected_water_mass 0 6.6e10 1e-12
+att . Conventions CF-1.11
+att . scenario_decay_source $PROF
+att altitude axis Z
+att altitude positive up
+att vapor_mass_content standard_name mass_content_of_water_vapor_in_atmosphere_layer
+att time calendar standard
+has excess_water_mass
+has removed_troposphere
+EOF
+if $PY "$SRC/tests/tools/nc_check.py" "$D/decay.nc" "$SL_TMP/expect" >"$SL_TMP/chk" 2>&1; then
+  sl_ok "netCDF read back by python3-netcdf4: CF attributes and masses ($(tail -1 "$SL_TMP/chk" | sed 's/.*: //'))"
+else sl_fail "netCDF check"; sed 's/^/#   /' "$SL_TMP/chk" | grep -v '^#   ok' | head -20; fi
+
+# Masses in the file equal the run's own report (decay --json prints %.6g).
+"$SL_BIN" decay "$PROF" --json >"$SL_TMP/json"
+$PY - "$D/decay.nc" "$SL_TMP/json" >"$SL_TMP/cmp" 2>&1 <<'EOF'
+import json, sys, netCDF4
+j = json.load(open(sys.argv[2]))
+with netCDF4.Dataset(sys.argv[1]) as ds:
+    pairs = [("injected_water_mass", j["injected_kg"]),
+             ("reference_background_water_mass", j["background_burden_kg"]),
+             ("efolding_time", j["efolding_years"] * 365.25 * 86400),
+             ("peak_percent_of_background", j["percent_of_background"])]
+    bad = 0
+    for name, want in pairs:
+        got = float(ds.variables[name][...])
+        if abs(got - want) > 5e-6 * abs(want):  # %.6g in the JSON: half a unit in the 6th digit
+            print("mismatch", name, got, want); bad += 1
+    last = ds.variables["global_excess_water_mass"][-1]
+    if abs(float(last) - j["remaining_kg"]) > 5e-6 * abs(j["remaining_kg"]):
+        print("mismatch remaining", float(last), j["remaining_kg"]); bad += 1
+sys.exit(bad)
+EOF
+if [ $? -eq 0 ]; then sl_ok "netCDF scalars and series equal the run's JSON report"; else sl_fail "netCDF vs JSON"; sed 's/^/#   /' "$SL_TMP/cmp"; fi
+
+# ncdump reads it; CDO reads the vertical axis with its bounds.
+if ncdump -h "$D/decay.nc" >"$SL_TMP/hdr" 2>&1; then sl_ok "ncdump reads the file"; else sl_fail "ncdump"; fi
+sl_expect_grep "$SL_TMP/hdr" 'altitude:bounds = "altitude_bnds"' "ncdump shows altitude bounds"
+if command -v cdo >/dev/null 2>&1; then
+  if cdo -s zaxisdes -selname,vapor_mass "$D/decay.nc" >"$SL_TMP/cdo" 2>&1 && grep -q 'lbounds' "$SL_TMP/cdo" \
+     && grep -q 'zaxistype = altitude' "$SL_TMP/cdo"; then
+    sl_ok "CDO reads the altitude axis with bounds"
+  else sl_fail "CDO zaxisdes"; sed 's/^/#   /' "$SL_TMP/cdo" | head -5; fi
+  if cdo -s sinfon "$D/decay.nc" >"$SL_TMP/cdo2" 2>&1; then sl_ok "cdo sinfon reads every variable"
+  else sl_fail "cdo sinfon"; sed 's/^/#   /' "$SL_TMP/cdo2" | head -5; fi
+else
+  echo "# cdo not installed: CDO checks skipped"
+fi
+
+# CSV: the profile written equals the profile read (Python csv module).
+$PY - "$PROF" "$D/csv/profile.csv" >"$SL_TMP/csvcmp" 2>&1 <<'EOF'
+import csv, sys
+def rows(p):
+    return [r for r in csv.DictReader(l for l in open(p) if not l.startswith('#'))]
+a, b = rows(sys.argv[1]), rows(sys.argv[2])
+assert len(a) == len(b), (len(a), len(b))
+for x, y in zip(a, b):
+    for k in ("bottom_km", "top_km", "vapor_Tg", "ice_Tg"):
+        assert abs(float(x[k]) - float(y[k])) <= 5e-10 * max(1.0, abs(float(x[k]))), (k, x[k], y[k])
+s = list(csv.DictReader(l for l in open(sys.argv[2].replace("profile.csv", "series.csv")) if not l.startswith('#')))
+assert float(s[0]["time_days"]) == 0 and len(s) > 12
+EOF
+if [ $? -eq 0 ]; then sl_ok "CSV profile equals the input profile; series readable"; else sl_fail "CSV"; sed 's/^/#   /' "$SL_TMP/csvcmp"; fi
+
+# Plots rendered when gnuplot is installed.
+if command -v gnuplot >/dev/null 2>&1; then
+  good=1
+  for f in profile decay column; do
+    [ -s "$D/plot/$f.svg" ] && head -c 200 "$D/plot/$f.svg" | grep -q '<svg\|<?xml' || good=0
+    [ "$(head -c 8 "$D/plot/$f.png" | od -An -tx1 | tr -d ' \n')" = "89504e470d0a1a0a" ] || good=0
+  done
+  if [ $good = 1 ]; then sl_ok "SVG and PNG plots rendered"; else sl_fail "plots"; ls -l "$D/plot" | sed 's/^/#   /'; fi
+else
+  echo "# gnuplot not installed: rendering not checked"
+fi
+[ -s "$D/plot/steamloft.gp" ] && sl_ok "editable gnuplot script written" || sl_fail "no steamloft.gp"
+
+# No overwrite without --force; checked before the run (no summary printed).
+sum_before=$(cat "$D/decay.nc" "$D/csv/profile.csv" | cksum)
+sl_expect_exit 73 "existing netCDF without --force" "$SL_BIN" decay "$PROF" -o "$D/decay.nc"
+sl_expect_grep "$SL_TMP/err" "decay.nc' exists" "message names the existing file"
+sl_expect_grep "$SL_TMP/err" "force" "message points to --force"
+if [ ! -s "$SL_TMP/out" ]; then sl_ok "refused before the run (no summary)"; else sl_fail "ran before refusing"; fi
+sl_expect_exit 73 "existing CSV without --force" "$SL_BIN" decay "$PROF" --csv "$D/csv"
+[ "$(cat "$D/decay.nc" "$D/csv/profile.csv" | cksum)" = "$sum_before" ] && sl_ok "existing files untouched" || sl_fail "files changed"
+sl_expect_exit 0 "--force replaces" "$SL_BIN" --force decay "$PROF" -o "$D/decay.nc" --csv "$D/csv"
+
+# Missing directory: exit 73, names the path, nothing created.
+sl_expect_exit 73 "-o in a missing directory" "$SL_BIN" decay "$PROF" -o "$D/nosuch/x.nc"
+sl_expect_grep "$SL_TMP/err" "nosuch" "message names the missing directory"
+sl_expect_exit 73 "--csv under a missing parent" "$SL_BIN" decay "$PROF" --csv "$D/nosuch/deeper"
+[ ! -e "$D/nosuch" ] && sl_ok "nothing created for the missing directory" || sl_fail "something created"
+
+# Read-only directory.  Root ignores permission bits, so as root the command
+# runs with CAP_DAC_OVERRIDE dropped (setpriv, util-linux).
+RO="$D/ro"; mkdir -p "$RO"; chmod 555 "$RO"
+run_ro() { if [ "$(id -u)" = 0 ]; then setpriv --bounding-set=-dac_override,-dac_read_search "$@"; else "$@"; fi; }
+if [ "$(id -u)" != 0 ] || command -v setpriv >/dev/null 2>&1; then
+  sl_expect_exit 73 "-o in a read-only directory" run_ro "$SL_BIN" decay "$PROF" -o "$RO/x.nc"
+  sl_expect_grep "$SL_TMP/err" "$RO" "message names the read-only directory"
+  sl_expect_exit 73 "--plot into a read-only directory" run_ro "$SL_BIN" decay "$PROF" --plot "$RO"
+  [ -z "$(ls -A "$RO")" ] && sl_ok "nothing left in the read-only directory" || sl_fail "files left in $RO"
+else
+  echo "# root without setpriv: read-only directory not checked"
+fi
+chmod 755 "$RO"
+
+# Usage mistakes.
+sl_expect_exit 64 "-o - (netCDF to stdout)" "$SL_BIN" decay "$PROF" -o -
+sl_expect_exit 64 "--format without -o" "$SL_BIN" decay "$PROF" --format classic
+sl_expect_exit 64 "--format bogus" "$SL_BIN" decay "$PROF" -o "$D/f.nc" --format hdf9
+sl_expect_grep "$SL_TMP/err" "classic" "--format error lists the valid formats"
+
+# netCDF-3 classic.
+sl_expect_exit 0 "--format classic" "$SL_BIN" decay "$PROF" -o "$D/classic.nc" --format classic
+[ "$(ncdump -k "$D/classic.nc")" = "classic" ] && sl_ok "ncdump -k says classic" || sl_fail "not classic"
+
+# Reproducible: same inputs, same ncdump text apart from the history line.
+mkdir -p "$D/r1" "$D/r2"
+"$SL_BIN" decay "$PROF" -o "$D/r1/same.nc" >/dev/null 2>&1
+"$SL_BIN" decay "$PROF" -o "$D/r2/same.nc" >/dev/null 2>&1
+ncdump "$D/r1/same.nc" | grep -v ':history = ' >"$SL_TMP/d1"
+ncdump "$D/r2/same.nc" | grep -v ':history = ' >"$SL_TMP/d2"
+if [ -s "$SL_TMP/d1" ] && cmp -s "$SL_TMP/d1" "$SL_TMP/d2"; then sl_ok "two identical runs: identical ncdump without history"
+else sl_fail "runs differ"; diff "$SL_TMP/d1" "$SL_TMP/d2" | head -5 | sed 's/^/#   /'; fi
+
+# run: the chain's results in the file equal its own JSON report (10 digits).
+SCEN="$SRC/examples/ocean-stony-300m.ini"
+sl_expect_exit 0 "run with -o, --csv, --plot" "$SL_BIN" run "$SCEN" -o "$D/run.nc" --csv "$D/runcsv" --plot "$D/runplot"
+"$SL_BIN" run --json "$SCEN" >"$SL_TMP/runjson"
+cat >"$SL_TMP/expect_run" <<EOF
+att . scenario_impactor_diameter_m 300
+att . scenario_site_atmosphere us1976
+att . scenario_file $SCEN
+att air_temperature standard_name air_temperature
+has vapor_mass_content
+has excess_water_mass
+has efolding_time
+has region_tropopause_altitude
+EOF
+if $PY "$SRC/tests/tools/nc_check.py" "$D/run.nc" "$SL_TMP/expect_run" >"$SL_TMP/chk" 2>&1; then
+  sl_ok "run netCDF passes the independent CF check ($(tail -1 "$SL_TMP/chk" | sed 's/.*: //'))"
+else sl_fail "run netCDF check"; sed 's/^/#   /' "$SL_TMP/chk" | head -20; fi
+$PY - "$D/run.nc" "$SL_TMP/runjson" >"$SL_TMP/cmp" 2>&1 <<'EOF'
+import json, sys, netCDF4, numpy as np
+j = json.load(open(sys.argv[2]))
+bad = 0
+with netCDF4.Dataset(sys.argv[1]) as ds:
+    def close(name, got, want, rtol=1e-9):   # JSON prints 10 significant digits
+        global bad
+        if abs(got - want) > rtol * abs(want):
+            print("mismatch", name, got, want); bad += 1
+    close("sum vapor_mass", float(np.sum(ds.variables["vapor_mass"][:])), j["injected_vapor_kg"])
+    close("sum ice_mass", float(np.sum(ds.variables["ice_mass"][:])), j["injected_ice_kg"])
+    close("stratospheric_vapor", float(ds.variables["stratospheric_vapor"][...]), j["stratospheric_water_kg"])
+    close("event_energy", float(ds.variables["event_energy"][...]), j["energy_J"])
+    close("water_vaporized", float(ds.variables["water_vaporized"][...]), j["water_vaporized_kg"])
+    n = 0
+    for b in j["bands"]:
+        i = int(round(b["bottom_m"] / 1000.0))
+        if b["vapor_kg"] > 0:
+            close("vapor_mass[%d]" % i, float(ds.variables["vapor_mass"][i]), b["vapor_kg"]); n += 1
+    if n == 0:
+        print("no band with vapour in the report"); bad += 1
+sys.exit(bad)
+EOF
+if [ $? -eq 0 ]; then sl_ok "run netCDF masses equal the run's JSON report, band by band"; else sl_fail "run netCDF vs JSON"; sed 's/^/#   /' "$SL_TMP/cmp" | head; fi
+[ -s "$D/runcsv/series.csv" ] && [ -s "$D/runplot/decay.dat" ] && sl_ok "run CSV and plot files include the box-model series" || sl_fail "run CSV/plot"
+"$SL_BIN" run "$SCEN" -o "$D/r1/run.nc" >/dev/null 2>&1
+"$SL_BIN" run "$SCEN" -o "$D/r2/run.nc" >/dev/null 2>&1
+ncdump "$D/r1/run.nc" | grep -v ':history = ' >"$SL_TMP/d1"
+ncdump "$D/r2/run.nc" | grep -v ':history = ' >"$SL_TMP/d2"
+if [ -s "$SL_TMP/d1" ] && cmp -s "$SL_TMP/d1" "$SL_TMP/d2"; then sl_ok "run twice: identical ncdump without history"
+else sl_fail "run outputs differ"; diff "$SL_TMP/d1" "$SL_TMP/d2" | head -5 | sed 's/^/#   /'; fi
+
+# Nothing stray anywhere: no staging directories left behind.
+if [ -z "$(find "$D" -name '.steamloft-stage-*')" ]; then sl_ok "no staging directories left"; else sl_fail "staging left"; fi
+sl_done
