@@ -227,7 +227,7 @@ static int build_plan(const ens_cli *c, sl_scenario *sc, sl_ens_plan *p, int *id
  * have it. */
 typedef enum out_id {
     O_ENERGY_MT, O_AIRBURST, O_PEAK_DEPOSITION_KM, O_ENERGY_AIR_MT, O_ENERGY_SEA_MT,
-    O_WATER_VAPORIZED_TG, O_SOURCE_VAPOR_TG, O_BLOWOUT, O_PLUME_TOP_KM, O_CLOUD_TOP_KM,
+    O_WATER_VAPORIZED_TG, O_SOURCE_VAPOR_TG, O_BLOWOUT, O_SEA_BLOWOUT, O_PLUME_TOP_KM, O_CLOUD_TOP_KM,
     O_WATER_LOFTED_TG, O_STRAT_WATER_TG, O_STRAT_ICE_TG, O_N_OUT
 } out_id;
 
@@ -245,6 +245,7 @@ static const struct {
     {{"water_vaporized_Tg", "Tg", "sea water vaporised"}, FOR_ALL},
     {{"source_vapor_Tg", "Tg", "water vapour in the initial plume sources"}, FOR_ALL},
     {{"blowout", "1", "1 when the plume blew out of the atmosphere (blow-out rule), 0 for a thermal"}, FOR_ALL},
+    {{"sea_plume_blowout", "1", "1 when the plume rising from the sea blew out (no sea plume: 0)"}, FOR_ALL},
     {{"plume_top_km", "km", "highest reach of the thermals"}, FOR_ALL},
     {{"cloud_top_km", "km", "top of the young clouds"}, FOR_ALL},
     {{"water_lofted_Tg", "Tg", "water in the young clouds before freeze-out"}, FOR_ALL},
@@ -333,6 +334,11 @@ static double out_value(const sl_chain *ch, out_id id)
         return sl_kg_to_tg(v);
     }
     case O_BLOWOUT: return ch->plume.regime == SL_REGIME_BLOWOUT ? 1.0 : 0.0;
+    case O_SEA_BLOWOUT:
+        for (size_t i = 0; i < ch->plume.n_thermals; i++)
+            if (ch->plume.th[i].kind == SL_SOURCE_SEA_PLUME && ch->plume.th[i].regime == SL_REGIME_BLOWOUT)
+                return 1.0;
+        return 0.0;
     case O_PLUME_TOP_KM: return sl_m_to_km(ch->plume.plume_top_m);
     case O_CLOUD_TOP_KM: return sl_m_to_km(ch->plume.cloud_top_m);
     case O_WATER_LOFTED_TG: return sl_kg_to_tg(ch->plume.water_lofted_kg);
