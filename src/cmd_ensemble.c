@@ -17,6 +17,7 @@
 #include "steamloft/ensemble.h"
 #include "steamloft/outfile.h"
 #include "steamloft/scenario.h"
+#include "steamloft/strat.h"
 #include "steamloft/units.h"
 #include "steamloft/units_table.h"
 
@@ -32,6 +33,7 @@
 #include <string.h>
 #include <sys/resource.h>
 #include <sysexits.h>
+#include <time.h>
 #include <unistd.h>
 
 enum { MAX_PCT = 32, MAX_THR = 32, MAX_VARY = 16, NC_BUF_ROWS = 1024 };
@@ -228,7 +230,11 @@ static int build_plan(const ens_cli *c, sl_scenario *sc, sl_ens_plan *p, int *id
 typedef enum out_id {
     O_ENERGY_MT, O_AIRBURST, O_PEAK_DEPOSITION_KM, O_ENERGY_AIR_MT, O_ENERGY_SEA_MT,
     O_WATER_VAPORIZED_TG, O_SOURCE_VAPOR_TG, O_BLOWOUT, O_SEA_BLOWOUT, O_PLUME_TOP_KM, O_CLOUD_TOP_KM,
-    O_WATER_LOFTED_TG, O_STRAT_WATER_TG, O_STRAT_ICE_TG, O_N_OUT
+    O_WATER_LOFTED_TG, O_STRAT_WATER_TG, O_STRAT_ICE_TG,
+    /* box model */
+    O_BOX_INJECTED_TG, O_BOX_INITIAL_TG, O_EFOLDING_YEARS, O_RESIDENCE_YEARS, O_REMAINING_3Y,
+    O_PERCENT_BACKGROUND, O_PEAK_ANOMALY_PPMV, O_PEAK_COLUMN_UM, O_PEAK_LOCAL_COLUMN_UM,
+    O_FORCING_W_M2, O_N_OUT
 } out_id;
 
 enum { FOR_ALL = 0, FOR_IMPACTOR = 1 };
@@ -237,20 +243,30 @@ static const struct {
     sl_ens_output o;
     int only;
 } out_table[O_N_OUT] = {
-    {{"energy_Mt", "4.184e15 J", "kinetic energy at entry, or the explosion energy (Mt TNT)"}, FOR_ALL},
-    {{"airburst", "1", "1 when the body burst in the air, 0 when it reached the sea"}, FOR_IMPACTOR},
-    {{"peak_deposition_altitude_km", "km", "altitude where the energy deposition peaked"}, FOR_IMPACTOR},
-    {{"energy_in_air_Mt", "4.184e15 J", "energy deposited in the atmosphere (Mt TNT)"}, FOR_ALL},
-    {{"energy_at_sea_Mt", "4.184e15 J", "energy reaching the sea surface (Mt TNT)"}, FOR_ALL},
-    {{"water_vaporized_Tg", "Tg", "sea water vaporised"}, FOR_ALL},
-    {{"source_vapor_Tg", "Tg", "water vapour in the initial plume sources"}, FOR_ALL},
-    {{"blowout", "1", "1 when the plume blew out of the atmosphere (blow-out rule), 0 for a thermal"}, FOR_ALL},
-    {{"sea_plume_blowout", "1", "1 when the plume rising from the sea blew out (no sea plume: 0)"}, FOR_ALL},
-    {{"plume_top_km", "km", "highest reach of the thermals"}, FOR_ALL},
-    {{"cloud_top_km", "km", "top of the young clouds"}, FOR_ALL},
-    {{"water_lofted_Tg", "Tg", "water in the young clouds before freeze-out"}, FOR_ALL},
-    {{"strat_water_Tg", "Tg", "water vapour injected above the tropopause"}, FOR_ALL},
-    {{"strat_ice_Tg", "Tg", "ice remaining above the tropopause"}, FOR_ALL},
+    {{"energy_Mt", "4.184e15 J", "kinetic energy at entry, or the explosion energy (Mt TNT)", 0}, FOR_ALL},
+    {{"airburst", "1", "1 when the body burst in the air, 0 when it reached the sea", 0}, FOR_IMPACTOR},
+    {{"peak_deposition_altitude_km", "km", "altitude where the energy deposition peaked", 0}, FOR_IMPACTOR},
+    {{"energy_in_air_Mt", "4.184e15 J", "energy deposited in the atmosphere (Mt TNT)", 0}, FOR_ALL},
+    {{"energy_at_sea_Mt", "4.184e15 J", "energy reaching the sea surface (Mt TNT)", 0}, FOR_ALL},
+    {{"water_vaporized_Tg", "Tg", "sea water vaporised", 0}, FOR_ALL},
+    {{"source_vapor_Tg", "Tg", "water vapour in the initial plume sources", 0}, FOR_ALL},
+    {{"blowout", "1", "1 when a plume blew out of the atmosphere (blow-out rule), 0 for thermals", 0}, FOR_ALL},
+    {{"sea_plume_blowout", "1", "1 when the plume rising from the sea blew out (no sea plume: 0)", 0}, FOR_ALL},
+    {{"plume_top_km", "km", "highest reach of the thermals", 0}, FOR_ALL},
+    {{"cloud_top_km", "km", "top of the young clouds", 0}, FOR_ALL},
+    {{"water_lofted_Tg", "Tg", "water in the young clouds before freeze-out", 0}, FOR_ALL},
+    {{"strat_water_Tg", "Tg", "water vapour injected above the tropopause", 0}, FOR_ALL},
+    {{"strat_ice_Tg", "Tg", "ice remaining above the tropopause", 0}, FOR_ALL},
+    {{"box_injected_Tg", "Tg", "water (vapour and ice) entering the box model above its tropopauses", 0}, FOR_ALL},
+    {{"box_initial_excess_Tg", "Tg", "box-model excess water after the young cloud's freeze-out", 0}, FOR_ALL},
+    {{"efolding_years", "year", "time for the stratospheric excess to fall to 1/e (none when nothing entered)", 1}, FOR_ALL},
+    {{"residence_years", "year", "mean residence time of the excess (none when nothing entered)", 1}, FOR_ALL},
+    {{"remaining_3y_fraction", "1", "fraction of the excess left after 3 years (none when nothing entered)", 1}, FOR_ALL},
+    {{"percent_of_background", "percent", "peak excess as a percentage of the background stratospheric water", 0}, FOR_ALL},
+    {{"peak_anomaly_ppmv", "1e-6", "peak global-mean water mole-fraction anomaly above ~100 hPa", 0}, FOR_ALL},
+    {{"peak_column_um", "um", "peak global-mean column anomaly, precipitable micrometres", 0}, FOR_ALL},
+    {{"peak_local_column_um", "um", "peak column anomaly over the young cloud, precipitable micrometres", 0}, FOR_ALL},
+    {{"forcing_W_m2", "W m-2", "peak first-order radiative-forcing indicator (coarse)", 0}, FOR_ALL},
 };
 
 typedef struct ens_chain {
@@ -261,12 +277,25 @@ typedef struct ens_chain {
     out_id which[O_N_OUT];
     sl_ens_output outputs[O_N_OUT];
     double stage_s[SL_CHAIN_N_TIMED]; /* summed over the workspaces when they are freed */
+    double box_s;
+    int month_varies;        /* site.month is an input: box models for every month */
 } ens_chain;
+
+enum { N_MONTHS = 13 }; /* 0 = month not given, 1..12 */
 
 typedef struct chain_ws {
     sl_scenario sc;
     sl_chain chain;
     ens_chain *owner;
+    /* The stratospheric box model on the chain's injection profile, as
+     * `steamloft run` does it until sl_chain_run has that stage: built-in
+     * tropical background for the tropics, USSA76 for the extratropics; one
+     * model per start month needed, made here, never in the member loop. */
+    sl_atmosphere box_tropics, box_extra;
+    sl_strat_model box[N_MONTHS];
+    sl_strat_result box_res[N_MONTHS];
+    int box_ready[N_MONTHS];
+    double box_s;
 } chain_ws;
 
 /* Set the member's inputs on a copy of the base scenario (range checks and
@@ -287,7 +316,14 @@ static void chain_ws_free(void *p)
     /* Workspaces are freed serially after the member loop: no race. */
     for (int k = 0; k < SL_CHAIN_N_TIMED; k++)
         w->owner->stage_s[k] += w->chain.stage_s[k];
+    w->owner->box_s += w->box_s;
     sl_chain_free(&w->chain);
+    for (int k = 0; k < N_MONTHS; k++) {
+        sl_strat_result_free(&w->box_res[k]);
+        sl_strat_model_free(&w->box[k]);
+    }
+    sl_atmosphere_free(&w->box_tropics);
+    sl_atmosphere_free(&w->box_extra);
     free(w);
 }
 
@@ -295,6 +331,25 @@ static void chain_ws_free(void *p)
  * once on the inputs' medians so the atmosphere is loaded here, serially
  * (netCDF profiles must not be read from parallel threads); a failure of
  * that warm-up run is not an error (members report their own). */
+static int month_index(const sl_scenario *sc)
+{
+    double month = sc->value_si[SL_P_SITE_MONTH];
+    int k = isfinite(month) ? (int)lround(month) : 0;
+    return k >= 0 && k < N_MONTHS ? k : 0;
+}
+
+static int box_init(chain_ws *w, int month, sl_err *e)
+{
+    const sl_atmosphere *atm[SL_STRAT_N_REGIONS] = {&w->box_extra, &w->box_tropics, &w->box_extra};
+    sl_strat_params p;
+    sl_strat_params_default(&p);
+    p.start_month = month;
+    SL_TRY_RETURN(e, sl_strat_model_init(&w->box[month], &p, atm, e));
+    SL_TRY_RETURN(e, sl_strat_result_init(&w->box_res[month], &w->box[month], e));
+    w->box_ready[month] = 1;
+    return SL_OK;
+}
+
 static void *chain_ws_new(void *ctx, sl_err *e)
 {
     ens_chain *c = ctx;
@@ -303,12 +358,23 @@ static void *chain_ws_new(void *ctx, sl_err *e)
         sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "out of memory for a chain workspace");
         return NULL;
     }
+    w->owner = c;
+    int rc = sl_atmosphere_init(&w->box_tropics, "tropical", e);
+    if (rc == SL_OK)
+        rc = sl_atmosphere_init(&w->box_extra, "us1976", e);
+    for (int k = 0; k < N_MONTHS && rc == SL_OK; k++)
+        if (c->month_varies || k == month_index(c->base))
+            rc = box_init(w, k, e);
+    if (rc != SL_OK) {
+        sl_err_push(e, rc, __func__, __LINE__);
+        chain_ws_free(w);
+        return NULL;
+    }
     double si[SL_P_COUNT + 16];
     for (size_t k = 0; k < c->plan->n_inputs && k < sizeof si / sizeof si[0]; k++)
         si[k] = sl_dist_median(&c->plan->inputs[k].dist) * c->plan->inputs[k].to_si;
     sl_err warm;
     sl_err_clear(&warm);
-    w->owner = c;
     if (set_inputs(c, &w->sc, si, &warm) == SL_OK)
         (void)sl_chain_run(&w->sc, &w->chain, &warm);
     /* Time only the members. */
@@ -317,9 +383,10 @@ static void *chain_ws_new(void *ctx, sl_err *e)
     return w;
 }
 
-static double out_value(const sl_chain *ch, out_id id)
+static double out_value(const sl_chain *ch, const sl_strat_result *b, out_id id)
 {
     const sl_partition *pt = &ch->partition;
+    int entered = b->initial_excess_kg > 0.0;
     switch (id) {
     case O_ENERGY_MT: return sl_j_to_mt(pt->energy_total_J);
     case O_AIRBURST: return ch->has_entry && ch->entry.airburst ? 1.0 : 0.0;
@@ -344,6 +411,16 @@ static double out_value(const sl_chain *ch, out_id id)
     case O_WATER_LOFTED_TG: return sl_kg_to_tg(ch->plume.water_lofted_kg);
     case O_STRAT_WATER_TG: return sl_kg_to_tg(ch->plume.stratospheric_water_kg);
     case O_STRAT_ICE_TG: return sl_kg_to_tg(ch->plume.stratospheric_ice_kg);
+    case O_BOX_INJECTED_TG: return sl_kg_to_tg(b->injected_kg);
+    case O_BOX_INITIAL_TG: return sl_kg_to_tg(b->initial_excess_kg);
+    case O_EFOLDING_YEARS: return entered ? sl_s_to_years(b->efolding_s) : NAN;
+    case O_RESIDENCE_YEARS: return entered ? sl_s_to_years(b->mean_residence_s) : NAN;
+    case O_REMAINING_3Y: return entered ? b->fraction_remaining_3y : NAN;
+    case O_PERCENT_BACKGROUND: return b->percent_of_background_peak;
+    case O_PEAK_ANOMALY_PPMV: return sl_mole_fraction_to_ppmv(b->peak_global_anomaly_mole_fraction);
+    case O_PEAK_COLUMN_UM: return sl_kg_m2_to_precip_um(b->peak_global_column_kg_m2);
+    case O_PEAK_LOCAL_COLUMN_UM: return sl_kg_m2_to_precip_um(b->peak_local_column_kg_m2);
+    case O_FORCING_W_M2: return b->forcing_indicator_W_m2;
     default: return NAN;
     }
 }
@@ -356,8 +433,16 @@ static int chain_member(void *ws, void *ctx, const sl_ens_plan *plan, const doub
     chain_ws *w = ws;
     SL_TRY_RETURN(e, set_inputs(c, &w->sc, in_si, e));
     SL_TRY_RETURN(e, sl_chain_run(&w->sc, &w->chain, e));
+    int month = month_index(&w->sc);
+    if (!w->box_ready[month])
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "no box model for month %d", month);
+    struct timespec t0, t1;
+    clock_gettime(CLOCK_MONOTONIC, &t0);
+    SL_TRY_RETURN(e, sl_strat_run(&w->box[month], &w->chain.injection, &w->box_res[month], e));
+    clock_gettime(CLOCK_MONOTONIC, &t1);
+    w->box_s += (double)(t1.tv_sec - t0.tv_sec) + 1e-9 * (double)(t1.tv_nsec - t0.tv_nsec);
     for (size_t j = 0; j < c->n_out; j++)
-        out[j] = out_value(&w->chain, c->which[j]);
+        out[j] = out_value(&w->chain, &w->box_res[month], c->which[j]);
     return SL_OK;
 }
 
@@ -375,6 +460,8 @@ static void ens_chain_init(ens_chain *c, const sl_scenario *sc, const sl_ens_pla
         c->which[c->n_out] = (out_id)k;
         c->outputs[c->n_out++] = out_table[k].o;
     }
+    for (size_t k = 0; k < p->n_inputs; k++)
+        c->month_varies |= ids[k] == SL_P_SITE_MONTH;
     m->ctx = c;
     m->n_outputs = c->n_out;
     m->outputs = c->outputs;
@@ -413,6 +500,19 @@ static void csv_field(FILE *f, const char *s)
         fputc(*s == '\n' || *s == '\r' ? ' ' : *s, f);
     }
     fputc('"', f);
+}
+
+/* Write X with the fewest digits (15 to 17) that read back to the same
+ * double, so the CSV holds exactly what the statistics used. */
+static void csv_number(FILE *f, double x)
+{
+    char buf[40];
+    for (int prec = 15; prec <= 17; prec++) {
+        snprintf(buf, sizeof buf, "%.*g", prec, x);
+        if (prec == 17 || strtod(buf, NULL) == x)
+            break;
+    }
+    fputs(buf, f);
 }
 
 static const char *status_word(int st)
@@ -474,13 +574,16 @@ static int sink_row(void *sinkp, size_t m, const double *in, const double *out, 
         FILE *f = s->csv;
         fprintf(f, "%zu,%s,", m, status_word(st));
         csv_field(f, reason);
-        for (size_t k = 0; k < ni; k++)
-            fprintf(f, ",%.12g", in[k]);
+        for (size_t k = 0; k < ni; k++) {
+            fputc(',', f);
+            csv_number(f, in[k]);
+        }
         for (size_t j = 0; j < no; j++) {
-            if (st == SL_OK)
-                fprintf(f, ",%.12g", out[j]);
-            else
+            if (st == SL_OK && isfinite(out[j])) {
                 fputc(',', f);
+                csv_number(f, out[j]);
+            } else
+                fputc(',', f); /* failed member, or an output that does not apply */
         }
         if (fputc('\n', f) == EOF)
             SL_FAIL_RETURN(e, SL_EIO, "%s: write error: %s", s->csv_name, strerror(errno));
@@ -491,7 +594,7 @@ static int sink_row(void *sinkp, size_t m, const double *in, const double *out, 
         s->buf_st[r] = st;
         memcpy(s->buf_in + r * ni, in, ni * sizeof *in);
         for (size_t j = 0; j < no; j++)
-            s->buf_out[r * no + j] = st == SL_OK ? out[j] : ENS_NC_FILL;
+            s->buf_out[r * no + j] = st == SL_OK && isfinite(out[j]) ? out[j] : ENS_NC_FILL;
         char *rs = s->buf_reason + r * SL_ENS_REASON_LEN;
         memset(rs, 0, SL_ENS_REASON_LEN);
         memcpy(rs, reason, strnlen(reason, SL_ENS_REASON_LEN - 1));
@@ -862,7 +965,7 @@ static void print_timing(const ens_chain *ch, const sl_ens_result *r)
     if (getrusage(RUSAGE_SELF, &ru) == 0)
         fprintf(stderr, "steamloft: peak resident memory %.1f MiB (getrusage ru_maxrss)\n",
                 (double)ru.ru_maxrss / 1024.0);
-    double total = 0;
+    double total = ch->box_s;
     for (int k = 0; k < SL_CHAIN_N_TIMED; k++)
         total += ch->stage_s[k];
     double busy = r->wall_s * r->threads;
@@ -870,6 +973,7 @@ static void print_timing(const ens_chain *ch, const sl_ens_result *r)
             r->n_members ? 1e3 * busy / (double)r->n_members : 0.0);
     for (int k = 0; k < SL_CHAIN_N_TIMED; k++)
         fprintf(stderr, " %s %.1f %%", sl_chain_stage_names[k], total > 0 ? 100 * ch->stage_s[k] / total : 0.0);
+    fprintf(stderr, " box model %.1f %%", total > 0 ? 100 * ch->box_s / total : 0.0);
     fprintf(stderr, "; outside the chain %.1f %%\n", busy > 0 ? 100 * (busy - total) / busy : 0.0);
 }
 

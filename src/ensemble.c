@@ -746,7 +746,7 @@ static void run_one(const sl_ens_plan *p, const sl_ens_model *m, void *ws, doubl
     reason[0] = '\0';
     if (rc == SL_OK) {
         for (size_t j = 0; j < no; j++) {
-            if (!isfinite(out[j])) {
+            if (!isfinite(out[j]) && !(m->outputs[j].may_be_missing && isnan(out[j]))) {
                 rc = SL_ENUMERIC;
                 snprintf(reason, SL_ENS_REASON_LEN, "output %s is not finite",
                          m->outputs[j].name);
@@ -1012,7 +1012,7 @@ static size_t gather_ok(const sl_ens_result *r, size_t j, double *buf)
 {
     size_t k = 0;
     for (size_t m = 0; m < r->n_members; m++)
-        if (r->status[m] == SL_OK)
+        if (r->status[m] == SL_OK && isfinite(r->outputs[m * r->n_outputs + j]))
             buf[k++] = r->outputs[m * r->n_outputs + j];
     return k;
 }
@@ -1040,13 +1040,13 @@ void sl_ens_mean_sd(const sl_ens_result *r, size_t j, double *mean, double *sd, 
     double s = 0;
     size_t n = 0;
     for (size_t m = 0; m < r->n_members; m++)
-        if (r->status[m] == SL_OK) {
+        if (r->status[m] == SL_OK && isfinite(r->outputs[m * r->n_outputs + j])) {
             s += r->outputs[m * r->n_outputs + j];
             n++;
         }
     double mu = n ? s / (double)n : NAN, ss = 0;
     for (size_t m = 0; m < r->n_members; m++)
-        if (r->status[m] == SL_OK) {
+        if (r->status[m] == SL_OK && isfinite(r->outputs[m * r->n_outputs + j])) {
             double d = r->outputs[m * r->n_outputs + j] - mu;
             ss += d * d;
         }
@@ -1092,9 +1092,9 @@ void sl_ens_exceedance(const sl_ens_result *r, size_t j, const sl_ens_threshold 
 {
     size_t n = 0, k = 0;
     for (size_t m = 0; m < r->n_members; m++) {
-        if (r->status[m] != SL_OK)
-            continue;
         double x = r->outputs[m * r->n_outputs + j];
+        if (r->status[m] != SL_OK || !isfinite(x))
+            continue;
         int hit = t->op == '>' ? x > t->value
                   : t->op == 'g' ? x >= t->value
                   : t->op == '<' ? x < t->value
@@ -1117,7 +1117,7 @@ int sl_ens_spearman(const sl_ens_result *r, size_t i, size_t j, double *rho, sl_
     size_t n = 0;
     int xconst = 1, yconst = 1;
     for (size_t m = 0; m < nm; m++) {
-        if (r->status[m] != SL_OK)
+        if (r->status[m] != SL_OK || !isfinite(r->outputs[m * r->n_outputs + j]))
             continue;
         x[n] = r->inputs[m * r->n_inputs + i];
         y[n] = r->outputs[m * r->n_outputs + j];

@@ -328,7 +328,7 @@ static int toy_member(void *ws, void *ctx, const sl_ens_plan *plan, const double
     return SL_OK;
 }
 
-static const sl_ens_output toy_outputs[] = {{"y0", "1", "sum"}, {"y1", "1", "exp"}};
+static const sl_ens_output toy_outputs[] = {{"y0", "1", "sum", 0}, {"y1", "1", "exp", 0}};
 
 typedef struct row_log {
     size_t n, last;
@@ -512,6 +512,67 @@ START_TEST(test_percentile_type7)
 }
 END_TEST
 
+/* A model whose second output does not apply (NAN) to members with x0 < 0.5,
+ * and whose first output is NAN, an error, for x0 > 0.99. */
+static int gap_member(void *ws, void *ctx, const sl_ens_plan *plan, const double *in, double *out,
+                      sl_err *e)
+{
+    (void)ws;
+    (void)ctx;
+    (void)plan;
+    (void)e;
+    out[0] = in[0] > 0.99 ? NAN : in[0];
+    out[1] = in[0] < 0.5 ? NAN : 2.0 * in[0];
+    return SL_OK;
+}
+
+static const sl_ens_output gap_outputs[] = {{"x", "1", "x", 0}, {"twice_x", "1", "2x if x >= 0.5", 1}};
+
+START_TEST(test_missing_outputs)
+{
+    sl_err e;
+    sl_ens_plan p;
+    toy_plan(&p, SL_ENS_MONTE_CARLO, 4000);
+    sl_ens_model m = {NULL, 2, gap_outputs, NULL, NULL, gap_member};
+    sl_ens_result r;
+    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){2, 0, 0, NULL, NULL}, &r, &e), SL_OK);
+    size_t fails = 0, applies = 0;
+    for (size_t i = 0; i < r.n_members; i++) {
+        double x = r.inputs[2 * i];
+        if (x > 0.99) {
+            /* A non-finite output that may not be missing fails the member. */
+            ck_assert_int_eq(r.status[i], SL_ENUMERIC);
+            fails++;
+        } else {
+            ck_assert_int_eq(r.status[i], SL_OK);
+            applies += x >= 0.5;
+        }
+    }
+    ck_assert_uint_eq(r.n_failed, fails);
+    /* Statistics of the gappy output use only the members it applies to:
+     * 2x with x uniform on [0.5, 0.99], median 1.49 (DERIVED), and every
+     * value >= 1. */
+    double pct[2] = {0, 50}, v[2], mean, sd, pe, se;
+    size_t nok;
+    ck_assert_int_eq(sl_ens_percentiles(&r, 1, pct, 2, v, &nok, &e), SL_OK);
+    ck_assert_uint_eq(nok, applies);
+    ck_assert_double_ge(v[0], 1.0);
+    SL_CK_ABS(v[1], 1.49, 5 * 0.98 * sqrt(0.25 / (double)nok) + 1e-3);
+    sl_ens_mean_sd(&r, 1, &mean, &sd, &nok);
+    ck_assert_uint_eq(nok, applies);
+    SL_CK_ABS(mean, 1.49, 5 * 0.28 / sqrt((double)nok));
+    sl_ens_threshold t = {"twice_x", 'l', 1.0};
+    sl_ens_exceedance(&r, 1, &t, &pe, &se, &nok);
+    ck_assert_uint_eq(nok, applies);
+    ck_assert(pe == 0.0 || pe < 2.0 / (double)nok);
+    double rho;
+    ck_assert_int_eq(sl_ens_spearman(&r, 0, 1, &rho, &e), SL_OK);
+    SL_CK_ABS(rho, 1.0, 1e-12);
+    sl_ens_result_free(&r);
+    sl_ens_plan_free(&p);
+}
+END_TEST
+
 static Suite *ensemble_suite(void)
 {
     Suite *s = suite_create("ensemble");
@@ -525,6 +586,7 @@ static Suite *ensemble_suite(void)
     tcase_add_test(tc, test_vary);
     tcase_add_test(tc, test_member_loop);
     tcase_add_test(tc, test_percentile_type7);
+    tcase_add_test(tc, test_missing_outputs);
     suite_add_tcase(s, tc);
     return s;
 }

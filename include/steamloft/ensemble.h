@@ -175,14 +175,18 @@ typedef struct sl_ens_output {
     const char *name;  /* column name, with its unit, e.g. "strat_water_Tg" */
     const char *units; /* UDUNITS spelling for netCDF, e.g. "Tg" */
     const char *long_name;
+    int may_be_missing; /* 1: NAN means "does not apply to this member" (an
+                         * e-folding time when nothing was injected); the
+                         * statistics of this output skip it.  0: a non-finite
+                         * value makes the member fail. */
 } sl_ens_output;
 
 /* The model run for each member.  ws_new is called once per thread before the
  * members run (never inside the member loop); member must be thread-safe
  * given distinct workspaces, read ctx only, and fill outputs[0..n_outputs-1]
  * in the units the output names carry.  A member that returns non-SL_OK, or
- * gives a non-finite output, is recorded as failed with its status and the
- * message of its sl_err as reason. */
+ * gives a non-finite output not marked may_be_missing, is recorded as failed
+ * with its status and the message of its sl_err as reason. */
 typedef struct sl_ens_model {
     void *ctx;
     size_t n_outputs;
@@ -257,7 +261,10 @@ int sl_ens_agree(int status, sl_err *e);
 
 /* ------------------------------------------------------------ statistics */
 
-/* Percentiles pct[0..np-1] (0..100) of output j over successful members,
+/* The statistics below use the successful members whose output j is finite
+ * (a may_be_missing output can be NAN for some of them).
+ *
+ * Percentiles pct[0..np-1] (0..100) of output j over successful members,
  * into vals; *n_ok gets the number used.  With n_ok == 0 vals are NAN.
  * Errors: SL_EUSAGE for a percentile outside [0,100], SL_ENOMEM. */
 int sl_ens_percentiles(const sl_ens_result *r, size_t j, const double *pct, size_t np,
