@@ -24,7 +24,7 @@ mem() { sed -n 's/.*peak resident memory \([0-9.]*\) MiB.*/\1/p' "$tmp/$1.err"; 
 
 echo "steamloft bench: $("$bin" --version | head -1)"
 echo "machine: $(nproc) cores; load average now: $(cut -d' ' -f1-3 /proc/loadavg)"
-echo "ensemble: $scen, $n members, Monte Carlo seed 1 (entry, partition, plume per member)"
+echo "ensemble: $scen, $n members, Monte Carlo seed 1 (entry, partition, plume, box model per member)"
 run 1 "$n" t1
 run 2 "$n" t2
 r1=$(rate t1); r2=$(rate t2)
