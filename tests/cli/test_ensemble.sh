@@ -171,6 +171,44 @@ EOF
 if [ $? -eq 0 ]; then sl_ok "netCDF member file matches the CSV"; else
   sl_fail "netCDF member file"; sed 's/^/#   /' "$SL_TMP/py.txt" | tail -3; fi
 
+# ---- the documented seeding (ensemble.h) reproduced outside the program:
+# splitmix64 and MurmurHash3's fmix32 in Python, and numpy's legacy
+# RandomState, whose integer seeding is MT19937's init_genrand like
+# gsl_rng_mt19937 (MEM; GSL maps seed 0 to 4357), drawing 32-bit words as
+# gsl_rng_uniform_pos does (x / 2^32, zero rejected).  Exact equality.
+printf '[explosion]\nenergy_Mt = uniform(1, 2)\naltitude_m = uniform(0, 1000)\n[site]\nlatitude_deg = 10\n' >"$SL_TMP/u.ini"
+"$SL_BIN" ensemble "$SL_TMP/u.ini" -n 40 --seed 18446744073709551615 -o "$SL_TMP/u.csv" >/dev/null 2>&1
+$PY - "$SL_TMP/u.csv" 18446744073709551615 <<'EOF' >"$SL_TMP/py.txt" 2>&1
+import csv, sys
+import numpy as np
+M = (1 << 64) - 1
+def splitmix64(x):
+    z = (x + 0x9e3779b97f4a7c15) & M
+    z = ((z ^ (z >> 30)) * 0xbf58476d1ce4e5b9) & M
+    z = ((z ^ (z >> 27)) * 0x94d049bb133111eb) & M
+    return z ^ (z >> 31)
+def fmix32(h):
+    h ^= h >> 16; h = (h * 0x85ebca6b) & 0xffffffff; h ^= h >> 13
+    h = (h * 0xc2b2ae35) & 0xffffffff; return h ^ (h >> 16)
+base = int(sys.argv[2])
+k = splitmix64(base); key = (k ^ (k >> 32)) & 0xffffffff
+rows = list(csv.DictReader(open(sys.argv[1])))
+assert len(rows) == 40
+for r in rows:
+    m = int(r["member"])
+    rs = np.random.RandomState(fmix32((key + m) & 0xffffffff) or 4357)
+    u = []
+    while len(u) < 2:
+        x = int(rs.randint(0, 2**32, dtype=np.uint32))
+        if x:
+            u.append(x / 4294967296.0)
+    assert float(r["explosion.energy_Mt"]) == 1 + u[0], (m, r["explosion.energy_Mt"], 1 + u[0])
+    assert float(r["explosion.altitude_m"]) == 1000 * u[1], (m, r["explosion.altitude_m"], 1000 * u[1])
+print("ok")
+EOF
+if [ $? -eq 0 ]; then sl_ok "member inputs reproduce from the documented seeding with numpy's MT19937"; else
+  sl_fail "documented seeding"; sed 's/^/#   /' "$SL_TMP/py.txt" | tail -3; fi
+
 # ---- Sobol: deterministic across threads too.
 (cd "$SL_TMP/t1" && OMP_NUM_THREADS=1 "$SL_BIN" ensemble ../ens.ini -n 64 --sobol -o sob.csv >/dev/null 2>&1)
 (cd "$SL_TMP/t2" && OMP_NUM_THREADS=2 "$SL_BIN" ensemble ../ens.ini -n 64 --sobol -o sob.csv >/dev/null 2>&1)
