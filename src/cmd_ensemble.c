@@ -10,8 +10,13 @@
  * defaults are checked exactly as for one run); per-member rows stream to a
  * CSV file (and a netCDF file with a member dimension); the summary on stdout
  * gives percentiles, exceedance probabilities and the Spearman ranking of the
- * inputs.  With an MPI build, `mpirun -np K steamloft ensemble ...` splits the
- * members across ranks and rank 0 writes (ensemble.h). */
+ * inputs.  After the chain each member runs the stratospheric box model on
+ * its injection profile exactly as `steamloft run` does (strat.h; to move
+ * into sl_chain_run with that stage).  Key outputs that do not apply to a
+ * member (an e-folding time when no water entered the stratosphere) are
+ * missing, not failures.  With an MPI build, `mpirun -np K steamloft
+ * ensemble ...` splits the members across ranks and rank 0 writes
+ * (ensemble.h).  No physics here: only which stage result is which output. */
 #include "steamloft/cmd.h"
 #include "steamloft/chain.h"
 #include "steamloft/ensemble.h"
@@ -543,8 +548,7 @@ static int nc_flush(ens_sink *s, sl_err *e)
     NC_CK(nc_put_vara_int(s->nc, s->nc_member, st, ct, s->buf_m));
     NC_CK(nc_put_vara_int(s->nc, s->nc_status, st, ct, s->buf_st));
     NC_CK(nc_put_vara_text(s->nc, s->nc_reason, st, ct, s->buf_reason));
-    double *col = s->buf_out; /* reuse: transpose one column at a time into a scratch */
-    (void)col;
+    /* Rows are buffered member-major; each variable takes one column. */
     for (size_t k = 0; k < ni; k++) {
         double tmp[NC_BUF_ROWS];
         for (size_t r = 0; r < s->nbuf; r++)
