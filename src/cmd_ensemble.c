@@ -843,6 +843,15 @@ static void print_summary_json(FILE *f, const ens_cli *c, const sl_ens_plan *p, 
             fputs(": ", f);
             json_num(f, rho);
         }
+        fputs("}, \"first_order\": {", f);
+        for (size_t k = 0; k < p->n_inputs; k++) {
+            if (sl_ens_first_order(r, k, j, &rho, e) != SL_OK)
+                rho = NAN;
+            fprintf(f, "%s", k ? ", " : "");
+            json_str(f, p->inputs[k].key);
+            fputs(": ", f);
+            json_num(f, rho);
+        }
         fputs("}}", f);
     }
     fputs("\n  },\n  \"exceedance\": [", f);
@@ -917,20 +926,24 @@ static void print_summary(FILE *f, const ens_cli *c, const sl_ens_plan *p, const
         }
     }
     if (p->n_inputs > 0) {
-        fprintf(f, "\nwhat drives the spread (Spearman rank correlation with each input, "
-                   "strongest first):\n");
-        double *rho = malloc(p->n_inputs * sizeof *rho);
+        fprintf(f, "\nwhat drives the spread: Spearman rank correlation / first-order variance "
+                   "share\n(Sobol' index from the members) of each input, strongest correlation "
+                   "first:\n");
+        double *rho = malloc(2 * p->n_inputs * sizeof *rho);
         size_t *ord = malloc(p->n_inputs * sizeof *ord);
         if (!rho || !ord) {
             free(rho);
             free(ord);
             return;
         }
+        double *s1 = rho + p->n_inputs;
         for (size_t j = 0; j < m->n_outputs; j++) {
             for (size_t k = 0; k < p->n_inputs; k++) {
                 ord[k] = k;
                 if (sl_ens_spearman(r, k, j, &rho[k], e) != SL_OK)
                     rho[k] = NAN;
+                if (sl_ens_first_order(r, k, j, &s1[k], e) != SL_OK)
+                    s1[k] = NAN;
             }
             for (size_t a = 1; a < p->n_inputs; a++)
                 for (size_t b = a; b > 0; b--) {
@@ -948,8 +961,11 @@ static void print_summary(FILE *f, const ens_cli *c, const sl_ens_plan *p, const
                 key = key ? key + 1 : p->inputs[ord[k]].key;
                 if (isnan(rho[ord[k]]))
                     fprintf(f, "%s %s n/a", k ? "," : "", key);
+                else if (isnan(s1[ord[k]]))
+                    fprintf(f, "%s %s %+.2f/n/a", k ? "," : "", key, rho[ord[k]]);
                 else
-                    fprintf(f, "%s %s %+.2f", k ? "," : "", key, rho[ord[k]]);
+                    fprintf(f, "%s %s %+.2f/%.2f", k ? "," : "", key, rho[ord[k]],
+                            fmax(s1[ord[k]], 0.0)); /* below 0 is sampling noise */
             }
             fputc('\n', f);
         }

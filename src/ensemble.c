@@ -1132,6 +1132,64 @@ int sl_ens_spearman(const sl_ens_result *r, size_t i, size_t j, double *rho, sl_
     return SL_OK;
 }
 
+int sl_ens_first_order(const sl_ens_result *r, size_t i, size_t j, double *s1, sl_err *e)
+{
+    size_t nm = r->n_members;
+    *s1 = NAN;
+    double *x = malloc((2 * nm + 1) * sizeof *x);
+    size_t *ord = malloc((nm + 1) * sizeof *ord);
+    if (x == NULL || ord == NULL) {
+        free(x);
+        free(ord);
+        SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory ranking %zu members", nm);
+    }
+    double *y = x + nm;
+    size_t n = 0;
+    for (size_t m = 0; m < nm; m++) {
+        double v = r->outputs[m * r->n_outputs + j];
+        if (r->status[m] != SL_OK || !isfinite(v))
+            continue;
+        x[n] = r->inputs[m * r->n_inputs + i];
+        y[n] = v;
+        n++;
+    }
+    if (n >= 20) {
+        double mean = 0, var = 0;
+        for (size_t k = 0; k < n; k++)
+            mean += y[k];
+        mean /= (double)n;
+        for (size_t k = 0; k < n; k++)
+            var += (y[k] - mean) * (y[k] - mean);
+        if (var > 0) {
+            gsl_sort_index(ord, x, 1, n);
+            size_t nclass = (size_t)floor(sqrt((double)n)), used = 0;
+            double between = 0;
+            size_t start = 0;
+            for (size_t c = 1; start < n; c++) {
+                size_t end = c >= nclass ? n : (size_t)((double)c * (double)n / (double)nclass);
+                if (end <= start)
+                    end = start + 1;
+                /* Keep equal input values (choice, grids) in one class. */
+                while (end < n && x[ord[end]] == x[ord[end - 1]])
+                    end++;
+                double cm = 0;
+                for (size_t k = start; k < end; k++)
+                    cm += y[ord[k]];
+                cm /= (double)(end - start);
+                between += (double)(end - start) * (cm - mean) * (cm - mean);
+                used++;
+                start = end;
+            }
+            double raw = between / var;
+            double b = (double)(used - 1) / (double)(n - 1);
+            *s1 = used > 1 ? (raw - b) / (1 - b) : NAN; /* one class: a constant input */
+        }
+    }
+    free(x);
+    free(ord);
+    return SL_OK;
+}
+
 /* ================================================================ progress bar */
 
 void sl_ens_progress_start(sl_ens_progress *pg, size_t total, int enable)

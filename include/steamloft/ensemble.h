@@ -51,7 +51,8 @@
  * Statistics: percentiles by gsl_sort + gsl_stats_quantile_from_sorted_data
  * (linear interpolation between order statistics, Hyndman & Fan 1996 type 7),
  * exceedance probabilities with their binomial standard error sqrt(p(1-p)/n),
- * and Spearman rank correlation (gsl_stats_spearman, ties get average ranks)
+ * Spearman rank correlation (gsl_stats_spearman, ties get average ranks) and
+ * first-order variance-based indices from the members (sl_ens_first_order)
  * between each uncertain input and each output, over the members that
  * succeeded.  Failed members are counted and reported, never dropped silently. */
 #ifndef STEAMLOFT_ENSEMBLE_H
@@ -293,6 +294,22 @@ void sl_ens_exceedance(const sl_ens_result *r, size_t j, const sl_ens_threshold 
  * members (NAN when fewer than 3, or when either is constant).  Errors:
  * SL_ENOMEM. */
 int sl_ens_spearman(const sl_ens_result *r, size_t i, size_t j, double *rho, sl_err *e);
+
+/* First-order variance-based sensitivity index of output j to input i, from
+ * the members themselves ("given data"; the correlation ratio of Pearson,
+ * used for Sobol' first-order indices by Plischke 2010 and Plischke, Borgonovo
+ * & Smith 2013): sort the members by input i, cut them into M = floor(sqrt(n))
+ * classes of equal count (never splitting equal input values), and take the
+ * between-class variance of the output over its total variance,
+ *   S_i = sum_k n_k (mean_k - mean)^2 / sum (y - mean)^2,
+ * less its expectation (M-1)/(n-1) for an input without effect, rescaled:
+ *   S_i <- (S_i - b) / (1 - b),  b = (M - 1)/(n - 1).
+ * Valid for independent inputs (Monte Carlo, Sobol points, full grids).
+ * Like any variance share it is dominated by the largest outputs when the
+ * output spans orders of magnitude.  An input without effect gets a value
+ * near 0 that may be slightly negative (sampling noise).  NAN with fewer than
+ * 20 members, a constant output or a constant input.  Errors: SL_ENOMEM. */
+int sl_ens_first_order(const sl_ens_result *r, size_t i, size_t j, double *s1, sl_err *e);
 
 /* ------------------------------------------------------------ progress bar */
 

@@ -142,6 +142,13 @@ for name, o in js["outputs"].items():
 ex = js["exceedance"][0]
 y = np.array([float(r["strat_water_Tg"]) for r in rows])
 assert ex["op"] == ">=" and abs(ex["probability"] - np.mean(y >= 1)) <= 1e-9
+# First-order variance shares: present for every input, inside [-0.1, 1],
+# and the diameter explains most of the energy's variance (E ~ D^3).
+for name, o in js["outputs"].items():
+    for key, s1 in o["first_order"].items():
+        assert s1 is None or -0.1 <= s1 <= 1.0, (name, key, s1)
+fo = js["outputs"]["energy_Mt"]["first_order"]
+assert max(fo, key=lambda k: fo[k] or -1) == "impactor.diameter_m", fo
 # e-folding times exist exactly for the members whose box model got water.
 for r in rows:
     assert (r["efolding_years"] != "") == (float(r["box_initial_excess_Tg"]) > 0), r
