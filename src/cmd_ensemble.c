@@ -1036,7 +1036,23 @@ static void print_help(const char *cmd)
            "  -h, --help              print this help\n"
            "Failed members are kept in the outputs with their status and reason.  Results are\n"
            "identical for any number of threads or MPI ranks (mpirun -np K with 'make MPI=1').\n"
-           "Outputs are not overwritten without the global --force.\n");
+           "Outputs are not overwritten without the global --force.\n"
+           "Key outputs (CSV columns and --exceed names; impactor-only ones marked *):\n");
+    int col = 0;
+    for (int k = 0; k < O_N_OUT; k++) {
+        char item[64];
+        int w = snprintf(item, sizeof item, "%s%s%s", col ? ", " : "  ", out_table[k].o.name,
+                         out_table[k].only == FOR_IMPACTOR ? "*" : "");
+        if (col + w > 78) {
+            printf(",\n");
+            col = 0;
+            w = snprintf(item, sizeof item, "  %s%s", out_table[k].o.name,
+                         out_table[k].only == FOR_IMPACTOR ? "*" : "");
+        }
+        fputs(item, stdout);
+        col += w;
+    }
+    printf("\n%s\n", sl_cli_caution());
 }
 
 static int parse_size(const char *text, const char *what, size_t lo, size_t hi, size_t *out,
