@@ -818,9 +818,14 @@ static void print_summary_json(FILE *f, const ens_cli *c, const sl_ens_plan *p, 
     }
     fputs("\n  ],\n  \"outputs\": {", f);
     double pct[MAX_PCT + 3], v[MAX_PCT + 3];
-    size_t np = percentile_list(c, pct);
+    size_t np = percentile_list(c, pct), ni = p->n_inputs;
+    double *sens = malloc((2 * ni * m->n_outputs + 1) * sizeof *sens);
+    if (sens == NULL || sl_ens_sensitivity(r, sens, sens + ni * m->n_outputs, e) != SL_OK) {
+        free(sens);
+        return;
+    }
     for (size_t j = 0; j < m->n_outputs; j++) {
-        double mean, sd, rho;
+        double mean, sd;
         size_t nok;
         sl_ens_mean_sd(r, j, &mean, &sd, &nok);
         if (sl_ens_percentiles(r, j, pct, np, v, &nok, e) != SL_OK)
@@ -835,25 +840,22 @@ static void print_summary_json(FILE *f, const ens_cli *c, const sl_ens_plan *p, 
             json_num(f, v[q]);
         }
         fputs("}, \"spearman\": {", f);
-        for (size_t k = 0; k < p->n_inputs; k++) {
-            if (sl_ens_spearman(r, k, j, &rho, e) != SL_OK)
-                rho = NAN;
+        for (size_t k = 0; k < ni; k++) {
             fprintf(f, "%s", k ? ", " : "");
             json_str(f, p->inputs[k].key);
             fputs(": ", f);
-            json_num(f, rho);
+            json_num(f, sens[j * ni + k]);
         }
         fputs("}, \"first_order\": {", f);
-        for (size_t k = 0; k < p->n_inputs; k++) {
-            if (sl_ens_first_order(r, k, j, &rho, e) != SL_OK)
-                rho = NAN;
+        for (size_t k = 0; k < ni; k++) {
             fprintf(f, "%s", k ? ", " : "");
             json_str(f, p->inputs[k].key);
             fputs(": ", f);
-            json_num(f, rho);
+            json_num(f, sens[ni * m->n_outputs + j * ni + k]);
         }
         fputs("}}", f);
     }
+    free(sens);
     fputs("\n  },\n  \"exceedance\": [", f);
     for (size_t t = 0; t < c->nthr; t++) {
         double pe, se;
@@ -929,22 +931,18 @@ static void print_summary(FILE *f, const ens_cli *c, const sl_ens_plan *p, const
         fprintf(f, "\nwhat drives the spread: Spearman rank correlation / first-order variance "
                    "share\n(Sobol' index from the members) of each input, strongest correlation "
                    "first:\n");
-        double *rho = malloc(2 * p->n_inputs * sizeof *rho);
-        size_t *ord = malloc(p->n_inputs * sizeof *ord);
-        if (!rho || !ord) {
-            free(rho);
+        size_t ni = p->n_inputs;
+        double *rho_all = malloc(2 * ni * m->n_outputs * sizeof *rho_all);
+        size_t *ord = malloc(ni * sizeof *ord);
+        if (!rho_all || !ord || sl_ens_sensitivity(r, rho_all, rho_all + ni * m->n_outputs, e) != SL_OK) {
+            free(rho_all);
             free(ord);
             return;
         }
-        double *s1 = rho + p->n_inputs;
         for (size_t j = 0; j < m->n_outputs; j++) {
-            for (size_t k = 0; k < p->n_inputs; k++) {
+            const double *rho = rho_all + j * ni, *s1 = rho_all + ni * m->n_outputs + j * ni;
+            for (size_t k = 0; k < ni; k++)
                 ord[k] = k;
-                if (sl_ens_spearman(r, k, j, &rho[k], e) != SL_OK)
-                    rho[k] = NAN;
-                if (sl_ens_first_order(r, k, j, &s1[k], e) != SL_OK)
-                    s1[k] = NAN;
-            }
             for (size_t a = 1; a < p->n_inputs; a++)
                 for (size_t b = a; b > 0; b--) {
                     double x = isnan(rho[ord[b]]) ? -1 : fabs(rho[ord[b]]);
@@ -969,7 +967,7 @@ static void print_summary(FILE *f, const ens_cli *c, const sl_ens_plan *p, const
             }
             fputc('\n', f);
         }
-        free(rho);
+        free(rho_all);
         free(ord);
     }
     fprintf(f, "\n%zu members in %.3g s on %d rank%s x %d thread%s (%.4g members/s)\n",

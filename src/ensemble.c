@@ -1190,6 +1190,162 @@ int sl_ens_first_order(const sl_ens_result *r, size_t i, size_t j, double *s1, s
     return SL_OK;
 }
 
+/* A value and its member, sorted by value then member (a total order, so
+ * the result does not depend on the sort algorithm). */
+typedef struct keyed {
+    double v;
+    size_t m;
+} keyed;
+
+static int keyed_cmp(const void *pa, const void *pb)
+{
+    const keyed *a = pa, *b = pb;
+    if (a->v < b->v)
+        return -1;
+    if (a->v > b->v)
+        return 1;
+    return (a->m > b->m) - (a->m < b->m);
+}
+
+/* ORDER[0..n-1] = the members M[k] sorted by value V[k] (ties by member). */
+static void sort_members(keyed *work, const double *v, const size_t *mem, size_t n, size_t *order)
+{
+    for (size_t k = 0; k < n; k++) {
+        work[k].v = v[k];
+        work[k].m = mem ? mem[k] : k;
+    }
+    qsort(work, n, sizeof *work, keyed_cmp);
+    for (size_t k = 0; k < n; k++)
+        order[k] = work[k].m;
+}
+
+/* Average ranks (1-based) of the NS members listed in ORDERED (sorted by
+ * value VAL[member]), written to RANK[member]; ties share their mean rank. */
+static void average_ranks(const size_t *ordered, size_t ns, const double *val, size_t stride,
+                          size_t off, double *rank)
+{
+    size_t a = 0;
+    while (a < ns) {
+        size_t b = a + 1;
+        while (b < ns && val[ordered[b] * stride + off] == val[ordered[a] * stride + off])
+            b++;
+        double mean_rank = 0.5 * (double)(a + 1 + b); /* mean of a+1 .. b */
+        for (size_t k = a; k < b; k++)
+            rank[ordered[k]] = mean_rank;
+        a = b;
+    }
+}
+
+int sl_ens_sensitivity(const sl_ens_result *r, double *rho, double *s1, sl_err *e)
+{
+    size_t n = r->n_members, ni = r->n_inputs, no = r->n_outputs;
+    for (size_t q = 0; q < ni * no; q++) {
+        if (rho)
+            rho[q] = NAN;
+        if (s1)
+            s1[q] = NAN;
+    }
+    if (n == 0 || ni == 0 || no == 0)
+        return SL_OK;
+    size_t *gord = malloc(ni * n * sizeof *gord);
+    size_t *sub = malloc(n * sizeof *sub), *ford = malloc(n * sizeof *ford);
+    size_t *yord = malloc(n * sizeof *yord);
+    double *col = malloc(n * sizeof *col), *rx = malloc(n * sizeof *rx), *ry = malloc(n * sizeof *ry);
+    unsigned char *in = malloc(n);
+    keyed *work = malloc(n * sizeof *work);
+    int rc = SL_OK;
+    if (!gord || !sub || !ford || !yord || !col || !rx || !ry || !in || !work) {
+        rc = sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "out of memory ranking %zu members", n);
+        goto out;
+    }
+    /* Each input sorted once over all members. */
+    for (size_t i = 0; i < ni; i++) {
+        for (size_t m = 0; m < n; m++)
+            col[m] = r->inputs[m * ni + i];
+        sort_members(work, col, NULL, n, gord + i * n);
+    }
+    for (size_t j = 0; j < no; j++) {
+        /* The members this output's statistics use, in member order. */
+        size_t ns = 0;
+        double mean = 0, var = 0;
+        for (size_t m = 0; m < n; m++) {
+            double y = r->outputs[m * no + j];
+            in[m] = r->status[m] == SL_OK && isfinite(y);
+            if (in[m]) {
+                sub[ns++] = m;
+                mean += y;
+            }
+        }
+        if (ns < 3)
+            continue;
+        mean /= (double)ns;
+        for (size_t k = 0; k < ns; k++) {
+            double d = r->outputs[sub[k] * no + j] - mean;
+            var += d * d;
+        }
+        /* Output ranks over the subset. */
+        for (size_t k = 0; k < ns; k++)
+            col[k] = r->outputs[sub[k] * no + j];
+        sort_members(work, col, sub, ns, yord);
+        average_ranks(yord, ns, r->outputs, no, j, ry);
+        int yconst = r->outputs[yord[0] * no + j] == r->outputs[yord[ns - 1] * no + j];
+        double mr = 0.5 * (double)(ns + 1);
+        for (size_t i = 0; i < ni; i++) {
+            /* This input's order restricted to the subset. */
+            size_t nf = 0;
+            for (size_t k = 0; k < n; k++) {
+                size_t m = gord[i * n + k];
+                if (in[m])
+                    ford[nf++] = m;
+            }
+            int xconst = r->inputs[ford[0] * ni + i] == r->inputs[ford[nf - 1] * ni + i];
+            if (rho && !xconst && !yconst) {
+                average_ranks(ford, nf, r->inputs, ni, i, rx);
+                double sxy = 0, sxx = 0, syy = 0;
+                for (size_t k = 0; k < ns; k++) {
+                    double dx = rx[sub[k]] - mr, dy = ry[sub[k]] - mr;
+                    sxy += dx * dy;
+                    sxx += dx * dx;
+                    syy += dy * dy;
+                }
+                rho[j * ni + i] = sxy / sqrt(sxx * syy);
+            }
+            /* First-order share: classes of equal count along this order. */
+            if (s1 && ns >= 20 && var > 0 && !xconst) {
+                size_t nclass = (size_t)floor(sqrt((double)ns)), used = 0, start = 0;
+                double between = 0;
+                for (size_t c = 1; start < ns; c++) {
+                    size_t end = c >= nclass ? ns : (size_t)((double)c * (double)ns / (double)nclass);
+                    if (end <= start)
+                        end = start + 1;
+                    while (end < ns && r->inputs[ford[end] * ni + i] == r->inputs[ford[end - 1] * ni + i])
+                        end++;
+                    double cm = 0;
+                    for (size_t k = start; k < end; k++)
+                        cm += r->outputs[ford[k] * no + j];
+                    cm /= (double)(end - start);
+                    between += (double)(end - start) * (cm - mean) * (cm - mean);
+                    used++;
+                    start = end;
+                }
+                double b = (double)(used - 1) / (double)(ns - 1);
+                s1[j * ni + i] = used > 1 ? (between / var - b) / (1 - b) : NAN;
+            }
+        }
+    }
+out:
+    free(gord);
+    free(sub);
+    free(ford);
+    free(yord);
+    free(col);
+    free(rx);
+    free(ry);
+    free(in);
+    free(work);
+    return rc;
+}
+
 /* ================================================================ progress bar */
 
 void sl_ens_progress_start(sl_ens_progress *pg, size_t total, int enable)

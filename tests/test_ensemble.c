@@ -668,6 +668,36 @@ START_TEST(test_first_order_ishigami)
 }
 END_TEST
 
+START_TEST(test_sensitivity_batch)
+{
+    /* The all-pairs routine equals the per-pair ones (to rounding) on a run
+     * with failed members, a missing output and a tied (choice) input. */
+    sl_err e;
+    sl_ens_plan p;
+    toy_plan(&p, SL_ENS_MONTE_CARLO, 3000);
+    sl_dist d;
+    ck_assert_int_eq(sl_dist_parse("choice(1, 2, 3)", "c_1", "t", &d, &e), SL_OK);
+    ck_assert_int_eq(sl_ens_plan_add(&p, "toy.c_1", 1.0, &d, &e), SL_OK);
+    sl_ens_model m = {NULL, 2, gap_outputs, NULL, NULL, gap_member};
+    sl_ens_result r;
+    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){2, 0, 0, NULL, NULL}, &r, &e), SL_OK);
+    ck_assert_uint_gt(r.n_failed, 0);
+    double rho[6], s1[6], a, b;
+    ck_assert_int_eq(sl_ens_sensitivity(&r, rho, s1, &e), SL_OK);
+    for (size_t j = 0; j < 2; j++)
+        for (size_t i = 0; i < 3; i++) {
+            ck_assert_int_eq(sl_ens_spearman(&r, i, j, &a, &e), SL_OK);
+            ck_assert_int_eq(sl_ens_first_order(&r, i, j, &b, &e), SL_OK);
+            ck_assert_msg(fabs(rho[j * 3 + i] - a) <= 1e-12, "rho %zu %zu: %.17g vs %.17g", j, i,
+                          rho[j * 3 + i], a);
+            ck_assert_msg(fabs(s1[j * 3 + i] - b) <= 1e-12, "s1 %zu %zu: %.17g vs %.17g", j, i,
+                          s1[j * 3 + i], b);
+        }
+    sl_ens_result_free(&r);
+    sl_ens_plan_free(&p);
+}
+END_TEST
+
 static Suite *ensemble_suite(void)
 {
     Suite *s = suite_create("ensemble");
@@ -683,6 +713,7 @@ static Suite *ensemble_suite(void)
     tcase_add_test(tc, test_percentile_type7);
     tcase_add_test(tc, test_missing_outputs);
     tcase_add_test(tc, test_first_order_ishigami);
+    tcase_add_test(tc, test_sensitivity_batch);
     suite_add_tcase(s, tc);
     return s;
 }
