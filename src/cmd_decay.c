@@ -41,9 +41,12 @@ static void usage(FILE *out)
             "  --inject MASS_KG         water mass of a single layer, kg\n"
             "  --between BOTTOM_M TOP_M altitude range of that layer, m (or BOTTOM_M,TOP_M)\n"
             "  --latitude DEG           latitude of the event, -90..90 (overrides the profile's)\n"
-            "  --cloud-area M2          area of the young cloud, m2 (then water above ice\n"
-            "                           saturation in it freezes out at once)\n"
-            "  --month N                calendar month of the event, 1-12 (default 1)\n"
+            "  --cloud-area M2          area of the young cloud, m2 (for the local column)\n"
+            "  --freeze-out             freeze out at once the water above ice saturation in\n"
+            "                           the young cloud (for raw lofted water; profiles from\n"
+            "                           steamloft are frozen out already)\n"
+            "  --month N                calendar month of the event, 1-12 (default 1); 0 = unknown\n"
+            "                           (the polar winter sink then acts at its annual mean)\n"
             "  --span-years Y           length of the time series, years (default 20)\n"
             "  --step-days D            output step, days (default 30.4375 = 1/12 year)\n"
             "  --atmosphere NAME|FILE   background profile for all regions\n"
@@ -67,14 +70,14 @@ typedef struct decay_opts {
     int month;
     double span_years, step_days;
     const char *atm_tropics, *atm_extra;
-    int json, series, calibrate;
+    int json, series, calibrate, freeze_out;
     sl_output_request out; /* -o, --format, --csv, --plot */
 } decay_opts;
 
 static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts *o, int *done)
 {
     enum { O_INJECT = 256, O_BETWEEN, O_LAT, O_AREA, O_MONTH, O_SPAN, O_STEP, O_ATM, O_ATM_T, O_ATM_X, O_JSON,
-           O_SERIES, O_CAL };
+           O_SERIES, O_CAL, O_FREEZE };
     static const struct option lo[] = {
         {"inject", required_argument, NULL, O_INJECT},   {"between", required_argument, NULL, O_BETWEEN},
         {"latitude", required_argument, NULL, O_LAT},    {"cloud-area", required_argument, NULL, O_AREA},
@@ -84,6 +87,7 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
         {"extratropics-atmosphere", required_argument, NULL, O_ATM_X},
         {"json", no_argument, NULL, O_JSON},             {"series", no_argument, NULL, O_SERIES},
         {"calibrate", no_argument, NULL, O_CAL},         {"help", no_argument, NULL, 'h'},
+        {"freeze-out", no_argument, NULL, O_FREEZE},
         SL_OUTPUT_LONG_OPTIONS,
         {NULL, 0, NULL, 0}};
     sl_err e = {0};
@@ -142,8 +146,8 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
         case O_MONTH:
             if (sl_cli_parse_double(optarg, "--month", &v, &e) != SL_OK)
                 return sl_cli_usage_error(g, "decay", "%s", e.msg);
-            if (!(v >= 1.0 && v <= 12.0 && v == floor(v)))
-                return sl_cli_usage_error(g, "decay", "--month %s: valid values 1 to 12", optarg);
+            if (!(v >= 0.0 && v <= 12.0 && v == floor(v)))
+                return sl_cli_usage_error(g, "decay", "--month %s: valid values 0 (unknown) to 12", optarg);
             o->month = (int)v;
             break;
         case O_SPAN:
@@ -164,6 +168,7 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
         case O_JSON: o->json = 1; break;
         case O_SERIES: o->series = 1; break;
         case O_CAL: o->calibrate = 1; break;
+        case O_FREEZE: o->freeze_out = 1; break;
         default:
             if (sl_output_request_is_option(c)) {
                 if (sl_output_request_option(&o->out, c, optarg, &e) != SL_OK)
@@ -310,8 +315,11 @@ static int write_outputs(const decay_opts *o, const sl_strat_model *m, const sl_
 {
     sl_output_strat os;
     SL_TRY_RETURN(e, sl_output_strat_init(&os, m, r, e));
-    char title[600];
+    char title[600], event_time[32];
     snprintf(title, sizeof title, "steamloft decay of %s", source);
+    /* Nominal date: the month is known, the day and year are not. */
+    snprintf(event_time, sizeof event_time, "2000-%02d-01 00:00:00",
+             o->month >= 1 && o->month <= 12 ? o->month : 1);
     const sl_output_param params[] = {
         {"decay.source", source, 0, NULL},
         {"decay.month", NULL, (double)o->month, NULL},
@@ -321,7 +329,7 @@ static int write_outputs(const decay_opts *o, const sl_strat_model *m, const sl_
         {"decay.extratropics_atmosphere", o->atm_extra, 0, NULL},
     };
     sl_output_view v = {inj, atm, &os.series, os.scalars, os.n_scalars, params,
-                        sizeof params / sizeof params[0], title, o->profile, NULL, NULL,
+                        sizeof params / sizeof params[0], title, o->profile, event_time, NULL,
                         SL_OUTPUT_USED_ATMOSPHERE | SL_OUTPUT_USED_WATER | SL_OUTPUT_USED_STRAT,
                         g->full_argc, g->full_argv};
     int rc = sl_output_request_write(&o->out, &v, g, "decay", e);
@@ -359,6 +367,7 @@ int sl_cmd_decay(int argc, char **argv, const sl_cli_globals *g)
     p.start_month = o.month;
     p.span_s = sl_years_to_s(o.span_years);
     p.step_s = sl_days_to_s(o.step_days);
+    p.cloud_freeze_out = o.freeze_out;
     if (st == SL_OK && o.calibrate) {
         rc = run_calibration(&p, atm, g);
         goto out;

@@ -10,11 +10,10 @@
  * defaults are checked exactly as for one run); per-member rows stream to a
  * CSV file (and a netCDF file with a member dimension); the summary on stdout
  * gives percentiles, exceedance probabilities and the Spearman ranking of the
- * inputs.  After the chain each member runs the stratospheric box model on
- * its injection profile exactly as `steamloft run` does (strat.h; to move
- * into sl_chain_run with that stage).  Key outputs that do not apply to a
- * member (an e-folding time when no water entered the stratosphere) are
- * missing, not failures.  With an MPI build, `mpirun -np K steamloft
+ * inputs.  The box model is a stage of the chain, so box-model keys ([strat])
+ * can be uncertain too.  Key outputs that do not apply to a member (an
+ * e-folding time when no water entered the stratosphere) are missing, not
+ * failures.  With an MPI build, `mpirun -np K steamloft
  * ensemble ...` splits the members across ranks and rank 0 writes
  * (ensemble.h).  No physics here: only which stage result is which output. */
 #include "steamloft/cmd.h"
@@ -282,25 +281,12 @@ typedef struct ens_chain {
     out_id which[O_N_OUT];
     sl_ens_output outputs[O_N_OUT];
     double stage_s[SL_CHAIN_N_TIMED]; /* summed over the workspaces when they are freed */
-    double box_s;
-    int month_varies;        /* site.month is an input: box models for every month */
 } ens_chain;
-
-enum { N_MONTHS = 13 }; /* 0 = month not given, 1..12 */
 
 typedef struct chain_ws {
     sl_scenario sc;
     sl_chain chain;
     ens_chain *owner;
-    /* The stratospheric box model on the chain's injection profile, as
-     * `steamloft run` does it until sl_chain_run has that stage: built-in
-     * tropical background for the tropics, USSA76 for the extratropics; one
-     * model per start month needed, made here, never in the member loop. */
-    sl_atmosphere box_tropics, box_extra;
-    sl_strat_model box[N_MONTHS];
-    sl_strat_result box_res[N_MONTHS];
-    int box_ready[N_MONTHS];
-    double box_s;
 } chain_ws;
 
 /* Set the member's inputs on a copy of the base scenario (range checks and
@@ -321,14 +307,7 @@ static void chain_ws_free(void *p)
     /* Workspaces are freed serially after the member loop: no race. */
     for (int k = 0; k < SL_CHAIN_N_TIMED; k++)
         w->owner->stage_s[k] += w->chain.stage_s[k];
-    w->owner->box_s += w->box_s;
     sl_chain_free(&w->chain);
-    for (int k = 0; k < N_MONTHS; k++) {
-        sl_strat_result_free(&w->box_res[k]);
-        sl_strat_model_free(&w->box[k]);
-    }
-    sl_atmosphere_free(&w->box_tropics);
-    sl_atmosphere_free(&w->box_extra);
     free(w);
 }
 
@@ -336,25 +315,6 @@ static void chain_ws_free(void *p)
  * once on the inputs' medians so the atmosphere is loaded here, serially
  * (netCDF profiles must not be read from parallel threads); a failure of
  * that warm-up run is not an error (members report their own). */
-static int month_index(const sl_scenario *sc)
-{
-    double month = sc->value_si[SL_P_SITE_MONTH];
-    int k = isfinite(month) ? (int)lround(month) : 0;
-    return k >= 0 && k < N_MONTHS ? k : 0;
-}
-
-static int box_init(chain_ws *w, int month, sl_err *e)
-{
-    const sl_atmosphere *atm[SL_STRAT_N_REGIONS] = {&w->box_extra, &w->box_tropics, &w->box_extra};
-    sl_strat_params p;
-    sl_strat_params_default(&p);
-    p.start_month = month;
-    SL_TRY_RETURN(e, sl_strat_model_init(&w->box[month], &p, atm, e));
-    SL_TRY_RETURN(e, sl_strat_result_init(&w->box_res[month], &w->box[month], e));
-    w->box_ready[month] = 1;
-    return SL_OK;
-}
-
 static void *chain_ws_new(void *ctx, sl_err *e)
 {
     ens_chain *c = ctx;
@@ -364,17 +324,6 @@ static void *chain_ws_new(void *ctx, sl_err *e)
         return NULL;
     }
     w->owner = c;
-    int rc = sl_atmosphere_init(&w->box_tropics, "tropical", e);
-    if (rc == SL_OK)
-        rc = sl_atmosphere_init(&w->box_extra, "us1976", e);
-    for (int k = 0; k < N_MONTHS && rc == SL_OK; k++)
-        if (c->month_varies || k == month_index(c->base))
-            rc = box_init(w, k, e);
-    if (rc != SL_OK) {
-        sl_err_push(e, rc, __func__, __LINE__);
-        chain_ws_free(w);
-        return NULL;
-    }
     double si[SL_P_COUNT + 16];
     for (size_t k = 0; k < c->plan->n_inputs && k < sizeof si / sizeof si[0]; k++)
         si[k] = sl_dist_median(&c->plan->inputs[k].dist) * c->plan->inputs[k].to_si;
@@ -438,16 +387,8 @@ static int chain_member(void *ws, void *ctx, const sl_ens_plan *plan, const doub
     chain_ws *w = ws;
     SL_TRY_RETURN(e, set_inputs(c, &w->sc, in_si, e));
     SL_TRY_RETURN(e, sl_chain_run(&w->sc, &w->chain, e));
-    int month = month_index(&w->sc);
-    if (!w->box_ready[month])
-        SL_FAIL_RETURN(e, SL_EINTERNAL, "no box model for month %d", month);
-    struct timespec t0, t1;
-    clock_gettime(CLOCK_MONOTONIC, &t0);
-    SL_TRY_RETURN(e, sl_strat_run(&w->box[month], &w->chain.injection, &w->box_res[month], e));
-    clock_gettime(CLOCK_MONOTONIC, &t1);
-    w->box_s += (double)(t1.tv_sec - t0.tv_sec) + 1e-9 * (double)(t1.tv_nsec - t0.tv_nsec);
     for (size_t j = 0; j < c->n_out; j++)
-        out[j] = out_value(&w->chain, &w->box_res[month], c->which[j]);
+        out[j] = out_value(&w->chain, &w->chain.strat, c->which[j]);
     return SL_OK;
 }
 
@@ -465,8 +406,6 @@ static void ens_chain_init(ens_chain *c, const sl_scenario *sc, const sl_ens_pla
         c->which[c->n_out] = (out_id)k;
         c->outputs[c->n_out++] = out_table[k].o;
     }
-    for (size_t k = 0; k < p->n_inputs; k++)
-        c->month_varies |= ids[k] == SL_P_SITE_MONTH;
     m->ctx = c;
     m->n_outputs = c->n_out;
     m->outputs = c->outputs;
@@ -983,7 +922,7 @@ static void print_timing(const ens_chain *ch, const sl_ens_result *r)
     if (getrusage(RUSAGE_SELF, &ru) == 0)
         fprintf(stderr, "steamloft: peak resident memory %.1f MiB (getrusage ru_maxrss)\n",
                 (double)ru.ru_maxrss / 1024.0);
-    double total = ch->box_s;
+    double total = 0;
     for (int k = 0; k < SL_CHAIN_N_TIMED; k++)
         total += ch->stage_s[k];
     double busy = r->wall_s * r->threads;
@@ -991,7 +930,6 @@ static void print_timing(const ens_chain *ch, const sl_ens_result *r)
             r->n_members ? 1e3 * busy / (double)r->n_members : 0.0);
     for (int k = 0; k < SL_CHAIN_N_TIMED; k++)
         fprintf(stderr, " %s %.1f %%", sl_chain_stage_names[k], total > 0 ? 100 * ch->stage_s[k] / total : 0.0);
-    fprintf(stderr, " box model %.1f %%", total > 0 ? 100 * ch->box_s / total : 0.0);
     fprintf(stderr, "; outside the chain %.1f %%\n", busy > 0 ? 100 * (busy - total) / busy : 0.0);
 }
 

@@ -279,11 +279,11 @@ static int global_attrs(ncw *w, const sl_output_view *v, sl_err *e)
         SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "references", buf, e));
     snprintf(buf, sizeof buf,
              "%s%s%s%s Masses are totals per altitude band, not rates. Time 0 is the event; "
-             "its date in the time units is %s.",
+             "the date in the time units is nominal (%s).",
              sl_cli_caution(), v->regime_note && v->regime_note[0] ? " Validity: " : "",
              v->regime_note && v->regime_note[0] ? v->regime_note : "",
              v->regime_note && v->regime_note[0] ? "." : "",
-             v->event_time && v->event_time[0] ? "the scenario's" : "nominal");
+             v->event_time && v->event_time[0] ? "only its month is the event's" : "no date given");
     SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "comment", buf, e));
     SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "tool_version", sl_cli_version(), e));
     SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "git_hash", SL_GIT_HASH, e));

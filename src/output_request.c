@@ -10,6 +10,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 /* Every name a CSV or plot directory may receive (checked before a run). */
 static const char *const csv_names[] = {"profile.csv", "background.csv", "series.csv",
@@ -100,26 +101,51 @@ int sl_output_request_preflight(const sl_output_request *rq, int force, sl_err *
     return SL_OK;
 }
 
+/* Remove what an earlier output of this command created (only without
+ * force: then preflight proved none of it existed before). */
+static void undo_outputs(const sl_output_request *rq, int nc_done, int csv_done)
+{
+    char p[4096];
+    if (nc_done)
+        (void)unlink(rq->nc_path);
+    if (csv_done) {
+        for (size_t i = 0; i < sizeof csv_names / sizeof csv_names[0]; i++) {
+            snprintf(p, sizeof p, "%s/%s", rq->csv_dir, csv_names[i]);
+            (void)unlink(p);
+        }
+        (void)rmdir(rq->csv_dir); /* only when empty: never removes other files */
+    }
+}
+
 int sl_output_request_write(const sl_output_request *rq, const sl_output_view *v,
                             const sl_cli_globals *g, const char *cmd, sl_err *e)
 {
     const char *prog = g && g->prog ? g->prog : "steamloft";
     int force = g ? g->force : 0, verbose = g && g->verbosity > 0, quiet = g && g->verbosity < 0;
+    int nc_done = 0, csv_done = 0, rc = SL_OK;
     if (rq->nc_path) {
         sl_nc_options o = {rq->format, 0, force};
-        SL_TRY_RETURN(e, sl_output_nc_write(v, rq->nc_path, &o, e));
+        rc = sl_output_nc_write(v, rq->nc_path, &o, e);
+        if (rc != SL_OK)
+            goto fail;
+        nc_done = 1;
         if (verbose)
             fprintf(stderr, "%s %s: wrote %s\n", prog, cmd, rq->nc_path);
     }
     if (rq->csv_dir) {
-        SL_TRY_RETURN(e, sl_output_csv_write(v, rq->csv_dir, force, e));
+        rc = sl_output_csv_write(v, rq->csv_dir, force, e);
+        if (rc != SL_OK)
+            goto fail;
+        csv_done = 1;
         if (verbose)
             fprintf(stderr, "%s %s: wrote CSV files into %s\n", prog, cmd, rq->csv_dir);
     }
     if (rq->plot_dir) {
         sl_plot_options po = {force, !rq->no_render, NULL};
         sl_plot_result res;
-        SL_TRY_RETURN(e, sl_plot_write(v, rq->plot_dir, &po, &res, e));
+        rc = sl_plot_write(v, rq->plot_dir, &po, &res, e);
+        if (rc != SL_OK)
+            goto fail;
         if (res.warning[0] && !quiet && !rq->no_render)
             fprintf(stderr, "%s %s: warning: %s\n", prog, cmd, res.warning);
         if (verbose)
@@ -127,4 +153,11 @@ int sl_output_request_write(const sl_output_request *rq, const sl_output_view *v
                     rq->plot_dir, res.rendered ? " (SVG and PNG rendered)" : "");
     }
     return SL_OK;
+fail:
+    /* All or nothing across the outputs too, as far as it is safe: what this
+     * command created is removed again; files replaced under --force stay
+     * (complete, from this run). */
+    if (!force)
+        undo_outputs(rq, nc_done, csv_done);
+    return sl_err_push(e, rc, __func__, __LINE__);
 }

@@ -307,6 +307,44 @@ static void emit_plume(sl_report *r, const sl_chain *ch)
     sl_report_end_array(r);
 }
 
+/* Box model: the keys of issue 6 (unit in the key; years, ppmv, W/m2 as named). */
+static void emit_strat(sl_report *r, const sl_chain *ch)
+{
+    if (!ch->have_strat_model)
+        return;
+    const sl_strat_model *m = &ch->strat_model;
+    const sl_strat_result *s = &ch->strat;
+    sl_report_heading(r, "Stratospheric box model");
+    sl_report_number(r, "strat_injected_kg", s->injected_kg, "water above the tropopause", 1e-9, "Tg");
+    sl_report_number(r, "strat_not_entered_kg", s->not_entered_kg, "water below the tropopause (not entered)",
+                     1e-9, "Tg");
+    sl_report_number(r, "background_burden_kg", m->reference_background_kg,
+                     "background water above ~100 hPa", 1e-9, "Tg");
+    sl_report_number(r, "efolding_years", sl_s_to_years(s->efolding_s), "e-folding time", 1.0, "years");
+    sl_report_bool(r, "efolding_extrapolated", s->efolding_extrapolated, "e-folding beyond the run");
+    sl_report_number(r, "mean_residence_years", sl_s_to_years(s->mean_residence_s), "mean residence time", 1.0,
+                     "years");
+    sl_report_number(r, "percent_of_background", s->percent_of_background_peak, "peak excess / background", 1.0,
+                     "%");
+    sl_report_number(r, "peak_global_anomaly_ppmv", sl_mole_fraction_to_ppmv(s->peak_global_anomaly_mole_fraction),
+                     "peak global-mean anomaly above 100 hPa", 1.0, "ppmv");
+    sl_report_number(r, "peak_global_column_kg_m2", s->peak_global_column_kg_m2, "peak global column anomaly",
+                     sl_kg_m2_to_precip_um(1.0), "precipitable um");
+    sl_report_number(r, "peak_local_column_kg_m2", s->peak_local_column_kg_m2, "peak column in the young cloud",
+                     sl_kg_m2_to_precip_um(1.0), "precipitable um");
+    sl_report_number(r, "forcing_indicator_W_m2", s->forcing_indicator_W_m2, "forcing indicator (coarse)", 1.0,
+                     "W/m2");
+    sl_report_number(r, "fraction_remaining_1y", s->fraction_remaining_1y, "fraction left after 1 year", 1.0, "");
+    sl_report_number(r, "fraction_remaining_3y", s->fraction_remaining_3y, "fraction left after 3 years", 1.0, "");
+    size_t last = s->n_times - 1;
+    sl_report_begin_object(r, "strat_sinks_kg", r->json ? NULL : "\nRemoved by the end of the run");
+    for (int k = 0; k < SL_STRAT_N_SINKS; k++)
+        sl_report_number(r, sl_strat_sink_names[k], s->sink_kg[last * SL_STRAT_N_SINKS + k], sl_strat_sink_names[k],
+                         1e-9, "Tg");
+    sl_report_end_object(r);
+    sl_report_number(r, "strat_remaining_kg", s->global_excess_kg[last], "remaining at the end", 1e-9, "Tg");
+}
+
 static void emit_parameters(sl_report *r, const sl_chain *ch)
 {
     if (!r->json)
@@ -352,6 +390,7 @@ int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, sl_err *e)
     sl_report_number(&r, "energy_at_sea_J", ch->partition.energy_at_sea_J, "energy reaching the sea", 1.0 / SL_J_PER_MT_TNT, "Mt");
     emit_partition(&r, ch);
     emit_plume(&r, ch);
+    emit_strat(&r, ch);
     emit_parameters(&r, ch);
     if (!json)
         fputc('\n', out);

@@ -91,11 +91,13 @@
  *    memory, see climate-facts.md section 4); no net loss below 60 km where
  *    water is produced (Sonnemann & Grygalashvyly 2005, JGR,
  *    doi:10.1029/2004JD005593, SEEN: crossover near 65 km);
- *  - young-cloud freeze-out at t = 0: the cloud of area A0 (the injection's
- *    cloud_area_m2 or a default) holds at most ice saturation in each band;
- *    the water above that is ice that grows and falls out (fall speeds of
- *    ~1-5 km/day for 10-20 um crystals, climate-facts.md section 8) while the
- *    cloud spreads into drier air.
+ *  - young-cloud freeze-out at t = 0, on request only (cloud_freeze_out; the
+ *    injection stage already applies its own freeze-out rule to the plume's
+ *    cloud, so the chain leaves it off): the cloud of area A0 (the profile's
+ *    cloud_area_m2 or the default) holds at most ice saturation in each
+ *    band; the water above that is ice that grows and falls out (fall speeds
+ *    of ~1-5 km/day for 10-20 um crystals, climate-facts.md section 8) while
+ *    the cloud spreads into drier air.
  *
  * Early spreading (local column anomaly): the cloud keeps its width sqrt(A0)
  * while wind shear stretches it around the latitude circle within
@@ -137,6 +139,7 @@
  * the background water above 16 km (the reference domain), and the global
  * mean anomaly is the excess over the air of that domain. */
 #include "steamloft/strat.h"
+#include "steamloft/scenario.h"
 #include "steamloft/units.h"
 
 #include <gsl/gsl_eigen.h>
@@ -209,6 +212,7 @@ void sl_strat_params_default(sl_strat_params *p)
     p->photolysis_bottom_m = 60.0e3;
     /* 500 km across (PRACTICE: the order of the Hunga umbrella cloud, MEM-M). */
     p->default_cloud_area_m2 = 2.0e11;
+    p->cloud_freeze_out = 0;
     p->zonal_spread_time_s = 14.0 * SL_S_PER_DAY;
     p->region_spread_time_s = 90.0 * SL_S_PER_DAY;
     p->forcing_W_m2_per_mole_fraction = 0.2e6; /* 0.2 W m-2 per ppmv */
@@ -216,6 +220,19 @@ void sl_strat_params_default(sl_strat_params *p)
     p->span_s = 20.0 * SL_S_PER_YEAR;
     p->step_s = MONTH_S;
     p->start_month = 1;
+}
+
+void sl_strat_params_from_scenario(sl_strat_params *p, const struct sl_scenario *sc)
+{
+    sl_strat_params_default(p);
+    p->span_s = sl_scenario_value(sc, SL_P_STRAT_SPAN);
+    p->step_s = sl_scenario_value(sc, SL_P_STRAT_STEP);
+    p->deep_branch_fraction = sl_scenario_value(sc, SL_P_STRAT_DEEP_BRANCH);
+    p->inmixing_time_s = sl_scenario_value(sc, SL_P_STRAT_INMIXING);
+    p->lms_residence_s = sl_scenario_value(sc, SL_P_STRAT_LMS_RESIDENCE);
+    p->antarctic_vortex_fraction = sl_scenario_value(sc, SL_P_STRAT_VORTEX);
+    double month = sl_scenario_value(sc, SL_P_SITE_MONTH);
+    p->start_month = isfinite(month) && month >= 1.0 && month <= 12.0 ? (int)month : 0;
 }
 
 int sl_strat_params_check(const sl_strat_params *p, sl_err *e)
@@ -258,6 +275,8 @@ int sl_strat_params_check(const sl_strat_params *p, sl_err *e)
     if (p->span_s / p->step_s > 1.0e5)
         SL_FAIL_RETURN(e, SL_EDATA, "strat span %g s / step %g s gives more than 100000 output times; "
                        "use a longer step or a shorter span", p->span_s, p->step_s);
+    if (p->cloud_freeze_out != 0 && p->cloud_freeze_out != 1)
+        SL_FAIL_RETURN(e, SL_EDATA, "strat parameter cloud_freeze_out = %d must be 0 or 1", p->cloud_freeze_out);
     if (p->start_month < 0 || p->start_month > 12)
         SL_FAIL_RETURN(e, SL_EDATA, "strat parameter start_month = %d is outside the valid range 0 (unknown) to 12",
                        p->start_month);
@@ -1216,13 +1235,15 @@ int sl_strat_run(const sl_strat_model *m, const sl_injection *inj, sl_strat_resu
         w_t = alat <= p->tropics_edge_deg ? 1.0 : 0.0;
     int rx = inj->latitude_deg < 0.0 ? SL_STRAT_SOUTH : SL_STRAT_NORTH;
     int rc_cloud = w_t >= 0.5 ? SL_STRAT_TROPICS : rx;
-    /* Cloud area: the profile's (then the young cloud freezes out what it
-     * cannot hold), else the profile is taken as the settled stratospheric
-     * injection (as the satellite estimates are) and the area is the default
-     * or the smallest area that holds the water at ice saturation. */
-    int freeze = inj->cloud_area_m2 > 0.0;
-    double a0 = freeze ? inj->cloud_area_m2 : p->default_cloud_area_m2;
-    if (!freeze) {
+    /* Cloud area: the profile's, else the default or the smallest area that
+     * holds the water at ice saturation, whichever is larger.  Freeze-out
+     * at t = 0 only on request (cloud_freeze_out): the injection stage has
+     * already frozen out what its cloud could not hold, with its own rule
+     * for the ice; a profile from a file is the settled injection unless
+     * the user asks otherwise. */
+    int freeze = p->cloud_freeze_out;
+    double a0 = inj->cloud_area_m2 > 0.0 ? inj->cloud_area_m2 : p->default_cloud_area_m2;
+    if (!freeze && !(inj->cloud_area_m2 > 0.0)) {
         double need = 0.0, tp = m->tropopause_m[rc_cloud];
         for (size_t i = 0; i < inj->n_bands; i++) {
             double z0 = inj->band_bottom_m[i], z1 = inj->band_top_m[i];
@@ -1234,9 +1255,9 @@ int sl_strat_run(const sl_strat_model *m, const sl_injection *inj, sl_strat_resu
                 need = fmax(need, area);
             }
         }
-        a0 = fmin(fmax(a0, need), m->region_area_m2[rc_cloud]);
+        a0 = fmax(a0, need);
     }
-
+    a0 = fmin(a0, m->region_area_m2[rc_cloud]);
     double not_entered = 0.0, frozen = 0.0;
     for (size_t i = 0; i < inj->n_bands; i++) {
         double z0 = inj->band_bottom_m[i], z1 = inj->band_top_m[i];

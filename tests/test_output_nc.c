@@ -234,6 +234,10 @@ START_TEST(read_only_directory)
 {
     build_fixture(0);
     if (geteuid() == 0) {
+        if (getenv("CK_FORK") && strcmp(getenv("CK_FORK"), "no") == 0) {
+            printf("# CK_FORK=no as root: read-only directory not tested here (tests/cli covers it)\n");
+            return; /* dropping root would last for the rest of the program */
+        }
         ck_assert_int_eq(setgid(65534), 0);
         ck_assert_int_eq(setuid(65534), 0);
     }

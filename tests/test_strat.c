@@ -6,6 +6,8 @@
  * the young-cloud freeze-out, the forcing indicator and bad input. */
 #include "sl_test.h"
 
+#include "steamloft/chain.h"
+#include "steamloft/scenario.h"
 #include "steamloft/strat.h"
 #include "steamloft/units.h"
 
@@ -572,7 +574,7 @@ END_TEST
 START_TEST(test_cloud_freeze)
 {
     /* A young cloud of 1e11 m2 holding 146 Tg at 22-27 km over the tropics:
-     * the water above ice saturation freezes out.  The capacity is
+     * with cloud_freeze_out the water above ice saturation freezes out.  The capacity is
      * recomputed here by a fine (10 m) midpoint integral of
      * rho (x_ice - x_H2O) eps over the layer with the atmosphere module
      * (Murphy & Koop 2005 ice saturation): 1e-3 relative (the model uses 250-m
@@ -584,11 +586,20 @@ START_TEST(test_cloud_freeze)
     sl_strat_params_default(&p);
     sl_strat_model m;
     sl_strat_result r;
-    ck_assert_int_eq(sl_strat_model_init(&m, &p, f.atm, &e), SL_OK);
-    ck_assert_int_eq(sl_strat_result_init(&r, &m, &e), SL_OK);
     sl_injection inj;
     layer_profile(&inj, 146.0e9, 22.0e3, 27.0e3, 0.0);
     inj.cloud_area_m2 = 1.0e11;
+    /* Off by default (the injection stage freezes out): everything enters. */
+    ck_assert_int_eq(sl_strat_model_init(&m, &p, f.atm, &e), SL_OK);
+    ck_assert_int_eq(sl_strat_result_init(&r, &m, &e), SL_OK);
+    ck_assert_int_eq(sl_strat_run(&m, &inj, &r, &e), SL_OK);
+    SL_CK_REL(r.initial_excess_kg, 146.0e9, 1e-12);
+    ck_assert(r.sink_kg[SL_STRAT_SINK_CLOUD_FREEZE] == 0.0);
+    sl_strat_result_free(&r);
+    sl_strat_model_free(&m);
+    p.cloud_freeze_out = 1;
+    ck_assert_int_eq(sl_strat_model_init(&m, &p, f.atm, &e), SL_OK);
+    ck_assert_int_eq(sl_strat_result_init(&r, &m, &e), SL_OK);
     ck_assert_int_eq(sl_strat_run(&m, &inj, &r, &e), SL_OK);
     double eps = SL_MOLAR_MASS_H2O_KG_MOL / SL_MOLAR_MASS_DRY_AIR_KG_MOL, cap = 0.0;
     for (double z = 22.0e3 + 5.0; z < 27.0e3; z += 10.0) {
@@ -705,6 +716,57 @@ START_TEST(test_bad_input)
 }
 END_TEST
 
+START_TEST(test_chain_and_scenario)
+{
+    /* The scenario defaults of [strat] are the module's defaults (one source
+     * of truth checked here), the keys reach the model, and the chain runs
+     * the box model after the plume with a closed budget. */
+    sl_err e = {0};
+    sl_scenario sc;
+    const char *text = "[explosion]\nenergy_Mt = 10\n[site]\nlatitude_deg = 11\natmosphere = tropical\n";
+    ck_assert_msg(sl_scenario_load_string(&sc, "t.ini", text, &e) == SL_OK, "%s", e.msg);
+    sl_strat_params d, p;
+    sl_strat_params_default(&d);
+    sl_strat_params_from_scenario(&p, &sc);
+    SL_CK_REL(p.span_s, d.span_s, 1e-12);
+    SL_CK_REL(p.step_s, d.step_s, 1e-12);
+    SL_CK_REL(p.deep_branch_fraction, d.deep_branch_fraction, 1e-12);
+    SL_CK_REL(p.inmixing_time_s, d.inmixing_time_s, 1e-12);
+    SL_CK_REL(p.lms_residence_s, d.lms_residence_s, 1e-12);
+    SL_CK_REL(p.antarctic_vortex_fraction, d.antarctic_vortex_fraction, 1e-3); /* 4 digits in the table */
+    ck_assert_int_eq(p.start_month, 0); /* [site] month not given */
+    ck_assert_str_eq(sl_scenario_text(&sc, SL_P_STRAT_TROPICS_ATMOSPHERE), "tropical");
+    ck_assert_str_eq(sl_scenario_text(&sc, SL_P_STRAT_EXTRATROPICS_ATMOSPHERE), "us1976");
+    sl_chain ch;
+    memset(&ch, 0, sizeof ch);
+    ck_assert_msg(sl_chain_run(&sc, &ch, &e) == SL_OK, "%s", e.msg);
+    ck_assert(ch.have_strat_model);
+    ck_assert_uint_eq(ch.strat.n_times, 241); /* 20 years monthly */
+    check_budget(&ch.strat);
+    /* What the box model takes in is the injection above the tropopause (at
+     * 11 N all of it goes to the tropics, whose tropopause decides), the rest
+     * is counted as not entered: the two add up to the profile (rounding). */
+    double total = sl_injection_total_vapor_kg(&ch.injection) + sl_injection_total_ice_kg(&ch.injection);
+    double above = sl_injection_mass_above_kg(&ch.injection, ch.strat_model.tropopause_m[SL_STRAT_TROPICS]);
+    ck_assert(total > 0.0);
+    SL_CK_REL(ch.strat.injected_kg + ch.strat.not_entered_kg, total, 1e-9);
+    SL_CK_ABS(ch.strat.injected_kg, above, 1e-9 * total);
+    /* Keys reach the model; the model is rebuilt only when they change. */
+    const char *text2 = "[explosion]\nenergy_Mt = 10\n[site]\nlatitude_deg = 11\nmonth = 7\n"
+                        "[strat]\nspan_years = 5\nstep_days = 10\n";
+    ck_assert_msg(sl_scenario_load_string(&sc, "t2.ini", text2, &e) == SL_OK, "%s", e.msg);
+    ck_assert_msg(sl_chain_run(&sc, &ch, &e) == SL_OK, "%s", e.msg);
+    ck_assert_uint_eq(ch.strat.n_times, (size_t)floor(5.0 * 365.25 / 10.0) + 1);
+    ck_assert_int_eq(ch.strat_model.par.start_month, 7);
+    const double *before = ch.strat_model.propagator[0];
+    ck_assert_msg(sl_chain_run(&sc, &ch, &e) == SL_OK, "%s", e.msg);
+    ck_assert_ptr_eq(ch.strat_model.propagator[0], before);
+    check_budget(&ch.strat);
+    sl_chain_free(&ch);
+    sl_chain_free(&ch);
+}
+END_TEST
+
 static Suite *strat_suite(void)
 {
     Suite *s = suite_create("strat");
@@ -725,6 +787,7 @@ static Suite *strat_suite(void)
     tcase_add_test(tc, test_forcing_uniform);
     tcase_add_test(tc, test_step_choice);
     tcase_add_test(tc, test_bad_input);
+    tcase_add_test(tc, test_chain_and_scenario);
     suite_add_tcase(s, tc);
     return s;
 }

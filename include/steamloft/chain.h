@@ -1,6 +1,7 @@
 /* chain: the stages of steamloft run in order for one scenario:
  *   scenario -> atmosphere -> entry (impactors) -> partition -> sources
  *   -> plume rise and freeze-out -> injection profile
+ *   -> stratospheric box model (decay, columns, percent of background)
  * (later stages add their members and calls here).
  *
  * An sl_chain is reusable: zero it once, call sl_chain_run() as many times
@@ -19,10 +20,11 @@
 #include "steamloft/partition.h"
 #include "steamloft/plume.h"
 #include "steamloft/scenario.h"
+#include "steamloft/strat.h"
 
 /* Stages timed by sl_chain_run (for `make bench`). */
 enum { SL_CHAIN_T_ATMOSPHERE = 0, SL_CHAIN_T_ENTRY, SL_CHAIN_T_PARTITION, SL_CHAIN_T_PLUME,
-       SL_CHAIN_N_TIMED };
+       SL_CHAIN_T_STRAT, SL_CHAIN_N_TIMED };
 extern const char *const sl_chain_stage_names[SL_CHAIN_N_TIMED];
 
 typedef struct sl_chain {
@@ -38,6 +40,16 @@ typedef struct sl_chain {
     int have_plume;
     sl_injection injection;        /* lofted water by altitude band */
     double band_bottom_m, band_top_m, band_width_m; /* the bands the injection holds */
+    /* Box model: backgrounds of the tropics [0] and extratropics [1], and the
+     * model (propagators), rebuilt only when [strat] keys, the month or the
+     * backgrounds change; the result arrays are reused. */
+    sl_atmosphere strat_atmosphere[2];
+    int have_strat_atmosphere[2];
+    char strat_atmosphere_name[2][SL_SCENARIO_RAW_LEN];
+    sl_strat_params strat_params;  /* of the model built */
+    sl_strat_model strat_model;
+    int have_strat_model;
+    sl_strat_result strat;         /* valid when have_strat_model after a successful run */
     double stage_s[SL_CHAIN_N_TIMED]; /* wall-clock seconds per stage, summed over runs */
 } sl_chain;
 

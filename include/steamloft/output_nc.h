@@ -5,18 +5,25 @@
  *   vapor_mass, ice_mass (altitude)                  lofted mass per band, kg
  *   vapor_mass_content (altitude)                    standard_name
  *       mass_content_of_water_vapor_in_atmosphere_layer, kg m-2, averaged over the Earth
- *   cloud_vapor_mass_content (altitude)              same, over the young cloud (when its area is known)
- *   tropopause_altitude, total_vapor_mass, total_ice_mass, stratospheric_water_mass (scalars)
+ *   cloud_vapor_mass_content (altitude), cloud_area  the same over the young cloud (area known)
+ *   total_vapor_mass, total_ice_mass, tropopause_altitude, stratospheric_water_mass,
+ *       latitude, injection_time (scalars)
  *   atm_altitude(atm_altitude) with air_temperature, air_pressure, air_density,
- *       mole_fraction_of_water_vapor_in_air, buoyancy_frequency_squared   the background used
- *   time(time) days since the event, calendar standard; lat(lat), lat_bnds(lat,nv)
+ *       h2o_mole_fraction (mole_fraction_of_water_vapor_in_air), buoyancy_frequency_squared,
+ *       background_stratospheric_water_mass/_column     the background used
+ *   time(time) days since the event, calendar standard; lat(lat), lat_bnds(lat,nv) regions;
+ *       region_tropopause_altitude(lat)
  *   excess_water_mass(time,lat,<z>), mole_fraction_anomaly(time,<z>), global_excess_water_mass,
  *       column_anomaly, local_column_anomaly, percent_of_background, forcing_indicator,
  *       removed_<sink> (time)                        the box-model series; <z> is altitude when the
  *                                                    box layers equal the bands, else layer(layer)
- *   one scalar variable per sl_output_scalar
- *   global attributes: Conventions, title, source, history, references, comment, tool_version,
- *       git_hash, event_time, scenario_file, and scenario_<param> for every parameter.
+ *                                                    with layer_bnds
+ *   one scalar variable per sl_output_scalar (e-folding time, burst altitude, ...)
+ *   global attributes: Conventions, title, source, history (UTC time and the command line),
+ *       references (the published methods used), comment (the caution, the validity note),
+ *       tool_version, git_hash, event_time, scenario_file, validity_warning,
+ *       background_atmosphere(_source), scenario_parameter_origins, and scenario_<section>_<key>
+ *       for every scenario parameter (numbers in the key's unit).
  * Standard names come only from the CF standard-name table (version 83); a
  * quantity without one (mass per band in kg, anomalies, the forcing
  * indicator) has long_name and units only.  Data are written in double

@@ -67,9 +67,11 @@ int sl_output_request_any(const sl_output_request *rq);
 int sl_output_request_preflight(const sl_output_request *rq, int force, sl_err *e);
 
 /* Write every requested output of V, netCDF first, then CSV, then plots;
- * each is all-or-nothing.  A plot warning (gnuplot missing) is printed to
- * stderr unless G is quiet; with G verbose the written paths are listed on
- * stderr.  Returns the first error. */
+ * each is all-or-nothing, and when a later one fails the earlier ones this
+ * call created are removed again (without --force; with it, files that
+ * replaced older ones stay, complete).  A plot warning (gnuplot missing) is
+ * printed to stderr unless G is quiet; with G verbose the written paths are
+ * listed on stderr.  Returns the first error. */
 int sl_output_request_write(const sl_output_request *rq, const sl_output_view *v,
                             const sl_cli_globals *g, const char *cmd, sl_err *e);
 

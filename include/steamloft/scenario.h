@@ -57,7 +57,8 @@
     X(AIRBURST, "airburst", "optional: impose a burst instead of computing it (with [impactor])")  \
     X(ENTRY, "entry", "coefficients of the atmospheric-entry model")                               \
     X(PARTITION, "partition", "how the energy reaching the sea is shared out")                            \
-    X(PLUME, "plume", "plume rise, freeze-out in the young cloud, and the altitude bands")
+    X(PLUME, "plume", "plume rise, freeze-out in the young cloud, and the altitude bands")          \
+    X(STRAT, "strat", "stratospheric box model: time span, output step, backgrounds, time scales")
 
 typedef enum sl_param_type {
     SL_PT_REAL = 0,  /* a real number in the key's unit */
@@ -166,7 +167,27 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
     X(PLUME_BAND_TOP, "plume", "band_top_m", SL_PT_REAL, "m", 100000.0, 1000.0, 120000.0, 0u,      \
       NULL, "top of the highest altitude band (water above it is pressed into the top band)")      \
     X(PLUME_BAND_WIDTH, "plume", "band_width_m", SL_PT_REAL, "m", 1000.0, 10.0, 20000.0, 0u, NULL, \
-      "width of the altitude bands of the injection profile")
+      "width of the altitude bands of the injection profile") \
+    X(STRAT_SPAN, "strat", "span_years", SL_PT_REAL, "years", 20.0, 0.1, 1000.0, 0u, NULL,          \
+      "length of the box-model time series")                                                        \
+    X(STRAT_STEP, "strat", "step_days", SL_PT_REAL, "days", 30.4375, 1.0, 365.25, 0u, NULL,          \
+      "output step of the box model (30.4375 days = 1/12 year)")                                    \
+    X(STRAT_TROPICS_ATMOSPHERE, "strat", "tropics_atmosphere", SL_PT_CHOICE, "", 0.0, 0.0, 0.0, 0u,  \
+      "tropical|us1976|midlatitude-summer|midlatitude-winter|subarctic-summer|subarctic-winter",     \
+      "background profile of the tropical boxes (the transport is calibrated on tropical)")         \
+    X(STRAT_EXTRATROPICS_ATMOSPHERE, "strat", "extratropics_atmosphere", SL_PT_CHOICE, "", 0.0, 0.0, \
+      0.0, 0u,                                                                                      \
+      "us1976|tropical|midlatitude-summer|midlatitude-winter|subarctic-summer|subarctic-winter",     \
+      "background profile of both extratropical regions (us1976: mid-latitude annual mean)")        \
+    X(STRAT_DEEP_BRANCH, "strat", "deep_branch_fraction", SL_PT_REAL, "1", 0.7104, 0.01, 1.0, 0u,    \
+      NULL, "share of the 100-hPa tropical upward flux that rises on (calibrated; strat.c)")        \
+    X(STRAT_INMIXING, "strat", "inmixing_time_years", SL_PT_REAL, "years", 1.0672, 0.01, 50.0, 0u,   \
+      NULL, "time to mix extratropical air into the tropical pipe (calibrated; Volk et al. 1996: "   \
+      "about 13.5 months)")                                                                         \
+    X(STRAT_LMS_RESIDENCE, "strat", "lms_residence_days", SL_PT_REAL, "days", 50.0, 1.0, 3650.0, 0u, \
+      NULL, "residence of water in the lowermost stratosphere (Gettelman 1999: about 50 days)")     \
+    X(STRAT_VORTEX, "strat", "antarctic_vortex_fraction", SL_PT_REAL, "1", 0.1424, 0.0, 0.9, 0u,     \
+      NULL, "share of the southern extratropical air (poleward of 65 S) dried each winter")
 
 /* Row indices SL_P_<ID>, and SL_P_COUNT. */
 typedef enum sl_param_id {

@@ -80,6 +80,8 @@ typedef struct sl_strat_params {
     double photolysis_bottom_m;         /* no net loss below (net production, Sonnemann & Grygalashvyly 2005) */
     /* Early spreading of the young cloud. */
     double default_cloud_area_m2;   /* used when the injection does not give cloud_area_m2 */
+    int cloud_freeze_out;           /* 1: freeze out at t = 0 what the young cloud cannot hold at ice
+                                       saturation (default 0: the injection stage has done it) */
     double zonal_spread_time_s;     /* time for the cloud to encircle the globe */
     double region_spread_time_s;    /* time to fill the latitude region */
     /* Forcing indicator. */
@@ -94,6 +96,12 @@ typedef struct sl_strat_params {
 
 /* Fill the defaults (all published or calibrated; see src/strat.c). */
 void sl_strat_params_default(sl_strat_params *p);
+
+/* The defaults overridden by the scenario's [strat] keys and [site] month
+ * (0 = unknown).  The region backgrounds are named by
+ * sl_scenario_text(sc, SL_P_STRAT_TROPICS_ATMOSPHERE / _EXTRATROPICS_ATMOSPHERE). */
+struct sl_scenario;
+void sl_strat_params_from_scenario(sl_strat_params *p, const struct sl_scenario *sc);
 
 /* Check every parameter against its valid range; SL_EDATA names the field and the range. */
 int sl_strat_params_check(const sl_strat_params *p, sl_err *e);
@@ -195,8 +203,9 @@ void sl_strat_result_free(sl_strat_result *r);
  * What lies above each region's tropopause (from the model's background
  * profiles, not inj->tropopause_altitude_m) enters; the rest is
  * r->not_entered_kg.  t = 0 is the time of the profile (inj->time_s is not
- * used).  With cloud_area_m2 > 0 the young cloud first freezes out what it
- * cannot hold at ice saturation.  No allocation.  SL_EDATA for negative or
+ * used).  With par.cloud_freeze_out the young cloud (cloud_area_m2, else the
+ * default area) first freezes out what it cannot hold at ice saturation.
+ * No allocation.  SL_EDATA for negative or
  * non-finite masses or a latitude outside -90..90; SL_EINTERNAL if the mass
  * budget does not close or a mass turns negative. */
 int sl_strat_run(const sl_strat_model *m, const sl_injection *inj, sl_strat_result *r, sl_err *e);

@@ -136,6 +136,13 @@ else
 fi
 chmod 755 "$RO"
 
+# A later output failing removes the earlier ones of the same command: the
+# netCDF is named like a CSV file in the CSV directory, so the CSV set finds
+# it existing only after the netCDF was written (preflight saw neither).
+mkdir -p "$D/clash"
+sl_expect_exit 73 "a later output fails (name clash)" "$SL_BIN" decay "$PROF" -o "$D/clash/profile.csv" --csv "$D/clash"
+[ -z "$(ls -A "$D/clash")" ] && sl_ok "the earlier netCDF of that command was removed again" || sl_fail "left: $(ls -A "$D/clash")"
+
 # Usage mistakes.
 sl_expect_exit 64 "-o - (netCDF to stdout)" "$SL_BIN" decay "$PROF" -o -
 sl_expect_exit 64 "--format without -o" "$SL_BIN" decay "$PROF" --format classic
