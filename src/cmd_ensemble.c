@@ -1091,6 +1091,8 @@ static int parse_args(int argc, char **argv, ens_cli *c, const sl_cli_globals *g
     if (optind + 1 < argc)
         return sl_cli_usage_error(g, c->cmd, "give one scenario file, not '%s' too", argv[optind + 1]);
     c->scenario = argv[optind];
+    if (c->csv_path && c->nc_path && strcmp(c->csv_path, c->nc_path) == 0)
+        return sl_cli_usage_error(g, c->cmd, "--output and --netcdf name the same file '%s'", c->csv_path);
     if (c->sweep && c->nvary == 0)
         return sl_cli_usage_error(g, c->cmd, "give at least one --vary KEY=START:STOP:STEP or KEY=V1,V2,...");
     return EX_OK;
