@@ -7,36 +7,9 @@
 #include "steamloft/output_text.h"
 #include "steamloft/scenario.h"
 
-#include "steamloft/strat.h"
-#include "steamloft/units.h"
-
 #include <getopt.h>
-#include <math.h>
 #include <stdio.h>
 #include <sysexits.h>
-
-/* The box model on the run's injection profile, for the file outputs (the
- * time series, e-folding time, column anomaly, percent of background).  Same
- * backgrounds as `decay`: the built-in tropical profile for the tropical
- * region and USSA76 for the extratropics (PRACTICE, see cmd_decay.c); the
- * scenario's month starts the seasonal cycle (0 = not given: annual mean).
- * To be replaced by the chain's own box-model stage when sl_chain_run gets
- * one. */
-static int run_box_model(const sl_chain *ch, sl_atmosphere *at, sl_atmosphere *ax,
-                         sl_strat_model *m, sl_strat_result *r, sl_err *e)
-{
-    SL_TRY_RETURN(e, sl_atmosphere_init(at, "tropical", e));
-    SL_TRY_RETURN(e, sl_atmosphere_init(ax, "us1976", e));
-    const sl_atmosphere *atm[SL_STRAT_N_REGIONS] = {ax, at, ax};
-    sl_strat_params p;
-    sl_strat_params_default(&p);
-    double month = ch->scenario.value_si[SL_P_SITE_MONTH];
-    p.start_month = isfinite(month) ? (int)lround(month) : 0;
-    SL_TRY_RETURN(e, sl_strat_model_init(m, &p, atm, e));
-    SL_TRY_RETURN(e, sl_strat_result_init(r, m, e));
-    SL_TRY_RETURN(e, sl_strat_run(m, &ch->injection, r, e));
-    return SL_OK;
-}
 
 int sl_cmd_run(int argc, char **argv, const sl_cli_globals *g)
 {
@@ -86,20 +59,12 @@ int sl_cmd_run(int argc, char **argv, const sl_cli_globals *g)
     if (rc == SL_OK)
         rc = sl_output_text_summary(stdout, &ch, json, &e);
     if (rc == SL_OK && sl_output_request_any(&out)) {
-        sl_atmosphere at = {0}, ax = {0};
-        sl_strat_model m = {0};
-        sl_strat_result r = {0};
         sl_output_chain oc = {0};
-        rc = run_box_model(&ch, &at, &ax, &m, &r, &e);
-        if (rc == SL_OK)
-            rc = sl_output_chain_init(&oc, &ch, &m, &r, g, &e);
+        rc = sl_output_chain_init(&oc, &ch, ch.have_strat_model ? &ch.strat_model : NULL,
+                                  ch.have_strat_model ? &ch.strat : NULL, g, &e);
         if (rc == SL_OK)
             rc = sl_output_request_write(&out, &oc.view, g, "run", &e);
         sl_output_chain_free(&oc);
-        sl_strat_result_free(&r);
-        sl_strat_model_free(&m);
-        sl_atmosphere_free(&at);
-        sl_atmosphere_free(&ax);
     }
     sl_chain_free(&ch);
     if (rc != SL_OK)

@@ -193,6 +193,11 @@ with netCDF4.Dataset(sys.argv[1]) as ds:
     close("stratospheric_vapor", float(ds.variables["stratospheric_vapor"][...]), j["stratospheric_water_kg"])
     close("event_energy", float(ds.variables["event_energy"][...]), j["energy_J"])
     close("water_vaporized", float(ds.variables["water_vaporized"][...]), j["water_vaporized_kg"])
+    # The box model of the same run (10 digits in the JSON; years of 365.25 d).
+    close("injected_water_mass", float(ds.variables["injected_water_mass"][...]), j["strat_injected_kg"])
+    close("efolding_time", float(ds.variables["efolding_time"][...]), j["efolding_years"] * 365.25 * 86400)
+    close("peak_percent_of_background", float(ds.variables["peak_percent_of_background"][...]), j["percent_of_background"])
+    close("remaining", float(ds.variables["global_excess_water_mass"][-1]), j["strat_remaining_kg"])
     n = 0
     for b in j["bands"]:
         i = int(round(b["bottom_m"] / 1000.0))
@@ -202,7 +207,7 @@ with netCDF4.Dataset(sys.argv[1]) as ds:
         print("no band with vapour in the report"); bad += 1
 sys.exit(bad)
 EOF
-if [ $? -eq 0 ]; then sl_ok "run netCDF masses equal the run's JSON report, band by band"; else sl_fail "run netCDF vs JSON"; sed 's/^/#   /' "$SL_TMP/cmp" | head; fi
+if [ $? -eq 0 ]; then sl_ok "run netCDF masses and box-model results equal the run's JSON report"; else sl_fail "run netCDF vs JSON"; sed 's/^/#   /' "$SL_TMP/cmp" | head; fi
 [ -s "$D/runcsv/series.csv" ] && [ -s "$D/runplot/decay.dat" ] && sl_ok "run CSV and plot files include the box-model series" || sl_fail "run CSV/plot"
 "$SL_BIN" run "$SCEN" -o "$D/r1/run.nc" >/dev/null 2>&1
 "$SL_BIN" run "$SCEN" -o "$D/r2/run.nc" >/dev/null 2>&1
