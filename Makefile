@@ -21,16 +21,16 @@ ifeq ($(MPI),1)
   CPPFLAGS += -DSL_HAVE_MPI
 endif
 CFLAGS   ?= -O2 -g
-CFLAGS   += -std=c11 -Wall -Wextra -Wpedantic -MMD -MP
+override CFLAGS +=  -std=c11 -Wall -Wextra -Wpedantic -MMD -MP
 CPPFLAGS += -D_GNU_SOURCE -Iinclude -I$(BUILD)/gen -DSL_VERSION=\"$(VERSION)\"
 PKG_CFLAGS := $(shell pkg-config --cflags $(PKGS) 2>/dev/null)
 PKG_LIBS   := $(shell pkg-config --libs $(PKGS) 2>/dev/null)
 CHECK_LIBS := $(shell pkg-config --libs $(TESTPKGS) 2>/dev/null)
-CFLAGS   += $(PKG_CFLAGS)
+override CFLAGS +=  $(PKG_CFLAGS)
 LDLIBS   += $(PKG_LIBS) -lm
 ifeq ($(OPENMP),1)
-  CFLAGS  += -fopenmp
-  LDFLAGS += -fopenmp
+  override CFLAGS +=  -fopenmp
+  override LDFLAGS +=  -fopenmp
 endif
 
 SRC      := $(wildcard src/*.c)
@@ -91,6 +91,17 @@ check-symbols: $(LIB)
 	@bad=$$(nm -g --defined-only $(LIB) | awk 'NF==3 && $$2 ~ /^[TDBRC]$$/ {print $$3}' | grep -v -e '^sl_' -e '^__odr_asan[._]' || true); \
 	if [ -n "$$bad" ]; then echo "check-symbols: exported without sl_ prefix:"; echo "$$bad"; exit 1; fi; \
 	echo "check-symbols: all exported symbols start with sl_"
+
+# (CFLAGS and LDFLAGS given on the command line, as `sanitize` does, keep the
+# warnings, -std, pkg-config and OpenMP flags: they are added with override.)
+
+# A benchmark, not a timed test: full-chain scenarios per second on 1 and 2
+# threads, peak memory and the per-stage time split (scripts/bench.sh).
+bench: ensure-deps
+	@$(MAKE) --no-print-directory bench-run
+
+bench-run: $(BIN)
+	@scripts/bench.sh $(BUILD)
 
 # The demo: one invented scenario through every stage, with every output.
 DEMO_SCENARIO ?= examples/demo.ini

@@ -17,6 +17,18 @@
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
+#include <time.h>
+
+const char *const sl_chain_stage_names[SL_CHAIN_N_TIMED] = {"atmosphere", "entry", "partition",
+                                                            "plume", "box model"};
+
+/* Monotonic clock in seconds, for the per-stage times. */
+static double chain_clock_s(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
 #include <unistd.h>
 
 typedef struct air_ctx {
@@ -178,12 +190,16 @@ int sl_chain_run(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         SL_FAIL_RETURN(e, SL_EINTERNAL, "chain: the scenario was not finished (sl_scenario_finish)");
     ch->scenario = *sc;
     ch->has_entry = 0;
+    double t0 = chain_clock_s(), t1;
     SL_TRY_RETURN(e, load_atmosphere(sc, ch, e));
     const sl_atmosphere *atm = &ch->atmosphere;
 
     sl_partition_input in;
     sl_partition_input_from_scenario(&in, sc);
     SL_TRY_RETURN(e, ambient(atm, 0.0, &in.air_at_sea, e));
+    t1 = chain_clock_s();
+    ch->stage_s[SL_CHAIN_T_ATMOSPHERE] += t1 - t0;
+    t0 = t1;
     if (sc->kind == SL_SCENARIO_IMPACTOR) {
         sl_entry_params p;
         sl_entry_params_from_scenario(&p, sc);
@@ -198,11 +214,21 @@ int sl_chain_run(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     } else {
         in.air_source_altitude_m = in.explosion_altitude_m;
     }
+    t1 = chain_clock_s();
+    ch->stage_s[SL_CHAIN_T_ENTRY] += t1 - t0;
+    t0 = t1;
     ch->air_source_altitude_m = in.air_source_altitude_m;
     SL_TRY_RETURN(e, ambient(atm, in.air_source_altitude_m, &in.air_at_source, e));
     SL_TRY_RETURN(e, sl_partition_solve(&ch->partition, &in, e));
+    t1 = chain_clock_s();
+    ch->stage_s[SL_CHAIN_T_PARTITION] += t1 - t0;
+    t0 = t1;
     SL_TRY_RETURN(e, run_plume(sc, ch, e));
+    t1 = chain_clock_s();
+    ch->stage_s[SL_CHAIN_T_PLUME] += t1 - t0;
+    t0 = t1;
     SL_TRY_RETURN(e, run_strat(sc, ch, e));
+    ch->stage_s[SL_CHAIN_T_STRAT] += chain_clock_s() - t0;
     return SL_OK;
 }
 

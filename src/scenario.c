@@ -18,6 +18,7 @@
  * 2005 (MAPS 40, 817, eq. 9), Y = 10^(2.107 + 0.0624 sqrt(rho)) Pa with rho in
  * kg m-3, fitted by them to bolide breakup data. */
 #include "steamloft/scenario.h"
+#include "steamloft/ensemble.h"
 #include "steamloft/units.h"
 #include "steamloft/units_table.h"
 
@@ -462,7 +463,10 @@ static int convert_value(sl_scenario *sc, int id, sl_err *e)
         errno = 0;
         double v = strtod(text, &end);
         if (text[0] == '\0' || end == text || *end != '\0' || errno == ERANGE || !isfinite(v)) {
-            const char *hint = strchr(text, '#') ? " (an inline comment needs ' ;', not '#')" : "";
+            const char *hint = strchr(text, '#') ? " (an inline comment needs ' ;', not '#')"
+                               : sl_dist_is_distribution(text)
+                                   ? " but a distribution: run the scenario with 'steamloft ensemble'"
+                                   : "";
             SL_FAIL_RETURN(e, SL_EDATA, "%s: '%s' is not a number%s (valid range: %s)", at, text,
                            hint, range);
         }

@@ -22,6 +22,11 @@
 #include "steamloft/scenario.h"
 #include "steamloft/strat.h"
 
+/* Stages timed by sl_chain_run (for `make bench`). */
+enum { SL_CHAIN_T_ATMOSPHERE = 0, SL_CHAIN_T_ENTRY, SL_CHAIN_T_PARTITION, SL_CHAIN_T_PLUME,
+       SL_CHAIN_T_STRAT, SL_CHAIN_N_TIMED };
+extern const char *const sl_chain_stage_names[SL_CHAIN_N_TIMED];
+
 typedef struct sl_chain {
     sl_scenario scenario;          /* copy of the scenario last run */
     sl_atmosphere atmosphere;      /* the background profile */
@@ -45,6 +50,7 @@ typedef struct sl_chain {
     sl_strat_model strat_model;
     int have_strat_model;
     sl_strat_result strat;         /* valid when have_strat_model after a successful run */
+    double stage_s[SL_CHAIN_N_TIMED]; /* wall-clock seconds per stage, summed over runs */
 } sl_chain;
 
 /* Run every stage for the finished scenario SC into CH.  On failure CH keeps

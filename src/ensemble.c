@@ -1,0 +1,1389 @@
+/* ensemble: uncertain inputs, sampling, the member loop and its statistics.
+ *
+ * No physics lives here: an ensemble member is the ordinary chain run on
+ * sampled inputs (the model callback, bound in cmd_ensemble.c).  What this
+ * file does:
+ *
+ * - Distributions written as scenario values, each sampled by its inverse CDF
+ *   x = F^-1(u): uniform a + u (b - a); normal mean + sd Phi^-1(u); lognormal
+ *   median exp(sigma Phi^-1(u)) (Phi^-1 = gsl_cdf_ugaussian_Pinv); choice
+ *   v[floor(u n)]; and the impact angle of an isotropic flux of bodies,
+ *   dP = sin 2θ dθ on 0..90° (Gilbert 1893; Shoemaker 1962), whose CDF is
+ *   F(θ) = sin²θ, so θ = asin(sqrt(u)); truncated to [lo, hi] it is
+ *   θ = asin(sqrt(sin²lo + u (sin²hi - sin²lo))).
+ * - Monte Carlo with gsl_rng_mt19937, one seed per member from the base seed
+ *   and the member index through splitmix64 (Steele, Lea & Flood 2014) and the
+ *   MurmurHash3 32-bit finaliser (a bijection, so seeds within a run are
+ *   distinct); Sobol low-discrepancy points (gsl_qrng_sobol, Bratley & Fox
+ *   1988, dimension checked against GSL's limit of 40); grids for sweeps.
+ * - The member loop: blocks of members, OpenMP threads each with its own model
+ *   workspace and generator, optional MPI ranks (member m on rank m % size,
+ *   gathered with MPI_Gatherv to rank 0); every member writes only its own
+ *   slot and all reductions run serially in member order afterwards, so the
+ *   results are bit-identical for any thread or rank count.
+ * - Statistics over the members that succeeded: percentiles (type-7 linear
+ *   interpolation of Hyndman & Fan 1996, as gsl_stats_quantile_from_sorted_data
+ *   computes it), exceedance fractions with binomial standard errors, Spearman
+ *   rank correlation (gsl_stats_spearman, average ranks for ties).
+ * - A progress bar on stderr (rate and time left). */
+#include "steamloft/ensemble.h"
+#include "steamloft/units.h"
+#include "steamloft/units_table.h"
+
+#include <gsl/gsl_cdf.h>
+#include <gsl/gsl_qrng.h>
+#include <gsl/gsl_rng.h>
+#include <gsl/gsl_sort.h>
+#include <gsl/gsl_statistics_double.h>
+
+#include <ctype.h>
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+
+#ifdef _OPENMP
+#include <omp.h>
+#endif
+#ifdef SL_HAVE_MPI
+#include <mpi.h>
+#endif
+
+/* ================================================================ distributions */
+
+typedef struct dist_name {
+    const char *name;
+    sl_dist_kind kind;
+} dist_name;
+
+static const dist_name dist_names[] = {
+    {"uniform", SL_DIST_UNIFORM}, {"normal", SL_DIST_NORMAL},     {"lognormal", SL_DIST_LOGNORMAL},
+    {"choice", SL_DIST_CHOICE},   {"flux_angle", SL_DIST_FLUX_ANGLE},
+};
+
+static const char *dist_valid_forms =
+    "uniform(a, b), normal(mean, sd), lognormal(median, sigma), choice(v1, v2, ...), "
+    "flux_angle() or flux_angle(lo, hi)";
+
+/* Length of the identifier at s. */
+static size_t ident_len(const char *s)
+{
+    size_t n = 0;
+    while (isalnum((unsigned char)s[n]) || s[n] == '_')
+        n++;
+    return n;
+}
+
+static const dist_name *find_dist(const char *s, size_t n)
+{
+    for (size_t i = 0; i < sizeof dist_names / sizeof dist_names[0]; i++)
+        if (strlen(dist_names[i].name) == n && strncmp(dist_names[i].name, s, n) == 0)
+            return &dist_names[i];
+    return NULL;
+}
+
+int sl_dist_is_distribution(const char *text)
+{
+    if (text == NULL)
+        return 0;
+    while (isspace((unsigned char)*text))
+        text++;
+    size_t n = ident_len(text);
+    if (n == 0 || find_dist(text, n) == NULL)
+        return 0;
+    const char *p = text + n;
+    while (isspace((unsigned char)*p))
+        p++;
+    return *p == '(';
+}
+
+void sl_dist_free(sl_dist *d)
+{
+    if (d == NULL)
+        return;
+    free(d->values);
+    memset(d, 0, sizeof *d);
+}
+
+/* Parse the comma-separated numbers between the parentheses of ARGS (the text
+ * after '(' up to the closing ')'), into vals (at most maxv).  Returns the
+ * count or -1 with a message. */
+static int parse_args(const char *args, size_t len, double *vals, size_t maxv, size_t *nv,
+                      const char *where, const char *form, sl_err *e)
+{
+    *nv = 0;
+    size_t i = 0;
+    /* Empty argument list. */
+    size_t k = 0;
+    while (k < len && isspace((unsigned char)args[k]))
+        k++;
+    if (k == len)
+        return SL_OK;
+    while (i <= len) {
+        size_t j = i;
+        while (j < len && args[j] != ',')
+            j++;
+        char buf[96];
+        size_t tl = j - i;
+        /* Trim. */
+        const char *t = args + i;
+        while (tl > 0 && isspace((unsigned char)*t)) {
+            t++;
+            tl--;
+        }
+        while (tl > 0 && isspace((unsigned char)t[tl - 1]))
+            tl--;
+        if (tl == 0)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: empty argument in %s", where, form);
+        if (tl >= sizeof buf)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: argument '%.20s...' of %s is too long", where, t, form);
+        memcpy(buf, t, tl);
+        buf[tl] = '\0';
+        char *end = NULL;
+        errno = 0;
+        double v = strtod(buf, &end);
+        if (end == buf || *end != '\0' || errno == ERANGE || !isfinite(v))
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: '%s' in %s is not a finite number", where, buf, form);
+        if (*nv >= maxv)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: %s takes at most %zu values", where, form, maxv);
+        vals[(*nv)++] = v;
+        i = j + 1;
+        if (j == len)
+            break;
+    }
+    return SL_OK;
+}
+
+int sl_dist_parse(const char *text, const char *key, const char *where, sl_dist *d, sl_err *e)
+{
+    memset(d, 0, sizeof *d);
+    if (where == NULL)
+        where = key ? key : "distribution";
+    const char *s = text ? text : "";
+    while (isspace((unsigned char)*s))
+        s++;
+    size_t n = ident_len(s);
+    const dist_name *dn = find_dist(s, n);
+    if (dn == NULL)
+        SL_FAIL_RETURN(e, SL_EDATA, "%s: '%s' is not a distribution; valid: %s", where, s,
+                       dist_valid_forms);
+    const char *p = s + n;
+    while (isspace((unsigned char)*p))
+        p++;
+    if (*p != '(')
+        SL_FAIL_RETURN(e, SL_EDATA, "%s: expected '(' after '%s'; valid: %s", where, dn->name,
+                       dist_valid_forms);
+    const char *close = strrchr(p, ')');
+    if (close == NULL)
+        SL_FAIL_RETURN(e, SL_EDATA, "%s: missing ')' in '%s'", where, s);
+    for (const char *q = close + 1; *q; q++)
+        if (!isspace((unsigned char)*q))
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: unexpected text '%s' after '%.*s'", where, q,
+                           (int)(close + 1 - s), s);
+    double vals[SL_DIST_MAX_CHOICES];
+    size_t nv = 0;
+    char form[64];
+    switch (dn->kind) {
+    case SL_DIST_UNIFORM: snprintf(form, sizeof form, "uniform(a, b)"); break;
+    case SL_DIST_NORMAL: snprintf(form, sizeof form, "normal(mean, sd)"); break;
+    case SL_DIST_LOGNORMAL: snprintf(form, sizeof form, "lognormal(median, sigma)"); break;
+    case SL_DIST_CHOICE: snprintf(form, sizeof form, "choice(v1, v2, ...)"); break;
+    default: snprintf(form, sizeof form, "flux_angle() or flux_angle(lo, hi)"); break;
+    }
+    SL_TRY_RETURN(e, parse_args(p + 1, (size_t)(close - p - 1), vals, SL_DIST_MAX_CHOICES, &nv,
+                                where, form, e));
+    d->kind = dn->kind;
+    switch (dn->kind) {
+    case SL_DIST_UNIFORM:
+        if (nv != 2)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: %s takes 2 values, got %zu", where, form, nv);
+        if (!(vals[0] < vals[1]))
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: uniform(%g, %g) needs a < b", where, vals[0], vals[1]);
+        break;
+    case SL_DIST_NORMAL:
+        if (nv != 2)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: %s takes 2 values, got %zu", where, form, nv);
+        if (!(vals[1] > 0))
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: normal(%g, %g) needs sd > 0", where, vals[0], vals[1]);
+        break;
+    case SL_DIST_LOGNORMAL:
+        if (nv != 2)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: %s takes 2 values, got %zu", where, form, nv);
+        if (!(vals[0] > 0) || !(vals[1] > 0))
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: lognormal(%g, %g) needs median > 0 and sigma > 0",
+                           where, vals[0], vals[1]);
+        break;
+    case SL_DIST_CHOICE:
+        if (nv < 1)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: %s needs 1 to %d values", where, form,
+                           (int)SL_DIST_MAX_CHOICES);
+        d->values = malloc(nv * sizeof *d->values);
+        if (d->values == NULL)
+            SL_FAIL_RETURN(e, SL_ENOMEM, "%s: out of memory", where);
+        memcpy(d->values, vals, nv * sizeof *vals);
+        d->n_values = nv;
+        break;
+    case SL_DIST_FLUX_ANGLE: {
+        const sl_unit *u = key ? sl_units_for_key(key) : NULL;
+        if (u == NULL || strcmp(u->si_symbol, "rad") != 0)
+            SL_FAIL_RETURN(e, SL_EDATA,
+                           "%s: flux_angle applies only to an angle key (unit _deg); '%s' is not one",
+                           where, key ? key : "?");
+        d->unit_to_rad = u->to_si;
+        if (nv == 0) {
+            vals[0] = 0.0;
+            vals[1] = 0.5 * SL_PI / u->to_si;
+        } else if (nv != 2) {
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: %s takes 0 or 2 values, got %zu", where, form, nv);
+        }
+        double right = 0.5 * SL_PI / u->to_si;
+        if (!(vals[0] >= 0 && vals[0] < vals[1] && vals[1] <= right * (1 + 1e-12)))
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: flux_angle(%g, %g) needs 0 <= lo < hi <= %g %s", where,
+                           vals[0], vals[1], right, u->symbol);
+        if (vals[1] > right)
+            vals[1] = right;
+        break;
+    }
+    default: break;
+    }
+    if (dn->kind != SL_DIST_CHOICE) {
+        d->a = nv > 0 ? vals[0] : 0.0;
+        d->b = nv > 1 ? vals[1] : 0.0;
+        if (dn->kind == SL_DIST_FLUX_ANGLE) {
+            d->a = vals[0];
+            d->b = vals[1];
+        }
+    }
+    return SL_OK;
+}
+
+double sl_dist_quantile(const sl_dist *d, double u)
+{
+    switch (d->kind) {
+    case SL_DIST_FIXED: return d->a;
+    case SL_DIST_UNIFORM: return d->a + u * (d->b - d->a);
+    case SL_DIST_NORMAL: return d->a + d->b * gsl_cdf_ugaussian_Pinv(u);
+    case SL_DIST_LOGNORMAL: return d->a * exp(d->b * gsl_cdf_ugaussian_Pinv(u));
+    case SL_DIST_CHOICE: {
+        size_t k = (size_t)floor(u * (double)d->n_values);
+        if (k >= d->n_values)
+            k = d->n_values - 1;
+        return d->values[k];
+    }
+    case SL_DIST_FLUX_ANGLE: {
+        double slo = sin(d->a * d->unit_to_rad), shi = sin(d->b * d->unit_to_rad);
+        double s2 = slo * slo + u * (shi * shi - slo * slo);
+        if (s2 < 0)
+            s2 = 0;
+        if (s2 > 1)
+            s2 = 1;
+        return asin(sqrt(s2)) / d->unit_to_rad;
+    }
+    }
+    return NAN;
+}
+
+double sl_dist_median(const sl_dist *d)
+{
+    return sl_dist_quantile(d, 0.5);
+}
+
+void sl_dist_describe(const sl_dist *d, char *buf, size_t n)
+{
+    switch (d->kind) {
+    case SL_DIST_FIXED: snprintf(buf, n, "fixed %g", d->a); break;
+    case SL_DIST_UNIFORM: snprintf(buf, n, "uniform(%g, %g)", d->a, d->b); break;
+    case SL_DIST_NORMAL: snprintf(buf, n, "normal(mean %g, sd %g)", d->a, d->b); break;
+    case SL_DIST_LOGNORMAL: snprintf(buf, n, "lognormal(median %g, sigma %g)", d->a, d->b); break;
+    case SL_DIST_CHOICE:
+        if (d->n_values <= 4) {
+            int w = snprintf(buf, n, "choice(");
+            for (size_t i = 0; i < d->n_values && w > 0 && (size_t)w < n; i++)
+                w += snprintf(buf + w, n - (size_t)w, "%s%g", i ? ", " : "", d->values[i]);
+            if (w > 0 && (size_t)w < n)
+                snprintf(buf + w, n - (size_t)w, ")");
+        } else {
+            snprintf(buf, n, "choice of %zu values, %g ... %g", d->n_values, d->values[0],
+                     d->values[d->n_values - 1]);
+        }
+        break;
+    case SL_DIST_FLUX_ANGLE:
+        snprintf(buf, n, "flux_angle(%g, %g): dP = sin 2θ dθ", d->a, d->b);
+        break;
+    }
+}
+
+/* ================================================================ seeding */
+
+uint64_t sl_ens_splitmix64(uint64_t x)
+{
+    uint64_t z = x + UINT64_C(0x9e3779b97f4a7c15);
+    z = (z ^ (z >> 30)) * UINT64_C(0xbf58476d1ce4e5b9);
+    z = (z ^ (z >> 27)) * UINT64_C(0x94d049bb133111eb);
+    return z ^ (z >> 31);
+}
+
+/* MurmurHash3 fmix32: invertible (each step is a bijection on 32 bits). */
+static uint32_t fmix32(uint32_t h)
+{
+    h ^= h >> 16;
+    h *= UINT32_C(0x85ebca6b);
+    h ^= h >> 13;
+    h *= UINT32_C(0xc2b2ae35);
+    h ^= h >> 16;
+    return h;
+}
+
+unsigned long sl_ens_member_seed(uint64_t base_seed, uint64_t member)
+{
+    uint64_t k = sl_ens_splitmix64(base_seed);
+    uint32_t key = (uint32_t)(k ^ (k >> 32));
+    return (unsigned long)fmix32(key + (uint32_t)member);
+}
+
+/* ================================================================ plan */
+
+int sl_ens_plan_add(sl_ens_plan *p, const char *key, double to_si, sl_dist *d, sl_err *e)
+{
+    if (strlen(key) >= SL_ENS_KEY_LEN)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "key '%.40s...' is too long", key);
+    for (size_t i = 0; i < p->n_inputs; i++)
+        if (strcmp(p->inputs[i].key, key) == 0)
+            SL_FAIL_RETURN(e, SL_EUSAGE, "'%s' is given twice", key);
+    sl_ens_input *ni = realloc(p->inputs, (p->n_inputs + 1) * sizeof *ni);
+    if (ni == NULL)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory adding '%s'", key);
+    p->inputs = ni;
+    sl_ens_input *in = &p->inputs[p->n_inputs++];
+    memset(in, 0, sizeof *in);
+    snprintf(in->key, sizeof in->key, "%s", key);
+    in->to_si = to_si;
+    in->dist = *d;
+    memset(d, 0, sizeof *d);
+    return SL_OK;
+}
+
+enum { VARY_MAX_VALUES = 100000 };
+
+int sl_ens_parse_vary(const char *spec, char *key_out, sl_dist *d, sl_err *e)
+{
+    memset(d, 0, sizeof *d);
+    const char *form = "KEY=START:STOP:STEP or KEY=V1,V2,... (KEY as section.key)";
+    const char *eq = strchr(spec, '=');
+    if (eq == NULL || eq == spec)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "--vary '%s': expected %s", spec, form);
+    size_t kl = (size_t)(eq - spec);
+    if (kl >= SL_ENS_KEY_LEN)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "--vary '%s': key too long", spec);
+    memcpy(key_out, spec, kl);
+    key_out[kl] = '\0';
+    if (strchr(key_out, '.') == NULL)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "--vary '%s': key '%s' must be section.key", spec, key_out);
+    const char *v = eq + 1;
+    double *vals = NULL;
+    size_t nv = 0;
+    if (strchr(v, ':') != NULL) {
+        double x[3];
+        const char *s = v;
+        for (int k = 0; k < 3; k++) {
+            char *end = NULL;
+            errno = 0;
+            x[k] = strtod(s, &end);
+            char want = k < 2 ? ':' : '\0';
+            if (end == s || *end != want || errno == ERANGE || !isfinite(x[k]))
+                SL_FAIL_RETURN(e, SL_EUSAGE, "--vary '%s': expected %s", spec, form);
+            s = end + (k < 2);
+        }
+        if (x[2] == 0 || (x[1] - x[0]) * x[2] < 0)
+            SL_FAIL_RETURN(e, SL_EUSAGE,
+                           "--vary '%s': STEP must be non-zero and point from START to STOP", spec);
+        double steps = (x[1] - x[0]) / x[2];
+        if (steps + 1 > VARY_MAX_VALUES)
+            SL_FAIL_RETURN(e, SL_EUSAGE, "--vary '%s': more than %d values", spec, VARY_MAX_VALUES);
+        nv = (size_t)floor(steps + 1e-9) + 1;
+        vals = malloc(nv * sizeof *vals);
+        if (vals == NULL)
+            SL_FAIL_RETURN(e, SL_ENOMEM, "--vary '%s': out of memory", spec);
+        for (size_t i = 0; i < nv; i++)
+            vals[i] = x[0] + (double)i * x[2];
+    } else {
+        size_t cap = 1;
+        for (const char *q = v; *q; q++)
+            cap += *q == ',';
+        if (cap > VARY_MAX_VALUES)
+            SL_FAIL_RETURN(e, SL_EUSAGE, "--vary '%s': more than %d values", spec, VARY_MAX_VALUES);
+        vals = malloc(cap * sizeof *vals);
+        if (vals == NULL)
+            SL_FAIL_RETURN(e, SL_ENOMEM, "--vary '%s': out of memory", spec);
+        const char *s = v;
+        for (;;) {
+            char *end = NULL;
+            errno = 0;
+            double x = strtod(s, &end);
+            while (end && isspace((unsigned char)*end))
+                end++;
+            if (end == s || (*end != ',' && *end != '\0') || errno == ERANGE || !isfinite(x)) {
+                free(vals);
+                SL_FAIL_RETURN(e, SL_EUSAGE, "--vary '%s': expected %s", spec, form);
+            }
+            vals[nv++] = x;
+            if (*end == '\0')
+                break;
+            s = end + 1;
+        }
+    }
+    d->kind = SL_DIST_CHOICE;
+    d->values = vals;
+    d->n_values = nv;
+    return SL_OK;
+}
+
+int sl_ens_plan_finish(sl_ens_plan *p, sl_err *e)
+{
+    if (p->mode == SL_ENS_GRID) {
+        if (p->n_inputs == 0)
+            SL_FAIL_RETURN(e, SL_EUSAGE, "a sweep needs at least one --vary");
+        double total = 1;
+        for (size_t i = 0; i < p->n_inputs; i++) {
+            if (p->inputs[i].dist.kind != SL_DIST_CHOICE)
+                SL_FAIL_RETURN(e, SL_EINTERNAL, "grid input '%s' is not a list", p->inputs[i].key);
+            total *= (double)p->inputs[i].dist.n_values;
+        }
+        if (total > 1e8)
+            SL_FAIL_RETURN(e, SL_EUSAGE, "the grid has %.3g points; at most 1e8", total);
+        p->n_members = (size_t)total;
+    }
+    if (p->mode == SL_ENS_SOBOL && (p->n_inputs < 1 || p->n_inputs > SL_ENS_SOBOL_MAX_DIM))
+        SL_FAIL_RETURN(e, SL_EUSAGE,
+                       "--sobol needs 1 to %d uncertain inputs (gsl_qrng_sobol's limit); the "
+                       "scenario has %zu",
+                       (int)SL_ENS_SOBOL_MAX_DIM, p->n_inputs);
+    if (p->n_members == 0)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "the ensemble has no members");
+    return SL_OK;
+}
+
+void sl_ens_plan_free(sl_ens_plan *p)
+{
+    if (p == NULL)
+        return;
+    for (size_t i = 0; i < p->n_inputs; i++)
+        sl_dist_free(&p->inputs[i].dist);
+    free(p->inputs);
+    memset(p, 0, sizeof *p);
+}
+
+/* ---------------------------------------------------------------- sampling */
+
+static void sample_mc(const sl_ens_plan *p, gsl_rng *r, size_t m, double *x)
+{
+    gsl_rng_set(r, sl_ens_member_seed(p->seed, m));
+    for (size_t k = 0; k < p->n_inputs; k++)
+        x[k] = sl_dist_quantile(&p->inputs[k].dist, gsl_rng_uniform_pos(r));
+}
+
+static void sample_grid(const sl_ens_plan *p, size_t m, double *x)
+{
+    for (size_t k = p->n_inputs; k-- > 0;) {
+        const sl_dist *d = &p->inputs[k].dist;
+        x[k] = d->values[m % d->n_values];
+        m /= d->n_values;
+    }
+}
+
+/* Next Sobol point mapped through the inverse CDFs.  GSL's Sobol points lie
+ * strictly inside (0,1) after the first point (0.5, ...); the clamp guards
+ * the inverse normal against an endpoint. */
+static int sample_sobol_next(const sl_ens_plan *p, gsl_qrng *q, double *u, double *x, sl_err *e)
+{
+    if (gsl_qrng_get(q, u) != 0)
+        SL_FAIL_RETURN(e, SL_ENUMERIC, "gsl_qrng_get failed");
+    for (size_t k = 0; k < p->n_inputs; k++) {
+        double uk = u[k];
+        if (uk <= 0)
+            uk = 0x1p-53;
+        if (uk >= 1)
+            uk = 1 - 0x1p-53;
+        x[k] = sl_dist_quantile(&p->inputs[k].dist, uk);
+    }
+    return SL_OK;
+}
+
+int sl_ens_sample(const sl_ens_plan *p, size_t first, size_t count, double *values, sl_err *e)
+{
+    size_t ni = p->n_inputs;
+    if (p->mode == SL_ENS_GRID) {
+        for (size_t i = 0; i < count; i++)
+            sample_grid(p, first + i, values + i * ni);
+        return SL_OK;
+    }
+    if (p->mode == SL_ENS_MONTE_CARLO) {
+        gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+        if (r == NULL)
+            SL_FAIL_RETURN(e, SL_ENOMEM, "cannot allocate gsl_rng");
+        for (size_t i = 0; i < count; i++)
+            sample_mc(p, r, first + i, values + i * ni);
+        gsl_rng_free(r);
+        return SL_OK;
+    }
+    gsl_qrng *q = gsl_qrng_alloc(gsl_qrng_sobol, (unsigned)ni);
+    double *u = malloc((ni + 1) * sizeof *u);
+    double *skip = malloc((ni + 1) * sizeof *skip);
+    int rc = SL_OK;
+    if (q == NULL || u == NULL || skip == NULL) {
+        rc = sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "cannot allocate the Sobol generator");
+    } else {
+        for (size_t i = 0; i < first && rc == SL_OK; i++)
+            rc = sample_sobol_next(p, q, u, skip, e);
+        for (size_t i = 0; i < count && rc == SL_OK; i++)
+            rc = sample_sobol_next(p, q, u, values + i * ni, e);
+    }
+    free(u);
+    free(skip);
+    if (q)
+        gsl_qrng_free(q);
+    return rc;
+}
+
+/* ================================================================ the member loop */
+
+static double now_s(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+int sl_ens_is_root(void)
+{
+#ifdef SL_HAVE_MPI
+    int init = 0, rank = 0;
+    MPI_Initialized(&init);
+    if (init)
+        MPI_Comm_rank(MPI_COMM_WORLD, &rank);
+    return rank == 0;
+#else
+    return 1;
+#endif
+}
+
+void sl_ens_mpi_begin(void)
+{
+#ifdef SL_HAVE_MPI
+    int init = 0, provided = 0;
+    MPI_Initialized(&init);
+    if (!init)
+        MPI_Init_thread(NULL, NULL, MPI_THREAD_FUNNELED, &provided);
+#endif
+}
+
+void sl_ens_mpi_end(void)
+{
+#ifdef SL_HAVE_MPI
+    int init = 0, fin = 0;
+    MPI_Initialized(&init);
+    MPI_Finalized(&fin);
+    if (init && !fin)
+        MPI_Finalize();
+#endif
+}
+
+int sl_ens_share_stdin(char **text, size_t max_bytes, sl_err *e)
+{
+    *text = NULL;
+#ifdef SL_HAVE_MPI
+    int init = 0, size = 1, rank = 0;
+    MPI_Initialized(&init);
+    if (init) {
+        MPI_Comm_size(MPI_COMM_WORLD, &size);
+        MPI_Comm_rank(MPI_COMM_WORLD, &rank);
+    }
+    if (size < 2)
+        return SL_OK;
+    /* hdr[0] status, hdr[1] length */
+    long long hdr[2] = {SL_OK, 0};
+    char *buf = NULL;
+    if (rank == 0) {
+        buf = malloc(max_bytes + 2);
+        if (buf == NULL) {
+            hdr[0] = SL_ENOMEM;
+        } else {
+            size_t n = fread(buf, 1, max_bytes + 1, stdin);
+            if (ferror(stdin))
+                hdr[0] = SL_EIO;
+            else if (n > max_bytes)
+                hdr[0] = SL_ECONFIG;
+            hdr[1] = (long long)n;
+        }
+    }
+    MPI_Bcast(hdr, 2, MPI_LONG_LONG, 0, MPI_COMM_WORLD);
+    if (hdr[0] != SL_OK) {
+        free(buf);
+        SL_FAIL_RETURN(e, (int)hdr[0], "<stdin>: %s", hdr[0] == SL_EIO ? "read error"
+                       : hdr[0] == SL_ECONFIG ? "too large for a scenario file" : "out of memory");
+    }
+    size_t n = (size_t)hdr[1];
+    if (rank != 0) {
+        buf = malloc(n + 1);
+        if (buf == NULL)
+            MPI_Abort(MPI_COMM_WORLD, 71); /* cannot take part in the collective any more */
+    }
+    MPI_Bcast(buf, (int)n, MPI_CHAR, 0, MPI_COMM_WORLD);
+    buf[n] = '\0';
+    *text = buf;
+#else
+    (void)max_bytes;
+    (void)e;
+#endif
+    return SL_OK;
+}
+
+int sl_ens_agree(int status, sl_err *e)
+{
+#ifdef SL_HAVE_MPI
+    int init = 0, size = 1;
+    MPI_Initialized(&init);
+    if (init)
+        MPI_Comm_size(MPI_COMM_WORLD, &size);
+    if (size > 1) {
+        int worst = status;
+        MPI_Allreduce(&status, &worst, 1, MPI_INT, MPI_MAX, MPI_COMM_WORLD);
+        if (status == SL_OK && worst != SL_OK)
+            return sl_err_set(e, worst, __func__, __LINE__, "another MPI rank failed (%s)",
+                              sl_err_name(worst));
+        return worst == SL_OK ? SL_OK : status;
+    }
+#else
+    (void)e;
+#endif
+    return status;
+}
+
+void sl_ens_result_free(sl_ens_result *r)
+{
+    if (r == NULL)
+        return;
+    free(r->inputs);
+    free(r->outputs);
+    free(r->status);
+    memset(r, 0, sizeof *r);
+}
+
+/* Everything one run allocates, so one cleanup path frees it. */
+typedef struct run_mem {
+    int n_threads;
+    void **ws;
+    gsl_rng **rng;
+    double *si;        /* n_threads x n_inputs */
+    gsl_qrng *qrng;
+    double *qu;        /* Sobol point */
+    double *blk_in;    /* block x n_inputs (Sobol/grid, all members of the block) */
+    double *lin, *lout;
+    int *lst;
+    char *lreason;
+    double *gin, *gout; /* root: gathered block */
+    int *gst;
+    char *greason;
+    int *cnt, *displ;   /* MPI */
+} run_mem;
+
+static void run_mem_free(run_mem *rm, const sl_ens_model *m)
+{
+    if (rm->ws)
+        for (int t = 0; t < rm->n_threads; t++)
+            if (rm->ws[t] && m->ws_free)
+                m->ws_free(rm->ws[t]);
+    if (rm->rng)
+        for (int t = 0; t < rm->n_threads; t++)
+            if (rm->rng[t])
+                gsl_rng_free(rm->rng[t]);
+    if (rm->qrng)
+        gsl_qrng_free(rm->qrng);
+    free(rm->ws);
+    free(rm->rng);
+    free(rm->si);
+    free(rm->qu);
+    free(rm->blk_in);
+    free(rm->lin);
+    free(rm->lout);
+    free(rm->lst);
+    free(rm->lreason);
+    if (rm->gin != rm->lin)
+        free(rm->gin);
+    if (rm->gout != rm->lout)
+        free(rm->gout);
+    if (rm->gst != rm->lst)
+        free(rm->gst);
+    if (rm->greason != rm->lreason)
+        free(rm->greason);
+    free(rm->cnt);
+    free(rm->displ);
+    memset(rm, 0, sizeof *rm);
+}
+
+/* Number of members of a block of COUNT starting at FIRST that rank R of
+ * SIZE owns (member m belongs to rank m % size), and the block offset of its
+ * first one. */
+static size_t rank_share(size_t first, size_t count, int r, int size, size_t *i0)
+{
+    size_t s = (size_t)size;
+    *i0 = ((size_t)r + s - first % s) % s;
+    return count > *i0 ? (count - *i0 + s - 1) / s : 0;
+}
+
+/* Run one member into its slot. */
+static void run_one(const sl_ens_plan *p, const sl_ens_model *m, void *ws, double *si,
+                    const double *in, double *out, int *st, char *reason)
+{
+    size_t ni = p->n_inputs, no = m->n_outputs;
+    for (size_t k = 0; k < ni; k++)
+        si[k] = in[k] * p->inputs[k].to_si;
+    sl_err me;
+    sl_err_clear(&me);
+    int rc = m->member(ws, m->ctx, p, si, out, &me);
+    reason[0] = '\0';
+    if (rc == SL_OK) {
+        for (size_t j = 0; j < no; j++) {
+            if (!isfinite(out[j]) && !(m->outputs[j].may_be_missing && isnan(out[j]))) {
+                rc = SL_ENUMERIC;
+                snprintf(reason, SL_ENS_REASON_LEN, "output %s is not finite",
+                         m->outputs[j].name);
+                break;
+            }
+        }
+    } else {
+        const char *msg = me.msg[0] ? me.msg : sl_err_name(rc);
+        size_t len = strlen(msg);
+        if (len > SL_ENS_REASON_LEN - 1)
+            len = SL_ENS_REASON_LEN - 1;
+        memcpy(reason, msg, len);
+        reason[len] = '\0';
+    }
+    if (rc != SL_OK)
+        for (size_t j = 0; j < no; j++)
+            out[j] = NAN;
+    *st = rc;
+}
+
+#define SETUP_FAIL(code, ...)                                                \
+    do {                                                                     \
+        rc = sl_err_set(e, (code), __func__, __LINE__, __VA_ARGS__);         \
+        goto setup_sync;                                                     \
+    } while (0)
+
+#define RUN_FAIL(code, ...)                                                  \
+    do {                                                                     \
+        rc = sl_err_set(e, (code), __func__, __LINE__, __VA_ARGS__);         \
+        goto done;                                                           \
+    } while (0)
+
+int sl_ens_run(const sl_ens_plan *p, const sl_ens_model *m, const sl_ens_run_opts *o,
+               sl_ens_result *r, sl_err *e)
+{
+    memset(r, 0, sizeof *r);
+    run_mem rm;
+    memset(&rm, 0, sizeof rm);
+    int rc = SL_OK;
+    int rank = 0, size = 1;
+#ifdef SL_HAVE_MPI
+    int mpi_init = 0;
+    MPI_Initialized(&mpi_init);
+    if (mpi_init) {
+        MPI_Comm_rank(MPI_COMM_WORLD, &rank);
+        MPI_Comm_size(MPI_COMM_WORLD, &size);
+    }
+#endif
+    const size_t ni = p->n_inputs, no = m->n_outputs, n = p->n_members;
+    const size_t B = o && o->block ? o->block : 256;
+    int nt = o && o->n_threads > 0 ? o->n_threads : 1;
+#ifdef _OPENMP
+    if (!(o && o->n_threads > 0))
+        nt = omp_get_max_threads();
+#else
+    nt = 1;
+#endif
+    rm.n_threads = nt;
+    rm.ws = calloc((size_t)nt, sizeof *rm.ws);
+    rm.rng = calloc((size_t)nt, sizeof *rm.rng);
+    rm.si = malloc(((size_t)nt * ni + 1) * sizeof *rm.si);
+    if (!rm.ws || !rm.rng || !rm.si)
+        SETUP_FAIL(SL_ENOMEM, "out of memory for %d thread workspaces", nt);
+    /* Workspaces and generators: one per thread, made here, never in the loop. */
+    for (int t = 0; t < nt; t++) {
+        if (m->ws_new) {
+            rm.ws[t] = m->ws_new(m->ctx, e);
+            if (rm.ws[t] == NULL) {
+                rc = e && e->code != SL_OK ? e->code : SL_ENOMEM;
+                sl_err_push(e, rc, __func__, __LINE__);
+                goto setup_sync;
+            }
+        }
+        if (p->mode == SL_ENS_MONTE_CARLO) {
+            rm.rng[t] = gsl_rng_alloc(gsl_rng_mt19937);
+            if (rm.rng[t] == NULL)
+                SETUP_FAIL(SL_ENOMEM, "cannot allocate gsl_rng");
+        }
+    }
+    if (p->mode == SL_ENS_SOBOL) {
+        if (ni < 1 || ni > SL_ENS_SOBOL_MAX_DIM)
+            SETUP_FAIL(SL_EUSAGE, "Sobol dimension %zu outside 1..%d", ni, (int)SL_ENS_SOBOL_MAX_DIM);
+        rm.qrng = gsl_qrng_alloc(gsl_qrng_sobol, (unsigned)ni);
+        rm.qu = malloc(ni * sizeof *rm.qu);
+        if (!rm.qrng || !rm.qu)
+            SETUP_FAIL(SL_ENOMEM, "cannot allocate the Sobol generator");
+    }
+    if (p->mode != SL_ENS_MONTE_CARLO) {
+        rm.blk_in = malloc((B * ni + 1) * sizeof *rm.blk_in);
+        if (!rm.blk_in)
+            SETUP_FAIL(SL_ENOMEM, "out of memory for a block of inputs");
+    }
+    size_t lcap = B / (size_t)size + 1;
+    rm.lin = malloc((lcap * ni + 1) * sizeof *rm.lin);
+    rm.lout = malloc((lcap * no + 1) * sizeof *rm.lout);
+    rm.lst = malloc(lcap * sizeof *rm.lst);
+    rm.lreason = malloc(lcap * SL_ENS_REASON_LEN);
+    if (!rm.lin || !rm.lout || !rm.lst || !rm.lreason)
+        SETUP_FAIL(SL_ENOMEM, "out of memory for a block of members");
+    if (size == 1) {
+        rm.gin = rm.lin;
+        rm.gout = rm.lout;
+        rm.gst = rm.lst;
+        rm.greason = rm.lreason;
+    } else if (rank == 0) {
+        rm.gin = malloc((B * ni + 1) * sizeof *rm.gin);
+        rm.gout = malloc((B * no + 1) * sizeof *rm.gout);
+        rm.gst = malloc(B * sizeof *rm.gst);
+        rm.greason = malloc(B * SL_ENS_REASON_LEN);
+        rm.cnt = malloc((size_t)size * sizeof *rm.cnt);
+        rm.displ = malloc((size_t)size * sizeof *rm.displ);
+        if (!rm.gin || !rm.gout || !rm.gst || !rm.greason || !rm.cnt || !rm.displ)
+            SETUP_FAIL(SL_ENOMEM, "out of memory for the gathered block");
+    }
+    if (rank == 0) {
+        if (n > (size_t)-1 / sizeof(double) / (ni + no + 1))
+            SETUP_FAIL(SL_ENOMEM, "%zu members are too many for memory", n);
+        r->inputs = malloc((n * ni + 1) * sizeof *r->inputs);
+        r->outputs = malloc((n * no + 1) * sizeof *r->outputs);
+        r->status = malloc(n * sizeof *r->status);
+        if (!r->inputs || !r->outputs || !r->status)
+            SETUP_FAIL(SL_ENOMEM, "out of memory keeping the scalars of %zu members", n);
+        r->n_members = n;
+        r->n_inputs = ni;
+        r->n_outputs = no;
+    }
+    r->mpi_ranks = size;
+    r->threads = nt;
+
+setup_sync:
+#ifdef SL_HAVE_MPI
+    if (size > 1) {
+        int ok = rc == SL_OK, all = 0;
+        MPI_Allreduce(&ok, &all, 1, MPI_INT, MPI_MIN, MPI_COMM_WORLD);
+        if (!all && rc == SL_OK)
+            rc = sl_err_set(e, SL_EINTERNAL, __func__, __LINE__,
+                            "another MPI rank could not set up its workspaces");
+    }
+#endif
+    if (rc != SL_OK)
+        goto done;
+
+    sl_ens_progress pg;
+    sl_ens_progress_start(&pg, n, rank == 0 && o && o->progress);
+    double t0 = now_s();
+    for (size_t first = 0; first < n; first += B) {
+        size_t count = n - first < B ? n - first : B;
+        /* Sobol points are sequential: every rank generates the block's points
+         * in member order; grid points are computed from the index. */
+        if (p->mode == SL_ENS_SOBOL) {
+            for (size_t i = 0; i < count; i++) {
+                rc = sample_sobol_next(p, rm.qrng, rm.qu, rm.blk_in + i * ni, e);
+                if (rc != SL_OK)
+                    goto done;
+            }
+        } else if (p->mode == SL_ENS_GRID) {
+            for (size_t i = 0; i < count; i++)
+                sample_grid(p, first + i, rm.blk_in + i * ni);
+        }
+        size_t i0 = 0;
+        size_t nl = rank_share(first, count, rank, size, &i0);
+        const sl_ens_plan *pp = p;
+        const sl_ens_model *mm = m;
+        run_mem *rmp = &rm;
+        const size_t stride = (size_t)size;
+#pragma omp parallel for schedule(dynamic, 1) num_threads(nt) default(none) \
+    shared(pp, mm, rmp, nl, i0, first, stride, ni, no)
+        for (size_t li = 0; li < nl; li++) {
+            int t = 0;
+#ifdef _OPENMP
+            t = omp_get_thread_num();
+#endif
+            size_t i = i0 + li * stride;
+            double *in = rmp->lin + li * ni;
+            if (pp->mode == SL_ENS_MONTE_CARLO)
+                sample_mc(pp, rmp->rng[t], first + i, in);
+            else
+                memcpy(in, rmp->blk_in + i * ni, ni * sizeof *in);
+            run_one(pp, mm, rmp->ws[t], rmp->si + (size_t)t * ni, in, rmp->lout + li * no,
+                    &rmp->lst[li], rmp->lreason + li * SL_ENS_REASON_LEN);
+        }
+#ifdef SL_HAVE_MPI
+        if (size > 1) {
+            /* Gather rank-major: rank k's members, in member order, at displ[k]. */
+            int mult[4] = {(int)ni, (int)no, 1, SL_ENS_REASON_LEN};
+            void *sendb[4] = {rm.lin, rm.lout, rm.lst, rm.lreason};
+            void *recvb[4] = {rm.gin, rm.gout, rm.gst, rm.greason};
+            MPI_Datatype ty[4] = {MPI_DOUBLE, MPI_DOUBLE, MPI_INT, MPI_CHAR};
+            for (int a = 0; a < 4; a++) {
+                if (rank == 0) {
+                    int off = 0;
+                    for (int k = 0; k < size; k++) {
+                        size_t ki0;
+                        rm.cnt[k] = (int)rank_share(first, count, k, size, &ki0) * mult[a];
+                        rm.displ[k] = off;
+                        off += rm.cnt[k];
+                    }
+                }
+                MPI_Gatherv(sendb[a], (int)nl * mult[a], ty[a], recvb[a], rm.cnt, rm.displ, ty[a], 0,
+                            MPI_COMM_WORLD);
+            }
+        }
+#endif
+        int go_on = 1;
+        if (rank == 0) {
+            /* Serial, in member order: keep scalars, stream rows. */
+            for (size_t i = 0; i < count && rc == SL_OK; i++) {
+                size_t k = (first + i) % (size_t)size, ki0;
+                size_t off = 0;
+                for (size_t q = 0; q < k; q++)
+                    off += rank_share(first, count, (int)q, size, &ki0);
+                rank_share(first, count, (int)k, size, &ki0);
+                size_t g = off + (i - ki0) / (size_t)size;
+                const double *in = rm.gin + g * ni;
+                const double *out = rm.gout + g * no;
+                int st = rm.gst[g];
+                const char *reason = rm.greason + g * SL_ENS_REASON_LEN;
+                size_t mi = first + i;
+                memcpy(r->inputs + mi * ni, in, ni * sizeof *in);
+                memcpy(r->outputs + mi * no, out, no * sizeof *out);
+                r->status[mi] = st;
+                if (st != SL_OK) {
+                    if (r->n_failed == 0) {
+                        snprintf(r->first_failure, sizeof r->first_failure, "%s", reason);
+                        r->first_failed_member = mi;
+                    }
+                    r->n_failed++;
+                }
+                if (o && o->row)
+                    rc = o->row(o->sink, mi, in, out, st, reason, e);
+            }
+            go_on = rc == SL_OK;
+            sl_ens_progress_update(&pg, first + count);
+        }
+#ifdef SL_HAVE_MPI
+        if (size > 1)
+            MPI_Bcast(&go_on, 1, MPI_INT, 0, MPI_COMM_WORLD);
+#endif
+        if (!go_on) {
+            if (rc == SL_OK)
+                RUN_FAIL(SL_EIO, "rank 0 stopped the run (writing its output failed)");
+            goto done;
+        }
+    }
+    sl_ens_progress_end(&pg);
+    r->wall_s = now_s() - t0;
+    if (rank != 0)
+        r->n_members = 0;
+done:
+    run_mem_free(&rm, m);
+    if (rc != SL_OK) {
+        int ranks = r->mpi_ranks;
+        sl_ens_result_free(r);
+        r->mpi_ranks = ranks;
+    }
+    return rc;
+}
+
+/* ================================================================ statistics */
+
+/* Copy output j of the successful members into buf (member order). */
+static size_t gather_ok(const sl_ens_result *r, size_t j, double *buf)
+{
+    size_t k = 0;
+    for (size_t m = 0; m < r->n_members; m++)
+        if (r->status[m] == SL_OK && isfinite(r->outputs[m * r->n_outputs + j]))
+            buf[k++] = r->outputs[m * r->n_outputs + j];
+    return k;
+}
+
+int sl_ens_percentiles(const sl_ens_result *r, size_t j, const double *pct, size_t np,
+                       double *vals, size_t *n_ok, sl_err *e)
+{
+    for (size_t k = 0; k < np; k++)
+        if (!(pct[k] >= 0 && pct[k] <= 100))
+            SL_FAIL_RETURN(e, SL_EUSAGE, "percentile %g is outside 0..100", pct[k]);
+    double *buf = malloc((r->n_members + 1) * sizeof *buf);
+    if (buf == NULL)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory sorting %zu members", r->n_members);
+    size_t n = gather_ok(r, j, buf);
+    gsl_sort(buf, 1, n);
+    for (size_t k = 0; k < np; k++)
+        vals[k] = n ? gsl_stats_quantile_from_sorted_data(buf, 1, n, pct[k] / 100.0) : NAN;
+    free(buf);
+    *n_ok = n;
+    return SL_OK;
+}
+
+void sl_ens_mean_sd(const sl_ens_result *r, size_t j, double *mean, double *sd, size_t *n_ok)
+{
+    double s = 0;
+    size_t n = 0;
+    for (size_t m = 0; m < r->n_members; m++)
+        if (r->status[m] == SL_OK && isfinite(r->outputs[m * r->n_outputs + j])) {
+            s += r->outputs[m * r->n_outputs + j];
+            n++;
+        }
+    double mu = n ? s / (double)n : NAN, ss = 0;
+    for (size_t m = 0; m < r->n_members; m++)
+        if (r->status[m] == SL_OK && isfinite(r->outputs[m * r->n_outputs + j])) {
+            double d = r->outputs[m * r->n_outputs + j] - mu;
+            ss += d * d;
+        }
+    *mean = mu;
+    *sd = n > 1 ? sqrt(ss / (double)(n - 1)) : NAN;
+    *n_ok = n;
+}
+
+int sl_ens_parse_threshold(const char *spec, sl_ens_threshold *t, sl_err *e)
+{
+    const char *form = "NAME>VALUE, NAME>=VALUE, NAME<VALUE or NAME<=VALUE";
+    const char *o = strpbrk(spec, "<>");
+    if (o == NULL || o == spec)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "--exceed '%s': expected %s", spec, form);
+    size_t nl = (size_t)(o - spec);
+    while (nl > 0 && isspace((unsigned char)spec[nl - 1]))
+        nl--;
+    if (nl == 0 || nl >= sizeof t->name)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "--exceed '%s': expected %s", spec, form);
+    memcpy(t->name, spec, nl);
+    t->name[nl] = '\0';
+    const char *v = o + 1;
+    if (*v == '=') {
+        t->op = *o == '>' ? 'g' : 'l';
+        v++;
+    } else {
+        t->op = *o;
+    }
+    char *end = NULL;
+    errno = 0;
+    t->value = strtod(v, &end);
+    if (end == v || errno == ERANGE || !isfinite(t->value))
+        SL_FAIL_RETURN(e, SL_EUSAGE, "--exceed '%s': '%s' is not a finite number", spec, v);
+    while (isspace((unsigned char)*end))
+        end++;
+    if (*end != '\0')
+        SL_FAIL_RETURN(e, SL_EUSAGE, "--exceed '%s': unexpected '%s'", spec, end);
+    return SL_OK;
+}
+
+void sl_ens_exceedance(const sl_ens_result *r, size_t j, const sl_ens_threshold *t, double *p,
+                       double *stderr_p, size_t *n_ok)
+{
+    size_t n = 0, k = 0;
+    for (size_t m = 0; m < r->n_members; m++) {
+        double x = r->outputs[m * r->n_outputs + j];
+        if (r->status[m] != SL_OK || !isfinite(x))
+            continue;
+        int hit = t->op == '>' ? x > t->value
+                  : t->op == 'g' ? x >= t->value
+                  : t->op == '<' ? x < t->value
+                                 : x <= t->value;
+        k += (size_t)hit;
+        n++;
+    }
+    *n_ok = n;
+    *p = n ? (double)k / (double)n : NAN;
+    *stderr_p = n ? sqrt(*p * (1 - *p) / (double)n) : NAN;
+}
+
+int sl_ens_spearman(const sl_ens_result *r, size_t i, size_t j, double *rho, sl_err *e)
+{
+    size_t nm = r->n_members;
+    double *buf = malloc((4 * nm + 1) * sizeof *buf);
+    if (buf == NULL)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory ranking %zu members", nm);
+    double *x = buf, *y = buf + nm, *w = buf + 2 * nm;
+    size_t n = 0;
+    int xconst = 1, yconst = 1;
+    for (size_t m = 0; m < nm; m++) {
+        if (r->status[m] != SL_OK || !isfinite(r->outputs[m * r->n_outputs + j]))
+            continue;
+        x[n] = r->inputs[m * r->n_inputs + i];
+        y[n] = r->outputs[m * r->n_outputs + j];
+        if (n > 0) {
+            xconst &= x[n] == x[0];
+            yconst &= y[n] == y[0];
+        }
+        n++;
+    }
+    *rho = (n < 3 || xconst || yconst) ? NAN : gsl_stats_spearman(x, 1, y, 1, n, w);
+    free(buf);
+    return SL_OK;
+}
+
+int sl_ens_first_order(const sl_ens_result *r, size_t i, size_t j, double *s1, sl_err *e)
+{
+    size_t nm = r->n_members;
+    *s1 = NAN;
+    double *x = malloc((2 * nm + 1) * sizeof *x);
+    size_t *ord = malloc((nm + 1) * sizeof *ord);
+    if (x == NULL || ord == NULL) {
+        free(x);
+        free(ord);
+        SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory ranking %zu members", nm);
+    }
+    double *y = x + nm;
+    size_t n = 0;
+    for (size_t m = 0; m < nm; m++) {
+        double v = r->outputs[m * r->n_outputs + j];
+        if (r->status[m] != SL_OK || !isfinite(v))
+            continue;
+        x[n] = r->inputs[m * r->n_inputs + i];
+        y[n] = v;
+        n++;
+    }
+    if (n >= 20) {
+        double mean = 0, var = 0;
+        for (size_t k = 0; k < n; k++)
+            mean += y[k];
+        mean /= (double)n;
+        for (size_t k = 0; k < n; k++)
+            var += (y[k] - mean) * (y[k] - mean);
+        if (var > 0) {
+            gsl_sort_index(ord, x, 1, n);
+            size_t nclass = (size_t)floor(sqrt((double)n)), used = 0;
+            double between = 0;
+            size_t start = 0;
+            for (size_t c = 1; start < n; c++) {
+                size_t end = c >= nclass ? n : (size_t)((double)c * (double)n / (double)nclass);
+                if (end <= start)
+                    end = start + 1;
+                /* Keep equal input values (choice, grids) in one class. */
+                while (end < n && x[ord[end]] == x[ord[end - 1]])
+                    end++;
+                double cm = 0;
+                for (size_t k = start; k < end; k++)
+                    cm += y[ord[k]];
+                cm /= (double)(end - start);
+                between += (double)(end - start) * (cm - mean) * (cm - mean);
+                used++;
+                start = end;
+            }
+            double raw = between / var;
+            double b = (double)(used - 1) / (double)(n - 1);
+            *s1 = used > 1 ? (raw - b) / (1 - b) : NAN; /* one class: a constant input */
+        }
+    }
+    free(x);
+    free(ord);
+    return SL_OK;
+}
+
+/* A value and its member, sorted by value then member (a total order, so
+ * the result does not depend on the sort algorithm). */
+typedef struct keyed {
+    double v;
+    size_t m;
+} keyed;
+
+static int keyed_cmp(const void *pa, const void *pb)
+{
+    const keyed *a = pa, *b = pb;
+    if (a->v < b->v)
+        return -1;
+    if (a->v > b->v)
+        return 1;
+    return (a->m > b->m) - (a->m < b->m);
+}
+
+/* ORDER[0..n-1] = the members M[k] sorted by value V[k] (ties by member). */
+static void sort_members(keyed *work, const double *v, const size_t *mem, size_t n, size_t *order)
+{
+    for (size_t k = 0; k < n; k++) {
+        work[k].v = v[k];
+        work[k].m = mem ? mem[k] : k;
+    }
+    qsort(work, n, sizeof *work, keyed_cmp);
+    for (size_t k = 0; k < n; k++)
+        order[k] = work[k].m;
+}
+
+/* Average ranks (1-based) of the NS members listed in ORDERED (sorted by
+ * value VAL[member]), written to RANK[member]; ties share their mean rank. */
+static void average_ranks(const size_t *ordered, size_t ns, const double *val, size_t stride,
+                          size_t off, double *rank)
+{
+    size_t a = 0;
+    while (a < ns) {
+        size_t b = a + 1;
+        while (b < ns && val[ordered[b] * stride + off] == val[ordered[a] * stride + off])
+            b++;
+        double mean_rank = 0.5 * (double)(a + 1 + b); /* mean of a+1 .. b */
+        for (size_t k = a; k < b; k++)
+            rank[ordered[k]] = mean_rank;
+        a = b;
+    }
+}
+
+int sl_ens_sensitivity(const sl_ens_result *r, double *rho, double *s1, sl_err *e)
+{
+    size_t n = r->n_members, ni = r->n_inputs, no = r->n_outputs;
+    for (size_t q = 0; q < ni * no; q++) {
+        if (rho)
+            rho[q] = NAN;
+        if (s1)
+            s1[q] = NAN;
+    }
+    if (n == 0 || ni == 0 || no == 0)
+        return SL_OK;
+    size_t *gord = malloc(ni * n * sizeof *gord);
+    size_t *sub = malloc(n * sizeof *sub), *ford = malloc(n * sizeof *ford);
+    size_t *yord = malloc(n * sizeof *yord);
+    double *col = malloc(n * sizeof *col), *rx = malloc(n * sizeof *rx), *ry = malloc(n * sizeof *ry);
+    unsigned char *in = malloc(n);
+    keyed *work = malloc(n * sizeof *work);
+    int rc = SL_OK;
+    if (!gord || !sub || !ford || !yord || !col || !rx || !ry || !in || !work) {
+        rc = sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "out of memory ranking %zu members", n);
+        goto out;
+    }
+    /* Each input sorted once over all members. */
+    for (size_t i = 0; i < ni; i++) {
+        for (size_t m = 0; m < n; m++)
+            col[m] = r->inputs[m * ni + i];
+        sort_members(work, col, NULL, n, gord + i * n);
+    }
+    for (size_t j = 0; j < no; j++) {
+        /* The members this output's statistics use, in member order. */
+        size_t ns = 0;
+        double mean = 0, var = 0;
+        for (size_t m = 0; m < n; m++) {
+            double y = r->outputs[m * no + j];
+            in[m] = r->status[m] == SL_OK && isfinite(y);
+            if (in[m]) {
+                sub[ns++] = m;
+                mean += y;
+            }
+        }
+        if (ns < 3)
+            continue;
+        mean /= (double)ns;
+        for (size_t k = 0; k < ns; k++) {
+            double d = r->outputs[sub[k] * no + j] - mean;
+            var += d * d;
+        }
+        /* Output ranks over the subset. */
+        for (size_t k = 0; k < ns; k++)
+            col[k] = r->outputs[sub[k] * no + j];
+        sort_members(work, col, sub, ns, yord);
+        average_ranks(yord, ns, r->outputs, no, j, ry);
+        int yconst = r->outputs[yord[0] * no + j] == r->outputs[yord[ns - 1] * no + j];
+        double mr = 0.5 * (double)(ns + 1);
+        for (size_t i = 0; i < ni; i++) {
+            /* This input's order restricted to the subset. */
+            size_t nf = 0;
+            for (size_t k = 0; k < n; k++) {
+                size_t m = gord[i * n + k];
+                if (in[m])
+                    ford[nf++] = m;
+            }
+            int xconst = r->inputs[ford[0] * ni + i] == r->inputs[ford[nf - 1] * ni + i];
+            if (rho && !xconst && !yconst) {
+                average_ranks(ford, nf, r->inputs, ni, i, rx);
+                double sxy = 0, sxx = 0, syy = 0;
+                for (size_t k = 0; k < ns; k++) {
+                    double dx = rx[sub[k]] - mr, dy = ry[sub[k]] - mr;
+                    sxy += dx * dy;
+                    sxx += dx * dx;
+                    syy += dy * dy;
+                }
+                rho[j * ni + i] = sxy / sqrt(sxx * syy);
+            }
+            /* First-order share: classes of equal count along this order. */
+            if (s1 && ns >= 20 && var > 0 && !xconst) {
+                size_t nclass = (size_t)floor(sqrt((double)ns)), used = 0, start = 0;
+                double between = 0;
+                for (size_t c = 1; start < ns; c++) {
+                    size_t end = c >= nclass ? ns : (size_t)((double)c * (double)ns / (double)nclass);
+                    if (end <= start)
+                        end = start + 1;
+                    while (end < ns && r->inputs[ford[end] * ni + i] == r->inputs[ford[end - 1] * ni + i])
+                        end++;
+                    double cm = 0;
+                    for (size_t k = start; k < end; k++)
+                        cm += r->outputs[ford[k] * no + j];
+                    cm /= (double)(end - start);
+                    between += (double)(end - start) * (cm - mean) * (cm - mean);
+                    used++;
+                    start = end;
+                }
+                double b = (double)(used - 1) / (double)(ns - 1);
+                s1[j * ni + i] = used > 1 ? (between / var - b) / (1 - b) : NAN;
+            }
+        }
+    }
+out:
+    free(gord);
+    free(sub);
+    free(ford);
+    free(yord);
+    free(col);
+    free(rx);
+    free(ry);
+    free(in);
+    free(work);
+    return rc;
+}
+
+/* ================================================================ progress bar */
+
+void sl_ens_progress_start(sl_ens_progress *pg, size_t total, int enable)
+{
+    pg->enabled = enable != 0;
+    pg->total = total;
+    pg->start_s = now_s();
+    pg->last_draw_s = -1;
+}
+
+void sl_ens_progress_update(sl_ens_progress *pg, size_t done)
+{
+    if (!pg->enabled)
+        return;
+    double t = now_s();
+    if (done < pg->total && pg->last_draw_s >= 0 && t - pg->last_draw_s < 0.1)
+        return;
+    pg->last_draw_s = t;
+    double el = t - pg->start_s;
+    double frac = pg->total ? (double)done / (double)pg->total : 1.0;
+    double rate = el > 0 ? (double)done / el : 0;
+    double left = rate > 0 ? (double)(pg->total - done) / rate : 0;
+    char bar[31];
+    int fill = (int)(frac * 30.0);
+    for (int k = 0; k < 30; k++)
+        bar[k] = k < fill ? '#' : '.';
+    bar[30] = '\0';
+    long ls = (long)(left + 0.5);
+    fprintf(stderr, "\r[%s] %3d%%  %zu/%zu  %.1f/s  left %ld:%02ld:%02ld ", bar,
+            (int)(frac * 100.0), done, pg->total, rate, ls / 3600, (ls / 60) % 60, ls % 60);
+    fflush(stderr);
+}
+
+void sl_ens_progress_end(sl_ens_progress *pg)
+{
+    if (pg->enabled && pg->last_draw_s >= 0) {
+        fputc('\n', stderr);
+        fflush(stderr);
+    }
+    pg->enabled = 0;
+}
