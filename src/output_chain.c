@@ -76,7 +76,8 @@ int sl_output_chain_init(sl_output_chain *oc, const sl_chain *ch, const sl_strat
             snprintf(oc->regime_note, sizeof oc->regime_note,
                      "blow-out regime: the fireball is larger than the atmosphere's scale height or "
                      "the thermal left the profile, so it is not a buoyant thermal; the water is "
-                     "placed by the simple blow-out rule (a lower bound on its height)");
+                     "placed by the simple blow-out rule (the thermal equations followed anyway, "
+                     "reach clipped at the profile top): the roughest numbers of this tool");
     }
 
     const sl_output_series *series = NULL;

@@ -84,17 +84,21 @@
  *
  * Regime.  When the initial radius (the source's, or the radius its gas would
  * fill at ambient pressure when that is larger) exceeds the scale height
- * H = p/(rho g) at the source, the release is not a thermal in an atmosphere
- * (it blows out of it).  Then no rise is computed: the water is placed
- * uniformly over the fireball's own vertical extent [z - r, z + r] (clipped
- * to the bands; r the source's radius when it gives one), the
- * regime is marked "blow-out" and the freeze-out applies as usual.  This rule
- * is a transparent lower bound on the height (blow-out material rises
- * higher); results in this regime are flagged everywhere.  A thermal whose
- * centre reaches the top of the atmosphere profile is marked the same way and
- * its water placed in the layer of its radius below the profile top; one
- * whose top (apex + radius) reaches past the profile top keeps the cloud rule
- * (clipped into the bands) but is marked blow-out too.  Each thermal also
+ * H = p/(rho g) at the source, the release is not a thermal in an atmosphere:
+ * it blows out of it.  The regime is then marked "blow-out" (in every output)
+ * and the water is placed by the simple rule that follows.  The release is
+ * still followed with the thermal equations above, which is the best estimate
+ * this model has of how high the buoyant gas goes; a thermal whose centre
+ * reaches the top of the atmosphere profile stops there and its water fills
+ * the layer of its radius below the profile top; one whose top (apex +
+ * radius) passes the profile top keeps the cloud rule, its reach clipped at
+ * the profile top, and is marked blow-out too.  An earlier rule placed a
+ * blown-out release over its own initial extent [z - r, z + r] without any
+ * rise; that made stratospheric water fall by six orders of magnitude when a
+ * sea plume crossed r = H (a 340 m body lofted less than a 320 m one), so it
+ * was dropped (2026-12-01).  Blow-out material in nature is thrown higher
+ * still and falls back over a wide area; the numbers in this regime are the
+ * roughest of the tool and are flagged everywhere.  Each thermal also
  * reports its radius over the scale height at the apex: near 1 for a 1-2 Mt
  * cloud, 2.2 for 15 Mt, where the bulk thermal starts to strain.
  *
@@ -737,26 +741,11 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * when the source holds more heat or water than its sphere can at that
      * pressure (it then expands before it can rise). */
     double r_fireball = src->radius_m > 0.0 ? src->radius_m : st.radius_m;
-    if (fmax(r_fireball, st.radius_m) > out->scale_height_m) {
-        /* Blow-out: the release is larger than the atmosphere's scale height. */
-        out->regime = SL_REGIME_BLOWOUT;
-        out->source_radius_m = r_fireball;
-        out->apex_altitude_m = src->altitude_m;
-        out->apex_radius_m = r_fireball;
-        out->apex_scale_height_m = out->scale_height_m;
-        out->top_altitude_m = src->altitude_m + r_fireball;
-        out->neutral_altitude_m = src->altitude_m;
-        out->cloud_bottom_m = fmax(zlo, src->altitude_m - r_fireball);
-        out->cloud_top_m = src->altitude_m + r_fireball;
-        out->air_kg = st.air_kg;
-        out->vapor_kg = st.vapor_kg;
-        out->liquid_kg = st.liquid_kg;
-        out->temperature_apex_K = st.T_K;
-        out->water_final_kg = Mw0;
-        double phi = potential_J_kg(src->altitude_m), kin = 0.5 * (1.0 + w->k) * src->vertical_speed_m_s * src->vertical_speed_m_s;
-        out->energy_initial_J = out->energy_final_J = H0 + M0 * (phi + kin);
-        return SL_OK;
-    }
+    /* Blow-out at the start: the release is larger than the atmosphere's
+     * scale height.  It is still followed with the thermal equations (the
+     * best estimate this model has of how high the buoyant gas goes) and
+     * flagged; see "Regime" in the header comment. */
+    int blowout_at_start = fmax(r_fireball, st.radius_m) > out->scale_height_m;
 
     double w0 = src->vertical_speed_m_s, phi0 = potential_J_kg(src->altitude_m);
     double kin0 = 0.5 * (1.0 + w->k) * w0 * w0;
@@ -819,6 +808,8 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
         out->cloud_bottom_m = d.z_m;
         out->cloud_top_m = d.z_m + d.radius_m;
         finish_budget(w, out, w->y, &d);
+        if (blowout_at_start)
+            out->regime = SL_REGIME_BLOWOUT;
         return SL_OK;
     }
 
@@ -888,6 +879,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     if (out->regime == SL_REGIME_BLOWOUT) {
         if (!have_neutral)
             out->neutral_altitude_m = d.z_m;
+        out->top_altitude_m = fmin(out->top_altitude_m, zhi);
         out->cloud_top_m = d.z_m;
         out->cloud_bottom_m = fmax(zlo, d.z_m - d.radius_m);
     } else {
@@ -896,9 +888,15 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
         out->cloud_top_m = out->top_altitude_m;
         /* A thermal whose top reaches past the top of the atmosphere profile
          * has blown out of it as well (it has grown to many scale heights). */
-        if (out->top_altitude_m > zhi)
+        if (out->top_altitude_m > zhi) {
             out->regime = SL_REGIME_BLOWOUT;
+            /* Beyond the profile the thermal's radius means nothing: report
+             * the reach clipped at the top of the atmosphere profile. */
+            out->top_altitude_m = out->cloud_top_m = zhi;
+        }
     }
+    if (blowout_at_start)
+        out->regime = SL_REGIME_BLOWOUT;
     return SL_OK;
 }
 
