@@ -348,8 +348,9 @@ static int rows_push(rows *r, double b, double t, double v, double ice)
     return 0;
 }
 
-/* Build INJ from collected rows (already checked contiguous). */
-static int rows_to_injection(const rows *r, sl_injection *inj, sl_err *e)
+/* Build INJ from collected rows (already checked contiguous) and the
+ * file's scalars in META (tropopause, latitude, time, cloud area). */
+static int rows_to_injection(const rows *r, const sl_injection *meta, sl_injection *inj, sl_err *e)
 {
     double *edges = malloc((r->n + 1) * sizeof(double));
     if (edges == NULL)
@@ -364,6 +365,10 @@ static int rows_to_injection(const rows *r, sl_injection *inj, sl_err *e)
         inj->vapor_kg[i] = r->vapor_kg[i];
         inj->ice_kg[i] = r->ice_kg[i];
     }
+    inj->tropopause_altitude_m = meta->tropopause_altitude_m;
+    inj->latitude_deg = meta->latitude_deg;
+    inj->time_s = meta->time_s;
+    inj->cloud_area_m2 = meta->cloud_area_m2;
     return SL_OK;
 }
 
@@ -594,13 +599,7 @@ static int read_csv(FILE *f, const char *path, sl_injection *inj, sl_err *e)
                         line, have_header ? "bands" : "header");
         goto done;
     }
-    rc = rows_to_injection(&r, inj, e);
-    if (rc == SL_OK) {
-        inj->tropopause_altitude_m = meta.tropopause_altitude_m;
-        inj->latitude_deg = meta.latitude_deg;
-        inj->time_s = meta.time_s;
-        inj->cloud_area_m2 = meta.cloud_area_m2;
-    }
+    rc = rows_to_injection(&r, &meta, inj, e);
 done:
     free(buf);
     rows_free(&r);
@@ -831,13 +830,7 @@ static int read_netcdf(const char *path, sl_injection *inj, sl_err *e)
         if (rc != SL_OK)
             goto done;
     }
-    rc = rows_to_injection(&r, inj, e);
-    if (rc == SL_OK) {
-        inj->tropopause_altitude_m = meta.tropopause_altitude_m;
-        inj->latitude_deg = meta.latitude_deg;
-        inj->time_s = meta.time_s;
-        inj->cloud_area_m2 = meta.cloud_area_m2;
-    }
+    rc = rows_to_injection(&r, &meta, inj, e);
 done:
     if (ncid >= 0)
         nc_close(ncid);
