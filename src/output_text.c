@@ -329,10 +329,13 @@ static void emit_strat(sl_report *r, const sl_chain *ch)
                      1e-9, "Tg");
     sl_report_number(r, "background_burden_kg", m->reference_background_kg,
                      "background water above ~100 hPa", 1e-9, "Tg");
-    sl_report_number(r, "efolding_years", sl_s_to_years(s->efolding_s), "e-folding time", 1.0, "years");
+    /* Times and fractions of a decay are undefined when nothing entered the
+     * stratosphere: null in JSON, "none" in text, never a misleading 0. */
+    const double undefined = s->initial_excess_kg > 0.0 ? 0.0 : NAN;
+    sl_report_number(r, "efolding_years", sl_s_to_years(s->efolding_s) + undefined, "e-folding time", 1.0, "years");
     sl_report_bool(r, "efolding_extrapolated", s->efolding_extrapolated, "e-folding beyond the run");
-    sl_report_number(r, "mean_residence_years", sl_s_to_years(s->mean_residence_s), "mean residence time", 1.0,
-                     "years");
+    sl_report_number(r, "mean_residence_years", sl_s_to_years(s->mean_residence_s) + undefined, "mean residence time",
+                     1.0, "years");
     sl_report_number(r, "percent_of_background", s->percent_of_background_peak, "peak excess / background", 1.0,
                      "%");
     sl_report_number(r, "peak_global_anomaly_ppmv", sl_mole_fraction_to_ppmv(s->peak_global_anomaly_mole_fraction),
@@ -343,8 +346,10 @@ static void emit_strat(sl_report *r, const sl_chain *ch)
                      sl_kg_m2_to_precip_um(1.0), "precipitable um");
     sl_report_number(r, "forcing_indicator_W_m2", s->forcing_indicator_W_m2, "forcing indicator (coarse)", 1.0,
                      "W/m2");
-    sl_report_number(r, "fraction_remaining_1y", s->fraction_remaining_1y, "fraction left after 1 year", 1.0, "");
-    sl_report_number(r, "fraction_remaining_3y", s->fraction_remaining_3y, "fraction left after 3 years", 1.0, "");
+    sl_report_number(r, "fraction_remaining_1y", s->fraction_remaining_1y + undefined, "fraction left after 1 year",
+                     1.0, "");
+    sl_report_number(r, "fraction_remaining_3y", s->fraction_remaining_3y + undefined, "fraction left after 3 years",
+                     1.0, "");
     size_t last = s->n_times - 1;
     sl_report_begin_object(r, "strat_sinks_kg", r->json ? NULL : "\nRemoved by the end of the run");
     for (int k = 0; k < SL_STRAT_N_SINKS; k++)

@@ -33,4 +33,10 @@ sl_expect_exit 65 "step_days out of range" "$SL_BIN" run "$SL_TMP/bad.ini"
 sl_expect_grep "$SL_TMP/err" "step_days" "the key is named"
 { cat "$ex"; printf '\n[strat]\ntropics_atmosphere = mars\n'; } > "$SL_TMP/bad2.ini"
 sl_expect_exit 65 "unknown background" "$SL_BIN" run "$SL_TMP/bad2.ini"
+
+# Nothing enters the stratosphere (a small airburst): the decay times and
+# fractions are undefined and reported as null / none, never as 0.
+sl_expect_exit 0 "run with nothing injected" "$SL_BIN" run --json "$SL_SRCDIR/examples/airburst-small.ini"
+sl_expect_grep "$SL_TMP/out" '"efolding_years": null' "e-folding null when nothing was injected"
+sl_expect_grep "$SL_TMP/out" '"fraction_remaining_3y": null' "fraction remaining null when nothing was injected"
 sl_done
