@@ -10,12 +10,12 @@
  * the JSON keys carry their unit. */
 #include "steamloft/cli.h"
 #include "steamloft/cmd.h"
+#include "steamloft/output_request.h"
+#include "steamloft/output_text.h"
 #include "steamloft/strat.h"
 #include "steamloft/units.h"
 
 #include <getopt.h>
-
-#include "steamloft/output_request.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -197,66 +197,22 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
     return EX_OK;
 }
 
-static void print_text(const sl_strat_model *m, const sl_strat_result *r, const char *source)
+/* The summary, text or JSON, through the same report as `run` (same keys). */
+static int print_summary(const sl_strat_model *m, const sl_strat_result *r, const char *source, int json, sl_err *e)
 {
-    printf("steamloft decay: stratospheric box model (%zu boxes, %zu layers x 3 regions)\n", m->n_boxes, m->n_layers);
-    printf("  source                      %s\n", source);
-    printf("  injected_Tg                 %.4g   (above the tropopause; %.4g Tg below it never entered)\n",
-           sl_kg_to_tg(r->injected_kg), sl_kg_to_tg(r->not_entered_kg));
-    printf("  background_burden_Tg        %.4g   (water above ~100 hPa, the reference)\n",
-           sl_kg_to_tg(m->reference_background_kg));
-    printf("  efolding_years              %.3f%s\n", sl_s_to_years(r->efolding_s),
-           r->efolding_extrapolated ? "   (extrapolated beyond the run)" : "");
-    printf("  mean_residence_years        %.3f\n", sl_s_to_years(r->mean_residence_s));
-    printf("  percent_of_background       %.3g\n", r->percent_of_background_peak);
-    printf("  peak_global_anomaly_ppmv    %.4g\n", sl_mole_fraction_to_ppmv(r->peak_global_anomaly_mole_fraction));
-    printf("  peak_global_column_kg_m2    %.4g   (%.4g precipitable um)\n", r->peak_global_column_kg_m2,
-           sl_kg_m2_to_precip_um(r->peak_global_column_kg_m2));
-    printf("  peak_local_column_kg_m2     %.4g   (%.4g precipitable um)\n", r->peak_local_column_kg_m2,
-           sl_kg_m2_to_precip_um(r->peak_local_column_kg_m2));
-    printf("  forcing_indicator_W_m2      %.3g   (coarse: 0.2 W/m2 per ppmv, less higher up)\n",
-           r->forcing_indicator_W_m2);
-    printf("  fraction_remaining_1y       %.3f\n", r->fraction_remaining_1y);
-    printf("  fraction_remaining_3y       %.3f\n", r->fraction_remaining_3y);
-    size_t last = r->n_times - 1;
-    printf("  removed by the end (%.1f years):\n", sl_s_to_years(r->time_s[last]));
-    for (int s = 0; s < SL_STRAT_N_SINKS; s++)
-        printf("    %-24s  %.4g Tg\n", sl_strat_sink_names[s], sl_kg_to_tg(r->sink_kg[last * SL_STRAT_N_SINKS + s]));
-    printf("  remaining                   %.4g Tg\n", sl_kg_to_tg(r->global_excess_kg[last]));
-    printf("%s\n", sl_cli_caution());
-}
-
-static void print_json(const sl_strat_model *m, const sl_strat_result *r, const char *source)
-{
-    size_t last = r->n_times - 1;
-    printf("{\n  \"source\": \"");
-    for (const char *c = source; *c; c++) {
-        if (*c == '"' || *c == '\\')
-            putchar('\\');
-        if ((unsigned char)*c >= 0x20)
-            putchar(*c);
-    }
-    printf("\",\n");
-    printf("  \"injected_kg\": %.6g,\n  \"not_entered_kg\": %.6g,\n", r->injected_kg, r->not_entered_kg);
-    printf("  \"background_burden_kg\": %.6g,\n", m->reference_background_kg);
-    printf("  \"efolding_years\": %.6g,\n  \"efolding_extrapolated\": %s,\n", sl_s_to_years(r->efolding_s),
-           r->efolding_extrapolated ? "true" : "false");
-    printf("  \"mean_residence_years\": %.6g,\n", sl_s_to_years(r->mean_residence_s));
-    printf("  \"percent_of_background\": %.6g,\n", r->percent_of_background_peak);
-    printf("  \"peak_global_anomaly_ppmv\": %.6g,\n", sl_mole_fraction_to_ppmv(r->peak_global_anomaly_mole_fraction));
-    printf("  \"peak_global_column_kg_m2\": %.6g,\n", r->peak_global_column_kg_m2);
-    printf("  \"peak_global_column_precip_um\": %.6g,\n", sl_kg_m2_to_precip_um(r->peak_global_column_kg_m2));
-    printf("  \"peak_local_column_kg_m2\": %.6g,\n", r->peak_local_column_kg_m2);
-    printf("  \"peak_local_column_precip_um\": %.6g,\n", sl_kg_m2_to_precip_um(r->peak_local_column_kg_m2));
-    printf("  \"forcing_indicator_W_m2\": %.6g,\n", r->forcing_indicator_W_m2);
-    printf("  \"fraction_remaining_1y\": %.6g,\n  \"fraction_remaining_3y\": %.6g,\n", r->fraction_remaining_1y,
-           r->fraction_remaining_3y);
-    printf("  \"sinks_kg\": {");
-    for (int s = 0; s < SL_STRAT_N_SINKS; s++)
-        printf("%s\"%s\": %.6g", s ? ", " : "", sl_strat_sink_names[s], r->sink_kg[last * SL_STRAT_N_SINKS + s]);
-    printf("},\n  \"remaining_kg\": %.6g,\n", r->global_excess_kg[last]);
-    printf("  \"span_years\": %.6g,\n", sl_s_to_years(r->time_s[last]));
-    printf("  \"caution\": \"%s\"\n}\n", sl_cli_caution());
+    sl_report rep;
+    sl_report_begin(&rep, stdout, json);
+    if (!json)
+        printf("steamloft decay: stratospheric box model (%zu boxes, %zu layers x 3 regions)\n", m->n_boxes,
+               m->n_layers);
+    sl_report_string(&rep, "source", source, "source");
+    sl_report_number(&rep, "span_years", sl_s_to_years(r->time_s[r->n_times - 1]), "length of the run", 1.0,
+                     "years");
+    sl_output_text_strat(&rep, m, r);
+    if (!json)
+        fputc('\n', stdout);
+    sl_report_string(&rep, "caution", sl_cli_caution(), "caution");
+    return sl_report_end(&rep, e);
 }
 
 static void print_series(const sl_strat_result *r)
@@ -406,10 +362,10 @@ int sl_cmd_decay(int argc, char **argv, const sl_cli_globals *g)
         rc = sl_cli_report(g, "decay", &e);
         goto out;
     }
-    if (o.json)
-        print_json(&m, &r, source);
-    else
-        print_text(&m, &r, source);
+    if (print_summary(&m, &r, source, o.json, &e) != SL_OK) {
+        rc = sl_cli_report(g, "decay", &e);
+        goto out;
+    }
     if (o.series)
         print_series(&r);
     rc = EX_OK;

@@ -316,13 +316,10 @@ static void emit_plume(sl_report *r, const sl_chain *ch)
     sl_report_end_array(r);
 }
 
-/* Box model: the keys of issue 6 (unit in the key; years, ppmv, W/m2 as named). */
-static void emit_strat(sl_report *r, const sl_chain *ch)
+/* Box model: the keys of issue 6 (unit in the key; years, ppmv, W/m2 as named).
+ * Shared by `run` (from the chain) and `decay`. */
+void sl_output_text_strat(sl_report *r, const sl_strat_model *m, const sl_strat_result *s)
 {
-    if (!ch->have_strat_model)
-        return;
-    const sl_strat_model *m = &ch->strat_model;
-    const sl_strat_result *s = &ch->strat;
     sl_report_heading(r, "Stratospheric box model");
     sl_report_number(r, "strat_injected_kg", s->injected_kg, "water above the tropopause", 1e-9, "Tg");
     sl_report_number(r, "strat_not_entered_kg", s->not_entered_kg, "water below the tropopause (not entered)",
@@ -357,6 +354,13 @@ static void emit_strat(sl_report *r, const sl_chain *ch)
                          1e-9, "Tg");
     sl_report_end_object(r);
     sl_report_number(r, "strat_remaining_kg", s->global_excess_kg[last], "remaining at the end", 1e-9, "Tg");
+}
+
+
+static void emit_strat(sl_report *r, const sl_chain *ch)
+{
+    if (ch->have_strat_model)
+        sl_output_text_strat(r, &ch->strat_model, &ch->strat);
 }
 
 static void emit_parameters(sl_report *r, const sl_chain *ch)

@@ -45,6 +45,12 @@ void sl_report_end_object(sl_report *r);
 void sl_report_begin_array(sl_report *r, const char *key, const char *label);
 void sl_report_end_array(sl_report *r);
 
+/* The box-model section of a summary (heading, the decay keys, what each
+ * sink removed, what remains); used by `run` and `decay`. */
+struct sl_strat_model;
+struct sl_strat_result;
+void sl_output_text_strat(sl_report *r, const struct sl_strat_model *m, const struct sl_strat_result *s);
+
 /* The summary of a finished chain: event, entry, partition, sources, the
  * resolved parameters (JSON only) and the caution. */
 int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, sl_err *e);

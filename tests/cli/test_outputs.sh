@@ -48,7 +48,7 @@ $PY - "$D/decay.nc" "$SL_TMP/json" >"$SL_TMP/cmp" 2>&1 <<'EOF'
 import json, sys, netCDF4
 j = json.load(open(sys.argv[2]))
 with netCDF4.Dataset(sys.argv[1]) as ds:
-    pairs = [("injected_water_mass", j["injected_kg"]),
+    pairs = [("injected_water_mass", j["strat_injected_kg"]),
              ("reference_background_water_mass", j["background_burden_kg"]),
              ("efolding_time", j["efolding_years"] * 365.25 * 86400),
              ("peak_percent_of_background", j["percent_of_background"])]
@@ -58,8 +58,8 @@ with netCDF4.Dataset(sys.argv[1]) as ds:
         if abs(got - want) > 5e-6 * abs(want):  # %.6g in the JSON: half a unit in the 6th digit
             print("mismatch", name, got, want); bad += 1
     last = ds.variables["global_excess_water_mass"][-1]
-    if abs(float(last) - j["remaining_kg"]) > 5e-6 * abs(j["remaining_kg"]):
-        print("mismatch remaining", float(last), j["remaining_kg"]); bad += 1
+    if abs(float(last) - j["strat_remaining_kg"]) > 5e-6 * abs(j["strat_remaining_kg"]):
+        print("mismatch remaining", float(last), j["strat_remaining_kg"]); bad += 1
 sys.exit(bad)
 EOF
 if [ $? -eq 0 ]; then sl_ok "netCDF scalars and series equal the run's JSON report"; else sl_fail "netCDF vs JSON"; sed 's/^/#   /' "$SL_TMP/cmp"; fi
