@@ -135,6 +135,15 @@ static int check_support(const sl_dist *d, int id, const char *where, int quiet,
     return SL_OK;
 }
 
+/* Plan input for scenario key ID: the scenario leaves the key to the
+ * ensemble, IDS records which key the input is, the plan gets the law. */
+static int add_input(sl_scenario *sc, sl_ens_plan *p, int *ids, int id, const char *key, sl_dist *d, sl_err *e)
+{
+    SL_TRY_RETURN(e, sl_scenario_mark_external(sc, (sl_param_id)id, e));
+    ids[p->n_inputs] = id;
+    return sl_ens_plan_add(p, key, key_to_si(id), d, e);
+}
+
 /* Read the scenario, take its distributions (ensemble) or the --vary keys
  * (sweep) into the plan, mark them external, finish the scenario.  ids[k] is
  * the scenario key of plan input k. */
@@ -169,11 +178,7 @@ static int build_plan(const ens_cli *c, sl_scenario *sc, sl_ens_plan *p, int *id
         SL_TRY_RETURN(e, sl_dist_parse(raw, def->key, where, &d, e));
         int rc = check_support(&d, id, where, quiet, e);
         if (rc == SL_OK)
-            rc = sl_scenario_mark_external(sc, (sl_param_id)id, e);
-        if (rc == SL_OK) {
-            ids[p->n_inputs] = id;
-            rc = sl_ens_plan_add(p, key, key_to_si(id), &d, e);
-        }
+            rc = add_input(sc, p, ids, id, key, &d, e);
         sl_dist_free(&d);
         if (rc != SL_OK)
             return rc;
@@ -198,11 +203,7 @@ static int build_plan(const ens_cli *c, sl_scenario *sc, sl_ens_plan *p, int *id
                 rc = e->code = SL_EUSAGE;
         }
         if (rc == SL_OK)
-            rc = sl_scenario_mark_external(sc, (sl_param_id)id, e);
-        if (rc == SL_OK) {
-            ids[p->n_inputs] = id;
-            rc = sl_ens_plan_add(p, key, key_to_si(id), &d, e);
-        }
+            rc = add_input(sc, p, ids, id, key, &d, e);
         sl_dist_free(&d);
         if (rc != SL_OK)
             return rc;

@@ -11,17 +11,7 @@
 #include <stdio.h>
 #include <string.h>
 
-typedef struct expo_air {
-    double rho0_kg_m3, scale_height_m;
-} expo_air;
-
-static int expo_density(void *ctx, double h, double *rho, sl_err *e)
-{
-    (void)e;
-    const expo_air *x = ctx;
-    *rho = x->rho0_kg_m3 * exp(-h / x->scale_height_m);
-    return SL_OK;
-}
+#include "sl_test_expo_air.h"
 
 /* Collins et al. 2005 atmosphere, eq. 5: rho0 = 1 kg/m3, H = 8 km (SEEN, notes §3). */
 static expo_air collins_air = {1.0, 8000.0};

@@ -10,17 +10,7 @@
 #include <stdio.h>
 #include <string.h>
 
-typedef struct expo_air {
-    double rho0_kg_m3, scale_height_m;
-} expo_air;
-
-static int expo_density(void *ctx, double h, double *rho, sl_err *e)
-{
-    (void)e;
-    const expo_air *x = ctx;
-    *rho = x->rho0_kg_m3 * exp(-h / x->scale_height_m);
-    return SL_OK;
-}
+#include "sl_test_expo_air.h"
 
 static void run_entry(sl_entry *en, double d_m, double rho, double v_km_s, double angle_deg)
 {
