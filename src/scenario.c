@@ -557,8 +557,11 @@ int sl_scenario_finish(sl_scenario *sc, sl_err *e)
             SL_FAIL_RETURN(e, SL_ECONFIG, "%s: [%s] %s is required: %s (valid range: %s)", sc->path,
                            d->section, d->key, d->meaning, range);
         }
-        if (d->type == SL_PT_TEXT) {
-            /* Only the atmosphere is a text key so far. */
+        if (d->type == SL_PT_TEXT && (d->flags & SL_PF_OPTIONAL)) {
+            sc->raw[id][0] = '\0'; /* optional text (the name): stays unset */
+            sc->origin[id] = SL_ORIGIN_UNSET;
+        } else if (d->type == SL_PT_TEXT) {
+            /* The atmosphere is the only text key with a default. */
             snprintf(sc->raw[id], sizeof sc->raw[id], "%s", default_atmosphere);
             sc->origin[id] = SL_ORIGIN_DEFAULT;
         } else if (d->type == SL_PT_CHOICE) {
@@ -664,6 +667,26 @@ const char *sl_scenario_text(const sl_scenario *sc, sl_param_id id)
         return sc->raw[id][0] ? sc->raw[id] : default_atmosphere;
     /* Choices: raw holds the word, written or filled in from the default. */
     return sc->raw[id];
+}
+
+void sl_scenario_name(const sl_scenario *sc, char *buf, size_t n)
+{
+    if (n == 0)
+        return;
+    if (sc->origin[SL_P_SCENARIO_NAME] == SL_ORIGIN_FILE && sc->raw[SL_P_SCENARIO_NAME][0]) {
+        snprintf(buf, n, "%s", sc->raw[SL_P_SCENARIO_NAME]);
+        return;
+    }
+    const char *base = strrchr(sc->path, '/');
+    base = base ? base + 1 : sc->path;
+    if (strcmp(base, "<stdin>") == 0 || base[0] == '\0')
+        base = "stdin";
+    const char *dot = strrchr(base, '.');
+    size_t len = (dot && dot != base) ? (size_t)(dot - base) : strlen(base);
+    if (len >= n)
+        len = n - 1;
+    memcpy(buf, base, len);
+    buf[len] = '\0';
 }
 
 const char *sl_scenario_raw(const sl_scenario *sc, sl_param_id id, int *line)

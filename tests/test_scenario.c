@@ -186,6 +186,27 @@ START_TEST(each_mistake_has_its_message)
 }
 END_TEST
 
+START_TEST(display_name_from_key_or_file)
+{
+    /* Titles and tables use [scenario] name, else the file name without
+     * folders and extension (PRACTICE: our own rule). */
+    sl_scenario sc;
+    sl_err e;
+    char name[64];
+    ck_assert_int_eq(sl_scenario_load_string(&sc, "examples/chelyabinsk-like.ini", good, &e), SL_OK);
+    sl_scenario_name(&sc, name, sizeof name);
+    ck_assert_str_eq(name, "chelyabinsk-like");
+    ck_assert(!sl_scenario_has(&sc, SL_P_SCENARIO_NAME));
+    char text[1024];
+    snprintf(text, sizeof text, "[scenario]\nname = Candidate A\n%s", good);
+    ck_assert_int_eq(sl_scenario_load_string(&sc, "dir/x.ini", text, &e), SL_OK);
+    sl_scenario_name(&sc, name, sizeof name);
+    ck_assert_str_eq(name, "Candidate A");
+    sl_scenario_name(&sc, name, 4);
+    ck_assert_str_eq(name, "Can");
+}
+END_TEST
+
 START_TEST(missing_file_is_no_input)
 {
     sl_scenario sc;
@@ -266,6 +287,7 @@ static Suite *scenario_suite(void)
     tcase_add_test(tc, parses_and_converts_to_si);
     tcase_add_test(tc, derived_strength_collins_eq9);
     tcase_add_test(tc, each_mistake_has_its_message);
+    tcase_add_test(tc, display_name_from_key_or_file);
     tcase_add_test(tc, missing_file_is_no_input);
     tcase_add_test(tc, external_values_and_set_by_name);
     tcase_add_test(tc, provenance_lists_resolved_values);

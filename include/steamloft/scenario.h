@@ -51,6 +51,7 @@
 
 /* Sections: X(ID, name, meaning). */
 #define SL_SCENARIO_SECTIONS(X)                                                                    \
+    X(SCENARIO, "scenario", "optional: the scenario's own name, used in titles and tables")         \
     X(IMPACTOR, "impactor", "a body entering the atmosphere (instead of [explosion])")            \
     X(EXPLOSION, "explosion", "an explosion given directly by its energy (instead of [impactor])") \
     X(SITE, "site", "where it happens: position, ocean, sea surface, background atmosphere")       \
@@ -74,6 +75,9 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
 /* The parameter table.  Basis of every default is in its meaning or in the
  * module that uses it (entry.c, partition.c). */
 #define SL_SCENARIO_PARAMS(X)                                                                      \
+    X(SCENARIO_NAME, "scenario", "name", SL_PT_TEXT, "", SL_NODEFAULT, 0.0, 0.0, SL_PF_OPTIONAL,    \
+      NULL, "a short name for titles, plots and tables (default: the file name without folders "    \
+      "and extension)")                                                                             \
     X(IMPACTOR_DIAMETER, "impactor", "diameter_m", SL_PT_REAL, "m", SL_NODEFAULT, 0.1, 1.0e5,      \
       SL_PF_REQUIRED, NULL, "diameter of a sphere of the impactor's volume")                        \
     X(IMPACTOR_DENSITY, "impactor", "density_kg_m3", SL_PT_REAL, "kg_m3", SL_NODEFAULT, 300.0,     \
@@ -290,6 +294,10 @@ double sl_scenario_value(const sl_scenario *sc, sl_param_id id);
 int sl_scenario_has(const sl_scenario *sc, sl_param_id id);
 /* Resolved text of a text or choice key ("us1976", "shock"). */
 const char *sl_scenario_text(const sl_scenario *sc, sl_param_id id);
+/* The scenario's display name: [scenario] name when given, otherwise the
+ * file name without folders and extension ("demo" for examples/demo.ini,
+ * "stdin" for standard input).  Always NUL-terminated; truncated to N-1. */
+void sl_scenario_name(const sl_scenario *sc, char *buf, size_t n);
 /* Raw text of a key as written in the file and its line, or NULL when the
  * file does not have the key. */
 const char *sl_scenario_raw(const sl_scenario *sc, sl_param_id id, int *line);
