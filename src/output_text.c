@@ -160,6 +160,62 @@ static const char *source_kind_name(sl_source_kind k)
     return "unknown";
 }
 
+/* Entry: how the body broke, what reached the sea in pieces, and the
+ * energy bookkeeping with the work done by gravity named (entry module). */
+static const char *entry_end_name(int end)
+{
+    switch (end) {
+    case SL_ENTRY_END_SEA: return "sea";
+    case SL_ENTRY_END_BURST: return "burst";
+    case SL_ENTRY_END_AIR: return "stopped in the air";
+    case SL_ENTRY_END_LEFT: return "left the atmosphere";
+    case SL_ENTRY_END_SPLIT: return "broke up";
+    }
+    return "unknown";
+}
+
+static void emit_entry_fate(sl_report *r, const sl_entry *en)
+{
+    const double mt = 1.0 / SL_J_PER_MT_TNT;
+    sl_report_string(r, "breakup_mode", sl_entry_mode_name(en->mode), "break-up");
+    sl_report_number(r, "sea_fragments", en->sea_pieces, "solid pieces reaching the sea", 1.0, "");
+    sl_report_number(r, "sea_fragment_energy_J", en->sea_fragment_energy_J, "their kinetic energy", mt, "Mt");
+    sl_report_number(r, "sea_fragment_footprint_m", en->sea_pieces > 1 ? en->sea_footprint_m : NAN,
+                     "their sideways spread at the sea", 1e-3, "km");
+    if (r->json) {
+        sl_report_begin_array(r, "fragment_groups", NULL);
+        for (size_t i = 0; i < en->n_groups; i++) {
+            const sl_entry_group *g = &en->groups[i];
+            sl_report_begin_object(r, NULL, NULL);
+            sl_report_string(r, "kind", g->cloud ? "debris_cloud" : "solid", "");
+            sl_report_number(r, "generation", g->generation, "", 1, "");
+            sl_report_number(r, "count", g->count, "", 1, "");
+            sl_report_number(r, "piece_mass_kg", g->piece_mass_kg, "", 1, "");
+            sl_report_number(r, "strength_Pa", g->cloud ? NAN : g->strength_Pa, "", 1, "");
+            sl_report_number(r, "start_altitude_m", g->start_altitude_m, "", 1, "");
+            sl_report_string(r, "end", entry_end_name(g->end), "");
+            sl_report_number(r, "end_altitude_m", g->end_altitude_m, "", 1, "");
+            sl_report_number(r, "sea_energy_J", g->sea_energy_J, "", 1, "");
+            sl_report_end_object(r);
+        }
+        sl_report_end_array(r);
+    } else {
+        for (size_t i = 0; i < en->n_groups; i++) {
+            const sl_entry_group *g = &en->groups[i];
+            if (g->end == SL_ENTRY_END_SEA && !g->cloud)
+                fprintf(r->out, "  %g piece%s of %.3g kg reached the sea at %.3g km/s (%.4g Mt)\n", g->count,
+                        g->count == 1 ? "" : "s", g->sea_mass_kg / g->count, 1e-3 * g->sea_speed_m_s,
+                        g->sea_energy_J * mt);
+        }
+    }
+    sl_report_number(r, "gravity_work_J", en->gravity_work_J, "work done by gravity", mt, "Mt");
+    sl_report_number(r, "energy_carried_off_J", en->energy_carried_off_J, "carried out of the atmosphere", mt, "Mt");
+    if (!r->json && en->energy_in_air_J > en->initial_energy_J)
+        fprintf(r->out, "  (the energy in the air exceeds the entry energy by %.3g Mt: the work gravity did "
+                        "on the falling body)\n",
+                (en->energy_in_air_J - en->initial_energy_J) * mt);
+}
+
 static void emit_entry(sl_report *r, const sl_chain *ch)
 {
     const sl_entry *en = &ch->entry;
@@ -202,6 +258,7 @@ static void emit_entry(sl_report *r, const sl_chain *ch)
                         1e-3 * (double)(i + 1) * en->band_width_m, "", en->band_energy_J[i] / SL_J_PER_MT_TNT,
                         100.0 * en->band_energy_J[i] / total);
     }
+    emit_entry_fate(r, en);
 }
 
 static void emit_partition(sl_report *r, const sl_chain *ch)

@@ -495,7 +495,11 @@ static int resolve(sl_scenario *sc, sl_err *e)
         sl_param_origin o = sc->origin[SL_P_IMPACTOR_STRENGTH];
         if (o != SL_ORIGIN_FILE && o != SL_ORIGIN_SET && o != SL_ORIGIN_EXTERNAL) {
             double rho = sc->value_si[SL_P_IMPACTOR_DENSITY];
-            sc->value_si[SL_P_IMPACTOR_STRENGTH] = isfinite(rho) ? strength_from_density_Pa(rho) : NAN;
+            /* Irons (5000 kg/m3 and more): the measured iron strength of [entry]. */
+            sc->value_si[SL_P_IMPACTOR_STRENGTH] =
+                !isfinite(rho) ? NAN
+                : rho >= 5000.0 ? sc->value_si[SL_P_ENTRY_IRON_STRENGTH]
+                                : strength_from_density_Pa(rho);
             sc->origin[SL_P_IMPACTOR_STRENGTH] = SL_ORIGIN_DERIVED;
         }
         double za = sc->value_si[SL_P_AIRBURST_ALTITUDE];

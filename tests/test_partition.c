@@ -18,7 +18,8 @@ static void run_entry(sl_entry *en, double d_m, double rho, double v_km_s, doubl
     sl_entry_air air = {expo_density, &earth};
     sl_entry_params p = {d_m, rho, v_km_s * 1e3, angle_deg * SL_PI / 180.0,
                          pow(10.0, 2.107 + 0.0624 * sqrt(rho)), 100e3, 2.0, 0.1, 8e6, 0.5, 7.0,
-                         1000.0, 1e-8, NAN, NAN, 0};
+                         1000.0, 1e-8, NAN, NAN, 0, 0, 0, 0, 0, 0, 0, 0, 0};
+    sl_entry_params_breakup_defaults(&p);
     sl_err e = {0};
     ck_assert_int_eq(sl_entry_solve(en, &p, &air, &e), SL_OK);
 }
@@ -267,7 +268,10 @@ START_TEST(airburst_and_explosion_sources)
     for (size_t k = 0; k < pt.sources.n; k++)
         water += pt.sources.src[k].vapor_mass_kg;
     SL_CK_REL(water, pt.water_vaporized_kg + 0.1 * en.initial_mass_kg, 1e-12);
-    ck_assert(pt.energy_at_sea_J < 1e-3 * pt.energy_total_J);
+    /* The burst's tail: the spread cloud's energy decays exponentially over
+     * ~1.5 km below the burst (entry.c), so a burst at ~8 km leaves a few
+     * 1e-3 of the energy at the sea. */
+    ck_assert(pt.energy_at_sea_J < 1e-2 * pt.energy_total_J);
     sl_entry_free(&en);
 }
 END_TEST

@@ -90,7 +90,7 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
     X(IMPACTOR_STRENGTH, "impactor", "strength_Pa", SL_PT_REAL, "Pa", SL_NODEFAULT, 1.0e3, 5.0e8,  \
       SL_PF_DERIVED, NULL,                                                                          \
       "ram pressure at which the body breaks up; default 10^(2.107+0.0624*sqrt(density)) Pa "       \
-      "(Collins, Melosh & Marcus 2005, eq. 9)")                                                     \
+      "(Collins, Melosh & Marcus 2005, eq. 9) below 5000 kg/m3, [entry] iron_strength_Pa above")   \
     X(IMPACTOR_WATER, "impactor", "water_mass_fraction", SL_PT_REAL, "1", 0.0, 0.0, 0.5, 0u, NULL, \
       "mass fraction of water the body carries (carbonaceous bodies up to ~0.2)")                   \
     X(EXPLOSION_ENERGY, "explosion", "energy_Mt", SL_PT_REAL, "Mt", SL_NODEFAULT, 1.0e-4, 1.0e5,   \
@@ -122,16 +122,43 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
       120000.0, 0u, NULL, "altitude where the integration starts (the top of the atmosphere)")      \
     X(ENTRY_DRAG, "entry", "drag_coefficient", SL_PT_REAL, "1", 2.0, 0.5, 3.0, 0u, NULL,          \
       "drag coefficient (2 as in Collins et al. 2005, so their closed forms cross-check)")           \
-    X(ENTRY_HEAT_TRANSFER, "entry", "heat_transfer_coefficient", SL_PT_REAL, "1", 0.1, 0.0, 1.0,  \
-      0u, NULL, "fraction of the incoming air's energy that ablates the body (0 = no ablation)")    \
+    X(ENTRY_HEAT_TRANSFER, "entry", "heat_transfer_coefficient", SL_PT_REAL, "1", 0.03, 0.0, 1.0, \
+      0u, NULL, "fraction of the incoming air's energy that ablates the body (0 = no ablation; "   \
+      "0.03 for bodies of metres and more, Svetsov et al. 1995, below the ~0.1-0.2 of small "       \
+      "meteoroids, Ceplecha et al. 1998)")                                                          \
     X(ENTRY_ABLATION_HEAT, "entry", "heat_of_ablation_J_kg", SL_PT_REAL, "J_kg", 8.0e6, 1.0e6,     \
       1.0e8, 0u, NULL, "energy to ablate one kilogram of the body")                                 \
-    X(ENTRY_SPREAD, "entry", "spread_coefficient", SL_PT_REAL, "1", 0.5, 0.05, 2.0, 0u, NULL,       \
-      "pancake spreading r d2r/dt2 = C rho_air v^2 / rho_body (0.5 = Collins et al. 2005 with "     \
-      "drag coefficient 2)")                                                                        \
-    X(ENTRY_BURST_FACTOR, "entry", "burst_spread_factor", SL_PT_REAL, "1", 7.0, 2.0, 20.0, 0u,      \
-      NULL, "the debris cloud bursts when its radius reaches this multiple of the initial radius " \
-      "(Collins et al. 2005 use 7; range 2-10)")                                                    \
+    X(ENTRY_SPREAD, "entry", "spread_coefficient", SL_PT_REAL, "1", 0.3, 0.05, 2.0, 0u, NULL,       \
+      "pancake spreading r d2r/dt2 = C rho_air v^2 / rho_body (calibrated with ablation on in "    \
+      "real atmospheres, see entry.c; 0.5 = Collins et al. 2005 with drag coefficient 2)")         \
+    X(ENTRY_BURST_FACTOR, "entry", "burst_spread_factor", SL_PT_REAL, "1", 5.0, 2.0, 20.0, 0u,      \
+      NULL, "the debris cloud bursts when its radius reaches this multiple of its first radius "   \
+      "(calibrated, see entry.c; Collins et al. 2005 use 7 and allow 2-10)")                       \
+    X(ENTRY_BREAKUP_MODEL, "entry", "breakup_model", SL_PT_CHOICE, "", 0.0, 0.0, 0.0, 0u,            \
+      "auto|pancake|fragments", "how a body breaks: a spreading debris cloud (pancake), pieces "   \
+      "that fly on (fragments), or auto: fragments at or above fragmenting_strength_Pa")           \
+    X(ENTRY_FRAGMENTING_STRENGTH, "entry", "fragmenting_strength_Pa", SL_PT_REAL, "Pa", 1.0e7,      \
+      1.0e3, 1.0e9, 0u, NULL, "auto: bodies at least this strong break into fragments, weaker "    \
+      "ones into a debris cloud (stony bolides break at 0.1-5 MPa, Popova et al. 2011; irons are " \
+      "tens to hundreds of MPa, Petrovic 2001)")                                                    \
+    X(ENTRY_IRON_STRENGTH, "entry", "iron_strength_Pa", SL_PT_REAL, "Pa", 1.0e8, 1.0e6, 1.0e9, 0u, \
+      NULL, "default strength of bodies of 5000 kg/m3 and more (iron-meteorite strengths, tens "    \
+      "to hundreds of MPa, Petrovic 2001; calibrated on Meteor Crater, see entry.c)")              \
+    X(ENTRY_FRAGMENT_COUNT, "entry", "fragment_count", SL_PT_INT, "", 6.0, 2.0, 16.0, 0u, NULL,     \
+      "equal pieces a strong body breaks into at each break-up (besides its debris cloud)")        \
+    X(ENTRY_FRAGMENT_GENERATIONS, "entry", "fragment_generations", SL_PT_INT, "", 0.0, 0.0, 5.0,   \
+      0u, NULL, "how many times pieces may break again (pieces of the last one stay whole)")        \
+    X(ENTRY_CLOUD_FRACTION, "entry", "cloud_fraction", SL_PT_REAL, "1", 0.5, 0.0, 0.95, 0u, NULL,  \
+      "mass fraction of a breaking strong body crushed into a debris cloud (the rest: pieces)")     \
+    X(ENTRY_WEIBULL, "entry", "weibull_exponent", SL_PT_REAL, "1", 0.25, 0.0, 0.5, 0u, NULL,        \
+      "strength of a piece = parent's x (parent mass / piece mass)^exponent (Weibull scaling)")    \
+    X(ENTRY_SEPARATION, "entry", "separation_coefficient", SL_PT_REAL, "1", 0.5, 0.01, 2.0, 0u,     \
+      NULL, "lateral speed of separating pieces, v sqrt(C (R/r) rho_air/rho_body) (Passey & "       \
+      "Melosh 1980)")                                                                               \
+    X(ENTRY_RADIATION_TEMPERATURE, "entry", "radiation_temperature_K", SL_PT_REAL, "K", 2.0e4, 0.0, \
+      1.0e5, 0u, NULL, "the heat flux that ablates a body is at most the black-body flux of its "   \
+      "shock layer at this temperature (optically thick layers of large bodies, Svetsov, "          \
+      "Nemtchinov & Teterev 1995); 0 = no limit")                                                   \
     X(ENTRY_BAND, "entry", "band_width_m", SL_PT_REAL, "m", 1000.0, 10.0, 10000.0, 0u, NULL,        \
       "width of the altitude bands of deposited energy")                                            \
     X(ENTRY_RTOL, "entry", "relative_tolerance", SL_PT_REAL, "1", 1.0e-8, 1.0e-12, 1.0e-4, 0u,      \

@@ -254,8 +254,11 @@ k = ab.index(0)
 assert all(x == 1 for x in ab[:k]) and all(x == 0 for x in ab[k:]), ab
 assert W[-1] > 10 * W[k], W
 # Stratospheric water grows with size over every sea impact of the sweep,
-# blown-out sea plumes included (a factor > 1000 over the range; PRACTICE:
-# a bigger body must not loft less).  Regression (2026-12-01): the former
+# blown-out sea plumes included (a factor > 10 over the range, about the
+# energy ratio (400/140)^3 = 23 of its sea impacts: since the entry's cloud
+# bursts over a short path, the first sea impact already brings ~30 % of its
+# energy to the sea, where it used to bring a sliver; PRACTICE: a bigger body
+# must not loft less).  Regression (2026-12-01): the former
 # blow-out rule made it fall by six orders of magnitude where the sea plume's
 # fireball outgrew the scale height.
 S = [float(r["strat_water_Tg"]) for r in rows]
@@ -263,7 +266,7 @@ imp = list(range(k, len(d)))
 assert len(imp) >= 4, imp
 assert any(rows[i]["sea_plume_blowout"] == "1" for i in imp), "no blown-out member in the sweep"
 assert all(S[j] > S[i] for i, j in zip(imp, imp[1:])), [S[i] for i in imp]
-assert S[imp[-1]] > 1000 * S[imp[0]] > 0, (S[imp[0]], S[imp[-1]])
+assert S[imp[-1]] > 10 * S[imp[0]] > 0, (S[imp[0]], S[imp[-1]])
 print("%g %g" % (d[k - 1], d[k]))
 EOF
 if [ $? -eq 0 ]; then
