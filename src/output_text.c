@@ -210,10 +210,12 @@ static void emit_entry_fate(sl_report *r, const sl_entry *en)
     }
     sl_report_number(r, "gravity_work_J", en->gravity_work_J, "work done by gravity", mt, "Mt");
     sl_report_number(r, "energy_carried_off_J", en->energy_carried_off_J, "carried out of the atmosphere", mt, "Mt");
-    if (!r->json && en->energy_in_air_J > en->initial_energy_J)
-        fprintf(r->out, "  (the energy in the air exceeds the entry energy by %.3g Mt: the work gravity did "
-                        "on the falling body)\n",
-                (en->energy_in_air_J - en->initial_energy_J) * mt);
+    if (en->energy_in_air_J > en->initial_energy_J) {
+        char note[160];
+        snprintf(note, sizeof note, "the energy in the air exceeds the entry energy by %.3g Mt: the work gravity "
+                 "did on the falling body", (en->energy_in_air_J - en->initial_energy_J) * mt);
+        sl_report_string(r, "energy_in_air_note", note, "note");
+    }
 }
 
 static void emit_entry(sl_report *r, const sl_chain *ch)

@@ -78,8 +78,9 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
     X(SCENARIO_NAME, "scenario", "name", SL_PT_TEXT, "", SL_NODEFAULT, 0.0, 0.0, SL_PF_OPTIONAL,    \
       NULL, "a short name for titles, plots and tables (default: the file name without folders "    \
       "and extension)")                                                                             \
-    X(IMPACTOR_DIAMETER, "impactor", "diameter_m", SL_PT_REAL, "m", SL_NODEFAULT, 0.1, 1.0e5,      \
-      SL_PF_REQUIRED, NULL, "diameter of a sphere of the impactor's volume")                        \
+    X(IMPACTOR_DIAMETER, "impactor", "diameter_m", SL_PT_REAL, "m", SL_NODEFAULT, 0.1, 2.0e4,      \
+      SL_PF_REQUIRED, NULL, "diameter of a sphere of the impactor's volume (0.1 m-20 km: meteoroids " \
+      "to extinction-class bodies)")                                                                \
     X(IMPACTOR_DENSITY, "impactor", "density_kg_m3", SL_PT_REAL, "kg_m3", SL_NODEFAULT, 300.0,     \
       9000.0, SL_PF_REQUIRED, NULL,                                                                 \
       "bulk density (comets ~500, C-type ~1300, S-type ~2700, chondrite ~3300, iron ~7800)")       \
