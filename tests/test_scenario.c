@@ -164,7 +164,7 @@ START_TEST(each_mistake_has_its_message)
     /* Bad values (65): not a number, names the range. */
     expect_error("[impactor]\ndiameter_m=nineteen\ndensity_kg_m3=3300\nspeed_km_s=19\nangle_deg=18\n" SITE,
                  SL_EDATA, "bad.ini:2: [impactor] diameter_m", "'nineteen' is not a number",
-                 "0.1 to 100000 m");
+                 "0.1 to 20000 m");
     /* A '#' inline comment is not a comment for inih: hint. */
     expect_error("[impactor]\ndiameter_m=19  # metres\ndensity_kg_m3=3300\nspeed_km_s=19\nangle_deg=18\n" SITE,
                  SL_EDATA, "bad.ini:2:", "is not a number", "' ;'");
