@@ -748,12 +748,14 @@ static int fly(solver *s, pending *q, long *n_steps, sl_err *e)
     probe_ctx pq = {w, &s->sys, c, y0, 0.0, 0, ytmp, yerr, 0};
 
     double h_step = 1e-3 * p->start_altitude_m / y[Y_V];
-    int have_f = 0;
+    int have_f = 0, check_break = 1, have_g = 0;
+    double g_prev[N_EVENTS];
     for (;;) {
-        /* Already past its strength (e.g. at the start altitude): break now. */
-        double gb;
-        if (event_value(c, EV_BREAKUP, y, &gb) != GSL_SUCCESS)
+        /* Already past its strength (at the start, or at a break-up event): break now. */
+        double gb = 1.0;
+        if (check_break && event_value(c, EV_BREAKUP, y, &gb) != GSL_SUCCESS)
             return sl_err_push(e, e ? e->code : SL_ENUMERIC, __func__, __LINE__);
+        check_break = 0;
         if (gb <= 0.0) {
             note_breakup(en, y);
             if (s->fragments) {
@@ -773,6 +775,7 @@ static int fly(solver *s, pending *q, long *n_steps, sl_err *e)
             q->cloud_radius_m = y[Y_R];
             c->spread_limit_m = p->burst_spread_factor * y[Y_R];
             have_f = 0;
+            have_g = 0;
         }
         if (!have_f) {
             to_scaled(c, y, ys);
@@ -822,11 +825,16 @@ static int fly(solver *s, pending *q, long *n_steps, sl_err *e)
 
         /* Earliest event crossed on this step. */
         int first = -1;
-        double tau_first = dt;
+        double tau_first = dt, g_new[N_EVENTS];
         for (int ev = 0; ev < N_EVENTS; ev++) {
             double g0, g1;
-            if (event_value(c, ev, y0, &g0) != GSL_SUCCESS || event_value(c, ev, y, &g1) != GSL_SUCCESS)
+            if (have_g)
+                g0 = g_prev[ev]; /* the end of the last step is the start of this one */
+            else if (event_value(c, ev, y0, &g0) != GSL_SUCCESS)
                 return sl_err_push(e, e ? e->code : SL_ENUMERIC, __func__, __LINE__);
+            if (event_value(c, ev, y, &g1) != GSL_SUCCESS)
+                return sl_err_push(e, e ? e->code : SL_ENUMERIC, __func__, __LINE__);
+            g_new[ev] = g1;
             if (!(g0 > 0.0 && g1 <= 0.0))
                 continue;
             double tau;
@@ -866,10 +874,16 @@ static int fly(solver *s, pending *q, long *n_steps, sl_err *e)
                      g->count * se * (f1[Y_EDRAG] + f1[Y_EABL]), sh * f0[Y_H], sh * f1[Y_H]);
         memcpy(f0, f1, sizeof f0);
 
-        if (first < 0)
+        if (first < 0) {
+            memcpy(g_prev, g_new, sizeof g_prev);
+            have_g = 1;
             continue;
-        if (first == EV_BREAKUP)
-            continue; /* handled at the top of the loop (the state is at the strength) */
+        }
+        have_g = 0;
+        if (first == EV_BREAKUP) {
+            check_break = 1; /* handled at the top of the loop (the state is at the strength) */
+            continue;
+        }
         en->energy_air_drag_J += g->count * y[Y_EDRAG];
         en->energy_ablation_J += g->count * y[Y_EABL];
         en->gravity_work_J += g->count * y[Y_WGRAV];
