@@ -55,10 +55,13 @@
  * Result: C_s = 0.3, f_p = 5, iron strength 100 MPa, 6 pieces; then the
  * peaks are 28.5 km and 7.8 km and the iron brings 0.68 of its mass at
  * 13.3 km/s (the pieces are slowed less than Melosh & Collins's flattened
- * body).  Pieces do not break again by default: with the cloud fraction
- * constant, each further break makes the energy at the sea fall as bodies
- * grow past the size where it starts, and Meteor Crater's intact half
- * argues for one break.
+ * body).  The constants the calibration does not fit (C_H, T_r, the
+ * fragmenting strength 10 MPa, f_c = 0.5, alpha = 0.25, C_sep = 0.5) are
+ * typical values recalled from the cited works (MEM), not checked against
+ * them here; each has its key.  Pieces do not break again by default:
+ * with the cloud fraction constant, each further break makes the energy at
+ * the sea fall as bodies grow past the size where it starts, and Meteor
+ * Crater's intact half argues for one break.
  *
  * Numerics: GSL odeiv2 Runge-Kutta-Fehlberg 4(5) on variables scaled by their
  * natural sizes, stepped here with the error control so that the derivative
