@@ -32,7 +32,7 @@ START_TEST(chelyabinsk)
 {
     /* Chelyabinsk 2013: ~19 m, 3300 kg/m3, 19.16 km/s, ~18 degrees from the
      * horizontal; 500 +- 100 kt and peak brightness at ~29.7 km (Brown et al.
-     * 2013, Nature 503, 238; SEEN, impact-facts.md #11).  Energy within the
+     * 2013, Nature 503, 238; SEEN).  Energy within the
      * published +-20 %; burst altitude (our peak of dE/dz) within 3 km, about
      * the spread of published burst altitudes (27-32 km) and of the pancake
      * model's own sensitivity to the spreading coefficient. */
@@ -51,7 +51,7 @@ END_TEST
 START_TEST(tunguska_like)
 {
     /* A Tunguska-like stony body (60 m, 3000 kg/m3, 15 km/s, 45 degrees, as
-     * in impact-facts.md §3) bursts in the lower troposphere: Chyba, Thomas &
+     * in Chyba, Thomas & Zahnle 1993) bursts in the lower troposphere: Chyba, Thomas &
      * Zahnle 1993 put Tunguska's release at ~10 km (SEEN).  We require 5-15 km,
      * i.e. below the U.S. Standard tropopause plus a few km, and 5-20 Mt
      * (10-20 Mt published; 3-5 Mt in later work, so the size is uncertain). */
@@ -68,8 +68,8 @@ END_TEST
 
 START_TEST(large_and_iron_bodies_reach_the_sea)
 {
-    /* A 1 km stony body at 18 km/s (Pierazzo et al. 2010's case, SEEN in
-     * notes §4) reaches the sea with nearly all its energy: Collins et al.
+    /* A 1 km stony body at 18 km/s (the case of Pierazzo et al. 2010, EPSL
+     * 299, 263, SEEN) reaches the sea with nearly all its energy: Collins et al.
      * 2005 give < 1 % speed loss for km-sized bodies (DERIVED from eq. 8);
      * we require > 90 % of the energy (the pancake spreads a little). */
     sl_chain ch = {0};
@@ -89,7 +89,7 @@ START_TEST(large_and_iron_bodies_reach_the_sea)
      * (Collins et al. 2005 eq. 18 puts this burst near 2 km, DERIVED). */
     ck_assert(ch.partition.energy_at_sea_J < 0.1 * ch.entry.initial_energy_J);
     /* A few tens of metres of iron with a measured iron strength (~200 MPa;
-     * irons up to ~360 MPa, notes §3, SEEN) reaches the surface intact. */
+     * irons up to ~360 MPa, Petrovic 2001, MEM) reaches the surface intact. */
     run_body(&ch, 30, 7800, 15, 45, "strength_Pa = 2e8");
     ck_assert(ch.entry.reached_sea && !ch.entry.airburst);
     ck_assert(ch.partition.energy_at_sea_J > 0.5 * ch.entry.initial_energy_J);

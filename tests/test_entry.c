@@ -17,7 +17,7 @@
 
 #include "sl_test_expo_air.h"
 
-/* Collins et al. 2005 atmosphere, eq. 5: rho0 = 1 kg/m3, H = 8 km (SEEN, notes §3). */
+/* Collins et al. 2005 atmosphere, eq. 5: rho0 = 1 kg/m3, H = 8 km (SEEN in the paper). */
 static expo_air collins_air = {1.0, 8000.0};
 
 static sl_entry_params base_params(double d_m, double rho, double v_km_s, double angle_deg)
@@ -44,7 +44,7 @@ static sl_entry_params base_params(double d_m, double rho, double v_km_s, double
 }
 
 /* Collins et al. 2005 closed forms (eqs. 8, 11, 12, 16, 18), SEEN in the
- * paper's transcription in impact-facts.md §3. */
+ * paper (equation forms) and in a public transcription of it. */
 typedef struct collins_out {
     double If, z_star_m, z_burst_m, v_surface_intact_m_s;
 } collins_out;
