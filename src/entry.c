@@ -146,11 +146,19 @@ typedef struct pending {
 static int air_density(rhs_ctx *c, double h, double *rho)
 {
     int rc = c->air->density(c->air->ctx, h, rho, c->e);
-    if (rc != SL_OK || !isfinite(*rho) || *rho < 0) {
-        if (rc == SL_OK)
+    if (rc != SL_OK) {
+        c->air_failed = 1;
+        return GSL_EBADFUNC;
+    }
+    if (!isfinite(*rho) || *rho < 0) {
+        /* a trial stage far outside the air (an overflowing extrapolation):
+         * the step is refused and retried shorter; on an accepted state it is
+         * an error */
+        if (!(h < 0.0) || isnan(*rho)) {
             sl_err_set(c->e, SL_ENUMERIC, __func__, __LINE__,
                        "air density at %.1f m is not a finite non-negative number", h);
-        c->air_failed = 1;
+            c->air_failed = 1;
+        }
         return GSL_EBADFUNC;
     }
     return GSL_SUCCESS;
@@ -742,7 +750,9 @@ static int fly(solver *s, pending *q, long *n_steps, sl_err *e)
     c->phase = q->phase;
     c->strength_Pa = g->cloud ? INFINITY : g->strength_Pa;
     c->spread_limit_m = p->burst_spread_factor * q->cloud_radius_m;
-    c->gone_mass_kg = gone_mass_fraction * y[Y_M];
+    /* ablated away: below 1e-9 of the group's mass, or below what the
+     * tolerance resolves in the scaled mass */
+    c->gone_mass_kg = fmax(gone_mass_fraction, 10.0 * p->relative_tolerance) * y[Y_M];
     double ek0 = 0.5 * y[Y_M] * y[Y_V] * y[Y_V];
     const double scale[NY] = {y[Y_V], y[Y_M], 1.0, p->start_altitude_m, p->start_altitude_m,
                               y[Y_R], 0.01 * y[Y_V], ek0, ek0, ek0};
@@ -751,6 +761,10 @@ static int fly(solver *s, pending *q, long *n_steps, sl_err *e)
     probe_ctx pq = {w, &s->sys, c, y0, 0.0, 0, ytmp, yerr, 0};
 
     double h_step = 1e-3 * p->start_altitude_m / y[Y_V];
+    const double h_min = 1e-10 * p->start_altitude_m / p->speed_m_s; /* ~0.5 ns */
+    /* at most a quarter of the start altitude along the path per step: keeps
+     * trial stages of loose tolerances inside the air (rarely binding) */
+    const double h_max = 0.25 * p->start_altitude_m / y[Y_V];
     int have_f = 0, check_break = 1, have_g = 0;
     double g_prev[N_EVENTS];
     for (;;) {
@@ -804,22 +818,33 @@ static int fly(solver *s, pending *q, long *n_steps, sl_err *e)
                 /* the trial left the physical domain (mass or speed <= 0): shorter step */
                 h_step *= 0.25;
                 gsl_odeiv2_step_reset(w->step);
-                if (!(h_step > 1e-12 * (fabs(t0) + 1.0)))
-                    SL_FAIL_RETURN(e, SL_ENUMERIC, "entry: ODE solver failed (%s) at %.0f m, %.1f m/s",
-                                   gsl_strerror(st), y0[Y_H], y0[Y_V]);
-                continue;
+                if (h_step > h_min)
+                    continue;
+                if (y0[Y_M] < 1e-3 * g->piece_mass_kg || y0[Y_V] < 10.0 * stall_speed_m_s) {
+                    /* all but gone, or at rest: it ends here */
+                    en->energy_air_drag_J += g->count * y0[Y_EDRAG];
+                    en->energy_ablation_J += g->count * y0[Y_EABL];
+                    en->gravity_work_J += g->count * y0[Y_WGRAV];
+                    en->energy_in_air_J += g->count * (y0[Y_EDRAG] + y0[Y_EABL]);
+                    finish(s, q, y0, SL_ENTRY_END_AIR, t0);
+                    return SL_OK;
+                }
+                SL_FAIL_RETURN(e, SL_ENUMERIC, "entry: ODE solver failed (%s) at %.0f m, %.1f m/s",
+                               gsl_strerror(st), y0[Y_H], y0[Y_V]);
             }
             double h_new = h_step;
             int adj = gsl_odeiv2_control_hadjust(w->control, w->step, ys_try, yerr, f1, &h_new);
             if (adj == GSL_ODEIV_HADJ_DEC) {
-                if (!(h_new > 1e-12 * (fabs(t0) + 1.0)))
-                    SL_FAIL_RETURN(e, SL_ENUMERIC, "entry: step size underflow at %.0f m, %.1f m/s",
-                                   y0[Y_H], y0[Y_V]);
-                h_step = h_new;
-                continue;
+                if (h_step > h_min) {
+                    h_step = fmax(h_new, h_min);
+                    continue;
+                }
+                /* At the floor the error estimate is rounding (a tolerance near
+                 * double precision): take the step. */
+                h_new = h_min;
             }
             dt = h_step;
-            h_step = h_new;
+            h_step = fmin(h_new, h_max);
             break;
         }
         memcpy(ys, ys_try, sizeof ys);
