@@ -69,8 +69,10 @@
  * step size: the energy given to the air on a step is spread over the
  * altitude bands by a cubic Hermite curve in altitude (values and rates at
  * both ends), so the bands and the burst altitude do not depend on the step
- * sequence (about 70 steps for a typical ensemble member, 240 with the old
- * half-band cap).  Events (break-up, spread limit, sea level, leaving the
+ * sequence (76 steps for a typical ensemble member, 243 with the former
+ * half-band cap).  Steps are at most a quarter of the start altitude along
+ * the path, and at least 1e-10 of the crossing time (there the error
+ * estimate is rounding and the step is taken).  Events (break-up, spread limit, sea level, leaving the
  * atmosphere, rest, ablated away) are found by Brent's method on the event
  * function along the step, the state inside the step coming from one step of
  * the same integrator from the step's start.  Energy bookkeeping: drag work,
