@@ -80,8 +80,7 @@ END_TEST
 
 START_TEST(derived_strength_collins_eq9)
 {
-    /* Collins, Melosh & Marcus 2005 eq. 9; DERIVED check values in
-     * impact-facts.md #14: Yi(3000) = 0.33 MPa, Yi(7800) = 41 MPa (two
+    /* Collins, Melosh & Marcus 2005 eq. 9; DERIVED check values: Yi(3000) = 0.33 MPa, Yi(7800) = 41 MPa (two
      * significant digits, hence 2 %). */
     sl_scenario sc;
     sl_err e = {0};

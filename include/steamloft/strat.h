@@ -97,6 +97,10 @@ typedef struct sl_strat_params {
 /* Fill the defaults (all published or calibrated; see src/strat.c). */
 void sl_strat_params_default(sl_strat_params *p);
 
+/* 1 when every field of A equals that of B (field by field, so the struct's
+ * padding never matters), else 0. */
+int sl_strat_params_equal(const sl_strat_params *a, const sl_strat_params *b);
+
 /* The defaults overridden by the scenario's [strat] keys and [site] month
  * (0 = unknown).  The region backgrounds are named by
  * sl_scenario_text(sc, SL_P_STRAT_TROPICS_ATMOSPHERE / _EXTRATROPICS_ATMOSPHERE). */

@@ -75,7 +75,7 @@ if command -v cdo >/dev/null 2>&1; then
   if cdo -s sinfon "$D/decay.nc" >"$SL_TMP/cdo2" 2>&1; then sl_ok "cdo sinfon reads every variable"
   else sl_fail "cdo sinfon"; sed 's/^/#   /' "$SL_TMP/cdo2" | head -5; fi
 else
-  echo "# cdo not installed: CDO checks skipped"
+  sl_skip "cdo not installed: CDO checks not run"
 fi
 
 # CSV: the profile written equals the profile read (Python csv module).
@@ -102,7 +102,7 @@ if command -v gnuplot >/dev/null 2>&1; then
   done
   if [ $good = 1 ]; then sl_ok "SVG and PNG plots rendered"; else sl_fail "plots"; ls -l "$D/plot" | sed 's/^/#   /'; fi
 else
-  echo "# gnuplot not installed: rendering not checked"
+  sl_skip "gnuplot not installed: rendering not checked"
 fi
 [ -s "$D/plot/steamloft.gp" ] && sl_ok "editable gnuplot script written" || sl_fail "no steamloft.gp"
 
@@ -132,7 +132,7 @@ if [ "$(id -u)" != 0 ] || command -v setpriv >/dev/null 2>&1; then
   sl_expect_exit 73 "--plot into a read-only directory" run_ro "$SL_BIN" decay "$PROF" --plot "$RO"
   [ -z "$(ls -A "$RO")" ] && sl_ok "nothing left in the read-only directory" || sl_fail "files left in $RO"
 else
-  echo "# root without setpriv: read-only directory not checked"
+  sl_skip "root without setpriv: read-only directory not checked"
 fi
 chmod 755 "$RO"
 
