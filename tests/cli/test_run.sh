@@ -5,7 +5,7 @@
 ex="$SL_SRCDIR/examples/ocean-stony-300m.ini"
 
 sl_expect_exit 0 "run the example" "$SL_BIN" run "$ex"
-sl_expect_grep "$SL_TMP/out" "sea water vaporised" "text summary names the vapour"
+sl_expect_grep "$SL_TMP/out" "sea water turned to vapour" "text summary names the vapour"
 sl_expect_grep "$SL_TMP/out" "Screening estimate" "text summary carries the caution"
 sl_expect_exit 0 "run --json" "$SL_BIN" run --json "$ex"
 cp "$SL_TMP/out" "$SL_TMP/ex.json"
