@@ -438,6 +438,12 @@ void sl_output_key_results(const sl_chain *ch, sl_key_results *k)
     }
     /* Validity in a few words.  The plume stage's own validity line replaces
      * this wording when it lands (one function, called here). */
+    snprintf(k->validity_short, sizeof k->validity_short, "%s",
+             !ch->have_plume ? "no plume"
+             : ch->plume.regime == SL_REGIME_BLOWOUT ? "rough: blow-out rule" : "thermal model");
+    if (k->efolding_extrapolated)
+        strncat(k->validity_short, "; e-fold extrapolated",
+                sizeof k->validity_short - strlen(k->validity_short) - 1);
     if (ch->have_plume && ch->plume.regime == SL_REGIME_BLOWOUT)
         snprintf(k->validity, sizeof k->validity,
                  "rough: blow-out, water placed by the blow-out rule (fireball beyond the scale "

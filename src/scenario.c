@@ -426,7 +426,8 @@ static void where(const sl_scenario *sc, int id, char *buf, size_t n)
 {
     const sl_param_def *d = &sl_scenario_params[id];
     if (sc->set_key[id])
-        snprintf(buf, n, "%s: --set %s.%s", sc->path, d->section, d->key);
+        snprintf(buf, n, "%s: %s %s.%s", sc->path, sc->set_key[id] == 2 ? "column" : "--set",
+                 d->section, d->key);
     else if (sc->line[id] > 0)
         snprintf(buf, n, "%s:%d: [%s] %s", sc->path, sc->line[id], d->section, d->key);
     else
@@ -532,7 +533,19 @@ static void section_where(const sl_scenario *sc, int s, char *buf, size_t n)
         snprintf(buf, n, "%s (--set %s.*)", sc->path, sl_scenario_section_names[s]);
 }
 
+static int override_key(sl_scenario *sc, const char *assignment, unsigned char how, sl_err *e);
+
 int sl_scenario_override(sl_scenario *sc, const char *assignment, sl_err *e)
+{
+    return override_key(sc, assignment, 1, e);
+}
+
+int sl_scenario_override_column(sl_scenario *sc, const char *assignment, sl_err *e)
+{
+    return override_key(sc, assignment, 2, e);
+}
+
+static int override_key(sl_scenario *sc, const char *assignment, unsigned char how, sl_err *e)
 {
     if (sc->finished)
         SL_FAIL_RETURN(e, SL_EINTERNAL, "--set after the scenario was finished");
@@ -587,7 +600,7 @@ int sl_scenario_override(sl_scenario *sc, const char *assignment, sl_err *e)
     }
     memcpy(sc->raw[id], value, vl);
     sc->raw[id][vl] = '\0';
-    sc->set_key[id] = 1;
+    sc->set_key[id] = how;
     sc->line[id] = 0;
     sc->set_section[section_index(sl_scenario_params[id].section)] = 1;
     return SL_OK;

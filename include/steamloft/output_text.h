@@ -73,6 +73,7 @@ typedef struct sl_key_results {
     int efolding_extrapolated;   /* efolding_extrapolated */
     double mean_residence_years; /* mean_residence_years */
     char validity[256];          /* validity: how far to trust the numbers, in words */
+    char validity_short[64];     /* the same in a few words, for tables */
 } sl_key_results;
 
 void sl_output_key_results(const sl_chain *ch, sl_key_results *k);

@@ -252,7 +252,7 @@ typedef struct sl_scenario {
     sl_param_origin origin[SL_P_COUNT];
     int line[SL_P_COUNT];                 /* line of the key in the file, 0 = not in the file */
     char raw[SL_P_COUNT][SL_SCENARIO_RAW_LEN]; /* value text as written (trimmed) */
-    unsigned char set_key[SL_P_COUNT];    /* given by sl_scenario_override (--set) */
+    unsigned char set_key[SL_P_COUNT];    /* 1 given by --set, 2 by a table column */
     unsigned char set_section[SL_S_COUNT]; /* a section made present by an override */
     int finished;                         /* sl_scenario_finish succeeded */
 } sl_scenario;
@@ -281,6 +281,9 @@ int sl_scenario_mark_external(sl_scenario *sc, sl_param_id id, sl_err *e);
  * an unknown key (the message lists the keys of the section) or a value
  * longer than SL_SCENARIO_RAW_LEN - 1; SL_EINTERNAL after finish. */
 int sl_scenario_override(sl_scenario *sc, const char *assignment, sl_err *e);
+/* The same for a value from a table of scenarios (`steamloft tabulate`'s CSV
+ * rows): messages then say "column section.key" instead of "--set". */
+int sl_scenario_override_column(sl_scenario *sc, const char *assignment, sl_err *e);
 
 /* Phase 2: convert every value to SI, check ranges and types (SL_EDATA),
  * fill defaults, check required keys and section rules (SL_ECONFIG), resolve
