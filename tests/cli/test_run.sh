@@ -74,4 +74,65 @@ sl_expect_exit 66 "missing scenario file" "$SL_BIN" run "$SL_TMP/none.ini"
 sl_expect_grep "$SL_TMP/err" "none.ini: cannot open scenario file" "missing file is named"
 sl_expect_exit 64 "no scenario" "$SL_BIN" run
 sl_expect_exit 64 "unknown option" "$SL_BIN" run --frobnicate "$ex"
+
+# The demo summary: water first, about a screen long, 3 significant figures.
+demo="$SL_SRCDIR/examples/demo.ini"
+sl_expect_exit 0 "run the demo" "$SL_BIN" run "$demo"
+cp "$SL_TMP/out" "$SL_TMP/demo.txt"
+n=$(wc -l <"$SL_TMP/demo.txt")
+[ "$n" -le 60 ] && sl_ok "demo summary fits in 60 lines ($n)" || sl_fail "demo summary has $n lines"
+"$SL_BIN" run --json "$demo" >"$SL_TMP/demo.json"
+if /usr/bin/python3 - "$SL_TMP/demo.txt" "$SL_TMP/demo.json" <<'PY'
+import json, re, sys
+lines = open(sys.argv[1]).read().splitlines()
+d = json.load(open(sys.argv[2]))
+assert lines[0].startswith("steamloft run: demo "), lines[0]
+assert lines[2] == "What reaches the stratosphere", lines[2]
+labels = [l.split("  ")[1].strip() if l.startswith("  ") else "" for l in lines[3:8]]
+assert labels == ["water above the tropopause", "share of the background", "e-folding time",
+                  "plume regime", "validity"], labels
+def first_number(line):
+    return float(re.search(r"\s(-?[0-9][0-9.e+-]*)\s", line[36:] + " ").group(1))
+def three_sig(x):
+    return float("%.3g" % x)
+assert first_number(lines[3]) == three_sig(d["strat_injected_kg"] * 1e-9), (lines[3], d["strat_injected_kg"])
+assert first_number(lines[4]) == three_sig(d["percent_of_background"]), lines[4]
+assert first_number(lines[5]) == three_sig(d["efolding_years"]), lines[5]
+assert lines[6].split()[-1] == d["regime"], lines[6]
+assert lines[7].endswith(d["validity"]), lines[7]
+# Three significant figures everywhere in text (no 4-digit mantissas such as 437.9 or 1.832e+18).
+for l in lines:
+    for tok in re.findall(r"(?<![\w.])[0-9]+\.[0-9]+(?:e[+-][0-9]+)?", l):
+        digits = re.sub(r"e.*", "", tok).replace(".", "").lstrip("0")
+        assert len(digits) <= 3, (tok, l)
+# One kinetic-energy line with both units; none of the old layout's wording.
+ke = [l for l in lines if "kinetic energy" in l]
+assert len(ke) == 1 and " J = " in ke[0] and "Mt TNT" in ke[0], ke
+text = "\n".join(lines)
+for phrase in ("transient cavity", "burst altitude", "breakup altitude", "speed at the sea"):
+    assert phrase not in text, phrase
+PY
+then sl_ok "summary opens with the water numbers, 3 significant figures, one energy line"; else sl_fail "demo summary layout"; fi
+sl_expect_exit 0 "run the demo with -v after the command" "$SL_BIN" run "$demo" -v
+nv=$(wc -l <"$SL_TMP/out")
+[ "$nv" -gt "$n" ] && sl_ok "-v adds the detail ($nv lines)" || sl_fail "-v gave $nv lines"
+sl_expect_grep "$SL_TMP/out" "plume sources" "-v lists the plume sources"
+sl_expect_grep "$SL_TMP/out" "removed by photolysis" "-v lists the box-model sinks"
+
+# --set on run: the value is in the key's own unit; the JSON records the origin.
+sl_expect_exit 0 "run --set" "$SL_BIN" run --json --set impactor.speed_km_s=25 --set site.atmosphere=subarctic-winter "$ex"
+if /usr/bin/python3 - "$SL_TMP/out" "$SL_TMP/ex.json" <<'PY'
+import json, sys
+d = json.load(open(sys.argv[1])); b = json.load(open(sys.argv[2]))
+p = d["parameters"]
+assert p["impactor.speed_km_s"]["value"] == 25 and p["impactor.speed_km_s"]["origin"] == "set"
+assert p["site.atmosphere"]["value"] == "subarctic-winter" and p["site.atmosphere"]["origin"] == "set"
+assert d["atmosphere"] == "subarctic-winter", d["atmosphere"]
+# kinetic energy scales with the speed squared (same body)
+assert abs(d["energy_J"] / b["energy_J"] - (25 / b["parameters"]["impactor.speed_km_s"]["value"]) ** 2) < 1e-9
+PY
+then sl_ok "run --set takes km/s and a profile name"; else sl_fail "run --set"; fi
+sl_expect_exit 65 "run --set out of range" "$SL_BIN" run --set impactor.speed_km_s=80 "$ex"
+sl_expect_grep "$SL_TMP/err" "--set impactor.speed_km_s: 80 is out of range (valid range: 11 to 73 km/s)" "run --set error names option, key, range"
+sl_expect_exit 64 "run -j is no option (threads elsewhere)" "$SL_BIN" run -j "$ex"
 sl_done
