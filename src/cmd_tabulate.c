@@ -516,8 +516,8 @@ static void print_text(FILE *f, const tab_list *l, size_t failed)
     if (failed)
         fprintf(f, ", %zu failed (their rows say why)", failed);
     fprintf(f, "\n\n");
-    fprintf(f, "%-*s  %-9s  %-8s %9s %9s %11s %9s %9s  %s\n", w, "", "", "", "energy", "at sea",
-            "above trop", "of bkgd", "e-fold", "");
+    fprintf(f, "%-*s  %-9s  %-8s %9s %9s %11s %9s %9s\n", w, "", "", "", "energy", "at sea",
+            "above trop", "of bkgd", "e-fold");
     fprintf(f, "%-*s  %-9s  %-8s %9s %9s %11s %9s %9s  %s\n", w, "name", "event", "regime", "Mt TNT",
             "Mt TNT", "Tg water", "%", "years", "validity (full text: --csv, --json)");
     for (size_t i = 0; i < l->n; i++) {
