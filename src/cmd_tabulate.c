@@ -88,6 +88,9 @@ static int add_job(tab_list *l, tab_job j, sl_err *e)
     return SL_OK;
 }
 
+/* Release the list, the folder file names and the base; return CODE. */
+static int cleanup(tab_list *l, char **names, size_t nnames, sl_scenario *base, int code);
+
 static void list_free(tab_list *l)
 {
     for (size_t i = 0; i < l->n; i++)
@@ -103,18 +106,6 @@ static int ends_with(const char *s, const char *suffix)
 {
     size_t n = strlen(s), m = strlen(suffix);
     return n > m && strcmp(s + n - m, suffix) == 0;
-}
-
-static void stem_of(const char *path, char *buf, size_t n)
-{
-    const char *base = strrchr(path, '/');
-    base = base ? base + 1 : path;
-    const char *dot = strrchr(base, '.');
-    size_t len = (dot && dot != base) ? (size_t)(dot - base) : strlen(base);
-    if (len >= n)
-        len = n - 1;
-    memcpy(buf, base, len);
-    buf[len] = '\0';
 }
 
 /* Split one CSV line in place: fields separated by commas, optionally in
@@ -197,7 +188,7 @@ static int add_table(tab_list *l, const char *path, sl_err *e)
     l->table = tp;
     l->table[l->ntables++] = t;
     snprintf(t->path, sizeof t->path, "%s", path);
-    stem_of(path, t->stem, sizeof t->stem);
+    sl_scenario_path_stem(path, t->stem, sizeof t->stem);
     int rc = SL_OK, lineno = 0, have_header = 0, rows = 0;
     while (rc == SL_OK && fgets(line, MAX_LINE + 2, f) != NULL) {
         lineno++;
@@ -371,7 +362,7 @@ static void run_job(tab_job *j, const sl_scenario *base, const sl_cli_sets *sets
     else if (sc->path[0])
         sl_scenario_name(sc, j->name, sizeof j->name);
     else
-        stem_of(j->source, j->name, sizeof j->name);
+        sl_scenario_path_stem(j->source, j->name, sizeof j->name);
     j->kind = sc->kind == SL_SCENARIO_IMPACTOR ? "impactor" : sc->kind == SL_SCENARIO_EXPLOSION ? "explosion" : "";
     if (rc == SL_OK)
         rc = sl_chain_run(sc, ch, &e);
@@ -651,12 +642,7 @@ int sl_cmd_tabulate(int argc, char **argv, const sl_cli_globals *g)
         rc = sl_err_set(&e, SL_EDATA, __func__, __LINE__, "the tables hold no scenario rows");
     if (rc != SL_OK) {
         int code = rc == SL_EUSAGE ? sl_cli_usage_error(g, "tabulate", "%s", e.msg) : sl_cli_report(g, "tabulate", &e);
-        list_free(&l);
-        for (size_t i = 0; i < nnames; i++)
-            free(names[i]);
-        free(names);
-        free(base);
-        return code;
+        return cleanup(&l, names, nnames, base, code);
     }
 
     /* Run: one chain per thread, rows in input order. */
@@ -713,7 +699,12 @@ int sl_cmd_tabulate(int argc, char **argv, const sl_cli_globals *g)
             fprintf(stderr, "%s tabulate: %zu of %zu scenarios failed (see their rows)\n", g->prog, failed, l.n);
         code = EX_DATAERR;
     }
-    list_free(&l);
+    return cleanup(&l, names, nnames, base, code);
+}
+
+static int cleanup(tab_list *l, char **names, size_t nnames, sl_scenario *base, int code)
+{
+    list_free(l);
     for (size_t i = 0; i < nnames; i++)
         free(names[i]);
     free(names);

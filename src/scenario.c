@@ -555,12 +555,15 @@ static int override_key(sl_scenario *sc, const char *assignment, unsigned char h
                                      "impactor.diameter_m=250",
                        assignment ? assignment : "");
     char name[128];
-    size_t nl = (size_t)(eq - assignment);
-    while (nl > 0 && isspace((unsigned char)assignment[nl - 1]))
+    const char *key = assignment;
+    while (key < eq && isspace((unsigned char)*key))
+        key++;
+    size_t nl = (size_t)(eq - key);
+    while (nl > 0 && isspace((unsigned char)key[nl - 1]))
         nl--;
     if (nl >= sizeof name)
         nl = sizeof name - 1;
-    memcpy(name, assignment, nl);
+    memcpy(name, key, nl);
     name[nl] = '\0';
     const char *value = eq + 1;
     while (isspace((unsigned char)*value))
@@ -777,8 +780,15 @@ void sl_scenario_name(const sl_scenario *sc, char *buf, size_t n)
         snprintf(buf, n, "%s", sc->raw[SL_P_SCENARIO_NAME]);
         return;
     }
-    const char *base = strrchr(sc->path, '/');
-    base = base ? base + 1 : sc->path;
+    sl_scenario_path_stem(sc->path, buf, n);
+}
+
+void sl_scenario_path_stem(const char *path, char *buf, size_t n)
+{
+    if (n == 0)
+        return;
+    const char *base = strrchr(path, '/');
+    base = base ? base + 1 : path;
     if (strcmp(base, "<stdin>") == 0 || base[0] == '\0')
         base = "stdin";
     const char *dot = strrchr(base, '.');

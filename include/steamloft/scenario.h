@@ -315,6 +315,9 @@ const char *sl_scenario_text(const sl_scenario *sc, sl_param_id id);
  * file name without folders and extension ("demo" for examples/demo.ini,
  * "stdin" for standard input).  Always NUL-terminated; truncated to N-1. */
 void sl_scenario_name(const sl_scenario *sc, char *buf, size_t n);
+/* The file name of PATH without folders and extension ("stdin" for "-" shown
+ * as "<stdin>"): the name's fallback, also for tables of scenarios. */
+void sl_scenario_path_stem(const char *path, char *buf, size_t n);
 /* Raw text of a key as written in the file (or given by an override, line
  * 0) and its line, or NULL when neither has the key. */
 const char *sl_scenario_raw(const sl_scenario *sc, sl_param_id id, int *line);
