@@ -612,9 +612,9 @@ static void text_sea(FILE *o, const sl_chain *ch, fmt_ring *f, int detail)
     }
     row(o, "energy arriving", "%s Mt (%s method)", f3(f, pt->energy_at_sea_J * mt),
         pt->method == SL_PARTITION_SHOCK ? "shock" : "budget");
-    row(o, "shared out", "%s Mt into steam, %s Mt heat, %s Mt spray",
-        f3(f, pt->energy_vaporization_J * mt), f3(f, pt->energy_plume_heat_J * mt), f3(f, pt->energy_liquid_heat_J * mt));
-    row(o, "  rest (crater, waves, rock)", "%s Mt", f3(f, pt->energy_other_J * mt));
+    row(o, "shared out (Mt)", "%s steam, %s plume heat, %s spray, %s crater, waves, rock",
+        f3(f, pt->energy_vaporization_J * mt), f3(f, pt->energy_plume_heat_J * mt), f3(f, pt->energy_liquid_heat_J * mt),
+        f3(f, pt->energy_other_J * mt));
     row(o, "opening in the water, across", "%s km%s", f3(f, pt->cavity_diameter_m * 1e-3),
         pt->shallow ? " (reaches the sea floor)" : "");
     if (!detail)
@@ -674,8 +674,7 @@ static void text_layers(FILE *o, const sl_chain *ch, fmt_ring *f, int detail)
         group = (size_t)lround(10000.0 / width);
     if (group < 1)
         group = 1;
-    fprintf(o, "\nWhere the lofted water sits (Tg)\n");
-    fprintf(o, "  %8s %8s  %10s %10s\n", "from km", "to km", "vapour", "ice");
+    fprintf(o, "\n%-37s%10s %10s\n", "Where the lofted water sits (Tg)", "vapour", "ice");
     for (size_t i = 0; i < inj->n_bands; i += group) {
         size_t end = i + group < inj->n_bands ? i + group : inj->n_bands;
         double v = 0, c = 0;
@@ -685,8 +684,9 @@ static void text_layers(FILE *o, const sl_chain *ch, fmt_ring *f, int detail)
         }
         if (v == 0.0 && c == 0.0)
             continue;
-        fprintf(o, "  %8.1f %8.1f  %10s %10s\n", inj->band_bottom_m[i] * 1e-3, inj->band_top_m[end - 1] * 1e-3,
-                f3(f, v * 1e-9), f3(f, c * 1e-9));
+        char layer[48];
+        snprintf(layer, sizeof layer, "%.1f to %.1f km", inj->band_bottom_m[i] * 1e-3, inj->band_top_m[end - 1] * 1e-3);
+        fprintf(o, "  %-34s %10s %10s\n", layer, f3(f, v * 1e-9), f3(f, c * 1e-9));
     }
 }
 

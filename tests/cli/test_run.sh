@@ -135,4 +135,27 @@ then sl_ok "run --set takes km/s and a profile name"; else sl_fail "run --set"; 
 sl_expect_exit 65 "run --set out of range" "$SL_BIN" run --set impactor.speed_km_s=80 "$ex"
 sl_expect_grep "$SL_TMP/err" "--set impactor.speed_km_s: 80 is out of range (valid range: 11 to 73 km/s)" "run --set error names option, key, range"
 sl_expect_exit 64 "run -j is no option (threads elsewhere)" "$SL_BIN" run -j "$ex"
+
+# --set on ensemble and sweep is the same as editing the file (same seed,
+# same members, byte-identical per-member CSV).
+ens="$SL_SRCDIR/examples/ensemble-stony.ini"
+sed 's/^ocean_depth_m = 4500/ocean_depth_m = 900/' "$ens" >"$SL_TMP/ens-edited.ini"
+grep -q '^ocean_depth_m = 900' "$SL_TMP/ens-edited.ini" || sl_fail "test setup: the edit did not apply"
+cp "$ens" "$SL_TMP/ens-edited-set.ini"
+sl_expect_exit 0 "ensemble --set" "$SL_BIN" ensemble "$SL_TMP/ens-edited-set.ini" --members 12 --seed 3 --no-progress \
+  --set site.ocean_depth_m=900 -o "$SL_TMP/e-set.csv"
+"$SL_BIN" ensemble "$SL_TMP/ens-edited.ini" --members 12 --seed 3 --no-progress -o "$SL_TMP/e-file.csv" >/dev/null 2>&1
+"$SL_BIN" ensemble "$ens" --members 12 --seed 3 --no-progress -o "$SL_TMP/e-base.csv" >/dev/null 2>&1
+cmp -s "$SL_TMP/e-set.csv" "$SL_TMP/e-file.csv" && sl_ok "ensemble --set equals the edited file" || sl_fail "ensemble --set differs from the edited file"
+cmp -s "$SL_TMP/e-set.csv" "$SL_TMP/e-base.csv" && sl_fail "ensemble --set changed nothing" || sl_ok "ensemble --set changed the members"
+sl_expect_exit 0 "ensemble --set a distribution" "$SL_BIN" ensemble "$ens" --members 8 --no-progress \
+  --set "site.latitude_deg=uniform(-10, 10)" --json
+sl_expect_grep "$SL_TMP/out" "site.latitude_deg" "the distribution given by --set is an ensemble input"
+sl_expect_exit 0 "sweep --set" "$SL_BIN" sweep "$SL_TMP/bravo.ini" --vary explosion.energy_Mt=5,20 \
+  --set site.atmosphere=midlatitude-winter --no-progress -o "$SL_TMP/s-set.csv"
+sed 's/^latitude_deg = 11.7/latitude_deg = 11.7\natmosphere = midlatitude-winter/' "$SL_TMP/bravo.ini" >"$SL_TMP/bravo-mw.ini"
+"$SL_BIN" sweep "$SL_TMP/bravo-mw.ini" --vary explosion.energy_Mt=5,20 --no-progress -o "$SL_TMP/s-file.csv" >/dev/null 2>&1
+cmp -s "$SL_TMP/s-set.csv" "$SL_TMP/s-file.csv" && sl_ok "sweep --set equals the edited file" || sl_fail "sweep --set differs"
+sl_expect_exit 64 "ensemble --set unknown key" "$SL_BIN" ensemble "$ens" --set site.depth=3
+sl_expect_grep "$SL_TMP/err" "unknown key 'site.depth'" "ensemble names the bad --set key"
 sl_done
