@@ -1,11 +1,16 @@
-/* output_text: the summary of a run, as a readable table or as JSON.
+/* output_text: the summary of a run, as a readable text or as JSON.
  *
- * Both formats come from one list of calls on an sl_report: each quantity is
- * emitted once with its JSON key (SI, unit in the key: energy_J), and a label
- * plus a display factor and unit for people (energy in Mt, altitudes in km).
- * NaN prints as null in JSON and "none" in text.  Later stages add their
- * quantities by adding calls in sl_output_text_summary (or a function of
- * their own called from it) with the same helpers.
+ * JSON comes from one list of calls on an sl_report: each quantity is
+ * emitted once with its JSON key (SI, unit in the key: energy_J) at full
+ * precision; `decay` uses the same report for text too (label, display
+ * factor and unit; three significant figures).  The text summary of `run`
+ * is written for people in the order they read it: the answer first
+ * (sl_key_results, the same numbers `tabulate` prints), then the water
+ * budget, then one section per stage in the order of the chain, each with
+ * a short default and its full detail under -v.  A stage adds its text
+ * lines in its section function in output_text.c (text_descent, text_sea,
+ * text_rise, ...) and its JSON keys in its emit_ function.  NaN prints as
+ * null in JSON and "none" in text.
  *
  * Every report carries the caution (sl_cli_caution()). */
 #ifndef STEAMLOFT_OUTPUT_TEXT_H
