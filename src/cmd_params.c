@@ -82,7 +82,7 @@ static void print_comment(const char *prefix, const char *text, int width)
         int take = len;
         if (plen + len > width) {
             take = width - plen;
-            while (take > 0 && p[take] != ' ')
+            while (take > 0 && p[take] != ' ' && p[take - 1] != '|') /* a space, or after a '|' */
                 take--;
             if (take == 0) { /* one long word: break it at the width */
                 take = width - plen;
