@@ -61,31 +61,40 @@ static void print_help(FILE *out)
             sl_cli_caution());
 }
 
-/* After "exists; not overwritten": the same command line with --force, so
- * the hint is a command that works as printed. */
+/* One word of a command line, quoted where a shell would split or expand it. */
+static void print_shell_word(const char *a)
+{
+    if (a[0] != '\0' && strspn(a, "abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ"
+                                   "0123456789-_./=,:+%@") == strlen(a)) {
+        fputs(a, stderr);
+        return;
+    }
+    fputc('\'', stderr);
+    for (const char *p = a; *p; p++) {
+        if (*p == '\'')
+            fputs("'\\''", stderr);
+        else
+            fputc(*p, stderr);
+    }
+    fputc('\'', stderr);
+}
+
+/* After "exists; not overwritten": the same command line (the program as it
+ * was typed, the same arguments) with --force, so the hint is a command that
+ * works as printed. */
 static void print_force_hint(const sl_cli_globals *g, const char *prog)
 {
     if (g == NULL || g->full_argv == NULL || g->full_argc < 2)
         return;
-    fprintf(stderr, "%s: to replace it, run: %s --force", prog, prog);
+    fprintf(stderr, "%s: to replace it, run: ", prog);
+    print_shell_word(g->full_argv[0] ? g->full_argv[0] : prog);
+    fputs(" --force", stderr);
     for (int i = 1; i < g->full_argc; i++) {
         const char *a = g->full_argv[i];
         if (strcmp(a, "-f") == 0 || strcmp(a, "--force") == 0)
             continue;
-        /* Quote what a shell would split or expand. */
-        if (a[0] != '\0' && strspn(a, "abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ"
-                                       "0123456789-_./=,:+%@") == strlen(a))
-            fprintf(stderr, " %s", a);
-        else {
-            fputs(" '", stderr);
-            for (const char *p = a; *p; p++) {
-                if (*p == '\'')
-                    fputs("'\\''", stderr);
-                else
-                    fputc(*p, stderr);
-            }
-            fputc('\'', stderr);
-        }
+        fputc(' ', stderr);
+        print_shell_word(a);
     }
     fputc('\n', stderr);
 }

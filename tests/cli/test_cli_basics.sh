@@ -35,9 +35,9 @@ want1=$("$SL_BIN" run --json "$ex" | sed -n 's/.*"strat_injected_kg": \([^,]*\),
 want2=$("$SL_BIN" run --json "$ex2" | sed -n 's/.*"strat_injected_kg": \([^,]*\),*/\1/p')
 sl_expect_exit 0 "run -o out.nc" "$SL_BIN" run "$ex" -o "$D/out.nc"
 sl_expect_exit 73 "no overwrite without --force" "$SL_BIN" run "$ex2" -o "$D/out.nc"
-sl_expect_grep "$SL_TMP/err" "to replace it, run: steamloft --force run " "the overwrite error gives the command"
-hint=$(sed -n 's/^steamloft: to replace it, run: steamloft //p' "$SL_TMP/err")
-sl_expect_exit 0 "the hint's command works as printed" sh -c "'$SL_BIN' $hint"
+sl_expect_grep "$SL_TMP/err" "to replace it, run: $SL_BIN --force run " "the overwrite error gives the command"
+hint=$(sed -n 's/^steamloft: to replace it, run: //p' "$SL_TMP/err")
+sl_expect_exit 0 "the hint's command works as printed" sh -c "$hint"
 [ "$(strat "$D/out.nc")" = "$want2" ] && sl_ok "the hint's command replaced the file" || sl_fail "file not replaced by the hint's command"
 sl_expect_exit 0 "run x.ini --force -o out.nc" "$SL_BIN" run "$ex" --force -o "$D/out.nc"
 [ "$(strat "$D/out.nc")" = "$want1" ] && sl_ok "--force after the command replaced the file" || sl_fail "--force after the command"
