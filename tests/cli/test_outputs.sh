@@ -136,12 +136,12 @@ else
 fi
 chmod 755 "$RO"
 
-# A later output failing removes the earlier ones of the same command: the
-# netCDF is named like a CSV file in the CSV directory, so the CSV set finds
-# it existing only after the netCDF was written (preflight saw neither).
+# A netCDF named like a CSV file is refused before anything is written (the
+# format follows the name), so it can no longer clash with the CSV set.
 mkdir -p "$D/clash"
-sl_expect_exit 73 "a later output fails (name clash)" "$SL_BIN" decay "$PROF" -o "$D/clash/profile.csv" --csv "$D/clash"
-[ -z "$(ls -A "$D/clash")" ] && sl_ok "the earlier netCDF of that command was removed again" || sl_fail "left: $(ls -A "$D/clash")"
+sl_expect_exit 64 "-o with a .csv name is refused" "$SL_BIN" decay "$PROF" -o "$D/clash/profile.csv" --csv "$D/clash"
+sl_expect_grep "$SL_TMP/err" "must end in .nc" "the refusal says why"
+[ -z "$(ls -A "$D/clash")" ] && sl_ok "nothing was written" || sl_fail "left: $(ls -A "$D/clash")"
 
 # Usage mistakes.
 sl_expect_exit 64 "-o - (netCDF to stdout)" "$SL_BIN" decay "$PROF" -o -

@@ -40,8 +40,8 @@ PY
 then sl_ok "NECTAR cloud within 10 %, keys and band bookkeeping"; else sl_fail "NECTAR cloud, keys or bookkeeping"; fi
 
 sl_expect_exit 0 "text summary" "$SL_BIN" run "$SL_TMP/nectar.ini"
-sl_expect_grep "$SL_TMP/out" "vapour above the tropopause" "text summary gives the stratospheric water"
-sl_expect_grep "$SL_TMP/out" "Bands holding lofted water" "text summary lists the bands"
+sl_expect_grep "$SL_TMP/out" "water above the tropopause .* Tg vapour" "text summary gives the stratospheric water"
+sl_expect_grep "$SL_TMP/out" "Where the lofted water sits" "text summary lists the bands"
 
 # A wider entrainment makes a lower cloud (MTT: z_max ~ alpha^-3/4).
 printf '[plume]\nentrainment_coefficient = 0.35\n' >>"$SL_TMP/nectar.ini"
