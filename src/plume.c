@@ -104,7 +104,6 @@
  *
  * Units: SI throughout (m, s, kg, J, K, Pa). */
 #include "steamloft/plume.h"
-#include "steamloft/scenario.h"
 #include "steamloft/units.h"
 #include "steamloft/water.h"
 
@@ -565,16 +564,6 @@ int sl_plume_set_params(sl_plume *pl, const sl_plume_params *par, sl_err *e)
     }
     pl->par = *par;
     return SL_OK;
-}
-
-void sl_plume_params_from_scenario(sl_plume_params *par, const sl_scenario *sc)
-{
-    sl_plume_params_default(par);
-    par->entrainment_alpha = sl_scenario_value(sc, SL_P_PLUME_ALPHA);
-    par->added_mass_k = sl_scenario_value(sc, SL_P_PLUME_ADDED_MASS);
-    par->fallout_speed_m_s = sl_scenario_value(sc, SL_P_PLUME_FALLOUT_SPEED);
-    par->ice_sediment_fraction = sl_scenario_value(sc, SL_P_PLUME_ICE_SEDIMENT);
-    par->rtol = sl_scenario_value(sc, SL_P_PLUME_RTOL);
 }
 
 void sl_plume_free(sl_plume *pl)

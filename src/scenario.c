@@ -18,7 +18,7 @@
  * 2005 (MAPS 40, 817, eq. 9), Y = 10^(2.107 + 0.0624 sqrt(rho)) Pa with rho in
  * kg m-3, fitted by them to bolide breakup data. */
 #include "steamloft/scenario.h"
-#include "steamloft/ensemble.h"
+#include "steamloft/dist.h"
 #include "steamloft/units.h"
 #include "steamloft/units_table.h"
 

@@ -139,7 +139,6 @@
  * the background water above 16 km (the reference domain), and the global
  * mean anomaly is the excess over the air of that domain. */
 #include "steamloft/strat.h"
-#include "steamloft/scenario.h"
 #include "steamloft/units.h"
 
 #include <gsl/gsl_eigen.h>
@@ -220,19 +219,6 @@ void sl_strat_params_default(sl_strat_params *p)
     p->span_s = 20.0 * SL_S_PER_YEAR;
     p->step_s = MONTH_S;
     p->start_month = 1;
-}
-
-void sl_strat_params_from_scenario(sl_strat_params *p, const struct sl_scenario *sc)
-{
-    sl_strat_params_default(p);
-    p->span_s = sl_scenario_value(sc, SL_P_STRAT_SPAN);
-    p->step_s = sl_scenario_value(sc, SL_P_STRAT_STEP);
-    p->deep_branch_fraction = sl_scenario_value(sc, SL_P_STRAT_DEEP_BRANCH);
-    p->inmixing_time_s = sl_scenario_value(sc, SL_P_STRAT_INMIXING);
-    p->lms_residence_s = sl_scenario_value(sc, SL_P_STRAT_LMS_RESIDENCE);
-    p->antarctic_vortex_fraction = sl_scenario_value(sc, SL_P_STRAT_VORTEX);
-    double month = sl_scenario_value(sc, SL_P_SITE_MONTH);
-    p->start_month = isfinite(month) && month >= 1.0 && month <= 12.0 ? (int)month : 0;
 }
 
 int sl_strat_params_check(const sl_strat_params *p, sl_err *e)

@@ -48,6 +48,7 @@
 #include <stddef.h>
 
 #include "steamloft/err.h"
+#include "steamloft/event_kind.h"
 
 /* Sections: X(ID, name, meaning). */
 #define SL_SCENARIO_SECTIONS(X)                                                                    \
@@ -236,11 +237,6 @@ typedef enum sl_param_origin {
     SL_ORIGIN_EXTERNAL    /* handed to another module, not yet set */
 } sl_param_origin;
 
-typedef enum sl_scenario_kind {
-    SL_SCENARIO_NONE = 0,
-    SL_SCENARIO_IMPACTOR,  /* [impactor]: entry, then partition at the sea */
-    SL_SCENARIO_EXPLOSION  /* [explosion]: a source given directly */
-} sl_scenario_kind;
 
 enum { SL_SCENARIO_RAW_LEN = 200, SL_SCENARIO_PATH_LEN = 256 };
 

@@ -101,11 +101,6 @@ void sl_strat_params_default(sl_strat_params *p);
  * padding never matters), else 0. */
 int sl_strat_params_equal(const sl_strat_params *a, const sl_strat_params *b);
 
-/* The defaults overridden by the scenario's [strat] keys and [site] month
- * (0 = unknown).  The region backgrounds are named by
- * sl_scenario_text(sc, SL_P_STRAT_TROPICS_ATMOSPHERE / _EXTRATROPICS_ATMOSPHERE). */
-struct sl_scenario;
-void sl_strat_params_from_scenario(sl_strat_params *p, const struct sl_scenario *sc);
 
 /* Check every parameter against its valid range; SL_EDATA names the field and the range. */
 int sl_strat_params_check(const sl_strat_params *p, sl_err *e);
