@@ -114,7 +114,7 @@ fi
 size=$(estimate) || size="size unknown"
 echo "deps: installing $size (takes a minute or more; messages in $log)" >&2
 start=$(date +%s)
-if ! apt-get install -y -q --no-install-recommends $missing >>"$log" 2>&1; then
+if ! apt-get install -y -q --no-install-recommends -o APT::Keep-Downloaded-Packages=false $missing >>"$log" 2>&1; then
   tail -n 15 "$log" | sed 's/^/deps:   /' >&2
   echo "deps: apt-get install failed (full messages in $log); run by hand: $hint" >&2
   exit 1
