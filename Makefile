@@ -142,9 +142,11 @@ demo-run: $(BIN)
 	$(BIN) --force run $(DEMO_SCENARIO) -o $(DEMO_OUT)/demo.nc --csv $(DEMO_OUT)/csv --plot $(DEMO_OUT)/plots
 	@echo
 	@echo "demo: outputs in $(DEMO_OUT)/:"
-	@echo "  demo.nc   CF-1.11 netCDF: try 'ncdump -h $(DEMO_OUT)/demo.nc' or 'cdo sinfon $(DEMO_OUT)/demo.nc'"
+	@echo "  demo.nc   CF-1.11 netCDF: try 'ncdump -h $(DEMO_OUT)/demo.nc' (package netcdf-bin)"
+	@echo "            or 'cdo sinfon $(DEMO_OUT)/demo.nc' (scripts/deps.sh cdo)"
 	@echo "  csv/      profile.csv, background.csv, series.csv, series_layers.csv"
-	@echo "  plots/    profile, decay and column plots (SVG, PNG) and the editable script steamloft.gp"
+	@echo "  plots/    profile, decay, column, section and sinks plots (SVG, PNG) and the"
+	@echo "            editable script steamloft.gp"
 
 # Regenerate the shipped profiles in atmospheres/ (scripts/make-atmospheres.sh).
 atmospheres: build
