@@ -66,6 +66,35 @@ static void gp_string(FILE *fp, const char *text)
     fputc('"', fp);
 }
 
+/* The caution and the macro that puts it under the title of every plot. */
+static void script_caution(FILE *fp)
+{
+    fputs("caution = ", fp);
+    gp_string(fp, sl_cli_caution());
+    fputs("\n# the caution under the title of every plot\n"
+          "caution_label = \"set label 99 caution at graph 0.5, graph 1 offset 0, 0.9 center font \\\",9\\\" "
+          "tc rgb c_caution noenhanced; set title offset 0, 1.2; set tmargin 4.5\"\n",
+          fp);
+}
+
+/* The drawing loop's head: each plot is drawn once as SVG, once as PNG. */
+static void script_loop_head(FILE *fp)
+{
+    fputs("\n# ---- drawing -------------------------------------------------------------\n"
+          "set encoding utf8\n"
+          "do for [fmt in \"svg png\"] {\n"
+          "  if (fmt eq \"svg\") {\n"
+          "    set terminal svg size svg_w, svg_h dynamic enhanced font font_name background \"white\"\n"
+          "  } else {\n"
+          "    set terminal pngcairo size png_w, png_h enhanced font font_name background \"white\"\n"
+          "  }\n"
+          "  reset\n"
+          "  set border lw 1 lc rgb \"#444444\"\n"
+          "  set grid lc rgb \"#dddddd\" lw 1\n"
+          "  set key opaque box\n",
+          fp);
+}
+
 static void header(FILE *fp, const sl_output_view *v, const char *what)
 {
     fprintf(fp, "# %s\n# %s: %s\n# %s\n", what, sl_cli_version(),
@@ -295,12 +324,8 @@ static void write_script(FILE *fp, const sl_output_view *v)
     fputs("# ---- what was run -------------------------------------------------------\n", fp);
     fputs("run_title = ", fp);
     gp_string(fp, v->title && v->title[0] ? v->title : "steamloft run");
-    fputs("\ncaution = ", fp);
-    gp_string(fp, sl_cli_caution());
-    fputs("\n# the caution under the title of every plot\n"
-          "caution_label = \"set label 99 caution at graph 0.5, graph 1 offset 0, 0.9 center font \\\",9\\\" "
-          "tc rgb c_caution noenhanced; set title offset 0, 1.2; set tmargin 4.5\"\n",
-          fp);
+    fputc('\n', fp);
+    script_caution(fp);
     if (isfinite(trop))
         fprintf(fp, "trop_km = %.6g\n", sl_m_to_km(trop));
     else
@@ -355,19 +380,8 @@ static void write_script(FILE *fp, const sl_output_view *v)
         fputs("validity = \"\"\n", fp);
     }
 
-    fputs("\n# ---- drawing -------------------------------------------------------------\n"
-          "set encoding utf8\n"
-          "do for [fmt in \"svg png\"] {\n"
-          "  if (fmt eq \"svg\") {\n"
-          "    set terminal svg size svg_w, svg_h dynamic enhanced font font_name background \"white\"\n"
-          "  } else {\n"
-          "    set terminal pngcairo size png_w, png_h enhanced font font_name background \"white\"\n"
-          "  }\n"
-          "  reset\n"
-          "  set border lw 1 lc rgb \"#444444\"\n"
-          "  set grid lc rgb \"#dddddd\" lw 1\n"
-          "  set key opaque box\n"
-          "\n"
+    script_loop_head(fp);
+    fputs("\n"
           "  # 1. lofted water against altitude, tropopause and background marked\n"
           "  set output \"profile.\".fmt\n"
           "  set title run_title noenhanced\n"
@@ -587,6 +601,22 @@ static int render_and_commit(sl_outset *set, const sl_plot_options *o, const cha
     return sl_outset_commit(set, e);
 }
 
+/* After the data and script of SET were written with status RC: render and
+ * commit, or on any failure remove everything; SET is freed. */
+static int finish(sl_outset *set, int rc, const sl_plot_options *o, const char *script,
+                  const char *const *images, size_t n_images, sl_plot_result *res, sl_err *e)
+{
+    if (rc == SL_OK)
+        rc = render_and_commit(set, o, script, images, n_images, res, e);
+    if (rc != SL_OK) {
+        sl_outset_abort(set);
+        sl_err_push(e, rc, __func__, __LINE__);
+        res->n_files = 0;
+    }
+    free(set);
+    return rc;
+}
+
 int sl_plot_write(const sl_output_view *v, const char *dir, const sl_plot_options *opt,
                   sl_plot_result *res, sl_err *e)
 {
@@ -625,15 +655,7 @@ int sl_plot_write(const sl_output_view *v, const char *dir, const sl_plot_option
         rc = sl_output_write_file(set, "sinks.dat", write_sinks, v, e);
     if (rc == SL_OK)
         rc = sl_output_write_file(set, "steamloft.gp", write_script, v, e);
-    if (rc == SL_OK)
-        rc = render_and_commit(set, &o, "steamloft.gp", images, n_images, res, e);
-    if (rc != SL_OK) {
-        sl_outset_abort(set);
-        sl_err_push(e, rc, __func__, __LINE__);
-        res->n_files = 0;
-    }
-    free(set);
-    return rc;
+    return finish(set, rc, &o, "steamloft.gp", images, n_images, res, e);
 }
 
 /* ---- ensemble plots ------------------------------------------------------ */
@@ -766,11 +788,8 @@ static void ens_write_script(FILE *fp, const sl_plot_ensemble_view *v)
     snprintf(title, sizeof title, "%s: %zu members",
              v->title && v->title[0] ? v->title : "steamloft ensemble", v->n_members);
     gp_string(fp, title);
-    fputs("\ncaution = ", fp);
-    gp_string(fp, sl_cli_caution());
-    fputs("\ncaution_label = \"set label 99 caution at graph 0.5, graph 1 offset 0, 0.9 center "
-          "font \\\",9\\\" tc rgb c_caution noenhanced; set title offset 0, 1.2; set tmargin 4.5\"\n",
-          fp);
+    fputc('\n', fp);
+    script_caution(fp);
     fprintf(fp, "have_profile = %d\nhave_remaining = %d\n", v->n_band > 0, v->n_time > 0);
     if (v->n_band > 0) {
         double lo, hi;
@@ -785,19 +804,8 @@ static void ens_write_script(FILE *fp, const sl_plot_ensemble_view *v)
     }
     if (v->n_time > 0)
         fprintf(fp, "t_max = %.6g\n", sl_s_to_years(v->time_s[v->n_time - 1]));
-    fputs("\n# ---- drawing -------------------------------------------------------------\n"
-          "set encoding utf8\n"
-          "do for [fmt in \"svg png\"] {\n"
-          "  if (fmt eq \"svg\") {\n"
-          "    set terminal svg size svg_w, svg_h dynamic enhanced font font_name background \"white\"\n"
-          "  } else {\n"
-          "    set terminal pngcairo size png_w, png_h enhanced font font_name background \"white\"\n"
-          "  }\n"
-          "  reset\n"
-          "  set border lw 1 lc rgb \"#444444\"\n"
-          "  set grid lc rgb \"#dddddd\" lw 1\n"
-          "  set key opaque box\n"
-          "  if (have_profile) {\n"
+    script_loop_head(fp);
+    fputs("  if (have_profile) {\n"
           "    # 1. lofted water against altitude: 5-95 % band and median\n"
           "    set output \"ensemble_profile.\".fmt\n"
           "    set title run_title noenhanced\n"
@@ -877,13 +885,5 @@ int sl_plot_ensemble(const char *dir, const sl_plot_ensemble_view *v, const sl_p
         rc = ens_write_file(set, "ensemble_remaining.dat", ens_write_remaining, v, e);
     if (rc == SL_OK)
         rc = ens_write_file(set, "steamloft-ensemble.gp", ens_write_script, v, e);
-    if (rc == SL_OK)
-        rc = render_and_commit(set, &o, "steamloft-ensemble.gp", images, n_images, res, e);
-    if (rc != SL_OK) {
-        sl_outset_abort(set);
-        sl_err_push(e, rc, __func__, __LINE__);
-        res->n_files = 0;
-    }
-    free(set);
-    return rc;
+    return finish(set, rc, &o, "steamloft-ensemble.gp", images, n_images, res, e);
 }

@@ -61,6 +61,14 @@ static void check_svg_has(const char *path, const char *text)
     ck_assert_msg(strstr(buf, text) != NULL, "%s lacks '%s'", path, text);
 }
 
+/* gnuplot redraws everything from SCRIPT in DIR (the script stands alone). */
+static void redraw(const char *dir, const char *script)
+{
+    char cmd[700];
+    snprintf(cmd, sizeof cmd, "cd '%s' && gnuplot %s 2>&1", dir, script);
+    ck_assert_int_eq(run_cmd(cmd, NULL, 0), 0);
+}
+
 START_TEST(renders_all_plots)
 {
     build_fixture(0);
@@ -84,9 +92,7 @@ START_TEST(renders_all_plots)
         check_png(p, 1100, 830); /* png_w, png_h in the script */
     }
     /* The script is standalone: gnuplot redraws from it in the directory. */
-    char cmd[700];
-    snprintf(cmd, sizeof cmd, "cd '%s' && gnuplot steamloft.gp 2>&1", dir);
-    ck_assert_int_eq(run_cmd(cmd, NULL, 0), 0);
+    redraw(dir, "steamloft.gp");
     rm_tmp();
 }
 END_TEST
@@ -237,9 +243,7 @@ START_TEST(ensemble_renders)
         snprintf(p, sizeof p, "%s/%s.png", dir, names[i]);
         check_png(p, 1100, 830);
     }
-    char cmd[700];
-    snprintf(cmd, sizeof cmd, "cd '%s' && gnuplot steamloft-ensemble.gp 2>&1", dir);
-    ck_assert_int_eq(run_cmd(cmd, NULL, 0), 0);
+    redraw(dir, "steamloft-ensemble.gp");
     rm_tmp();
 }
 END_TEST

@@ -106,6 +106,19 @@ if command -v make >/dev/null 2>&1 && [ -f "$SL_SRCDIR/Makefile" ]; then
     sl_fail "steamloft folders left after uninstall"; fi
 fi
 
+# ---- each configuration in its own build folder ----------------------------
+# `make -n` shows what make would run without running it: MPI=1 compiles with
+# mpicc into build-mpi/, the default with cc into build/, so an MPI build after
+# a serial one (or after make check) cannot find serial objects up to date.
+if command -v make >/dev/null 2>&1 && [ -f "$SL_SRCDIR/Makefile" ]; then
+  (cd "$SL_SRCDIR" && env -u MAKEFLAGS -u MFLAGS -u MAKELEVEL -u BUILD make -n -B MPI=1 build) >"$SL_TMP/n-mpi.txt" 2>&1
+  if grep -q '^mpicc .* -o build-mpi/obj/main.o' "$SL_TMP/n-mpi.txt" && ! grep -q ' build/obj/' "$SL_TMP/n-mpi.txt"; then
+    sl_ok "make MPI=1 compiles with mpicc into build-mpi/"; else sl_fail "make MPI=1 does not build into build-mpi/ with mpicc"; head -3 "$SL_TMP/n-mpi.txt" | sed 's/^/#   /'; fi
+  (cd "$SL_SRCDIR" && env -u MAKEFLAGS -u MFLAGS -u MAKELEVEL -u BUILD make -n -B MPI=0 build) >"$SL_TMP/n-ser.txt" 2>&1
+  if grep -q '^cc .* -o build/obj/main.o' "$SL_TMP/n-ser.txt" && ! grep -q 'build-mpi' "$SL_TMP/n-ser.txt"; then
+    sl_ok "the serial build compiles with cc into build/"; else sl_fail "the serial build does not use build/"; head -3 "$SL_TMP/n-ser.txt" | sed 's/^/#   /'; fi
+fi
+
 if [ "$sl_n" -le 2 ] && [ -n "$skipped" ]; then
   echo "# SKIP:$skipped missing"
   exit 77
