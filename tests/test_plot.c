@@ -390,6 +390,48 @@ START_TEST(nothing_lofted_renders)
 }
 END_TEST
 
+/* Bands whose water is far below the mass axis (here 1e-7 of the peak, the
+ * axis starting 1e-4 below it) next to bands on it: no line of the lofted
+ * water may reach the plot's left edge (gnuplot clips a segment to an
+ * off-axis point at the border, which drew a spurious horizontal line there).
+ * Read from the SVG: the left edge is where the horizontal grid lines start;
+ * every vertex of the two lofted-water plots must lie clear of it (0.5 px,
+ * half the SVG's coordinate resolution of 0.01 px is far finer: PRACTICE). */
+START_TEST(no_line_at_the_axis_edge)
+{
+    build_fixture(0);
+    double peak = 0;
+    for (int i = 0; i < NB; i++)
+        peak = fmax(peak, F.vap[i]);
+    for (int i = 10; i < 20; i++)
+        F.vap[i] = F.ice[i] = 1e-7 * peak;
+    F.view.series = NULL;
+    mk_tmp();
+    sl_err e = {0};
+    sl_plot_result res;
+    ck_assert_msg(sl_plot_write(&F.view, tmpdir, NULL, &res, &e) == SL_OK, "%s", e.msg);
+    ck_assert_msg(res.rendered, "not rendered: %s", res.warning);
+    char cmd[1600], out[256];
+    snprintf(cmd, sizeof cmd,
+             "/usr/bin/python3 -c \"import re\n"
+             "s = open('%s/profile.svg').read()\n"
+             "g = re.search(r'class=.gridline.\\s+d=.M([0-9.]+),([0-9.]+) L[0-9.]+,\\2', s)\n"
+             "left = float(g.group(1))\n"
+             "n = bad = 0\n"
+             "for m in re.finditer(r'<title>lofted[^<]*</title>(.*?)</g>', s, re.S):\n"
+             "    for x in re.findall(r'[ML]([0-9.]+),', m.group(1)):\n"
+             "        n += 1; bad += abs(float(x) - left) < 0.5\n"
+             "print(n, bad)\"",
+             tmpdir);
+    ck_assert_int_eq(run_cmd(cmd, out, sizeof out), 0);
+    int n = 0, bad = -1;
+    ck_assert_int_eq(sscanf(out, "%d %d", &n, &bad), 2);
+    ck_assert_msg(n > 40, "only %d vertices of the lofted water found", n);
+    ck_assert_msg(bad == 0, "%d vertices of the lofted water on the axis edge", bad);
+    rm_tmp();
+}
+END_TEST
+
 static Suite *suite(int render)
 {
     Suite *s = suite_create("plot");
@@ -399,6 +441,7 @@ static Suite *suite(int render)
         tcase_add_test(tc, renders_all_plots);
         tcase_add_test(tc, nothing_lofted_renders);
         tcase_add_test(tc, ensemble_renders);
+        tcase_add_test(tc, no_line_at_the_axis_edge);
     }
     tcase_add_test(tc, data_values);
     tcase_add_test(tc, missing_gnuplot_is_a_warning);
