@@ -366,6 +366,8 @@ if command -v mpirun >/dev/null 2>&1 && command -v mpicc >/dev/null 2>&1; then
   export OMPI_MCA_btl_vader_single_copy_mechanism=none OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1
   # BUILD relative to the source tree, as the Makefile's dependency files name it.
   mbrel=build-mpi; mb="$SL_SRCDIR/$mbrel"
+  # Remove the MPI build afterwards unless it was there before (a user's own).
+  mb_keep=0; [ -d "$mb" ] && mb_keep=1
   # A plain MPI build even when this suite runs under `make sanitize` (whose
   # CFLAGS would reach a nested make through MAKEFLAGS).
   if (cd "$SL_SRCDIR" && env -u MAKEFLAGS -u MFLAGS -u MAKELEVEL -u CFLAGS -u LDFLAGS \
@@ -384,6 +386,7 @@ if command -v mpirun >/dev/null 2>&1 && command -v mpicc >/dev/null 2>&1; then
   else
     sl_fail "make MPI=1"; sed 's/^/#   /' "$SL_TMP/mk.txt" | tail -5
   fi
+  [ "$mb_keep" = 1 ] || rm -rf "$mb"
 else
   sl_skip "OpenMPI (mpirun, mpicc) not installed: the MPI build is not checked"
 fi
