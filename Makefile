@@ -1,17 +1,26 @@
 # steamloft Makefile.  Toggles (set on the command line, e.g. `make MPI=1`):
 #   OPENMP=1   OpenMP across ensemble members (default on; OPENMP=0 to disable)
-#   MPI=0      build with mpicc for cluster ensembles (MPI=1)
-#   BUILD=dir  build directory (default build/)
-#   PREFIX, DESTDIR for `make install`
-# Targets: all (default), check, demo, bench, sanitize, fuzz, deps, install, clean.
-# `check`, `demo`, `bench` and `all` first install missing Debian packages
-# (scripts/deps.sh), so each is one command on a fresh machine.
+#   MPI=0      MPI=1 builds with mpicc for cluster ensembles
+#   BUILD=dir  build directory; default build/ (serial) and build-mpi/ (MPI=1),
+#              so the two configurations never share objects
+#   PREFIX, DESTDIR for `make install` and `make uninstall`
+# Targets: all (default), check, demo, bench, sanitize, fuzz, deps, install,
+# uninstall, man, clean.
+# `all`, `check`, `demo`, `bench` and `sanitize` first install the missing
+# Debian packages of their groups (scripts/deps.sh: build and plot; check
+# adds test; MPI=1 adds mpi), so each is one command on a fresh machine.  `install` never
+# installs packages.
 
 OPENMP  ?= 1
 MPI     ?= 0
-BUILD   ?= build
+ifeq ($(MPI),1)
+  BUILD ?= build-mpi
+else
+  BUILD ?= build
+endif
 PREFIX  ?= /usr/local
 VERSION := 0.1.0
+DEPGROUPS := build plot$(if $(filter 1,$(MPI)), mpi)
 
 PKGS     = gsl netcdf inih
 TESTPKGS = check
@@ -42,19 +51,37 @@ TESTSRC  := $(wildcard tests/test_*.c)
 TESTBIN  := $(TESTSRC:tests/%.c=$(BUILD)/tests/%)
 GITHASH  := $(shell git rev-parse --short=12 HEAD 2>/dev/null || echo unknown)
 
+MAN      := $(BUILD)/steamloft.1
+COMPL    := $(BUILD)/steamloft.bash
+
 .PHONY: all build check check-run demo demo-run bench bench-run sanitize fuzz deps \
-        ensure-deps install clean check-symbols atmospheres FORCE
+        ensure-deps ensure-test-deps install uninstall man clean check-symbols atmospheres FORCE
 
 all: ensure-deps
 	@$(MAKE) --no-print-directory build
 
-build: $(BIN) $(TESTBIN)
+build: $(BIN) $(TESTBIN) $(MAN) $(COMPL)
 
 ensure-deps:
-	@scripts/deps.sh --if-missing
+	@scripts/deps.sh --if-missing $(DEPGROUPS)
 
+ensure-test-deps:
+	@scripts/deps.sh --if-missing $(DEPGROUPS) test
+
+# `make deps` installs the build, test and (with MPI=1) mpi groups;
+# `scripts/deps.sh mpi cdo fuzz` the optional extras.
 deps:
-	scripts/deps.sh
+	scripts/deps.sh $(DEPGROUPS) test
+
+# The manual page and the bash completion are generated from the help the
+# program itself prints, so they cannot drift from it.
+man: $(MAN)
+
+$(MAN): $(BIN) scripts/gen-man.sh
+	scripts/gen-man.sh $(BIN) $(VERSION) $(PREFIX) > $@.tmp && mv $@.tmp $@
+
+$(COMPL): $(BIN) scripts/gen-completion.sh
+	scripts/gen-completion.sh $(BIN) > $@.tmp && mv $@.tmp $@
 
 # The version header changes only when the git hash does, so a commit does not
 # force a full rebuild.
@@ -80,7 +107,7 @@ $(BUILD)/tests/%: tests/%.c tests/sl_test.h $(LIB)
 	@mkdir -p $(@D)
 	$(CC) $(CPPFLAGS) -Itests $(CFLAGS) $(LDFLAGS) -o $@ $< $(LIB) $(LDLIBS) $(CHECK_LIBS)
 
-check: ensure-deps
+check: ensure-test-deps
 	@$(MAKE) --no-print-directory check-run
 
 check-run: build check-symbols
@@ -115,15 +142,17 @@ demo-run: $(BIN)
 	$(BIN) --force run $(DEMO_SCENARIO) -o $(DEMO_OUT)/demo.nc --csv $(DEMO_OUT)/csv --plot $(DEMO_OUT)/plots
 	@echo
 	@echo "demo: outputs in $(DEMO_OUT)/:"
-	@echo "  demo.nc   CF-1.11 netCDF: try 'ncdump -h $(DEMO_OUT)/demo.nc' or 'cdo sinfon $(DEMO_OUT)/demo.nc'"
+	@echo "  demo.nc   CF-1.11 netCDF: try 'ncdump -h $(DEMO_OUT)/demo.nc' (package netcdf-bin)"
+	@echo "            or 'cdo sinfon $(DEMO_OUT)/demo.nc' (scripts/deps.sh cdo)"
 	@echo "  csv/      profile.csv, background.csv, series.csv, series_layers.csv"
-	@echo "  plots/    profile, decay and column plots (SVG, PNG) and the editable script steamloft.gp"
+	@echo "  plots/    profile, decay, column, section and sinks plots (SVG, PNG) and the"
+	@echo "            editable script steamloft.gp"
 
 # Regenerate the shipped profiles in atmospheres/ (scripts/make-atmospheres.sh).
 atmospheres: build
 	scripts/make-atmospheres.sh $(BIN) atmospheres
 
-sanitize: ensure-deps
+sanitize: ensure-test-deps
 	@$(MAKE) --no-print-directory BUILD=build-sanitize OPENMP=$(OPENMP) \
 	  CFLAGS="-O1 -g -fsanitize=address,undefined -fno-sanitize-recover=undefined -fno-omit-frame-pointer" \
 	  LDFLAGS="-fsanitize=address,undefined" check-run
@@ -145,12 +174,37 @@ fuzz: ensure-deps
 	  $(BUILD)/fuzz/$$n -max_total_time=$(FUZZ_SECONDS) -print_final_stats=0 $(BUILD)/fuzz/corpus-$$n examples atmospheres; \
 	done
 
-install: all
-	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/share/steamloft/atmospheres \
-	  $(DESTDIR)$(PREFIX)/share/steamloft/examples
-	install -m 755 $(BIN) $(DESTDIR)$(PREFIX)/bin/steamloft
-	install -m 644 atmospheres/* $(DESTDIR)$(PREFIX)/share/steamloft/atmospheres/
-	-install -m 644 examples/* $(DESTDIR)$(PREFIX)/share/steamloft/examples/
+# install never installs Debian packages: it fails with the apt-get line to
+# run when a build package is missing.
+BINDIR   = $(DESTDIR)$(PREFIX)/bin
+DATADIR  = $(DESTDIR)$(PREFIX)/share/steamloft
+DOCDIR   = $(DESTDIR)$(PREFIX)/share/doc/steamloft
+MANDIR   = $(DESTDIR)$(PREFIX)/share/man/man1
+COMPLDIR = $(DESTDIR)$(PREFIX)/share/bash-completion/completions
+EXAMPLES := $(wildcard examples/*)
+ATMOS    := $(wildcard atmospheres/*)
+
+install:
+	@scripts/deps.sh --if-missing --check build$(if $(filter 1,$(MPI)), mpi)
+	@$(MAKE) --no-print-directory $(BIN) $(MAN) $(COMPL)
+	install -d $(BINDIR) $(DATADIR)/atmospheres $(DATADIR)/examples $(DOCDIR)/examples \
+	  $(MANDIR) $(COMPLDIR)
+	install -m 755 $(BIN) $(BINDIR)/steamloft
+	install -m 644 $(ATMOS) $(DATADIR)/atmospheres/
+	install -m 644 $(EXAMPLES) $(DATADIR)/examples/
+	install -m 644 README.md LICENSE $(DOCDIR)/
+	install -m 644 $(EXAMPLES) $(DOCDIR)/examples/
+	scripts/gen-man.sh $(BIN) $(VERSION) $(PREFIX) > $(MAN).install
+	install -m 644 $(MAN).install $(MANDIR)/steamloft.1
+	install -m 644 $(COMPL) $(COMPLDIR)/steamloft
+
+# Removes exactly what install wrote, then the folders it made if empty.
+uninstall:
+	rm -f $(BINDIR)/steamloft $(MANDIR)/steamloft.1 $(COMPLDIR)/steamloft
+	rm -f $(DOCDIR)/README.md $(DOCDIR)/LICENSE
+	rm -f $(ATMOS:atmospheres/%=$(DATADIR)/atmospheres/%) $(EXAMPLES:examples/%=$(DATADIR)/examples/%) \
+	  $(EXAMPLES:examples/%=$(DOCDIR)/examples/%)
+	-rmdir $(DATADIR)/atmospheres $(DATADIR)/examples $(DATADIR) $(DOCDIR)/examples $(DOCDIR) 2>/dev/null
 
 clean:
 	rm -rf build build-sanitize build-*

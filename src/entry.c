@@ -336,49 +336,6 @@ const char *sl_entry_mode_name(int mode)
     return "unknown";
 }
 
-void sl_entry_params_from_scenario(sl_entry_params *p, const sl_scenario *sc)
-{
-    memset(p, 0, sizeof *p);
-    p->diameter_m = sl_scenario_value(sc, SL_P_IMPACTOR_DIAMETER);
-    p->density_kg_m3 = sl_scenario_value(sc, SL_P_IMPACTOR_DENSITY);
-    p->speed_m_s = sl_scenario_value(sc, SL_P_IMPACTOR_SPEED);
-    p->angle_rad = sl_scenario_value(sc, SL_P_IMPACTOR_ANGLE);
-    p->strength_Pa = sl_scenario_value(sc, SL_P_IMPACTOR_STRENGTH);
-    p->start_altitude_m = sl_scenario_value(sc, SL_P_ENTRY_START_ALTITUDE);
-    p->drag_coefficient = sl_scenario_value(sc, SL_P_ENTRY_DRAG);
-    p->heat_transfer_coefficient = sl_scenario_value(sc, SL_P_ENTRY_HEAT_TRANSFER);
-    p->heat_of_ablation_J_kg = sl_scenario_value(sc, SL_P_ENTRY_ABLATION_HEAT);
-    p->spread_coefficient = sl_scenario_value(sc, SL_P_ENTRY_SPREAD);
-    p->burst_spread_factor = sl_scenario_value(sc, SL_P_ENTRY_BURST_FACTOR);
-    p->breakup_model = (int)sl_scenario_value(sc, SL_P_ENTRY_BREAKUP_MODEL);
-    p->fragmenting_strength_Pa = sl_scenario_value(sc, SL_P_ENTRY_FRAGMENTING_STRENGTH);
-    p->fragment_count = (int)lround(sl_scenario_value(sc, SL_P_ENTRY_FRAGMENT_COUNT));
-    p->fragment_generations = (int)lround(sl_scenario_value(sc, SL_P_ENTRY_FRAGMENT_GENERATIONS));
-    p->cloud_fraction = sl_scenario_value(sc, SL_P_ENTRY_CLOUD_FRACTION);
-    p->weibull_exponent = sl_scenario_value(sc, SL_P_ENTRY_WEIBULL);
-    p->separation_coefficient = sl_scenario_value(sc, SL_P_ENTRY_SEPARATION);
-    p->radiation_temperature_K = sl_scenario_value(sc, SL_P_ENTRY_RADIATION_TEMPERATURE);
-    p->band_width_m = sl_scenario_value(sc, SL_P_ENTRY_BAND);
-    p->relative_tolerance = sl_scenario_value(sc, SL_P_ENTRY_RTOL);
-    p->imposed_burst_altitude_m = sl_scenario_value(sc, SL_P_AIRBURST_ALTITUDE);
-    p->imposed_burst_fraction = sl_scenario_value(sc, SL_P_AIRBURST_FRACTION);
-    p->flat_no_gravity = 0;
-}
-
-void sl_entry_params_breakup_defaults(sl_entry_params *p)
-{
-    /* These keys are in SI units already (Pa, dimensionless, counts; the
-     * choice's first word, auto, is index 0). */
-    p->breakup_model = (int)sl_scenario_params[SL_P_ENTRY_BREAKUP_MODEL].default_value;
-    p->fragmenting_strength_Pa = sl_scenario_params[SL_P_ENTRY_FRAGMENTING_STRENGTH].default_value;
-    p->fragment_count = (int)sl_scenario_params[SL_P_ENTRY_FRAGMENT_COUNT].default_value;
-    p->fragment_generations = (int)sl_scenario_params[SL_P_ENTRY_FRAGMENT_GENERATIONS].default_value;
-    p->cloud_fraction = sl_scenario_params[SL_P_ENTRY_CLOUD_FRACTION].default_value;
-    p->weibull_exponent = sl_scenario_params[SL_P_ENTRY_WEIBULL].default_value;
-    p->separation_coefficient = sl_scenario_params[SL_P_ENTRY_SEPARATION].default_value;
-    p->radiation_temperature_K = sl_scenario_params[SL_P_ENTRY_RADIATION_TEMPERATURE].default_value;
-}
-
 static int check_params(const sl_entry_params *p, sl_err *e)
 {
     const double pos[] = {p->diameter_m, p->density_kg_m3, p->speed_m_s, p->angle_rad,

@@ -95,7 +95,9 @@ int sl_output_chain_init(sl_output_chain *oc, const sl_chain *ch, const sl_strat
     int month = (int)lround(sc->value_si[SL_P_SITE_MONTH]);
     snprintf(oc->event_time, sizeof oc->event_time, "2000-%02d-01 00:00:00",
              month >= 1 && month <= 12 ? month : 1);
-    snprintf(oc->title, sizeof oc->title, "%s (%s)", sc->path,
+    char name[200];
+    sl_scenario_name(sc, name, sizeof name); /* the [scenario] name, else the file's base name */
+    snprintf(oc->title, sizeof oc->title, "%s (%s)", name,
              sc->kind == SL_SCENARIO_IMPACTOR ? "impactor" : "explosion");
     unsigned methods = SL_OUTPUT_USED_ATMOSPHERE | SL_OUTPUT_USED_WATER;
     if (ch->has_entry)

@@ -50,8 +50,8 @@ END_TEST
 
 START_TEST(tunguska_like)
 {
-    /* A Tunguska-like stony body (60 m, 3000 kg/m3, 15 km/s, 45 degrees, as
-     * in Chyba, Thomas & Zahnle 1993) bursts in the lower troposphere: Chyba, Thomas &
+    /* A Tunguska-like stony body (60 m, 3000 kg/m3, 15 km/s, 45 degrees, the
+     * usual stony Tunguska case of Collins et al. 2005) bursts in the lower troposphere: Chyba, Thomas &
      * Zahnle 1993 put Tunguska's release at ~10 km (SEEN).  We require 5-15 km,
      * i.e. below the U.S. Standard tropopause plus a few km, and 5-20 Mt
      * (10-20 Mt published; 3-5 Mt in later work, so the size is uncertain). */

@@ -20,6 +20,7 @@
 #include "steamloft/partition.h"
 #include "steamloft/plume.h"
 #include "steamloft/scenario.h"
+#include "steamloft/stage_params.h"
 #include "steamloft/strat.h"
 
 /* Stages timed by sl_chain_run (for `make bench`). */

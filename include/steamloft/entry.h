@@ -44,7 +44,6 @@
 #include <stddef.h>
 
 #include "steamloft/err.h"
-#include "steamloft/scenario.h"
 
 /* Air density at an altitude.  Must accept any altitude (extrapolating beyond
  * its table), return SL_OK or a status with the message in E. */
@@ -109,11 +108,6 @@ typedef struct sl_entry_group {
     double lateral_spread_m;       /* sideways distance from the body's path at the end */
 } sl_entry_group;
 
-/* Set the break-up members of P to the scenario table's defaults. */
-void sl_entry_params_breakup_defaults(sl_entry_params *p);
-
-/* Fill P from an impactor scenario (SI values straight from the table). */
-void sl_entry_params_from_scenario(sl_entry_params *p, const sl_scenario *sc);
 
 typedef struct sl_entry_work sl_entry_work; /* GSL workspaces (opaque) */
 

@@ -33,7 +33,7 @@
 
 #include "steamloft/err.h"
 
-enum { SL_OUTSET_MAX_FILES = 16, SL_OUTSET_PATH_LEN = 4096, SL_OUTSET_NAME_LEN = 256 };
+enum { SL_OUTSET_MAX_FILES = 32, SL_OUTSET_PATH_LEN = 4096, SL_OUTSET_NAME_LEN = 256 };
 
 typedef struct sl_outset {
     int active;                                  /* 1 between begin and commit/abort */

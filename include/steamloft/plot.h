@@ -44,4 +44,35 @@ typedef struct sl_plot_result {
 int sl_plot_write(const sl_output_view *v, const char *dir, const sl_plot_options *opt,
                   sl_plot_result *res, sl_err *e);
 
+/* An ensemble's spread, as plain arrays (the ensemble command computes the
+ * percentiles over its successful members; this module only draws them).
+ * Percentiles are the 5th, 50th and 95th of the members, per band and per
+ * time; each triple must be ordered p05 <= p50 <= p95, finite and >= 0. */
+typedef struct sl_plot_ensemble_view {
+    const char *title;                /* one line: the scenario's name */
+    size_t n_members;                 /* members behind the percentiles (for the legend) */
+    /* Lofted water (vapour + ice) per altitude band; n_band = 0: no profile plot. */
+    size_t n_band;
+    const double *band_bottom_m, *band_top_m; /* n_band, increasing, top > bottom */
+    const double *water_p05_kg, *water_p50_kg, *water_p95_kg; /* n_band */
+    double tropopause_m;              /* marked on the profile; NaN: not marked */
+    /* Fraction of the stratospheric excess still there; n_time = 0: no such plot. */
+    size_t n_time;
+    const double *time_s;             /* n_time, seconds after the event, increasing */
+    const double *remaining_p05, *remaining_p50, *remaining_p95; /* n_time, fractions 0..1 */
+} sl_plot_ensemble_view;
+
+/* Write the ensemble plots of V into DIR, all together or not at all:
+ *   ensemble_profile.dat    band bottom/top (km); p05, p50, p95 of the lofted
+ *                           water per km of altitude (Tg km-1), as a staircase
+ *   ensemble_remaining.dat  time (years); p05, p50, p95 of the remaining fraction
+ *   steamloft-ensemble.gp   the editable script (`gnuplot steamloft-ensemble.gp`)
+ *   ensemble_profile.svg/png, ensemble_remaining.svg/png  the 5-95 % band and
+ *                           the median; the caution on each.
+ * Errors and warnings as sl_plot_write; SL_EINTERNAL for a bad view (unordered
+ * percentiles, a non-finite or negative value, times or bands out of order,
+ * nothing to draw). */
+int sl_plot_ensemble(const char *dir, const sl_plot_ensemble_view *v, const sl_plot_options *opt,
+                     sl_plot_result *res, sl_err *e);
+
 #endif

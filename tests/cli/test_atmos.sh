@@ -13,7 +13,7 @@ sl_expect_exit 0 "atmos --help" "$SL_BIN" atmos --help
 sl_expect_grep "$SL_TMP/out" "Usage: steamloft atmos" "help text"
 
 # --at with the keys of issue 3; 216.77 K at 11 km is the USSA76 table value
-# (216.774 K, climate-facts.md section 7).
+# (216.774 K at 11 km geometric altitude, NOAA-S/T 76-1562 tables, SEEN).
 sl_expect_exit 0 "atmos --at 11000 us1976 --json" "$SL_BIN" atmos --at 11000 us1976 --json
 for k in altitude_m temperature_K pressure_Pa density_kg_m3 h2o_ppmv n2_per_s2 ice_saturation_ppmv; do
   sl_expect_grep "$SL_TMP/out" "\"$k\": " "--at JSON key $k"
