@@ -73,18 +73,29 @@
 #include "steamloft/units.h"
 #include "steamloft/water.h"
 
-#include <gsl/gsl_errno.h>
-#include <gsl/gsl_interp.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
+/* The interpolants: per level interval i, the Steffen cubic coefficients
+ * (a, b, c, d: y = d + t (c + t (b + t a)), t = z - z_i) of temperature,
+ * ln p and the water mole fraction, interleaved so one query reads one
+ * cache line or two.  They are computed exactly as GSL's gsl_interp_steffen
+ * computes its own (Steffen 1990; tests/test_atmosphere.c checks our values
+ * bit for bit against gsl_interp_eval), but evaluated here without the
+ * library's per-call dispatch, with one interval search for all three and
+ * the search position kept in a caller-owned sl_atmos_cursor. */
+enum { SPL_T = 0, SPL_LNP = 4, SPL_X = 8, SPL_STRIDE = 12 };
 struct sl_atmosphere_splines {
-    gsl_interp *temperature;
-    gsl_interp *log_pressure;
-    gsl_interp *h2o;
+    double *coef;            /* SPL_STRIDE per interval, n - 1 intervals */
     double *log_pressure_Pa; /* ln p at the levels */
+    /* Start of the interval search: cell k of a uniform grid of step
+     * 1/lut_inv_dz_m from the lowest level holds the interval of the cell's
+     * lower edge, so a query walks up at most a level or two from there. */
+    size_t *lut;
+    size_t n_lut;
+    double lut_inv_dz_m;
 };
 
 const char *const sl_atmosphere_builtin_names[] = {
@@ -507,23 +518,69 @@ static int alloc_levels(sl_atmosphere *a, size_t n, sl_err *e)
     return SL_OK;
 }
 
+/* Sign as GSL's steffen_copysign(1.0, y): +1 for y >= 0 (also -0), -1 below. */
+static double steffen_sign(double y)
+{
+    return y < 0.0 ? -1.0 : 1.0;
+}
+
+/* Steffen (1990) coefficients of Y on the levels of A into COEF + OFF (stride
+ * SPL_STRIDE), in GSL's order of operations (gsl_interp_steffen, steffen.c),
+ * so values agree with the library bit for bit.  YP: n scratch doubles. */
+static void steffen_coefficients(const double *x, const double *y, size_t n, double *yp, double *coef, int off)
+{
+    yp[0] = (y[1] - y[0]) / (x[1] - x[0]);
+    for (size_t i = 1; i + 1 < n; i++) {
+        const double hi = x[i + 1] - x[i], him1 = x[i] - x[i - 1];
+        const double si = (y[i + 1] - y[i]) / hi, sim1 = (y[i] - y[i - 1]) / him1;
+        const double pi = (sim1 * hi + si * him1) / (him1 + hi);
+        yp[i] = (steffen_sign(sim1) + steffen_sign(si)) * fmin(fabs(sim1), fmin(fabs(si), 0.5 * fabs(pi)));
+    }
+    yp[n - 1] = (y[n - 1] - y[n - 2]) / (x[n - 1] - x[n - 2]);
+    for (size_t i = 0; i + 1 < n; i++) {
+        const double hi = x[i + 1] - x[i];
+        const double si = (y[i + 1] - y[i]) / hi;
+        double *c = coef + i * SPL_STRIDE + off;
+        c[0] = (yp[i] + yp[i + 1] - 2 * si) / hi / hi;
+        c[1] = (3 * si - 2 * yp[i] - yp[i + 1]) / hi;
+        c[2] = yp[i];
+        c[3] = y[i];
+    }
+}
+
 static int build_splines(sl_atmosphere *a, sl_err *e)
 {
     struct sl_atmosphere_splines *sp = a->sp;
     for (size_t i = 0; i < a->n; i++)
         sp->log_pressure_Pa[i] = log(a->pressure_Pa[i]);
-    sp->temperature = gsl_interp_alloc(gsl_interp_steffen, a->n);
-    sp->log_pressure = gsl_interp_alloc(gsl_interp_steffen, a->n);
-    sp->h2o = gsl_interp_alloc(gsl_interp_steffen, a->n);
-    if (!sp->temperature || !sp->log_pressure || !sp->h2o)
+    sp->coef = malloc((a->n - 1) * SPL_STRIDE * sizeof(double));
+    double *yp = malloc(a->n * sizeof(double));
+    if (!sp->coef || !yp) {
+        free(yp);
         SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere '%s': cannot allocate interpolants", a->name);
-    int s = gsl_interp_init(sp->temperature, a->altitude_m, a->temperature_K, a->n);
-    if (s == GSL_SUCCESS)
-        s = gsl_interp_init(sp->log_pressure, a->altitude_m, sp->log_pressure_Pa, a->n);
-    if (s == GSL_SUCCESS)
-        s = gsl_interp_init(sp->h2o, a->altitude_m, a->h2o_mole_fraction, a->n);
-    if (s != GSL_SUCCESS)
-        SL_FAIL_RETURN(e, SL_EINTERNAL, "atmosphere '%s': spline set-up failed: %s", a->name, gsl_strerror(s));
+    }
+    steffen_coefficients(a->altitude_m, a->temperature_K, a->n, yp, sp->coef, SPL_T);
+    steffen_coefficients(a->altitude_m, sp->log_pressure_Pa, a->n, yp, sp->coef, SPL_LNP);
+    steffen_coefficients(a->altitude_m, a->h2o_mole_fraction, a->n, yp, sp->coef, SPL_X);
+    free(yp);
+    /* Four cells per mean level spacing. */
+    const double z0 = a->altitude_m[0], span = a->altitude_m[a->n - 1] - z0;
+    sp->n_lut = 4 * a->n;
+    sp->lut_inv_dz_m = (double)sp->n_lut / span;
+    sp->lut = malloc((sp->n_lut + 1) * sizeof(size_t));
+    if (!sp->lut)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere '%s': cannot allocate interpolants", a->name);
+    for (size_t k = 0, i = 0; k <= sp->n_lut; k++) {
+        const double zk = z0 + span * ((double)k / (double)sp->n_lut);
+        while (i + 2 < a->n && a->altitude_m[i + 1] <= zk)
+            i++;
+        sp->lut[k] = i;
+    }
+    for (size_t i = 0; i + 1 < a->n; i++)
+        for (int k = 0; k < SPL_STRIDE; k++)
+            if (!isfinite(sp->coef[i * SPL_STRIDE + k]))
+                SL_FAIL_RETURN(e, SL_EDATA, "atmosphere '%s': interpolation between levels %zu and %zu is not finite",
+                               a->name, i + 1, i + 2);
     return SL_OK;
 }
 
@@ -795,29 +852,75 @@ int sl_atmosphere_init(sl_atmosphere *atm, const char *name_or_path, sl_err *e)
 
 /* ---- queries ------------------------------------------------------------ */
 
-int sl_atmosphere_at(const sl_atmosphere *atm, double altitude_m, sl_atmos_state *out, sl_err *e)
+/* Index i of the level interval holding Z (z_i <= Z < z_(i+1); the top level
+ * belongs to the last interval), the interval gsl_interp_bsearch finds: the
+ * cursor's interval if it still holds Z, else a walk up from the look-up
+ * table's cell.  Z is inside the profile (check_query). */
+static size_t find_interval(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur)
 {
-    if (!atm || !atm->sp || !atm->sp->temperature || atm->n < 3)
-        SL_FAIL_RETURN(e, SL_EINTERNAL, "sl_atmosphere_at: profile not initialised");
+    const double *za = atm->altitude_m;
+    const size_t n = atm->n;
+    if (cur) {
+        const size_t i = cur->interval;
+        if (i + 1 < n && z >= za[i] && (z < za[i + 1] || i + 2 == n))
+            return i;
+    }
+    const struct sl_atmosphere_splines *sp = atm->sp;
+    size_t k = (size_t)((z - za[0]) * sp->lut_inv_dz_m);
+    if (k > sp->n_lut)
+        k = sp->n_lut;
+    size_t i = sp->lut[k];
+    /* Rounding of the cell edge can put the table's interval one above Z. */
+    while (i > 0 && z < za[i])
+        i--;
+    while (i + 2 < n && z >= za[i + 1])
+        i++;
+    if (cur)
+        cur->interval = i;
+    return i;
+}
+
+static int check_query(const sl_atmosphere *atm, double altitude_m, sl_err *e)
+{
+    if (!atm || !atm->sp || !atm->sp->coef || atm->n < 3)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "atmosphere query: profile not initialised");
     const double *za = atm->altitude_m;
     if (!(altitude_m >= za[0] && altitude_m <= za[atm->n - 1]))
         SL_FAIL_RETURN(e, SL_EDATA, "altitude %.6g m is outside atmosphere profile '%s' (%.6g to %.6g m)",
                        altitude_m, atm->name, za[0], za[atm->n - 1]);
-    const struct sl_atmosphere_splines *sp = atm->sp;
-    /* A stack accelerator: the first evaluation does the binary search, the
-     * others reuse its interval; nothing is shared, nothing allocated. */
-    gsl_interp_accel acc = {0, 0, 0};
+    return SL_OK;
+}
+
+/* Interpolated T, ln p and x (and dT/dz when DTDZ is not NULL) at Z. */
+static void eval_tpx(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur, double *t, double *lp, double *x,
+                     double *dtdz)
+{
+    const size_t i = find_interval(atm, z, cur);
+    const double dz = z - atm->altitude_m[i];
+    const double *c = atm->sp->coef + i * SPL_STRIDE;
+    *t = c[SPL_T + 3] + dz * (c[SPL_T + 2] + dz * (c[SPL_T + 1] + dz * c[SPL_T]));
+    *lp = c[SPL_LNP + 3] + dz * (c[SPL_LNP + 2] + dz * (c[SPL_LNP + 1] + dz * c[SPL_LNP]));
+    *x = c[SPL_X + 3] + dz * (c[SPL_X + 2] + dz * (c[SPL_X + 1] + dz * c[SPL_X]));
+    if (dtdz)
+        *dtdz = c[SPL_T + 2] + dz * (2 * c[SPL_T + 1] + dz * 3 * c[SPL_T]);
+}
+
+int sl_atmosphere_density(const sl_atmosphere *atm, double altitude_m, sl_atmos_cursor *cur,
+                          double *density_kg_m3, sl_err *e)
+{
+    SL_TRY_RETURN(e, check_query(atm, altitude_m, e));
+    double t, lp, x;
+    eval_tpx(atm, altitude_m, cur, &t, &lp, &x, NULL);
+    *density_kg_m3 = sl_water_moist_air_density_kg_m3(exp(lp), t, x);
+    return SL_OK;
+}
+
+int sl_atmosphere_state(const sl_atmosphere *atm, double altitude_m, sl_atmos_cursor *cur, sl_atmos_state *out,
+                        sl_err *e)
+{
+    SL_TRY_RETURN(e, check_query(atm, altitude_m, e));
     double t, dtdz, lp, x;
-    int s = gsl_interp_eval_e(sp->temperature, za, atm->temperature_K, altitude_m, &acc, &t);
-    if (s == GSL_SUCCESS)
-        s = gsl_interp_eval_deriv_e(sp->temperature, za, atm->temperature_K, altitude_m, &acc, &dtdz);
-    if (s == GSL_SUCCESS)
-        s = gsl_interp_eval_e(sp->log_pressure, za, sp->log_pressure_Pa, altitude_m, &acc, &lp);
-    if (s == GSL_SUCCESS)
-        s = gsl_interp_eval_e(sp->h2o, za, atm->h2o_mole_fraction, altitude_m, &acc, &x);
-    if (s != GSL_SUCCESS)
-        SL_FAIL_RETURN(e, SL_ENUMERIC, "atmosphere '%s' at %.6g m: interpolation failed: %s", atm->name,
-                       altitude_m, gsl_strerror(s));
+    eval_tpx(atm, altitude_m, cur, &t, &lp, &x, &dtdz);
     const double p = exp(lp);
     const double g = sl_atmosphere_gravity_m_s2(altitude_m);
     out->altitude_m = altitude_m;
@@ -826,8 +929,15 @@ int sl_atmosphere_at(const sl_atmosphere *atm, double altitude_m, sl_atmos_state
     out->h2o_mole_fraction = x;
     out->density_kg_m3 = sl_water_moist_air_density_kg_m3(p, t, x);
     out->n2_per_s2 = g / t * (dtdz + g / SL_CP_DRY_AIR_J_KG_K);
-    out->ice_saturation_mole_fraction = sl_water_esat_ice_Pa(t) / p;
+    out->ice_saturation_mole_fraction = NAN;
     out->gravity_m_s2 = g;
+    return SL_OK;
+}
+
+int sl_atmosphere_at(const sl_atmosphere *atm, double altitude_m, sl_atmos_state *out, sl_err *e)
+{
+    SL_TRY_RETURN(e, sl_atmosphere_state(atm, altitude_m, NULL, out, e));
+    out->ice_saturation_mole_fraction = sl_water_esat_ice_Pa(out->temperature_K) / out->pressure_Pa;
     return SL_OK;
 }
 
@@ -836,9 +946,8 @@ void sl_atmosphere_free(sl_atmosphere *atm)
     if (!atm)
         return;
     if (atm->sp) {
-        gsl_interp_free(atm->sp->temperature);
-        gsl_interp_free(atm->sp->log_pressure);
-        gsl_interp_free(atm->sp->h2o);
+        free(atm->sp->coef);
+        free(atm->sp->lut);
         free(atm->sp->log_pressure_Pa);
         free(atm->sp);
     }

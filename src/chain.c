@@ -33,20 +33,21 @@ static double chain_clock_s(void)
 
 typedef struct air_ctx {
     const sl_atmosphere *atm;
+    sl_atmos_cursor cursor; /* search position of this run's entry (issue 14) */
 } air_ctx;
 
 static int atmosphere_density(void *ctx, double altitude_m, double *rho, sl_err *e)
 {
-    const sl_atmosphere *atm = ((const air_ctx *)ctx)->atm;
+    air_ctx *c = ctx;
+    const sl_atmosphere *atm = c->atm;
     double lo = atm->altitude_m[0], hi = atm->altitude_m[atm->n - 1];
-    double h = altitude_m < lo ? lo : (altitude_m > hi ? hi : altitude_m);
+    if (altitude_m >= lo && altitude_m <= hi) /* the common case: density only */
+        return sl_atmosphere_density(atm, altitude_m, &c->cursor, rho, e);
+    double h = altitude_m < lo ? lo : hi;
     sl_atmos_state s;
-    SL_TRY_RETURN(e, sl_atmosphere_at(atm, h, &s, e));
-    *rho = s.density_kg_m3;
-    if (h != altitude_m) {
-        double scale_m = SL_R_DRY_AIR_J_KG_K * s.temperature_K / s.gravity_m_s2;
-        *rho *= exp(-(altitude_m - h) / scale_m);
-    }
+    SL_TRY_RETURN(e, sl_atmosphere_state(atm, h, &c->cursor, &s, e));
+    double scale_m = SL_R_DRY_AIR_J_KG_K * s.temperature_K / s.gravity_m_s2;
+    *rho = s.density_kg_m3 * exp(-(altitude_m - h) / scale_m);
     return SL_OK;
 }
 
@@ -203,7 +204,7 @@ int sl_chain_run(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     if (sc->kind == SL_SCENARIO_IMPACTOR) {
         sl_entry_params p;
         sl_entry_params_from_scenario(&p, sc);
-        air_ctx actx = {atm};
+        air_ctx actx = {atm, {0}};
         sl_entry_air air = {atmosphere_density, &actx};
         SL_TRY_RETURN(e, sl_entry_solve(&ch->entry, &p, &air, e));
         ch->has_entry = 1;

@@ -150,6 +150,7 @@ struct sl_plume_work {
     double scale[NY];
     /* Context of the current rise (set before integrating). */
     const sl_atmosphere *atm;
+    sl_atmos_cursor atm_cursor; /* search position of the light atmosphere query */
     double k, alpha, v_fall;
     double lv0_J_kg, lf0_J_kg;
     double z_top_m;            /* stop: top of the atmosphere profile */
@@ -376,7 +377,7 @@ static int diagnose(sl_plume_work *w, const double *s, diag *d)
      * evolve retry with a shorter step (GSL_EBADFUNC would abort). */
     if (!isfinite(z) || !isfinite(Ma) || !isfinite(Mw) || !isfinite(H) || Ma <= 0.0 || Mw < 0.0)
         return GSL_EDOM;
-    int rc = sl_atmosphere_at(w->atm, zq, &d->amb, &w->rhs_err);
+    int rc = sl_atmosphere_state(w->atm, zq, &w->atm_cursor, &d->amb, &w->rhs_err); /* no ice saturation */
     if (rc != SL_OK) {
         w->rhs_failed = 1;
         return GSL_EBADFUNC;
@@ -716,6 +717,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     SL_TRY_RETURN(e, source_state(src, &amb, &st, e));
 
     w->atm = atm;
+    w->atm_cursor.interval = 0;
     w->k = pl->par.added_mass_k;
     w->alpha = pl->par.entrainment_alpha;
     w->v_fall = pl->par.fallout_speed_m_s;

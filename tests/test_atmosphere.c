@@ -11,6 +11,8 @@
 #include "steamloft/units.h"
 #include "steamloft/water.h"
 
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_interp.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -511,6 +513,76 @@ START_TEST(test_shipped_files)
 }
 END_TEST
 
+START_TEST(test_light_queries_match)
+{
+    /* Our own Steffen evaluation against GSL's gsl_interp_steffen (the
+     * reference library; PRACTICE: the same published algorithm, Steffen 1990)
+     * on the levels of every built-in profile: bit for bit (tolerance 0),
+     * since the coefficients are computed in GSL's order of operations.  Then
+     * the light queries (density only; state without ice saturation) with a
+     * cursor walked up, down and at random give exactly the numbers of
+     * sl_atmosphere_at: the cursor only changes where the search starts. */
+    for (int k = 0; sl_atmosphere_builtin_names[k]; k++) {
+        const char *nm = sl_atmosphere_builtin_names[k];
+        sl_atmosphere a;
+        sl_err e = {0};
+        ck_assert_msg(sl_atmosphere_init(&a, nm, &e) == SL_OK, "%s: %s", nm, e.msg);
+        double *lnp = malloc(a.n * sizeof(double));
+        ck_assert_ptr_nonnull(lnp);
+        for (size_t i = 0; i < a.n; i++)
+            lnp[i] = log(a.pressure_Pa[i]);
+        gsl_interp *it = gsl_interp_alloc(gsl_interp_steffen, a.n);
+        gsl_interp *ip = gsl_interp_alloc(gsl_interp_steffen, a.n);
+        gsl_interp *ix = gsl_interp_alloc(gsl_interp_steffen, a.n);
+        ck_assert_int_eq(gsl_interp_init(it, a.altitude_m, a.temperature_K, a.n), GSL_SUCCESS);
+        ck_assert_int_eq(gsl_interp_init(ip, a.altitude_m, lnp, a.n), GSL_SUCCESS);
+        ck_assert_int_eq(gsl_interp_init(ix, a.altitude_m, a.h2o_mole_fraction, a.n), GSL_SUCCESS);
+        const double z0 = a.altitude_m[0], z1 = a.altitude_m[a.n - 1];
+        sl_atmos_cursor up = {0}, down = {0}, rnd = {0};
+        unsigned long lcg = 12345u;
+        const int nq = 4000;
+        for (int q = 0; q <= nq; q++) {
+            const double zu = z0 + (z1 - z0) * q / nq, zd = z1 - (z1 - z0) * q / nq;
+            lcg = lcg * 6364136223846793005ul + 1442695040888963407ul;
+            const double zr = z0 + (z1 - z0) * (double)(lcg >> 11) / 9007199254740992.0;
+            const double zs[3] = {zu, zd, q < 100 ? a.altitude_m[q % a.n] : zr};
+            sl_atmos_cursor *cs[3] = {&up, &down, &rnd};
+            for (int j = 0; j < 3; j++) {
+                const double z = zs[j];
+                sl_atmos_state full, light;
+                double rho;
+                ck_assert_int_eq(sl_atmosphere_at(&a, z, &full, &e), SL_OK);
+                ck_assert_int_eq(sl_atmosphere_state(&a, z, cs[j], &light, &e), SL_OK);
+                ck_assert_int_eq(sl_atmosphere_density(&a, z, cs[j], &rho, &e), SL_OK);
+                double t = gsl_interp_eval(it, a.altitude_m, a.temperature_K, z, NULL);
+                double dt = gsl_interp_eval_deriv(it, a.altitude_m, a.temperature_K, z, NULL);
+                double lp = gsl_interp_eval(ip, a.altitude_m, lnp, z, NULL);
+                double x = gsl_interp_eval(ix, a.altitude_m, a.h2o_mole_fraction, z, NULL);
+                double g = sl_atmosphere_gravity_m_s2(z);
+                ck_assert_msg(full.temperature_K == t && full.pressure_Pa == exp(lp) && full.h2o_mole_fraction == x,
+                              "%s at %.17g m: T %.17g/%.17g", nm, z, full.temperature_K, t);
+                ck_assert_msg(full.n2_per_s2 == g / t * (dt + g / SL_CP_DRY_AIR_J_KG_K), "%s N2 at %g m", nm, z);
+                ck_assert_msg(light.temperature_K == full.temperature_K && light.pressure_Pa == full.pressure_Pa &&
+                                  light.density_kg_m3 == full.density_kg_m3 && light.n2_per_s2 == full.n2_per_s2 &&
+                                  light.h2o_mole_fraction == full.h2o_mole_fraction &&
+                                  light.gravity_m_s2 == full.gravity_m_s2 && rho == full.density_kg_m3,
+                              "%s at %.17g m: light query differs", nm, z);
+                ck_assert(isnan(light.ice_saturation_mole_fraction));
+            }
+        }
+        sl_atmos_cursor c = {0};
+        double rho;
+        ck_assert_int_eq(sl_atmosphere_density(&a, z1 + 1.0, &c, &rho, &e), SL_EDATA);
+        ck_assert_int_eq(sl_atmosphere_density(&a, z0 - 1.0, NULL, &rho, &e), SL_EDATA);
+        gsl_interp_free(it);
+        gsl_interp_free(ip);
+        gsl_interp_free(ix);
+        free(lnp);
+        sl_atmosphere_free(&a);
+    }
+}
+END_TEST
+
 static Suite *atmosphere_suite(void)
 {
     sl_err_gsl_handler_off();
@@ -529,6 +601,7 @@ static Suite *atmosphere_suite(void)
     tcase_add_test(tc, test_init_levels_errors);
     tcase_add_test(tc, test_netcdf_readback);
     tcase_add_test(tc, test_shipped_files);
+    tcase_add_test(tc, test_light_queries_match);
     suite_add_tcase(s, tc);
     return s;
 }

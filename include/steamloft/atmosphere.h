@@ -27,7 +27,7 @@ typedef struct sl_atmos_state {
     double gravity_m_s2;        /* g at this altitude (inverse square) */
 } sl_atmos_state;
 
-/* Opaque interpolation tables (GSL splines). */
+/* Opaque interpolation tables (Steffen splines, see atmosphere.c). */
 typedef struct sl_atmosphere_splines sl_atmosphere_splines;
 
 typedef struct sl_atmosphere {
@@ -82,8 +82,33 @@ int sl_atmosphere_init_levels(sl_atmosphere *atm, const char *name, size_t n, co
                               const double *h2o_mole_fraction_or_NULL, sl_err *e);
 
 /* State at ALTITUDE_M.  SL_EDATA when outside [altitude_m[0], altitude_m[n-1]].
- * Allocates nothing and does not modify ATM: safe from many threads at once. */
+ * Allocates nothing and does not modify ATM: safe from many threads at once.
+ * The full state, ice saturation included; a caller in a hot loop uses one
+ * of the light queries below. */
 int sl_atmosphere_at(const sl_atmosphere *atm, double altitude_m, sl_atmos_state *out, sl_err *e);
+
+/* Light queries for hot loops (entry, plume right-hand sides).  They give
+ * the same numbers as sl_atmosphere_at, bit for bit, and differ only in what
+ * they compute and in where the search for the level interval starts.
+ *
+ * A cursor is the caller's own search position: zero it once (or after the
+ * profile changes), keep it in the caller's workspace (one per thread), pass
+ * it to every query; a query near the previous one then finds its interval
+ * in a comparison or two instead of a binary search.  NULL: a binary search
+ * every call.  The profile stays const: many threads can share it, each with
+ * its own cursor. */
+typedef struct sl_atmos_cursor {
+    size_t interval; /* level interval of the last query */
+} sl_atmos_cursor;
+
+/* Moist-air density only (what the entry's drag needs). */
+int sl_atmosphere_density(const sl_atmosphere *atm, double altitude_m, sl_atmos_cursor *cur,
+                          double *density_kg_m3, sl_err *e);
+
+/* Every field of sl_atmos_state except ice_saturation_mole_fraction, which is
+ * set to NaN (it costs an exponential; sl_atmosphere_at computes it). */
+int sl_atmosphere_state(const sl_atmosphere *atm, double altitude_m, sl_atmos_cursor *cur, sl_atmos_state *out,
+                        sl_err *e);
 
 /* Gravity at geometric altitude Z above mean sea level, inverse-square law
  * with the USSA76 constants g0 and r0, m s-2. */
