@@ -56,7 +56,8 @@ static void usage(FILE *f)
 }
 
 static const char *const builtin_about[] = {
-    "U.S. Standard Atmosphere 1976 from its defining constants, extended to 120 km",
+    "U.S. Standard Atmosphere 1976, dry, 0-1000 km, from its defining constants and equations",
+    "us1976 temperature and pressure with the steamloft background water (humid variant)",
     "tropical: AFGL 1986 tropopause 17 km 194.8 K, stratopause 50 km 270.2 K",
     "mid-latitude summer: tropopause 13 km 215.8 K, stratopause 50 km 275.7 K",
     "mid-latitude winter: tropopause 11 km 219.2 K, stratopause 50 km 265.7 K",

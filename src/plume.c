@@ -700,6 +700,12 @@ static void finish_budget(sl_plume_work *w, sl_thermal *out, const double *s, co
     out->temperature_apex_K = d->T_K;
 }
 
+/* The thermal equations are followed to 120 km at most (the base of the
+ * thermosphere; the built-in profiles now reach 1000 km), so that a blow-out
+ * result does not depend on where the profile ends (atmosphere branch,
+ * issue 12; the ballistic regime replaces this stop). */
+#define THERMAL_TOP_M 120000.0
+
 int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, sl_thermal *out, sl_err *e)
 {
     if (pl == NULL || pl->work == NULL || atm == NULL || atm->n < 2 || src == NULL || out == NULL)
@@ -722,7 +728,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     w->alpha = pl->par.entrainment_alpha;
     w->v_fall = pl->par.fallout_speed_m_s;
     w->z_bottom_m = zlo;
-    w->z_top_m = zhi;
+    w->z_top_m = fmin(zhi, THERMAL_TOP_M);
     w->rhs_failed = 0;
     w->T_guess = 0.0;
 
@@ -881,7 +887,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     if (out->regime == SL_REGIME_BLOWOUT) {
         if (!have_neutral)
             out->neutral_altitude_m = d.z_m;
-        out->top_altitude_m = fmin(out->top_altitude_m, zhi);
+        out->top_altitude_m = fmin(out->top_altitude_m, w->z_top_m);
         out->cloud_top_m = d.z_m;
         out->cloud_bottom_m = fmax(zlo, d.z_m - d.radius_m);
     } else {
@@ -890,11 +896,11 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
         out->cloud_top_m = out->top_altitude_m;
         /* A thermal whose top reaches past the top of the atmosphere profile
          * has blown out of it as well (it has grown to many scale heights). */
-        if (out->top_altitude_m > zhi) {
+        if (out->top_altitude_m > w->z_top_m) {
             out->regime = SL_REGIME_BLOWOUT;
             /* Beyond the profile the thermal's radius means nothing: report
              * the reach clipped at the top of the atmosphere profile. */
-            out->top_altitude_m = out->cloud_top_m = zhi;
+            out->top_altitude_m = out->cloud_top_m = w->z_top_m;
         }
     }
     if (blowout_at_start)

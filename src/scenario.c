@@ -54,7 +54,7 @@ const char *const sl_scenario_section_meanings[SL_S_COUNT] = {
  * "\r\n\0"; a longer line would be split silently, so we refuse it first. */
 enum { MAX_LINE_CHARS = 196, MAX_FILE_BYTES = 1 << 20 };
 
-static const char *default_atmosphere = "us1976";
+static const char *default_atmosphere = "us1976-humid";
 
 /* ------------------------------------------------------------------ table */
 

@@ -63,7 +63,7 @@ START_TEST(parses_and_converts_to_si)
     SL_CK_REL(sl_scenario_value(&sc, SL_P_SITE_LATITUDE), 54.8 * SL_PI / 180.0, 1e-14);
     /* Defaults from the table. */
     SL_CK_REL(sl_scenario_value(&sc, SL_P_SITE_SST), 288.15, 1e-15);
-    ck_assert_str_eq(sl_scenario_text(&sc, SL_P_SITE_ATMOSPHERE), "us1976");
+    ck_assert_str_eq(sl_scenario_text(&sc, SL_P_SITE_ATMOSPHERE), "us1976-humid");
     ck_assert_str_eq(sl_scenario_text(&sc, SL_P_PARTITION_METHOD), "shock");
     ck_assert_int_eq(sc.origin[SL_P_SITE_SST], SL_ORIGIN_DEFAULT);
     ck_assert_int_eq(sc.origin[SL_P_IMPACTOR_SPEED], SL_ORIGIN_FILE);

@@ -2,7 +2,8 @@
  * altitude, with monotone (Steffen) spline interpolation (pressure in log
  * space), the WMO lapse-rate tropopause, cold point, stratopause and the
  * background stratospheric water.  Built-in profiles: the U.S. Standard
- * Atmosphere 1976 and five climate-zone profiles; user profiles from the text
+ * Atmosphere 1976 (dry, and a humid variant) and five climate-zone profiles,
+ * all from 0 to 1000 km; user profiles from the text
  * format of atmospheres/README.md or from CF netCDF.
  *
  * A profile is immutable after sl_atmosphere_init*(); queries take a const
@@ -40,6 +41,9 @@ typedef struct sl_atmosphere {
     double *density_kg_m3;
     double *h2o_mole_fraction;
     double *n2_per_s2;
+    double *molar_mass_kg_kmol; /* mean molar mass of the dry air: M0 = 28.9644 below
+                                   80 km, the U.S. Standard Atmosphere's composition
+                                   above (diffusive separation, O2 dissociation) */
     sl_atmosphere_splines *sp;
     /* Derived markers (computed at init). */
     double tropopause_altitude_m;   /* WMO lapse-rate definition */
@@ -53,6 +57,9 @@ typedef struct sl_atmosphere {
                                        tropopause and the stratopause, kg m-2 */
     double strat_water_burden_kg;   /* the column times the Earth's area (SL_EARTH_AREA_M2):
                                        the global burden if the whole globe had this profile */
+    double join_altitude_m;         /* a user column that ended below the built-in top was
+                                       joined here onto a climate-zone profile (see
+                                       sl_atmosphere_init); NaN when not joined */
     /* Markers that a profile does not have (no level satisfies the WMO rule,
      * the profile ends below the stratopause, ...) are NaN; so are the water
      * column and burden when either boundary is missing. */
@@ -115,11 +122,11 @@ int sl_atmosphere_state(const sl_atmosphere *atm, double altitude_m, sl_atmos_cu
 double sl_atmosphere_gravity_m_s2(double altitude_m);
 
 /* The U.S. Standard Atmosphere 1976 evaluated directly from its defining
- * constants at geometric ALTITUDE_M in [0, 120 km]: kinetic temperature,
- * pressure and (dry-air) density.  Above 86 km the temperature follows the
- * standard's defining segments and the pressure is our hydrostatic extension
- * (constant molar mass, see atmosphere.c).  SL_EDATA outside the range.
- * Any output pointer may be NULL. */
+ * constants at geometric ALTITUDE_M in [0, 1000 km]: kinetic temperature,
+ * pressure and (dry-air) density.  Above 86 km the standard's temperature
+ * segments and its species diffusion equations (integrated from 86 km on
+ * each call: about a millisecond; the built-in profile is the fast way).
+ * SL_EDATA outside the range.  Any output pointer may be NULL. */
 int sl_atmosphere_us1976(double altitude_m, double *temperature_K, double *pressure_Pa,
                          double *density_kg_m3, sl_err *e);
 

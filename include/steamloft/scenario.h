@@ -111,7 +111,7 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
       NULL, "temperature of the sea water that is heated and vaporised")                            \
     X(SITE_ATMOSPHERE, "site", "atmosphere", SL_PT_TEXT, "", SL_NODEFAULT, 0.0, 0.0, 0u, NULL,     \
       "background atmosphere: a built-in profile (steamloft atmos) or a profile file, relative "    \
-      "paths first next to the scenario file (default us1976)")                                     \
+      "paths first next to the scenario file (default us1976-humid)")                                   \
     X(SITE_MONTH, "site", "month", SL_PT_INT, "", 0.0, 0.0, 12.0, 0u, NULL,                         \
       "month of the event, 1-12 (0 = not given; annual-mean conditions)")                           \
     X(AIRBURST_ALTITUDE, "airburst", "altitude_m", SL_PT_REAL, "m", SL_NODEFAULT, 0.0, 100000.0,   \
@@ -177,12 +177,15 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
     X(STRAT_STEP, "strat", "step_days", SL_PT_REAL, "days", 30.4375, 1.0, 365.25, 0u, NULL,          \
       "output step of the box model (30.4375 days = 1/12 year)")                                    \
     X(STRAT_TROPICS_ATMOSPHERE, "strat", "tropics_atmosphere", SL_PT_CHOICE, "", 0.0, 0.0, 0.0, 0u,  \
-      "tropical|us1976|midlatitude-summer|midlatitude-winter|subarctic-summer|subarctic-winter",     \
+      "tropical|us1976-humid|midlatitude-summer|midlatitude-winter|subarctic-summer|"               \
+      "subarctic-winter|us1976",                                                                    \
       "background profile of the tropical boxes (the transport is calibrated on tropical)")         \
     X(STRAT_EXTRATROPICS_ATMOSPHERE, "strat", "extratropics_atmosphere", SL_PT_CHOICE, "", 0.0, 0.0, \
       0.0, 0u,                                                                                      \
-      "us1976|tropical|midlatitude-summer|midlatitude-winter|subarctic-summer|subarctic-winter",     \
-      "background profile of both extratropical regions (us1976: mid-latitude annual mean)")        \
+      "us1976-humid|tropical|midlatitude-summer|midlatitude-winter|subarctic-summer|"               \
+      "subarctic-winter|us1976",                                                                    \
+      "background profile of both extratropical regions (us1976-humid: mid-latitude annual "        \
+      "mean; the dry us1976 has no background water to compare with)")                             \
     X(STRAT_DEEP_BRANCH, "strat", "deep_branch_fraction", SL_PT_REAL, "1", 0.7104, 0.01, 1.0, 0u,    \
       NULL, "share of the 100-hPa tropical upward flux that rises on (calibrated; strat.c)")        \
     X(STRAT_INMIXING, "strat", "inmixing_time_years", SL_PT_REAL, "years", 1.0672, 0.01, 50.0, 0u,   \

@@ -6,7 +6,7 @@
 src=${SL_SRCDIR:-.}
 
 sl_expect_exit 0 "atmos list" "$SL_BIN" atmos list
-for n in us1976 tropical midlatitude-summer midlatitude-winter subarctic-summer subarctic-winter; do
+for n in us1976 us1976-humid tropical midlatitude-summer midlatitude-winter subarctic-summer subarctic-winter; do
   sl_expect_grep "$SL_TMP/out" "^$n " "list names $n"
 done
 sl_expect_exit 0 "atmos --help" "$SL_BIN" atmos --help
@@ -35,8 +35,8 @@ sl_expect_exit 0 "atmos --summary text" "$SL_BIN" atmos us1976 --summary
 sl_expect_grep "$SL_TMP/out" "^tropopause_altitude_m  *11019.0" "us1976 tropopause at 11 km geopotential"
 
 # Usage and input errors.
-sl_expect_exit 65 "--at outside the profile" "$SL_BIN" atmos --at 130000 us1976
-sl_expect_grep "$SL_TMP/err" "outside atmosphere profile 'us1976' (0 to 120000 m)" "out-of-range message"
+sl_expect_exit 65 "--at outside the profile" "$SL_BIN" atmos --at 1100000 us1976
+sl_expect_grep "$SL_TMP/err" "outside atmosphere profile 'us1976' (0 to 1e+06 m)" "out-of-range message"
 sl_expect_exit 64 "no profile" "$SL_BIN" atmos
 sl_expect_exit 64 "--csv with --json" "$SL_BIN" atmos --csv --json us1976
 sl_expect_exit 64 "--at with --summary" "$SL_BIN" atmos --at 100 --summary us1976
@@ -45,7 +45,7 @@ sl_expect_exit 66 "missing file" "$SL_BIN" atmos "$SL_TMP/none.txt"
 
 # The shipped files are exactly what the code writes (scripts/make-atmospheres.sh).
 sl_expect_exit 0 "regenerate profiles" "$src/scripts/make-atmospheres.sh" "$SL_BIN" "$SL_TMP/atm"
-for n in us1976 tropical midlatitude-summer midlatitude-winter subarctic-summer subarctic-winter; do
+for n in us1976 us1976-humid tropical midlatitude-summer midlatitude-winter subarctic-summer subarctic-winter; do
   if cmp -s "$SL_TMP/atm/$n.txt" "$src/atmospheres/$n.txt"; then sl_ok "shipped $n.txt is current"
   else sl_fail "shipped atmospheres/$n.txt differs from 'steamloft atmos $n' (run make atmospheres)"; fi
 done
