@@ -191,6 +191,7 @@ int sl_chain_run(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         SL_FAIL_RETURN(e, SL_EINTERNAL, "chain: the scenario was not finished (sl_scenario_finish)");
     ch->scenario = *sc;
     ch->has_entry = 0;
+    sl_site_choose(sc, &ch->site);
     double t0 = chain_clock_s(), t1;
     SL_TRY_RETURN(e, load_atmosphere(sc, ch, e));
     const sl_atmosphere *atm = &ch->atmosphere;

@@ -2,6 +2,7 @@
  * Quantities are emitted once; the JSON keys are SI with the unit in the key,
  * the text shows the units people read (Mt TNT, km, Tg, degrees). */
 #include "steamloft/output_text.h"
+#include "steamloft/site.h"
 #include "steamloft/cli.h"
 #include "steamloft/units.h"
 
@@ -394,6 +395,9 @@ int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, sl_err *e)
     sl_report_string(&r, "scenario", sc->path, "scenario");
     sl_report_string(&r, "kind", sc->kind == SL_SCENARIO_IMPACTOR ? "impactor" : "explosion", "event");
     sl_report_string(&r, "atmosphere", ch->atmosphere.name, "atmosphere");
+    char site_line[640]; /* site-aware defaults and a low user column's join (site.c) */
+    if (sl_site_describe(&ch->site, ch->atmosphere.join_altitude_m, site_line, sizeof site_line))
+        sl_report_string(&r, "site_defaults", site_line, "site defaults");
     double energy = ch->partition.energy_total_J;
     sl_report_number(&r, "energy_J", energy, "energy", 1.0, "J");
     sl_report_number(&r, "energy_Mt", energy / SL_J_PER_MT_TNT, "energy", 1.0, "Mt TNT");

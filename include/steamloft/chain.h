@@ -20,6 +20,7 @@
 #include "steamloft/partition.h"
 #include "steamloft/plume.h"
 #include "steamloft/scenario.h"
+#include "steamloft/site.h"
 #include "steamloft/strat.h"
 
 /* Stages timed by sl_chain_run (for `make bench`). */
@@ -29,6 +30,8 @@ extern const char *const sl_chain_stage_names[SL_CHAIN_N_TIMED];
 
 typedef struct sl_chain {
     sl_scenario scenario;          /* copy of the scenario last run */
+    sl_site_choice site;           /* the atmosphere and sea surface used, and why
+                                      (site-aware defaults, site.h) */
     sl_atmosphere atmosphere;      /* the background profile */
     int have_atmosphere;
     char atmosphere_name[SL_SCENARIO_RAW_LEN]; /* what it was loaded from */

@@ -107,11 +107,15 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
       "longitude of the impact or burst point")                                                     \
     X(SITE_OCEAN_DEPTH, "site", "ocean_depth_m", SL_PT_REAL, "m", 3682.0, 0.0, 11100.0, 0u, NULL,  \
       "depth of the ocean at the point (default: the mean ocean depth, ~3682 m)")                   \
-    X(SITE_SST, "site", "sea_surface_temperature_K", SL_PT_REAL, "K", 288.15, 271.0, 310.0, 0u,    \
-      NULL, "temperature of the sea water that is heated and vaporised")                            \
-    X(SITE_ATMOSPHERE, "site", "atmosphere", SL_PT_TEXT, "", SL_NODEFAULT, 0.0, 0.0, 0u, NULL,     \
+    X(SITE_SST, "site", "sea_surface_temperature_K", SL_PT_REAL, "K", SL_NODEFAULT, 271.0, 310.0, \
+      SL_PF_DERIVED, NULL,                                                                          \
+      "temperature of the sea water that is heated and vaporised; default derived from latitude: "  \
+      "zonal-mean climatology (Neale & Hoskins 2000 Qobs, docs/physics.md section 1)")              \
+    X(SITE_ATMOSPHERE, "site", "atmosphere", SL_PT_TEXT, "", SL_NODEFAULT, 0.0, 0.0, SL_PF_DERIVED, \
+      NULL,                                                                                         \
       "background atmosphere: a built-in profile (steamloft atmos) or a profile file, relative "    \
-      "paths first next to the scenario file (default us1976-humid)")                                   \
+      "paths first next to the scenario file; default derived from latitude and month (tropical, "  \
+      "mid-latitude or sub-arctic, summer or winter; docs/physics.md section 1)")                   \
     X(SITE_MONTH, "site", "month", SL_PT_INT, "", 0.0, 0.0, 12.0, 0u, NULL,                         \
       "month of the event, 1-12 (0 = not given; annual-mean conditions)")                           \
     X(AIRBURST_ALTITUDE, "airburst", "altitude_m", SL_PT_REAL, "m", SL_NODEFAULT, 0.0, 100000.0,   \

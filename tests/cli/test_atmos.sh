@@ -96,4 +96,13 @@ ncbad nan "netCDF NaN" "variable 'z' (geopotential_height) index 3: not a finite
 ncbad fill "netCDF missing value" "variable 't' (air_temperature) index 7: missing value" 's/-2200, 200, 3100, 3800/-2200, 200, 3100, -32767/'
 ncbad nostd "netCDF no temperature" "no variable with standard_name air_temperature" '/t:standard_name/d'
 ncbad order "netCDF non-monotonic" "variable 'z' index 3: altitude .* strictly" 's/11784, 9164/9164, 11784/'
+# Site-aware defaults (site.c): a tropical site without an atmosphere or
+# sea-surface key runs on the tropical profile with the zonal-mean sea surface
+# of Neale & Hoskins (2000, "Qobs"), and the summary says so and why.
+printf '[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 8\nmonth = 2\n' > "$SL_TMP/tropic.ini"
+sl_expect_exit 0 "run a tropical site without atmosphere key" "$SL_BIN" run "$SL_TMP/tropic.ini"
+sl_expect_grep "$SL_TMP/out" "^atmosphere  *tropical$" "tropical profile chosen"
+sl_expect_grep "$SL_TMP/out" "^site defaults .*tropical (all year).*Neale & Hoskins 2000 Qobs" "summary says which and why"
+sl_expect_exit 0 "run a tropical site (JSON)" "$SL_BIN" run "$SL_TMP/tropic.ini" --json
+sl_expect_grep "$SL_TMP/out" '"site_defaults": "no atmosphere given' "JSON site_defaults"
 sl_done
