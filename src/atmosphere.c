@@ -1115,6 +1115,108 @@ static int init_zone(sl_atmosphere *atm, const zone_def *zd, sl_err *e)
     return rc == SL_OK ? SL_OK : sl_err_push(e, rc, __func__, __LINE__);
 }
 
+/* ---- low user columns joined onto a climate zone ------------------------
+ *
+ * A profile file that ends below the built-in top (1000 km) -- a reanalysis
+ * column ending at 1 hPa, about 48 km, say -- is continued upward with the
+ * climate-zone profile whose temperatures match the column best (least RMS
+ * difference at the column's own levels), so that nothing downstream depends
+ * on where the file ends.  The join is smooth: above the column's top z_j
+ * the temperature is the zone's plus the offset at z_j fading linearly to
+ * zero over JOIN_BLEND_M; the water is the zone's times the ratio at z_j,
+ * fading to 1 the same way; the pressure is integrated hydrostatically
+ * upward from the column's top pressure (moist air, the standard's molar
+ * mass above 80 km), so p is continuous and in hydrostatic balance across the
+ * join.  join_altitude_m and the source line record it. */
+#define JOIN_BLEND_M 10000.0
+
+static int join_low_column(sl_atmosphere *atm, sl_err *e)
+{
+    const size_t nu = atm->n;
+    const double zj = atm->altitude_m[nu - 1];
+    if (!(zj < BUILTIN_TOP_M - 1.0))
+        return SL_OK;
+    size_t best = 0;
+    double best_rms = INFINITY;
+    for (size_t k = 0; k < sizeof zones / sizeof zones[0]; k++) {
+        double sum = 0.0;
+        for (size_t i = 0; i < nu; i++) {
+            const double d = atm->temperature_K[i] - zone_temperature(&zones[k], atm->altitude_m[i]);
+            sum += d * d;
+        }
+        if (sum < best_rms) {
+            best_rms = sum;
+            best = k;
+        }
+    }
+    best_rms = sqrt(best_rms / (double)nu);
+    sl_atmosphere zone;
+    SL_TRY_RETURN(e, init_zone(&zone, &zones[best], e));
+    size_t k0 = 0;
+    while (k0 < zone.n && zone.altitude_m[k0] <= zj + 1.0)
+        k0++;
+    const size_t n = nu + (zone.n - k0);
+    double *buf = malloc(4 * n * sizeof(double));
+    if (!buf) {
+        sl_atmosphere_free(&zone);
+        SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere '%s': out of memory joining the profile", atm->name);
+    }
+    double *z = buf, *t = buf + n, *p = buf + 2 * n, *x = buf + 3 * n;
+    memcpy(z, atm->altitude_m, nu * sizeof(double));
+    memcpy(t, atm->temperature_K, nu * sizeof(double));
+    memcpy(p, atm->pressure_Pa, nu * sizeof(double));
+    memcpy(x, atm->h2o_mole_fraction, nu * sizeof(double));
+    sl_atmos_state zs;
+    int rc = sl_atmosphere_state(&zone, zj, NULL, &zs, e);
+    const double dt = atm->temperature_K[nu - 1] - zs.temperature_K;
+    const double ratio = zs.h2o_mole_fraction > 0.0 ? atm->h2o_mole_fraction[nu - 1] / zs.h2o_mole_fraction : 1.0;
+    for (size_t k = k0, i = nu; rc == SL_OK && k < zone.n; k++, i++) {
+        const double w = fmax(0.0, 1.0 - (zone.altitude_m[k] - zj) / JOIN_BLEND_M);
+        z[i] = zone.altitude_m[k];
+        t[i] = zone.temperature_K[k] + dt * w;
+        x[i] = zone.h2o_mole_fraction[k] * (1.0 + (ratio - 1.0) * w);
+    }
+    /* Hydrostatic pressure from the column's top level upward. */
+    double *mm = NULL;
+    if (rc == SL_OK) {
+        mm = malloc((n - nu + 1) * sizeof(double));
+        if (!mm)
+            rc = sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "atmosphere: out of memory joining the profile");
+    }
+    if (rc == SL_OK) {
+        const double *zu = z + nu - 1;
+        const size_t m = n - nu + 1;
+        size_t i0 = 0;
+        while (i0 < m && zu[i0] <= 80000.0)
+            mm[i0++] = SL_USSA_M0_KG_KMOL;
+        rc = ussa_profile(m - i0, zu + i0, NULL, NULL, NULL, mm + i0, e);
+        if (rc == SL_OK) {
+            water_src ws = {2, NULL, x + nu - 1};
+            integrate_pressure(m, zu, t + nu - 1, mm, &ws, p + nu - 1);
+        }
+    }
+    if (rc == SL_OK) {
+        char suffix[128], source[256];
+        snprintf(suffix, sizeof suffix, "; joined at %.6g km onto %s (best match, RMS %.2g K; offset %.3g K over %.0f km)",
+                 zj * 1e-3, zones[best].name, best_rms, dt, JOIN_BLEND_M * 1e-3);
+        snprintf(source, sizeof source, "%.*s%s", (int)(sizeof source - 1 - strlen(suffix)), atm->source, suffix);
+        char name[64];
+        snprintf(name, sizeof name, "%s", atm->name);
+        sl_atmosphere joined;
+        rc = build_full(&joined, name, source, n, z, t, p, x, SL_ATM_WATER_DRY, NULL, 1, e);
+        if (rc == SL_OK) {
+            joined.join_altitude_m = zj;
+            snprintf(joined.joined_onto, sizeof joined.joined_onto, "%s", zones[best].name);
+            sl_atmosphere_free(atm);
+            *atm = joined;
+        }
+    }
+    free(mm);
+    free(buf);
+    sl_atmosphere_free(&zone);
+    return rc == SL_OK ? SL_OK : sl_err_push(e, rc, __func__, __LINE__);
+}
+
 /* Is PATH a netCDF file (classic "CDF\001|\002|\005" or HDF5 signature)? */
 static int looks_like_netcdf(const char *path, int *is_nc)
 {
@@ -1153,6 +1255,11 @@ int sl_atmosphere_init(sl_atmosphere *atm, const char *name_or_path, sl_err *e)
         SL_TRY_RETURN(e, sl_atmosphere_read_netcdf_(atm, name_or_path, e));
     else
         SL_TRY_RETURN(e, sl_atmosphere_read_text_(atm, name_or_path, e));
+    const int rc = join_low_column(atm, e);
+    if (rc != SL_OK) {
+        sl_atmosphere_free(atm);
+        return sl_err_push(e, rc, __func__, __LINE__);
+    }
     return SL_OK;
 }
 
@@ -1238,6 +1345,38 @@ int sl_atmosphere_state(const sl_atmosphere *atm, double altitude_m, sl_atmos_cu
     out->n2_per_s2 = g / t * (dtdz + g / SL_CP_DRY_AIR_J_KG_K);
     out->ice_saturation_mole_fraction = NAN;
     out->gravity_m_s2 = g;
+    return SL_OK;
+}
+
+int sl_atmosphere_altitude_of_pressure(const sl_atmosphere *atm, double pressure_Pa, double *altitude_m, sl_err *e)
+{
+    if (!atm || !atm->sp || !atm->sp->coef || atm->n < 3)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "atmosphere query: profile not initialised");
+    const double *p = atm->pressure_Pa;
+    const size_t n = atm->n;
+    if (!(pressure_Pa <= p[0] && pressure_Pa >= p[n - 1]))
+        SL_FAIL_RETURN(e, SL_EDATA, "pressure %.6g Pa is outside atmosphere profile '%s' (%.6g to %.6g Pa)",
+                       pressure_Pa, atm->name, p[n - 1], p[0]);
+    size_t lo = 0, hi = n - 1; /* p[lo] >= target >= p[hi] */
+    while (hi > lo + 1) {
+        const size_t mid = (lo + hi) / 2;
+        if (p[mid] >= pressure_Pa)
+            lo = mid;
+        else
+            hi = mid;
+    }
+    const double target = log(pressure_Pa);
+    double za = atm->altitude_m[lo], zb = atm->altitude_m[hi];
+    for (int it = 0; it < 200 && zb - za > 1e-9; it++) {
+        const double zm = 0.5 * (za + zb);
+        double t, lp, x, mr;
+        eval_tpx(atm, zm, NULL, &t, &lp, &x, &mr, NULL);
+        if (lp > target)
+            za = zm;
+        else
+            zb = zm;
+    }
+    *altitude_m = 0.5 * (za + zb);
     return SL_OK;
 }
 

@@ -395,8 +395,8 @@ int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, sl_err *e)
     sl_report_string(&r, "scenario", sc->path, "scenario");
     sl_report_string(&r, "kind", sc->kind == SL_SCENARIO_IMPACTOR ? "impactor" : "explosion", "event");
     sl_report_string(&r, "atmosphere", ch->atmosphere.name, "atmosphere");
-    char site_line[640]; /* site-aware defaults and a low user column's join (site.c) */
-    if (sl_site_describe(&ch->site, ch->atmosphere.join_altitude_m, site_line, sizeof site_line))
+    char site_line[640]; /* site-aware defaults and a low column's join (site.c) */
+    if (sl_site_describe(&ch->site, &ch->atmosphere, site_line, sizeof site_line))
         sl_report_string(&r, "site_defaults", site_line, "site defaults");
     double energy = ch->partition.energy_total_J;
     sl_report_number(&r, "energy_J", energy, "energy", 1.0, "J");

@@ -86,7 +86,7 @@ void sl_site_choose(const sl_scenario *sc, sl_site_choice *out)
         snprintf(out->sea_surface_why, sizeof out->sea_surface_why, "given in the scenario");
 }
 
-int sl_site_describe(const sl_site_choice *c, double join_m, char *buf, size_t n)
+int sl_site_describe(const sl_site_choice *c, const sl_atmosphere *atm, char *buf, size_t n)
 {
     if (n == 0)
         return 0;
@@ -97,8 +97,8 @@ int sl_site_describe(const sl_site_choice *c, double join_m, char *buf, size_t n
     if (c->sea_surface_derived && used < n)
         used += (size_t)snprintf(buf + used, n - used, "%sno sea-surface temperature given: %s", used ? "; " : "",
                                  c->sea_surface_why);
-    if (isfinite(join_m) && used < n)
+    if (atm && isfinite(atm->join_altitude_m) && used < n)
         used += (size_t)snprintf(buf + used, n - used, "%sthe profile ends at %.1f km and is joined there onto %s",
-                                 used ? "; " : "", join_m * 1e-3, "a climate-zone profile (see the atmosphere source)");
+                                 used ? "; " : "", atm->join_altitude_m * 1e-3, atm->joined_onto);
     return used > 0;
 }

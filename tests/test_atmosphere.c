@@ -510,8 +510,11 @@ START_TEST(test_netcdf_readback)
     static const double zgp[8] = {111, 1457, 5574, 9164, 11784, 16180, 20576, 31055};
     static const short ts[8] = {3800, 3100, 200, -2200, -3200, -4000, -3700, -2200};
     static const double q[8] = {0.008, 0.005, 0.001, 0.0001, 1e-05, 3e-06, 2.6e-06, 3.5e-06};
-    /* 8 levels plus the isothermal extension from 111 m down to 0 m. */
-    ck_assert_uint_eq(a.n, 9);
+    /* 8 levels plus the isothermal extension from 111 m down to 0 m, then
+     * (the column ends at 10 hPa, 31 km) the join onto a climate zone. */
+    ck_assert_uint_gt(a.n, 9);
+    SL_CK_REL(a.join_altitude_m, geometric_of(31055.0), 1e-12);
+    SL_CK_ABS(a.altitude_m[a.n - 1], 1.0e6, 0.0);
     for (int i = 0; i < 8; i++) {
         SL_CK_REL(a.altitude_m[i + 1], geometric_of(zgp[i]), 1e-12);
         SL_CK_REL(a.temperature_K[i + 1], 250.0 + 0.01 * ts[i], 1e-12);
@@ -636,6 +639,91 @@ START_TEST(test_light_queries_match)
 }
 END_TEST
 
+/* Write a reanalysis-like column: the tropical profile at the 1000-1 hPa
+ * pressure levels, 2 K warmer (so the join has an offset to fade), water from
+ * the profile; ends at 1 hPa (~48 km).  Returns the path in BUF. */
+static void write_low_column(char *buf, size_t n, const char *dir)
+{
+    static const double hpa[] = {1000, 925, 850, 700, 500, 400, 300, 250, 200, 150, 100, 70,
+                                 50,   30,  20,  10,  7,   5,   3,   2,   1};
+    sl_atmosphere t;
+    sl_err e = {0};
+    ck_assert_msg(sl_atmosphere_init(&t, "tropical", &e) == SL_OK, "%s", e.msg);
+    snprintf(buf, n, "%s/column.txt", dir);
+    FILE *f = fopen(buf, "w");
+    ck_assert_ptr_nonnull(f);
+    fprintf(f, "# name: column\n# source: invented reanalysis-like test column\n"
+               "# columns: pressure_hPa altitude_m temperature_K h2o_ppmv\n");
+    for (size_t i = 0; i < sizeof hpa / sizeof hpa[0]; i++) {
+        double z;
+        sl_atmos_state s;
+        ck_assert_int_eq(sl_atmosphere_altitude_of_pressure(&t, hpa[i] * 100.0, &z, &e), SL_OK);
+        ck_assert_int_eq(sl_atmosphere_at(&t, z, &s, &e), SL_OK);
+        fprintf(f, "%g %.3f %.4f %.6g\n", hpa[i], z, s.temperature_K + 2.0, s.h2o_mole_fraction * 1e6);
+    }
+    fclose(f);
+    sl_atmosphere_free(&t);
+}
+
+START_TEST(test_low_column_join)
+{
+    /* A column ending at 1 hPa is joined at its top onto the best-matching
+     * climate zone (tropical here: the column is the tropical profile +2 K).
+     * Checks (DERIVED from the join's definition, atmosphere.c): the join
+     * height is the column's top; temperature and pressure are continuous
+     * across it (1 m either side: 0.01 K, 1e-3 relative, i.e. one metre of
+     * the 7 km scale height); the offset fades over 10 km (the zone's own
+     * temperature from 10 km above on, 1e-6 K); hydrostatic balance from the
+     * join up to 1000 km within 2e-3 (as test_hydrostatic_balance); the
+     * inverse pressure query finds 1 hPa at the join height (1 m). */
+    char dir[] = "/tmp/sl_atmos_join_XXXXXX";
+    ck_assert(mkdtemp(dir) != NULL);
+    char path[300];
+    write_low_column(path, sizeof path, dir);
+    sl_atmosphere a, zone;
+    sl_err e = {0};
+    ck_assert_msg(sl_atmosphere_init(&a, path, &e) == SL_OK, "%s", e.msg);
+    ck_assert_msg(sl_atmosphere_init(&zone, "tropical", &e) == SL_OK, "%s", e.msg);
+    ck_assert_str_eq(a.joined_onto, "tropical");
+    ck_assert(isfinite(a.join_altitude_m) && a.join_altitude_m > 45000.0 && a.join_altitude_m < 50000.0);
+    ck_assert_msg(strstr(a.source, "joined at") && strstr(a.source, "tropical"), "%s", a.source);
+    SL_CK_ABS(a.altitude_m[a.n - 1], 1.0e6, 0.0);
+    const double zj = a.join_altitude_m;
+    sl_atmos_state lo, hi, s, zs;
+    ck_assert_int_eq(sl_atmosphere_at(&a, zj - 1.0, &lo, &e), SL_OK);
+    ck_assert_int_eq(sl_atmosphere_at(&a, zj + 1.0, &hi, &e), SL_OK);
+    SL_CK_ABS(hi.temperature_K, lo.temperature_K, 0.01);
+    SL_CK_REL(hi.pressure_Pa, lo.pressure_Pa, 1e-3);
+    ck_assert_int_eq(sl_atmosphere_at(&a, zj, &s, &e), SL_OK);
+    ck_assert_int_eq(sl_atmosphere_at(&zone, zj, &zs, &e), SL_OK);
+    SL_CK_ABS(s.temperature_K - zs.temperature_K, 2.0, 0.05); /* the column's offset at the join */
+    for (size_t i = 0; i < a.n; i++)
+        if (a.altitude_m[i] >= zj + 10000.0) {
+            ck_assert_int_eq(sl_atmosphere_at(&zone, a.altitude_m[i], &zs, &e), SL_OK);
+            SL_CK_ABS(a.temperature_K[i], zs.temperature_K, 1e-6);
+        }
+    for (double z = zj + 500.0; z < 999000.0; z += z < 150000.0 ? 1370.0 : 13700.0) {
+        sl_atmos_state l2, m2, h2;
+        ck_assert_int_eq(sl_atmosphere_at(&a, z - 5.0, &l2, &e), SL_OK);
+        ck_assert_int_eq(sl_atmosphere_at(&a, z, &m2, &e), SL_OK);
+        ck_assert_int_eq(sl_atmosphere_at(&a, z + 5.0, &h2, &e), SL_OK);
+        const double r = -(h2.pressure_Pa - l2.pressure_Pa) / 10.0 / (m2.density_kg_m3 * m2.gravity_m_s2);
+        ck_assert_msg(fabs(r - 1.0) < 2e-3, "joined column at %g m: -dp/dz / (rho g) = %.6f", z, r);
+    }
+    double z1;
+    ck_assert_int_eq(sl_atmosphere_altitude_of_pressure(&a, 100.0, &z1, &e), SL_OK);
+    SL_CK_ABS(z1, zj, 1.0);
+    ck_assert_int_eq(sl_atmosphere_altitude_of_pressure(&a, 2.0e5, &z1, &e), SL_EDATA);
+    /* A built-in profile is not joined. */
+    ck_assert(isnan(zone.join_altitude_m));
+    sl_atmosphere_free(&zone);
+    sl_atmosphere_free(&a);
+    char cmd[400];
+    snprintf(cmd, sizeof cmd, "rm -rf '%s'", dir);
+    ck_assert(system(cmd) == 0);
+}
+END_TEST
+
 static Suite *atmosphere_suite(void)
 {
     sl_err_gsl_handler_off();
@@ -656,6 +744,7 @@ static Suite *atmosphere_suite(void)
     tcase_add_test(tc, test_netcdf_readback);
     tcase_add_test(tc, test_shipped_files);
     tcase_add_test(tc, test_light_queries_match);
+    tcase_add_test(tc, test_low_column_join);
     suite_add_tcase(s, tc);
     return s;
 }

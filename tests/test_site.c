@@ -76,7 +76,7 @@ START_TEST(test_tropical_site_through_the_chain)
     ck_assert(strstr(ch.site.atmosphere_why, "tropical") != NULL);
     ck_assert(strstr(ch.site.sea_surface_why, "Neale & Hoskins 2000") != NULL);
     char line[640];
-    ck_assert(sl_site_describe(&ch.site, ch.atmosphere.join_altitude_m, line, sizeof line));
+    ck_assert(sl_site_describe(&ch.site, &ch.atmosphere, line, sizeof line));
     ck_assert_msg(strstr(line, "no atmosphere given") && strstr(line, "no sea-surface"), "%s", line);
     /* A given key is kept and said so. */
     ck_assert_msg(sl_scenario_load_string(&sc, "given.ini",
@@ -88,7 +88,7 @@ START_TEST(test_tropical_site_through_the_chain)
     ck_assert_str_eq(ch.atmosphere.name, "subarctic-winter");
     ck_assert(!ch.site.atmosphere_derived && !ch.site.sea_surface_derived);
     SL_CK_ABS(ch.site.sea_surface_K, 280.0, 1e-12);
-    ck_assert(!sl_site_describe(&ch.site, ch.atmosphere.join_altitude_m, line, sizeof line));
+    ck_assert(!sl_site_describe(&ch.site, &ch.atmosphere, line, sizeof line));
     sl_chain_free(&ch);
 }
 END_TEST

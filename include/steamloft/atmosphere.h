@@ -60,6 +60,7 @@ typedef struct sl_atmosphere {
     double join_altitude_m;         /* a user column that ended below the built-in top was
                                        joined here onto a climate-zone profile (see
                                        sl_atmosphere_init); NaN when not joined */
+    char joined_onto[32];           /* the climate-zone profile it was joined onto, or "" */
     /* Markers that a profile does not have (no level satisfies the WMO rule,
      * the profile ends below the stratopause, ...) are NaN; so are the water
      * column and burden when either boundary is missing. */
@@ -75,7 +76,11 @@ extern const char *const sl_atmosphere_builtin_names[];
  * with nothing to free, on success release it with sl_atmosphere_free.
  * A file profile whose lowest level lies between 0 and 2000 m (a reanalysis
  * column whose 1000 hPa level is at 100 m, say) is extended down to 0 m
- * isothermally and hydrostatically; the source line says so. */
+ * isothermally and hydrostatically; the source line says so.  A file profile
+ * that ends below 1000 km (a column ending at 1 hPa, ~48 km) is joined at its
+ * top onto the best-matching climate-zone profile (temperature offset fading
+ * over 10 km, pressure hydrostatic; atmosphere.c): join_altitude_m,
+ * joined_onto and the source line record it. */
 int sl_atmosphere_init(sl_atmosphere *atm, const char *name_or_path, sl_err *e);
 
 /* Build a profile named NAME from N >= 3 levels (copied; strictly increasing
@@ -116,6 +121,11 @@ int sl_atmosphere_density(const sl_atmosphere *atm, double altitude_m, sl_atmos_
  * set to NaN (it costs an exponential; sl_atmosphere_at computes it). */
 int sl_atmosphere_state(const sl_atmosphere *atm, double altitude_m, sl_atmos_cursor *cur, sl_atmos_state *out,
                         sl_err *e);
+
+/* Geometric altitude (m) where the profile's (interpolated) pressure equals
+ * PRESSURE_PA: the inverse of the ln p spline, which is monotone (Steffen),
+ * to 1e-9 m.  SL_EDATA when the pressure is outside the profile's range. */
+int sl_atmosphere_altitude_of_pressure(const sl_atmosphere *atm, double pressure_Pa, double *altitude_m, sl_err *e);
 
 /* Gravity at geometric altitude Z above mean sea level, inverse-square law
  * with the USSA76 constants g0 and r0, m s-2. */

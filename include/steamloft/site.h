@@ -28,6 +28,7 @@
 
 #include <stddef.h>
 
+#include "steamloft/atmosphere.h"
 #include "steamloft/scenario.h"
 
 /* Latitude band edges of the zone rule, degrees. */
@@ -57,9 +58,9 @@ typedef struct sl_site_choice {
  * the two functions above for keys it was not given) and the reasons. */
 void sl_site_choose(const sl_scenario *sc, sl_site_choice *out);
 
-/* One line for the summary: what was derived and why, and the altitude
- * where a user column was joined onto a climate-zone profile (JOIN_M, NaN:
- * none).  Returns 0 (and an empty line) when nothing was derived or joined. */
-int sl_site_describe(const sl_site_choice *c, double join_m, char *buf, size_t n);
+/* One line for the summary: what was derived and why, and where a user
+ * column ATM was joined onto a climate-zone profile (ATM may be NULL).
+ * Returns 0 (and an empty line) when nothing was derived or joined. */
+int sl_site_describe(const sl_site_choice *c, const sl_atmosphere *atm, char *buf, size_t n);
 
 #endif
