@@ -38,4 +38,4 @@ sed -n 's/^steamloft: time per member .*; chain stages (rank 0, all threads): /t
 n10=$((n * 10))
 run 2 "$n10" big
 echo "peak resident memory with $n10 members: $(mem big) MiB ($(rate big) scenarios/s on 2 threads)"
-echo "design target (DESIGN.md section 7): well under 1 ms per scenario per core"
+echo "target (README.md, Performance): 0.15 ms CPU per scenario per core"

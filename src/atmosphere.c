@@ -35,7 +35,7 @@
  * summer and winter) are our own piecewise-linear temperature profiles in
  * geometric altitude through a few nodes read from the AFGL reference
  * atmospheres (Anderson et al. 1986, AFGL-TR-86-0110; tables seen in the
- * pyrtlib transcription, see ../shared/reference/climate-facts.md section 7):
+ * pyrtlib transcription of those tables; see docs/references.md):
  * surface, tropopause, stratopause, mesopause and 120 km; above 120 km the
  * standard's thermosphere form T_inf - (T_inf - T120) exp(-lambda xi) from
  * the zone's own 120 km temperature (T_inf = 1000 K, lambda = 0.01875/km).
@@ -148,7 +148,7 @@ double sl_atmosphere_gravity_m_s2(double altitude_m)
 /* ---- U.S. Standard Atmosphere 1976 -------------------------------------- */
 
 /* Layer bases in geopotential metres and lapse rates in K per geopotential
- * metre (NOAA-S/T 76-1562 Table 4; SEEN in climate-facts.md section 7). */
+ * metre (NOAA-S/T 76-1562 Table 4; SEEN). */
 static const double ussa_hb_m[8] = {0.0, 11000.0, 20000.0, 32000.0, 47000.0, 51000.0, 71000.0, 84852.0};
 static const double ussa_lapse_K_m[7] = {-6.5e-3, 0.0, 1.0e-3, 2.8e-3, 0.0, -2.8e-3, -2.0e-3};
 
@@ -493,7 +493,7 @@ typedef struct zone_def {
 
 /* Nodes read from the AFGL 1986 tables (SEEN, pyrtlib transcription): the
  * tropopause and stratopause heights and temperatures are the tables' own
- * (climate-facts.md section 7); the other nodes follow the tables at the
+ * (Anderson et al. 1986); the other nodes follow the tables at the
  * surface, 2-3 km, 20-47.5 km, the mesopause and 100-120 km. */
 static const zone_node tropical_nodes[] = {
     {0, 299.7},    {17, 194.8}, {20, 206.7}, {30, 232.3}, {40, 254.0},  {47.5, 269.6},

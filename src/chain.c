@@ -164,7 +164,7 @@ static int run_strat(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     }
     sl_strat_params p;
     sl_strat_params_from_scenario(&p, sc);
-    if (!changed && memcmp(&p, &ch->strat_params, sizeof p) != 0)
+    if (!changed && !sl_strat_params_equal(&p, &ch->strat_params))
         changed = 1;
     if (changed) {
         sl_strat_result_free(&ch->strat);

@@ -42,8 +42,9 @@ static void print_help(FILE *out)
         fprintf(out, "  %-10s %s\n", commands[i].name, commands[i].summary);
     fprintf(out,
             "\n"
-            "Global options:\n"
-            "  -v, --verbose   more messages on stderr (repeatable)\n"
+            "Global options (-v, -q and -f also anywhere after the command):\n"
+            "  -v, --verbose   more detail: the full summary of every stage, messages on\n"
+            "                  stderr (repeatable)\n"
             "  -q, --quiet     errors only\n"
             "  -f, --force     allow overwriting existing output files\n"
             "  -h, --help      print this help and exit\n"
@@ -60,11 +61,51 @@ static void print_help(FILE *out)
             sl_cli_caution());
 }
 
+/* One word of a command line, quoted where a shell would split or expand it. */
+static void print_shell_word(const char *a)
+{
+    if (a[0] != '\0' && strspn(a, "abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ"
+                                   "0123456789-_./=,:+%@") == strlen(a)) {
+        fputs(a, stderr);
+        return;
+    }
+    fputc('\'', stderr);
+    for (const char *p = a; *p; p++) {
+        if (*p == '\'')
+            fputs("'\\''", stderr);
+        else
+            fputc(*p, stderr);
+    }
+    fputc('\'', stderr);
+}
+
+/* After "exists; not overwritten": the same command line (the program as it
+ * was typed, the same arguments) with --force, so the hint is a command that
+ * works as printed. */
+static void print_force_hint(const sl_cli_globals *g, const char *prog)
+{
+    if (g == NULL || g->full_argv == NULL || g->full_argc < 2)
+        return;
+    fprintf(stderr, "%s: to replace it, run: ", prog);
+    print_shell_word(g->full_argv[0] ? g->full_argv[0] : prog);
+    fputs(" --force", stderr);
+    for (int i = 1; i < g->full_argc; i++) {
+        const char *a = g->full_argv[i];
+        if (strcmp(a, "-f") == 0 || strcmp(a, "--force") == 0)
+            continue;
+        fputc(' ', stderr);
+        print_shell_word(a);
+    }
+    fputc('\n', stderr);
+}
+
 int sl_cli_report(const sl_cli_globals *g, const char *cmd, const sl_err *e)
 {
     const char *prog = g && g->prog ? g->prog : "steamloft";
     fprintf(stderr, "%s%s%s: error: %s\n", prog, cmd ? " " : "", cmd ? cmd : "",
             e->msg[0] ? e->msg : sl_err_name(e->code));
+    if (e->code == SL_ECANTCREAT && strstr(e->msg, "not overwritten") != NULL && !(g && g->force))
+        print_force_hint(g, prog);
     if (g && g->verbosity > 0 && e->trace[0])
         fprintf(stderr, "%s: trace: %s\n", prog, e->trace);
     return sl_err_exit_code(e->code == SL_OK ? SL_EINTERNAL : e->code);
@@ -81,6 +122,54 @@ int sl_cli_usage_error(const sl_cli_globals *g, const char *cmd, const char *fmt
     fprintf(stderr, "\nTry '%s%s%s --help' for more information.\n", prog, cmd ? " " : "",
             cmd ? cmd : "");
     return EX_USAGE;
+}
+
+int sl_cli_option_error(const sl_cli_globals *g, const char *cmd, int c, char **argv)
+{
+    const char *tok = (optind > 0 && argv[optind - 1]) ? argv[optind - 1] : "";
+    int is_long = strncmp(tok, "--", 2) == 0;
+    if (c == ':') {
+        if (!is_long && optopt > 0 && optopt < 128)
+            return sl_cli_usage_error(g, cmd, "option '-%c' needs a value", optopt);
+        return sl_cli_usage_error(g, cmd, "option '%s' needs a value", tok);
+    }
+    if (!is_long && optopt > 0 && optopt < 128)
+        return sl_cli_usage_error(g, cmd, "unknown option '-%c'", optopt);
+    return sl_cli_usage_error(g, cmd, "unknown option '%s'", tok);
+}
+
+int sl_cli_sets_add(sl_cli_sets *s, const char *arg, sl_err *e)
+{
+    if (s->n >= SL_CLI_MAX_SETS)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "--set: at most %d overrides", SL_CLI_MAX_SETS);
+    /* Check the form and the key now, on a blank scenario: a typo fails at once. */
+    sl_scenario *probe = calloc(1, sizeof *probe);
+    if (probe == NULL)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory");
+    int rc = sl_scenario_override(probe, arg, e);
+    free(probe);
+    SL_TRY_RETURN(e, rc);
+    s->item[s->n++] = arg;
+    return SL_OK;
+}
+
+int sl_cli_sets_apply(const sl_cli_sets *s, sl_scenario *sc, sl_err *e)
+{
+    for (size_t i = 0; s && i < s->n; i++)
+        SL_TRY_RETURN(e, sl_scenario_override(sc, s->item[i], e));
+    return SL_OK;
+}
+
+int sl_cli_scenario_read(const char *path, const sl_cli_sets *s, sl_scenario *sc, sl_err *e)
+{
+    SL_TRY_RETURN(e, sl_scenario_read(sc, path, e));
+    return sl_cli_sets_apply(s, sc, e);
+}
+
+int sl_cli_scenario_load(const char *path, const sl_cli_sets *s, sl_scenario *sc, sl_err *e)
+{
+    SL_TRY_RETURN(e, sl_cli_scenario_read(path, s, sc, e));
+    return sl_scenario_finish(sc, e);
 }
 
 int sl_cli_parse_double(const char *text, const char *what, double *out, sl_err *e)
@@ -117,6 +206,29 @@ int sl_cmd_help(int argc, char **argv, const sl_cli_globals *g)
     return sl_cli_usage_error(g, "help", "unknown command '%s'", argv[1]);
 }
 
+/* A global option written after the command: -v, -q, -f, their long forms,
+ * or a bundle of those letters ("-vv", "-fq").  Sets it in G; 1 if it was one. */
+static int take_global(const char *a, sl_cli_globals *g)
+{
+    if (strcmp(a, "--verbose") == 0)
+        a = "-v";
+    else if (strcmp(a, "--quiet") == 0)
+        a = "-q";
+    else if (strcmp(a, "--force") == 0)
+        a = "-f";
+    if (a[0] != '-' || a[1] == '\0' || strspn(a + 1, "vqf") != strlen(a + 1))
+        return 0;
+    for (const char *p = a + 1; *p; p++) {
+        if (*p == 'v')
+            g->verbosity = g->verbosity < 0 ? 1 : g->verbosity + 1;
+        else if (*p == 'q')
+            g->verbosity = -1;
+        else
+            g->force = 1;
+    }
+    return 1;
+}
+
 int sl_cli_main(int argc, char **argv)
 {
     sl_cli_globals g = {0, 0, "steamloft", argc, argv};
@@ -148,9 +260,26 @@ int sl_cli_main(int argc, char **argv)
     for (size_t i = 0; i < n_commands; i++) {
         if (strcmp(name, commands[i].name) == 0) {
             int first = optind;
+            /* The command's arguments without the global options among them. */
+            char **sub = malloc(((size_t)(argc - first) + 1) * sizeof *sub);
+            if (sub == NULL) {
+                fprintf(stderr, "%s: error: out of memory\n", g.prog);
+                return EX_OSERR;
+            }
+            int n = 0, literal = 0;
+            for (int k = first; k < argc; k++) {
+                if (!literal && k > first && strcmp(argv[k], "--") == 0)
+                    literal = 1;
+                else if (!literal && k > first && take_global(argv[k], &g))
+                    continue;
+                sub[n++] = argv[k];
+            }
+            sub[n] = NULL;
             optind = 0; /* glibc: full reset for the command's own getopt_long */
-            opterr = 1;
-            return commands[i].fn(argc - first, argv + first, &g);
+            opterr = 0; /* one message per mistake: sl_cli_option_error */
+            int rc = commands[i].fn(n, sub, &g);
+            free(sub);
+            return rc;
         }
     }
     return sl_cli_usage_error(&g, NULL, "unknown command '%s'", name);

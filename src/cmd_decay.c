@@ -39,7 +39,8 @@ static void usage(FILE *out)
             "\n"
             "Options:\n"
             "  --inject MASS_KG         water mass of a single layer, kg\n"
-            "  --between BOTTOM_M TOP_M altitude range of that layer, m (or BOTTOM_M,TOP_M)\n"
+            "  --between BOTTOM_M TOP_M altitude range of that layer, m (or BOTTOM_M,TOP_M);\n"
+            "                           values up to 120 are taken for km and refused\n"
             "  --latitude DEG           latitude of the event, -90..90 (overrides the profile's)\n"
             "  --cloud-area M2          area of the young cloud, m2 (for the local column)\n"
             "  --freeze-out             freeze out at once the water above ice saturation in\n"
@@ -93,7 +94,7 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
     sl_err e = {0};
     int c;
     *done = 0;
-    while ((c = getopt_long(argc, argv, "ho:", lo, NULL)) != -1) {
+    while ((c = getopt_long(argc, argv, ":ho:", lo, NULL)) != -1) {
         double v;
         switch (c) {
         case 'h':
@@ -122,6 +123,14 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
             if (sl_cli_parse_double(buf, "--between BOTTOM_M", &o->bottom_m, &e) != SL_OK ||
                 sl_cli_parse_double(second, "--between TOP_M", &o->top_m, &e) != SL_OK)
                 return sl_cli_usage_error(g, "decay", "%s", e.msg);
+            /* A layer that ends below 120 m cannot reach the stratosphere: such
+             * values are kilometres written where metres are wanted. */
+            if (o->top_m > o->bottom_m && o->bottom_m >= 0.0 && o->top_m <= 120.0)
+                return sl_cli_usage_error(g, "decay",
+                                          "--between %g %g: the altitudes are in metres and these look like "
+                                          "kilometres; for %g to %g km write --between %g %g",
+                                          o->bottom_m, o->top_m, o->bottom_m, o->top_m, o->bottom_m * 1000.0,
+                                          o->top_m * 1000.0);
             if (!(o->bottom_m >= 0.0 && o->top_m > o->bottom_m && o->top_m <= 1.0e5))
                 return sl_cli_usage_error(g, "decay", "--between %g %g: need 0 <= BOTTOM_M < TOP_M <= 100000 m",
                                           o->bottom_m, o->top_m);
@@ -175,7 +184,7 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
                     return sl_cli_usage_error(g, "decay", "%s", e.msg);
                 break;
             }
-            return sl_cli_usage_error(g, "decay", "unknown option (see --help)");
+            return sl_cli_option_error(g, "decay", c, argv);
         }
     }
     if (optind < argc)

@@ -61,6 +61,7 @@ typedef struct ens_cli {
     int json;              /* summary as JSON */
     size_t block;
     const char *scenario;
+    sl_cli_sets sets;      /* --set SECTION.KEY=VALUE overrides */
 } ens_cli;
 
 /* ------------------------------------------------------------ the plan */
@@ -156,6 +157,7 @@ static int build_plan(const ens_cli *c, sl_scenario *sc, sl_ens_plan *p, int *id
     int rc = text ? sl_scenario_read_string(sc, "<stdin>", text, e) : sl_scenario_read(sc, c->scenario, e);
     free(text);
     SL_TRY_RETURN(e, rc);
+    SL_TRY_RETURN(e, sl_cli_sets_apply(&c->sets, sc, e));
     for (int id = 0; id < SL_P_COUNT; id++) {
         int line = 0;
         const char *raw = sl_scenario_raw(sc, (sl_param_id)id, &line);
@@ -944,7 +946,7 @@ static void print_help(const char *cmd)
                "Run the whole chain over a grid of scenario values.  KEY is section.key as\n"
                "'steamloft params' lists it; values are in the key's own unit.  The grid is the\n"
                "product of all --vary lists, the last --vary varying fastest.\n"
-               "  -V, --vary SPEC         a swept key (repeatable, up to %d)\n",
+               "      --vary SPEC         a swept key (repeatable, up to %d)\n",
                MAX_VARY);
     } else {
         printf("Usage: steamloft ensemble SCENARIO [--members N] [--seed S] [--sobol] [OPTIONS]\n"
@@ -968,6 +970,7 @@ static void print_help(const char *cmd)
            "                          e.g. percent_of_background>10 (repeatable)\n"
            "  -j, --threads N         OpenMP threads (default: OMP_NUM_THREADS or all cores)\n"
            "      --json              the summary as JSON (for scripts)\n"
+           SL_CLI_SET_HELP
            "      --progress          draw the progress bar even when stderr is not a terminal\n"
            "      --no-progress       never draw it\n"
            "  -h, --help              print this help\n"
@@ -1015,13 +1018,13 @@ static int parse_args(int argc, char **argv, ens_cli *c, const sl_cli_globals *g
         {"vary", required_argument, NULL, 'V'},      {"threads", required_argument, NULL, 'j'},
         {"progress", no_argument, NULL, OPT_PROGRESS}, {"no-progress", no_argument, NULL, OPT_NOPROGRESS},
         {"block", required_argument, NULL, OPT_BLOCK}, {"json", no_argument, NULL, OPT_JSON},
-        {"help", no_argument, NULL, 'h'},
+        {"help", no_argument, NULL, 'h'}, SL_CLI_SET_OPTION,
         {NULL, 0, NULL, 0}};
     sl_err e;
     sl_err_clear(&e);
     *done = 0;
     int ch;
-    while ((ch = getopt_long(argc, argv, "n:s:o:p:x:V:j:h", opts, NULL)) != -1) {
+    while ((ch = getopt_long(argc, argv, ":n:s:o:p:x:j:h", opts, NULL)) != -1) {
         size_t v;
         switch (ch) {
         case 'h': print_help(c->cmd); *done = 1; return EX_OK;
@@ -1084,7 +1087,11 @@ static int parse_args(int argc, char **argv, ens_cli *c, const sl_cli_globals *g
             if (parse_size(optarg, "--block", 1, 1 << 20, &c->block, &e) != SL_OK)
                 return sl_cli_usage_error(g, c->cmd, "%s", e.msg);
             break;
-        default: return sl_cli_usage_error(g, c->cmd, "unknown option (see --help)");
+        case SL_CLI_OPT_SET:
+            if (sl_cli_sets_add(&c->sets, optarg, &e) != SL_OK)
+                return sl_cli_usage_error(g, c->cmd, "%s", e.msg);
+            break;
+        default: return sl_cli_option_error(g, c->cmd, ch, argv);
         }
     }
     if (optind >= argc)

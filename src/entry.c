@@ -260,27 +260,6 @@ static int locate_event(probe_ctx *q, double dt, double *tau_out)
     return GSL_SUCCESS;
 }
 
-void sl_entry_params_from_scenario(sl_entry_params *p, const sl_scenario *sc)
-{
-    memset(p, 0, sizeof *p);
-    p->diameter_m = sl_scenario_value(sc, SL_P_IMPACTOR_DIAMETER);
-    p->density_kg_m3 = sl_scenario_value(sc, SL_P_IMPACTOR_DENSITY);
-    p->speed_m_s = sl_scenario_value(sc, SL_P_IMPACTOR_SPEED);
-    p->angle_rad = sl_scenario_value(sc, SL_P_IMPACTOR_ANGLE);
-    p->strength_Pa = sl_scenario_value(sc, SL_P_IMPACTOR_STRENGTH);
-    p->start_altitude_m = sl_scenario_value(sc, SL_P_ENTRY_START_ALTITUDE);
-    p->drag_coefficient = sl_scenario_value(sc, SL_P_ENTRY_DRAG);
-    p->heat_transfer_coefficient = sl_scenario_value(sc, SL_P_ENTRY_HEAT_TRANSFER);
-    p->heat_of_ablation_J_kg = sl_scenario_value(sc, SL_P_ENTRY_ABLATION_HEAT);
-    p->spread_coefficient = sl_scenario_value(sc, SL_P_ENTRY_SPREAD);
-    p->burst_spread_factor = sl_scenario_value(sc, SL_P_ENTRY_BURST_FACTOR);
-    p->band_width_m = sl_scenario_value(sc, SL_P_ENTRY_BAND);
-    p->relative_tolerance = sl_scenario_value(sc, SL_P_ENTRY_RTOL);
-    p->imposed_burst_altitude_m = sl_scenario_value(sc, SL_P_AIRBURST_ALTITUDE);
-    p->imposed_burst_fraction = sl_scenario_value(sc, SL_P_AIRBURST_FRACTION);
-    p->flat_no_gravity = 0;
-}
-
 static int check_params(const sl_entry_params *p, sl_err *e)
 {
     const double pos[] = {p->diameter_m, p->density_kg_m3, p->speed_m_s, p->angle_rad,

@@ -10,6 +10,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <strings.h>
 #include <unistd.h>
 
 /* Every name a CSV or plot directory may receive (checked before a run). */
@@ -26,6 +27,14 @@ int sl_output_request_is_option(int c)
            c == SL_OUTOPT_NO_RENDER;
 }
 
+int sl_output_request_is_nc_name(const char *path)
+{
+    size_t n = strlen(path);
+    const char *base = strrchr(path, '/');
+    base = base ? base + 1 : path;
+    return n > 3 && strlen(base) > 3 && strcasecmp(path + n - 3, ".nc") == 0;
+}
+
 int sl_output_request_option(sl_output_request *rq, int c, const char *arg, sl_err *e)
 {
     switch (c) {
@@ -35,6 +44,13 @@ int sl_output_request_option(sl_output_request *rq, int c, const char *arg, sl_e
                            "-o: netCDF cannot be written to standard output; give a file name");
         if (arg[0] == '\0')
             SL_FAIL_RETURN(e, SL_EUSAGE, "-o: empty file name");
+        /* The format follows the name: -o writes netCDF, so the name says so
+         * (never netCDF under a .csv name, nor anything else under .nc). */
+        if (!sl_output_request_is_nc_name(arg))
+            SL_FAIL_RETURN(e, SL_EUSAGE,
+                           "-o %s: -o writes netCDF, so the file name must end in .nc; for CSV "
+                           "files give --csv DIR, for plots --plot DIR",
+                           arg);
         rq->nc_path = arg;
         return SL_OK;
     case SL_OUTOPT_FORMAT:

@@ -1,12 +1,15 @@
 /* output_text: run summaries as text or JSON (see include/steamloft/output_text.h).
- * Quantities are emitted once; the JSON keys are SI with the unit in the key,
- * the text shows the units people read (Mt TNT, km, Tg, degrees). */
+ * Quantities are emitted once; the JSON keys are SI with the unit in the key
+ * and full precision, the text shows the units people read (Mt TNT, km, Tg,
+ * degrees) to three significant figures: the estimates are uncertain by far
+ * more than that. */
 #include "steamloft/output_text.h"
 #include "steamloft/site.h"
 #include "steamloft/cli.h"
 #include "steamloft/units.h"
 
 #include <math.h>
+#include <stdarg.h>
 #include <string.h>
 
 static void json_string(FILE *out, const char *s)
@@ -39,6 +42,30 @@ static void json_member(sl_report *r, const char *key)
         json_string(r->out, key);
         fputs(": ", r->out);
     }
+}
+
+void sl_output_fmt3(char *buf, size_t n, double x)
+{
+    if (!isfinite(x)) {
+        snprintf(buf, n, "none");
+        return;
+    }
+    double a = fabs(x);
+    if (a == 0.0) {
+        snprintf(buf, n, "0");
+        return;
+    }
+    if (a < 1e-3 || a >= 1e6) {
+        snprintf(buf, n, "%.2e", x);
+        return;
+    }
+    int mag = (int)floor(log10(a));
+    double scale = pow(10.0, 2 - mag);
+    double r = round(x * scale) / scale;
+    if (fabs(r) >= pow(10.0, mag + 1)) /* 999.7 -> 1000 */
+        mag++;
+    int decimals = 2 - mag > 0 ? 2 - mag : 0;
+    snprintf(buf, n, "%.*f", decimals, r);
 }
 
 static void text_label(sl_report *r, const char *label)
@@ -83,9 +110,11 @@ void sl_report_number(sl_report *r, const char *key, double value_si, const char
         return;
     }
     text_label(r, label);
-    if (isfinite(value_si))
-        fprintf(r->out, "%.4g%s%s\n", value_si * factor, unit && unit[0] ? " " : "", unit ? unit : "");
-    else
+    if (isfinite(value_si)) {
+        char v[32];
+        sl_output_fmt3(v, sizeof v, value_si * factor);
+        fprintf(r->out, "%s%s%s\n", v, unit && unit[0] ? " " : "", unit ? unit : "");
+    } else
         fputs("none\n", r->out);
 }
 
@@ -219,7 +248,7 @@ static void emit_partition(sl_report *r, const sl_chain *ch)
         sl_report_number(r, "plume_heat_J", pt->energy_plume_heat_J, "extra heat of the sea plume", 1.0 / SL_J_PER_MT_TNT, "Mt");
         sl_report_number(r, "liquid_heat_J", pt->energy_liquid_heat_J, "heating the thrown-up liquid", 1.0 / SL_J_PER_MT_TNT, "Mt");
         sl_report_number(r, "energy_other_J", pt->energy_other_J, "crater, waves, rock", 1.0 / SL_J_PER_MT_TNT, "Mt");
-        sl_report_number(r, "cavity_diameter_m", pt->cavity_diameter_m, "transient cavity diameter", 1e-3, "km");
+        sl_report_number(r, "cavity_diameter_m", pt->cavity_diameter_m, "opening in the water, across", 1e-3, "km");
         sl_report_bool(r, "shallow_water", pt->shallow, "cavity reaches the sea floor");
         if (pt->method == SL_PARTITION_SHOCK) {
             sl_report_number(r, "peak_pressure_Pa", pt->peak_pressure_Pa, "contact pressure", 1e-9, "GPa");
@@ -384,16 +413,352 @@ static void emit_parameters(sl_report *r, const sl_chain *ch)
     sl_report_end_object(r);
 }
 
-int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, sl_err *e)
+/* ------------------------------------------------------------------ key results */
+
+void sl_output_key_results(const sl_chain *ch, sl_key_results *k)
 {
+    memset(k, 0, sizeof *k);
+    sl_scenario_name(&ch->scenario, k->name, sizeof k->name);
+    k->kind = ch->scenario.kind == SL_SCENARIO_IMPACTOR ? "impactor" : "explosion";
+    k->energy_J = ch->partition.energy_total_J;
+    k->energy_at_sea_J = ch->partition.energy_at_sea_J;
+    k->regime = ch->have_plume ? sl_plume_regime_name(ch->plume.regime) : "none";
+    k->strat_vapor_kg = ch->have_plume ? ch->plume.stratospheric_water_kg : NAN;
+    k->strat_ice_kg = ch->have_plume ? ch->plume.stratospheric_ice_kg : NAN;
+    k->strat_injected_kg = k->background_burden_kg = k->percent_of_background = NAN;
+    k->efolding_years = k->mean_residence_years = NAN;
+    if (ch->have_strat_model) {
+        const sl_strat_result *st = &ch->strat;
+        const double undefined = st->initial_excess_kg > 0.0 ? 0.0 : NAN;
+        k->strat_injected_kg = st->injected_kg;
+        k->background_burden_kg = ch->strat_model.reference_background_kg;
+        k->percent_of_background = st->percent_of_background_peak;
+        k->efolding_years = sl_s_to_years(st->efolding_s) + undefined;
+        k->efolding_extrapolated = st->efolding_extrapolated && isfinite(k->efolding_years);
+        k->mean_residence_years = sl_s_to_years(st->mean_residence_s) + undefined;
+    }
+    /* Validity in a few words.  The plume stage's own validity line replaces
+     * this wording when it lands (one function, called here). */
+    snprintf(k->validity_short, sizeof k->validity_short, "%s",
+             !ch->have_plume ? "no plume"
+             : ch->plume.regime == SL_REGIME_BLOWOUT ? "rough: blow-out rule" : "thermal model");
+    if (k->efolding_extrapolated)
+        strncat(k->validity_short, "; e-fold extrapolated",
+                sizeof k->validity_short - strlen(k->validity_short) - 1);
+    if (ch->have_plume && ch->plume.regime == SL_REGIME_BLOWOUT)
+        snprintf(k->validity, sizeof k->validity,
+                 "rough: blow-out, water placed by the blow-out rule (fireball beyond the scale "
+                 "height, or the thermal left the profile)");
+    else if (ch->have_plume)
+        snprintf(k->validity, sizeof k->validity, "within the thermal-plume model");
+    else
+        snprintf(k->validity, sizeof k->validity, "no plume computed");
+    if (k->efolding_extrapolated) {
+        size_t l = strlen(k->validity);
+        snprintf(k->validity + l, sizeof k->validity - l, "; e-folding extrapolated beyond the run");
+    }
+}
+
+/* ------------------------------------------------------------------ text summary */
+
+/* One line "  LABEL  VALUE": label padded to a column, VALUE printf-formatted. */
+static void row(FILE *o, const char *label, const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 3, 4)))
+#endif
+    ;
+static void row(FILE *o, const char *label, const char *fmt, ...)
+{
+    fprintf(o, "  %-34s ", label);
+    va_list ap;
+    va_start(ap, fmt);
+    vfprintf(o, fmt, ap);
+    va_end(ap);
+    fputc('\n', o);
+}
+
+/* Three significant figures times FACTOR, in a rotating set of buffers so a
+ * row can hold several numbers. */
+typedef struct fmt_ring {
+    char b[8][32];
+    int i;
+} fmt_ring;
+
+static const char *f3(fmt_ring *r, double x)
+{
+    char *p = r->b[r->i++ % 8];
+    sl_output_fmt3(p, 32, x);
+    return p;
+}
+
+static void text_answer(FILE *o, const sl_chain *ch, const sl_key_results *k, fmt_ring *f)
+{
+    fprintf(o, "\nWhat reaches the stratosphere\n");
+    row(o, "water above the tropopause", "%s Tg  (%s Tg vapour, %s Tg ice)",
+        f3(f, k->strat_injected_kg * 1e-9), f3(f, k->strat_vapor_kg * 1e-9), f3(f, k->strat_ice_kg * 1e-9));
+    row(o, "share of the background", "%s %% at the peak  (background %s Tg above ~100 hPa)",
+        f3(f, k->percent_of_background), f3(f, k->background_burden_kg * 1e-9));
+    if (isfinite(k->efolding_years))
+        row(o, "e-folding time", "%s years%s", f3(f, k->efolding_years),
+            k->efolding_extrapolated ? " (extrapolated beyond the run)" : "");
+    else
+        row(o, "e-folding time", "none (nothing entered the stratosphere)");
+    row(o, "plume regime", "%s", k->regime);
+    row(o, "validity", "%s", k->validity);
+    (void)ch;
+}
+
+/* The water budget of the event, sources to stratosphere, in Tg.  This is
+ * the place of the plume stage's budget table: when its function lands it
+ * is called here instead of these rows (same quantities, one writer). */
+static void text_water_budget(FILE *o, const sl_chain *ch, fmt_ring *f)
+{
+    const sl_partition *pt = &ch->partition;
+    fprintf(o, "\nWater budget (Tg)\n");
+    row(o, "sea water turned to vapour", "%s", f3(f, pt->water_vaporized_kg * 1e-9));
+    if (ch->has_entry) {
+        row(o, "liquid water thrown up", "%s", f3(f, pt->water_liquid_lofted_kg * 1e-9));
+        row(o, "water brought by the body", "%s", f3(f, pt->impactor_water_kg * 1e-9));
+    }
+    if (!ch->have_plume)
+        return;
+    const sl_plume *pl = &ch->plume;
+    const sl_injection *inj = &ch->injection;
+    double bands = sl_injection_total_vapor_kg(inj) + sl_injection_total_ice_kg(inj);
+    row(o, "fell back during the rise", "%s", f3(f, pl->fallout_kg * 1e-9));
+    row(o, "carried into the young clouds", "%s", f3(f, pl->water_lofted_kg * 1e-9));
+    row(o, "  of it: ice settled out", "%s", f3(f, pl->frozen_out_kg * 1e-9));
+    row(o, "  of it: background vapour", "%s", f3(f, pl->background_kg * 1e-9));
+    row(o, "  of it: below the lowest band", "%s", f3(f, pl->below_bands_kg * 1e-9));
+    row(o, "  of it: left in the bands", "%s  (above the tropopause: %s vapour + %s ice)",
+        f3(f, bands * 1e-9), f3(f, pl->stratospheric_water_kg * 1e-9), f3(f, pl->stratospheric_ice_kg * 1e-9));
+}
+
+/* The event and where it happens.  The atmosphere stage adds here the line
+ * that says which atmosphere and sea surface were chosen and why. */
+static void text_event(FILE *o, const sl_chain *ch, const sl_key_results *k, fmt_ring *f, int detail)
+{
+    const sl_scenario *sc = &ch->scenario;
+    fprintf(o, "\nThe event\n");
+    if (ch->has_entry) {
+        row(o, "body", "%s m across, %s kg/m3, %s km/s at %s degrees",
+            f3(f, sc->value_si[SL_P_IMPACTOR_DIAMETER]), f3(f, sc->value_si[SL_P_IMPACTOR_DENSITY]),
+            f3(f, sc->value_si[SL_P_IMPACTOR_SPEED] * 1e-3), f3(f, sc->value_si[SL_P_IMPACTOR_ANGLE] * 180.0 / SL_PI));
+        row(o, "kinetic energy", "%s J = %s Mt TNT", f3(f, k->energy_J), f3(f, k->energy_J / SL_J_PER_MT_TNT));
+    } else {
+        double z = sc->value_si[SL_P_EXPLOSION_ALTITUDE];
+        row(o, "explosion", "%s J = %s Mt TNT, %s", f3(f, k->energy_J), f3(f, k->energy_J / SL_J_PER_MT_TNT),
+            z > 0 ? "in the air" : "at the surface");
+        if (z > 0)
+            row(o, "height of the burst", "%s km", f3(f, z * 1e-3));
+    }
+    double lat = sc->value_si[SL_P_SITE_LATITUDE] * 180.0 / SL_PI;
+    row(o, "place", "%s %s, %s E, ocean %s m deep", f3(f, fabs(lat)), lat < 0 ? "S" : "N",
+        f3(f, sc->value_si[SL_P_SITE_LONGITUDE] * 180.0 / SL_PI), f3(f, sc->value_si[SL_P_SITE_OCEAN_DEPTH]));
+    row(o, "atmosphere, sea surface", "%s, %s K", ch->atmosphere.name, f3(f, sc->value_si[SL_P_SITE_SST]));
+    char site_line[640]; /* site-aware defaults and a low column's join (site.c) */
+    if (sl_site_describe(&ch->site, &ch->atmosphere, site_line, sizeof site_line))
+        row(o, "site defaults", "%s", site_line);
+    if (detail) {
+        int m = (int)lround(sc->value_si[SL_P_SITE_MONTH]);
+        if (m > 0)
+            row(o, "month", "%d", m);
+        else
+            row(o, "month", "not given (annual-mean conditions)");
+    }
+}
+
+/* Stage 1: the flight through the air (impactors). */
+static void text_descent(FILE *o, const sl_chain *ch, fmt_ring *f, int detail)
+{
+    const sl_entry *en = &ch->entry;
+    double mt = 1.0 / SL_J_PER_MT_TNT;
+    fprintf(o, "\nDescent through the air\n");
+    if (en->broke_up)
+        row(o, "fragmentation", "began at %s km", f3(f, en->breakup_altitude_m * 1e-3));
+    else
+        row(o, "fragmentation", "none: the body stayed whole");
+    row(o, "energy given to the air", "%s Mt", f3(f, en->energy_in_air_J * mt));
+    if (en->airburst)
+        row(o, "ends as an air burst", "peak deposition at %s km%s", f3(f, en->burst_altitude_m * 1e-3),
+            en->imposed ? " (imposed by the scenario)" : "");
+    if (en->reached_sea)
+        row(o, "arrives at the water", "%s kg, %s km/s, %s degrees below the horizon",
+            f3(f, en->sea_mass_kg), f3(f, en->sea_speed_m_s * 1e-3), f3(f, en->sea_angle_rad * 180.0 / SL_PI));
+    else if (en->left_atmosphere)
+        row(o, "arrives at the water", "no: it skipped out of the atmosphere");
+    else
+        row(o, "arrives at the water", "no");
+    if (!detail)
+        return;
+    row(o, "mass at the top of the atmosphere", "%s kg", f3(f, en->initial_mass_kg));
+    row(o, "energy bookkeeping residual", "%s J", f3(f, en->energy_error_J));
+    double total = en->energy_in_air_J;
+    if (total > 0) {
+        fprintf(o, "  energy left in the air by height (bands with >= 1 %%)\n");
+        for (size_t i = 0; i < en->n_bands; i++)
+            if (en->band_energy_J[i] >= 0.01 * total)
+                fprintf(o, "    %5.1f to %5.1f km   %8s Mt  %5.1f %%\n", 1e-3 * (double)i * en->band_width_m,
+                        1e-3 * (double)(i + 1) * en->band_width_m, f3(f, en->band_energy_J[i] * mt),
+                        100.0 * en->band_energy_J[i] / total);
+    }
+}
+
+/* Stage 2: what the energy reaching the sea does. */
+static void text_sea(FILE *o, const sl_chain *ch, fmt_ring *f, int detail)
+{
+    const sl_partition *pt = &ch->partition;
+    double mt = 1.0 / SL_J_PER_MT_TNT;
+    fprintf(o, "\nAt the sea surface\n");
+    if (!ch->has_entry) {
+        row(o, "energy arriving", "%s Mt", f3(f, pt->energy_at_sea_J * mt));
+        return;
+    }
+    row(o, "energy arriving", "%s Mt (%s method)", f3(f, pt->energy_at_sea_J * mt),
+        pt->method == SL_PARTITION_SHOCK ? "shock" : "budget");
+    row(o, "shared out (Mt)", "%s steam, %s plume heat, %s spray, %s crater, waves, rock",
+        f3(f, pt->energy_vaporization_J * mt), f3(f, pt->energy_plume_heat_J * mt), f3(f, pt->energy_liquid_heat_J * mt),
+        f3(f, pt->energy_other_J * mt));
+    row(o, "opening in the water, across", "%s km%s", f3(f, pt->cavity_diameter_m * 1e-3),
+        pt->shallow ? " (reaches the sea floor)" : "");
+    if (!detail)
+        return;
+    row(o, "energy given to the water", "%s Mt", f3(f, pt->energy_to_water_J * mt));
+    row(o, "vapour if all went into steam", "%s Tg", f3(f, pt->water_vapor_limit_kg * 1e-9));
+    if (pt->method == SL_PARTITION_SHOCK) {
+        row(o, "contact pressure", "%s GPa", f3(f, pt->peak_pressure_Pa * 1e-9));
+        row(o, "pressure decay exponent", "%s", f3(f, pt->decay_exponent));
+    }
+    fprintf(o, "  plume sources\n");
+    for (size_t i = 0; i < pt->sources.n; i++) {
+        const sl_source *sr = &pt->sources.src[i];
+        fprintf(o, "    %zu %-9s at %s km, radius %s km, air %s Tg, vapour %s Tg, liquid %s Tg, %s K, "
+                   "heat %s Mt\n",
+                i + 1, source_kind_name(sr->kind), f3(f, sr->altitude_m * 1e-3), f3(f, sr->radius_m * 1e-3),
+                f3(f, sr->air_mass_kg * 1e-9), f3(f, sr->vapor_mass_kg * 1e-9), f3(f, sr->liquid_mass_kg * 1e-9),
+                f3(f, sr->temperature_K), f3(f, sr->heat_J * mt));
+    }
+}
+
+/* Stage 3: the rise of the plume and the young cloud. */
+static void text_rise(FILE *o, const sl_chain *ch, fmt_ring *f, int detail)
+{
+    if (!ch->have_plume)
+        return;
+    const sl_plume *pl = &ch->plume;
+    fprintf(o, "\nRise of the plume\n");
+    row(o, "highest reach", "%s km  (tropopause %s km)", f3(f, pl->plume_top_m * 1e-3),
+        f3(f, pl->tropopause_altitude_m * 1e-3));
+    row(o, "young cloud", "%s to %s km, neutral buoyancy at %s km", f3(f, pl->cloud_bottom_m * 1e-3),
+        f3(f, pl->cloud_top_m * 1e-3), f3(f, pl->neutral_altitude_m * 1e-3));
+    if (!detail)
+        return;
+    for (size_t i = 0; i < pl->n_thermals; i++) {
+        const sl_thermal *th = &pl->th[i];
+        fprintf(o, "  thermal %zu (%s, %s)\n", i + 1, source_kind_name(th->kind), sl_plume_regime_name(th->regime));
+        fprintf(o, "    apex %s km after %s min, radius %s km (%s scale heights), fastest %s m/s\n",
+                f3(f, th->apex_altitude_m * 1e-3), f3(f, th->apex_time_s / 60.0), f3(f, th->apex_radius_m * 1e-3),
+                f3(f, th->apex_radius_m / th->apex_scale_height_m), f3(f, th->max_speed_m_s));
+        fprintf(o, "    cloud %s to %s km, neutral %s km, water at apex %s Tg, air entrained %s Tg\n",
+                f3(f, th->cloud_bottom_m * 1e-3), f3(f, th->cloud_top_m * 1e-3), f3(f, th->neutral_altitude_m * 1e-3),
+                f3(f, (th->vapor_kg + th->liquid_kg + th->ice_kg) * 1e-9), f3(f, th->air_entrained_kg * 1e-9));
+    }
+}
+
+/* Where the lofted water sits: the bands, merged into layers of about 10 km
+ * by default (every band with -v). */
+static void text_layers(FILE *o, const sl_chain *ch, fmt_ring *f, int detail)
+{
+    const sl_injection *inj = &ch->injection;
+    if (!ch->have_plume || inj->n_bands == 0)
+        return;
+    double width = inj->band_top_m[0] - inj->band_bottom_m[0];
+    size_t group = 1;
+    if (!detail && width > 0 && width < 10000.0)
+        group = (size_t)lround(10000.0 / width);
+    if (group < 1)
+        group = 1;
+    fprintf(o, "\n%-37s%10s %10s\n", "Where the lofted water sits (Tg)", "vapour", "ice");
+    for (size_t i = 0; i < inj->n_bands; i += group) {
+        size_t end = i + group < inj->n_bands ? i + group : inj->n_bands;
+        double v = 0, c = 0;
+        for (size_t j = i; j < end; j++) {
+            v += inj->vapor_kg[j];
+            c += inj->ice_kg[j];
+        }
+        if (v == 0.0 && c == 0.0)
+            continue;
+        char layer[48];
+        snprintf(layer, sizeof layer, "%.1f to %.1f km", inj->band_bottom_m[i] * 1e-3, inj->band_top_m[end - 1] * 1e-3);
+        fprintf(o, "  %-34s %10s %10s\n", layer, f3(f, v * 1e-9), f3(f, c * 1e-9));
+    }
+}
+
+/* Stage 4: how long it stays (the box model). */
+static void text_stay(FILE *o, const sl_chain *ch, const sl_key_results *k, fmt_ring *f, int detail)
+{
+    if (!ch->have_strat_model)
+        return;
+    const sl_strat_result *st = &ch->strat;
+    const double undefined = st->initial_excess_kg > 0.0 ? 0.0 : NAN;
+    fprintf(o, "\nHow long it stays\n");
+    row(o, "mean residence time", "%s years", f3(f, k->mean_residence_years));
+    row(o, "left after 1 and 3 years", "%s and %s", f3(f, st->fraction_remaining_1y + undefined),
+        f3(f, st->fraction_remaining_3y + undefined));
+    row(o, "peak global-mean anomaly", "%s ppmv above ~100 hPa",
+        f3(f, sl_mole_fraction_to_ppmv(st->peak_global_anomaly_mole_fraction)));
+    row(o, "forcing indicator (coarse)", "%s W/m2", f3(f, st->forcing_indicator_W_m2));
+    if (!detail)
+        return;
+    row(o, "peak column, global / young cloud", "%s / %s precipitable um",
+        f3(f, sl_kg_m2_to_precip_um(st->peak_global_column_kg_m2)),
+        f3(f, sl_kg_m2_to_precip_um(st->peak_local_column_kg_m2)));
+    row(o, "below the tropopause (not entered)", "%s Tg", f3(f, st->not_entered_kg * 1e-9));
+    size_t last = st->n_times - 1;
+    for (int s = 0; s < SL_STRAT_N_SINKS; s++) {
+        char label[64];
+        snprintf(label, sizeof label, "removed by %s", sl_strat_sink_names[s]);
+        row(o, label, "%s Tg", f3(f, st->sink_kg[last * SL_STRAT_N_SINKS + s] * 1e-9));
+    }
+    row(o, "remaining at the end of the run", "%s Tg", f3(f, st->global_excess_kg[last] * 1e-9));
+}
+
+static void text_summary(FILE *o, const sl_chain *ch, int detail)
+{
+    sl_key_results k;
+    sl_output_key_results(ch, &k);
+    fmt_ring f = {{{0}}, 0};
+    fprintf(o, "steamloft run: %s  (%s, %s)\n", k.name, ch->scenario.path, k.kind);
+    text_answer(o, ch, &k, &f);
+    text_water_budget(o, ch, &f);
+    text_event(o, ch, &k, &f, detail);
+    if (ch->has_entry)
+        text_descent(o, ch, &f, detail);
+    text_sea(o, ch, &f, detail);
+    text_rise(o, ch, &f, detail);
+    text_layers(o, ch, &f, detail);
+    text_stay(o, ch, &k, &f, detail);
+    fprintf(o, "\n%s\n", sl_cli_caution());
+}
+
+int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, int detail, sl_err *e)
+{
+    if (!json) {
+        text_summary(out, ch, detail);
+        if (fflush(out) != 0 || ferror(out))
+            SL_FAIL_RETURN(e, SL_EIO, "cannot write the summary");
+        return SL_OK;
+    }
     sl_report r;
     sl_report_begin(&r, out, json);
     const sl_scenario *sc = &ch->scenario;
-    if (!json)
-        fprintf(out, "steamloft run: %s\n", sc->path);
+    sl_key_results k;
+    sl_output_key_results(ch, &k);
     sl_report_string(&r, "steamloft", sl_cli_version(), "version");
     sl_report_string(&r, "scenario", sc->path, "scenario");
-    sl_report_string(&r, "kind", sc->kind == SL_SCENARIO_IMPACTOR ? "impactor" : "explosion", "event");
+    sl_report_string(&r, "name", k.name, "name");
+    sl_report_string(&r, "kind", k.kind, "event");
+    sl_report_string(&r, "validity", k.validity, "validity");
     sl_report_string(&r, "atmosphere", ch->atmosphere.name, "atmosphere");
     char site_line[640]; /* site-aware defaults and a low column's join (site.c) */
     if (sl_site_describe(&ch->site, &ch->atmosphere, site_line, sizeof site_line))
@@ -414,8 +779,6 @@ int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, sl_err *e)
     emit_plume(&r, ch);
     emit_strat(&r, ch);
     emit_parameters(&r, ch);
-    if (!json)
-        fputc('\n', out);
     sl_report_string(&r, "caution", sl_cli_caution(), "caution");
     return sl_report_end(&r, e);
 }

@@ -107,28 +107,6 @@ void sl_partition_free(sl_partition *pt)
         memset(pt, 0, sizeof *pt);
 }
 
-void sl_partition_input_from_scenario(sl_partition_input *in, const sl_scenario *sc)
-{
-    memset(in, 0, sizeof *in);
-    in->kind = sc->kind;
-    in->sea_temperature_K = sl_scenario_value(sc, SL_P_SITE_SST);
-    in->ocean_depth_m = sl_scenario_value(sc, SL_P_SITE_OCEAN_DEPTH);
-    if (sc->kind == SL_SCENARIO_EXPLOSION) {
-        in->explosion_energy_J = sl_scenario_value(sc, SL_P_EXPLOSION_ENERGY);
-        in->explosion_altitude_m = sl_scenario_value(sc, SL_P_EXPLOSION_ALTITUDE);
-        in->explosion_heat_fraction = sl_scenario_value(sc, SL_P_EXPLOSION_HEAT);
-        return;
-    }
-    in->method = (sl_partition_method)(int)sl_scenario_value(sc, SL_P_PARTITION_METHOD);
-    in->vapor_energy_fraction = sl_scenario_value(sc, SL_P_PARTITION_VAPOR_FRACTION);
-    in->plume_heat_fraction = sl_scenario_value(sc, SL_P_PARTITION_HEAT_FRACTION);
-    in->target_heat_fraction = sl_scenario_value(sc, SL_P_PARTITION_TARGET_HEAT);
-    in->air_heat_fraction = sl_scenario_value(sc, SL_P_PARTITION_AIRBURST_HEAT);
-    in->impactor_material = (int)sl_scenario_value(sc, SL_P_PARTITION_IMPACTOR_HUGONIOT);
-    in->impactor_density_kg_m3 = sl_scenario_value(sc, SL_P_IMPACTOR_DENSITY);
-    in->impactor_water_fraction = sl_scenario_value(sc, SL_P_IMPACTOR_WATER);
-}
-
 double sl_partition_cavity_diameter_m(double diameter_m, double density_kg_m3, double speed_m_s,
                                       double angle_rad)
 {

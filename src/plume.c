@@ -73,8 +73,8 @@
  * of the thermal's top, z_apex + b_apex: the overshooting thermal collapses
  * and spreads between its neutral height and its overshoot height, the
  * "umbrella between H_B and H_T" of eruption columns (Sparks 1986, Bull.
- * Volcanol. 48, 3-15, SEEN via impact-facts.md s.1).  We prefer it to the
- * first guess of DESIGN.md (centred on z_N, apex radius as half-thickness)
+ * Volcanol. 48, 3-15, SEEN).  We prefer it to the simpler placement
+ * (centred on z_N, apex radius as half-thickness)
  * because in a deep atmosphere the thermal's radius grows with the density
  * scale height as well as by entrainment (b_apex ~ 0.45 z_apex for a 1-2 Mt
  * cloud), which put the cloud bottom far below the observed one; the rule
@@ -104,7 +104,6 @@
  *
  * Units: SI throughout (m, s, kg, J, K, Pa). */
 #include "steamloft/plume.h"
-#include "steamloft/scenario.h"
 #include "steamloft/units.h"
 #include "steamloft/water.h"
 
@@ -175,7 +174,7 @@ typedef struct diag {
 
 void sl_plume_params_default(sl_plume_params *par)
 {
-    par->entrainment_alpha = 0.25;   /* Scorer 1957; Turner 1973 (impact-facts.md s.1, MEM-med) */
+    par->entrainment_alpha = 0.25;   /* Scorer 1957; Turner 1973 (MEM) */
     par->added_mass_k = 0.5;         /* sphere in potential flow (MEM-high) */
     par->fallout_speed_m_s = 1.0;    /* drizzle/snow fall speed order (Rogers & Yau 1989, MEM) */
     par->ice_sediment_fraction = 0.5;/* PRACTICE, between the end-members (see injection.c) */
@@ -566,16 +565,6 @@ int sl_plume_set_params(sl_plume *pl, const sl_plume_params *par, sl_err *e)
     }
     pl->par = *par;
     return SL_OK;
-}
-
-void sl_plume_params_from_scenario(sl_plume_params *par, const sl_scenario *sc)
-{
-    sl_plume_params_default(par);
-    par->entrainment_alpha = sl_scenario_value(sc, SL_P_PLUME_ALPHA);
-    par->added_mass_k = sl_scenario_value(sc, SL_P_PLUME_ADDED_MASS);
-    par->fallout_speed_m_s = sl_scenario_value(sc, SL_P_PLUME_FALLOUT_SPEED);
-    par->ice_sediment_fraction = sl_scenario_value(sc, SL_P_PLUME_ICE_SEDIMENT);
-    par->rtol = sl_scenario_value(sc, SL_P_PLUME_RTOL);
 }
 
 void sl_plume_free(sl_plume *pl)

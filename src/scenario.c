@@ -18,7 +18,7 @@
  * 2005 (MAPS 40, 817, eq. 9), Y = 10^(2.107 + 0.0624 sqrt(rho)) Pa with rho in
  * kg m-3, fitted by them to bolide breakup data. */
 #include "steamloft/scenario.h"
-#include "steamloft/ensemble.h"
+#include "steamloft/dist.h"
 #include "steamloft/units.h"
 #include "steamloft/units_table.h"
 #include "steamloft/site.h"
@@ -112,6 +112,8 @@ void sl_scenario_range_text(sl_param_id id, char *buf, size_t n)
     const sl_param_def *d = &sl_scenario_params[id];
     if (d->type == SL_PT_CHOICE)
         snprintf(buf, n, "one of %s", d->choices);
+    else if (d->type == SL_PT_TEXT && (d->flags & SL_PF_OPTIONAL))
+        snprintf(buf, n, "free text");
     else if (d->type == SL_PT_TEXT)
         snprintf(buf, n, "a profile name or a file path");
     else {
@@ -418,11 +420,15 @@ static int param_active(const sl_scenario *sc, int id)
     return section_active(sc, section_index(sl_scenario_params[id].section));
 }
 
-/* "FILE:LINE: [sec] key" prefix for messages. */
+/* "FILE:LINE: [sec] key" prefix for messages ("--set sec.key" for a value
+ * given on the command line). */
 static void where(const sl_scenario *sc, int id, char *buf, size_t n)
 {
     const sl_param_def *d = &sl_scenario_params[id];
-    if (sc->line[id] > 0)
+    if (sc->set_key[id])
+        snprintf(buf, n, "%s: %s %s.%s", sc->path, sc->set_key[id] == 2 ? "column" : "--set",
+                 d->section, d->key);
+    else if (sc->line[id] > 0)
         snprintf(buf, n, "%s:%d: [%s] %s", sc->path, sc->line[id], d->section, d->key);
     else
         snprintf(buf, n, "%s: [%s] %s", sc->path, d->section, d->key);
@@ -528,14 +534,108 @@ static int resolve(sl_scenario *sc, sl_err *e)
     return SL_OK;
 }
 
+/* Whether section S is in the file or was named by an override. */
+static int section_present(const sl_scenario *sc, int s)
+{
+    return sc->section_line[s] > 0 || sc->set_section[s];
+}
+
+/* "FILE:LINE" of section S, or "FILE (--set)" for one only an override names. */
+static void section_where(const sl_scenario *sc, int s, char *buf, size_t n)
+{
+    if (sc->section_line[s] > 0)
+        snprintf(buf, n, "%s:%d", sc->path, sc->section_line[s]);
+    else
+        snprintf(buf, n, "%s (--set %s.*)", sc->path, sl_scenario_section_names[s]);
+}
+
+static int override_key(sl_scenario *sc, const char *assignment, unsigned char how, sl_err *e);
+
+int sl_scenario_override(sl_scenario *sc, const char *assignment, sl_err *e)
+{
+    return override_key(sc, assignment, 1, e);
+}
+
+int sl_scenario_override_column(sl_scenario *sc, const char *assignment, sl_err *e)
+{
+    return override_key(sc, assignment, 2, e);
+}
+
+static int override_key(sl_scenario *sc, const char *assignment, unsigned char how, sl_err *e)
+{
+    if (sc->finished)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "--set after the scenario was finished");
+    const char *eq = assignment ? strchr(assignment, '=') : NULL;
+    if (eq == NULL)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "--set '%s': want SECTION.KEY=VALUE, e.g. --set "
+                                     "impactor.diameter_m=250",
+                       assignment ? assignment : "");
+    char name[128];
+    const char *key = assignment;
+    while (key < eq && isspace((unsigned char)*key))
+        key++;
+    size_t nl = (size_t)(eq - key);
+    while (nl > 0 && isspace((unsigned char)key[nl - 1]))
+        nl--;
+    if (nl >= sizeof name)
+        nl = sizeof name - 1;
+    memcpy(name, key, nl);
+    name[nl] = '\0';
+    const char *value = eq + 1;
+    while (isspace((unsigned char)*value))
+        value++;
+    size_t vl = strlen(value);
+    while (vl > 0 && isspace((unsigned char)value[vl - 1]))
+        vl--;
+    int id = sl_scenario_find(name);
+    if (id < 0) {
+        char known[512] = "";
+        const char *dot = strchr(name, '.');
+        if (dot) {
+            char sec[64];
+            size_t sl = (size_t)(dot - name) < sizeof sec ? (size_t)(dot - name) : sizeof sec - 1;
+            memcpy(sec, name, sl);
+            sec[sl] = '\0';
+            if (section_index(sec) >= 0) {
+                char keys[360];
+                list_keys(sec, keys, sizeof keys);
+                snprintf(known, sizeof known, " (keys of [%s]: %s)", sec, keys);
+            } else {
+                char secs[360];
+                list_sections(secs, sizeof secs);
+                snprintf(known, sizeof known, " (sections: %s)", secs);
+            }
+        }
+        SL_FAIL_RETURN(e, SL_EUSAGE,
+                       "--set '%s': unknown key '%s'%s; keys are SECTION.KEY as 'steamloft params' "
+                       "lists them",
+                       assignment, name, known);
+    }
+    if (vl == 0 || vl >= SL_SCENARIO_RAW_LEN) {
+        char range[96];
+        sl_scenario_range_text((sl_param_id)id, range, sizeof range);
+        SL_FAIL_RETURN(e, SL_EUSAGE, "--set %s: %s value (valid: %s)", name,
+                       vl == 0 ? "empty" : "too long a", range);
+    }
+    memcpy(sc->raw[id], value, vl);
+    sc->raw[id][vl] = '\0';
+    sc->set_key[id] = how;
+    sc->line[id] = 0;
+    sc->set_section[section_index(sl_scenario_params[id].section)] = 1;
+    return SL_OK;
+}
+
 int sl_scenario_finish(sl_scenario *sc, sl_err *e)
 {
-    int has_imp = sc->section_line[SL_S_IMPACTOR] > 0;
-    int has_exp = sc->section_line[SL_S_EXPLOSION] > 0;
-    if (has_imp && has_exp)
-        SL_FAIL_RETURN(e, SL_ECONFIG,
-                       "%s:%d: [explosion] cannot go with [impactor] (line %d): give one of them",
-                       sc->path, sc->section_line[SL_S_EXPLOSION], sc->section_line[SL_S_IMPACTOR]);
+    int has_imp = section_present(sc, SL_S_IMPACTOR);
+    int has_exp = section_present(sc, SL_S_EXPLOSION);
+    if (has_imp && has_exp) {
+        char a[SL_SCENARIO_PATH_LEN + 40], b[SL_SCENARIO_PATH_LEN + 40];
+        section_where(sc, SL_S_EXPLOSION, a, sizeof a);
+        section_where(sc, SL_S_IMPACTOR, b, sizeof b);
+        SL_FAIL_RETURN(e, SL_ECONFIG, "%s: [explosion] cannot go with [impactor] (%s): give one of them",
+                       a, b);
+    }
     if (!has_imp && !has_exp)
         SL_FAIL_RETURN(e, SL_ECONFIG,
                        "%s: needs an [impactor] section (diameter_m, density_kg_m3, speed_km_s, "
@@ -543,10 +643,12 @@ int sl_scenario_finish(sl_scenario *sc, sl_err *e)
                        sc->path);
     sc->kind = has_imp ? SL_SCENARIO_IMPACTOR : SL_SCENARIO_EXPLOSION;
     for (int s = 0; s < SL_S_COUNT; s++)
-        if (sc->section_line[s] > 0 && !section_active(sc, s))
-            SL_FAIL_RETURN(e, SL_ECONFIG, "%s:%d: section [%s] does not apply to an [%s] scenario",
-                           sc->path, sc->section_line[s], sl_scenario_section_names[s],
-                           has_imp ? "impactor" : "explosion");
+        if (section_present(sc, s) && !section_active(sc, s)) {
+            char at[SL_SCENARIO_PATH_LEN + 40];
+            section_where(sc, s, at, sizeof at);
+            SL_FAIL_RETURN(e, SL_ECONFIG, "%s: section [%s] does not apply to an [%s] scenario", at,
+                           sl_scenario_section_names[s], has_imp ? "impactor" : "explosion");
+        }
 
     for (int id = 0; id < SL_P_COUNT; id++) {
         const sl_param_def *d = &sl_scenario_params[id];
@@ -557,9 +659,9 @@ int sl_scenario_finish(sl_scenario *sc, sl_err *e)
             sc->value_si[id] = NAN;
             continue;
         }
-        if (sc->line[id] > 0) {
+        if (sc->line[id] > 0 || sc->set_key[id]) {
             SL_TRY_RETURN(e, convert_value(sc, id, e));
-            sc->origin[id] = SL_ORIGIN_FILE;
+            sc->origin[id] = sc->set_key[id] ? SL_ORIGIN_SET : SL_ORIGIN_FILE;
             continue;
         }
         if (d->flags & SL_PF_REQUIRED) {
@@ -689,12 +791,20 @@ void sl_scenario_name(const sl_scenario *sc, char *buf, size_t n)
 {
     if (n == 0)
         return;
-    if (sc->origin[SL_P_SCENARIO_NAME] == SL_ORIGIN_FILE && sc->raw[SL_P_SCENARIO_NAME][0]) {
+    sl_param_origin no = sc->origin[SL_P_SCENARIO_NAME];
+    if ((no == SL_ORIGIN_FILE || no == SL_ORIGIN_SET) && sc->raw[SL_P_SCENARIO_NAME][0]) {
         snprintf(buf, n, "%s", sc->raw[SL_P_SCENARIO_NAME]);
         return;
     }
-    const char *base = strrchr(sc->path, '/');
-    base = base ? base + 1 : sc->path;
+    sl_scenario_path_stem(sc->path, buf, n);
+}
+
+void sl_scenario_path_stem(const char *path, char *buf, size_t n)
+{
+    if (n == 0)
+        return;
+    const char *base = strrchr(path, '/');
+    base = base ? base + 1 : path;
     if (strcmp(base, "<stdin>") == 0 || base[0] == '\0')
         base = "stdin";
     const char *dot = strrchr(base, '.');
@@ -709,7 +819,7 @@ const char *sl_scenario_raw(const sl_scenario *sc, sl_param_id id, int *line)
 {
     if (line)
         *line = sc->line[id];
-    return sc->line[id] > 0 ? sc->raw[id] : NULL;
+    return (sc->line[id] > 0 || sc->set_key[id]) ? sc->raw[id] : NULL;
 }
 
 size_t sl_scenario_provenance(const sl_scenario *sc, sl_param_value *out, size_t max)

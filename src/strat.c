@@ -88,7 +88,7 @@
  *    lifetime 100 days at 70 km, e-folding every 6.2 km (days near 90 km,
  *    weeks at 75-80 km, months at 70 km, years below 60-65 km: Brasseur &
  *    Solomon 2005, Aeronomy of the Middle Atmosphere, ch. 4-5, numbers from
- *    memory, see climate-facts.md section 4); no net loss below 60 km where
+ *    memory); no net loss below 60 km where
  *    water is produced (Sonnemann & Grygalashvyly 2005, JGR,
  *    doi:10.1029/2004JD005593, SEEN: crossover near 65 km);
  *  - young-cloud freeze-out at t = 0, on request only (cloud_freeze_out; the
@@ -96,7 +96,8 @@
  *    cloud, so the chain leaves it off): the cloud of area A0 (the profile's
  *    cloud_area_m2 or the default) holds at most ice saturation in each
  *    band; the water above that is ice that grows and falls out (fall speeds
- *    of ~1-5 km/day for 10-20 um crystals, climate-facts.md section 8) while
+ *    of ~1-5 km/day for 10-20 um crystals, Stokes fall speeds as in Pruppacher &
+ *    Klett 1997, MEM) while
  *    the cloud spreads into drier air.
  *
  * Early spreading (local column anomaly): the cloud keeps its width sqrt(A0)
@@ -125,8 +126,7 @@
  *
  * Forcing indicator (coarse): about 0.2 W/m2 per ppmv of a near-uniform
  * increase of stratospheric water (range 0.1-0.3; Forster & Shine 1999, GRL
- * 26, 3309; Solomon et al. 2010, Science 327, 1219; climate-facts.md section
- * 5), larger for water near the tropopause and smaller higher up: per-box
+ * 26, 3309; Solomon et al. 2010, Science 327, 1219), larger for water near the tropopause and smaller higher up: per-box
  * weight exp(-(z - 16 km)/14 km), normalised so that a uniform increase above
  * 100 hPa gives 0.2 W/m2 per ppmv.  The shape is PRACTICE (no published
  * forcing-per-layer kernel was found): 14 km makes water at 25-30 km count
@@ -139,7 +139,6 @@
  * the background water above 16 km (the reference domain), and the global
  * mean anomaly is the excess over the air of that domain. */
 #include "steamloft/strat.h"
-#include "steamloft/scenario.h"
 #include "steamloft/units.h"
 
 #include <gsl/gsl_eigen.h>
@@ -220,19 +219,6 @@ void sl_strat_params_default(sl_strat_params *p)
     p->span_s = 20.0 * SL_S_PER_YEAR;
     p->step_s = MONTH_S;
     p->start_month = 1;
-}
-
-void sl_strat_params_from_scenario(sl_strat_params *p, const struct sl_scenario *sc)
-{
-    sl_strat_params_default(p);
-    p->span_s = sl_scenario_value(sc, SL_P_STRAT_SPAN);
-    p->step_s = sl_scenario_value(sc, SL_P_STRAT_STEP);
-    p->deep_branch_fraction = sl_scenario_value(sc, SL_P_STRAT_DEEP_BRANCH);
-    p->inmixing_time_s = sl_scenario_value(sc, SL_P_STRAT_INMIXING);
-    p->lms_residence_s = sl_scenario_value(sc, SL_P_STRAT_LMS_RESIDENCE);
-    p->antarctic_vortex_fraction = sl_scenario_value(sc, SL_P_STRAT_VORTEX);
-    double month = sl_scenario_value(sc, SL_P_SITE_MONTH);
-    p->start_month = isfinite(month) && month >= 1.0 && month <= 12.0 ? (int)month : 0;
 }
 
 int sl_strat_params_check(const sl_strat_params *p, sl_err *e)
@@ -1416,3 +1402,36 @@ static int integrate(const sl_strat_model *m, sl_strat_result *r, double a0, dou
     }
     return SL_OK;
 }
+
+int sl_strat_params_equal(const sl_strat_params *a, const sl_strat_params *b)
+{
+    /* A new field must be added here too: the static assertion below counts
+     * the struct's size as 20 doubles and 2 ints (with padding). */
+#define SAME(f) if (a->f != b->f) return 0
+    SAME(upflux_tropopause_kg_s);
+    SAME(deep_branch_fraction);
+    SAME(inmixing_time_s);
+    SAME(kzz_m2_s);
+    SAME(lms_residence_s);
+    SAME(tropics_edge_deg);
+    SAME(edge_ramp_deg);
+    SAME(cold_point_saturation_ratio);
+    SAME(antarctic_vortex_fraction);
+    SAME(arctic_vortex_fraction);
+    SAME(photolysis_lifetime_70km_s);
+    SAME(photolysis_scale_height_m);
+    SAME(photolysis_bottom_m);
+    SAME(default_cloud_area_m2);
+    SAME(cloud_freeze_out);
+    SAME(zonal_spread_time_s);
+    SAME(region_spread_time_s);
+    SAME(forcing_W_m2_per_mole_fraction);
+    SAME(forcing_scale_height_m);
+    SAME(span_s);
+    SAME(step_s);
+    SAME(start_month);
+#undef SAME
+    return 1;
+}
+_Static_assert(sizeof(sl_strat_params) == 20 * sizeof(double) + 2 * sizeof(double),
+               "sl_strat_params changed: update sl_strat_params_equal");

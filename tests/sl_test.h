@@ -10,7 +10,10 @@
 
 #include <check.h>
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
+
+#include "steamloft/err.h"
 
 /* Relative closeness: |got - want| <= rtol * |want|. */
 #define SL_CK_REL(got, want, rtol)                                                    \
@@ -37,10 +40,25 @@
                       "%s = %.10g, want within [%.10g, %.10g]", #got, sl_g_, sl_l_, sl_h_); \
     } while (0)
 
-/* main() for a test program made of one suite-building function. */
+/* Skip the rest of a test because an optional tool is missing: prints
+ * "# SKIP <reason>" (tests/run-all.sh counts these lines) and returns from
+ * the test function.  Never use it to hide a failure. */
+#define SL_SKIP(...)                                                                  \
+    do {                                                                              \
+        printf("# SKIP ");                                                            \
+        printf(__VA_ARGS__);                                                          \
+        printf("\n");                                                                 \
+        fflush(stdout);                                                               \
+        return;                                                                       \
+    } while (0)
+
+/* main() for a test program made of one suite-building function.  GSL's
+ * abort-on-error handler is switched off, as in the program's own main, so a
+ * GSL error reaches the code's status checks instead of aborting the test. */
 #define SL_TEST_MAIN(suite_fn)                                                        \
     int main(void)                                                                    \
     {                                                                                 \
+        sl_err_gsl_handler_off();                                                     \
         SRunner *sr = srunner_create(suite_fn());                                     \
         srunner_run_all(sr, CK_NORMAL);                                               \
         int failed = srunner_ntests_failed(sr);                                       \

@@ -23,7 +23,7 @@ START_TEST(test_us1976_layer_bases)
 {
     /* Base pressures of the USSA76 layers at geopotential 11/20/32/47/51/71 km:
      * 22632.1 / 5474.89 / 868.019 / 110.906 / 66.9389 / 3.95642 Pa (NOAA-S/T
-     * 76-1562 Table 4, SEEN in climate-facts.md section 7).  6 digits given:
+     * 76-1562 Table 4, SEEN).  6 digits given:
      * tolerance half a unit in the 6th digit (5e-6 relative). */
     static const double h[6] = {11e3, 20e3, 32e3, 47e3, 51e3, 71e3};
     static const double pb[6] = {22632.1, 5474.89, 868.019, 110.906, 66.9389, 3.95642};
@@ -37,8 +37,8 @@ START_TEST(test_us1976_layer_bases)
 }
 END_TEST
 
-/* USSA76 at geometric altitudes (climate-facts.md section 7: our CALC values
- * that match the MEM-high table at 11, 20, 32 and 80 km; 86 km SEEN). */
+/* USSA76 at geometric altitudes (NOAA-S/T 76-1562: our DERIVED values
+ * that match the table from MEMory at 11, 20, 32 and 80 km; 86 km SEEN). */
 static const struct {
     double z_m, t_K, p_Pa, rho_kg_m3, t_tol, p_rtol, rho_rtol;
 } ussa_table[] = {
@@ -141,7 +141,7 @@ START_TEST(test_us1976_profile)
     sl_err e = {0};
     ck_assert_msg(sl_atmosphere_init(&a, "us1976", &e) == SL_OK, "%s", e.msg);
     /* The profile reaches 1000 km, the top of the standard; it is the dry
-     * standard: 1.2250 kg/m3 at sea level (SEEN, climate-facts: rho0). */
+     * standard: 1.2250 kg/m3 at sea level (USSA76 rho0, SEEN). */
     SL_CK_ABS(a.altitude_m[0], 0.0, 0.0);
     SL_CK_ABS(a.altitude_m[a.n - 1], 1000000.0, 0.0);
     SL_CK_REL(a.density_kg_m3[0], 1.2250, 5e-5);
@@ -314,7 +314,7 @@ END_TEST
 START_TEST(test_climate_zone_markers)
 {
     /* Tropopause (WMO) and stratopause of each climate zone at the AFGL 1986
-     * heights and temperatures (climate-facts.md section 7, SEEN in the
+     * heights and temperatures (Anderson et al. 1986, SEEN in the
      * tables): the nodes of our profiles, so exact to rounding. */
     static const struct {
         const char *name;
@@ -338,7 +338,7 @@ START_TEST(test_climate_zone_markers)
         sl_atmosphere_free(&a);
     }
     /* Tropical cold point 194.8 K at 17 km and 93.7 hPa (AFGL tropical,
-     * SEEN; check value 23 of climate-facts.md).  Pressure: our hydrostatic
+     * SEEN, Anderson et al. 1986).  Pressure: our hydrostatic
      * integration with our own water and piecewise-linear temperature lands
      * within 1 % of the table (0.5 % measured). */
     sl_atmosphere a;
@@ -390,11 +390,10 @@ END_TEST
 
 START_TEST(test_background_water)
 {
-    /* Water against the AFGL tables (SEEN, climate-facts.md section 1 and
-     * the pyrtlib files).  Surface: the Manabe-Wetherald RH 0.77 against
+    /* Water against the AFGL tables (SEEN, Anderson et al. 1986, in
+     * the pyrtlib transcription).  Surface: the Manabe-Wetherald RH 0.77 against
      * AFGL surface water, within 10 %; stratosphere within 15 % (AFGL is
-     * itself up to ~15 % drier than modern MLS climatologies, climate-facts
-     * section 1 caveat). */
+     * itself up to ~15 % drier than modern MLS climatologies, MEM). */
     static const struct {
         const char *name;
         double z_km, ppmv, rtol;

@@ -32,7 +32,7 @@ START_TEST(chelyabinsk)
 {
     /* Chelyabinsk 2013: ~19 m, 3300 kg/m3, 19.16 km/s, ~18 degrees from the
      * horizontal; 500 +- 100 kt and peak brightness at ~29.7 km (Brown et al.
-     * 2013, Nature 503, 238; SEEN, impact-facts.md #11).  Energy within the
+     * 2013, Nature 503, 238; SEEN).  Energy within the
      * published +-20 %; burst altitude (our peak of dE/dz) within 3 km, about
      * the spread of published burst altitudes (27-32 km) and of the pancake
      * model's own sensitivity to the spreading coefficient. */
@@ -50,8 +50,8 @@ END_TEST
 
 START_TEST(tunguska_like)
 {
-    /* A Tunguska-like stony body (60 m, 3000 kg/m3, 15 km/s, 45 degrees, as
-     * in impact-facts.md §3) bursts in the lower troposphere: Chyba, Thomas &
+    /* A Tunguska-like stony body (60 m, 3000 kg/m3, 15 km/s, 45 degrees, the
+     * usual stony Tunguska case of Collins et al. 2005) bursts in the lower troposphere: Chyba, Thomas &
      * Zahnle 1993 put Tunguska's release at ~10 km (SEEN).  We require 5-15 km,
      * i.e. below the U.S. Standard tropopause plus a few km, and 5-20 Mt
      * (10-20 Mt published; 3-5 Mt in later work, so the size is uncertain). */

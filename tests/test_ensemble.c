@@ -53,7 +53,7 @@ static double cdf_flux_angle_deg(double th_deg, const void *c)
 START_TEST(test_flux_angle_law)
 {
     /* Isotropic flux: dP = sin 2θ dθ, P(θ <= x) = sin²x (Shoemaker 1962; Gilbert
-     * 1893; SEEN as the law in the issue and DESIGN 4.8), so the median is 45°
+     * 1893; SEEN as the law), so the median is 45°
      * and the quartiles are 30° and 60° (DERIVED: sin²30° = 1/4, sin²60° = 3/4).
      * Tolerance: the standard error of a sample p-quantile is
      * sqrt(p(1-p)/n)/f(x_p) (asymptotic order-statistic variance, PRACTICE);
@@ -142,7 +142,7 @@ START_TEST(test_sobol)
     size_t n = 4096;
     double *x = draw("uniform(0, 1)", "f_1", n, SL_ENS_SOBOL);
     SL_CK_ABS(gsl_stats_mean(x, 1, n), 0.5, 1e-3);
-    /* GSL's first Sobol point is 0.5 (ecosystem.md section 4, SEEN by running). */
+    /* GSL's first Sobol point is 0.5 (GSL reference manual, gsl_qrng_sobol; SEEN by running). */
     SL_CK_ABS(x[0], 0.5, 0.0);
     free(x);
     /* Through the inverse normal: mean 0 and sd 1 to 1 % with 4096 points. */
@@ -151,7 +151,7 @@ START_TEST(test_sobol)
     SL_CK_ABS(gsl_stats_sd(x, 1, n), 1.0, 0.01);
     free(x);
     /* Dimension limit: GSL's Sobol supports 40 dimensions and gsl_qrng_alloc
-     * does not reject 41 (ecosystem.md section 4, SEEN), so the plan must. */
+     * does not reject 41 (GSL 2.7, SEEN by running), so the plan must. */
     sl_err e;
     sl_ens_plan p;
     memset(&p, 0, sizeof p);

@@ -39,7 +39,7 @@ static sl_entry_params base_params(double d_m, double rho, double v_km_s, double
 }
 
 /* Collins et al. 2005 closed forms (eqs. 8, 11, 12, 16, 18), SEEN in the
- * paper's transcription in impact-facts.md §3. */
+ * paper (MAPS 40, 817). */
 typedef struct collins_out {
     double If, z_star_m, z_burst_m, v_surface_intact_m_s;
 } collins_out;

@@ -27,7 +27,7 @@ START_TEST(test_uniform_bands)
 {
     sl_injection inj = {0};
     sl_err e = {0};
-    /* The default band set of DESIGN.md 4.6: 1 km from 0 to 100 km. */
+    /* The default band set (docs/physics.md): 1 km from 0 to 100 km. */
     ck_assert_int_eq(sl_injection_init_uniform(&inj, 0.0, 100.0e3, 1.0e3, &e), SL_OK);
     ck_assert_uint_eq(inj.n_bands, 100);
     for (size_t i = 0; i < inj.n_bands; i++) {
@@ -60,7 +60,7 @@ START_TEST(test_add_layer_conserves)
     sl_injection inj = {0};
     sl_err e = {0};
     ck_assert_int_eq(sl_injection_init_uniform(&inj, 0.0, 100.0e3, 1.0e3, &e), SL_OK);
-    /* The 1.69 Mt surface-burst cloud of impact-facts.md section 2 (bottom 12.3 km,
+    /* The 1.69 Mt surface-burst cloud (bottom 12.3 km,
      * top 21.6 km) as a layer; masses arbitrary.  Each band receives the fraction of
      * the layer it overlaps (DERIVED: uniform spreading); tolerance: rounding. */
     const double m = 3.7e9, ice = 1.1e8;
@@ -270,8 +270,7 @@ START_TEST(test_read_netcdf_python)
              "d.close()\" 2>/dev/null",
              path);
     if (system(cmd) != 0) {
-        printf("test_read_netcdf_python: skipped (python3-netcdf4 not available)\n");
-        return;
+        SL_SKIP("python3-netcdf4 not available: test_read_netcdf_python not run");
     }
     sl_injection inj = {0};
     sl_err e = {0};

@@ -45,7 +45,7 @@ static sl_partition_input impact_input(const sl_entry *en, double rho, int metho
 START_TEST(planar_impact_stone_into_water)
 {
     /* Basalt into water at 18 km/s (vertical): contact pressure 230-265 GPa
-     * (impact-facts.md #18, DERIVED from the planar impact approximation with
+     * (DERIVED from the planar impact approximation with
      * Hugoniots from Melosh 1989, MEM-med; the range is the spread over the
      * water S quoted there, so we allow 220-270 GPa). */
     double u, p;
@@ -85,7 +85,7 @@ END_TEST
 START_TEST(vapor_fraction_with_pressure)
 {
     /* Monotone, 0 at low and 1 at very high pressure; incipient boiling on
-     * release from "several GPa" (impact-facts.md §4, MEM-low: we accept
+     * release from "several GPa" (Melosh 1989, MEM-low: we accept
      * 2-10 GPa) and complete vaporisation in the tens of GPa or more
      * (MEM-low "roughly 100 GPa": we accept 20-200 GPa). */
     double prev = -1, liq;
@@ -116,7 +116,7 @@ START_TEST(bookkeeping_bounds_and_method_agreement)
      *  - vaporisation + plume heat + liquid heating + other = energy at the
      *    sea (rounding),
      *    other >= 0, and the vapour never exceeds the all-energy limit
-     *    (DERIVED bound, impact-facts.md §6);
+     *    (DERIVED bound);
      *  - the shock method's waste heat equals the stated half of the energy;
      *  - the methods agree within a factor of 2 (we see at most 1.6).  The budget default is set
      *    from the shock method at 18-30 km/s (partition.c), so the factor
@@ -169,7 +169,7 @@ END_TEST
 START_TEST(vapor_limit_is_hard)
 {
     /* Even with every fraction at its maximum the vapour stays within the
-     * all-energy-to-vapour limit (DERIVED, impact-facts.md §6: ~1.6e9 kg per
+     * all-energy-to-vapour limit (DERIVED: ~1.6e9 kg per
      * Mt at 288 K); 2.60 MJ per kg of vapour from sea water with the sea
      * water's heat capacity (notes §6, DERIVED; 2 % for the heat-capacity
      * and latent-heat values used). */

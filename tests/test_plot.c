@@ -48,8 +48,7 @@ static void check_svg(const char *path)
 START_TEST(renders_all_plots)
 {
     if (!have_gnuplot()) {
-        printf("# gnuplot not installed: rendering not tested\n");
-        return;
+        SL_SKIP("gnuplot not installed: rendering not tested");
     }
     build_fixture(0);
     mk_tmp();
@@ -180,7 +179,7 @@ END_TEST
 START_TEST(nothing_lofted_renders)
 {
     if (!have_gnuplot())
-        return;
+        SL_SKIP("gnuplot not installed: rendering not tested");
     build_fixture(0);
     for (int i = 0; i < NB; i++)
         F.vap[i] = F.ice[i] = 0.0;

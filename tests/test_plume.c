@@ -38,7 +38,7 @@ static void isothermal(sl_atmosphere *atm, double T_K, double x_h2o)
 }
 
 /* A source on the exact point-source solution of the Morton-Taylor-Turner
- * thermal in uniform N at time T0 after release (impact-facts.md section 1,
+ * thermal in uniform N at time T0 after release (Morton, Taylor & Turner 1956,
  * DERIVED): z^4 = 4 F0 (1 - cos wt)/(alpha^3 N^2), b = alpha z,
  * b^3 g' = F0 cos wt, (1+k) b^3 w = (F0/w) sin wt, w = N/sqrt(1+k);
  * z measured from the virtual origin Z_V. */
@@ -135,8 +135,8 @@ START_TEST(test_boussinesq_point_source)
         sl_thermal th;
         double t0;
         double zmax = mtt_rise(&pl, &atm, F0, a, ks[c], &t0, &th);
-        /* z_max = 1.176 alpha^-3/4 (B/N^2)^1/4 (impact-facts.md s.1, DERIVED from
-         * the MTT thermal equations, RK4-verified there).  Tolerance 0.5 %: the
+        /* z_max = 1.176 alpha^-3/4 (B/N^2)^1/4 (DERIVED from
+         * the MTT thermal equations, checked by us with RK4).  Tolerance 0.5 %: the
          * non-Boussinesq corrections grow as z_max/H (measured +0.12 % at
          * z_max = 80 m, +0.46 % at 640 m, +1.9 % at 2.6 km for H = 7.3 km). */
         double want = pow(6.0 / SL_PI, 0.25) * pow(a, -0.75) * pow(B / (N * N), 0.25);
@@ -158,7 +158,7 @@ END_TEST
 
 START_TEST(test_quarter_power_law)
 {
-    /* z_max proportional to B^(1/4) over four decades of B (impact-facts.md s.1,
+    /* z_max proportional to B^(1/4) over four decades of B (Morton et al. 1956,
      * DERIVED): fitted slope 0.25 within 0.001 (the non-Boussinesq drift across
      * the range, z_max 40-400 m against H = 7.3 km, is +0.35 % in z_max, i.e.
      * +0.0004 in the slope; measured 0.25026). */
@@ -199,7 +199,7 @@ END_TEST
 
 /* A surface burst of Y_MT over the sea: the fireball at its maximum size
  * touching the surface.  Radius 1097 m at 1 Mt (7,200 ft maximum diameter,
- * Glasstone & Dolan 1977 table, SEEN via impact-facts.md s.2) scaled as
+ * Glasstone & Dolan 1977 table, SEEN in a secondary source) scaled as
  * Y^0.4 (the fireball-size scaling of Glasstone & Dolan, MEM-med). */
 static sl_source burst(double y_mt, double heat_fraction)
 {
@@ -226,12 +226,12 @@ START_TEST(test_explosion_clouds)
            th.apex_altitude_m, th.apex_time_s, th.neutral_altitude_m, th.apex_radius_m, th.cloud_bottom_m,
            th.cloud_top_m, th.top_altitude_m);
     /* Castle NECTAR, 1.69 Mt surface burst: cloud top 21.6 km, bottom 12.3 km
-     * at ~10 min (test report Fig. 94, SEEN via impact-facts.md s.2).
+     * at ~10 min (test report Fig. 94, SEEN in a secondary source).
      * Tolerance 10 %: the screening model has one heat fraction for all yields
      * and no wind shear; the report's heights are read from a figure. */
     SL_CK_REL(th.cloud_top_m, 21600.0, 0.10);
     SL_CK_REL(th.cloud_bottom_m, 12300.0, 0.10);
-    /* Rise stops 4-14 min after the burst (Army manual, SEEN via impact-facts.md s.2). */
+    /* Rise stops 4-14 min after the burst (U.S. Army field manual on nuclear effects, SEEN in a secondary source). */
     SL_CK_RANGE(th.apex_time_s, 240.0, 840.0);
 
     s = burst(15.0, HEAT_FRACTION);
@@ -240,7 +240,7 @@ START_TEST(test_explosion_clouds)
            th.apex_altitude_m, th.apex_time_s, th.neutral_altitude_m, th.apex_radius_m, th.cloud_bottom_m,
            th.cloud_top_m, th.top_altitude_m);
     /* Castle BRAVO, 15 Mt surface burst: top ~130 kft (~40 km) after ~6 min
-     * (SEEN, secondary source, impact-facts.md s.2).  Tolerance 15 %: a
+     * (SEEN, secondary source).  Tolerance 15 %: a
      * secondary source quoting a round number. */
     SL_CK_REL(th.cloud_top_m, 40000.0, 0.15);
     /* Rise time: the observed window is 4-14 min (above) and BRAVO's top rose
@@ -391,7 +391,7 @@ END_TEST
 START_TEST(test_blowout_regime)
 {
     /* A fireball larger than the scale height (here 20 km against ~8 km) is not
-     * a buoyant thermal (DESIGN.md 4.5): marked blow-out; it is still followed
+     * a buoyant thermal (docs/physics.md, plume regimes): marked blow-out; it is still followed
      * with the thermal equations (so a bigger release never lofts less, see
      * plume.c "Regime"), and this one, with 1e21 J, leaves the 120 km profile:
      * its reach is clipped at the profile top; nothing is lost. */

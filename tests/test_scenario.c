@@ -85,8 +85,7 @@ END_TEST
 
 START_TEST(derived_strength_collins_eq9)
 {
-    /* Collins, Melosh & Marcus 2005 eq. 9; DERIVED check values in
-     * impact-facts.md #14: Yi(3000) = 0.33 MPa, Yi(7800) = 41 MPa (two
+    /* Collins, Melosh & Marcus 2005 eq. 9; DERIVED check values: Yi(3000) = 0.33 MPa, Yi(7800) = 41 MPa (two
      * significant digits, hence 2 %). */
     sl_scenario sc;
     sl_err e = {0};
@@ -252,6 +251,63 @@ START_TEST(external_values_and_set_by_name)
 }
 END_TEST
 
+START_TEST(override_as_written_in_the_file)
+{
+    /* --set SECTION.KEY=VALUE (sl_scenario_override): the value is text in
+     * the key's own unit, converted like a file value (km/s -> m/s, degrees
+     * -> radians: the units table, SI by definition); the key's origin is
+     * "set"; the last assignment wins; an absent section becomes present.
+     * PRACTICE: our own rule, exact comparisons (the same conversion). */
+    sl_scenario sc, ref;
+    sl_err e = {0};
+    ck_assert_int_eq(sl_scenario_load_string(&ref, "ref.ini", good, &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_read_string(&sc, "a.ini", good, &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_override(&sc, "impactor.speed_km_s=25", &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_override(&sc, " impactor.angle_deg = 30 ", &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_override(&sc, "impactor.angle_deg=60", &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_override(&sc, "site.atmosphere=subarctic-winter", &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_override(&sc, "partition.method=budget", &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_override(&sc, "scenario.name=trial 7", &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_finish(&sc, &e), SL_OK);
+    ck_assert_double_eq(sc.value_si[SL_P_IMPACTOR_SPEED], 25.0 * 1000.0);
+    ck_assert_double_eq(sc.value_si[SL_P_IMPACTOR_ANGLE], 60.0 * (SL_PI / 180.0));
+    ck_assert_int_eq(sc.origin[SL_P_IMPACTOR_SPEED], SL_ORIGIN_SET);
+    ck_assert_int_eq(sc.line[SL_P_IMPACTOR_SPEED], 0);
+    ck_assert_str_eq(sl_scenario_text(&sc, SL_P_SITE_ATMOSPHERE), "subarctic-winter");
+    ck_assert_str_eq(sl_scenario_text(&sc, SL_P_PARTITION_METHOD), "budget");
+    char name[32];
+    sl_scenario_name(&sc, name, sizeof name);
+    ck_assert_str_eq(name, "trial 7");
+    /* Nothing else changed. */
+    for (int id = 0; id < SL_P_COUNT; id++) {
+        if (id == SL_P_IMPACTOR_SPEED || id == SL_P_IMPACTOR_ANGLE || id == SL_P_SITE_ATMOSPHERE ||
+            id == SL_P_PARTITION_METHOD || id == SL_P_SCENARIO_NAME)
+            continue;
+        ck_assert_int_eq(sc.origin[id], ref.origin[id]);
+        if (!isnan(ref.value_si[id]))
+            ck_assert_double_eq(sc.value_si[id], ref.value_si[id]);
+    }
+    /* Mistakes: the option, the key and the range are named. */
+    ck_assert_int_eq(sl_scenario_read_string(&sc, "a.ini", good, &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_override(&sc, "impactor.speed_km_s", &e), SL_EUSAGE);
+    ck_assert_int_eq(sl_scenario_override(&sc, "impactor.colour=red", &e), SL_EUSAGE);
+    ck_assert_ptr_nonnull(strstr(e.msg, "keys of [impactor]: diameter_m"));
+    ck_assert_int_eq(sl_scenario_override(&sc, "impactor.speed_km_s=", &e), SL_EUSAGE);
+    ck_assert_int_eq(sl_scenario_override(&sc, "impactor.speed_km_s=8", &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_finish(&sc, &e), SL_EDATA);
+    ck_assert_str_eq(e.msg, "a.ini: --set impactor.speed_km_s: 8 is out of range (valid range: 11 to 73 km/s)");
+    /* The other event type through an override is refused as in a file. */
+    ck_assert_int_eq(sl_scenario_read_string(&sc, "a.ini", good, &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_override(&sc, "explosion.energy_Mt=3", &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_finish(&sc, &e), SL_ECONFIG);
+    ck_assert_ptr_nonnull(strstr(e.msg, "[explosion] cannot go with [impactor]"));
+    /* A distribution stays raw for an ensemble to take over. */
+    ck_assert_int_eq(sl_scenario_read_string(&sc, "a.ini", good, &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_override(&sc, "impactor.diameter_m=uniform(10, 50)", &e), SL_OK);
+    ck_assert_str_eq(sl_scenario_raw(&sc, SL_P_IMPACTOR_DIAMETER, NULL), "uniform(10, 50)");
+}
+END_TEST
+
 START_TEST(provenance_lists_resolved_values)
 {
     sl_scenario sc;
@@ -296,6 +352,7 @@ static Suite *scenario_suite(void)
     tcase_add_test(tc, missing_file_is_no_input);
     tcase_add_test(tc, external_values_and_set_by_name);
     tcase_add_test(tc, provenance_lists_resolved_values);
+    tcase_add_test(tc, override_as_written_in_the_file);
     suite_add_tcase(s, tc);
     return s;
 }

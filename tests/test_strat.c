@@ -125,8 +125,7 @@ START_TEST(test_geometry_and_flux)
     /* Tropics 20 S - 20 N: sin 20 deg = 0.342 of the Earth's area (geometry). */
     SL_CK_REL(m.region_area_m2[SL_STRAT_TROPICS] / SL_EARTH_AREA_M2, 0.34202, 1e-4);
     SL_CK_REL(m.region_area_m2[0] + m.region_area_m2[1] + m.region_area_m2[2], SL_EARTH_AREA_M2, 1e-14);
-    /* Air above 100 hPa = 1e4 Pa / g0 x Earth area = 5.20e17 kg (climate-facts
-     * section 1, CALC).  Our reference domain starts at 16 km (103.5 hPa in
+    /* Air above 100 hPa = 1e4 Pa / g0 x Earth area = 5.20e17 kg (DERIVED).  Our reference domain starts at 16 km (103.5 hPa in
      * USSA76) and at the tropical tropopause (about 90-100 hPa): 5 % (PRACTICE:
      * the 16-km edge is 3.5 % off 100 hPa). */
     SL_CK_REL(m.reference_air_kg, 5.20e17, 0.05);
@@ -135,7 +134,7 @@ START_TEST(test_geometry_and_flux)
     SL_CK_REL(m.reference_air_kg / p.upflux_tropopause_kg_s / SL_S_PER_YEAR, 1.6, 0.10);
     /* Background stratospheric water above ~100 hPa: 1.1-1.6 Pg, implied by
      * 146 Tg = 10 % (Millan 2022), 139 Tg = 8.9 % (Xu 2022), 13 % (Khaykin
-     * 2022) (climate-facts section 1, DERIVED from SEEN numbers). */
+     * 2022) (DERIVED from SEEN numbers). */
     SL_CK_RANGE(m.reference_background_kg, 1.1e12, 1.6e12);
     /* Air-mass continuity of the pipe (the transport of a uniform mixing
      * ratio): every box except the bottom ones, which exchange with the
@@ -266,14 +265,13 @@ START_TEST(test_hunga)
     SL_CK_RANGE(r.efolding_s / SL_S_PER_YEAR, 2.5, 43.0 / 12.0);
     ck_assert(!r.efolding_extrapolated);
     SL_CK_RANGE(r.percent_of_background_peak, 8.9, 13.0);
-    /* 146 Tg is about 0.45 ppmv over the air above 100 hPa (climate-facts
-     * section 1, CALC); 5 % for our 16-km reference edge. */
+    /* 146 Tg is about 0.45 ppmv over the air above 100 hPa (DERIVED); 5 % for our 16-km reference edge. */
     SL_CK_REL(sl_mole_fraction_to_ppmv(r.peak_global_anomaly_mole_fraction), 0.45, 0.05);
     /* Global column: 146 Tg over the Earth = 2.86e-4 kg/m2 (DERIVED). */
     SL_CK_REL(r.peak_global_column_kg_m2, 146.0e9 / SL_EARTH_AREA_M2, 1e-12);
     ck_assert(r.peak_local_column_kg_m2 > 10.0 * r.peak_global_column_kg_m2);
     /* Fraction left after 3 years: exp(-3/tau) = 0.30 for tau = 2.5 yr and
-     * 0.43 for 43 months (climate-facts section 2, CALC); 0.25-0.5 allows for
+     * 0.43 for 43 months (DERIVED); 0.25-0.5 allows for
      * a decay that is not a single exponential (PRACTICE). */
     SL_CK_RANGE(r.fraction_remaining_3y, 0.25, 0.5);
     ck_assert(r.fraction_remaining_1y > r.fraction_remaining_3y);
@@ -289,8 +287,8 @@ END_TEST
 
 START_TEST(test_higher_lasts_longer)
 {
-    /* Higher injections last longer (DESIGN 4.7; climate-facts section 3
-     * synthesis: lowermost 0.1-1 yr, middle 2-3.6 yr, upper 4-6 yr) within the
+    /* Higher injections last longer (a synthesis of published
+     * decay times, MEM: lowermost 0.1-1 yr, middle 2-3.6 yr, upper 4-6 yr) within the
      * stratosphere below the photolysis region. */
     fixture f;
     fixture_init(&f);
@@ -525,7 +523,7 @@ START_TEST(test_polar_winter_seasonal)
     }
     /* The vortex removes a part, not all: 5-25 % of the Hunga water (the 2023
      * vortex took in 20-40 % more water than usual and was reset to ice
-     * saturation, Wohltmann et al. 2024 via climate-facts section 2, SEEN; the
+     * saturation, Wohltmann et al. 2024, SEEN; the
      * vortex is a small part of the stratosphere, so a minor share, PRACTICE). */
     size_t last = r.n_times - 1;
     SL_CK_RANGE(r.sink_kg[last * SL_STRAT_N_SINKS + SL_STRAT_SINK_POLAR_WINTER] / r.injected_kg, 0.05, 0.25);
@@ -562,7 +560,7 @@ START_TEST(test_cold_point)
     for (size_t i = 0; i < r.n_times; i++)
         ck_assert(r.box_excess_kg[i * m.n_boxes + (size_t)b] <= room * (1.0 + 1e-12));
     /* Cold point: mole fraction of ice saturation near 194.8 K, 93.7 hPa is
-     * 3-10 ppmv (climate-facts section 8 table: 190-195 K at 100 hPa gives
+     * 3-10 ppmv (DERIVED from Murphy & Koop 2005: 190-195 K at 100 hPa gives
      * 3.2-7.4 ppmv), so the room is a few ppmv over the box air. */
     SL_CK_RANGE(sl_mole_fraction_to_ppmv(st.ice_saturation_mole_fraction), 2.0, 12.0);
     check_budget(&r);
@@ -628,7 +626,7 @@ END_TEST
 START_TEST(test_forcing_uniform)
 {
     /* A uniform 1 ppmv increase above 100 hPa gives the rule-of-thumb 0.2 W/m2
-     * (climate-facts section 5, CALC from Forster & Shine 1999 and Solomon et
+     * (DERIVED from Forster & Shine 1999 and Solomon et
      * al. 2010: 0.1-0.3 per ppmv); 1e-12 (rounding).  Water near the
      * tropopause counts more per molecule than water at 40 km (qualitative,
      * consistent across sources, SEEN). */

@@ -15,8 +15,8 @@
 START_TEST(test_mk_check_values)
 {
     /* Murphy & Koop 2005 eq. 7 (ice) and eq. 10 (supercooled liquid):
-     * values computed from the published formulas in climate-facts.md
-     * section 6 (DERIVED, 5 significant digits given), so the tolerance is
+     * values computed from the published formulas
+     * (DERIVED, 5 significant digits given), so the tolerance is
      * half a unit in the 5th digit. */
     SL_CK_REL(sl_water_esat_ice_Pa(150.0), 6.1061e-6, 1e-4);
     SL_CK_REL(sl_water_esat_ice_Pa(180.0), 5.3975e-3, 1e-4);
@@ -29,7 +29,7 @@ START_TEST(test_mk_check_values)
     SL_CK_REL(sl_water_esat_liquid_Pa(230.0), 13.554, 1e-4);
     SL_CK_REL(sl_water_esat_liquid_Pa(250.0), 95.301, 1e-4);
     SL_CK_REL(sl_water_esat_liquid_Pa(273.15), 611.213, 1e-5);
-    /* Triple point 611.657 Pa (IAPWS R14-08, MEM-high; climate-facts.md 6):
+    /* Triple point 611.657 Pa (IAPWS R14-08, MEM-high):
      * both phases and both liquid formulas meet there to 1e-6. */
     SL_CK_REL(sl_water_esat_liquid_Pa(273.16), 611.657, 1e-6);
     SL_CK_REL(sl_water_esat_liquid_Pa(273.16 - 1e-9), sl_water_esat_liquid_Pa(273.16), 1e-6);
@@ -83,7 +83,7 @@ START_TEST(test_against_iapws)
             /* IAPWS R14-08 sublimation pressure (python3-iapws, a Debian
              * reference library).  Murphy & Koop eq. 7 is a different fit; the
              * two differ by 0.17 % at 150 K falling to 0 at the triple point
-             * (climate-facts.md section 6 table), so 0.2 % is the tolerance. */
+             * (DERIVED by us), so 0.2 % is the tolerance. */
             SL_CK_REL(sl_water_esat_ice_Pa(t[i]), pi[i], 2e-3);
             n_ice++;
         } else {
@@ -112,13 +112,13 @@ START_TEST(test_frost_and_boiling_points)
         const double e = sl_water_esat_ice_Pa(t);
         SL_CK_ABS(sl_water_frost_point_K(e), t, 1e-8);
         /* Murphy & Koop's explicit eq. 8 approximates it to about 0.01 K
-         * (climate-facts.md section 6, DERIVED 0.011 K at 200 K; up to 0.04 K
+         * (DERIVED 0.011 K at 200 K; up to 0.04 K
          * over 150-273 K measured here), so 0.05 K. */
         const double lp = log(e);
         SL_CK_ABS((1.814625 * lp + 6190.134) / (29.120 - lp), t, 0.05);
     }
     /* Frost point of 4 ppmv at 100 hPa (0.04 Pa): the table of ice-saturation
-     * mixing ratios in climate-facts.md section 8 (DERIVED) gives 3.24 ppmv at
+     * mixing ratios from Murphy & Koop eq. 7 (DERIVED) gives 3.24 ppmv at
      * 190 K and 7.41 at 195 K at 100 hPa, so it lies in 190-192 K (log-linear
      * interpolation of the table: 191.2 K). */
     SL_CK_RANGE(sl_water_frost_point_K(0.04), 190.0, 192.0);
@@ -131,7 +131,7 @@ END_TEST
 START_TEST(test_latent_heats)
 {
     /* Murphy & Koop eq. 5 at the triple point: 51059 J/mol = 2.834e6 J/kg
-     * (climate-facts.md section 6, DERIVED); at 200 K 2.833e6 J/kg. */
+     * (DERIVED); at 200 K 2.833e6 J/kg. */
     SL_CK_REL(sl_water_latent_sublimation_J_kg(273.16), 2.834e6, 5e-4);
     SL_CK_REL(sl_water_latent_sublimation_J_kg(200.0), 2.833e6, 5e-4);
     /* Eq. 9 for supercooled water at 273.15 K: 45051 J/mol = 2.501e6 J/kg. */

@@ -21,6 +21,7 @@
 #include "steamloft/plume.h"
 #include "steamloft/scenario.h"
 #include "steamloft/site.h"
+#include "steamloft/stage_params.h"
 #include "steamloft/strat.h"
 
 /* Stages timed by sl_chain_run (for `make bench`). */

@@ -1,8 +1,14 @@
 /* cli: the command line.  `steamloft [global options] <command> [options] [file]`.
  *
- * Global options come before the command (getopt_long with a leading '+' so
- * parsing stops at the command); each command then parses its own options
- * with a fresh getopt_long (optind = 0).  Commands are listed once in the
+ * Global options (-v/--verbose, -q/--quiet, -f/--force) may stand anywhere on
+ * the line, before or after the command: sl_cli_main takes them out of the
+ * command's arguments (up to a "--", and never as the value of an option
+ * written "--opt=VALUE"), so `steamloft run x.ini --force -o out.nc` and
+ * `steamloft --force run x.ini -o out.nc` are the same command.  -h/--help
+ * and -V/--version before the command are steamloft's; after it, --help is
+ * the command's.  Each command then parses its own options with a fresh
+ * getopt_long (optind = 0, opterr = 0: a mistake is reported once, by
+ * sl_cli_option_error).  Commands are listed once in the
  * table in cli.c; each lives in src/cmd_<name>.c and returns an exit code
  * from <sysexits.h>.  --help and --version print to stdout and exit 0;
  * usage errors print one line plus a pointer to --help on stderr and exit 64. */
@@ -10,6 +16,9 @@
 #define STEAMLOFT_CLI_H
 
 #include "steamloft/err.h"
+#include "steamloft/scenario.h"
+
+#include <stddef.h>
 
 typedef struct sl_cli_globals {
     int verbosity;      /* 0 normal, -1 quiet (-q), >0 verbose (-v, repeatable) */
@@ -45,6 +54,42 @@ int sl_cli_usage_error(const sl_cli_globals *g, const char *cmd, const char *fmt
 /* Strictly parse a whole string as a finite double (no trailing text).
  * Returns SL_OK or SL_EUSAGE with a message naming what. */
 int sl_cli_parse_double(const char *text, const char *what, double *out, sl_err *e);
+
+/* Report the option mistake getopt_long just returned (C is '?' or ':'):
+ * one line naming the option, "Try ... --help", exit 64.  Commands put ':'
+ * first in their short-option string so a missing value is told apart. */
+int sl_cli_option_error(const sl_cli_globals *g, const char *cmd, int c, char **argv);
+
+/* --set SECTION.KEY=VALUE, repeatable, on every command that reads a
+ * scenario: put SL_CLI_SET_OPTION in the getopt_long table, pass the code
+ * SL_CLI_OPT_SET to sl_cli_sets_add, then load the scenario with
+ * sl_cli_scenario_load (or sl_cli_scenario_read + sl_scenario_finish when a
+ * command takes keys over before they are converted, as the ensemble does).
+ * The values are applied in order with sl_scenario_override (scenario.h):
+ * the key's own unit as a user writes it, text and choice keys too. */
+enum { SL_CLI_OPT_SET = 0x5380, SL_CLI_MAX_SETS = 128 };
+#define SL_CLI_SET_OPTION {"set", required_argument, NULL, SL_CLI_OPT_SET}
+#define SL_CLI_SET_HELP                                                                     \
+    "      --set SECTION.KEY=VALUE  override one scenario key (repeatable), VALUE in the\n"  \
+    "                           key's own unit, e.g. --set impactor.diameter_m=250\n"
+
+typedef struct sl_cli_sets {
+    size_t n;
+    const char *item[SL_CLI_MAX_SETS];
+} sl_cli_sets;
+
+/* Record one --set argument; checks at once that it is SECTION.KEY=VALUE with
+ * a known key (SL_EUSAGE naming --set, the key, and the keys of its section). */
+int sl_cli_sets_add(sl_cli_sets *s, const char *arg, sl_err *e);
+
+/* Apply the recorded --set values to a read, unfinished scenario. */
+int sl_cli_sets_apply(const sl_cli_sets *s, sl_scenario *sc, sl_err *e);
+
+/* Read PATH ('-' = standard input), apply the --set values (S may be NULL). */
+int sl_cli_scenario_read(const char *path, const sl_cli_sets *s, sl_scenario *sc, sl_err *e);
+
+/* Read, apply the --set values, finish: the one way commands load a scenario. */
+int sl_cli_scenario_load(const char *path, const sl_cli_sets *s, sl_scenario *sc, sl_err *e);
 
 /* The caution printed with every report. */
 const char *sl_cli_caution(void);

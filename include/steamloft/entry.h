@@ -36,7 +36,6 @@
 #include <stddef.h>
 
 #include "steamloft/err.h"
-#include "steamloft/scenario.h"
 
 /* Air density at an altitude.  Must accept any altitude (extrapolating beyond
  * its table), return SL_OK or a status with the message in E. */
@@ -64,8 +63,6 @@ typedef struct sl_entry_params {
     int flat_no_gravity;           /* 1: flat Earth without gravity (closed-form cross-checks) */
 } sl_entry_params;
 
-/* Fill P from an impactor scenario (SI values straight from the table). */
-void sl_entry_params_from_scenario(sl_entry_params *p, const sl_scenario *sc);
 
 typedef struct sl_entry_work sl_entry_work; /* GSL workspaces (opaque) */
 

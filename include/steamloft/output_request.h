@@ -31,7 +31,8 @@ enum { SL_OUTOPT_FORMAT = 0x5301, SL_OUTOPT_CSV, SL_OUTOPT_PLOT, SL_OUTOPT_NO_RE
 #define SL_OUTPUT_HELP                                                                        \
     "Output files (existing files are replaced only with the global --force):\n"               \
     "  -o, --output FILE.nc     results as CF-1.11 netCDF (profile, time series, background,\n" \
-    "                           scenario and provenance as attributes)\n"                     \
+    "                           scenario and provenance as attributes); the name must end\n" \
+    "                           in .nc\n"                                                   \
     "      --format FMT         netcdf4 (default: netCDF-4 classic model, compressed) or\n"   \
     "                           classic (netCDF-3, for older readers)\n"                      \
     "      --csv DIR            profile.csv, background.csv, series.csv, series_layers.csv\n" \
@@ -52,8 +53,12 @@ typedef struct sl_output_request {
 /* 1 when getopt code C is one of the output options. */
 int sl_output_request_is_option(int c);
 
-/* Record option C with argument ARG.  SL_EUSAGE for a bad --format value or
- * "-o -" (netCDF cannot be written to standard output). */
+/* 1 when PATH names a netCDF file (ends in .nc, any case, after a name). */
+int sl_output_request_is_nc_name(const char *path);
+
+/* Record option C with argument ARG.  SL_EUSAGE for a bad --format value,
+ * "-o -" (netCDF cannot be written to standard output) or an -o name that
+ * does not end in .nc (the format follows the name). */
 int sl_output_request_option(sl_output_request *rq, int c, const char *arg, sl_err *e);
 
 /* 1 when any file output was asked for. */

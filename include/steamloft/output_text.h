@@ -1,11 +1,16 @@
-/* output_text: the summary of a run, as a readable table or as JSON.
+/* output_text: the summary of a run, as a readable text or as JSON.
  *
- * Both formats come from one list of calls on an sl_report: each quantity is
- * emitted once with its JSON key (SI, unit in the key: energy_J), and a label
- * plus a display factor and unit for people (energy in Mt, altitudes in km).
- * NaN prints as null in JSON and "none" in text.  Later stages add their
- * quantities by adding calls in sl_output_text_summary (or a function of
- * their own called from it) with the same helpers.
+ * JSON comes from one list of calls on an sl_report: each quantity is
+ * emitted once with its JSON key (SI, unit in the key: energy_J) at full
+ * precision; `decay` uses the same report for text too (label, display
+ * factor and unit; three significant figures).  The text summary of `run`
+ * is written for people in the order they read it: the answer first
+ * (sl_key_results, the same numbers `tabulate` prints), then the water
+ * budget, then one section per stage in the order of the chain, each with
+ * a short default and its full detail under -v.  A stage adds its text
+ * lines in its section function in output_text.c (text_descent, text_sea,
+ * text_rise, ...) and its JSON keys in its emit_ function.  NaN prints as
+ * null in JSON and "none" in text.
  *
  * Every report carries the caution (sl_cli_caution()). */
 #ifndef STEAMLOFT_OUTPUT_TEXT_H
@@ -51,8 +56,39 @@ struct sl_strat_model;
 struct sl_strat_result;
 void sl_output_text_strat(sl_report *r, const struct sl_strat_model *m, const struct sl_strat_result *s);
 
-/* The summary of a finished chain: event, entry, partition, sources, the
- * resolved parameters (JSON only) and the caution. */
-int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, sl_err *e);
+/* X to three significant figures for people: fixed notation from 0.001 to
+ * 999999 ("0.0042", "59.4", "1420"), else "1.83e+18"; "none" for NaN. */
+void sl_output_fmt3(char *buf, size_t n, double x);
+
+/* The key results of one chain run, the same numbers the summary opens with
+ * and `steamloft tabulate` prints per scenario (SI; NaN when a stage did not
+ * produce the quantity).  JSON keys of `run --json` in the comments. */
+typedef struct sl_key_results {
+    char name[128];              /* name: [scenario] name or the file name */
+    const char *kind;            /* kind: "impactor" or "explosion" */
+    const char *regime;          /* regime: "thermal" or "blow-out" */
+    double energy_J;             /* energy_J: kinetic energy at entry, or the explosion's */
+    double energy_at_sea_J;      /* energy_at_sea_J */
+    double strat_injected_kg;    /* strat_injected_kg: water (vapour + ice) above the tropopause */
+    double strat_vapor_kg;       /* stratospheric_water_kg: of it, vapour */
+    double strat_ice_kg;         /* stratospheric_ice_kg: of it, ice */
+    double background_burden_kg; /* background_burden_kg: background water above ~100 hPa */
+    double percent_of_background; /* percent_of_background: peak excess / background */
+    double efolding_years;       /* efolding_years (NaN when nothing entered) */
+    int efolding_extrapolated;   /* efolding_extrapolated */
+    double mean_residence_years; /* mean_residence_years */
+    char validity[256];          /* validity: how far to trust the numbers, in words */
+    char validity_short[64];     /* the same in a few words, for tables */
+} sl_key_results;
+
+void sl_output_key_results(const sl_chain *ch, sl_key_results *k);
+
+/* The summary of a finished chain.  Text: it opens with the answer (water
+ * above the tropopause, share of the background, e-folding time, regime,
+ * validity), then the water budget and the stages in the order of the
+ * chain, three significant figures; DETAIL (the global -v) adds the full
+ * detail of every stage.  JSON (every number, full precision, the resolved
+ * parameters) ignores DETAIL.  Both end with the caution. */
+int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, int detail, sl_err *e);
 
 #endif

@@ -22,7 +22,7 @@
 
 #include "steamloft/entry.h"
 #include "steamloft/err.h"
-#include "steamloft/scenario.h"
+#include "steamloft/event_kind.h"
 #include "steamloft/source.h"
 
 /* Specific entropies of saturated liquid and vapour at 101325 Pa (373.124 K),
@@ -110,9 +110,6 @@ typedef struct sl_partition {
  * [partition] impactor_material (1 basalt, 2 granite, 3 iron, 4 ice). */
 extern const sl_hugoniot sl_partition_hugoniots[5];
 
-/* Fill IN from a finished scenario (everything except the entry results and
- * the ambient air, which the chain supplies). */
-void sl_partition_input_from_scenario(sl_partition_input *in, const sl_scenario *sc);
 
 /* Share out the energy and build the sources.  SL_EDATA for inputs out of
  * their physical range, SL_ENUMERIC when a root cannot be found. */

@@ -110,9 +110,6 @@ int sl_plume_init(sl_plume *pl, const sl_plume_params *par, sl_err *e);
  * bad parameters (PL unchanged). */
 int sl_plume_set_params(sl_plume *pl, const sl_plume_params *par, sl_err *e);
 
-/* Parameters from a finished scenario's [plume] section. */
-struct sl_scenario;
-void sl_plume_params_from_scenario(sl_plume_params *par, const struct sl_scenario *sc);
 
 /* Rise one source through ATM; fill OUT.  Allocates nothing.  SL_EDATA for
  * an unusable source (naming the field and the range), SL_ENUMERIC when the

@@ -48,6 +48,7 @@
 #include <stddef.h>
 
 #include "steamloft/err.h"
+#include "steamloft/event_kind.h"
 
 /* Sections: X(ID, name, meaning). */
 #define SL_SCENARIO_SECTIONS(X)                                                                    \
@@ -243,11 +244,6 @@ typedef enum sl_param_origin {
     SL_ORIGIN_EXTERNAL    /* handed to another module, not yet set */
 } sl_param_origin;
 
-typedef enum sl_scenario_kind {
-    SL_SCENARIO_NONE = 0,
-    SL_SCENARIO_IMPACTOR,  /* [impactor]: entry, then partition at the sea */
-    SL_SCENARIO_EXPLOSION  /* [explosion]: a source given directly */
-} sl_scenario_kind;
 
 enum { SL_SCENARIO_RAW_LEN = 200, SL_SCENARIO_PATH_LEN = 256 };
 
@@ -259,6 +255,8 @@ typedef struct sl_scenario {
     sl_param_origin origin[SL_P_COUNT];
     int line[SL_P_COUNT];                 /* line of the key in the file, 0 = not in the file */
     char raw[SL_P_COUNT][SL_SCENARIO_RAW_LEN]; /* value text as written (trimmed) */
+    unsigned char set_key[SL_P_COUNT];    /* 1 given by --set, 2 by a table column */
+    unsigned char set_section[SL_S_COUNT]; /* a section made present by an override */
     int finished;                         /* sl_scenario_finish succeeded */
 } sl_scenario;
 
@@ -274,6 +272,21 @@ int sl_scenario_read_string(sl_scenario *sc, const char *name, const char *text,
  * converted or checked, and its value stays NaN (origin SL_ORIGIN_EXTERNAL)
  * until sl_scenario_set() gives it one.  SL_EUSAGE for a non-numeric key. */
 int sl_scenario_mark_external(sl_scenario *sc, sl_param_id id, sl_err *e);
+
+/* Between the phases: ASSIGNMENT "section.key=value" (the command line's
+ * --set) replaces or adds one key as if it were written in the file: VALUE
+ * is text in the key's own unit (km/s for speed_km_s), a word for text and
+ * choice keys, and may be a distribution for an ensemble.  The key's origin
+ * becomes "set" and its line 0; a section it names becomes present.  The
+ * value is converted and checked by sl_scenario_finish, whose messages then
+ * name "--set section.key" and the valid range (SL_EDATA, exit 65).  The
+ * last assignment of a key wins.  SL_EUSAGE (exit 64) for text without '=',
+ * an unknown key (the message lists the keys of the section) or a value
+ * longer than SL_SCENARIO_RAW_LEN - 1; SL_EINTERNAL after finish. */
+int sl_scenario_override(sl_scenario *sc, const char *assignment, sl_err *e);
+/* The same for a value from a table of scenarios (`steamloft tabulate`'s CSV
+ * rows): messages then say "column section.key" instead of "--set". */
+int sl_scenario_override_column(sl_scenario *sc, const char *assignment, sl_err *e);
 
 /* Phase 2: convert every value to SI, check ranges and types (SL_EDATA),
  * fill defaults, check required keys and section rules (SL_ECONFIG), resolve
@@ -305,8 +318,11 @@ const char *sl_scenario_text(const sl_scenario *sc, sl_param_id id);
  * file name without folders and extension ("demo" for examples/demo.ini,
  * "stdin" for standard input).  Always NUL-terminated; truncated to N-1. */
 void sl_scenario_name(const sl_scenario *sc, char *buf, size_t n);
-/* Raw text of a key as written in the file and its line, or NULL when the
- * file does not have the key. */
+/* The file name of PATH without folders and extension ("stdin" for "-" shown
+ * as "<stdin>"): the name's fallback, also for tables of scenarios. */
+void sl_scenario_path_stem(const char *path, char *buf, size_t n);
+/* Raw text of a key as written in the file (or given by an override, line
+ * 0) and its line, or NULL when neither has the key. */
 const char *sl_scenario_raw(const sl_scenario *sc, sl_param_id id, int *line);
 
 /* Valid range of a numeric key in its own unit, as people read it:

@@ -97,11 +97,10 @@ typedef struct sl_strat_params {
 /* Fill the defaults (all published or calibrated; see src/strat.c). */
 void sl_strat_params_default(sl_strat_params *p);
 
-/* The defaults overridden by the scenario's [strat] keys and [site] month
- * (0 = unknown).  The region backgrounds are named by
- * sl_scenario_text(sc, SL_P_STRAT_TROPICS_ATMOSPHERE / _EXTRATROPICS_ATMOSPHERE). */
-struct sl_scenario;
-void sl_strat_params_from_scenario(sl_strat_params *p, const struct sl_scenario *sc);
+/* 1 when every field of A equals that of B (field by field, so the struct's
+ * padding never matters), else 0. */
+int sl_strat_params_equal(const sl_strat_params *a, const sl_strat_params *b);
+
 
 /* Check every parameter against its valid range; SL_EDATA names the field and the range. */
 int sl_strat_params_check(const sl_strat_params *p, sl_err *e);

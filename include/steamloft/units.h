@@ -10,8 +10,7 @@
 #define STEAMLOFT_UNITS_H
 
 /* ---- Defining constants of the U.S. Standard Atmosphere 1976
- *      (NOAA-S/T 76-1562, Table 2; values seen in the reference notes,
- *      ../shared/reference/climate-facts.md section 7). */
+ *      (NOAA-S/T 76-1562, Table 2; SEEN). */
 #define SL_USSA_G0_M_S2 9.80665              /* standard gravity, m s-2 (exact, also CGPM 1901) */
 #define SL_USSA_RSTAR_J_KMOL_K 8314.32       /* gas constant used by USSA76, J kmol-1 K-1 */
 #define SL_USSA_M0_KG_KMOL 28.9644           /* sea-level mean molar mass of air, kg kmol-1 */

@@ -61,4 +61,9 @@ printf 'bottom_km,top_km,vapor_Tg\n20,21,-3\n' > "$SL_TMP/bad.csv"
 sl_expect_exit 65 "negative mass in profile" "$SL_BIN" decay "$SL_TMP/bad.csv"
 sl_expect_grep "$SL_TMP/err" "bad.csv:2" "bad profile names file and line"
 sl_expect_exit 66 "unknown atmosphere" "$SL_BIN" decay --atmosphere nowhere --inject 1e9 --between 20000 21000 --latitude 0
+# Altitudes written in km where metres are wanted were taken as metres (0 Tg, exit 0).
+sl_expect_exit 64 "--between in km is refused" "$SL_BIN" decay --inject 1e9 --between 22 27 --latitude 0
+sl_expect_grep "$SL_TMP/err" "look like kilometres; for 22 to 27 km write --between 22000 27000" "the refusal gives the fix"
+sl_expect_exit 64 "--between in km with a comma" "$SL_BIN" decay --inject 1e9 --between 22,27 --latitude 0
+sl_expect_exit 0 "the fixed command runs" "$SL_BIN" decay --inject 1e9 --between 22000 27000 --latitude 0
 sl_done

@@ -37,7 +37,7 @@ if cmp -s "$SL_TMP/t1/m.csv" "$SL_TMP/t2/m.csv"; then sl_ok "CSV identical for 1
 if cmp -s "$SL_TMP/t1/m.nc" "$SL_TMP/t2/m.nc"; then sl_ok "netCDF identical for 1 and 2 threads"; else
   sl_fail "netCDF differs between 1 and 2 threads"; fi
 if grep -q "on 1 rank x 1 thread " "$SL_TMP/t2/summary.txt"; then
-  sl_ok "# SKIP this build has no OpenMP (the sanitizer build sets its own CFLAGS)"
+  sl_skip "this build has no OpenMP (the sanitizer build sets its own CFLAGS)"
 else
   sl_expect_grep "$SL_TMP/t2/summary.txt" "on 1 rank x 2 threads" "the 2-thread run used 2 threads"
 fi
@@ -333,6 +333,8 @@ if command -v script >/dev/null 2>&1; then
   script -qec "'$SL_BIN' ensemble '$SL_TMP/ens.ini' -n 40 -o '$SL_TMP/pb.csv'" /dev/null \
     >"$SL_TMP/pb.out" 2>&1 </dev/null
   sl_expect_grep "$SL_TMP/pb.out" "40/40 .*/s  left" "progress bar with rate and time left on a terminal"
+else
+  sl_skip "script(1) not installed: progress bar on a terminal not checked"
 fi
 
 # ---- errors: file, line, key and what is valid.
@@ -385,5 +387,7 @@ if command -v mpirun >/dev/null 2>&1 && command -v mpicc >/dev/null 2>&1; then
   else
     sl_fail "make MPI=1"; sed 's/^/#   /' "$SL_TMP/mk.txt" | tail -5
   fi
+else
+  sl_skip "OpenMPI (mpirun, mpicc) not installed: the MPI build is not checked"
 fi
 sl_done

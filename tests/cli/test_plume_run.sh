@@ -5,8 +5,8 @@
 . "$(dirname "$0")/lib.inc"
 
 # Castle NECTAR, 1.69 Mt surface burst at Bikini (11.6 N, tropical profile):
-# cloud top 21.6 km, bottom 12.3 km (test report Fig. 94, SEEN via
-# ../shared/reference/impact-facts.md s.2).  Tolerance 10 %: one heat fraction
+# cloud top 21.6 km, bottom 12.3 km (test report Fig. 94, SEEN in a
+# secondary source; see docs/references.md).  Tolerance 10 %: one heat fraction
 # (the default 0.4) for every yield, no wind shear, heights read off a figure.
 printf '[explosion]\nenergy_Mt = 1.69\naltitude_m = 0\n[site]\nlatitude_deg = 11.6\natmosphere = tropical\n' >"$SL_TMP/nectar.ini"
 sl_expect_exit 0 "run a 1.69 Mt surface burst" "$SL_BIN" run --json "$SL_TMP/nectar.ini"
@@ -20,7 +20,7 @@ for k in ("plume_top_m", "cloud_bottom_m", "cloud_top_m", "neutral_altitude_m", 
 assert d["regime"] == "thermal", d["regime"]
 assert abs(d["cloud_top_m"] / 21600.0 - 1) < 0.10, d["cloud_top_m"]
 assert abs(d["cloud_bottom_m"] / 12300.0 - 1) < 0.10, d["cloud_bottom_m"]
-# Stops rising 4-14 min after the burst (Army manual, SEEN via impact-facts.md s.2).
+# Stops rising 4-14 min after the burst (U.S. Army field manual on nuclear effects, SEEN in a secondary source).
 assert 240 <= d["thermals"][0]["apex_time_s"] <= 840, d["thermals"][0]["apex_time_s"]
 b = d["bands"]
 assert len(b) == 100 and b[0]["bottom_m"] == 0 and b[-1]["top_m"] == 100000
@@ -40,8 +40,8 @@ PY
 then sl_ok "NECTAR cloud within 10 %, keys and band bookkeeping"; else sl_fail "NECTAR cloud, keys or bookkeeping"; fi
 
 sl_expect_exit 0 "text summary" "$SL_BIN" run "$SL_TMP/nectar.ini"
-sl_expect_grep "$SL_TMP/out" "vapour above the tropopause" "text summary gives the stratospheric water"
-sl_expect_grep "$SL_TMP/out" "Bands holding lofted water" "text summary lists the bands"
+sl_expect_grep "$SL_TMP/out" "water above the tropopause .* Tg vapour" "text summary gives the stratospheric water"
+sl_expect_grep "$SL_TMP/out" "Where the lofted water sits" "text summary lists the bands"
 
 # A wider entrainment makes a lower cloud (MTT: z_max ~ alpha^-3/4).
 printf '[plume]\nentrainment_coefficient = 0.35\n' >>"$SL_TMP/nectar.ini"
@@ -54,7 +54,7 @@ PY
 then sl_ok "larger entrainment coefficient, lower plume"; else sl_fail "entrainment coefficient has no effect"; fi
 
 # A 1 km stony body into the ocean: its vapour plume is wider than the scale
-# height, so the blow-out regime is marked in both formats (DESIGN.md 4.5).
+# height, so the blow-out regime is marked in both formats (docs/physics.md, plume regimes).
 ex1km="$SL_SRCDIR/examples/ocean-stony-1km-budget.ini"
 sl_expect_exit 0 "run the 1 km example" "$SL_BIN" run --json "$ex1km"
 sl_expect_grep "$SL_TMP/out" '"regime": "blow-out"' "JSON marks the blow-out regime"

@@ -5,7 +5,7 @@
 ex="$SL_SRCDIR/examples/explosion-surface-burst.ini"
 
 sl_expect_exit 0 "run the example" "$SL_BIN" run "$ex"
-sl_expect_grep "$SL_TMP/out" "Stratospheric box model" "text summary has the box model"
+sl_expect_grep "$SL_TMP/out" "How long it stays" "text summary has the box model"
 sl_expect_grep "$SL_TMP/out" "e-folding time" "text summary has the e-folding time"
 sl_expect_exit 0 "run --json" "$SL_BIN" run --json "$ex"
 if /usr/bin/python3 - "$SL_TMP/out" <<'PY'

@@ -17,7 +17,7 @@ Prints a "FAIL - ..." line per failed check (with -v also "ok - ..." lines), the
 "nc_check: FILE: N checks, M failed", and exits 1 if anything failed.
 
 The CF rules checked (CF-1.11, sections cited; standard names from table
-version 83 as listed in the project's reference notes, ecosystem.md section 1):
+version 83, https://cfconventions.org/standard-names.html):
   2.6   Conventions contains CF-1.11; history, source, references, comment present
   3.1   units present on every data variable; no ppm/ppmv/ppbv where a standard_name is set
   3.3   standard_name only from the allowed list, each with units convertible to its canonical unit
@@ -53,7 +53,7 @@ def ok(cond, what):
 
 
 # Standard name -> accepted units (canonical unit and spellings convertible to it
-# that we use).  Source: ecosystem.md section 1 (CF table v83, checked there).
+# that we use).  Source: the CF standard name table, version 83.
 STANDARD = {
     "altitude": {"m"},
     "latitude": {"degrees_north"},
