@@ -64,7 +64,7 @@ static const struct {
  * temperatures SEEN at 150 km (634.39 K) and in a transcription at 100-1000
  * km; 110-130 km values SEEN in one transcription only.  Tolerances: the
  * table prints 5 digits for p (half a unit: 1e-4 relative) and 4 for rho
- * (1.2e-4); our 4th-order integration of the same equations on 50-250 m
+ * (1.2e-4); our 4th-order integration of the same equations on 0.1-1 km
  * steps adds up to 2e-4 (it meets the 1000 km pressure to 3.2e-4), hence
  * 5e-4 for both; temperature to the table's 0.01 K (0.02 where the ellipse
  * constants, rounded in the standard, give 239.9997 K at 110 km). */
