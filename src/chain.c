@@ -69,17 +69,37 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     const char *name = sl_scenario_text(sc, SL_P_SITE_ATMOSPHERE);
     if (ch->have_atmosphere && strcmp(ch->atmosphere_name, name) == 0)
         return SL_OK;
-    if (ch->have_atmosphere) {
-        sl_atmosphere_free(&ch->atmosphere);
+    if (ch->have_atmosphere) { /* a built-in is set aside, a file profile freed */
+        int slot = -1;
+        for (int i = 0; sl_atmosphere_builtin_names[i] && i < SL_ATMOSPHERE_MAX_BUILTINS; i++)
+            if (strcmp(ch->atmosphere_name, sl_atmosphere_builtin_names[i]) == 0)
+                slot = i;
+        if (slot >= 0 && !ch->have_builtin_cache[slot]) {
+            ch->builtin_cache[slot] = ch->atmosphere;
+            ch->have_builtin_cache[slot] = 1;
+            memset(&ch->atmosphere, 0, sizeof ch->atmosphere);
+        } else {
+            sl_atmosphere_free(&ch->atmosphere);
+        }
         ch->have_atmosphere = 0;
     }
+    int builtin = 0;
+    for (int i = 0; sl_atmosphere_builtin_names[i] && i < SL_ATMOSPHERE_MAX_BUILTINS; i++)
+        if (strcmp(name, sl_atmosphere_builtin_names[i]) == 0) {
+            builtin = 1;
+            if (ch->have_builtin_cache[i]) { /* taken back from the cache */
+                ch->atmosphere = ch->builtin_cache[i];
+                memset(&ch->builtin_cache[i], 0, sizeof ch->builtin_cache[i]);
+                ch->have_builtin_cache[i] = 0;
+                snprintf(ch->atmosphere_name, sizeof ch->atmosphere_name, "%s", name);
+                ch->have_atmosphere = 1;
+                return SL_OK;
+            }
+        }
     /* A relative profile path in a scenario file is looked for next to the
      * file first, then from the working directory. */
     char near[2 * SL_SCENARIO_PATH_LEN];
     const char *use = name;
-    int builtin = 0;
-    for (size_t i = 0; sl_atmosphere_builtin_names[i]; i++)
-        builtin |= strcmp(name, sl_atmosphere_builtin_names[i]) == 0;
     const char *slash = strrchr(sc->path, '/');
     if (!builtin && name[0] != '/' && slash != NULL && sc->line[SL_P_SITE_ATMOSPHERE] > 0) {
         snprintf(near, sizeof near, "%.*s/%s", (int)(slash - sc->path), sc->path, name);
@@ -246,6 +266,9 @@ void sl_chain_free(sl_chain *ch)
     sl_entry_free(&ch->entry);
     if (ch->have_atmosphere)
         sl_atmosphere_free(&ch->atmosphere);
+    for (int i = 0; i < SL_ATMOSPHERE_MAX_BUILTINS; i++)
+        if (ch->have_builtin_cache[i])
+            sl_atmosphere_free(&ch->builtin_cache[i]);
     sl_partition_free(&ch->partition);
     sl_plume_free(&ch->plume);
     sl_injection_free(&ch->injection);

@@ -93,6 +93,35 @@ START_TEST(test_tropical_site_through_the_chain)
 }
 END_TEST
 
+START_TEST(test_chain_switches_profiles)
+{
+    /* Members at different latitudes switch profiles (an ensemble over the
+     * site): each run uses exactly the profile a fresh chain builds, the
+     * built-ins set aside are taken back (no rebuild), and free releases all. */
+    static const double lats[] = {5.0, 45.0, -65.0, 5.0, 45.0, 5.0};
+    static const char *want[] = {"tropical", "midlatitude-summer", "subarctic-winter",
+                                 "tropical", "midlatitude-summer", "tropical"};
+    sl_chain ch = {0};
+    sl_err e = {0};
+    for (size_t k = 0; k < sizeof lats / sizeof lats[0]; k++) {
+        char text[160];
+        snprintf(text, sizeof text, "[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = %g\nmonth = 7\n", lats[k]);
+        sl_scenario sc;
+        ck_assert_msg(sl_scenario_load_string(&sc, "m.ini", text, &e) == SL_OK, "%s", e.msg);
+        ck_assert_msg(sl_chain_run(&sc, &ch, &e) == SL_OK, "%s", e.msg);
+        ck_assert_str_eq(ch.atmosphere.name, want[k]);
+        sl_atmosphere fresh;
+        ck_assert_msg(sl_atmosphere_init(&fresh, want[k], &e) == SL_OK, "%s", e.msg);
+        ck_assert_uint_eq(ch.atmosphere.n, fresh.n);
+        for (size_t i = 0; i < fresh.n; i++)
+            ck_assert(ch.atmosphere.pressure_Pa[i] == fresh.pressure_Pa[i] &&
+                      ch.atmosphere.temperature_K[i] == fresh.temperature_K[i]);
+        sl_atmosphere_free(&fresh);
+    }
+    sl_chain_free(&ch);
+}
+END_TEST
+
 static Suite *site_suite(void)
 {
     sl_err_gsl_handler_off();
@@ -102,6 +131,7 @@ static Suite *site_suite(void)
     tcase_add_test(tc, test_zone_rule);
     tcase_add_test(tc, test_sea_surface_climatology);
     tcase_add_test(tc, test_tropical_site_through_the_chain);
+    tcase_add_test(tc, test_chain_switches_profiles);
     suite_add_tcase(s, tc);
     return s;
 }

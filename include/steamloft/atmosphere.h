@@ -66,7 +66,9 @@ typedef struct sl_atmosphere {
      * column and burden when either boundary is missing. */
 } sl_atmosphere;
 
-/* Names of the built-in profiles, NULL-terminated. */
+/* Names of the built-in profiles, NULL-terminated (at most
+ * SL_ATMOSPHERE_MAX_BUILTINS). */
+#define SL_ATMOSPHERE_MAX_BUILTINS 8
 extern const char *const sl_atmosphere_builtin_names[];
 
 /* Build profile NAME_OR_PATH: a built-in name, else a text or CF netCDF file.

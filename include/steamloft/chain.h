@@ -36,6 +36,12 @@ typedef struct sl_chain {
     sl_atmosphere atmosphere;      /* the background profile */
     int have_atmosphere;
     char atmosphere_name[SL_SCENARIO_RAW_LEN]; /* what it was loaded from */
+    /* Built-in profiles set aside when a later scenario named another one
+     * (site-aware defaults switch profiles with the latitude of ensemble
+     * members): indexed like sl_atmosphere_builtin_names, so a switch back
+     * costs a struct move instead of a rebuild. */
+    sl_atmosphere builtin_cache[SL_ATMOSPHERE_MAX_BUILTINS];
+    int have_builtin_cache[SL_ATMOSPHERE_MAX_BUILTINS];
     sl_entry entry;                /* valid when has_entry */
     int has_entry;                 /* the scenario is an [impactor] */
     double air_source_altitude_m;  /* where the air's share was released */
