@@ -235,7 +235,7 @@ int sl_cmd_atmos(int argc, char **argv, const sl_cli_globals *g)
         case 'h': usage(stdout); return EX_OK;
         default:
             if (optopt == OPT_AT)
-                return sl_cli_usage_error(g, "atmos", "option '--at' needs an altitude in metres");
+                return sl_cli_usage_error(g, "atmos", "option '--at' needs an altitude in metres or a pressure (10hPa)");
             if (optopt)
                 return sl_cli_usage_error(g, "atmos", "unknown option '-%c'", optopt);
             return sl_cli_usage_error(g, "atmos", "unknown option '%s'", argv[optind - 1]);
