@@ -18,26 +18,30 @@
  * constants (g0, R*, M0, r0, P0, T0) and its seven layers linear in
  * geopotential height H = r0 z/(r0 + z) up to 84.852 km (z = 86 km), with the
  * kinetic temperature T = T_M (M/M0) from the standard's molar-mass ratio
- * table between 80 and 86 km.  Above 86 km the temperature follows the
- * standard's own geometric-altitude segments (isothermal 186.8673 K to 91 km,
- * the ellipse Tc + A sqrt(1 - ((z - 91 km)/a)^2) to 110 km with Tc = 263.1905
- * K, A = -76.3232 K, a = -19.9429 km, then +12 K/km to 120 km), but the
- * pressure is OUR simple extension: hydrostatic integration with the
- * sea-level molar mass M0 held constant.  The standard itself lets the mean
- * molar mass fall above 86 km (diffusive separation, O2 dissociation), so our
- * pressures there are lower than its tables (by 0.7 % at 100 km, 7 % at
- * 110 km and 14 % at 120 km, measured in tests/test_atmosphere.c against the
- * standard's values quoted from memory); the air there is too thin for
- * plumes to care.
+ * table between 80 and 86 km, and from 86 to 1000 km by the standard's own
+ * upper-atmosphere definition (temperature segments and the diffusion
+ * equations of N2, O, O2, Ar, He and H; see "above 86 km" below).  `us1976`
+ * is the dry standard exactly (sea-level density 1.2250 kg/m3);
+ * `us1976-humid` is its temperature and pressure with the background water
+ * model below.
+ *
+ * Every profile carries the mean molar mass of its dry air: M0 to 80 km and
+ * the standard's above (the composition of the air above the homopause is
+ * the standard's for every profile read from a file or built in, since a
+ * temperature and pressure column does not bring one); density and the
+ * hydrostatic integration use it.
  *
  * Climate-zone profiles (tropical, mid-latitude summer and winter, sub-arctic
  * summer and winter) are our own piecewise-linear temperature profiles in
  * geometric altitude through a few nodes read from the AFGL reference
  * atmospheres (Anderson et al. 1986, AFGL-TR-86-0110; tables seen in the
  * pyrtlib transcription of those tables; see docs/references.md):
- * surface, tropopause, stratopause, mesopause and 120 km.  Pressure is
- * integrated hydrostatically (moist air, 4th-order Runge-Kutta, 4 steps per
- * level) from the AFGL surface pressure.
+ * surface, tropopause, stratopause, mesopause and 120 km; above 120 km the
+ * standard's thermosphere form T_inf - (T_inf - T120) exp(-lambda xi) from
+ * the zone's own 120 km temperature (T_inf = 1000 K, lambda = 0.01875/km).
+ * Pressure is integrated hydrostatically (moist air, the standard's molar
+ * mass above 80 km, 4th-order Runge-Kutta, 4 steps per level) from the AFGL
+ * surface pressure, to 1000 km.
  *
  * Background water (used when a profile does not bring its own):
  *  - troposphere: the fixed relative-humidity profile of Manabe & Wetherald
@@ -73,30 +77,42 @@
 #include "steamloft/units.h"
 #include "steamloft/water.h"
 
-#include <gsl/gsl_errno.h>
-#include <gsl/gsl_interp.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
+/* The interpolants: per level interval i, the Steffen cubic coefficients
+ * (a, b, c, d: y = d + t (c + t (b + t a)), t = z - z_i) of temperature,
+ * ln p and the water mole fraction, interleaved so one query reads one
+ * cache line or two.  They are computed exactly as GSL's gsl_interp_steffen
+ * computes its own (Steffen 1990; tests/test_atmosphere.c checks our values
+ * bit for bit against gsl_interp_eval), and of the dry-air molar mass, but
+ * evaluated here without the
+ * library's per-call dispatch, with one interval search for all three and
+ * the search position kept in a caller-owned sl_atmos_cursor. */
+enum { SPL_T = 0, SPL_LNP = 4, SPL_X = 8, SPL_M = 12, SPL_STRIDE = 16 };
 struct sl_atmosphere_splines {
-    gsl_interp *temperature;
-    gsl_interp *log_pressure;
-    gsl_interp *h2o;
+    double *coef;            /* SPL_STRIDE per interval, n - 1 intervals */
     double *log_pressure_Pa; /* ln p at the levels */
+    /* Start of the interval search: cell k of a uniform grid of step
+     * 1/lut_inv_dz_m from the lowest level holds the interval of the cell's
+     * lower edge, so a query walks up at most a level or two from there. */
+    size_t *lut;
+    size_t n_lut;
+    double lut_inv_dz_m;
 };
 
 const char *const sl_atmosphere_builtin_names[] = {
-    "us1976",           "tropical",         "midlatitude-summer", "midlatitude-winter",
+    "us1976",           "us1976-humid",     "tropical",         "midlatitude-summer", "midlatitude-winter",
     "subarctic-summer", "subarctic-winter", NULL};
 
 /* ---- constants ---------------------------------------------------------- */
 
 #define GMR_K_M (SL_USSA_G0_M_S2 * SL_USSA_M0_KG_KMOL / SL_USSA_RSTAR_J_KMOL_K) /* g0 M0 / R*, K/m */
 #define R_DRY_USSA (SL_USSA_RSTAR_J_KMOL_K / SL_USSA_M0_KG_KMOL)              /* 287.053 J/kg/K */
-#define BUILTIN_TOP_M 120000.0
-#define BUILTIN_STEP_M 250.0
+/* Built-in level grid: 250 m to 150 km, 1 km to 300 km, 5 km to 1000 km. */
+#define BUILTIN_TOP_M 1000000.0
 
 /* Background water model parameters (sources in the file comment). */
 #define RH_SURFACE 0.77            /* Manabe & Wetherald 1967 */
@@ -164,82 +180,301 @@ static void ussa_molecular(double h_m, double *tm_K, double *p_Pa)
     *p_Pa = l == 0.0 ? pb * exp(-GMR_K_M * dh / tb) : pb * pow(tb / t, GMR_K_M / l);
 }
 
+/* ---- U.S. Standard Atmosphere 1976 above 86 km ---------------------------
+ *
+ * NOAA-S/T 76-1562, part 1, sections 1.2.5-1.3 (equations quoted by number
+ * from the standard's own text as we know it; the constants below are its
+ * Tables 5-9).  Kinetic temperature in five geometric-altitude segments
+ * (Z7..Z12 = 86, 91, 110, 120, 500, 1000 km): isothermal 186.8673 K to 91 km;
+ * the ellipse T = Tc + A sqrt(1 - ((Z - 91 km)/a)^2) to 110 km (Tc =
+ * 263.1905 K, A = -76.3232 K, a = -19.9429 km); +12 K/km to 120 km; above,
+ * T = T_inf - (T_inf - T10) exp(-lambda xi), xi = (Z - Z10)(r0 + Z10)/(r0 + Z),
+ * T_inf = 1000 K, T10 = 360 K, lambda = 0.01875 per km.
+ *
+ * Number densities of N2, O, O2, Ar and He from 86 km (Table 9 values) by
+ * the standard's diffusion equation for species i,
+ *   d ln n_i/dZ = -(1/T) dT/dZ - f_i - tau_i,
+ *   f_i = g/(R* T) [D_i M_i + K M]/(D_i + K) + g/(R* T) D_i/(D_i + K) alpha_i R* (dT/dZ)/g,
+ * with molecular diffusion D_i = a_i (T/273.15)^b_i / N, eddy diffusion K =
+ * 120 m2/s to 95 km, 120 exp(1 - 400/(400 - (Z - 95)^2)) (Z in km) to 115 km,
+ * 0 above; N the number density of N2 (for O and O2) or of N2 + O + O2 (for
+ * Ar and He); M = M0 to 100 km, above it the molar mass of N2 (for O, O2) or
+ * the mean of N2, O and O2 (for Ar, He); tau_i the standard's empirical
+ * vertical-transport term Q (Z - U)^2 exp(-W (Z - U)^3) (+ q (u - Z)^2
+ * exp(-w (u - Z)^3) for O below 97 km) of Table 7.  N2 itself follows
+ * hydrostatics with M0 to 100 km and M(N2) above.  Hydrogen above 150 km from
+ * the flux equation with n(H) = 8.0e10 m-3 at 500 km and escape flux phi =
+ * 7.2e11 m-2 s-1:
+ *   n_H(Z) = [n_H(500) - int_500^Z (phi/D_H)(T/T500)^(1+alpha_H) e^tau dZ]
+ *            (T500/T)^(1+alpha_H) e^-tau,   tau = int_500^Z g M_H/(R* T) dZ,
+ * and no hydrogen below 150 km.  Then p = n k T and rho = sum n_i m_i, with
+ * the standard's k = 1.380622e-23 J/K and N_A = 6.022169e26 /kmol (R* = k N_A).
+ * Our integration is 4th-order Runge-Kutta on steps of at most 100 m below
+ * 150 km and 1 km above (halving them changes nothing in the sixth digit),
+ * with the segment joints as step ends; it meets the standard's tables at
+ * 90-1000 km within 5e-4 (tests/test_atmosphere.c). */
+
+#define UZ7_M 86000.0
+#define UZ_M100 100000.0
+#define UZ10_M 120000.0
+#define UZ_H_M 150000.0
+#define UZ11_M 500000.0
+#define USSA_TOP_M 1000000.0
+#define UT7_K 186.8673
+#define UT10_K 360.0
+#define UTINF_K 1000.0
+#define ULAMBDA_PER_M 0.01875e-3
+#define UBOLTZMANN 1.380622e-23 /* J/K, the standard's value */
+#define UAVOGADRO 6.022169e26   /* per kmol */
+
+enum { SP_N2, SP_O, SP_O2, SP_AR, SP_HE, SP_H, N_SP };
+static const double sp_molar_mass[N_SP] = {28.0134, 15.9994, 31.9988, 39.948, 4.0026, 1.00797};
+static const double sp_n86[SP_H] = {1.129794e20, 8.6e16, 3.030898e19, 1.351400e18, 7.5817e14};
+static const double sp_alpha[N_SP] = {0.0, 0.0, 0.0, 0.0, -0.40, -0.25};
+static const double sp_a[N_SP] = {0.0, 6.986e20, 4.863e20, 4.487e20, 1.700e21, 3.305e21};
+static const double sp_b[N_SP] = {0.0, 0.750, 0.750, 0.870, 0.691, 0.500};
+/* Table 7: Q (km-3), U (km), W (km-3) for O, O2, Ar, He; q, u, w for O. */
+static const double sp_Q[N_SP] = {0.0, -5.809644e-4, 1.366212e-4, 9.434079e-5, -2.457369e-4, 0.0};
+static const double sp_U[N_SP] = {0.0, 56.90311, 86.0, 86.0, 86.0, 0.0};
+static const double sp_W[N_SP] = {0.0, 2.706240e-5, 8.333333e-5, 8.333333e-5, 6.666667e-4, 0.0};
+#define O_SMALL_Q -3.416248e-3
+#define O_SMALL_U 97.0
+#define O_SMALL_W 5.008765e-4
+#define H_N500 8.0e10
+#define H_PHI 7.2e11
+
+/* Thermospheric temperature above 120 km from T120 at 120 km (the standard:
+ * T120 = 360 K), and its derivative. */
+static double thermo_T(double t120, double z_m, double *dtdz)
+{
+    const double r = (SL_USSA_R0_M + UZ10_M) / (SL_USSA_R0_M + z_m);
+    const double xi = (z_m - UZ10_M) * r;
+    const double ex = exp(-ULAMBDA_PER_M * xi);
+    if (dtdz)
+        *dtdz = ULAMBDA_PER_M * (UTINF_K - t120) * r * r * ex;
+    return UTINF_K - (UTINF_K - t120) * ex;
+}
+
 /* Kinetic temperature above 86 km from the standard's defining segments. */
-static double ussa_upper_T(double z_m)
+static double ussa_upper_T(double z_m, double *dtdz)
 {
-    if (z_m <= 91000.0)
-        return 186.8673;
-    if (z_m <= 110000.0) {
-        const double u = (z_m - 91000.0) / -19942.9;
-        return 263.1905 - 76.3232 * sqrt(fmax(0.0, 1.0 - u * u));
+    double d = 0.0, t;
+    if (z_m <= 91000.0) {
+        t = UT7_K;
+    } else if (z_m <= 110000.0) {
+        const double a = -19942.9, u = (z_m - 91000.0) / a;
+        const double root = sqrt(fmax(1e-300, 1.0 - u * u));
+        t = 263.1905 - 76.3232 * root;
+        d = 76.3232 / a * u / root;
+    } else if (z_m <= UZ10_M) {
+        t = 240.0 + 12.0e-3 * (z_m - 110000.0);
+        d = 12.0e-3;
+    } else {
+        t = thermo_T(UT10_K, z_m, &d);
     }
-    return 240.0 + 12.0e-3 * (z_m - 110000.0);
+    if (dtdz)
+        *dtdz = d;
+    return t;
 }
 
-static double ussa_upper_integrand(double z_m)
+static double eddy_K_m2_s(double z_m)
 {
-    return sl_atmosphere_gravity_m_s2(z_m) * SL_USSA_M0_KG_KMOL / (SL_USSA_RSTAR_J_KMOL_K * ussa_upper_T(z_m));
+    if (z_m < 95000.0)
+        return 120.0;
+    if (z_m < 115000.0) {
+        const double u = z_m * 1e-3 - 95.0;
+        return 120.0 * exp(1.0 - 400.0 / (400.0 - u * u));
+    }
+    return 0.0;
 }
 
-/* ln(p(z)/p(86 km)) = -int_86km^z g M0/(R* T) dz, by 5-point Gauss-Legendre
- * on panels of at most 500 m that do not straddle the segment joints. */
-static double ussa_upper_log_ratio(double z_m)
+/* The integrated state: ln n of N2, O, O2, Ar, He; tau and J of hydrogen
+ * counted from 150 km (tau150 = int_150^Z g M_H/(R* T), J = int_150^Z
+ * (phi/D_H)(T/T500)^(1+alpha_H) e^tau150). */
+enum { UY_TAU = SP_H, UY_J, UY_N };
+
+/* Right-hand side at Z; ABOVE100 picks the side of the 100 km switch of M. */
+static void ussa_rhs(double z_m, const double *y, int above100, double t500, double *dy)
 {
-    static const double gx[5] = {0.0, -0.5384693101056831, 0.5384693101056831, -0.9061798459386640,
-                                 0.9061798459386640};
-    static const double gw[5] = {0.5688888888888889, 0.4786286704993665, 0.4786286704993665,
-                                 0.2369268850561891, 0.2369268850561891};
-    static const double joints[3] = {91000.0, 110000.0, 120000.0};
-    double sum = 0.0, a = 86000.0;
-    for (int j = 0; j < 3 && a < z_m; j++) {
-        const double b_seg = fmin(joints[j], z_m);
-        const int panels = (int)ceil((b_seg - a) / 500.0);
-        const double w = (b_seg - a) / (panels > 0 ? panels : 1);
-        for (int k = 0; k < panels; k++) {
-            const double lo = a + k * w, mid = lo + 0.5 * w;
-            for (int q = 0; q < 5; q++)
-                sum += 0.5 * w * gw[q] * ussa_upper_integrand(mid + 0.5 * w * gx[q]);
+    double tp, t = ussa_upper_T(z_m, &tp);
+    const double g = sl_atmosphere_gravity_m_s2(z_m);
+    const double gr = g / (SL_USSA_RSTAR_J_KMOL_K * t);
+    double n[SP_H];
+    for (int i = 0; i < SP_H; i++)
+        n[i] = exp(y[i]);
+    const double kz = eddy_K_m2_s(z_m), zk = z_m * 1e-3;
+    const double n3 = n[SP_N2] + n[SP_O] + n[SP_O2];
+    const double m3 = (n[SP_N2] * sp_molar_mass[SP_N2] + n[SP_O] * sp_molar_mass[SP_O] +
+                       n[SP_O2] * sp_molar_mass[SP_O2]) / n3;
+    dy[SP_N2] = -tp / t - gr * (above100 ? sp_molar_mass[SP_N2] : SL_USSA_M0_KG_KMOL);
+    for (int i = SP_O; i < SP_H; i++) {
+        const int light = i == SP_O || i == SP_O2;
+        const double nb = light ? n[SP_N2] : n3;
+        const double mb = !above100 ? SL_USSA_M0_KG_KMOL : (light ? sp_molar_mass[SP_N2] : m3);
+        const double d = sp_a[i] * pow(t / 273.15, sp_b[i]) / nb;
+        const double f = gr * (d * sp_molar_mass[i] + kz * mb) / (d + kz) +
+                         d / (d + kz) * sp_alpha[i] * tp / t;
+        const double v = zk - sp_U[i];
+        double tau = sp_Q[i] * v * v * exp(-sp_W[i] * v * v * v);
+        if (i == SP_O && zk < O_SMALL_U) {
+            const double w = O_SMALL_U - zk;
+            tau += O_SMALL_Q * w * w * exp(-O_SMALL_W * w * w * w);
         }
-        a = b_seg;
+        dy[i] = -tp / t - f - tau * 1e-3;
     }
-    return -sum;
+    dy[UY_TAU] = dy[UY_J] = 0.0;
+    if (z_m >= UZ_H_M) {
+        const double n5 = n3 + n[SP_AR] + n[SP_HE];
+        const double dh = sp_a[SP_H] * pow(t / 273.15, sp_b[SP_H]) / n5;
+        dy[UY_TAU] = gr * sp_molar_mass[SP_H];
+        dy[UY_J] = H_PHI / dh * pow(t / t500, 1.0 + sp_alpha[SP_H]) * exp(y[UY_TAU]);
+    }
+}
+
+static void ussa_rk4(double za, double zb, double *y, double t500)
+{
+    const int above100 = 0.5 * (za + zb) > UZ_M100;
+    double k1[UY_N], k2[UY_N], k3[UY_N], k4[UY_N], yt[UY_N];
+    const double h = zb - za;
+    ussa_rhs(za, y, above100, t500, k1);
+    for (int j = 0; j < UY_N; j++)
+        yt[j] = y[j] + 0.5 * h * k1[j];
+    ussa_rhs(za + 0.5 * h, yt, above100, t500, k2);
+    for (int j = 0; j < UY_N; j++)
+        yt[j] = y[j] + 0.5 * h * k2[j];
+    ussa_rhs(za + 0.5 * h, yt, above100, t500, k3);
+    for (int j = 0; j < UY_N; j++)
+        yt[j] = y[j] + h * k3[j];
+    ussa_rhs(zb, yt, above100, t500, k4);
+    for (int j = 0; j < UY_N; j++)
+        y[j] += h / 6.0 * (k1[j] + 2.0 * k2[j] + 2.0 * k3[j] + k4[j]);
+}
+
+/* Integrate from 86 km to the sorted altitudes Z[0..n-1] (each in 86-1000 km)
+ * and give T, p, rho and the mean molar mass there (any output may be NULL).
+ * WORK: 4 n doubles. */
+static void ussa_upper(size_t n, const double *z, double *t_out, double *p_out, double *rho_out, double *m_out,
+                       double *work)
+{
+    static const double joints[] = {91000.0, 95000.0, 97000.0, UZ_M100, 110000.0, 115000.0, UZ10_M, UZ_H_M, UZ11_M};
+    const size_t nj = sizeof joints / sizeof joints[0];
+    const double t500 = ussa_upper_T(UZ11_M, NULL);
+    double y[UY_N];
+    for (int i = 0; i < SP_H; i++)
+        y[i] = log(sp_n86[i]);
+    y[UY_TAU] = y[UY_J] = 0.0;
+    double tau500 = 0.0, j500 = 0.0, zc = UZ7_M;
+    /* Hydrogen needs the integrals up to 500 km. */
+    const double zend = n == 0 ? UZ7_M : (z[n - 1] >= UZ_H_M ? fmax(z[n - 1], UZ11_M) : z[n - 1]);
+    double *tau_at = work, *j_at = work + n, *nt_at = work + 2 * n, *mass_at = work + 3 * n;
+    size_t k = 0, jn = 0;
+    for (;;) {
+        while (k < n && z[k] <= zc + 1e-9) { /* requested altitudes reached */
+            double nt = 0.0, mass = 0.0;
+            for (int i = 0; i < SP_H; i++) {
+                const double ni = exp(y[i]);
+                nt += ni;
+                mass += ni * sp_molar_mass[i];
+            }
+            tau_at[k] = y[UY_TAU];
+            j_at[k] = y[UY_J];
+            nt_at[k] = nt;
+            mass_at[k] = mass;
+            k++;
+        }
+        if (fabs(zc - UZ11_M) < 1e-6) {
+            tau500 = y[UY_TAU];
+            j500 = y[UY_J];
+        }
+        if (zc >= zend - 1e-9)
+            break;
+        while (jn < nj && joints[jn] <= zc + 1e-9)
+            jn++;
+        double znext = zend;
+        if (jn < nj && joints[jn] < znext)
+            znext = joints[jn];
+        if (k < n && z[k] < znext)
+            znext = z[k];
+        const double hmax = zc < UZ_H_M ? 100.0 : 1000.0;
+        int steps = (int)ceil((znext - zc) / hmax - 1e-9);
+        if (steps < 1)
+            steps = 1;
+        const double h = (znext - zc) / steps;
+        for (int s = 0; s < steps; s++)
+            ussa_rk4(zc + s * h, s + 1 == steps ? znext : zc + (s + 1) * h, y, t500);
+        zc = znext;
+    }
+    for (size_t i = 0; i < n; i++) {
+        const double t = ussa_upper_T(z[i], NULL);
+        double nt = nt_at[i], mass = mass_at[i];
+        if (z[i] >= UZ_H_M) {
+            const double tau = tau_at[i] - tau500;
+            const double nh = (H_N500 - (j_at[i] - j500) * exp(-tau500)) * pow(t500 / t, 1.0 + sp_alpha[SP_H]) *
+                              exp(-tau);
+            nt += nh;
+            mass += nh * sp_molar_mass[SP_H];
+        }
+        if (t_out)
+            t_out[i] = t;
+        if (p_out)
+            p_out[i] = nt * UBOLTZMANN * t;
+        if (rho_out)
+            rho_out[i] = mass / UAVOGADRO;
+        if (m_out)
+            m_out[i] = mass / nt;
+    }
+}
+
+/* The standard's mean molar mass of air at geometric Z (kg/kmol): M0 to 80 km,
+ * M0 times Table 8's ratio from 80 to 86 km; above 86 km use ussa_upper. */
+static double ussa_low_molar_mass(double z_m)
+{
+    if (z_m <= 80000.0)
+        return SL_USSA_M0_KG_KMOL;
+    const double u = (fmin(z_m, 86000.0) - 80000.0) / 500.0;
+    int i = (int)u;
+    if (i > 11)
+        i = 11;
+    const double f = u - i;
+    return SL_USSA_M0_KG_KMOL * (ussa_m_ratio[i] + f * (ussa_m_ratio[i + 1] - ussa_m_ratio[i]));
+}
+
+/* T, p, rho and M of the standard at N sorted altitudes in 0-1000 km. */
+static int ussa_profile(size_t n, const double *z, double *t, double *p, double *rho, double *m, sl_err *e)
+{
+    size_t i = 0;
+    for (; i < n && z[i] <= UZ7_M; i++) {
+        const double h = SL_USSA_R0_M * z[i] / (SL_USSA_R0_M + z[i]);
+        double tm, pp;
+        ussa_molecular(fmin(h, ussa_hb_m[7]), &tm, &pp);
+        const double mm = ussa_low_molar_mass(z[i]);
+        if (t)
+            t[i] = z[i] > 80000.0 ? tm * mm / SL_USSA_M0_KG_KMOL : tm;
+        if (p)
+            p[i] = pp;
+        if (rho)
+            rho[i] = pp * SL_USSA_M0_KG_KMOL / (SL_USSA_RSTAR_J_KMOL_K * tm);
+        if (m)
+            m[i] = mm;
+    }
+    if (i == n)
+        return SL_OK;
+    double *work = malloc(4 * (n - i) * sizeof(double));
+    if (!work)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "U.S. Standard Atmosphere 1976: out of memory");
+    ussa_upper(n - i, z + i, t ? t + i : NULL, p ? p + i : NULL, rho ? rho + i : NULL, m ? m + i : NULL, work);
+    free(work);
+    return SL_OK;
 }
 
 int sl_atmosphere_us1976(double altitude_m, double *temperature_K, double *pressure_Pa,
                          double *density_kg_m3, sl_err *e)
 {
     const double z = altitude_m;
-    if (!(z >= 0.0 && z <= BUILTIN_TOP_M))
+    if (!(z >= 0.0 && z <= USSA_TOP_M))
         SL_FAIL_RETURN(e, SL_EDATA, "U.S. Standard Atmosphere 1976: altitude %.6g m outside 0 to %.0f m", z,
-                       BUILTIN_TOP_M);
-    double t, p, rho;
-    if (z <= 86000.0) {
-        const double h = SL_USSA_R0_M * z / (SL_USSA_R0_M + z);
-        double tm;
-        ussa_molecular(fmin(h, ussa_hb_m[7]), &tm, &p);
-        rho = p * SL_USSA_M0_KG_KMOL / (SL_USSA_RSTAR_J_KMOL_K * tm);
-        t = tm;
-        if (z > 80000.0) {
-            const double u = (z - 80000.0) / 500.0;
-            int i = (int)u;
-            if (i > 11)
-                i = 11;
-            const double f = u - i;
-            t = tm * (ussa_m_ratio[i] + f * (ussa_m_ratio[i + 1] - ussa_m_ratio[i]));
-        }
-    } else {
-        double tm86, p86;
-        ussa_molecular(ussa_hb_m[7], &tm86, &p86);
-        t = ussa_upper_T(z);
-        p = p86 * exp(ussa_upper_log_ratio(z));
-        rho = p * SL_USSA_M0_KG_KMOL / (SL_USSA_RSTAR_J_KMOL_K * t);
-    }
-    if (temperature_K)
-        *temperature_K = t;
-    if (pressure_Pa)
-        *pressure_Pa = p;
-    if (density_kg_m3)
-        *density_kg_m3 = rho;
+                       USSA_TOP_M);
+    SL_TRY_RETURN(e, ussa_profile(1, &z, temperature_K, pressure_Pa, density_kg_m3, NULL, e));
     return SL_OK;
 }
 
@@ -290,8 +525,14 @@ static const zone_def zones[] = {
     ZONE("subarctic-winter", 101300.0, saw_nodes),
 };
 
+static double thermo_T(double t120, double z_m, double *dtdz);
+
+/* The zone's temperature: linear between its nodes to 120 km, above it the
+ * standard's thermosphere form from the zone's own 120 km temperature. */
 static double zone_temperature(const zone_def *zd, double z_m)
 {
+    if (z_m > UZ10_M)
+        return thermo_T(zd->nodes[zd->n_nodes - 1].temperature_K, z_m, NULL);
     const double zk = z_m * 1e-3;
     size_t i = 0;
     while (i + 2 < zd->n_nodes && zk > zd->nodes[i + 1].altitude_km)
@@ -346,10 +587,19 @@ static double background_h2o(const water_ctx *w, double z_m, double t_K, double 
 
 /* ---- level arrays, hydrostatics, markers --------------------------------- */
 
-static double dlnp_dz(double z_m, double t_K, double x)
+static double dlnp_dz(double z_m, double t_K, double x, double mr)
 {
-    /* dp/dz = -rho g with rho = p [(1-x)/Rd + x/Rv] / T. */
-    return -sl_atmosphere_gravity_m_s2(z_m) * ((1.0 - x) / SL_R_DRY_AIR_J_KG_K + x / SL_R_VAPOR_J_KG_K) / t_K;
+    /* dp/dz = -rho g with rho = p [(1-x) mr/Rd + x/Rv] / T, mr = M_dry/M0. */
+    return -sl_atmosphere_gravity_m_s2(z_m) * ((1.0 - x) * mr / SL_R_DRY_AIR_J_KG_K + x / SL_R_VAPOR_J_KG_K) / t_K;
+}
+
+/* Moist-air density with dry-air molar mass ratio MR = M_dry/M0; for MR = 1
+ * exactly the value of sl_water_moist_air_density_kg_m3, bit for bit. */
+static double moist_density(double p, double t, double x, double mr)
+{
+    const double pv = x * p;
+    const double pd = p - pv;
+    return pd / (SL_R_DRY_AIR_J_KG_K * t) * mr + pv / (SL_R_VAPOR_J_KG_K * t);
 }
 
 /* Water at (z, T, p) for the integrator: dry, given (linear in the interval
@@ -373,25 +623,29 @@ static double water_at(const water_src *ws, const double *z, size_t i, double zq
 
 /* Integrate ln p upward from p[0] with RK4, 4 steps per level interval, T
  * linear in z within each interval. */
-static void integrate_pressure(size_t n, const double *z, const double *t, const water_src *ws, double *p)
+#define MR(zq) (ma == mb ? ma : ma + (mb - ma) * ((zq) - z[i]) / (z[i + 1] - z[i]))
+static void integrate_pressure(size_t n, const double *z, const double *t, const double *m, const water_src *ws,
+                               double *p)
 {
     enum { SUB = 4 };
     double lp = log(p[0]);
     for (size_t i = 0; i + 1 < n; i++) {
         const double h = (z[i + 1] - z[i]) / SUB;
+        /* molar-mass ratio, linear in the interval (exactly 1 below 80 km) */
+        const double ma = m[i] / SL_USSA_M0_KG_KMOL, mb = m[i + 1] / SL_USSA_M0_KG_KMOL;
         for (int k = 0; k < SUB; k++) {
             const double za = z[i] + k * h;
             const double zb = za + 0.5 * h, zc = za + h;
             const double ta = t[i] + (t[i + 1] - t[i]) * (za - z[i]) / (z[i + 1] - z[i]);
             const double tb = t[i] + (t[i + 1] - t[i]) * (zb - z[i]) / (z[i + 1] - z[i]);
             const double tc = t[i] + (t[i + 1] - t[i]) * (zc - z[i]) / (z[i + 1] - z[i]);
-            const double k1 = dlnp_dz(za, ta, water_at(ws, z, i, za, ta, exp(lp)));
+            const double k1 = dlnp_dz(za, ta, water_at(ws, z, i, za, ta, exp(lp)), MR(za));
             const double l2 = lp + 0.5 * h * k1;
-            const double k2 = dlnp_dz(zb, tb, water_at(ws, z, i, zb, tb, exp(l2)));
+            const double k2 = dlnp_dz(zb, tb, water_at(ws, z, i, zb, tb, exp(l2)), MR(zb));
             const double l3 = lp + 0.5 * h * k2;
-            const double k3 = dlnp_dz(zb, tb, water_at(ws, z, i, zb, tb, exp(l3)));
+            const double k3 = dlnp_dz(zb, tb, water_at(ws, z, i, zb, tb, exp(l3)), MR(zb));
             const double l4 = lp + h * k3;
-            const double k4 = dlnp_dz(zc, tc, water_at(ws, z, i, zc, tc, exp(l4)));
+            const double k4 = dlnp_dz(zc, tc, water_at(ws, z, i, zc, tc, exp(l4)), MR(zc));
             lp += h / 6.0 * (k1 + 2.0 * k2 + 2.0 * k3 + k4);
         }
         p[i + 1] = exp(lp);
@@ -497,9 +751,10 @@ static int alloc_levels(sl_atmosphere *a, size_t n, sl_err *e)
     a->density_kg_m3 = calloc(n, sizeof(double));
     a->h2o_mole_fraction = calloc(n, sizeof(double));
     a->n2_per_s2 = calloc(n, sizeof(double));
+    a->molar_mass_kg_kmol = calloc(n, sizeof(double));
     a->sp = calloc(1, sizeof *a->sp);
     if (!a->altitude_m || !a->temperature_K || !a->pressure_Pa || !a->density_kg_m3 || !a->h2o_mole_fraction ||
-        !a->n2_per_s2 || !a->sp)
+        !a->n2_per_s2 || !a->molar_mass_kg_kmol || !a->sp)
         SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere: cannot allocate %zu levels", n);
     a->sp->log_pressure_Pa = calloc(n, sizeof(double));
     if (!a->sp->log_pressure_Pa)
@@ -507,23 +762,70 @@ static int alloc_levels(sl_atmosphere *a, size_t n, sl_err *e)
     return SL_OK;
 }
 
+/* Sign as GSL's steffen_copysign(1.0, y): +1 for y >= 0 (also -0), -1 below. */
+static double steffen_sign(double y)
+{
+    return y < 0.0 ? -1.0 : 1.0;
+}
+
+/* Steffen (1990) coefficients of Y on the levels of A into COEF + OFF (stride
+ * SPL_STRIDE), in GSL's order of operations (gsl_interp_steffen, steffen.c),
+ * so values agree with the library bit for bit.  YP: n scratch doubles. */
+static void steffen_coefficients(const double *x, const double *y, size_t n, double *yp, double *coef, int off)
+{
+    yp[0] = (y[1] - y[0]) / (x[1] - x[0]);
+    for (size_t i = 1; i + 1 < n; i++) {
+        const double hi = x[i + 1] - x[i], him1 = x[i] - x[i - 1];
+        const double si = (y[i + 1] - y[i]) / hi, sim1 = (y[i] - y[i - 1]) / him1;
+        const double pi = (sim1 * hi + si * him1) / (him1 + hi);
+        yp[i] = (steffen_sign(sim1) + steffen_sign(si)) * fmin(fabs(sim1), fmin(fabs(si), 0.5 * fabs(pi)));
+    }
+    yp[n - 1] = (y[n - 1] - y[n - 2]) / (x[n - 1] - x[n - 2]);
+    for (size_t i = 0; i + 1 < n; i++) {
+        const double hi = x[i + 1] - x[i];
+        const double si = (y[i + 1] - y[i]) / hi;
+        double *c = coef + i * SPL_STRIDE + off;
+        c[0] = (yp[i] + yp[i + 1] - 2 * si) / hi / hi;
+        c[1] = (3 * si - 2 * yp[i] - yp[i + 1]) / hi;
+        c[2] = yp[i];
+        c[3] = y[i];
+    }
+}
+
 static int build_splines(sl_atmosphere *a, sl_err *e)
 {
     struct sl_atmosphere_splines *sp = a->sp;
     for (size_t i = 0; i < a->n; i++)
         sp->log_pressure_Pa[i] = log(a->pressure_Pa[i]);
-    sp->temperature = gsl_interp_alloc(gsl_interp_steffen, a->n);
-    sp->log_pressure = gsl_interp_alloc(gsl_interp_steffen, a->n);
-    sp->h2o = gsl_interp_alloc(gsl_interp_steffen, a->n);
-    if (!sp->temperature || !sp->log_pressure || !sp->h2o)
+    sp->coef = malloc((a->n - 1) * SPL_STRIDE * sizeof(double));
+    double *yp = malloc(a->n * sizeof(double));
+    if (!sp->coef || !yp) {
+        free(yp);
         SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere '%s': cannot allocate interpolants", a->name);
-    int s = gsl_interp_init(sp->temperature, a->altitude_m, a->temperature_K, a->n);
-    if (s == GSL_SUCCESS)
-        s = gsl_interp_init(sp->log_pressure, a->altitude_m, sp->log_pressure_Pa, a->n);
-    if (s == GSL_SUCCESS)
-        s = gsl_interp_init(sp->h2o, a->altitude_m, a->h2o_mole_fraction, a->n);
-    if (s != GSL_SUCCESS)
-        SL_FAIL_RETURN(e, SL_EINTERNAL, "atmosphere '%s': spline set-up failed: %s", a->name, gsl_strerror(s));
+    }
+    steffen_coefficients(a->altitude_m, a->temperature_K, a->n, yp, sp->coef, SPL_T);
+    steffen_coefficients(a->altitude_m, sp->log_pressure_Pa, a->n, yp, sp->coef, SPL_LNP);
+    steffen_coefficients(a->altitude_m, a->h2o_mole_fraction, a->n, yp, sp->coef, SPL_X);
+    steffen_coefficients(a->altitude_m, a->molar_mass_kg_kmol, a->n, yp, sp->coef, SPL_M);
+    free(yp);
+    /* Four cells per mean level spacing. */
+    const double z0 = a->altitude_m[0], span = a->altitude_m[a->n - 1] - z0;
+    sp->n_lut = 4 * a->n;
+    sp->lut_inv_dz_m = (double)sp->n_lut / span;
+    sp->lut = malloc((sp->n_lut + 1) * sizeof(size_t));
+    if (!sp->lut)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere '%s': cannot allocate interpolants", a->name);
+    for (size_t k = 0, i = 0; k <= sp->n_lut; k++) {
+        const double zk = z0 + span * ((double)k / (double)sp->n_lut);
+        while (i + 2 < a->n && a->altitude_m[i + 1] <= zk)
+            i++;
+        sp->lut[k] = i;
+    }
+    for (size_t i = 0; i + 1 < a->n; i++)
+        for (int k = 0; k < SPL_STRIDE; k++)
+            if (!isfinite(sp->coef[i * SPL_STRIDE + k]))
+                SL_FAIL_RETURN(e, SL_EDATA, "atmosphere '%s': interpolation between levels %zu and %zu is not finite",
+                               a->name, i + 1, i + 2);
     return SL_OK;
 }
 
@@ -532,9 +834,39 @@ static void copy_str(char *dst, size_t cap, const char *src)
     snprintf(dst, cap, "%s", src ? src : "");
 }
 
+/* Dry-air molar mass at the levels: MOLAR_MASS when given, else M0 below
+ * 80 km and, when USSA_COMPOSITION, the standard's mean molar mass above (the
+ * composition of the air above the homopause follows the standard), else M0. */
+static int fill_molar_mass(sl_atmosphere *atm, const double *molar_mass, int ussa_composition, sl_err *e)
+{
+    const size_t n = atm->n;
+    if (molar_mass) {
+        for (size_t i = 0; i < n; i++)
+            if (!(molar_mass[i] > 1.0 && molar_mass[i] <= 50.0))
+                SL_FAIL_RETURN(e, SL_EDATA, "atmosphere '%s': level %zu: molar mass %g kg/kmol is not within 1 to 50",
+                               atm->name, i + 1, molar_mass[i]);
+        memcpy(atm->molar_mass_kg_kmol, molar_mass, n * sizeof(double));
+        return SL_OK;
+    }
+    size_t i0 = 0;
+    for (size_t i = 0; i < n; i++) {
+        atm->molar_mass_kg_kmol[i] = SL_USSA_M0_KG_KMOL;
+        if (atm->altitude_m[i] <= 80000.0)
+            i0 = i + 1;
+    }
+    if (!ussa_composition || i0 == n)
+        return SL_OK;
+    if (atm->altitude_m[n - 1] > USSA_TOP_M)
+        SL_FAIL_RETURN(e, SL_EDATA, "atmosphere '%s': levels above %.0f km (the top of the standard's composition)",
+                       atm->name, USSA_TOP_M * 1e-3);
+    SL_TRY_RETURN(e, ussa_profile(n - i0, atm->altitude_m + i0, NULL, NULL, NULL, atm->molar_mass_kg_kmol + i0, e));
+    return SL_OK;
+}
+
 static int build_body(sl_atmosphere *atm, const char *name, const char *source, size_t n,
                       const double *altitude_m, const double *temperature_K, const double *pressure_Pa,
-                      const double *h2o_mole_fraction, int water_mode, sl_err *e)
+                      const double *h2o_mole_fraction, int water_mode, const double *molar_mass,
+                      int ussa_composition, sl_err *e)
 {
     const char *nm = name ? name : "profile";
     if (n < 3)
@@ -575,6 +907,8 @@ static int build_body(sl_atmosphere *atm, const char *name, const char *source, 
     SL_TRY_RETURN(e, alloc_levels(atm, n, e));
     memcpy(atm->altitude_m, altitude_m, n * sizeof(double));
     memcpy(atm->temperature_K, temperature_K, n * sizeof(double));
+    SL_TRY_RETURN(e, fill_molar_mass(atm, molar_mass, ussa_composition, e));
+    const double *mm = atm->molar_mass_kg_kmol;
 
     water_src ws = {0, NULL, h2o_mole_fraction};
     if (h2o_mole_fraction) {
@@ -587,14 +921,15 @@ static int build_body(sl_atmosphere *atm, const char *name, const char *source, 
         atm->pressure_Pa[0] = SL_USSA_P0_PA;
         /* Dry first when the water model needs the tropopause (it needs p). */
         water_src dry = {0, NULL, NULL};
-        integrate_pressure(n, atm->altitude_m, atm->temperature_K, ws.mode == 2 ? &ws : &dry, atm->pressure_Pa);
+        integrate_pressure(n, atm->altitude_m, atm->temperature_K, mm, ws.mode == 2 ? &ws : &dry,
+                           atm->pressure_Pa);
     }
     if (!h2o_mole_fraction && water_mode == SL_ATM_WATER_BACKGROUND) {
         find_markers(atm);
         water_ctx ctx = {atm->pressure_Pa[0], atm->tropopause_altitude_m, atm->stratopause_altitude_m};
         if (!pressure_Pa) { /* moist hydrostatics with the model water, markers again */
             water_src bg = {1, &ctx, NULL};
-            integrate_pressure(n, atm->altitude_m, atm->temperature_K, &bg, atm->pressure_Pa);
+            integrate_pressure(n, atm->altitude_m, atm->temperature_K, mm, &bg, atm->pressure_Pa);
             find_markers(atm);
             ctx.tropopause_m = atm->tropopause_altitude_m;
             ctx.stratopause_m = atm->stratopause_altitude_m;
@@ -604,8 +939,8 @@ static int build_body(sl_atmosphere *atm, const char *name, const char *source, 
                 background_h2o(&ctx, atm->altitude_m[i], atm->temperature_K[i], atm->pressure_Pa[i]);
     }
     for (size_t i = 0; i < n; i++)
-        atm->density_kg_m3[i] =
-            sl_water_moist_air_density_kg_m3(atm->pressure_Pa[i], atm->temperature_K[i], atm->h2o_mole_fraction[i]);
+        atm->density_kg_m3[i] = moist_density(atm->pressure_Pa[i], atm->temperature_K[i], atm->h2o_mole_fraction[i],
+                                              mm[i] / SL_USSA_M0_KG_KMOL);
     SL_TRY_RETURN(e, build_splines(atm, e));
     for (size_t i = 0; i < n; i++) {
         sl_atmos_state s;
@@ -617,14 +952,29 @@ static int build_body(sl_atmosphere *atm, const char *name, const char *source, 
     return SL_OK;
 }
 
-int sl_atmosphere_build_(sl_atmosphere *atm, const char *name, const char *source, size_t n,
-                         const double *altitude_m, const double *temperature_K, const double *pressure_Pa,
-                         const double *h2o_mole_fraction, int water_mode, sl_err *e)
+static int build_full(sl_atmosphere *atm, const char *name, const char *source, size_t n,
+                      const double *altitude_m, const double *temperature_K, const double *pressure_Pa,
+                      const double *h2o_mole_fraction, int water_mode, const double *molar_mass,
+                      int ussa_composition, sl_err *e)
 {
     /* On failure nothing stays allocated: ATM is left zeroed. */
     memset(atm, 0, sizeof *atm);
     const int rc = build_body(atm, name, source, n, altitude_m, temperature_K, pressure_Pa, h2o_mole_fraction,
-                              water_mode, e);
+                              water_mode, molar_mass, ussa_composition, e);
+    if (rc != SL_OK) {
+        sl_atmosphere_free(atm);
+        return sl_err_push(e, rc, __func__, __LINE__);
+    }
+    atm->join_altitude_m = NAN;
+    return SL_OK;
+}
+
+int sl_atmosphere_build_(sl_atmosphere *atm, const char *name, const char *source, size_t n,
+                         const double *altitude_m, const double *temperature_K, const double *pressure_Pa,
+                         const double *h2o_mole_fraction, int water_mode, sl_err *e)
+{
+    const int rc = build_full(atm, name, source, n, altitude_m, temperature_K, pressure_Pa, h2o_mole_fraction,
+                              water_mode, NULL, 1, e);
     if (rc != SL_OK) {
         sl_atmosphere_free(atm);
         return sl_err_push(e, rc, __func__, __LINE__);
@@ -640,8 +990,8 @@ int sl_atmosphere_init_levels(sl_atmosphere *atm, const char *name, size_t n, co
     snprintf(source, sizeof source, "%zu levels given by the caller%s%s", n,
              pressure_Pa_or_NULL ? "" : ", pressure hydrostatic from 101325 Pa",
              h2o_mole_fraction_or_NULL ? "" : ", dry");
-    SL_TRY_RETURN(e, sl_atmosphere_build_(atm, name, source, n, altitude_m, temperature_K, pressure_Pa_or_NULL,
-                                          h2o_mole_fraction_or_NULL, SL_ATM_WATER_DRY, e));
+    SL_TRY_RETURN(e, build_full(atm, name, source, n, altitude_m, temperature_K, pressure_Pa_or_NULL,
+                                h2o_mole_fraction_or_NULL, SL_ATM_WATER_DRY, NULL, 0, e));
     return SL_OK;
 }
 
@@ -653,53 +1003,63 @@ static int cmp_double(const void *a, const void *b)
     return (x > y) - (x < y);
 }
 
-/* The built-in level grid: every 250 m from 0 to 120 km plus the KINKS (joints
- * of the defining segments), so the splines bend only next to a joint. */
+/* The built-in level grid: every 250 m to 150 km, 1 km to 300 km and 5 km to
+ * 1000 km, plus the KINKS (joints of the defining segments), so the splines
+ * bend only next to a joint. */
 static int builtin_grid(const double *kinks, size_t nk, double **z_out, size_t *n_out, sl_err *e)
 {
-    const size_t ng = (size_t)(BUILTIN_TOP_M / BUILTIN_STEP_M) + 1;
+    const size_t ng = 600 + 150 + 140 + 1;
     double *z = malloc((ng + nk) * sizeof(double));
     if (!z)
         SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere: cannot allocate the level grid");
-    for (size_t i = 0; i < ng; i++)
-        z[i] = i * BUILTIN_STEP_M;
-    for (size_t k = 0; k < nk; k++)
-        z[ng + k] = kinks[k];
-    qsort(z, ng + nk, sizeof(double), cmp_double);
     size_t m = 0;
-    for (size_t i = 0; i < ng + nk; i++)
-        if (m == 0 || z[i] - z[m - 1] > 1e-6)
-            z[m++] = z[i];
+    for (size_t i = 0; i < 600; i++)
+        z[m++] = i * 250.0;
+    for (size_t i = 0; i < 150; i++)
+        z[m++] = 150000.0 + i * 1000.0;
+    for (size_t i = 0; i <= 140; i++)
+        z[m++] = 300000.0 + i * 5000.0;
+    for (size_t k = 0; k < nk; k++)
+        z[m++] = kinks[k];
+    qsort(z, m, sizeof(double), cmp_double);
+    size_t u = 0;
+    for (size_t i = 0; i < m; i++)
+        if (u == 0 || z[i] - z[u - 1] > 1e-6)
+            z[u++] = z[i];
     *z_out = z;
-    *n_out = m;
+    *n_out = u;
     return SL_OK;
 }
 
-static int init_us1976(sl_atmosphere *atm, sl_err *e)
+/* us1976 (HUMID 0): the dry standard, T, p, rho and M exactly as the standard
+ * defines them.  us1976-humid: the same temperature and pressure with the
+ * background water model (the moist density is then 0.5 % lower at sea level). */
+static int init_us1976(sl_atmosphere *atm, int humid, sl_err *e)
 {
     double kinks[7];
     for (int k = 1; k < 7; k++) /* geometric altitudes of the geopotential layer bases */
         kinks[k - 1] = SL_USSA_R0_M * ussa_hb_m[k] / (SL_USSA_R0_M - ussa_hb_m[k]);
     kinks[6] = 80000.0;
-    double *z = NULL, *t = NULL, *p = NULL;
+    double *z = NULL, *buf = NULL;
     size_t n = 0;
     int rc = builtin_grid(kinks, 7, &z, &n, e);
     if (rc == SL_OK) {
-        t = malloc(n * sizeof(double));
-        p = malloc(n * sizeof(double));
-        if (!t || !p)
+        buf = malloc(3 * n * sizeof(double));
+        if (!buf)
             rc = sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "atmosphere: cannot allocate us1976 levels");
     }
-    for (size_t i = 0; rc == SL_OK && i < n; i++)
-        rc = sl_atmosphere_us1976(z[i], &t[i], &p[i], NULL, e);
     if (rc == SL_OK)
-        rc = sl_atmosphere_build_(atm, "us1976",
-                                  "U.S. Standard Atmosphere 1976 (NOAA-S/T 76-1562) from its defining constants "
-                                  "to 86 km, steamloft hydrostatic extension to 120 km; background water model",
-                                  n, z, t, p, NULL, SL_ATM_WATER_BACKGROUND, e);
+        rc = ussa_profile(n, z, buf, buf + n, NULL, buf + 2 * n, e);
+    if (rc == SL_OK)
+        rc = build_full(atm, humid ? "us1976-humid" : "us1976",
+                        humid ? "U.S. Standard Atmosphere 1976 (NOAA-S/T 76-1562) temperature and pressure, "
+                                "0-1000 km, from its defining constants and layers; steamloft background water model"
+                              : "U.S. Standard Atmosphere 1976 (NOAA-S/T 76-1562), dry, 0-1000 km, from its defining "
+                                "constants, layers and (above 86 km) species diffusion equations",
+                        n, z, buf, buf + n, NULL, humid ? SL_ATM_WATER_BACKGROUND : SL_ATM_WATER_DRY, buf + 2 * n, 0,
+                        e);
     free(z);
-    free(t);
-    free(p);
+    free(buf);
     return rc == SL_OK ? SL_OK : sl_err_push(e, rc, __func__, __LINE__);
 }
 
@@ -712,29 +1072,33 @@ static int init_zone(sl_atmosphere *atm, const zone_def *zd, sl_err *e)
     double *z = NULL, *t = NULL;
     size_t n = 0;
     SL_TRY_RETURN(e, builtin_grid(kinks, nk, &z, &n, e));
-    t = malloc(n * sizeof(double));
-    if (!t) {
+    double *buf = malloc(3 * n * sizeof(double));
+    if (!buf) {
         free(z);
         SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere: cannot allocate %s levels", zd->name);
     }
+    t = buf;
+    double *p = buf + n, *mm = buf + 2 * n;
     for (size_t i = 0; i < n; i++)
         t[i] = zone_temperature(zd, z[i]);
     char source[256];
     snprintf(source, sizeof source,
              "steamloft climate-zone profile: piecewise-linear temperature through AFGL 1986 "
-             "(AFGL-TR-86-0110) nodes, hydrostatic from %.0f Pa; background water model",
+             "(AFGL-TR-86-0110) nodes to 120 km, USSA76 thermosphere form to 1000 km, hydrostatic from %.0f Pa "
+             "with the USSA76 molar mass; background water model",
              zd->surface_pressure_Pa);
-    /* Integrate from the zone's surface pressure: build_ starts from 101325 Pa
-     * when given no pressure, so integrate here and pass the result. */
-    double *p = malloc(n * sizeof(double));
-    int rc = p ? SL_OK : sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "atmosphere: cannot allocate levels");
+    /* Composition (dry molar mass) of the standard at the zone's levels. */
+    size_t i0 = 0;
+    while (i0 < n && z[i0] <= 80000.0)
+        mm[i0++] = SL_USSA_M0_KG_KMOL;
+    int rc = ussa_profile(n - i0, z + i0, NULL, NULL, NULL, mm + i0, e);
     if (rc == SL_OK) {
         sl_atmosphere tmp;
         memset(&tmp, 0, sizeof tmp);
         /* Pass 1: dry hydrostatics for the markers the water model needs. */
         p[0] = zd->surface_pressure_Pa;
         water_src dry = {0, NULL, NULL};
-        integrate_pressure(n, z, t, &dry, p);
+        integrate_pressure(n, z, t, mm, &dry, p);
         tmp.n = n;
         tmp.altitude_m = z;
         tmp.temperature_K = t;
@@ -743,12 +1107,113 @@ static int init_zone(sl_atmosphere *atm, const zone_def *zd, sl_err *e)
         /* Pass 2: moist hydrostatics with the background water. */
         water_ctx ctx = {zd->surface_pressure_Pa, tmp.tropopause_altitude_m, tmp.stratopause_altitude_m};
         water_src bg = {1, &ctx, NULL};
-        integrate_pressure(n, z, t, &bg, p);
-        rc = sl_atmosphere_build_(atm, zd->name, source, n, z, t, p, NULL, SL_ATM_WATER_BACKGROUND, e);
+        integrate_pressure(n, z, t, mm, &bg, p);
+        rc = build_full(atm, zd->name, source, n, z, t, p, NULL, SL_ATM_WATER_BACKGROUND, mm, 0, e);
     }
     free(z);
-    free(t);
-    free(p);
+    free(buf);
+    return rc == SL_OK ? SL_OK : sl_err_push(e, rc, __func__, __LINE__);
+}
+
+/* ---- low user columns joined onto a climate zone ------------------------
+ *
+ * A profile file that ends below the built-in top (1000 km) -- a reanalysis
+ * column ending at 1 hPa, about 48 km, say -- is continued upward with the
+ * climate-zone profile whose temperatures match the column best (least RMS
+ * difference at the column's own levels), so that nothing downstream depends
+ * on where the file ends.  The join is smooth: above the column's top z_j
+ * the temperature is the zone's plus the offset at z_j fading linearly to
+ * zero over JOIN_BLEND_M; the water is the zone's times the ratio at z_j,
+ * fading to 1 the same way; the pressure is integrated hydrostatically
+ * upward from the column's top pressure (moist air, the standard's molar
+ * mass above 80 km), so p is continuous and in hydrostatic balance across the
+ * join.  join_altitude_m and the source line record it. */
+#define JOIN_BLEND_M 10000.0
+
+static int join_low_column(sl_atmosphere *atm, sl_err *e)
+{
+    const size_t nu = atm->n;
+    const double zj = atm->altitude_m[nu - 1];
+    if (!(zj < BUILTIN_TOP_M - 1.0))
+        return SL_OK;
+    size_t best = 0;
+    double best_rms = INFINITY;
+    for (size_t k = 0; k < sizeof zones / sizeof zones[0]; k++) {
+        double sum = 0.0;
+        for (size_t i = 0; i < nu; i++) {
+            const double d = atm->temperature_K[i] - zone_temperature(&zones[k], atm->altitude_m[i]);
+            sum += d * d;
+        }
+        if (sum < best_rms) {
+            best_rms = sum;
+            best = k;
+        }
+    }
+    best_rms = sqrt(best_rms / (double)nu);
+    sl_atmosphere zone;
+    SL_TRY_RETURN(e, init_zone(&zone, &zones[best], e));
+    size_t k0 = 0;
+    while (k0 < zone.n && zone.altitude_m[k0] <= zj + 1.0)
+        k0++;
+    const size_t n = nu + (zone.n - k0);
+    double *buf = malloc(4 * n * sizeof(double));
+    if (!buf) {
+        sl_atmosphere_free(&zone);
+        SL_FAIL_RETURN(e, SL_ENOMEM, "atmosphere '%s': out of memory joining the profile", atm->name);
+    }
+    double *z = buf, *t = buf + n, *p = buf + 2 * n, *x = buf + 3 * n;
+    memcpy(z, atm->altitude_m, nu * sizeof(double));
+    memcpy(t, atm->temperature_K, nu * sizeof(double));
+    memcpy(p, atm->pressure_Pa, nu * sizeof(double));
+    memcpy(x, atm->h2o_mole_fraction, nu * sizeof(double));
+    sl_atmos_state zs;
+    int rc = sl_atmosphere_state(&zone, zj, NULL, &zs, e);
+    const double dt = atm->temperature_K[nu - 1] - zs.temperature_K;
+    const double ratio = zs.h2o_mole_fraction > 0.0 ? atm->h2o_mole_fraction[nu - 1] / zs.h2o_mole_fraction : 1.0;
+    for (size_t k = k0, i = nu; rc == SL_OK && k < zone.n; k++, i++) {
+        const double w = fmax(0.0, 1.0 - (zone.altitude_m[k] - zj) / JOIN_BLEND_M);
+        z[i] = zone.altitude_m[k];
+        t[i] = zone.temperature_K[k] + dt * w;
+        x[i] = zone.h2o_mole_fraction[k] * (1.0 + (ratio - 1.0) * w);
+    }
+    /* Hydrostatic pressure from the column's top level upward. */
+    double *mm = NULL;
+    if (rc == SL_OK) {
+        mm = malloc((n - nu + 1) * sizeof(double));
+        if (!mm)
+            rc = sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "atmosphere: out of memory joining the profile");
+    }
+    if (rc == SL_OK) {
+        const double *zu = z + nu - 1;
+        const size_t m = n - nu + 1;
+        size_t i0 = 0;
+        while (i0 < m && zu[i0] <= 80000.0)
+            mm[i0++] = SL_USSA_M0_KG_KMOL;
+        rc = ussa_profile(m - i0, zu + i0, NULL, NULL, NULL, mm + i0, e);
+        if (rc == SL_OK) {
+            water_src ws = {2, NULL, x + nu - 1};
+            integrate_pressure(m, zu, t + nu - 1, mm, &ws, p + nu - 1);
+        }
+    }
+    if (rc == SL_OK) {
+        char suffix[128], source[256];
+        snprintf(suffix, sizeof suffix, "; joined at %.6g km onto %s (best match, RMS %.2g K; offset %.3g K over %.0f km)",
+                 zj * 1e-3, zones[best].name, best_rms, dt, JOIN_BLEND_M * 1e-3);
+        snprintf(source, sizeof source, "%.*s%s", (int)(sizeof source - 1 - strlen(suffix)), atm->source, suffix);
+        char name[64];
+        snprintf(name, sizeof name, "%s", atm->name);
+        sl_atmosphere joined;
+        rc = build_full(&joined, name, source, n, z, t, p, x, SL_ATM_WATER_DRY, NULL, 1, e);
+        if (rc == SL_OK) {
+            joined.join_altitude_m = zj;
+            snprintf(joined.joined_onto, sizeof joined.joined_onto, "%s", zones[best].name);
+            sl_atmosphere_free(atm);
+            *atm = joined;
+        }
+    }
+    free(mm);
+    free(buf);
+    sl_atmosphere_free(&zone);
     return rc == SL_OK ? SL_OK : sl_err_push(e, rc, __func__, __LINE__);
 }
 
@@ -771,8 +1236,8 @@ int sl_atmosphere_init(sl_atmosphere *atm, const char *name_or_path, sl_err *e)
     if (!atm || !name_or_path)
         SL_FAIL_RETURN(e, SL_EINTERNAL, "sl_atmosphere_init: NULL argument");
     memset(atm, 0, sizeof *atm);
-    if (strcmp(name_or_path, "us1976") == 0) {
-        SL_TRY_RETURN(e, init_us1976(atm, e));
+    if (strcmp(name_or_path, "us1976") == 0 || strcmp(name_or_path, "us1976-humid") == 0) {
+        SL_TRY_RETURN(e, init_us1976(atm, name_or_path[6] == '-', e));
         return SL_OK;
     }
     for (size_t k = 0; k < sizeof zones / sizeof zones[0]; k++)
@@ -783,51 +1248,142 @@ int sl_atmosphere_init(sl_atmosphere *atm, const char *name_or_path, sl_err *e)
     int is_nc = 0;
     if (looks_like_netcdf(name_or_path, &is_nc) != 0)
         SL_FAIL_RETURN(e, SL_ENOINPUT,
-                       "atmosphere '%s' is neither a built-in profile (us1976, tropical, midlatitude-summer, "
+                       "atmosphere '%s' is neither a built-in profile (us1976, us1976-humid, tropical, midlatitude-summer, "
                        "midlatitude-winter, subarctic-summer, subarctic-winter) nor a readable file",
                        name_or_path);
     if (is_nc)
         SL_TRY_RETURN(e, sl_atmosphere_read_netcdf_(atm, name_or_path, e));
     else
         SL_TRY_RETURN(e, sl_atmosphere_read_text_(atm, name_or_path, e));
+    const int rc = join_low_column(atm, e);
+    if (rc != SL_OK) {
+        sl_atmosphere_free(atm);
+        return sl_err_push(e, rc, __func__, __LINE__);
+    }
     return SL_OK;
 }
 
 /* ---- queries ------------------------------------------------------------ */
 
-int sl_atmosphere_at(const sl_atmosphere *atm, double altitude_m, sl_atmos_state *out, sl_err *e)
+/* Index i of the level interval holding Z (z_i <= Z < z_(i+1); the top level
+ * belongs to the last interval), the interval gsl_interp_bsearch finds: the
+ * cursor's interval if it still holds Z, else a walk up from the look-up
+ * table's cell.  Z is inside the profile (check_query). */
+static size_t find_interval(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur)
 {
-    if (!atm || !atm->sp || !atm->sp->temperature || atm->n < 3)
-        SL_FAIL_RETURN(e, SL_EINTERNAL, "sl_atmosphere_at: profile not initialised");
+    const double *za = atm->altitude_m;
+    const size_t n = atm->n;
+    if (cur) {
+        const size_t i = cur->interval;
+        if (i + 1 < n && z >= za[i] && (z < za[i + 1] || i + 2 == n))
+            return i;
+    }
+    const struct sl_atmosphere_splines *sp = atm->sp;
+    size_t k = (size_t)((z - za[0]) * sp->lut_inv_dz_m);
+    if (k > sp->n_lut)
+        k = sp->n_lut;
+    size_t i = sp->lut[k];
+    /* Rounding of the cell edge can put the table's interval one above Z. */
+    while (i > 0 && z < za[i])
+        i--;
+    while (i + 2 < n && z >= za[i + 1])
+        i++;
+    if (cur)
+        cur->interval = i;
+    return i;
+}
+
+static int check_query(const sl_atmosphere *atm, double altitude_m, sl_err *e)
+{
+    if (!atm || !atm->sp || !atm->sp->coef || atm->n < 3)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "atmosphere query: profile not initialised");
     const double *za = atm->altitude_m;
     if (!(altitude_m >= za[0] && altitude_m <= za[atm->n - 1]))
         SL_FAIL_RETURN(e, SL_EDATA, "altitude %.6g m is outside atmosphere profile '%s' (%.6g to %.6g m)",
                        altitude_m, atm->name, za[0], za[atm->n - 1]);
-    const struct sl_atmosphere_splines *sp = atm->sp;
-    /* A stack accelerator: the first evaluation does the binary search, the
-     * others reuse its interval; nothing is shared, nothing allocated. */
-    gsl_interp_accel acc = {0, 0, 0};
-    double t, dtdz, lp, x;
-    int s = gsl_interp_eval_e(sp->temperature, za, atm->temperature_K, altitude_m, &acc, &t);
-    if (s == GSL_SUCCESS)
-        s = gsl_interp_eval_deriv_e(sp->temperature, za, atm->temperature_K, altitude_m, &acc, &dtdz);
-    if (s == GSL_SUCCESS)
-        s = gsl_interp_eval_e(sp->log_pressure, za, sp->log_pressure_Pa, altitude_m, &acc, &lp);
-    if (s == GSL_SUCCESS)
-        s = gsl_interp_eval_e(sp->h2o, za, atm->h2o_mole_fraction, altitude_m, &acc, &x);
-    if (s != GSL_SUCCESS)
-        SL_FAIL_RETURN(e, SL_ENUMERIC, "atmosphere '%s' at %.6g m: interpolation failed: %s", atm->name,
-                       altitude_m, gsl_strerror(s));
+    return SL_OK;
+}
+
+/* Interpolated T, ln p and x (and dT/dz when DTDZ is not NULL) at Z. */
+static void eval_tpx(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur, double *t, double *lp, double *x,
+                     double *mr, double *dtdz)
+{
+    const size_t i = find_interval(atm, z, cur);
+    const double dz = z - atm->altitude_m[i];
+    const double *c = atm->sp->coef + i * SPL_STRIDE;
+    *t = c[SPL_T + 3] + dz * (c[SPL_T + 2] + dz * (c[SPL_T + 1] + dz * c[SPL_T]));
+    *lp = c[SPL_LNP + 3] + dz * (c[SPL_LNP + 2] + dz * (c[SPL_LNP + 1] + dz * c[SPL_LNP]));
+    *x = c[SPL_X + 3] + dz * (c[SPL_X + 2] + dz * (c[SPL_X + 1] + dz * c[SPL_X]));
+    *mr = (c[SPL_M + 3] + dz * (c[SPL_M + 2] + dz * (c[SPL_M + 1] + dz * c[SPL_M]))) / SL_USSA_M0_KG_KMOL;
+    if (dtdz)
+        *dtdz = c[SPL_T + 2] + dz * (2 * c[SPL_T + 1] + dz * 3 * c[SPL_T]);
+}
+
+int sl_atmosphere_density(const sl_atmosphere *atm, double altitude_m, sl_atmos_cursor *cur,
+                          double *density_kg_m3, sl_err *e)
+{
+    SL_TRY_RETURN(e, check_query(atm, altitude_m, e));
+    double t, lp, x, mr;
+    eval_tpx(atm, altitude_m, cur, &t, &lp, &x, &mr, NULL);
+    *density_kg_m3 = moist_density(exp(lp), t, x, mr);
+    return SL_OK;
+}
+
+int sl_atmosphere_state(const sl_atmosphere *atm, double altitude_m, sl_atmos_cursor *cur, sl_atmos_state *out,
+                        sl_err *e)
+{
+    SL_TRY_RETURN(e, check_query(atm, altitude_m, e));
+    double t, dtdz, lp, x, mr;
+    eval_tpx(atm, altitude_m, cur, &t, &lp, &x, &mr, &dtdz);
     const double p = exp(lp);
     const double g = sl_atmosphere_gravity_m_s2(altitude_m);
     out->altitude_m = altitude_m;
     out->temperature_K = t;
     out->pressure_Pa = p;
     out->h2o_mole_fraction = x;
-    out->density_kg_m3 = sl_water_moist_air_density_kg_m3(p, t, x);
+    out->density_kg_m3 = moist_density(p, t, x, mr);
     out->n2_per_s2 = g / t * (dtdz + g / SL_CP_DRY_AIR_J_KG_K);
-    out->ice_saturation_mole_fraction = sl_water_esat_ice_Pa(t) / p;
+    out->ice_saturation_mole_fraction = NAN;
     out->gravity_m_s2 = g;
+    return SL_OK;
+}
+
+int sl_atmosphere_altitude_of_pressure(const sl_atmosphere *atm, double pressure_Pa, double *altitude_m, sl_err *e)
+{
+    if (!atm || !atm->sp || !atm->sp->coef || atm->n < 3)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "atmosphere query: profile not initialised");
+    const double *p = atm->pressure_Pa;
+    const size_t n = atm->n;
+    if (!(pressure_Pa <= p[0] && pressure_Pa >= p[n - 1]))
+        SL_FAIL_RETURN(e, SL_EDATA, "pressure %.6g Pa is outside atmosphere profile '%s' (%.6g to %.6g Pa)",
+                       pressure_Pa, atm->name, p[n - 1], p[0]);
+    size_t lo = 0, hi = n - 1; /* p[lo] >= target >= p[hi] */
+    while (hi > lo + 1) {
+        const size_t mid = (lo + hi) / 2;
+        if (p[mid] >= pressure_Pa)
+            lo = mid;
+        else
+            hi = mid;
+    }
+    const double target = log(pressure_Pa);
+    double za = atm->altitude_m[lo], zb = atm->altitude_m[hi];
+    for (int it = 0; it < 200 && zb - za > 1e-9; it++) {
+        const double zm = 0.5 * (za + zb);
+        double t, lp, x, mr;
+        eval_tpx(atm, zm, NULL, &t, &lp, &x, &mr, NULL);
+        if (lp > target)
+            za = zm;
+        else
+            zb = zm;
+    }
+    *altitude_m = 0.5 * (za + zb);
+    return SL_OK;
+}
+
+int sl_atmosphere_at(const sl_atmosphere *atm, double altitude_m, sl_atmos_state *out, sl_err *e)
+{
+    SL_TRY_RETURN(e, sl_atmosphere_state(atm, altitude_m, NULL, out, e));
+    out->ice_saturation_mole_fraction = sl_water_esat_ice_Pa(out->temperature_K) / out->pressure_Pa;
     return SL_OK;
 }
 
@@ -836,9 +1392,8 @@ void sl_atmosphere_free(sl_atmosphere *atm)
     if (!atm)
         return;
     if (atm->sp) {
-        gsl_interp_free(atm->sp->temperature);
-        gsl_interp_free(atm->sp->log_pressure);
-        gsl_interp_free(atm->sp->h2o);
+        free(atm->sp->coef);
+        free(atm->sp->lut);
         free(atm->sp->log_pressure_Pa);
         free(atm->sp);
     }
@@ -848,5 +1403,6 @@ void sl_atmosphere_free(sl_atmosphere *atm)
     free(atm->density_kg_m3);
     free(atm->h2o_mole_fraction);
     free(atm->n2_per_s2);
+    free(atm->molar_mass_kg_kmol);
     memset(atm, 0, sizeof *atm);
 }

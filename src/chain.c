@@ -33,20 +33,21 @@ static double chain_clock_s(void)
 
 typedef struct air_ctx {
     const sl_atmosphere *atm;
+    sl_atmos_cursor cursor; /* search position of this run's entry (issue 14) */
 } air_ctx;
 
 static int atmosphere_density(void *ctx, double altitude_m, double *rho, sl_err *e)
 {
-    const sl_atmosphere *atm = ((const air_ctx *)ctx)->atm;
+    air_ctx *c = ctx;
+    const sl_atmosphere *atm = c->atm;
     double lo = atm->altitude_m[0], hi = atm->altitude_m[atm->n - 1];
-    double h = altitude_m < lo ? lo : (altitude_m > hi ? hi : altitude_m);
+    if (altitude_m >= lo && altitude_m <= hi) /* the common case: density only */
+        return sl_atmosphere_density(atm, altitude_m, &c->cursor, rho, e);
+    double h = altitude_m < lo ? lo : hi;
     sl_atmos_state s;
-    SL_TRY_RETURN(e, sl_atmosphere_at(atm, h, &s, e));
-    *rho = s.density_kg_m3;
-    if (h != altitude_m) {
-        double scale_m = SL_R_DRY_AIR_J_KG_K * s.temperature_K / s.gravity_m_s2;
-        *rho *= exp(-(altitude_m - h) / scale_m);
-    }
+    SL_TRY_RETURN(e, sl_atmosphere_state(atm, h, &c->cursor, &s, e));
+    double scale_m = SL_R_DRY_AIR_J_KG_K * s.temperature_K / s.gravity_m_s2;
+    *rho = s.density_kg_m3 * exp(-(altitude_m - h) / scale_m);
     return SL_OK;
 }
 
@@ -68,17 +69,37 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     const char *name = sl_scenario_text(sc, SL_P_SITE_ATMOSPHERE);
     if (ch->have_atmosphere && strcmp(ch->atmosphere_name, name) == 0)
         return SL_OK;
-    if (ch->have_atmosphere) {
-        sl_atmosphere_free(&ch->atmosphere);
+    if (ch->have_atmosphere) { /* a built-in is set aside, a file profile freed */
+        int slot = -1;
+        for (int i = 0; sl_atmosphere_builtin_names[i] && i < SL_ATMOSPHERE_MAX_BUILTINS; i++)
+            if (strcmp(ch->atmosphere_name, sl_atmosphere_builtin_names[i]) == 0)
+                slot = i;
+        if (slot >= 0 && !ch->have_builtin_cache[slot]) {
+            ch->builtin_cache[slot] = ch->atmosphere;
+            ch->have_builtin_cache[slot] = 1;
+            memset(&ch->atmosphere, 0, sizeof ch->atmosphere);
+        } else {
+            sl_atmosphere_free(&ch->atmosphere);
+        }
         ch->have_atmosphere = 0;
     }
+    int builtin = 0;
+    for (int i = 0; sl_atmosphere_builtin_names[i] && i < SL_ATMOSPHERE_MAX_BUILTINS; i++)
+        if (strcmp(name, sl_atmosphere_builtin_names[i]) == 0) {
+            builtin = 1;
+            if (ch->have_builtin_cache[i]) { /* taken back from the cache */
+                ch->atmosphere = ch->builtin_cache[i];
+                memset(&ch->builtin_cache[i], 0, sizeof ch->builtin_cache[i]);
+                ch->have_builtin_cache[i] = 0;
+                snprintf(ch->atmosphere_name, sizeof ch->atmosphere_name, "%s", name);
+                ch->have_atmosphere = 1;
+                return SL_OK;
+            }
+        }
     /* A relative profile path in a scenario file is looked for next to the
      * file first, then from the working directory. */
     char near[2 * SL_SCENARIO_PATH_LEN];
     const char *use = name;
-    int builtin = 0;
-    for (size_t i = 0; sl_atmosphere_builtin_names[i]; i++)
-        builtin |= strcmp(name, sl_atmosphere_builtin_names[i]) == 0;
     const char *slash = strrchr(sc->path, '/');
     if (!builtin && name[0] != '/' && slash != NULL && sc->line[SL_P_SITE_ATMOSPHERE] > 0) {
         snprintf(near, sizeof near, "%.*s/%s", (int)(slash - sc->path), sc->path, name);
@@ -190,6 +211,7 @@ int sl_chain_run(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         SL_FAIL_RETURN(e, SL_EINTERNAL, "chain: the scenario was not finished (sl_scenario_finish)");
     ch->scenario = *sc;
     ch->has_entry = 0;
+    sl_site_choose(sc, &ch->site);
     double t0 = chain_clock_s(), t1;
     SL_TRY_RETURN(e, load_atmosphere(sc, ch, e));
     const sl_atmosphere *atm = &ch->atmosphere;
@@ -203,7 +225,7 @@ int sl_chain_run(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     if (sc->kind == SL_SCENARIO_IMPACTOR) {
         sl_entry_params p;
         sl_entry_params_from_scenario(&p, sc);
-        air_ctx actx = {atm};
+        air_ctx actx = {atm, {0}};
         sl_entry_air air = {atmosphere_density, &actx};
         SL_TRY_RETURN(e, sl_entry_solve(&ch->entry, &p, &air, e));
         ch->has_entry = 1;
@@ -244,6 +266,9 @@ void sl_chain_free(sl_chain *ch)
     sl_entry_free(&ch->entry);
     if (ch->have_atmosphere)
         sl_atmosphere_free(&ch->atmosphere);
+    for (int i = 0; i < SL_ATMOSPHERE_MAX_BUILTINS; i++)
+        if (ch->have_builtin_cache[i])
+            sl_atmosphere_free(&ch->builtin_cache[i]);
     sl_partition_free(&ch->partition);
     sl_plume_free(&ch->plume);
     sl_injection_free(&ch->injection);

@@ -5,7 +5,9 @@
  *   steamloft atmos NAME|FILE                  the profile as a table (the text
  *                                              profile format; --csv for CSV,
  *                                              --json for JSON arrays)
- *   steamloft atmos --at ALTITUDE_M NAME|FILE  one level (text, --csv, --json)
+ *   steamloft atmos --at ALTITUDE_M NAME|FILE  one level (text, --csv, --json);
+ *                                              --at 10hPa / --at 1000Pa: the
+ *                                              level of that pressure
  *   steamloft atmos --summary NAME|FILE        tropopause, cold point,
  *                                              stratopause, stratospheric water
  *
@@ -30,7 +32,8 @@ static void usage(FILE *f)
 {
     fprintf(f,
             "Usage: steamloft atmos list\n"
-            "       steamloft atmos [--csv | --json] [--at ALTITUDE_M | --summary] NAME|FILE\n"
+            "       steamloft atmos [--csv | --json] [--at ALTITUDE_M | --at PRESSURE{hPa|Pa} |\n"
+            "                       --summary] NAME|FILE\n"
             "Print an atmosphere profile: a built-in one (see 'list') or a user file, either\n"
             "the text profile format of atmospheres/README.md or CF netCDF (variables found\n"
             "by standard_name: altitude or geopotential_height, air_temperature,\n"
@@ -43,6 +46,8 @@ static void usage(FILE *f)
             "\n"
             "Options:\n"
             "  --at ALTITUDE_M  print the state at one geometric altitude in metres\n"
+            "  --at PRESSURE    ... or at the level of a pressure, written with its unit\n"
+            "                   hPa or Pa (e.g. --at 10hPa, --at 1000Pa)\n"
             "  --summary        print tropopause (WMO lapse-rate rule), cold point,\n"
             "                   stratopause and the background stratospheric water\n"
             "                   (column between tropopause and stratopause, and the\n"
@@ -56,7 +61,8 @@ static void usage(FILE *f)
 }
 
 static const char *const builtin_about[] = {
-    "U.S. Standard Atmosphere 1976 from its defining constants, extended to 120 km",
+    "U.S. Standard Atmosphere 1976, dry, 0-1000 km, from its defining constants and equations",
+    "us1976 temperature and pressure with the steamloft background water (humid variant)",
     "tropical: AFGL 1986 tropopause 17 km 194.8 K, stratopause 50 km 270.2 K",
     "mid-latitude summer: tropopause 13 km 215.8 K, stratopause 50 km 275.7 K",
     "mid-latitude winter: tropopause 11 km 219.2 K, stratopause 50 km 265.7 K",
@@ -229,7 +235,7 @@ int sl_cmd_atmos(int argc, char **argv, const sl_cli_globals *g)
         case 'h': usage(stdout); return EX_OK;
         default:
             if (optopt == OPT_AT)
-                return sl_cli_usage_error(g, "atmos", "option '--at' needs an altitude in metres");
+                return sl_cli_usage_error(g, "atmos", "option '--at' needs an altitude in metres or a pressure (10hPa)");
             if (optopt)
                 return sl_cli_usage_error(g, "atmos", "unknown option '-%c'", optopt);
             return sl_cli_usage_error(g, "atmos", "unknown option '%s'", argv[optind - 1]);
@@ -245,8 +251,31 @@ int sl_cmd_atmos(int argc, char **argv, const sl_cli_globals *g)
         return sl_cli_usage_error(g, "atmos", "choose one of --at and --summary");
     sl_err e;
     sl_err_clear(&e);
-    if (have_at && sl_cli_parse_double(at_text, "--at ALTITUDE_M", &at_m, &e) != SL_OK)
-        return sl_cli_usage_error(g, "atmos", "%s", e.msg);
+    /* --at: an altitude in metres, or a pressure with its unit (hPa or Pa). */
+    double at_Pa = NAN;
+    if (have_at) {
+        size_t len = strlen(at_text);
+        const char *unit = NULL;
+        double factor = 1.0;
+        if (len > 3 && strcmp(at_text + len - 3, "hPa") == 0) {
+            unit = "hPa";
+            factor = 100.0;
+        } else if (len > 2 && strcmp(at_text + len - 2, "Pa") == 0) {
+            unit = "Pa";
+        }
+        if (unit) {
+            char num[64];
+            snprintf(num, sizeof num, "%.*s", (int)(len - strlen(unit)), at_text);
+            double v;
+            if (sl_cli_parse_double(num, "--at PRESSURE", &v, &e) != SL_OK || !(v > 0.0))
+                return sl_cli_usage_error(g, "atmos", "--at %s: the pressure must be a positive number of %s",
+                                          at_text, unit);
+            at_Pa = v * factor;
+        } else if (sl_cli_parse_double(at_text, "--at ALTITUDE_M (or a pressure with hPa or Pa)", &at_m, &e) !=
+                   SL_OK) {
+            return sl_cli_usage_error(g, "atmos", "%s", e.msg);
+        }
+    }
     const char *what = argv[optind];
 
     if (strcmp(what, "list") == 0) {
@@ -269,7 +298,10 @@ int sl_cmd_atmos(int argc, char **argv, const sl_cli_globals *g)
         int rc = sl_atmosphere_init(&atm, what, &e);
         if (rc == SL_OK && have_at) {
             sl_atmos_state s;
-            rc = sl_atmosphere_at(&atm, at_m, &s, &e);
+            if (isfinite(at_Pa))
+                rc = sl_atmosphere_altitude_of_pressure(&atm, at_Pa, &at_m, &e);
+            if (rc == SL_OK)
+                rc = sl_atmosphere_at(&atm, at_m, &s, &e);
             if (rc == SL_OK)
                 print_at(&s, csv, json);
         } else if (rc == SL_OK && summary) {

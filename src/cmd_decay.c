@@ -26,7 +26,7 @@
  * idealised mid-latitude annual mean, so it stands for both extratropical
  * regions (PRACTICE). */
 #define DEFAULT_TROPICS_ATMOSPHERE "tropical"
-#define DEFAULT_EXTRATROPICS_ATMOSPHERE "us1976"
+#define DEFAULT_EXTRATROPICS_ATMOSPHERE "us1976-humid"
 
 static void usage(FILE *out)
 {

@@ -41,7 +41,7 @@ static void print_default(const sl_param_def *d, sl_param_id id, char *buf, size
     else if (d->flags & SL_PF_OPTIONAL)
         snprintf(buf, n, "unset");
     else if (d->type == SL_PT_TEXT)
-        snprintf(buf, n, "us1976");
+        snprintf(buf, n, "us1976-humid");
     else if (d->type == SL_PT_CHOICE) {
         const char *bar = strchr(d->choices, '|');
         size_t wl = bar ? (size_t)(bar - d->choices) : strlen(d->choices);

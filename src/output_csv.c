@@ -85,6 +85,11 @@ static void write_background(FILE *fp, const sl_output_view *v)
     snprintf(buf, sizeof buf, "profile %s (%s); tropopause %.10g km", a->name,
              a->source[0] ? a->source : "no source given", sl_m_to_km(a->tropopause_altitude_m));
     comment(fp, buf);
+    if (isfinite(a->join_altitude_m)) { /* a low user column joined onto a climate zone (atmosphere.c) */
+        snprintf(buf, sizeof buf, "join_altitude_km %.10g: the profile file ends there; above it %s",
+                 sl_m_to_km(a->join_altitude_m), a->joined_onto);
+        comment(fp, buf);
+    }
     fputs("altitude_km,temperature_K,pressure_Pa,density_kg_m3,h2o_ppmv,n2_per_s2\n", fp);
     for (size_t i = 0; i < a->n; i++)
         fprintf(fp, "%.10g,%.10g,%.10g,%.10g,%.10g,%.10g\n", sl_m_to_km(a->altitude_m[i]),

@@ -416,6 +416,10 @@ static int atmosphere_vars(ncw *w, const sl_atmosphere *a, sl_err *e)
     SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "background_atmosphere", a->name, e));
     if (a->source[0])
         SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "background_atmosphere_source", a->source, e));
+    if (isfinite(a->join_altitude_m)) { /* a low user column joined onto a climate zone (atmosphere.c) */
+        SL_TRY_RETURN(e, att_double(w, NC_GLOBAL, "background_atmosphere_join_altitude_m", a->join_altitude_m, e));
+        SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "background_atmosphere_joined_onto", a->joined_onto, e));
+    }
     if (isfinite(a->strat_water_burden_kg) && a->strat_water_burden_kg > 0) {
         SL_TRY_RETURN(e, def_scalar(w, "background_stratospheric_water_mass", a->strat_water_burden_kg,
                                     NULL, "background water vapour in the stratosphere (global)",

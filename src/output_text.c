@@ -4,6 +4,7 @@
  * degrees) to three significant figures: the estimates are uncertain by far
  * more than that. */
 #include "steamloft/output_text.h"
+#include "steamloft/site.h"
 #include "steamloft/cli.h"
 #include "steamloft/units.h"
 
@@ -606,6 +607,9 @@ static void text_event(FILE *o, const sl_chain *ch, const sl_key_results *k, fmt
     row(o, "place", "%s %s, %s E, ocean %s m deep", f3(f, fabs(lat)), lat < 0 ? "S" : "N",
         f3(f, sc->value_si[SL_P_SITE_LONGITUDE] * 180.0 / SL_PI), f3(f, sc->value_si[SL_P_SITE_OCEAN_DEPTH]));
     row(o, "atmosphere, sea surface", "%s, %s K", ch->atmosphere.name, f3(f, sc->value_si[SL_P_SITE_SST]));
+    char site_line[640]; /* site-aware defaults and a low column's join (site.c) */
+    if (sl_site_describe(&ch->site, &ch->atmosphere, site_line, sizeof site_line))
+        row(o, "site defaults", "%s", site_line);
     if (detail) {
         int m = (int)lround(sc->value_si[SL_P_SITE_MONTH]);
         if (m > 0)
@@ -831,6 +835,9 @@ int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, int detail, 
     sl_report_string(&r, "kind", k.kind, "event");
     sl_report_string(&r, "validity", k.validity, "validity");
     sl_report_string(&r, "atmosphere", ch->atmosphere.name, "atmosphere");
+    char site_line[640]; /* site-aware defaults and a low column's join (site.c) */
+    if (sl_site_describe(&ch->site, &ch->atmosphere, site_line, sizeof site_line))
+        sl_report_string(&r, "site_defaults", site_line, "site defaults");
     double energy = ch->partition.energy_total_J;
     sl_report_number(&r, "energy_J", energy, "energy", 1.0, "J");
     sl_report_number(&r, "energy_Mt", energy / SL_J_PER_MT_TNT, "energy", 1.0, "Mt TNT");

@@ -149,6 +149,7 @@ struct sl_plume_work {
     double scale[NY];
     /* Context of the current rise (set before integrating). */
     const sl_atmosphere *atm;
+    sl_atmos_cursor atm_cursor; /* search position of the light atmosphere query */
     double k, alpha, v_fall;
     double lv0_J_kg, lf0_J_kg;
     double z_top_m;            /* stop: top of the atmosphere profile */
@@ -375,7 +376,7 @@ static int diagnose(sl_plume_work *w, const double *s, diag *d)
      * evolve retry with a shorter step (GSL_EBADFUNC would abort). */
     if (!isfinite(z) || !isfinite(Ma) || !isfinite(Mw) || !isfinite(H) || Ma <= 0.0 || Mw < 0.0)
         return GSL_EDOM;
-    int rc = sl_atmosphere_at(w->atm, zq, &d->amb, &w->rhs_err);
+    int rc = sl_atmosphere_state(w->atm, zq, &w->atm_cursor, &d->amb, &w->rhs_err); /* no ice saturation */
     if (rc != SL_OK) {
         w->rhs_failed = 1;
         return GSL_EBADFUNC;
@@ -688,6 +689,12 @@ static void finish_budget(sl_plume_work *w, sl_thermal *out, const double *s, co
     out->temperature_apex_K = d->T_K;
 }
 
+/* The thermal equations are followed to 120 km at most (the base of the
+ * thermosphere; the built-in profiles now reach 1000 km), so that a blow-out
+ * result does not depend on where the profile ends (atmosphere branch,
+ * issue 12; the ballistic regime replaces this stop). */
+#define THERMAL_TOP_M 120000.0
+
 int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, sl_thermal *out, sl_err *e)
 {
     if (pl == NULL || pl->work == NULL || atm == NULL || atm->n < 2 || src == NULL || out == NULL)
@@ -705,11 +712,12 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     SL_TRY_RETURN(e, source_state(src, &amb, &st, e));
 
     w->atm = atm;
+    w->atm_cursor.interval = 0;
     w->k = pl->par.added_mass_k;
     w->alpha = pl->par.entrainment_alpha;
     w->v_fall = pl->par.fallout_speed_m_s;
     w->z_bottom_m = zlo;
-    w->z_top_m = zhi;
+    w->z_top_m = fmin(zhi, THERMAL_TOP_M);
     w->rhs_failed = 0;
     w->T_guess = 0.0;
 
@@ -868,7 +876,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     if (out->regime == SL_REGIME_BLOWOUT) {
         if (!have_neutral)
             out->neutral_altitude_m = d.z_m;
-        out->top_altitude_m = fmin(out->top_altitude_m, zhi);
+        out->top_altitude_m = fmin(out->top_altitude_m, w->z_top_m);
         out->cloud_top_m = d.z_m;
         out->cloud_bottom_m = fmax(zlo, d.z_m - d.radius_m);
     } else {
@@ -877,11 +885,11 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
         out->cloud_top_m = out->top_altitude_m;
         /* A thermal whose top reaches past the top of the atmosphere profile
          * has blown out of it as well (it has grown to many scale heights). */
-        if (out->top_altitude_m > zhi) {
+        if (out->top_altitude_m > w->z_top_m) {
             out->regime = SL_REGIME_BLOWOUT;
             /* Beyond the profile the thermal's radius means nothing: report
              * the reach clipped at the top of the atmosphere profile. */
-            out->top_altitude_m = out->cloud_top_m = zhi;
+            out->top_altitude_m = out->cloud_top_m = w->z_top_m;
         }
     }
     if (blowout_at_start)

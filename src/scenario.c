@@ -21,6 +21,7 @@
 #include "steamloft/dist.h"
 #include "steamloft/units.h"
 #include "steamloft/units_table.h"
+#include "steamloft/site.h"
 
 #include <ctype.h>
 #include <errno.h>
@@ -54,7 +55,6 @@ const char *const sl_scenario_section_meanings[SL_S_COUNT] = {
  * "\r\n\0"; a longer line would be split silently, so we refuse it first. */
 enum { MAX_LINE_CHARS = 196, MAX_FILE_BYTES = 1 << 20 };
 
-static const char *default_atmosphere = "us1976";
 
 /* ------------------------------------------------------------------ table */
 
@@ -497,6 +497,22 @@ static double strength_from_density_Pa(double density_kg_m3)
 /* Fill derived defaults and check relations between keys. */
 static int resolve(sl_scenario *sc, sl_err *e)
 {
+    /* Site-aware defaults: the rules are site.c's (the one place). */
+    {
+        const double lat = sl_rad_to_deg(sc->value_si[SL_P_SITE_LATITUDE]);
+        const double mv = sc->value_si[SL_P_SITE_MONTH];
+        const int month = isfinite(mv) ? (int)lround(mv) : 0;
+        sl_param_origin oa = sc->origin[SL_P_SITE_ATMOSPHERE], os = sc->origin[SL_P_SITE_SST];
+        if (isfinite(lat) && oa != SL_ORIGIN_FILE && oa != SL_ORIGIN_SET) {
+            snprintf(sc->raw[SL_P_SITE_ATMOSPHERE], sizeof sc->raw[SL_P_SITE_ATMOSPHERE], "%s",
+                     sl_site_atmosphere(lat, month, NULL, 0));
+            sc->origin[SL_P_SITE_ATMOSPHERE] = SL_ORIGIN_DERIVED;
+        }
+        if (isfinite(lat) && os != SL_ORIGIN_FILE && os != SL_ORIGIN_SET && os != SL_ORIGIN_EXTERNAL) {
+            sc->value_si[SL_P_SITE_SST] = sl_site_sea_surface_K(lat, month, NULL, 0);
+            sc->origin[SL_P_SITE_SST] = SL_ORIGIN_DERIVED;
+        }
+    }
     if (sc->kind == SL_SCENARIO_IMPACTOR) {
         sl_param_origin o = sc->origin[SL_P_IMPACTOR_STRENGTH];
         if (o != SL_ORIGIN_FILE && o != SL_ORIGIN_SET && o != SL_ORIGIN_EXTERNAL) {
@@ -667,9 +683,9 @@ int sl_scenario_finish(sl_scenario *sc, sl_err *e)
             sc->raw[id][0] = '\0'; /* optional text (the name): stays unset */
             sc->origin[id] = SL_ORIGIN_UNSET;
         } else if (d->type == SL_PT_TEXT) {
-            /* The atmosphere is the only text key with a default. */
-            snprintf(sc->raw[id], sizeof sc->raw[id], "%s", default_atmosphere);
-            sc->origin[id] = SL_ORIGIN_DEFAULT;
+            /* The atmosphere: derived from latitude and month in resolve(). */
+            sc->raw[id][0] = '\0';
+            sc->origin[id] = SL_ORIGIN_UNSET;
         } else if (d->type == SL_PT_CHOICE) {
             sc->value_si[id] = d->default_value;
             choice_word(d, (int)d->default_value, sc->raw[id], sizeof sc->raw[id]);
@@ -770,7 +786,7 @@ const char *sl_scenario_text(const sl_scenario *sc, sl_param_id id)
 {
     const sl_param_def *d = &sl_scenario_params[id];
     if (d->type == SL_PT_TEXT)
-        return sc->raw[id][0] ? sc->raw[id] : default_atmosphere;
+        return sc->raw[id];
     /* Choices: raw holds the word, written or filled in from the default. */
     return sc->raw[id];
 }

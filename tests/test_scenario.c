@@ -61,11 +61,16 @@ START_TEST(parses_and_converts_to_si)
     SL_CK_REL(sl_scenario_value(&sc, SL_P_IMPACTOR_SPEED), 19160.0, 1e-14);
     SL_CK_REL(sl_scenario_value(&sc, SL_P_IMPACTOR_ANGLE), 18.0 * SL_PI / 180.0, 1e-14);
     SL_CK_REL(sl_scenario_value(&sc, SL_P_SITE_LATITUDE), 54.8 * SL_PI / 180.0, 1e-14);
-    /* Defaults from the table. */
-    SL_CK_REL(sl_scenario_value(&sc, SL_P_SITE_SST), 288.15, 1e-15);
-    ck_assert_str_eq(sl_scenario_text(&sc, SL_P_SITE_ATMOSPHERE), "us1976");
+    /* Defaults from the table; the site-aware ones derived from latitude
+     * (site.c): 54.8 deg N, no month -> the annual-mean us1976-humid; the
+     * zonal-mean sea surface of Neale & Hoskins (2000) Qobs,
+     * 27 (1 - (s^2 + s^4)/2) deg C with s = sin(1.5 x 54.8 deg): 0.741 deg C
+     * (DERIVED by hand from the published formula; 1e-4 K for the rounding). */
+    SL_CK_ABS(sl_scenario_value(&sc, SL_P_SITE_SST), 273.8914, 1e-4);
+    ck_assert_str_eq(sl_scenario_text(&sc, SL_P_SITE_ATMOSPHERE), "us1976-humid");
     ck_assert_str_eq(sl_scenario_text(&sc, SL_P_PARTITION_METHOD), "shock");
-    ck_assert_int_eq(sc.origin[SL_P_SITE_SST], SL_ORIGIN_DEFAULT);
+    ck_assert_int_eq(sc.origin[SL_P_SITE_SST], SL_ORIGIN_DERIVED);
+    ck_assert_int_eq(sc.origin[SL_P_SITE_ATMOSPHERE], SL_ORIGIN_DERIVED);
     ck_assert_int_eq(sc.origin[SL_P_IMPACTOR_SPEED], SL_ORIGIN_FILE);
     /* Raw text and line survive (the inline ';' comment is stripped by inih). */
     int line = 0;

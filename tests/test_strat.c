@@ -17,7 +17,8 @@
 #include <string.h>
 
 /* The built-in profiles the defaults were calibrated on: tropical for the
- * tropics, us1976 for both extratropical regions. */
+ * tropics, us1976-humid (the standard with background water) for both
+ * extratropical regions. */
 typedef struct fixture {
     sl_atmosphere trop, us;
     const sl_atmosphere *atm[SL_STRAT_N_REGIONS];
@@ -28,7 +29,7 @@ static void fixture_init(fixture *f)
     sl_err e = {0};
     memset(f, 0, sizeof *f);
     ck_assert_int_eq(sl_atmosphere_init(&f->trop, "tropical", &e), SL_OK);
-    ck_assert_int_eq(sl_atmosphere_init(&f->us, "us1976", &e), SL_OK);
+    ck_assert_int_eq(sl_atmosphere_init(&f->us, "us1976-humid", &e), SL_OK);
     f->atm[SL_STRAT_SOUTH] = &f->us;
     f->atm[SL_STRAT_TROPICS] = &f->trop;
     f->atm[SL_STRAT_NORTH] = &f->us;
@@ -734,7 +735,7 @@ START_TEST(test_chain_and_scenario)
     SL_CK_REL(p.antarctic_vortex_fraction, d.antarctic_vortex_fraction, 1e-3); /* 4 digits in the table */
     ck_assert_int_eq(p.start_month, 0); /* [site] month not given */
     ck_assert_str_eq(sl_scenario_text(&sc, SL_P_STRAT_TROPICS_ATMOSPHERE), "tropical");
-    ck_assert_str_eq(sl_scenario_text(&sc, SL_P_STRAT_EXTRATROPICS_ATMOSPHERE), "us1976");
+    ck_assert_str_eq(sl_scenario_text(&sc, SL_P_STRAT_EXTRATROPICS_ATMOSPHERE), "us1976-humid");
     sl_chain ch;
     memset(&ch, 0, sizeof ch);
     ck_assert_msg(sl_chain_run(&sc, &ch, &e) == SL_OK, "%s", e.msg);

@@ -2,7 +2,8 @@
  * altitude, with monotone (Steffen) spline interpolation (pressure in log
  * space), the WMO lapse-rate tropopause, cold point, stratopause and the
  * background stratospheric water.  Built-in profiles: the U.S. Standard
- * Atmosphere 1976 and five climate-zone profiles; user profiles from the text
+ * Atmosphere 1976 (dry, and a humid variant) and five climate-zone profiles,
+ * all from 0 to 1000 km; user profiles from the text
  * format of atmospheres/README.md or from CF netCDF.
  *
  * A profile is immutable after sl_atmosphere_init*(); queries take a const
@@ -27,7 +28,7 @@ typedef struct sl_atmos_state {
     double gravity_m_s2;        /* g at this altitude (inverse square) */
 } sl_atmos_state;
 
-/* Opaque interpolation tables (GSL splines). */
+/* Opaque interpolation tables (Steffen splines, see atmosphere.c). */
 typedef struct sl_atmosphere_splines sl_atmosphere_splines;
 
 typedef struct sl_atmosphere {
@@ -40,6 +41,9 @@ typedef struct sl_atmosphere {
     double *density_kg_m3;
     double *h2o_mole_fraction;
     double *n2_per_s2;
+    double *molar_mass_kg_kmol; /* mean molar mass of the dry air: M0 = 28.9644 below
+                                   80 km, the U.S. Standard Atmosphere's composition
+                                   above (diffusive separation, O2 dissociation) */
     sl_atmosphere_splines *sp;
     /* Derived markers (computed at init). */
     double tropopause_altitude_m;   /* WMO lapse-rate definition */
@@ -53,12 +57,18 @@ typedef struct sl_atmosphere {
                                        tropopause and the stratopause, kg m-2 */
     double strat_water_burden_kg;   /* the column times the Earth's area (SL_EARTH_AREA_M2):
                                        the global burden if the whole globe had this profile */
+    double join_altitude_m;         /* a user column that ended below the built-in top was
+                                       joined here onto a climate-zone profile (see
+                                       sl_atmosphere_init); NaN when not joined */
+    char joined_onto[32];           /* the climate-zone profile it was joined onto, or "" */
     /* Markers that a profile does not have (no level satisfies the WMO rule,
      * the profile ends below the stratopause, ...) are NaN; so are the water
      * column and burden when either boundary is missing. */
 } sl_atmosphere;
 
-/* Names of the built-in profiles, NULL-terminated. */
+/* Names of the built-in profiles, NULL-terminated (at most
+ * SL_ATMOSPHERE_MAX_BUILTINS). */
+#define SL_ATMOSPHERE_MAX_BUILTINS 8
 extern const char *const sl_atmosphere_builtin_names[];
 
 /* Build profile NAME_OR_PATH: a built-in name, else a text or CF netCDF file.
@@ -68,7 +78,11 @@ extern const char *const sl_atmosphere_builtin_names[];
  * with nothing to free, on success release it with sl_atmosphere_free.
  * A file profile whose lowest level lies between 0 and 2000 m (a reanalysis
  * column whose 1000 hPa level is at 100 m, say) is extended down to 0 m
- * isothermally and hydrostatically; the source line says so. */
+ * isothermally and hydrostatically; the source line says so.  A file profile
+ * that ends below 1000 km (a column ending at 1 hPa, ~48 km) is joined at its
+ * top onto the best-matching climate-zone profile (temperature offset fading
+ * over 10 km, pressure hydrostatic; atmosphere.c): join_altitude_m,
+ * joined_onto and the source line record it. */
 int sl_atmosphere_init(sl_atmosphere *atm, const char *name_or_path, sl_err *e);
 
 /* Build a profile named NAME from N >= 3 levels (copied; strictly increasing
@@ -82,19 +96,49 @@ int sl_atmosphere_init_levels(sl_atmosphere *atm, const char *name, size_t n, co
                               const double *h2o_mole_fraction_or_NULL, sl_err *e);
 
 /* State at ALTITUDE_M.  SL_EDATA when outside [altitude_m[0], altitude_m[n-1]].
- * Allocates nothing and does not modify ATM: safe from many threads at once. */
+ * Allocates nothing and does not modify ATM: safe from many threads at once.
+ * The full state, ice saturation included; a caller in a hot loop uses one
+ * of the light queries below. */
 int sl_atmosphere_at(const sl_atmosphere *atm, double altitude_m, sl_atmos_state *out, sl_err *e);
+
+/* Light queries for hot loops (entry, plume right-hand sides).  They give
+ * the same numbers as sl_atmosphere_at, bit for bit, and differ only in what
+ * they compute and in where the search for the level interval starts.
+ *
+ * A cursor is the caller's own search position: zero it once (or after the
+ * profile changes), keep it in the caller's workspace (one per thread), pass
+ * it to every query; a query near the previous one then finds its interval
+ * in a comparison or two instead of a binary search.  NULL: a binary search
+ * every call.  The profile stays const: many threads can share it, each with
+ * its own cursor. */
+typedef struct sl_atmos_cursor {
+    size_t interval; /* level interval of the last query */
+} sl_atmos_cursor;
+
+/* Moist-air density only (what the entry's drag needs). */
+int sl_atmosphere_density(const sl_atmosphere *atm, double altitude_m, sl_atmos_cursor *cur,
+                          double *density_kg_m3, sl_err *e);
+
+/* Every field of sl_atmos_state except ice_saturation_mole_fraction, which is
+ * set to NaN (it costs an exponential; sl_atmosphere_at computes it). */
+int sl_atmosphere_state(const sl_atmosphere *atm, double altitude_m, sl_atmos_cursor *cur, sl_atmos_state *out,
+                        sl_err *e);
+
+/* Geometric altitude (m) where the profile's (interpolated) pressure equals
+ * PRESSURE_PA: the inverse of the ln p spline, which is monotone (Steffen),
+ * to 1e-9 m.  SL_EDATA when the pressure is outside the profile's range. */
+int sl_atmosphere_altitude_of_pressure(const sl_atmosphere *atm, double pressure_Pa, double *altitude_m, sl_err *e);
 
 /* Gravity at geometric altitude Z above mean sea level, inverse-square law
  * with the USSA76 constants g0 and r0, m s-2. */
 double sl_atmosphere_gravity_m_s2(double altitude_m);
 
 /* The U.S. Standard Atmosphere 1976 evaluated directly from its defining
- * constants at geometric ALTITUDE_M in [0, 120 km]: kinetic temperature,
- * pressure and (dry-air) density.  Above 86 km the temperature follows the
- * standard's defining segments and the pressure is our hydrostatic extension
- * (constant molar mass, see atmosphere.c).  SL_EDATA outside the range.
- * Any output pointer may be NULL. */
+ * constants at geometric ALTITUDE_M in [0, 1000 km]: kinetic temperature,
+ * pressure and (dry-air) density.  Above 86 km the standard's temperature
+ * segments and its species diffusion equations (integrated from 86 km on
+ * each call: about a millisecond; the built-in profile is the fast way).
+ * SL_EDATA outside the range.  Any output pointer may be NULL. */
 int sl_atmosphere_us1976(double altitude_m, double *temperature_K, double *pressure_Pa,
                          double *density_kg_m3, sl_err *e);
 

@@ -20,6 +20,7 @@
 #include "steamloft/partition.h"
 #include "steamloft/plume.h"
 #include "steamloft/scenario.h"
+#include "steamloft/site.h"
 #include "steamloft/stage_params.h"
 #include "steamloft/strat.h"
 
@@ -30,9 +31,17 @@ extern const char *const sl_chain_stage_names[SL_CHAIN_N_TIMED];
 
 typedef struct sl_chain {
     sl_scenario scenario;          /* copy of the scenario last run */
+    sl_site_choice site;           /* the atmosphere and sea surface used, and why
+                                      (site-aware defaults, site.h) */
     sl_atmosphere atmosphere;      /* the background profile */
     int have_atmosphere;
     char atmosphere_name[SL_SCENARIO_RAW_LEN]; /* what it was loaded from */
+    /* Built-in profiles set aside when a later scenario named another one
+     * (site-aware defaults switch profiles with the latitude of ensemble
+     * members): indexed like sl_atmosphere_builtin_names, so a switch back
+     * costs a struct move instead of a rebuild. */
+    sl_atmosphere builtin_cache[SL_ATMOSPHERE_MAX_BUILTINS];
+    int have_builtin_cache[SL_ATMOSPHERE_MAX_BUILTINS];
     sl_entry entry;                /* valid when has_entry */
     int has_entry;                 /* the scenario is an [impactor] */
     double air_source_altitude_m;  /* where the air's share was released */

@@ -109,11 +109,15 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
       "longitude of the impact or burst point")                                                     \
     X(SITE_OCEAN_DEPTH, "site", "ocean_depth_m", SL_PT_REAL, "m", 3682.0, 0.0, 11100.0, 0u, NULL,  \
       "depth of the ocean at the point (default: the mean ocean depth, ~3682 m)")                   \
-    X(SITE_SST, "site", "sea_surface_temperature_K", SL_PT_REAL, "K", 288.15, 271.0, 310.0, 0u,    \
-      NULL, "temperature of the sea water that is heated and vaporised")                            \
-    X(SITE_ATMOSPHERE, "site", "atmosphere", SL_PT_TEXT, "", SL_NODEFAULT, 0.0, 0.0, 0u, NULL,     \
+    X(SITE_SST, "site", "sea_surface_temperature_K", SL_PT_REAL, "K", SL_NODEFAULT, 271.0, 310.0, \
+      SL_PF_DERIVED, NULL,                                                                          \
+      "temperature of the sea water that is heated and vaporised; default derived from latitude: "  \
+      "zonal-mean climatology (Neale & Hoskins 2000 Qobs, docs/physics.md section 1)")              \
+    X(SITE_ATMOSPHERE, "site", "atmosphere", SL_PT_TEXT, "", SL_NODEFAULT, 0.0, 0.0, SL_PF_DERIVED, \
+      NULL,                                                                                         \
       "background atmosphere: a built-in profile (steamloft atmos) or a profile file, relative "    \
-      "paths first next to the scenario file (default us1976)")                                     \
+      "paths first next to the scenario file; default derived from latitude and month (tropical, "  \
+      "mid-latitude or sub-arctic, summer or winter; docs/physics.md section 1)")                   \
     X(SITE_MONTH, "site", "month", SL_PT_INT, "", 0.0, 0.0, 12.0, 0u, NULL,                         \
       "month of the event, 1-12 (0 = not given; annual-mean conditions)")                           \
     X(AIRBURST_ALTITUDE, "airburst", "altitude_m", SL_PT_REAL, "m", SL_NODEFAULT, 0.0, 100000.0,   \
@@ -206,12 +210,15 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
     X(STRAT_STEP, "strat", "step_days", SL_PT_REAL, "days", 30.4375, 1.0, 365.25, 0u, NULL,          \
       "output step of the box model (30.4375 days = 1/12 year)")                                    \
     X(STRAT_TROPICS_ATMOSPHERE, "strat", "tropics_atmosphere", SL_PT_CHOICE, "", 0.0, 0.0, 0.0, 0u,  \
-      "tropical|us1976|midlatitude-summer|midlatitude-winter|subarctic-summer|subarctic-winter",     \
+      "tropical|us1976-humid|midlatitude-summer|midlatitude-winter|subarctic-summer|"               \
+      "subarctic-winter|us1976",                                                                    \
       "background profile of the tropical boxes (the transport is calibrated on tropical)")         \
     X(STRAT_EXTRATROPICS_ATMOSPHERE, "strat", "extratropics_atmosphere", SL_PT_CHOICE, "", 0.0, 0.0, \
       0.0, 0u,                                                                                      \
-      "us1976|tropical|midlatitude-summer|midlatitude-winter|subarctic-summer|subarctic-winter",     \
-      "background profile of both extratropical regions (us1976: mid-latitude annual mean)")        \
+      "us1976-humid|tropical|midlatitude-summer|midlatitude-winter|subarctic-summer|"               \
+      "subarctic-winter|us1976",                                                                    \
+      "background profile of both extratropical regions (us1976-humid: mid-latitude annual "        \
+      "mean; the dry us1976 has no background water to compare with)")                             \
     X(STRAT_DEEP_BRANCH, "strat", "deep_branch_fraction", SL_PT_REAL, "1", 0.7104, 0.01, 1.0, 0u,    \
       NULL, "share of the 100-hPa tropical upward flux that rises on (calibrated; strat.c)")        \
     X(STRAT_INMIXING, "strat", "inmixing_time_years", SL_PT_REAL, "years", 1.0672, 0.01, 50.0, 0u,   \

@@ -6,7 +6,7 @@
 src=${SL_SRCDIR:-.}
 
 sl_expect_exit 0 "atmos list" "$SL_BIN" atmos list
-for n in us1976 tropical midlatitude-summer midlatitude-winter subarctic-summer subarctic-winter; do
+for n in us1976 us1976-humid tropical midlatitude-summer midlatitude-winter subarctic-summer subarctic-winter; do
   sl_expect_grep "$SL_TMP/out" "^$n " "list names $n"
 done
 sl_expect_exit 0 "atmos --help" "$SL_BIN" atmos --help
@@ -35,8 +35,8 @@ sl_expect_exit 0 "atmos --summary text" "$SL_BIN" atmos us1976 --summary
 sl_expect_grep "$SL_TMP/out" "^tropopause_altitude_m  *11019.0" "us1976 tropopause at 11 km geopotential"
 
 # Usage and input errors.
-sl_expect_exit 65 "--at outside the profile" "$SL_BIN" atmos --at 130000 us1976
-sl_expect_grep "$SL_TMP/err" "outside atmosphere profile 'us1976' (0 to 120000 m)" "out-of-range message"
+sl_expect_exit 65 "--at outside the profile" "$SL_BIN" atmos --at 1100000 us1976
+sl_expect_grep "$SL_TMP/err" "outside atmosphere profile 'us1976' (0 to 1e+06 m)" "out-of-range message"
 sl_expect_exit 64 "no profile" "$SL_BIN" atmos
 sl_expect_exit 64 "--csv with --json" "$SL_BIN" atmos --csv --json us1976
 sl_expect_exit 64 "--at with --summary" "$SL_BIN" atmos --at 100 --summary us1976
@@ -45,7 +45,7 @@ sl_expect_exit 66 "missing file" "$SL_BIN" atmos "$SL_TMP/none.txt"
 
 # The shipped files are exactly what the code writes (scripts/make-atmospheres.sh).
 sl_expect_exit 0 "regenerate profiles" "$src/scripts/make-atmospheres.sh" "$SL_BIN" "$SL_TMP/atm"
-for n in us1976 tropical midlatitude-summer midlatitude-winter subarctic-summer subarctic-winter; do
+for n in us1976 us1976-humid tropical midlatitude-summer midlatitude-winter subarctic-summer subarctic-winter; do
   if cmp -s "$SL_TMP/atm/$n.txt" "$src/atmospheres/$n.txt"; then sl_ok "shipped $n.txt is current"
   else sl_fail "shipped atmospheres/$n.txt differs from 'steamloft atmos $n' (run make atmospheres)"; fi
 done
@@ -96,4 +96,40 @@ ncbad nan "netCDF NaN" "variable 'z' (geopotential_height) index 3: not a finite
 ncbad fill "netCDF missing value" "variable 't' (air_temperature) index 7: missing value" 's/-2200, 200, 3100, 3800/-2200, 200, 3100, -32767/'
 ncbad nostd "netCDF no temperature" "no variable with standard_name air_temperature" '/t:standard_name/d'
 ncbad order "netCDF non-monotonic" "variable 'z' index 3: altitude .* strictly" 's/11784, 9164/9164, 11784/'
+# Site-aware defaults (site.c): a tropical site without an atmosphere or
+# sea-surface key runs on the tropical profile with the zonal-mean sea surface
+# of Neale & Hoskins (2000, "Qobs"), and the summary says so and why.
+printf '[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 8\nmonth = 2\n' > "$SL_TMP/tropic.ini"
+sl_expect_exit 0 "run a tropical site without atmosphere key" "$SL_BIN" run "$SL_TMP/tropic.ini"
+sl_expect_grep "$SL_TMP/out" "^ *atmosphere, sea surface  *tropical, " "tropical profile chosen"
+sl_expect_grep "$SL_TMP/out" "^ *site defaults .*tropical (all year).*Neale & Hoskins 2000 Qobs" "summary says which and why"
+sl_expect_exit 0 "run a tropical site (JSON)" "$SL_BIN" run "$SL_TMP/tropic.ini" --json
+sl_expect_grep "$SL_TMP/out" '"site_defaults": "no atmosphere given' "JSON site_defaults"
+# A user column that ends low (1 hPa, ~48 km, as a reanalysis column does) is
+# joined at its top onto the best-matching climate zone: `run` and `decay`
+# work with it (decay needs 50 km), the summary and the outputs record the join.
+"$SL_BIN" atmos tropical --csv | awk -F, 'NR == 1 || $1 <= 48000' > "$SL_TMP/low.csv"
+printf '[explosion]\nenergy_Mt = 5\n[site]\nlatitude_deg = 3\natmosphere = low.csv\n' > "$SL_TMP/low.ini"
+sl_expect_exit 0 "run with a column ending at 48 km" "$SL_BIN" run "$SL_TMP/low.ini"
+sl_expect_grep "$SL_TMP/out" "^ *site defaults .*ends at 48.0 km and is joined there onto tropical" "summary says the join"
+sl_expect_exit 0 "run low column with outputs" "$SL_BIN" --force run "$SL_TMP/low.ini" -o "$SL_TMP/low.nc" --csv "$SL_TMP/lowcsv"
+sl_expect_exit 0 "ncdump of the run" ncdump -h "$SL_TMP/low.nc"
+sl_expect_grep "$SL_TMP/out" "background_atmosphere_join_altitude_m = 48000" "netCDF records the join height"
+sl_expect_grep "$SL_TMP/lowcsv/background.csv" "^# join_altitude_km 48: " "CSV background records the join height"
+sl_expect_exit 0 "decay with a column ending at 48 km" "$SL_BIN" decay --atmosphere "$SL_TMP/low.csv" \
+  --inject 1e10 --between 20000 25000 --latitude 0
+sl_expect_exit 0 "atmos --summary of the low column" "$SL_BIN" atmos "$SL_TMP/low.csv" --summary
+sl_expect_grep "$SL_TMP/out" "^top_altitude_m  *1000000" "joined column reaches 1000 km"
+
+# --at with a pressure (hPa or Pa): the level of that pressure.
+sl_expect_exit 0 "atmos --at 10hPa" "$SL_BIN" atmos --at 10hPa us1976
+sl_expect_grep "$SL_TMP/out" "^pressure_Pa  *1000$" "10 hPa found"
+# 31.21 km: log-interpolated between the standard's 1197.0 Pa at 30 km and 889.06 Pa at 32 km
+# (USSA76 table values, DERIVED; the 10 m window is the log-linear interpolation's error)
+sl_expect_grep "$SL_TMP/out" "^altitude_m  *312[01][0-9]\." "10 hPa at 31.2 km in the standard"
+sl_expect_exit 0 "atmos --at 101325Pa" "$SL_BIN" atmos --at 101325Pa us1976 --json
+sl_expect_grep "$SL_TMP/out" '"temperature_K": 288.15' "sea-level pressure at the surface"
+sl_expect_exit 65 "--at pressure outside the profile" "$SL_BIN" atmos --at 2000hPa us1976
+sl_expect_grep "$SL_TMP/err" "pressure 200000 Pa is outside atmosphere profile 'us1976'" "pressure out-of-range message"
+sl_expect_exit 64 "--at negative pressure" "$SL_BIN" atmos --at -5hPa us1976
 sl_done

@@ -233,6 +233,9 @@ speed_km_s = 18
 angle_deg = 45
 [site]
 latitude_deg = 5
+; the background this check was written with (site-aware defaults would pick tropical, 299.9 K)
+atmosphere = us1976-humid
+sea_surface_temperature_K = 288.15
 EOF
 sl_expect_exit 0 "sweep over diameter" "$SL_BIN" sweep "$SL_TMP/sweep.ini" \
   --vary impactor.diameter_m=20:400:20 -o "$SL_TMP/sweep.csv"

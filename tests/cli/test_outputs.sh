@@ -168,7 +168,7 @@ sl_expect_exit 0 "run with -o, --csv, --plot" "$SL_BIN" run "$SCEN" -o "$D/run.n
 "$SL_BIN" run --json "$SCEN" >"$SL_TMP/runjson"
 cat >"$SL_TMP/expect_run" <<EOF
 att . scenario_impactor_diameter_m 300
-att . scenario_site_atmosphere us1976
+att . scenario_site_atmosphere us1976-humid
 att . scenario_file $SCEN
 att air_temperature standard_name air_temperature
 has vapor_mass_content
