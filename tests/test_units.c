@@ -14,14 +14,16 @@
 static int scipy_constants(double *v, int n)
 {
     FILE *p = popen("/usr/bin/python3 -c \"import scipy.constants as c; "
-                    "print(c.N_A, c.k, c.R, c.g, c.atm, c.ton_TNT, c.Julian_year, "
-                    "c.physical_constants['molar mass constant'][0])\" 2>/dev/null",
+                    "print(c.N_A, c.k, c.R, c.g, c.atm, c.ton_TNT, c.Julian_year)\" 2>/dev/null",
                     "r");
     if (p == NULL)
         return 0;
     int got = 0;
     for (int i = 0; i < n; i++)
         got += fscanf(p, "%lf", &v[i]) == 1;
+    char rest[64];
+    while (fgets(rest, sizeof rest, p)) /* read to the end: python never sees a broken pipe */
+        ;
     return pclose(p) == 0 && got == n;
 }
 
