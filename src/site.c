@@ -48,9 +48,25 @@ const char *sl_site_atmosphere(double latitude_deg, int month, char *why, size_t
     return name;
 }
 
+/* Half-amplitude (K) of the annual cycle of the zonal-mean SST at |latitude|
+ * A_DEG in the northern (NORTH = 1) or southern hemisphere (site.h: MEM). */
+static double seasonal_half_amplitude_K(double a_deg, int north)
+{
+    static const double lat[5] = {0.0, 20.0, 40.0, 55.0, 70.0};
+    static const double amp_n[5] = {0.5, 1.0, 3.0, 2.5, 1.0};
+    static const double amp_s[5] = {0.5, 1.0, 1.5, 1.0, 0.5};
+    const double *amp = north ? amp_n : amp_s;
+    if (a_deg >= lat[4])
+        return amp[4];
+    int i = 0;
+    while (a_deg > lat[i + 1])
+        i++;
+    double w = (a_deg - lat[i]) / (lat[i + 1] - lat[i]);
+    return amp[i] + w * (amp[i + 1] - amp[i]);
+}
+
 double sl_site_sea_surface_K(double latitude_deg, int month, char *why, size_t why_len)
 {
-    (void)month;
     const double a = fabs(latitude_deg);
     double t_C = 0.0;
     if (a < 60.0) {
@@ -58,11 +74,24 @@ double sl_site_sea_surface_K(double latitude_deg, int month, char *why, size_t w
         const double s2 = s * s;
         t_C = 27.0 * (1.0 - 0.5 * (s2 + s2 * s2));
     }
-    const double t_K = t_C + 273.15;
-    if (why && why_len > 0)
-        snprintf(why, why_len,
-                 "zonal-mean climatology at latitude %.1f deg: %.2f K (Neale & Hoskins 2000 Qobs, annual mean)",
-                 latitude_deg, t_K);
+    double cycle_C = 0.0;
+    if (month >= 1 && month <= 12) {
+        const int north = latitude_deg >= 0.0;
+        const double m_max = north ? 8.0 : 2.0;
+        cycle_C = seasonal_half_amplitude_K(a, north) * cos(2.0 * SL_PI * ((double)month - m_max) / 12.0);
+    }
+    const double t_K = fmax(t_C + cycle_C, -1.8) + 273.15;
+    if (why && why_len > 0) {
+        if (month >= 1 && month <= 12)
+            snprintf(why, why_len,
+                     "zonal-mean climatology at latitude %.1f deg in month %d: %.2f K (Neale & Hoskins 2000 "
+                     "Qobs annual mean %+.2f K annual cycle)",
+                     latitude_deg, month, t_K, cycle_C);
+        else
+            snprintf(why, why_len,
+                     "zonal-mean climatology at latitude %.1f deg: %.2f K (Neale & Hoskins 2000 Qobs, annual mean)",
+                     latitude_deg, t_K);
+    }
     return t_K;
 }
 

@@ -45,10 +45,28 @@ START_TEST(test_sea_surface_climatology)
     char why[192];
     SL_CK_ABS(sl_site_sea_surface_K(0.0, 0, why, sizeof why), 300.15, 1e-9);
     ck_assert_msg(strstr(why, "Neale & Hoskins 2000") != NULL, "%s", why);
-    SL_CK_ABS(sl_site_sea_surface_K(30.0, 5, NULL, 0), 290.025, 1e-9);
-    SL_CK_ABS(sl_site_sea_surface_K(-30.0, 11, NULL, 0), 290.025, 1e-9);
-    SL_CK_ABS(sl_site_sea_surface_K(60.0, 1, NULL, 0), 273.15, 1e-9);
-    SL_CK_ABS(sl_site_sea_surface_K(-75.0, 1, NULL, 0), 273.15, 1e-9);
+    SL_CK_ABS(sl_site_sea_surface_K(30.0, 0, NULL, 0), 290.025, 1e-9);
+    SL_CK_ABS(sl_site_sea_surface_K(-30.0, 0, NULL, 0), 290.025, 1e-9);
+    SL_CK_ABS(sl_site_sea_surface_K(60.0, 0, NULL, 0), 273.15, 1e-9);
+    SL_CK_ABS(sl_site_sea_surface_K(-75.0, 0, NULL, 0), 273.15, 1e-9);
+    /* Annual cycle (site.h, MEM of the monthly climatologies): the northern
+     * mid-latitude oceans are about 6 K warmer in August than in February
+     * (range 5-8 K, MEM); the southern ones warmest in February with a smaller
+     * range (2-4 K, MEM); the equator within 1.5 K all year; the twelve months
+     * average to the annual mean (a single harmonic, DERIVED, to rounding). */
+    double nh = sl_site_sea_surface_K(40.0, 8, NULL, 0) - sl_site_sea_surface_K(40.0, 2, NULL, 0);
+    double sh = sl_site_sea_surface_K(-40.0, 2, NULL, 0) - sl_site_sea_surface_K(-40.0, 8, NULL, 0);
+    SL_CK_RANGE(nh, 5.0, 8.0);
+    SL_CK_RANGE(sh, 2.0, 4.0);
+    for (int m = 1; m <= 12; m++)
+        SL_CK_ABS(sl_site_sea_surface_K(2.0, m, NULL, 0), sl_site_sea_surface_K(2.0, 0, NULL, 0), 1.5);
+    double sum = 0.0;
+    for (int m = 1; m <= 12; m++)
+        sum += sl_site_sea_surface_K(25.0, m, NULL, 0);
+    SL_CK_ABS(sum / 12.0, sl_site_sea_surface_K(25.0, 0, NULL, 0), 1e-9);
+    /* Never below the freezing point of sea water (-1.8 deg C, PRACTICE). */
+    SL_CK_ABS(sl_site_sea_surface_K(75.0, 2, NULL, 0), 273.15 - 1.0, 1e-9);
+    ck_assert(sl_site_sea_surface_K(-80.0, 8, NULL, 0) >= 271.35 - 1e-9);
     /* Every latitude gives a value inside the scenario key's range (271-310 K). */
     for (double lat = -90.0; lat <= 90.0; lat += 0.5) {
         double t = sl_site_sea_surface_K(lat, 0, NULL, 0);
@@ -72,7 +90,9 @@ START_TEST(test_tropical_site_through_the_chain)
     ck_assert_msg(sl_chain_run(&sc, &ch, &e) == SL_OK, "%s", e.msg);
     ck_assert_str_eq(ch.atmosphere.name, "tropical");
     ck_assert(ch.site.atmosphere_derived && ch.site.sea_surface_derived);
-    SL_CK_ABS(ch.site.sea_surface_K, 299.916, 1e-3); /* s = sin 7.5 deg: 26.766 deg C (DERIVED) */
+    /* s = sin 7.5 deg: 26.766 deg C, plus the March cycle at 5 N: half-amplitude
+     * 0.625 K times cos(2 pi (3 - 8)/12) = -0.866, -0.541 K (DERIVED). */
+    SL_CK_ABS(ch.site.sea_surface_K, 299.916 - 0.541, 2e-3);
     ck_assert(strstr(ch.site.atmosphere_why, "tropical") != NULL);
     ck_assert(strstr(ch.site.sea_surface_why, "Neale & Hoskins 2000") != NULL);
     char line[640];

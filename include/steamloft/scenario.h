@@ -111,8 +111,9 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
       "depth of the ocean at the point (default: the mean ocean depth, ~3682 m)")                   \
     X(SITE_SST, "site", "sea_surface_temperature_K", SL_PT_REAL, "K", SL_NODEFAULT, 271.0, 310.0, \
       SL_PF_DERIVED, NULL,                                                                          \
-      "temperature of the sea water that is heated and vaporised; default derived from latitude: "  \
-      "zonal-mean climatology (Neale & Hoskins 2000 Qobs, docs/physics.md section 1)")              \
+      "temperature of the sea water that is heated and vaporised; default derived from latitude "   \
+      "and month: zonal-mean climatology (Neale & Hoskins 2000 Qobs with an annual cycle, "         \
+      "docs/physics.md section 1)")                                                                 \
     X(SITE_ATMOSPHERE, "site", "atmosphere", SL_PT_TEXT, "", SL_NODEFAULT, 0.0, 0.0, SL_PF_DERIVED, \
       NULL,                                                                                         \
       "background atmosphere: a built-in profile (steamloft atmos) or a profile file, relative "    \

@@ -20,9 +20,20 @@
  * Sea surface: the "Qobs" zonal-mean distribution of Neale & Hoskins (2000,
  * Atmos. Sci. Lett. 1, 101-107), fitted to the observed zonal- and annual-
  * mean sea-surface temperature: T = 27 (1 - (sin^2 f + sin^4 f)/2) deg C with
- * f = 3 latitude / 2 for |latitude| < 60 deg, 0 deg C poleward.  It is an
- * annual mean: the month does not enter (the observed seasonal range of the
- * zonal mean, a few kelvin, is not represented). */
+ * f = 3 latitude / 2 for |latitude| < 60 deg, 0 deg C poleward.  For a
+ * month 1-12 the annual cycle of the zonal mean is added as one harmonic,
+ * A(|lat|, hemisphere) cos(2 pi (month - m_max) / 12), warmest in August in
+ * the north and in February in the south (m_max = 8 and 2: the zonal-mean SST
+ * peaks about two months after the solstice).  The half-amplitude A grows
+ * from 0.5 K at the equator to 3 K near 40 N (the seasonal range of about
+ * 6 K of the northern mid-latitude oceans) and 1.5 K near 40 S (the southern
+ * oceans' smaller range), falling to 1 K (north) and 0.5 K (south) at 70 deg
+ * where sea ice limits it; piecewise linear in latitude between 0, 20, 40, 55
+ * and 70 deg.  The amplitudes and the phase are MEMory of the monthly
+ * climatologies (Shea, Trenberth & Reynolds 1992, J. Climate 5, 987; Reynolds
+ * et al. 2002, J. Climate 15, 1609), good to about 1 K; the result is never
+ * below -1.8 deg C, the freezing point of sea water.  Month 0 gives the
+ * annual mean. */
 #ifndef STEAMLOFT_SITE_H
 #define STEAMLOFT_SITE_H
 
@@ -40,8 +51,8 @@
 const char *sl_site_atmosphere(double latitude_deg, int month, char *why, size_t why_len);
 
 /* Zonal-mean sea-surface temperature (K) at LATITUDE_DEG (Neale & Hoskins
- * 2000 "Qobs"); MONTH is accepted for the interface and does not enter (see
- * above).  WHY as above. */
+ * 2000 "Qobs") in MONTH (1-12, or 0 for the annual mean), with the annual
+ * cycle above.  WHY as above. */
 double sl_site_sea_surface_K(double latitude_deg, int month, char *why, size_t why_len);
 
 /* What the chain records about the site (the summary prints it). */
