@@ -104,8 +104,10 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
         case O_INJECT:
             if (sl_cli_parse_double(optarg, "--inject", &o->inject_kg, &e) != SL_OK)
                 return sl_cli_usage_error(g, "decay", "%s", e.msg);
-            if (!(o->inject_kg > 0.0))
-                return sl_cli_usage_error(g, "decay", "--inject %s: the mass must be > 0 kg", optarg);
+            /* Upper end: about the mass of all the air above 100 hPa (a tenth of
+             * the atmosphere's 5.1e18 kg; common practice, no source). */
+            if (!(o->inject_kg > 0.0) || o->inject_kg > 5.0e17)
+                return sl_cli_usage_error(g, "decay", "--inject %s: valid range above 0 to 5e17 kg", optarg);
             o->have_inject = 1;
             break;
         case O_BETWEEN: {
