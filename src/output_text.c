@@ -10,6 +10,7 @@
 
 #include <math.h>
 #include <stdarg.h>
+#include <errno.h>
 #include <string.h>
 
 static void json_string(FILE *out, const char *s)
@@ -87,8 +88,9 @@ int sl_report_end(sl_report *r, sl_err *e)
 {
     if (r->json)
         fputs("\n}\n", r->out);
+    errno = 0;
     if (fflush(r->out) != 0 || ferror(r->out))
-        SL_FAIL_RETURN(e, SL_EIO, "cannot write the summary");
+        SL_FAIL_RETURN(e, SL_EIO, "cannot write the summary: %s", strerror(errno ? errno : EIO));
     return SL_OK;
 }
 
@@ -820,8 +822,9 @@ int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, int detail, 
 {
     if (!json) {
         text_summary(out, ch, detail);
+        errno = 0;
         if (fflush(out) != 0 || ferror(out))
-            SL_FAIL_RETURN(e, SL_EIO, "cannot write the summary");
+            SL_FAIL_RETURN(e, SL_EIO, "cannot write the summary: %s", strerror(errno ? errno : EIO));
         return SL_OK;
     }
     sl_report r;
