@@ -857,3 +857,54 @@ int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, int detail, 
     sl_report_string(&r, "caution", sl_cli_caution(), "caution");
     return sl_report_end(&r, e);
 }
+
+void sl_output_text_strat_series(FILE *out, const sl_strat_result *r)
+{
+    fprintf(out, "time_days,global_excess_kg,global_anomaly_ppmv,global_column_kg_m2,local_column_kg_m2,"
+                 "percent_of_background,forcing_W_m2");
+    for (int s = 0; s < SL_STRAT_N_SINKS; s++)
+        fprintf(out, ",sink_%s_kg", sl_strat_sink_names[s]);
+    fputc('\n', out);
+    for (size_t i = 0; i < r->n_times; i++) {
+        fprintf(out, "%.6g,%.6g,%.6g,%.6g,%.6g,%.6g,%.6g", sl_s_to_days(r->time_s[i]), r->global_excess_kg[i],
+                sl_mole_fraction_to_ppmv(r->global_anomaly_mole_fraction[i]), r->global_column_kg_m2[i],
+                r->local_column_kg_m2[i], r->percent_of_background[i], r->forcing_W_m2[i]);
+        for (int s = 0; s < SL_STRAT_N_SINKS; s++)
+            fprintf(out, ",%.6g", r->sink_kg[i * SL_STRAT_N_SINKS + s]);
+        fputc('\n', out);
+    }
+}
+
+int sl_output_text_calibration(FILE *out, const sl_strat_params *p,
+                               const sl_atmosphere *const atm[SL_STRAT_N_REGIONS], sl_err *e)
+{
+    sl_strat_params fit;
+    sl_strat_calibration before, after;
+    SL_TRY_RETURN(e, sl_strat_diagnose(p, atm, &before, e));
+    SL_TRY_RETURN(e, sl_strat_calibrate(p, atm, &fit, &after, e));
+    const double month_s = SL_S_PER_YEAR / 12.0;
+    fprintf(out, "steamloft decay --calibrate: transport constants fitted to published time scales\n");
+    fprintf(out, "  %-34s %12s %12s   %s\n", "quantity", "defaults", "fitted", "target (source)");
+    fprintf(out, "  %-34s %12.4g %12.4g   %s\n", "mean age, tropics 20 km (yr)",
+            sl_s_to_years(before.age_tropics_20km_s), sl_s_to_years(after.age_tropics_20km_s),
+            "about 1 (Waugh & Hall 2002)");
+    fprintf(out, "  %-34s %12.4g %12.4g   %s\n", "mean age, extratropics 25-40 km (yr)",
+            sl_s_to_years(before.age_extratropics_25_40km_s), sl_s_to_years(after.age_extratropics_25_40km_s),
+            "4-5 (Waugh & Hall 2002)");
+    fprintf(out, "  %-34s %12.4g %12.4g   %s\n", "slowest mode (yr)", sl_s_to_years(before.slowest_mode_s),
+            sl_s_to_years(after.slowest_mode_s), "3.8-5.3 (Ehhalt et al. 2004)");
+    fprintf(out, "  %-34s %12.4g %12.4g   %s\n", "upwelling 20-30 km (mm/s)", before.upwelling_20_30km_m_s * 1e3,
+            after.upwelling_20_30km_m_s * 1e3, "0.2-0.4 (Mote et al. 1996)");
+    fprintf(out, "  %-34s %12.4g %12.4g   %s\n", "in-mixing time (months)", p->inmixing_time_s / month_s,
+            fit.inmixing_time_s / month_s, "about 13.5 (Volk et al. 1996)");
+    fprintf(out, "  %-34s %12.4g %12.4g\n", "cost (squared misfits)", before.cost, after.cost);
+    fprintf(out, "fitted constants (%zu Nelder-Mead iterations):\n", after.iterations);
+    fprintf(out, "  deep_branch_fraction   = %.6g\n", fit.deep_branch_fraction);
+    fprintf(out, "  inmixing_time_s        = %.6g   (%.6g years)\n", fit.inmixing_time_s,
+            sl_s_to_years(fit.inmixing_time_s));
+    fprintf(out, "  kzz_m2_s               = %.6g\n", fit.kzz_m2_s);
+    fprintf(out, "%s\n", sl_cli_caution());
+    if (fflush(out) != 0 || ferror(out))
+        SL_FAIL_RETURN(e, SL_EIO, "writing the calibration: write error");
+    return SL_OK;
+}

@@ -56,6 +56,16 @@ struct sl_strat_model;
 struct sl_strat_result;
 void sl_output_text_strat(sl_report *r, const struct sl_strat_model *m, const struct sl_strat_result *s);
 
+/* The box model's time series as CSV (`decay --series`): time in days, the
+ * global excess, anomaly and columns, the forcing and each sink, %.6g. */
+void sl_output_text_strat_series(FILE *out, const struct sl_strat_result *r);
+
+/* `decay --calibrate`: the transport constants fitted to the published time
+ * scales (sl_strat_calibrate) beside the defaults P, as a table.  SL_EIO when
+ * writing failed; the fit's own statuses. */
+int sl_output_text_calibration(FILE *out, const sl_strat_params *p,
+                               const sl_atmosphere *const atm[SL_STRAT_N_REGIONS], sl_err *e);
+
 /* X to three significant figures for people: fixed notation from 0.001 to
  * 999999 ("0.0042", "59.4", "1420"), else "1.83e+18"; "none" for NaN. */
 void sl_output_fmt3(char *buf, size_t n, double x);
