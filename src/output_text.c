@@ -12,38 +12,6 @@
 #include <stdarg.h>
 #include <string.h>
 
-static void json_string(FILE *out, const char *s)
-{
-    fputc('"', out);
-    for (const unsigned char *p = (const unsigned char *)s; *p; p++) {
-        if (*p == '"' || *p == '\\')
-            fprintf(out, "\\%c", *p);
-        else if (*p == '\n')
-            fputs("\\n", out);
-        else if (*p == '\t')
-            fputs("\\t", out);
-        else if (*p < 0x20)
-            fprintf(out, "\\u%04x", *p);
-        else
-            fputc(*p, out);
-    }
-    fputc('"', out);
-}
-
-/* Separator, indentation and key of the next JSON member. */
-static void json_member(sl_report *r, const char *key)
-{
-    if (r->count[r->depth]++ > 0)
-        fputc(',', r->out);
-    fputc('\n', r->out);
-    for (int i = 0; i <= r->depth; i++)
-        fputs("  ", r->out);
-    if (key && !r->in_array[r->depth]) {
-        json_string(r->out, key);
-        fputs(": ", r->out);
-    }
-}
-
 void sl_output_fmt3(char *buf, size_t n, double x)
 {
     if (!isfinite(x)) {
@@ -80,13 +48,13 @@ void sl_report_begin(sl_report *r, FILE *out, int json)
     r->out = out;
     r->json = json;
     if (json)
-        fputc('{', out);
+        sl_json_begin(&r->writer, out);
 }
 
 int sl_report_end(sl_report *r, sl_err *e)
 {
     if (r->json)
-        fputs("\n}\n", r->out);
+        return sl_json_end(&r->writer, e);
     if (fflush(r->out) != 0 || ferror(r->out))
         SL_FAIL_RETURN(e, SL_EIO, "cannot write the summary");
     return SL_OK;
@@ -102,11 +70,7 @@ void sl_report_number(sl_report *r, const char *key, double value_si, const char
                       const char *unit)
 {
     if (r->json) {
-        json_member(r, key);
-        if (isfinite(value_si))
-            fprintf(r->out, "%.10g", value_si);
-        else
-            fputs("null", r->out);
+        sl_json_number(&r->writer, key, value_si);
         return;
     }
     text_label(r, label);
@@ -121,8 +85,7 @@ void sl_report_number(sl_report *r, const char *key, double value_si, const char
 void sl_report_bool(sl_report *r, const char *key, int value, const char *label)
 {
     if (r->json) {
-        json_member(r, key);
-        fputs(value ? "true" : "false", r->out);
+        sl_json_bool(&r->writer, key, value);
         return;
     }
     text_label(r, label);
@@ -132,8 +95,7 @@ void sl_report_bool(sl_report *r, const char *key, int value, const char *label)
 void sl_report_string(sl_report *r, const char *key, const char *value, const char *label)
 {
     if (r->json) {
-        json_member(r, key);
-        json_string(r->out, value);
+        sl_json_string(&r->writer, key, value);
         return;
     }
     text_label(r, label);
@@ -143,13 +105,10 @@ void sl_report_string(sl_report *r, const char *key, const char *value, const ch
 static void begin_nested(sl_report *r, const char *key, const char *label, int array)
 {
     if (r->json) {
-        json_member(r, key);
-        fputc(array ? '[' : '{', r->out);
-        if (r->depth + 1 < SL_REPORT_MAX_DEPTH) {
-            r->depth++;
-            r->count[r->depth] = 0;
-            r->in_array[r->depth] = array;
-        }
+        if (array)
+            sl_json_begin_array(&r->writer, key, SL_JSON_LINES);
+        else
+            sl_json_begin_object(&r->writer, key, SL_JSON_LINES);
         return;
     }
     if (label)
@@ -160,15 +119,10 @@ static void begin_nested(sl_report *r, const char *key, const char *label, int a
 static void end_nested(sl_report *r, int array)
 {
     if (r->json) {
-        int had = r->count[r->depth] > 0;
-        if (r->depth > 0)
-            r->depth--;
-        if (had) {
-            fputc('\n', r->out);
-            for (int i = 0; i <= r->depth; i++)
-                fputs("  ", r->out);
-        }
-        fputc(array ? ']' : '}', r->out);
+        if (array)
+            sl_json_end_array(&r->writer);
+        else
+            sl_json_end_object(&r->writer);
         return;
     }
     if (r->text_indent > 0)

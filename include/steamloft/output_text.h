@@ -1,6 +1,7 @@
 /* output_text: the summary of a run, as a readable text or as JSON.
  *
- * JSON comes from one list of calls on an sl_report: each quantity is
+ * JSON comes from one list of calls on an sl_report (written by the one JSON
+ * writer, json.h): each quantity is
  * emitted once with its JSON key (SI, unit in the key: energy_J) at full
  * precision; `decay` uses the same report for text too (label, display
  * factor and unit; three significant figures).  The text summary of `run`
@@ -20,15 +21,12 @@
 
 #include "steamloft/chain.h"
 #include "steamloft/err.h"
-
-enum { SL_REPORT_MAX_DEPTH = 8 };
+#include "steamloft/json.h"
 
 typedef struct sl_report {
     FILE *out;
-    int json;                         /* 1 JSON, 0 text */
-    int depth;                        /* nesting of JSON objects/arrays */
-    int count[SL_REPORT_MAX_DEPTH];   /* members written at each depth */
-    int in_array[SL_REPORT_MAX_DEPTH];
+    int json;                         /* 1 JSON (through the one writer, json.h), 0 text */
+    sl_json writer;                   /* the JSON state */
     int text_indent;
 } sl_report;
 
