@@ -326,13 +326,11 @@ static void run_job(sl_batch_item *j, const sl_scenario *base, const char *const
 
 /* ------------------------------------------------------------------ output */
 
-/* Full precision, as `run --json` writes them. */
-static void num(FILE *f, double x, int json)
+/* A CSV cell at full precision, as `run --json` writes them (empty for NaN). */
+static void num(FILE *f, double x)
 {
     if (isfinite(x))
         fprintf(f, "%.10g", x);
-    else if (json)
-        fputs("null", f);
 }
 
 static void csv_str(FILE *f, const char *s)
@@ -382,7 +380,7 @@ static void print_csv(FILE *f, const sl_batch *l)
 #define X_ROW(key, field)            \
     fputc(',', f);                   \
     if (ok)                          \
-        num(f, j->field, 0);
+        num(f, j->field);
         TAB_NUMBERS(X_ROW)
 #undef X_ROW
         fputc(',', f);

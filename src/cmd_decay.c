@@ -14,6 +14,7 @@
 #include "steamloft/chain.h"
 #include "steamloft/cli.h"
 #include "steamloft/cmd.h"
+#include "steamloft/output_decay.h"
 #include "steamloft/output_request.h"
 #include "steamloft/output_text.h"
 #include "steamloft/units.h"
@@ -69,8 +70,6 @@ static void usage(FILE *out)
             sl_cli_caution());
 }
 
-enum { DECAY_MAX_SHORT = 16 };
-
 typedef struct decay_opts {
     const char *profile, *scenario;
     int have_inject, have_between, have_latitude, have_area;
@@ -78,51 +77,24 @@ typedef struct decay_opts {
     int json, series, calibrate;
     sl_chain_box_input box; /* profile files, --freeze-out */
     sl_cli_sets sets;       /* --set and its short forms, in the order given */
-    char short_set[DECAY_MAX_SHORT][SL_SCENARIO_RAW_LEN + 64];
-    size_t n_short;
     sl_output_request out; /* -o, --format, --csv, --plot */
 } decay_opts;
 
-/* 1 when NAME is one of the choices of key ID. */
-static int is_choice(sl_param_id id, const char *name)
-{
-    const char *c = sl_scenario_params[id].choices;
-    size_t n = strlen(name);
-    for (const char *p = c; p && *p; p = strchr(p, '|') ? strchr(p, '|') + 1 : NULL)
-        if (strncmp(p, name, n) == 0 && (p[n] == '|' || p[n] == '\0'))
-            return 1;
-    return 0;
-}
-
-/* A short form of --set for key ID: numbers are checked against the table's
- * range here (a usage error, exit 64); an atmosphere that is no built-in
- * name becomes the box model's profile file. */
+/* A short form of --set; an atmosphere that is no built-in name is taken
+ * for the box model's profile file instead. */
 static int short_set(decay_opts *o, const sl_cli_globals *g, const char *opt, sl_param_id id, const char *arg)
 {
-    const sl_param_def *d = &sl_scenario_params[id];
     sl_err e = {0};
-    if (d->type == SL_PT_CHOICE && !is_choice(id, arg)) {
-        o->box.atmosphere[id == SL_P_STRAT_TROPICS_ATMOSPHERE ? 0 : 1] = arg;
+    int region = id == SL_P_STRAT_TROPICS_ATMOSPHERE ? 0 : 1;
+    int atmosphere = sl_scenario_params[id].type == SL_PT_CHOICE;
+    if (atmosphere && !sl_cli_is_choice(id, arg)) {
+        o->box.atmosphere[region] = arg;
         return EX_OK;
     }
-    if (d->type == SL_PT_REAL || d->type == SL_PT_INT) {
-        double v;
-        char range[160];
-        sl_scenario_range_text(id, range, sizeof range);
-        if (sl_cli_parse_double(arg, opt, &v, &e) != SL_OK)
-            return sl_cli_usage_error(g, "decay", "%s", e.msg);
-        if (!(v >= d->min_value && v <= d->max_value) || (d->type == SL_PT_INT && v != floor(v)))
-            return sl_cli_usage_error(g, "decay", "%s %s: valid range %s (%s.%s)", opt, arg, range, d->section,
-                                      d->key);
-    }
-    if (o->n_short >= DECAY_MAX_SHORT)
-        return sl_cli_usage_error(g, "decay", "%s: too many options", opt);
-    char *t = o->short_set[o->n_short++];
-    snprintf(t, sizeof o->short_set[0], "%s.%s=%s", d->section, d->key, arg);
-    if (sl_cli_sets_add(&o->sets, t, &e) != SL_OK)
+    if (sl_cli_sets_add_key(&o->sets, opt, id, arg, &e) != SL_OK)
         return sl_cli_usage_error(g, "decay", "%s", e.msg);
-    if (d->type == SL_PT_CHOICE) /* a built-in name replaces an earlier file */
-        o->box.atmosphere[id == SL_P_STRAT_TROPICS_ATMOSPHERE ? 0 : 1] = NULL;
+    if (atmosphere) /* a built-in name replaces an earlier file */
+        o->box.atmosphere[region] = NULL;
     return EX_OK;
 }
 
@@ -278,62 +250,6 @@ static int load_injection(const decay_opts *o, const sl_scenario *sc, sl_injecti
     return SL_OK;
 }
 
-/* The summary, text or JSON, through the same report as `run` (same keys). */
-static int print_summary(const sl_chain *ch, const char *source, int json, sl_err *e)
-{
-    const sl_strat_model *m = &ch->strat_model;
-    const sl_strat_result *r = &ch->strat;
-    sl_report rep;
-    sl_report_begin(&rep, stdout, json);
-    if (!json)
-        printf("steamloft decay: stratospheric box model (%zu boxes, %zu layers x 3 regions)\n", m->n_boxes,
-               m->n_layers);
-    sl_report_string(&rep, "source", source, "source");
-    sl_report_number(&rep, "span_years", sl_s_to_years(r->time_s[r->n_times - 1]), "length of the run", 1.0,
-                     "years");
-    sl_output_text_strat(&rep, m, r);
-    if (!json)
-        fputc('\n', stdout);
-    sl_report_string(&rep, "caution", sl_cli_caution(), "caution");
-    return sl_report_end(&rep, e);
-}
-
-/* The files asked for with -o/--csv/--plot: the profile, the background at
- * the event's latitude, the box-model series and scalars, and the box
- * model's keys as the provenance. */
-static int write_outputs(const decay_opts *o, const sl_chain *ch, const char *source, const sl_cli_globals *g,
-                         sl_err *e)
-{
-    sl_param_value pv[SL_P_COUNT];
-    sl_output_param params[SL_P_COUNT + 3] = {{"decay.source", source, 0, NULL}};
-    size_t np = 1, n = sl_scenario_provenance(&ch->scenario, pv, SL_P_COUNT);
-    for (size_t i = 0; i < n; i++)
-        if (strncmp(pv[i].name, "strat.", 6) == 0 || strcmp(pv[i].name, "site.month") == 0) {
-            sl_output_params_from_provenance(&pv[i], 1, &params[np]);
-            np++;
-        }
-    for (int i = 0; i < 2; i++)
-        if (o->box.atmosphere[i])
-            params[np++] = (sl_output_param){i ? "decay.extratropics_atmosphere" : "decay.tropics_atmosphere",
-                                             o->box.atmosphere[i], 0, "set"};
-    sl_output_strat os;
-    SL_TRY_RETURN(e, sl_output_strat_init(&os, &ch->strat_model, &ch->strat, e));
-    char title[600], event_time[32];
-    snprintf(title, sizeof title, "steamloft decay of %s", source);
-    /* Nominal date: the month may be known, the day and year are not. */
-    int month = ch->strat_params.start_month;
-    snprintf(event_time, sizeof event_time, "2000-%02d-01 00:00:00", month >= 1 && month <= 12 ? month : 1);
-    double lat = ch->injection.latitude_deg, edge = ch->strat_params.tropics_edge_deg;
-    const sl_atmosphere *atm = &ch->strat_atmosphere[lat < -edge || lat > edge ? 1 : 0];
-    sl_output_view v = {&ch->injection, atm, &os.series, os.scalars, os.n_scalars, params, np, title,
-                        o->profile, event_time, NULL,
-                        SL_OUTPUT_USED_ATMOSPHERE | SL_OUTPUT_USED_WATER | SL_OUTPUT_USED_STRAT,
-                        g->full_argc, g->full_argv};
-    int rc = sl_output_request_write(&o->out, &v, g, "decay", e);
-    sl_output_strat_free(&os);
-    return rc;
-}
-
 /* The decay: keys, injection, the chain from the box model on, the reports. */
 static int decay(const decay_opts *o, sl_chain *ch, const sl_cli_globals *g, sl_err *e)
 {
@@ -356,11 +272,11 @@ static int decay(const decay_opts *o, sl_chain *ch, const sl_cli_globals *g, sl_
                 "steamloft decay: warning: the tropical background '%s' has its tropopause at %.1f km; the box "
                 "model is calibrated for a tropical profile there (--tropics-atmosphere tropical)\n",
                 ch->strat_atmosphere[0].name, sl_m_to_km(ch->strat_model.tropopause_m[SL_STRAT_TROPICS]));
-    SL_TRY_RETURN(e, print_summary(ch, source, o->json, e));
+    SL_TRY_RETURN(e, sl_output_text_decay(stdout, &ch->strat_model, &ch->strat, source, o->json, e));
     if (o->series)
         sl_output_text_strat_series(stdout, &ch->strat);
     if (sl_output_request_any(&o->out))
-        SL_TRY_RETURN(e, write_outputs(o, ch, source, g, e));
+        SL_TRY_RETURN(e, sl_output_decay_write(&o->out, ch, source, o->profile, g, e));
     return SL_OK;
 }
 

@@ -862,3 +862,21 @@ int sl_output_text_calibration(FILE *out, const sl_strat_params *p,
         SL_FAIL_RETURN(e, SL_EIO, "writing the calibration: write error");
     return SL_OK;
 }
+
+int sl_output_text_decay(FILE *out, const sl_strat_model *m, const sl_strat_result *r, const char *source, int json,
+                         sl_err *e)
+{
+    sl_report rep;
+    sl_report_begin(&rep, out, json);
+    if (!json)
+        fprintf(out, "steamloft decay: stratospheric box model (%zu boxes, %zu layers x 3 regions)\n", m->n_boxes,
+                m->n_layers);
+    sl_report_string(&rep, "source", source, "source");
+    sl_report_number(&rep, "span_years", sl_s_to_years(r->time_s[r->n_times - 1]), "length of the run", 1.0,
+                     "years");
+    sl_output_text_strat(&rep, m, r);
+    if (!json)
+        fputc('\n', out);
+    sl_report_string(&rep, "caution", sl_cli_caution(), "caution");
+    return sl_report_end(&rep, e);
+}

@@ -54,6 +54,12 @@ struct sl_strat_model;
 struct sl_strat_result;
 void sl_output_text_strat(sl_report *r, const struct sl_strat_model *m, const struct sl_strat_result *s);
 
+/* The summary of `decay` (text or JSON): what was decayed (SOURCE), the
+ * length of the run and the box-model section run's summary has, with the
+ * same keys, and the caution. */
+int sl_output_text_decay(FILE *out, const struct sl_strat_model *m, const struct sl_strat_result *r,
+                         const char *source, int json, sl_err *e);
+
 /* The box model's time series as CSV (`decay --series`): time in days, the
  * global excess, anomaly and columns, the forcing and each sink, %.6g. */
 void sl_output_text_strat_series(FILE *out, const struct sl_strat_result *r);
