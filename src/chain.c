@@ -187,6 +187,7 @@ static int run_strat(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     if (!changed && !sl_strat_params_equal(&p, &ch->strat_params))
         changed = 1;
     if (changed) {
+        sl_strat_response_free(&ch->strat_response);
         sl_strat_result_free(&ch->strat);
         sl_strat_model_free(&ch->strat_model);
         ch->have_strat_model = 0;
@@ -201,7 +202,13 @@ static int run_strat(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         ch->strat_params = p;
         ch->have_strat_model = 1;
     }
-    SL_TRY_RETURN(e, sl_strat_run(&ch->strat_model, &ch->injection, &ch->strat, e));
+    if (!ch->strat_linear) {
+        SL_TRY_RETURN(e, sl_strat_run(&ch->strat_model, &ch->injection, &ch->strat, e));
+        return SL_OK;
+    }
+    if (ch->strat_response.rows == NULL)
+        SL_TRY_RETURN(e, sl_strat_response_init(&ch->strat_response, &ch->strat_model, e));
+    SL_TRY_RETURN(e, sl_strat_run_linear(&ch->strat_model, &ch->strat_response, &ch->injection, &ch->strat, e));
     return SL_OK;
 }
 
@@ -272,6 +279,7 @@ void sl_chain_free(sl_chain *ch)
     sl_partition_free(&ch->partition);
     sl_plume_free(&ch->plume);
     sl_injection_free(&ch->injection);
+    sl_strat_response_free(&ch->strat_response);
     sl_strat_result_free(&ch->strat);
     sl_strat_model_free(&ch->strat_model);
     for (int i = 0; i < 2; i++)

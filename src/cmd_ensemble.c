@@ -284,6 +284,7 @@ typedef struct ens_chain {
     out_id which[O_N_OUT];
     sl_ens_output outputs[O_N_OUT];
     double stage_s[SL_CHAIN_N_TIMED]; /* summed over the workspaces when they are freed */
+    int strat_fixed;         /* no input changes the box model: run it by its linear response */
 } ens_chain;
 
 typedef struct chain_ws {
@@ -327,6 +328,7 @@ static void *chain_ws_new(void *ctx, sl_err *e)
         return NULL;
     }
     w->owner = c;
+    w->chain.strat_linear = c->strat_fixed;
     double si[SL_P_COUNT + 16];
     for (size_t k = 0; k < c->plan->n_inputs && k < sizeof si / sizeof si[0]; k++)
         si[k] = sl_dist_median(&c->plan->inputs[k].dist) * c->plan->inputs[k].to_si;
@@ -403,6 +405,13 @@ static void ens_chain_init(ens_chain *c, const sl_scenario *sc, const sl_ens_pla
     c->base = sc;
     c->plan = p;
     c->ids = ids;
+    /* The box model (its propagators and linear response) depends on the
+     * [strat] keys and the month only; when none is uncertain it is built
+     * once per thread and each member costs a few dot products. */
+    c->strat_fixed = 1;
+    for (size_t k = 0; k < p->n_inputs; k++)
+        if (strcmp(sl_scenario_params[ids[k]].section, "strat") == 0 || ids[k] == SL_P_SITE_MONTH)
+            c->strat_fixed = 0;
     for (int k = 0; k < O_N_OUT; k++) {
         if (out_table[k].only == FOR_IMPACTOR && sc->kind != SL_SCENARIO_IMPACTOR)
             continue;
