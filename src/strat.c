@@ -1012,6 +1012,7 @@ void sl_strat_result_free(sl_strat_result *r)
     free(r->early_area_m2);
     free(r->early_column_kg_m2);
     free(r->work);
+    free(r->linear);
     memset(r, 0, sizeof *r);
 }
 
@@ -1038,7 +1039,8 @@ int sl_strat_result_init(sl_strat_result *r, const sl_strat_model *m, sl_err *e)
     r->early_area_m2 = calloc(r->n_early, sizeof(double));
     r->early_column_kg_m2 = calloc(r->n_early, sizeof(double));
     r->work = calloc(2 * m->n_aug, sizeof(double));
-    if (!r->time_s || !r->box_excess_kg || !r->sink_kg || !r->global_excess_kg || !r->global_anomaly_mole_fraction ||
+    r->linear = calloc(nt * SL_STRAT_RESPONSE_ROWS, sizeof(double));
+    if (!r->linear || !r->time_s || !r->box_excess_kg || !r->sink_kg || !r->global_excess_kg || !r->global_anomaly_mole_fraction ||
         !r->layer_anomaly_mole_fraction || !r->global_column_kg_m2 || !r->local_column_kg_m2 ||
         !r->percent_of_background || !r->forcing_W_m2 || !r->early_time_s || !r->early_area_m2 ||
         !r->early_column_kg_m2 || !r->work) {
@@ -1485,6 +1487,7 @@ _Static_assert(sizeof(sl_strat_params) == 20 * sizeof(double) + 2 * sizeof(doubl
 
 /* Rows of the response: what record_series needs, plus the total mass. */
 enum { RESP_EXCESS = 0, RESP_FORCING, RESP_REGION0, RESP_TOTAL = RESP_REGION0 + SL_STRAT_N_REGIONS, RESP_ROWS };
+_Static_assert((int)RESP_ROWS == (int)SL_STRAT_RESPONSE_ROWS, "SL_STRAT_RESPONSE_ROWS");
 
 void sl_strat_response_free(sl_strat_response *rs)
 {
@@ -1536,18 +1539,19 @@ int sl_strat_response_init(sl_strat_response *rs, const sl_strat_model *m, sl_er
                     rs->clip[k * nb + b] = u[bt];
                     rs->clip_max[b] = fmax(rs->clip_max[b], u[bt]);
                 }
-            double *row = rs->rows + i * RESP_ROWS * nb;
+            /* Column b of the response (what a unit mass in box b gives). */
+            double *row = rs->rows + b * nr * RESP_ROWS + i * RESP_ROWS;
             double q = 0.0, f = 0.0, tot = 0.0;
             for (size_t a = 0; a < nb; a++) {
                 q += u[a];
                 f += m->box_forcing_W_m2_per_kg[a] * u[a];
-                row[(RESP_REGION0 + (size_t)m->box_region[a]) * nb + b] += u[a];
+                row[RESP_REGION0 + (size_t)m->box_region[a]] += u[a];
             }
             for (size_t a = 0; a < n; a++)
                 tot += u[a];
-            row[RESP_EXCESS * nb + b] = q;
-            row[RESP_FORCING * nb + b] = f;
-            row[RESP_TOTAL * nb + b] = tot;
+            row[RESP_EXCESS] = q;
+            row[RESP_FORCING] = f;
+            row[RESP_TOTAL] = tot;
         }
     }
     free(y);
@@ -1607,14 +1611,27 @@ int sl_strat_run_linear(const sl_strat_model *m, const sl_strat_response *rs, co
     double injected = q0 + sinks0, worst = 0.0;
     r->injected_kg = injected;
     r->initial_excess_kg = q0;
+    /* All rows at once, R y as a sum of the response's columns (contiguous,
+     * so the inner loop vectorises); boxes without water are skipped. */
+    size_t nk = m->n_run * RESP_ROWS;
+    double *out = r->linear;
+    memset(out, 0, nk * sizeof *out);
+    for (size_t b = 0; b < nb; b++) {
+        const double yb = y[b];
+        if (yb == 0.0)
+            continue;
+        const double *restrict col = rs->rows + b * nk;
+        for (size_t k = 0; k < nk; k++)
+            out[k] += col[k] * yb;
+    }
     for (size_t i = 0; i < m->n_run; i++) {
-        const double *row = rs->rows + i * RESP_ROWS * nb;
-        double q = i == 0 ? q0 : dot(row + RESP_EXCESS * nb, y, nb);
-        double f = dot(row + RESP_FORCING * nb, y, nb);
+        const double *row = out + i * RESP_ROWS;
+        double q = i == 0 ? q0 : row[RESP_EXCESS];
+        double f = row[RESP_FORCING];
         double col[SL_STRAT_N_REGIONS];
         for (int g = 0; g < SL_STRAT_N_REGIONS; g++)
-            col[g] = dot(row + (RESP_REGION0 + (size_t)g) * nb, y, nb);
-        double tot = dot(row + RESP_TOTAL * nb, y, nb) + sinks0;
+            col[g] = row[RESP_REGION0 + (size_t)g];
+        double tot = row[RESP_TOTAL] + sinks0;
         record_series(m, r, i, (double)i * m->par.step_s, q, f, col, a0, inj->latitude_deg, rc_cloud);
         worst = fmax(worst, fabs(tot - injected) / injected);
     }

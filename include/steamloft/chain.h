@@ -63,7 +63,7 @@ typedef struct sl_chain {
     int strat_linear;              /* set by the caller: the box model by its linear response
                                       (sl_strat_run_linear; ensembles), built once per model */
     sl_strat_response strat_response;
-    double stage_s[SL_CHAIN_N_TIMED]; /* wall-clock seconds per stage, summed over runs */
+    double stage_s[SL_CHAIN_N_TIMED]; /* thread CPU seconds per stage, summed over runs */
 } sl_chain;
 
 /* Run every stage for the finished scenario SC into CH.  On failure CH keeps

@@ -40,6 +40,9 @@ enum {
     SL_STRAT_N_REGIONS = 3
 };
 
+/* Rows of the linear response per output time (sl_strat_response). */
+enum { SL_STRAT_RESPONSE_ROWS = 6 };
+
 /* Fixed layer edges above the bottom layer, km (boundary unit, converted once). */
 #define SL_STRAT_EDGES_KM {16.0, 20.0, 25.0, 30.0, 35.0, 40.0, 50.0, 60.0, 70.0, 85.0, 100.0}
 enum { SL_STRAT_N_FIXED_EDGES = 11, SL_STRAT_MAX_LAYERS = SL_STRAT_N_FIXED_EDGES,
@@ -195,6 +198,7 @@ typedef struct sl_strat_result {
     /* Workspace (private). */
     size_t n_run;
     double *work;
+    double *linear;                     /* n_run x SL_STRAT_RESPONSE_ROWS (sl_strat_run_linear) */
 } sl_strat_result;
 
 /* Allocate RESULT for model M (once; reusable for many runs). */
@@ -222,7 +226,8 @@ int sl_strat_run_boxes(const sl_strat_model *m, const double *box_kg, sl_strat_r
 typedef struct sl_strat_response {
     size_t n_boxes, n_run, n_steps;
     sl_strat_params par;  /* of the model it was built for */
-    double *rows;         /* [n_run][rows][n_boxes]: excess, forcing, excess per region, total */
+    double *rows;         /* [n_boxes][n_run][SL_STRAT_RESPONSE_ROWS]: excess, forcing, excess
+                             per region, total mass, per unit mass in each box */
     double *clip;         /* [n_steps][n_boxes]: tropical bottom box after each internal step */
     double *clip_max;     /* [n_boxes]: the largest of those (and of t = 0) per box */
 } sl_strat_response;
