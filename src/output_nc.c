@@ -622,3 +622,25 @@ int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_op
     free(set);
     return rc;
 }
+
+/* ------------------------------------------------------------ for the other netCDF writers */
+
+int sl_output_nc_check(int status, int ncid, int varid, const char *path, const char *what, const char *name,
+                       sl_err *e)
+{
+    if (status == NC_NOERR)
+        return SL_OK;
+    ncw w;
+    memset(&w, 0, sizeof w);
+    w.ncid = ncid;
+    w.path = path;
+    return nc_fail(&w, varid, what, name, status, e, __LINE__);
+}
+
+int sl_output_nc_att_text(int ncid, int varid, const char *path, const char *name, const char *text, sl_err *e)
+{
+    if (text == NULL)
+        return SL_OK;
+    return sl_output_nc_check(nc_put_att_text(ncid, varid, name, strlen(text), text), ncid, varid, path,
+                              "attribute", name, e);
+}
