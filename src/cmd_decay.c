@@ -165,9 +165,11 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
         switch (c) {
         case 'h': usage(stdout); *done = 1; return EX_OK;
         case O_INJECT:
+            /* Upper end: about the mass of all the air above 100 hPa (a tenth of
+             * the atmosphere's 5.1e18 kg; common practice, no source). */
             rc = number_opt(g, "--inject", 0.0, HUGE_VAL, &o->inject_kg, &o->have_inject);
-            if (rc == EX_OK && !(o->inject_kg > 0.0))
-                return sl_cli_usage_error(g, "decay", "--inject %s: the mass must be > 0 kg", optarg);
+            if (rc == EX_OK && (!(o->inject_kg > 0.0) || o->inject_kg > 5.0e17))
+                return sl_cli_usage_error(g, "decay", "--inject %s: valid range above 0 to 5e17 kg", optarg);
             break;
         case O_BETWEEN: rc = parse_between(o, g, argc, argv); break;
         case O_LAT: rc = number_opt(g, "--latitude", -90.0, 90.0, &o->latitude_deg, &o->have_latitude); break;

@@ -18,6 +18,9 @@ typedef sl_ens_request ens_cli;
 #define MAX_PCT SL_ENS_MAX_PCT
 #define MAX_THR SL_ENS_MAX_THR
 #define MAX_VARY SL_ENS_MAX_VARY
+/* At most 1e7 members: the per-member scalars kept for the percentiles then
+ * take about 1 GB (and a run that long takes days on a workstation). */
+enum { MAX_MEMBERS = 10000000 };
 
 /* 1 when PATH ends in EXT (case-insensitive). */
 static int has_ext(const char *path, const char *ext)
@@ -112,7 +115,7 @@ static int parse_args(int argc, char **argv, ens_cli *c, const sl_cli_globals *g
         case 'n':
             if (c->sweep)
                 return sl_cli_usage_error(g, c->cmd, "--members is for 'ensemble'; a sweep has one member per grid point");
-            if (parse_size(optarg, "--members", 1, (size_t)1 << 40, &c->members, &e) != SL_OK)
+            if (parse_size(optarg, "--members", 1, (size_t)MAX_MEMBERS, &c->members, &e) != SL_OK)
                 return sl_cli_usage_error(g, c->cmd, "%s", e.msg);
             break;
         case 's':
