@@ -213,6 +213,19 @@ static void udunits_of_key(int id, char *buf, size_t n)
         snprintf(buf, n, "%.*s %s-1", (int)(us - suffix), suffix, den);
 }
 
+/* Chunks of NC_BUF_ROWS members (one flush), and a chunk cache of a few
+ * chunks, so the library holds a bounded amount of a variable in memory
+ * however many members are written (its default cache grows with the data). */
+static int member_chunks(sl_ens_sink *s, int id, int nd, size_t inner, size_t elem_bytes, sl_err *e)
+{
+    size_t n = s->plan->n_members, rows = n < NC_BUF_ROWS ? n : NC_BUF_ROWS;
+    size_t ch[2] = {rows ? rows : 1, inner};
+    NCS(s, id, "chunking", "", nc_def_var_chunking(s->nc, id, NC_CHUNKED, ch));
+    size_t bytes = ch[0] * (nd > 1 ? inner : 1) * elem_bytes;
+    NCS(s, id, "chunk cache", "", nc_set_var_chunk_cache(s->nc, id, 4 * bytes, 7, 1.0f));
+    return SL_OK;
+}
+
 static int def_double(sl_ens_sink *s, const char *name, int nd, const int *dims, const char *long_name,
                       const char *units, int fill, int *id, sl_err *e)
 {
@@ -237,13 +250,16 @@ static int nc_define(sl_ens_sink *s, const char *path, size_t np, const double *
     NCS(s, NC_GLOBAL, "defining dimension", "realization", nc_def_dim(s->nc, "realization", n, &dm));
     NCS(s, NC_GLOBAL, "defining dimension", "reason_len", nc_def_dim(s->nc, "reason_len", SL_ENS_REASON_LEN, &dr));
     NCS(s, NC_GLOBAL, "defining variable", "realization", nc_def_var(s->nc, "realization", NC_INT, 1, &dm, &s->nc_real));
+    SL_TRY_RETURN(e, member_chunks(s, s->nc_real, 1, 1, sizeof(int), e));
     SL_TRY_RETURN(e, att(s, s->nc_real, "standard_name", "realization", e));
     SL_TRY_RETURN(e, att(s, s->nc_real, "long_name", "ensemble member index", e));
     SL_TRY_RETURN(e, att(s, s->nc_real, "units", "1", e));
     NCS(s, NC_GLOBAL, "defining variable", "status", nc_def_var(s->nc, "status", NC_INT, 1, &dm, &s->nc_status));
+    SL_TRY_RETURN(e, member_chunks(s, s->nc_status, 1, 1, sizeof(int), e));
     SL_TRY_RETURN(e, att(s, s->nc_status, "long_name", "member status: 0 ok, otherwise the failure status", e));
     int dims2[2] = {dm, dr};
     NCS(s, NC_GLOBAL, "defining variable", "reason", nc_def_var(s->nc, "reason", NC_CHAR, 2, dims2, &s->nc_reason));
+    SL_TRY_RETURN(e, member_chunks(s, s->nc_reason, 2, SL_ENS_REASON_LEN, 1, e));
     SL_TRY_RETURN(e, att(s, s->nc_reason, "long_name", "why the member failed (empty when ok)", e));
     for (size_t k = 0; k < p->n_inputs; k++) {
         char name[SL_ENS_KEY_LEN], desc[160], units[64];
@@ -253,12 +269,15 @@ static int nc_define(sl_ens_sink *s, const char *path, size_t np, const double *
                 *q = '_';
         udunits_of_key(s->ids[k], units, sizeof units);
         SL_TRY_RETURN(e, def_double(s, name, 1, &dm, p->inputs[k].key, units, 0, &s->nc_in[k], e));
+        SL_TRY_RETURN(e, member_chunks(s, s->nc_in[k], 1, 1, sizeof(double), e));
         sl_dist_describe(&p->inputs[k].dist, desc, sizeof desc);
         SL_TRY_RETURN(e, att(s, s->nc_in[k], "sampled_from", desc, e));
     }
-    for (size_t j = 0; j < m->n_outputs; j++)
+    for (size_t j = 0; j < m->n_outputs; j++) {
         SL_TRY_RETURN(e, def_double(s, m->outputs[j].name, 1, &dm, m->outputs[j].long_name, m->outputs[j].units, 1,
                                     &s->nc_out[j], e));
+        SL_TRY_RETURN(e, member_chunks(s, s->nc_out[j], 1, 1, sizeof(double), e));
+    }
     if (nb > 0 || nt > 0) {
         NCS(s, NC_GLOBAL, "defining dimension", "percentile", nc_def_dim(s->nc, "percentile", np, &dp));
         SL_TRY_RETURN(e, def_double(s, "percentile", 1, &dp, "percentile over the successful members", "percent",
@@ -277,6 +296,7 @@ static int nc_define(sl_ens_sink *s, const char *path, size_t np, const double *
         int dmb[2] = {dm, dbnd};
         NCS(s, NC_GLOBAL, "defining variable", "lofted_water_mass",
             nc_def_var(s->nc, "lofted_water_mass", NC_FLOAT, 2, dmb, &s->nc_prof));
+        SL_TRY_RETURN(e, member_chunks(s, s->nc_prof, 2, nb, sizeof(float), e));
         float ff = ENS_NC_FILL_F;
         NCS(s, s->nc_prof, "attribute", "_FillValue", nc_put_att_float(s->nc, s->nc_prof, "_FillValue", NC_FLOAT, 1, &ff));
         SL_TRY_RETURN(e, att(s, s->nc_prof, "long_name",
