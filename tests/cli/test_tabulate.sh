@@ -38,7 +38,7 @@ then sl_ok "every example's row equals run --json ($n_ex files)"; else sl_fail "
 
 # Text: one row per scenario plus the headings and the caution.
 sl_expect_exit 0 "tabulate text" "$SL_BIN" tabulate "$SL_TMP"/ex/*.ini
-rows=$(grep -c -E '(impactor|explosion) +(thermal|blow-out)' "$SL_TMP/out")
+rows=$(grep -c -E '(impactor|explosion) +(thermal|blow-out|ballistic)' "$SL_TMP/out")
 [ "$rows" -eq "$n_ex" ] && sl_ok "text has one row per scenario ($rows)" || sl_fail "text has $rows rows, want $n_ex"
 sl_expect_grep "$SL_TMP/out" "^demo .* blow-out .* 113 " "the demo row shows its water above the tropopause (3 significant figures)"
 sl_expect_grep "$SL_TMP/out" "Screening estimate" "the table carries the caution"
