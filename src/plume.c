@@ -68,7 +68,7 @@
  * spheres; three profiles) all rise without failure, the energy budget closed
  * to 4e-6 and the water budget to 1e-15.
  *
- * Cloud rule.  The young cloud fills the layer between the neutral-buoyancy
+ * Cloud rule.  The young cloud spans the layer between the neutral-buoyancy
  * level z_N (where the buoyancy force first vanished) and the highest reach
  * of the thermal's top, z_apex + b_apex: the overshooting thermal collapses
  * and spreads between its neutral height and its overshoot height, the
@@ -80,27 +80,31 @@
  * cloud), which put the cloud bottom far below the observed one; the rule
  * used reproduces the 1.69 Mt surface-burst cloud (top 21.6 km, bottom
  * 12.3 km) within the tolerance of tests/test_plume.c.  In the Boussinesq
- * limit it spans [2^-1/4, 1 + alpha] z_max.
+ * limit it spans [2^-1/4, 1 + alpha] z_max.  Within the layer the mass is
+ * placed where it is: densest at the neutral level, where the collapsing
+ * thermal spreads as an umbrella, and thinning linearly to nothing at the top
+ * of the overshoot (a triangular profile with its mode at z_N; Morton, Taylor
+ * & Turner 1956; Sparks 1986; Woods 1988), not spread evenly.
  *
- * Regime.  When the initial radius (the source's, or the radius its gas would
- * fill at ambient pressure when that is larger) exceeds the scale height
- * H = p/(rho g) at the source, the release is not a thermal in an atmosphere:
- * it blows out of it.  The regime is then marked "blow-out" (in every output)
- * and the water is placed by the simple rule that follows.  The release is
- * still followed with the thermal equations above, which is the best estimate
- * this model has of how high the buoyant gas goes; a thermal whose centre
- * reaches the top of the atmosphere profile stops there and its water fills
- * the layer of its radius below the profile top; one whose top (apex +
- * radius) passes the profile top keeps the cloud rule, its reach clipped at
- * the profile top, and is marked blow-out too.  An earlier rule placed a
- * blown-out release over its own initial extent [z - r, z + r] without any
- * rise; that made stratospheric water fall by six orders of magnitude when a
- * sea plume crossed r = H (a 340 m body lofted less than a 320 m one), so it
- * was dropped (2026-12-01).  Blow-out material in nature is thrown higher
- * still and falls back over a wide area; the numbers in this regime are the
- * roughest of the tool and are flagged everywhere.  Each thermal also
- * reports its radius over the scale height at the apex: near 1 for a 1-2 Mt
- * cloud, 2.2 for 15 Mt, where the bulk thermal starts to strain.
+ * Ballistic regime: see sl_plume_rise's helpers ballistic_weight and
+ * ballistic_flight below (and docs/physics.md section 6).
+ *
+ * Regimes.  X = r/H, the initial radius (the source's, or the radius its gas
+ * would fill at ambient pressure when that is larger) over the scale height
+ * H = p/(rho g) at the source.  X <= 1: a thermal.  1 < X < 4: "blow-out",
+ * a share ln X / ln 4 of the water is ballistic, the rest follows the
+ * thermal (so results change smoothly across the crossing).  X >= 4, or a
+ * thermal whose centre reaches 120 km: "ballistic", all the gas (after the
+ * spray has fallen back) flies above the atmosphere and re-enters
+ * (ballistic_flight: launch speed sqrt(2 e) from the gas's specific energy,
+ * Melosh 1989 ch. 5; 45 degree mass-mean path; re-entry over the disc of its
+ * range, stopped where it has met its own mass of air, water left in the two
+ * scale heights above; Shuvalov 1999; Pierazzo et al. 2010).  A thermal whose
+ * top (apex + radius) passes 120 km but not its centre keeps the cloud rule,
+ * its reach clipped at 120 km.  The regime of each source is in every
+ * output, with a validity line; these numbers are the roughest of the tool.
+ * Each thermal also reports its radius over the scale height at the apex:
+ * near 1 for a 1-2 Mt cloud, 2.2 for 15 Mt, where the bulk thermal strains.
  *
  * Units: SI throughout (m, s, kg, J, K, Pa). */
 #include "steamloft/plume.h"
@@ -1022,17 +1026,25 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
 /* Put AIR and WATER of a cloud layer [CB, CT] into the bands (freeze-out of
  * injection.c): the share below the lowest band is left out and tallied, a
  * layer reaching above the top band is pressed into it. */
-static int add_layer(sl_plume *pl, sl_injection *inj, const sl_atmosphere *atm, double cb, double ct, double air,
-                     double water, sl_err *e)
+static int add_layer(sl_plume *pl, sl_injection *inj, const sl_atmosphere *atm, double cb, double ct, double peak,
+                     double air, double water, sl_err *e)
 {
     if (!(water > 0.0))
         return SL_OK;
     double band_lo = inj->band_bottom_m[0], band_hi = inj->band_top_m[inj->n_bands - 1];
     double keep = 1.0;
+    int tent = ct > cb && peak >= cb && peak <= ct;
     if (ct <= band_lo)
         keep = 0.0;
-    else if (cb < band_lo)
-        keep = (ct - band_lo) / (ct - cb);
+    else if (cb < band_lo) {
+        double u = band_lo - cb;
+        if (!tent)
+            keep = (ct - band_lo) / (ct - cb);
+        else if (band_lo <= peak)
+            keep = 1.0 - u * u / ((ct - cb) * (peak - cb));
+        else
+            keep = (ct - band_lo) * (ct - band_lo) / ((ct - cb) * (ct - peak));
+    }
     pl->water_below_bands_kg += water * (1.0 - keep);
     if (keep == 0.0)
         return SL_OK;
@@ -1041,6 +1053,7 @@ static int add_layer(sl_plume *pl, sl_injection *inj, const sl_atmosphere *atm, 
     c.top_m = fmin(fmax(ct, band_lo), band_hi);
     c.air_kg = air * keep;
     c.water_kg = water * keep;
+    c.peak_m = tent ? fmin(fmax(peak, c.bottom_m), c.top_m) : NAN;
     sl_freeze_out fo;
     SL_TRY_RETURN(e, sl_injection_add_cloud(inj, atm, &c, pl->par.ice_sediment_fraction, &fo, e));
     pl->water_sedimented_kg += fo.sedimented_kg;
@@ -1107,13 +1120,18 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
         t_last = fmax(t_last, th->apex_time_s);
         /* The thermal part and the ballistic part, each in its layer. */
         double f = th->ballistic_fraction;
-        SL_TRY_RETURN(e, add_layer(pl, inj, atm, th->cloud_bottom_m, th->cloud_top_m, th->air_kg * (1.0 - f),
-                                   water * (1.0 - f), e));
+        /* Placement by mass: the thermal's cloud is densest at its neutral-
+         * buoyancy level, where the umbrella spreads, and thins to nothing at
+         * the top of the overshoot (Morton, Taylor & Turner 1956; Sparks 1986;
+         * Woods 1988): a triangular profile with its mode at z_N. */
+        SL_TRY_RETURN(e, add_layer(pl, inj, atm, th->cloud_bottom_m, th->cloud_top_m, th->neutral_altitude_m,
+                                   th->air_kg * (1.0 - f), water * (1.0 - f), e));
         if (f > 0.0) {
             /* The re-entering gas mixes with the air that stopped it, as much
              * again as its own mass (ballistic_flight). */
             double air = 2.0 * th->air_kg + water;
-            SL_TRY_RETURN(e, add_layer(pl, inj, atm, th->reentry_bottom_m, th->reentry_top_m, air * f, water * f, e));
+            SL_TRY_RETURN(e, add_layer(pl, inj, atm, th->reentry_bottom_m, th->reentry_top_m, NAN, air * f, water * f,
+                                       e));
         }
         area += (1.0 - f) * fmin(SL_PI * th->apex_radius_m * th->apex_radius_m, SL_EARTH_AREA_M2) +
                 f * fmin(SL_PI * th->reentry_range_m * th->reentry_range_m, SL_EARTH_AREA_M2);

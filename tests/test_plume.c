@@ -486,7 +486,7 @@ START_TEST(test_freeze_out)
     ck_assert_msg(sl_atmosphere_init(&atm, "tropical", &e) == SL_OK, "%s", e.msg);
     sl_injection inj = {0};
     ck_assert_int_eq(sl_injection_init_uniform(&inj, 0.0, 100e3, 1e3, &e), SL_OK);
-    sl_young_cloud c = {17000.0, 18000.0, 1.0e9, 1.0e8};
+    sl_young_cloud c = {17000.0, 18000.0, 1.0e9, 1.0e8, NAN};
     sl_freeze_out fo;
     ck_assert_int_eq(sl_injection_add_cloud(&inj, &atm, &c, 0.5, &fo, &e), SL_OK);
     sl_atmos_state a;

@@ -7,9 +7,12 @@
  * entrainment velocity alpha*w through the surface of a sphere, moist
  * thermodynamics (vapour, liquid, ice in equilibrium; the entrained air brings
  * its humidity; latent heats of the water module) and fallout of condensate.
- * The apex is found by event detection (root of w(t)).  The young cloud fills
+ * The apex is found by event detection (root of w(t)).  The young cloud spans
  * the layer from the neutral-buoyancy level to the highest reach of the
- * thermal's top (apex + radius), the umbrella layer of Sparks (1986).
+ * thermal's top (apex + radius), the umbrella layer of Sparks (1986), its mass
+ * densest at the neutral level and thinning to the top (triangular profile).
+ * Releases wider than the scale height are partly or wholly ballistic
+ * (sl_plume_regime; plume.c "Ballistic regime").
  * Several sources rise on their own; their water adds up in the injection
  * profile, after freeze-out (sl_injection_add_cloud).  The equations, units
  * and references are in the header comment of src/plume.c.
