@@ -698,6 +698,8 @@ static void finish_budget(sl_plume_work *w, sl_thermal *out, const double *s, co
  * result does not depend on where the profile ends (atmosphere branch,
  * issue 12; the ballistic regime replaces this stop). */
 #define THERMAL_TOP_M 120000.0
+/* Cloud top of a wide thermal above its centre, in ambient scale heights (see sl_plume_rise). */
+#define TOP_SCALE_HEIGHTS 3.0
 
 /* ------------------------------------------------------------------ ballistic */
 
@@ -984,7 +986,12 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     out->apex_altitude_m = d.z_m;
     out->apex_radius_m = d.radius_m;
     out->apex_scale_height_m = d.amb.pressure_Pa / (d.amb.density_kg_m3 * d.g_m_s2);
-    out->top_altitude_m = d.z_m + d.radius_m;
+    /* Highest reach: apex + radius, but for a thermal wider than a few scale
+     * heights the energetics: at its apex the gas has about the ambient
+     * temperature, so its mass is stratified with the ambient scale height
+     * and only e^-3 = 5 % of it lies more than TOP_SCALE_HEIGHTS above the
+     * centre (PRACTICE, no source for the 5 %); the two agree at b = 3 H. */
+    out->top_altitude_m = d.z_m + fmin(d.radius_m, TOP_SCALE_HEIGHTS * out->apex_scale_height_m);
     finish_budget(w, out, w->y, &d);
     if (out->regime == SL_REGIME_BLOWOUT) {
         if (!have_neutral)

@@ -49,6 +49,20 @@ sl_expect_grep "$SL_TMP/out" "water above the tropopause .* Tg vapour" "text sum
 sl_expect_grep "$SL_TMP/out" "= above the tropopause" "text summary prints the budget table"
 sl_expect_grep "$SL_TMP/out" "Where the lofted water sits" "text summary lists the bands"
 
+# Castle BRAVO, 15 Mt surface burst at Bikini: cloud top near 40 km (Glasstone & Dolan 1977, fig. 2.16
+# and text; from memory), within 15 %, with the same heat rule and constants as NECTAR; the burst
+# over the sea vaporises sea water (partition.c coupling) and the budget names it.
+printf '[explosion]\nenergy_Mt = 15\naltitude_m = 0\n[site]\nlatitude_deg = 11.7\natmosphere = tropical\n' >"$SL_TMP/bravo.ini"
+sl_expect_exit 0 "run a 15 Mt surface burst" "$SL_BIN" run --json "$SL_TMP/bravo.ini"
+if /usr/bin/python3 - "$SL_TMP/out" <<'PY'
+import json, sys
+d = json.load(open(sys.argv[1]))
+assert abs(d["cloud_top_m"] / 40000.0 - 1) < 0.15, d["cloud_top_m"]
+assert d["water_vaporized_kg"] > 0 and d["water_source_kg"] >= d["water_vaporized_kg"], d["water_vaporized_kg"]
+print("# 15 Mt: top %.1f km, sea water vaporised %.3g Tg" % (d["cloud_top_m"] / 1e3, d["water_vaporized_kg"] / 1e9))
+PY
+then sl_ok "BRAVO cloud top within 15 %, sea water vaporised"; else sl_fail "BRAVO cloud top or sea water"; fi
+
 # A wider entrainment makes a lower cloud (MTT: z_max ~ alpha^-3/4).
 printf '[plume]\nentrainment_coefficient = 0.35\n' >>"$SL_TMP/nectar.ini"
 sl_expect_exit 0 "run with alpha 0.35" "$SL_BIN" run --json "$SL_TMP/nectar.ini"
