@@ -127,7 +127,7 @@ typedef struct sl_plume {
     size_t n_thermals;
     sl_thermal th[SL_MAX_SOURCES];
     /* Whole event (all sources). */
-    int regime;                    /* SL_REGIME_BLOWOUT when any source is */
+    int regime;                    /* the highest regime of its sources */
     double plume_top_m;            /* highest thermal top */
     double cloud_bottom_m, cloud_top_m; /* envelope of the clouds */
     double neutral_altitude_m;     /* of the source carrying the most water to its apex */
@@ -161,7 +161,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
 /* Rise every source of SRC, place each cloud, apply the freeze-out and add the
  * water into INJ (which must have bands; its masses are cleared first, its
  * tropopause set from ATM), and fill the event totals.  A cloud's share
- * below the lowest band is left out (below_bands_kg); a cloud reaching above
+ * below the lowest band is left out (water_below_bands_kg); a cloud reaching above
  * the top band is pressed into it.  Allocates nothing. */
 int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list *src, sl_injection *inj, sl_err *e);
 
