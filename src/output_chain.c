@@ -74,12 +74,20 @@ int sl_output_chain_init(sl_output_chain *oc, const sl_chain *ch, const sl_strat
                    pl->stratospheric_vapor_kg);
         add_scalar(oc, &n, "stratospheric_ice", "of the stratospheric water: ice", "kg",
                    pl->stratospheric_ice_kg);
-        if (pl->regime != SL_REGIME_THERMAL)
+        if (pl->regime != SL_REGIME_THERMAL) {
+            /* The regime of each source (in the order of the JSON "thermals"). */
+            char per[96] = "";
+            for (size_t i = 0; i < pl->n_thermals && i < 8; i++) {
+                size_t l = strlen(per);
+                snprintf(per + l, sizeof per - l, "%s%zu %s", i ? ", " : "", i + 1,
+                         sl_plume_regime_name(pl->th[i].regime));
+            }
             snprintf(oc->regime_note, sizeof oc->regime_note,
-                     "%s regime: the release is larger than the atmosphere's scale height (or the "
-                     "thermal left the atmosphere), so it is not only a buoyant thermal; its water is "
-                     "shared between the thermal and a ballistic flight that re-enters over a wide area: "
-                     "the roughest numbers of this tool", sl_plume_regime_name(pl->regime));
+                     "%s regime (sources: %s): a release wider than the scale height is not only a "
+                     "buoyant thermal; its water is shared between the thermal and a ballistic flight "
+                     "that re-enters over a wide area: the roughest numbers of this tool",
+                     sl_plume_regime_name(pl->regime), per);
+        }
     }
 
     const sl_output_series *series = NULL;
