@@ -191,7 +191,7 @@ static int build_plan(const sl_ens_request *c, sl_scenario *sc, sl_ens_plan *p, 
 typedef enum out_id {
     O_ENERGY_MT, O_AIRBURST, O_PEAK_DEPOSITION_KM, O_ENERGY_AIR_MT, O_ENERGY_SEA_MT,
     O_WATER_VAPORIZED_TG, O_SOURCE_VAPOR_TG, O_BLOWOUT, O_SEA_BLOWOUT, O_PLUME_TOP_KM, O_CLOUD_TOP_KM,
-    O_WATER_LOFTED_TG, O_STRAT_WATER_TG, O_STRAT_ICE_TG,
+    O_WATER_RISING_TG, O_STRAT_WATER_TG, O_STRAT_VAPOR_TG, O_STRAT_ICE_TG,
     /* box model */
     O_BOX_INJECTED_TG, O_BOX_INITIAL_TG, O_EFOLDING_YEARS, O_RESIDENCE_YEARS, O_REMAINING_3Y,
     O_PERCENT_BACKGROUND, O_PEAK_ANOMALY_PPMV, O_PEAK_COLUMN_UM, O_PEAK_LOCAL_COLUMN_UM,
@@ -211,13 +211,14 @@ static const struct {
     {{"energy_at_sea_Mt", "4.184e15 J", "energy reaching the sea surface (Mt TNT)", 0}, FOR_ALL},
     {{"water_vaporized_Tg", "Tg", "sea water vaporised", 0}, FOR_ALL},
     {{"source_vapor_Tg", "Tg", "water vapour in the initial plume sources", 0}, FOR_ALL},
-    {{"blowout", "1", "1 when a plume blew out of the atmosphere (blow-out rule), 0 for thermals", 0}, FOR_ALL},
-    {{"sea_plume_blowout", "1", "1 when the plume rising from the sea blew out (no sea plume: 0)", 0}, FOR_ALL},
+    {{"blowout", "1", "1 when a source is outside the buoyant-thermal picture (blow-out or ballistic), 0 for thermals", 0}, FOR_ALL},
+    {{"sea_plume_blowout", "1", "1 when the plume rising from the sea is blow-out or ballistic (no sea plume: 0)", 0}, FOR_ALL},
     {{"plume_top_km", "km", "highest reach of the thermals", 0}, FOR_ALL},
     {{"cloud_top_km", "km", "top of the young clouds", 0}, FOR_ALL},
-    {{"water_lofted_Tg", "Tg", "water in the young clouds before freeze-out", 0}, FOR_ALL},
-    {{"strat_water_Tg", "Tg", "water vapour injected above the tropopause", 0}, FOR_ALL},
-    {{"strat_ice_Tg", "Tg", "ice remaining above the tropopause", 0}, FOR_ALL},
+    {{"water_rising_Tg", "Tg", "water in the clouds after the rise, before freeze-out", 0}, FOR_ALL},
+    {{"stratospheric_water_Tg", "Tg", "water (vapour and ice) above the tropopause", 0}, FOR_ALL},
+    {{"stratospheric_vapor_Tg", "Tg", "of it vapour", 0}, FOR_ALL},
+    {{"stratospheric_ice_Tg", "Tg", "of it ice", 0}, FOR_ALL},
     {{"box_injected_Tg", "Tg", "water (vapour and ice) entering the box model above its tropopauses", 0}, FOR_ALL},
     {{"box_initial_excess_Tg", "Tg", "box-model excess water after the young cloud's freeze-out", 0}, FOR_ALL},
     {{"efolding_years", "year", "time for the stratospheric excess to fall to 1/e (none when nothing entered)", 1}, FOR_ALL},
@@ -304,16 +305,17 @@ static double out_value(const sl_chain *ch, const sl_strat_result *b, out_id id)
             v += pt->sources.src[i].vapor_mass_kg;
         return sl_kg_to_tg(v);
     }
-    case O_BLOWOUT: return ch->plume.regime == SL_REGIME_BLOWOUT ? 1.0 : 0.0;
+    case O_BLOWOUT: return ch->plume.regime != SL_REGIME_THERMAL ? 1.0 : 0.0;
     case O_SEA_BLOWOUT:
         for (size_t i = 0; i < ch->plume.n_thermals; i++)
-            if (ch->plume.th[i].kind == SL_SOURCE_SEA_PLUME && ch->plume.th[i].regime == SL_REGIME_BLOWOUT)
+            if (ch->plume.th[i].kind == SL_SOURCE_SEA_PLUME && ch->plume.th[i].regime != SL_REGIME_THERMAL)
                 return 1.0;
         return 0.0;
     case O_PLUME_TOP_KM: return sl_m_to_km(ch->plume.plume_top_m);
     case O_CLOUD_TOP_KM: return sl_m_to_km(ch->plume.cloud_top_m);
-    case O_WATER_LOFTED_TG: return sl_kg_to_tg(ch->plume.water_lofted_kg);
+    case O_WATER_RISING_TG: return sl_kg_to_tg(ch->plume.water_rising_kg);
     case O_STRAT_WATER_TG: return sl_kg_to_tg(ch->plume.stratospheric_water_kg);
+    case O_STRAT_VAPOR_TG: return sl_kg_to_tg(ch->plume.stratospheric_vapor_kg);
     case O_STRAT_ICE_TG: return sl_kg_to_tg(ch->plume.stratospheric_ice_kg);
     case O_BOX_INJECTED_TG: return sl_kg_to_tg(b->injected_kg);
     case O_BOX_INITIAL_TG: return sl_kg_to_tg(b->initial_excess_kg);

@@ -382,7 +382,7 @@ static int profile_vars(ncw *w, const sl_output_view *v, int nv, int *zdim, sl_e
     if (isfinite(trop)) {
         SL_TRY_RETURN(e, def_scalar(w, "tropopause_altitude", trop, "tropopause_altitude",
                                     "tropopause altitude (WMO lapse-rate definition)", "m", e));
-        SL_TRY_RETURN(e, def_scalar(w, "stratospheric_water_mass", mass_above(inj, trop), NULL,
+        SL_TRY_RETURN(e, def_scalar(w, "stratospheric_water", mass_above(inj, trop), NULL,
                                     "water (vapour and condensate) lofted above the tropopause",
                                     "kg", e));
     }

@@ -1095,26 +1095,34 @@ static double cloud_room_kg(const sl_strat_model *m, int r, double a0, double z0
 }
 
 /* Distribute MASS uniformly over [z0, z1] into region R's boxes of Y;
- * returns the part below the tropopause. */
-static double place(const sl_strat_model *m, int r, double mass, double z0, double z1, double *y)
+ * returns the part below the tropopause TP.  TP is the injection's own
+ * tropopause when it has one (the plume stage's: one tropopause for the plume
+ * stage and the box model, issue 12), else the region's.  Water above TP but
+ * below the region's lowest box goes into that box, water above the top box
+ * into the top box, so every kilogram above TP enters. */
+static double place(const sl_strat_model *m, int r, double mass, double z0, double z1, double tp, double *y)
 {
     double below = 0.0, width = z1 - z0;
-    int top_box = -1;
+    int top_box = -1, bottom_box = m->box_of[r][lowest_layer(m, r)];
     for (size_t k = m->n_layers; k-- > 0;)
         if (m->box_of[r][k] >= 0) {
             top_box = m->box_of[r][k];
             break;
         }
-    double tp = m->tropopause_m[r];
     if (z0 < tp)
         below += mass * (fmin(z1, tp) - z0) / width;
-    double ztop = m->box_top_m[top_box];
+    double za = fmax(z0, tp); /* the part above the tropopause starts here */
+    if (za >= z1)
+        return below;
+    double ztop = m->box_top_m[top_box], zbot = m->box_bottom_m[bottom_box];
     if (z1 > ztop)
-        y[top_box] += mass * (z1 - fmax(z0, ztop)) / width;
+        y[top_box] += mass * (z1 - fmax(za, ztop)) / width;
+    if (za < zbot)
+        y[bottom_box] += mass * (fmin(z1, zbot) - za) / width;
     for (size_t b = 0; b < m->n_boxes; b++) {
         if (m->box_region[b] != r)
             continue;
-        double a = fmax(z0, m->box_bottom_m[b]), c = fmin(z1, m->box_top_m[b]);
+        double a = fmax(za, m->box_bottom_m[b]), c = fmin(z1, m->box_top_m[b]);
         if (c > a)
             y[b] += mass * (c - a) / width;
     }
@@ -1279,7 +1287,8 @@ static int initial_state(const sl_strat_model *m, const sl_injection *inj, sl_st
     int freeze = p->cloud_freeze_out;
     double a0 = inj->cloud_area_m2 > 0.0 ? inj->cloud_area_m2 : p->default_cloud_area_m2;
     if (!freeze && !(inj->cloud_area_m2 > 0.0)) {
-        double need = 0.0, tp = m->tropopause_m[rc_cloud];
+        double need = 0.0, tp = isfinite(inj->tropopause_altitude_m) ? inj->tropopause_altitude_m
+                                                                     : m->tropopause_m[rc_cloud];
         for (size_t i = 0; i < inj->n_bands; i++) {
             double z0 = inj->band_bottom_m[i], z1 = inj->band_top_m[i];
             double water = inj->vapor_kg[i] + inj->ice_kg[i];
@@ -1293,6 +1302,8 @@ static int initial_state(const sl_strat_model *m, const sl_injection *inj, sl_st
         a0 = fmax(a0, need);
     }
     a0 = fmin(a0, m->region_area_m2[rc_cloud]);
+    /* One tropopause: the injection's (the plume stage's) when it has one. */
+    double tp_inj = inj->tropopause_altitude_m;
     double not_entered = 0.0, frozen = 0.0;
     for (size_t i = 0; i < inj->n_bands; i++) {
         double z0 = inj->band_bottom_m[i], z1 = inj->band_top_m[i];
@@ -1303,8 +1314,8 @@ static int initial_state(const sl_strat_model *m, const sl_injection *inj, sl_st
             SL_FAIL_RETURN(e, SL_EDATA, "strat: injection band %zu has top %g m <= bottom %g m", i, z1, z0);
         if (water == 0.0)
             continue;
-        /* Young-cloud freeze-out above the tropopause of the cloud's region. */
-        double tp = m->tropopause_m[rc_cloud];
+        /* Young-cloud freeze-out above the tropopause (the injection's). */
+        double tp = isfinite(tp_inj) ? tp_inj : m->tropopause_m[rc_cloud];
         double keep = 1.0;
         if (freeze && z1 > tp) {
             double lo = fmax(z0, tp);
@@ -1317,9 +1328,10 @@ static int initial_state(const sl_strat_model *m, const sl_injection *inj, sl_st
         }
         double wk = water * keep;
         if (w_t > 0.0)
-            not_entered += place(m, SL_STRAT_TROPICS, wk * w_t, z0, z1, y);
+            not_entered += place(m, SL_STRAT_TROPICS, wk * w_t, z0, z1,
+                                 isfinite(tp_inj) ? tp_inj : m->tropopause_m[SL_STRAT_TROPICS], y);
         if (w_t < 1.0)
-            not_entered += place(m, rx, wk * (1.0 - w_t), z0, z1, y);
+            not_entered += place(m, rx, wk * (1.0 - w_t), z0, z1, isfinite(tp_inj) ? tp_inj : m->tropopause_m[rx], y);
     }
     y[nb + SL_STRAT_SINK_CLOUD_FREEZE] = frozen;
     r->not_entered_kg = not_entered;

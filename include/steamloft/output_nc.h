@@ -6,7 +6,7 @@
  *   vapor_mass_content (altitude)                    standard_name
  *       mass_content_of_water_vapor_in_atmosphere_layer, kg m-2, averaged over the Earth
  *   cloud_vapor_mass_content (altitude), cloud_area  the same over the young cloud (area known)
- *   total_vapor_mass, total_ice_mass, tropopause_altitude, stratospheric_water_mass,
+ *   total_vapor_mass, total_ice_mass, tropopause_altitude, stratospheric_water,
  *       latitude, injection_time (scalars)
  *   atm_altitude(atm_altitude) with air_temperature, air_pressure, air_density,
  *       h2o_mole_fraction (mole_fraction_of_water_vapor_in_air), buoyancy_frequency_squared,

@@ -111,7 +111,7 @@ if [ $? -eq 0 ]; then sl_ok "mean, sd, percentiles and exceedance match numpy ($
 # on the CSV (ranks with ties averaged, as scipy.stats.spearmanr does: MEM) to
 # 1e-9 (the JSON has 10 digits; the CSV holds the exact doubles).
 (cd "$SL_TMP/t1" && "$SL_BIN" ensemble ../ens.ini -n 300 --seed 11 --json -p 1,99 \
-  --exceed 'strat_water_Tg>=1' >summary.json 2>/dev/null)
+  --exceed 'stratospheric_water_Tg>=1' >summary.json 2>/dev/null)
 $PY - "$SL_TMP/t1/m.csv" "$SL_TMP/t1/summary.json" <<'EOF' >"$SL_TMP/py.txt" 2>&1
 import csv, json, sys
 import numpy as np
@@ -140,7 +140,7 @@ for name, o in js["outputs"].items():
         w = np.corrcoef(ranks(x), ranks(y))[0, 1]
         assert abs(rho - w) <= 1e-9, (name, key, rho, w); n += 1
 ex = js["exceedance"][0]
-y = np.array([float(r["strat_water_Tg"]) for r in rows])
+y = np.array([float(r["stratospheric_water_Tg"]) for r in rows])
 assert ex["op"] == ">=" and abs(ex["probability"] - np.mean(y >= 1)) <= 1e-9
 # First-order variance shares: present for every input, inside [-0.1, 1],
 # and the diameter explains most of the energy's variance (E ~ D^3).
@@ -266,7 +266,7 @@ assert W[-1] > 10 * W[k], W
 # must not loft less).  Regression (2026-12-01): the former
 # blow-out rule made it fall by six orders of magnitude where the sea plume's
 # fireball outgrew the scale height.
-S = [float(r["strat_water_Tg"]) for r in rows]
+S = [float(r["stratospheric_water_Tg"]) for r in rows]
 imp = list(range(k, len(d)))
 assert len(imp) >= 4, imp
 assert any(rows[i]["sea_plume_blowout"] == "1" for i in imp), "no blown-out member in the sweep"
