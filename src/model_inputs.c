@@ -275,6 +275,10 @@ int sl_model_inputs_emission_write(const sl_model_inputs *mi, const char *path,
     NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "title", mi->title ? mi->title : "steamloft emission"));
     NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "comment", sl_cli_caution()));
     NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "source", sl_cli_version()));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "history", "written by steamloft run --emission"));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "references",
+                                      "docs/physics.md section 10 of the steamloft sources (footprint, "
+                                      "rates, records)"));
     NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "scenario_digest", mi->digest));
     NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "event_time", when));
     NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "event_time_is_nominal", mi->date_given ? "no" : "yes"));

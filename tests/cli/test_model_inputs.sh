@@ -85,6 +85,15 @@ if command -v ncdump >/dev/null 2>&1; then
 else
   sl_skip "ncdump not installed (netcdf-bin)"
 fi
+# The CF emission file through the independent reader: CF structure, every
+# standard name in the table copy with convertible units.
+if /usr/bin/python3 -c 'import netCDF4, numpy' 2>/dev/null; then
+  if /usr/bin/python3 "$SL_SRCDIR/tests/tools/nc_check.py" --cf-only e.nc >chk.txt 2>&1; then
+    sl_ok "CF emission file passes nc_check ($(tail -1 chk.txt | sed 's/.*: //'))"
+  else sl_fail "CF emission file nc_check"; sed 's/^/#   /' chk.txt | head -10; fi
+else
+  sl_skip "python3-netcdf4 not installed"
+fi
 # Bad input: file, line, key and valid form; nothing left behind.
 printf '[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 0\ndate = 15.01.2022\n' >bad1.ini
 sl_expect_exit 65 "a date that is not ISO 8601" "$SL_BIN" run --injection-table b.csv bad1.ini
