@@ -607,6 +607,30 @@ static int write_all(ncw *w, const sl_output_view *v, sl_err *e)
         SL_TRY_RETURN(e, def_scalar(w, sc->name, sc->value, sc->standard_name, sc->long_name,
                                     sc->units, e));
     }
+    /* The scalar results again as global attributes result_<name> (their units in
+     * result_units): tools that keep only gridded variables (CDO drops scalar
+     * variables) keep global attributes, so the key numbers survive `cdo copy`. */
+    if (v->n_scalars > 0) {
+        size_t cap = 64 * v->n_scalars + 1, off = 0;
+        char *units = malloc(cap);
+        if (units == NULL)
+            SL_FAIL_RETURN(e, SL_ENOMEM, "writing '%s': out of memory", w->path);
+        units[0] = '\0';
+        int rc = SL_OK;
+        for (size_t i = 0; i < v->n_scalars && rc == SL_OK; i++) {
+            const sl_output_scalar *sc = &v->scalars[i];
+            char name[NC_MAX_NAME + 1];
+            snprintf(name, sizeof name, "result_%s", sc->name);
+            rc = att_double(w, NC_GLOBAL, name, sc->value, e);
+            int k = snprintf(units + off, cap - off, "%s%s: %s", i ? "; " : "", sc->name, sc->units);
+            if (k > 0 && (size_t)k < cap - off)
+                off += (size_t)k;
+        }
+        if (rc == SL_OK)
+            rc = att_text(w, NC_GLOBAL, "result_units", units, e);
+        free(units);
+        SL_TRY_RETURN(e, rc);
+    }
     NCK(w, NC_GLOBAL, "leaving define mode after", NULL, nc_enddef(w->ncid));
     for (size_t i = 0; i < w->n_put; i++) {
         /* Record variables need their counts: nc_put_var writes as many records as the
