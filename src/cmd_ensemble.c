@@ -40,7 +40,9 @@
 #include <time.h>
 #include <unistd.h>
 
-enum { MAX_PCT = 32, MAX_THR = 32, MAX_VARY = 16, NC_BUF_ROWS = 1024 };
+/* At most 1e7 members: the per-member scalars kept for the percentiles then
+ * take about 1 GB (and a run that long takes days on a workstation). */
+enum { MAX_PCT = 32, MAX_THR = 32, MAX_VARY = 16, NC_BUF_ROWS = 1024, MAX_MEMBERS = 10000000 };
 
 typedef struct ens_cli {
     const char *cmd;       /* "ensemble" or "sweep" */
@@ -1031,7 +1033,7 @@ static int parse_args(int argc, char **argv, ens_cli *c, const sl_cli_globals *g
         case 'n':
             if (c->sweep)
                 return sl_cli_usage_error(g, c->cmd, "--members is for 'ensemble'; a sweep has one member per grid point");
-            if (parse_size(optarg, "--members", 1, (size_t)1 << 40, &c->members, &e) != SL_OK)
+            if (parse_size(optarg, "--members", 1, (size_t)MAX_MEMBERS, &c->members, &e) != SL_OK)
                 return sl_cli_usage_error(g, c->cmd, "%s", e.msg);
             break;
         case 's':

@@ -40,6 +40,7 @@
 #include "steamloft/injection.h"
 
 #include "steamloft/date.h"
+#include "steamloft/infile.h"
 #include "steamloft/units_table.h"
 #include "steamloft/water.h"
 
@@ -390,20 +391,10 @@ static char *trim(char *s)
     return s;
 }
 
-/* Parse the whole of TEXT as a finite double. */
+/* Parse the whole of TEXT as a finite decimal number (infile.h rules). */
 static int parse_number(const char *text, double *out)
 {
-    char *end;
-    errno = 0;
-    double v = strtod(text, &end);
-    if (end == text || errno == ERANGE || !isfinite(v))
-        return -1;
-    while (*end == ' ' || *end == '\t')
-        end++;
-    if (*end != '\0')
-        return -1;
-    *out = v;
-    return 0;
+    return sl_infile_parse_double(text, out);
 }
 
 /* Column roles in a CSV header. */
@@ -441,6 +432,19 @@ static int csv_meta(char *body, sl_injection *meta, const char *path, size_t lin
 {
     char *eq = strchr(body, '=');
     if (eq == NULL)
+        return SL_OK;
+    /* Metadata is "# KEY = VALUE" with KEY one word of letters, digits and
+     * '_'; any other comment (prose that happens to hold an '=') is ignored. */
+    char *k0 = body;
+    while (*k0 == ' ' || *k0 == '\t')
+        k0++;
+    char *k1 = k0;
+    while (*k1 == '_' || (*k1 >= 'a' && *k1 <= 'z') || (*k1 >= 'A' && *k1 <= 'Z') || (*k1 >= '0' && *k1 <= '9'))
+        k1++;
+    char *k2 = k1;
+    while (*k2 == ' ' || *k2 == '\t')
+        k2++;
+    if (k1 == k0 || k2 != eq)
         return SL_OK;
     *eq = '\0';
     char *key = trim(body), *val = trim(eq + 1);
@@ -485,24 +489,25 @@ static int csv_meta(char *body, sl_injection *meta, const char *path, size_t lin
     SL_FAIL_RETURN(e, SL_EDATA, "%s:%zu: unknown metadata key '%s' (known: " CSV_META ")", path, line, key);
 }
 
-static int read_csv(FILE *f, const char *path, sl_injection *inj, sl_err *e)
+static int read_csv(char *text, const char *path, sl_injection *inj, sl_err *e)
 {
     sl_injection meta;
     memset(&meta, 0, sizeof meta);
     set_empty_meta(&meta);
     rows r = {0};
-    char *buf = NULL;
-    size_t cap = 0, line = 0;
+    char *buf = NULL, *cursor = text;
+    size_t line = 0;
     int col_role[16];
     double col_factor[16];
     size_t n_cols = 0;
     int have_header = 0;
     int rc = SL_OK;
-    ssize_t len;
-    while ((len = getline(&buf, &cap, f)) != -1) {
+    while (sl_infile_next_line(&cursor, &buf)) {
         line++;
-        if ((size_t)len != strlen(buf)) {
-            rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: NUL byte in a text line (is this a CSV file?)", path, line);
+        if (sl_infile_content_len(buf, "#", 0) > SL_INFILE_MAX_LINE) {
+            rc = sl_err_set(e, SL_EDATA, __func__, __LINE__,
+                            "%s:%zu: line longer than %d characters (comments and line ends not counted)", path, line,
+                            SL_INFILE_MAX_LINE);
             goto done;
         }
         char *s = trim(buf);
@@ -598,10 +603,6 @@ static int read_csv(FILE *f, const char *path, sl_injection *inj, sl_err *e)
             goto done;
         }
     }
-    if (ferror(f)) {
-        rc = sl_err_set(e, SL_EIO, __func__, __LINE__, "%s:%zu: read error: %s", path, line + 1, strerror(errno));
-        goto done;
-    }
     if (!have_header || r.n == 0) {
         rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: no %s found (a header " CSV_COLUMNS " and one row per band)", path,
                         line, have_header ? "bands" : "header");
@@ -609,7 +610,6 @@ static int read_csv(FILE *f, const char *path, sl_injection *inj, sl_err *e)
     }
     rc = rows_to_injection(&r, &meta, inj, e);
 done:
-    free(buf);
     rows_free(&r);
     if (rc != SL_OK)
         sl_err_push(e, rc, __func__, __LINE__);
@@ -765,6 +765,7 @@ static int read_netcdf(const char *path, sl_injection *inj, sl_err *e)
     int ncid = -1, rc = SL_OK;
     rows r = {0};
     double *z = NULL, *bnds = NULL;
+    SL_TRY_RETURN(e, sl_infile_nc_precheck(path, e));
     int st = nc_open(path, NC_NOWRITE, &ncid);
     if (st != NC_NOERR)
         SL_FAIL_RETURN(e, SL_EDATA, "%s: cannot open as netCDF: %s", path, nc_strerror(st));
@@ -777,6 +778,18 @@ static int read_netcdf(const char *path, sl_injection *inj, sl_err *e)
         goto done;
     }
     NCK(nc_inq_varid(ncid, "altitude", &zid), "coordinate variable altitude");
+    /* The buffers below hold N values: the coordinate must lie on exactly
+     * the altitude dimension (a 2-D or longer altitude would overrun them). */
+    NCK(nc_inq_varndims(ncid, zid, &ndims), "altitude");
+    if (ndims == 1)
+        NCK(nc_inq_vardimid(ncid, zid, dims), "altitude");
+    if (ndims != 1 || dims[0] != dimid) {
+        rc = sl_err_set(e, SL_EDATA, __func__, __LINE__,
+                        "%s: netCDF variable altitude: must be the coordinate altitude(altitude), one dimension; "
+                        "it has %d dimension%s%s",
+                        path, ndims, ndims == 1 ? "" : "s", ndims == 1 ? " other than altitude" : "");
+        goto done;
+    }
     static const char *const zunits[] = {"m", "km", NULL};
     static const double zfactors[] = {1.0, 1.0e3};
     double zf;
@@ -905,9 +918,12 @@ int sl_injection_read(sl_injection *inj, const char *path, sl_err *e)
         SL_TRY_RETURN(e, read_netcdf(path, inj, e));
         return SL_OK;
     }
-    rewind(f);
-    int rc = read_csv(f, path, inj, e);
     fclose(f);
+    char *text = NULL;
+    size_t len = 0;
+    SL_TRY_RETURN(e, sl_infile_read_text(path, "injection profile", SL_INFILE_MAX_BYTES, &text, &len, e));
+    int rc = read_csv(text, path, inj, e);
+    free(text);
     SL_TRY_RETURN(e, rc);
     return SL_OK;
 }

@@ -5,6 +5,7 @@
 
 #include "steamloft/cli.h"
 #include "steamloft/date.h"
+#include "steamloft/json.h"
 #include "steamloft/outfile.h"
 #include "steamloft/units.h"
 
@@ -53,14 +54,6 @@ static double pressure_hPa(const sl_atmosphere *atm, double z_m)
     return st.pressure_Pa / 100.0;
 }
 
-static void json_num(FILE *fp, double v)
-{
-    if (isfinite(v))
-        fprintf(fp, "%.10g", v);
-    else
-        fputs("null", fp);
-}
-
 int sl_model_inputs_table_write(const sl_model_inputs *mi, const char *path, int force, sl_err *e)
 {
     sl_emission_profile pr;
@@ -81,14 +74,15 @@ int sl_model_inputs_table_write(const sl_model_inputs *mi, const char *path, int
         sl_date_format(mi->event_time_s, when, sizeof when);
         const int json = ends_with(path, ".json");
         const char *sp[2] = {"water_vapour", "ice"};
+        sl_json j;
         if (json) {
-            fprintf(fp, "{\n  \"caution\": \"%s\",\n  \"version\": \"%s\",\n", sl_cli_caution(),
-                    sl_cli_version());
-            fprintf(fp, "  \"scenario_digest\": \"%s\",\n  \"time_is_nominal\": %s,\n", mi->digest,
-                    mi->date_given ? "false" : "true");
-            fprintf(fp, "  \"total_mass_kg\": ");
-            json_num(fp, pr.total_kg);
-            fprintf(fp, ",\n  \"rows\": [");
+            sl_json_begin(&j, fp);
+            sl_json_string(&j, "caution", sl_cli_caution());
+            sl_json_string(&j, "version", sl_cli_version());
+            sl_json_string(&j, "scenario_digest", mi->digest);
+            sl_json_bool(&j, "time_is_nominal", !mi->date_given);
+            sl_json_number(&j, "total_mass_kg", pr.total_kg);
+            sl_json_begin_array(&j, "rows", SL_JSON_LINES);
         } else {
             fprintf(fp, "# %s\n# version: %s\n# scenario digest: %s (FNV-1a 64 of the scenario's "
                         "key=value lines)\n",
@@ -100,7 +94,6 @@ int sl_model_inputs_table_write(const sl_model_inputs *mi, const char *path, int
             fprintf(fp, "event_time_utc,latitude_deg,longitude_deg,bottom_m,top_m,bottom_hPa,top_hPa,"
                         "species,mass_kg,duration_s,radius_m\n");
         }
-        int first = 1;
         for (size_t i = 0; i < pr.n; i++) {
             const sl_emission_layer *L = &pr.layer[i];
             double m[2] = {L->vapor_kg, L->ice_kg};
@@ -109,27 +102,34 @@ int sl_model_inputs_table_write(const sl_model_inputs *mi, const char *path, int
                 if (!(m[s] > 0.0))
                     continue;
                 if (json) {
-                    fprintf(fp, "%s\n    {\"event_time_utc\": \"%s\", \"latitude_deg\": ", first ? "" : ",", when);
-                    json_num(fp, mi->latitude_deg);
-                    fprintf(fp, ", \"longitude_deg\": ");
-                    json_num(fp, mi->longitude_deg);
-                    fprintf(fp, ", \"bottom_m\": %.10g, \"top_m\": %.10g, \"bottom_hPa\": ", L->bottom_m, L->top_m);
-                    json_num(fp, pb);
-                    fprintf(fp, ", \"top_hPa\": ");
-                    json_num(fp, pt);
-                    fprintf(fp, ", \"species\": \"%s\", \"mass_kg\": %.10g, \"duration_s\": %.10g, "
-                                "\"radius_m\": %.10g}", sp[s], m[s], mi->duration_s, mi->radius_m);
+                    sl_json_begin_object(&j, NULL, SL_JSON_INLINE);
+                    sl_json_string(&j, "event_time_utc", when);
+                    sl_json_number(&j, "latitude_deg", mi->latitude_deg);
+                    sl_json_number(&j, "longitude_deg", mi->longitude_deg);
+                    sl_json_number(&j, "bottom_m", L->bottom_m);
+                    sl_json_number(&j, "top_m", L->top_m);
+                    sl_json_number(&j, "bottom_hPa", pb);
+                    sl_json_number(&j, "top_hPa", pt);
+                    sl_json_string(&j, "species", sp[s]);
+                    sl_json_number(&j, "mass_kg", m[s]);
+                    sl_json_number(&j, "duration_s", mi->duration_s);
+                    sl_json_number(&j, "radius_m", mi->radius_m);
+                    sl_json_end_object(&j);
                 } else {
                     fprintf(fp, "%s,%.6f,%.6f,%.10g,%.10g,%.6g,%.6g,%s,%.10g,%.10g,%.10g\n", when,
                             mi->latitude_deg, mi->longitude_deg, L->bottom_m, L->top_m, pb, pt, sp[s],
                             m[s], mi->duration_s, mi->radius_m);
                 }
-                first = 0;
             }
         }
-        if (json)
-            fprintf(fp, "\n  ]\n}\n");
-        rc = sl_outset_fclose(set, base, fp, e);
+        if (json) {
+            sl_json_end_array(&j);
+            rc = sl_json_end(&j, e);
+        }
+        sl_err close_err = {0};
+        const int rc_close = sl_outset_fclose(set, base, fp, rc == SL_OK ? e : &close_err);
+        if (rc == SL_OK)
+            rc = rc_close;
     }
     if (rc == SL_OK)
         rc = sl_outset_commit(set, e);

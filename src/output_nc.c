@@ -31,6 +31,7 @@
 
 #include <math.h>
 #include <netcdf.h>
+#include <netcdf_mem.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -672,12 +673,20 @@ int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_op
     w->time_dim = -1;
     w->ncid = -1;
 
+    /* The file is built in memory (nc_create_mem, nc_close_memio) and its
+     * bytes are then put into the stage with plain write(2): a full disk or
+     * a quota is then an ordinary write error with its true cause, never a
+     * failure inside the HDF5 library (which can crash after a failed write). */
     const char *stage = NULL;
     int rc = sl_outset_begin_file(set, path, o.force, &stage, e);
+    char base[SL_OUTSET_NAME_LEN] = "";
     if (rc == SL_OK) {
-        /* NC_NOATTCREORD: no attribute creation-order index per HDF5 object (kB each). */
-        int cmode = NC_NOCLOBBER | (w->nc4 ? (NC_NETCDF4 | NC_CLASSIC_MODEL | NC_NOATTCREORD) : 0);
-        int st = nc_create(stage, cmode, &w->ncid);
+        const char *slash = strrchr(path, '/');
+        snprintf(base, sizeof base, "%s", slash ? slash + 1 : path);
+        sl_outset_forget(set, base); /* re-added by sl_outset_write_file */
+        /* NC_NOATTCREORD: no attribute creation-order index per HDF5 object. */
+        int cmode = w->nc4 ? (NC_NETCDF4 | NC_CLASSIC_MODEL | NC_NOATTCREORD) : 0;
+        int st = nc_create_mem(base, cmode, 1 << 16, &w->ncid);
         if (st != NC_NOERR) {
             w->ncid = -1;
             rc = sl_err_set(e, SL_ECANTCREAT, __func__, __LINE__, "cannot create '%s': %s", path,
@@ -687,11 +696,15 @@ int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_op
     if (rc == SL_OK)
         rc = write_all(w, v, e);
     if (rc == SL_OK) {
-        int st = nc_close(w->ncid);
+        NC_memio mem = {0, NULL, 0};
+        int st = nc_close_memio(w->ncid, &mem);
         w->ncid = -1;
         if (st != NC_NOERR)
-            rc = sl_err_set(e, SL_EIO, __func__, __LINE__, "writing '%s': closing: %s", path,
-                            nc_strerror(st));
+            rc = sl_err_set(e, st == NC_ENOMEM ? SL_ENOMEM : SL_EIO, __func__, __LINE__,
+                            "writing '%s': closing: %s", path, nc_strerror(st));
+        else
+            rc = sl_outset_write_file(set, base, mem.memory, mem.size, e);
+        free(mem.memory);
     }
     if (rc == SL_OK)
         rc = sl_outset_commit(set, e);
