@@ -138,6 +138,28 @@ assert z.event_time == "2022-01-15T04:15:00Z"
 else
   sl_skip "python3-netcdf4 not installed"
 fi
+# decay on the run file: the file carries the month (event_month) and the date;
+# with that month the box model reproduces the run's e-folding to every digit.
+if command -v ncdump >/dev/null 2>&1; then
+  month=$(ncdump -h rz.nc | sed -n 's/.*:event_month = \([0-9]*\) ;.*/\1/p')
+  if [ "$month" = 1 ]; then sl_ok "the run file carries event_month = 1"; else sl_fail "event_month: '$month'"; fi
+else
+  month=1; sl_skip "ncdump not installed (netcdf-bin)"
+fi
+sl_expect_exit 0 "decay on the run file with its month" "$SL_BIN" decay --json --month "$month" rz.nc
+cp "$SL_TMP/out" decay.json
+if /usr/bin/python3 -c '
+import json, sys
+def f(o, k):
+    if isinstance(o, dict):
+        for a, b in o.items():
+            if a == k: return b
+            r = f(b, k)
+            if r is not None: return r
+r = json.load(open(sys.argv[1])); d = json.load(open(sys.argv[2]))
+assert f(r, "efolding_years") == f(d, "efolding_years"), (f(r, "efolding_years"), f(d, "efolding_years"))
+' run.json decay.json; then sl_ok "decay on the run file reproduces the run's e-folding exactly"
+else sl_fail "decay on the run file reproduces the run's e-folding"; fi
 # NCO: the record operator joins two runs along the unlimited time; ncks reads one.
 if command -v ncrcat >/dev/null 2>&1 && command -v ncks >/dev/null 2>&1; then
   if ncrcat -O ra.nc rb.nc cat.nc 2>nco.txt && ncdump -h cat.nc | grep -q "time = UNLIMITED ; // (482 currently)"; then
