@@ -190,6 +190,15 @@ int sl_model_inputs_emission_write(const sl_model_inputs *mi, const char *path,
     SL_TRY_RETURN(e, sl_emission_profile_build(&pr, mi->inj, model_top_m, e));
     if (above_top_kg)
         *above_top_kg = pr.above_top_kg;
+    if (pr.n == 0) {
+        /* No water above the tropopause (or below the model top): one empty 1-km layer
+         * above the tropopause, so that the file exists with zero rates (a netCDF
+         * dimension of length 0 would be a second unlimited one). */
+        double z0 = isfinite(mi->inj->tropopause_altitude_m) ? mi->inj->tropopause_altitude_m
+                    : mi->inj->n_bands > 0 ? mi->inj->band_bottom_m[0] : 0.0;
+        pr.layer[0] = (sl_emission_layer){z0, z0 + 1000.0, 0.0, 0.0};
+        pr.n = 1;
+    }
     const size_t nc = g->nlat * g->nlon, nz = pr.n;
     double *w = malloc(nc * sizeof *w);
     float *slab = malloc(nc * sizeof *slab);

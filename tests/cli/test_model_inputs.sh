@@ -196,6 +196,13 @@ assert abs(tot / want - 1) < 0.01, (tot, want)
 else
   sl_skip "CDO not installed (scripts/deps.sh cdo)"
 fi
+# An event with no water above the tropopause still gets its files (zero rates, no rows).
+printf '[explosion]\nenergy_Mt = 0.001\n[site]\nlatitude_deg = 10\n' >small.ini
+sl_expect_exit 0 "a dry event with every model input" "$SL_BIN" run --injection-table s.csv --emission s.nc \
+  --emission-convention cesm --zonal sz.nc --forcing-series sf.csv small.ini
+if [ -s s.csv ] && [ -s s.nc ] && [ -s sz.nc ] && [ -s sf.csv ] && [ "$(grep -vc '^#' s.csv)" = 1 ]; then
+  sl_ok "dry event: header-only table, empty emission file, zonal field, forcing series"
+else sl_fail "dry event files"; fi
 # Bad input: file, line, key and valid form; nothing left behind.
 printf '[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 0\ndate = 15.01.2022\n' >bad1.ini
 sl_expect_exit 65 "a date that is not ISO 8601" "$SL_BIN" run --injection-table b.csv bad1.ini
