@@ -261,6 +261,19 @@ static int cloud_level(const sl_atmosphere *atm, double altitude_m, double *r_ic
     return SL_OK;
 }
 
+/* Share of a triangular profile (bottom to top, mode at peak_m) below Z. */
+static double tent_cdf(const sl_young_cloud *c, double z)
+{
+    double a = c->bottom_m, b = c->top_m, m = c->peak_m;
+    if (z <= a)
+        return 0.0;
+    if (z >= b)
+        return 1.0;
+    if (z <= m)
+        return m > a ? (z - a) * (z - a) / ((b - a) * (m - a)) : 0.0;
+    return b > m ? 1.0 - (b - z) * (b - z) / ((b - a) * (b - m)) : 1.0;
+}
+
 int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl_young_cloud *c,
                            double sediment_fraction, sl_freeze_out *tally, sl_err *e)
 {
@@ -276,6 +289,7 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
         SL_FAIL_RETURN(e, SL_EDATA, "young cloud %g-%g m lies outside the bands (valid range %g to %g m)", c->bottom_m,
                        c->top_m, lo, hi);
     double thick = c->top_m - c->bottom_m;
+    int tent = thick > 0.0 && c->peak_m >= c->bottom_m && c->peak_m <= c->top_m;
     for (size_t i = 0; i < inj->n_bands && c->water_kg > 0.0; i++) {
         double a, b, f;
         if (thick > 0.0) {
@@ -283,7 +297,7 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
             b = fmin(c->top_m, inj->band_top_m[i]);
             if (b <= a)
                 continue;
-            f = (b - a) / thick;
+            f = tent ? tent_cdf(c, b) - tent_cdf(c, a) : (b - a) / thick;
         } else {
             /* A thin sheet: all in the band holding it (the top band at the very top). */
             if (!(c->bottom_m < inj->band_top_m[i] || i + 1 == inj->n_bands))

@@ -423,7 +423,7 @@ static int profile_vars(ncw *w, const sl_output_view *v, int nv, int *zdim, sl_e
     if (isfinite(trop)) {
         SL_TRY_RETURN(e, def_scalar(w, "tropopause_altitude", trop, "tropopause_altitude",
                                     "tropopause altitude (WMO lapse-rate definition)", "m", e));
-        SL_TRY_RETURN(e, def_scalar(w, "stratospheric_water_mass", mass_above(inj, trop), NULL,
+        SL_TRY_RETURN(e, def_scalar(w, "stratospheric_water", mass_above(inj, trop), NULL,
                                     "water (vapour and condensate) lofted above the tropopause",
                                     "kg", e));
     }
@@ -719,4 +719,26 @@ int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_op
     free(w);
     free(set);
     return rc;
+}
+
+/* ------------------------------------------------------------ for the other netCDF writers */
+
+int sl_output_nc_check(int status, int ncid, int varid, const char *path, const char *what, const char *name,
+                       sl_err *e)
+{
+    if (status == NC_NOERR)
+        return SL_OK;
+    ncw w;
+    memset(&w, 0, sizeof w);
+    w.ncid = ncid;
+    w.path = path;
+    return nc_fail(&w, varid, what, name, status, e, __LINE__);
+}
+
+int sl_output_nc_att_text(int ncid, int varid, const char *path, const char *name, const char *text, sl_err *e)
+{
+    if (text == NULL)
+        return SL_OK;
+    return sl_output_nc_check(nc_put_att_text(ncid, varid, name, strlen(text), text), ncid, varid, path,
+                              "attribute", name, e);
 }

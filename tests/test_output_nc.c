@@ -38,7 +38,7 @@ static int check_with_python(const char *nc, const char *format, int layers_equa
     double strat = 0.5 * (F.vap[16] + F.ice[16]);
     for (int i = 17; i < NB; i++)
         strat += F.vap[i] + F.ice[i];
-    fprintf(f, "var stratospheric_water_mass 0 %.17g 1e-13\n", strat);
+    fprintf(f, "var stratospheric_water 0 %.17g 1e-13\n", strat);
     fprintf(f, "var cloud_vapor_mass_content 25 %.17g 1e-15\n", F.vap[25] / 2.0e11);
     fprintf(f, "var air_temperature 3 250 0\nvar air_pressure 10 %.17g 1e-15\n", F.p[10]);
     fprintf(f, "var latitude 0 -20.5 0\n");

@@ -190,7 +190,7 @@ with netCDF4.Dataset(sys.argv[1]) as ds:
             print("mismatch", name, got, want); bad += 1
     close("sum vapor_mass", float(np.sum(ds.variables["vapor_mass"][:])), j["injected_vapor_kg"])
     close("sum ice_mass", float(np.sum(ds.variables["ice_mass"][:])), j["injected_ice_kg"])
-    close("stratospheric_vapor", float(ds.variables["stratospheric_vapor"][...]), j["stratospheric_water_kg"])
+    close("stratospheric_vapor", float(ds.variables["stratospheric_vapor"][...]), j["stratospheric_vapor_kg"])
     close("event_energy", float(ds.variables["event_energy"][...]), j["energy_J"])
     close("water_vaporized", float(ds.variables["water_vaporized"][...]), j["water_vaporized_kg"])
     # The box model of the same run (10 digits in the JSON; years of 365.25 d).
