@@ -41,6 +41,11 @@ typedef struct sl_injection {
     double latitude_deg;       /* where the cloud sits (event latitude) */
     double time_s;             /* time after the event the profile refers to */
     double cloud_area_m2;      /* horizontal area of the young cloud (0 if unknown) */
+    /* Where and when (carried through files so that `decay` on a run file
+     * starts where the run started): */
+    double longitude_deg;      /* event longitude, degrees east; NaN unknown */
+    double event_time_s;       /* event time, s since 1970-01-01 UTC; NaN unknown (nominal) */
+    int month;                 /* event month 1-12; 0 unknown (annual-mean conditions) */
 } sl_injection;
 
 /* Allocate bands from N_EDGES edges (strictly increasing); masses zero. */
