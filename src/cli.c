@@ -267,6 +267,13 @@ int sl_cli_main(int argc, char **argv)
         case 'h': print_help(stdout); return EX_OK;
         case 'V':
             printf("%s\n", sl_cli_version());
+            /* Which build this is, so a serial and an MPI binary cannot be
+             * mixed up (files written by either are the same byte for byte). */
+#ifdef SL_HAVE_MPI
+            printf("Build: MPI (make MPI=1): ensemble members are split over the ranks of mpirun.\n");
+#else
+            printf("Build: serial (without MPI; 'make MPI=1' builds build-mpi/steamloft).\n");
+#endif
             printf("Copyright (C) 2026 the steamloft developers. License GPL-3.0-or-later.\n");
             return EX_OK;
         default:
