@@ -55,7 +55,7 @@ MAN      := $(BUILD)/steamloft.1
 COMPL    := $(BUILD)/steamloft.bash
 
 .PHONY: all build check check-run demo demo-run bench bench-run sanitize fuzz deps \
-        ensure-deps ensure-test-deps install uninstall man clean check-symbols atmospheres FORCE
+        ensure-deps ensure-test-deps install uninstall man clean check-symbols check-shape atmospheres FORCE
 
 all: ensure-deps
 	@$(MAKE) --no-print-directory build
@@ -110,8 +110,13 @@ $(BUILD)/tests/%: tests/%.c tests/sl_test.h $(LIB)
 check: ensure-test-deps
 	@$(MAKE) --no-print-directory check-run
 
-check-run: build check-symbols
+check-run: build check-symbols check-shape
 	@tests/run-all.sh $(BUILD)
+
+# Lines per command file and the longest functions; fails when a command file
+# outgrows "argument parsing and one call" (scripts/code-shape.sh).
+check-shape:
+	@scripts/code-shape.sh src
 
 # Every exported symbol of the library starts with sl_ (style rule, DEVELOPERS.md).
 check-symbols: $(LIB)

@@ -18,6 +18,7 @@
 #include <stdio.h>
 #include <string.h>
 #include <time.h>
+#include <unistd.h>
 
 const char *const sl_chain_stage_names[SL_CHAIN_N_TIMED] = {"atmosphere", "entry", "partition",
                                                             "plume", "box model"};
@@ -29,7 +30,6 @@ static double chain_clock_s(void)
     clock_gettime(CLOCK_MONOTONIC, &ts);
     return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
 }
-#include <unistd.h>
 
 typedef struct air_ctx {
     const sl_atmosphere *atm;
@@ -130,7 +130,7 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
 
 /* Plume stage: parameters and bands from [plume] (workspace and bands reused
  * across runs), then every source rises and its water goes into the bands. */
-static int run_plume(const sl_scenario *sc, sl_chain *ch, sl_err *e)
+static int stage_plume(const sl_scenario *sc, sl_chain *ch, sl_err *e)
 {
     sl_plume_params par;
     sl_plume_params_from_scenario(&par, sc);
@@ -161,15 +161,17 @@ static int run_plume(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     return SL_OK;
 }
 
-/* Box-model stage: the regional backgrounds (built-in climatologies named by
- * [strat]) and the model are kept while they do not change, so an ensemble
- * pays the model set-up (~2 ms) once per thread; each run is ~0.2 ms. */
-static int run_strat(const sl_scenario *sc, sl_chain *ch, sl_err *e)
+/* Box-model set-up: the regional backgrounds (built-in climatologies named by
+ * [strat], or the files of ch->box_input) and the model are kept while they
+ * do not change, so an ensemble pays the model set-up (~2 ms) once per
+ * thread; each run is ~0.2 ms. */
+int sl_chain_prepare_box(const sl_scenario *sc, sl_chain *ch, sl_err *e)
 {
     const sl_param_id ids[2] = {SL_P_STRAT_TROPICS_ATMOSPHERE, SL_P_STRAT_EXTRATROPICS_ATMOSPHERE};
     int changed = !ch->have_strat_model;
     for (int i = 0; i < 2; i++) {
-        const char *name = sl_scenario_text(sc, ids[i]);
+        const char *file = ch->box_input.atmosphere[i];
+        const char *name = file && file[0] ? file : sl_scenario_text(sc, ids[i]);
         if (ch->have_strat_atmosphere[i] && strcmp(ch->strat_atmosphere_name[i], name) == 0)
             continue;
         if (ch->have_strat_atmosphere[i])
@@ -182,6 +184,7 @@ static int run_strat(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     }
     sl_strat_params p;
     sl_strat_params_from_scenario(&p, sc);
+    p.cloud_freeze_out = ch->box_input.cloud_freeze_out;
     if (!changed && !sl_strat_params_equal(&p, &ch->strat_params))
         changed = 1;
     if (changed) {
@@ -199,57 +202,89 @@ static int run_strat(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         ch->strat_params = p;
         ch->have_strat_model = 1;
     }
+    return SL_OK;
+}
+
+/* The stages.  Each has one shape: its parameters from the scenario
+ * (stage_params.c), solve into the chain's workspace (allocated once, kept
+ * across runs), results left in the chain, released by sl_chain_free.  The
+ * atmosphere stage starts the partition input with the air at the sea; the
+ * entry stage adds what reached the sea. */
+static int stage_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
+{
+    ch->has_entry = 0;
+    sl_site_choose(sc, &ch->site);
+    SL_TRY_RETURN(e, load_atmosphere(sc, ch, e));
+    sl_partition_input_from_scenario(&ch->partition_input, sc);
+    SL_TRY_RETURN(e, ambient(&ch->atmosphere, 0.0, &ch->partition_input.air_at_sea, e));
+    return SL_OK;
+}
+
+static int stage_entry(const sl_scenario *sc, sl_chain *ch, sl_err *e)
+{
+    sl_partition_input *in = &ch->partition_input;
+    if (sc->kind != SL_SCENARIO_IMPACTOR) {
+        in->air_source_altitude_m = in->explosion_altitude_m;
+        return SL_OK;
+    }
+    sl_entry_params p;
+    sl_entry_params_from_scenario(&p, sc);
+    air_ctx actx = {&ch->atmosphere, {0}};
+    sl_entry_air air = {atmosphere_density, &actx};
+    SL_TRY_RETURN(e, sl_entry_solve(&ch->entry, &p, &air, e));
+    ch->has_entry = 1;
+    in->entry = &ch->entry;
+    in->impactor_mass_kg = ch->entry.initial_mass_kg;
+    double z = ch->entry.airburst ? ch->entry.burst_altitude_m : sl_entry_deposition_centroid_m(&ch->entry);
+    in->air_source_altitude_m = isfinite(z) ? z : 0.0;
+    return SL_OK;
+}
+
+static int stage_partition(const sl_scenario *sc, sl_chain *ch, sl_err *e)
+{
+    (void)sc;
+    sl_partition_input *in = &ch->partition_input;
+    ch->air_source_altitude_m = in->air_source_altitude_m;
+    SL_TRY_RETURN(e, ambient(&ch->atmosphere, in->air_source_altitude_m, &in->air_at_source, e));
+    SL_TRY_RETURN(e, sl_partition_solve(&ch->partition, in, e));
+    return SL_OK;
+}
+
+static int stage_strat(const sl_scenario *sc, sl_chain *ch, sl_err *e)
+{
+    SL_TRY_RETURN(e, sl_chain_prepare_box(sc, ch, e));
     SL_TRY_RETURN(e, sl_strat_run(&ch->strat_model, &ch->injection, &ch->strat, e));
+    return SL_OK;
+}
+
+typedef int (*chain_stage_fn)(const sl_scenario *sc, sl_chain *ch, sl_err *e);
+
+/* The chain, in data-flow order, indexed like sl_chain_stage_names. */
+static const chain_stage_fn chain_stages[SL_CHAIN_N_TIMED] = {stage_atmosphere, stage_entry, stage_partition,
+                                                              stage_plume, stage_strat};
+
+/* The whole chain: a loop over the table; timing here, caching in the
+ * stages' set-up, physics in the stage modules. */
+int sl_chain_run_from(const sl_scenario *sc, sl_chain *ch, int first_stage, sl_err *e)
+{
+    if (!sc->finished)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "chain: the scenario was not finished (sl_scenario_finish)");
+    if (first_stage != SL_CHAIN_T_ATMOSPHERE && first_stage != SL_CHAIN_T_STRAT)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "chain: cannot be entered at stage %d", first_stage);
+    ch->scenario = *sc;
+    for (int k = first_stage; k < SL_CHAIN_N_TIMED; k++) {
+        double t0 = chain_clock_s();
+        int rc = chain_stages[k](sc, ch, e);
+        ch->stage_s[k] += chain_clock_s() - t0;
+        if (rc != SL_OK)
+            return sl_err_push(e, rc, __func__, __LINE__);
+    }
     return SL_OK;
 }
 
 int sl_chain_run(const sl_scenario *sc, sl_chain *ch, sl_err *e)
 {
-    if (!sc->finished)
-        SL_FAIL_RETURN(e, SL_EINTERNAL, "chain: the scenario was not finished (sl_scenario_finish)");
-    ch->scenario = *sc;
-    ch->has_entry = 0;
-    sl_site_choose(sc, &ch->site);
-    double t0 = chain_clock_s(), t1;
-    SL_TRY_RETURN(e, load_atmosphere(sc, ch, e));
-    const sl_atmosphere *atm = &ch->atmosphere;
-
-    sl_partition_input in;
-    sl_partition_input_from_scenario(&in, sc);
-    SL_TRY_RETURN(e, ambient(atm, 0.0, &in.air_at_sea, e));
-    t1 = chain_clock_s();
-    ch->stage_s[SL_CHAIN_T_ATMOSPHERE] += t1 - t0;
-    t0 = t1;
-    if (sc->kind == SL_SCENARIO_IMPACTOR) {
-        sl_entry_params p;
-        sl_entry_params_from_scenario(&p, sc);
-        air_ctx actx = {atm, {0}};
-        sl_entry_air air = {atmosphere_density, &actx};
-        SL_TRY_RETURN(e, sl_entry_solve(&ch->entry, &p, &air, e));
-        ch->has_entry = 1;
-        in.entry = &ch->entry;
-        in.impactor_mass_kg = ch->entry.initial_mass_kg;
-        double z = ch->entry.airburst ? ch->entry.burst_altitude_m : sl_entry_deposition_centroid_m(&ch->entry);
-        in.air_source_altitude_m = isfinite(z) ? z : 0.0;
-    } else {
-        in.air_source_altitude_m = in.explosion_altitude_m;
-    }
-    t1 = chain_clock_s();
-    ch->stage_s[SL_CHAIN_T_ENTRY] += t1 - t0;
-    t0 = t1;
-    ch->air_source_altitude_m = in.air_source_altitude_m;
-    SL_TRY_RETURN(e, ambient(atm, in.air_source_altitude_m, &in.air_at_source, e));
-    SL_TRY_RETURN(e, sl_partition_solve(&ch->partition, &in, e));
-    t1 = chain_clock_s();
-    ch->stage_s[SL_CHAIN_T_PARTITION] += t1 - t0;
-    t0 = t1;
-    SL_TRY_RETURN(e, run_plume(sc, ch, e));
-    t1 = chain_clock_s();
-    ch->stage_s[SL_CHAIN_T_PLUME] += t1 - t0;
-    t0 = t1;
-    SL_TRY_RETURN(e, run_strat(sc, ch, e));
-    ch->stage_s[SL_CHAIN_T_STRAT] += chain_clock_s() - t0;
-    return SL_OK;
+    return sl_chain_run_from(sc, ch, SL_CHAIN_T_ATMOSPHERE, e);
 }
 
 const sl_source_list *sl_chain_sources(const sl_chain *ch)

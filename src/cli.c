@@ -153,6 +153,37 @@ int sl_cli_sets_add(sl_cli_sets *s, const char *arg, sl_err *e)
     return SL_OK;
 }
 
+int sl_cli_is_choice(sl_param_id id, const char *word)
+{
+    const char *c = sl_scenario_params[id].choices;
+    size_t n = strlen(word);
+    for (const char *p = c; p && *p; p = strchr(p, '|') ? strchr(p, '|') + 1 : NULL)
+        if (strncmp(p, word, n) == 0 && (p[n] == '|' || p[n] == '\0'))
+            return 1;
+    return 0;
+}
+
+int sl_cli_sets_add_key(sl_cli_sets *s, const char *option, sl_param_id id, const char *value, sl_err *e)
+{
+    const sl_param_def *d = &sl_scenario_params[id];
+    if (d->type == SL_PT_REAL || d->type == SL_PT_INT) {
+        double v;
+        char range[160];
+        sl_scenario_range_text(id, range, sizeof range);
+        SL_TRY_RETURN(e, sl_cli_parse_double(value, option, &v, e));
+        if (!(v >= d->min_value && v <= d->max_value) || (d->type == SL_PT_INT && v != floor(v)))
+            SL_FAIL_RETURN(e, SL_EUSAGE, "%s %s: valid range %s (%s.%s)", option, value, range, d->section,
+                           d->key);
+    }
+    if (s->n_text >= SL_CLI_MAX_KEY_SETS)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "%s: at most %d such options", option, SL_CLI_MAX_KEY_SETS);
+    char *t = s->text[s->n_text];
+    snprintf(t, sizeof s->text[0], "%s.%s=%s", d->section, d->key, value);
+    SL_TRY_RETURN(e, sl_cli_sets_add(s, t, e));
+    s->n_text++;
+    return SL_OK;
+}
+
 int sl_cli_sets_apply(const sl_cli_sets *s, sl_scenario *sc, sl_err *e)
 {
     for (size_t i = 0; s && i < s->n; i++)

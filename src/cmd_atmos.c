@@ -19,8 +19,8 @@
 #include "steamloft/atmosphere.h"
 #include "steamloft/cli.h"
 #include "steamloft/cmd.h"
+#include "steamloft/output_atmos.h"
 #include "steamloft/units.h"
-#include "steamloft/water.h"
 
 #include <getopt.h>
 #include <math.h>
@@ -58,155 +58,6 @@ static void usage(FILE *f)
             "\n"
             "Exit status: 0 ok, 64 usage, 65 bad profile data or altitude outside the\n"
             "profile, 66 file not found, 74 write error.\n");
-}
-
-static const char *const builtin_about[] = {
-    "U.S. Standard Atmosphere 1976, dry, 0-1000 km, from its defining constants and equations",
-    "us1976 temperature and pressure with the steamloft background water (humid variant)",
-    "tropical: AFGL 1986 tropopause 17 km 194.8 K, stratopause 50 km 270.2 K",
-    "mid-latitude summer: tropopause 13 km 215.8 K, stratopause 50 km 275.7 K",
-    "mid-latitude winter: tropopause 11 km 219.2 K, stratopause 50 km 265.7 K",
-    "sub-arctic summer: tropopause 10 km 225.2 K, stratopause 50 km 277.2 K",
-    "sub-arctic winter: tropopause 9 km 217.2 K, cold point 25 km 211.2 K",
-};
-
-/* JSON number or null for NaN (JSON has no NaN). */
-static void json_num(FILE *f, const char *key, double v, int last)
-{
-    if (isfinite(v))
-        fprintf(f, "  \"%s\": %.10g%s\n", key, v, last ? "" : ",");
-    else
-        fprintf(f, "  \"%s\": null%s\n", key, last ? "" : ",");
-}
-
-static void json_str(FILE *f, const char *key, const char *s)
-{
-    fprintf(f, "  \"%s\": \"", key);
-    for (; *s; s++) {
-        if (*s == '"' || *s == '\\')
-            fprintf(f, "\\%c", *s);
-        else if ((unsigned char)*s < 0x20)
-            fprintf(f, "\\u%04x", (unsigned char)*s);
-        else
-            fputc(*s, f);
-    }
-    fprintf(f, "\",\n");
-}
-
-static void print_at(const sl_atmos_state *s, int csv, int json)
-{
-    const double h2o_ppmv = sl_mole_fraction_to_ppmv(s->h2o_mole_fraction);
-    const double ice_ppmv = sl_mole_fraction_to_ppmv(s->ice_saturation_mole_fraction);
-    if (json) {
-        printf("{\n");
-        json_num(stdout, "altitude_m", s->altitude_m, 0);
-        json_num(stdout, "temperature_K", s->temperature_K, 0);
-        json_num(stdout, "pressure_Pa", s->pressure_Pa, 0);
-        json_num(stdout, "density_kg_m3", s->density_kg_m3, 0);
-        json_num(stdout, "h2o_ppmv", h2o_ppmv, 0);
-        json_num(stdout, "n2_per_s2", s->n2_per_s2, 0);
-        json_num(stdout, "ice_saturation_ppmv", ice_ppmv, 1);
-        printf("}\n");
-    } else if (csv) {
-        printf("altitude_m,temperature_K,pressure_Pa,density_kg_m3,h2o_ppmv,n2_per_s2,ice_saturation_ppmv\n");
-        printf("%.10g,%.10g,%.10g,%.10g,%.10g,%.10g,%.10g\n", s->altitude_m, s->temperature_K, s->pressure_Pa,
-               s->density_kg_m3, h2o_ppmv, s->n2_per_s2, ice_ppmv);
-    } else {
-        printf("altitude_m            %.10g\n", s->altitude_m);
-        printf("temperature_K         %.10g\n", s->temperature_K);
-        printf("pressure_Pa           %.10g\n", s->pressure_Pa);
-        printf("density_kg_m3         %.10g\n", s->density_kg_m3);
-        printf("h2o_ppmv              %.10g\n", h2o_ppmv);
-        printf("n2_per_s2             %.10g\n", s->n2_per_s2);
-        printf("ice_saturation_ppmv   %.10g\n", ice_ppmv);
-    }
-}
-
-static void print_summary(const sl_atmosphere *a, int csv, int json)
-{
-    const double col = a->strat_water_column_kg_m2;
-    const struct {
-        const char *key;
-        double v;
-    } rows[] = {
-        {"tropopause_altitude_m", a->tropopause_altitude_m},
-        {"tropopause_temperature_K", a->tropopause_temperature_K},
-        {"tropopause_pressure_Pa", a->tropopause_pressure_Pa},
-        {"cold_point_altitude_m", a->cold_point_altitude_m},
-        {"cold_point_temperature_K", a->cold_point_temperature_K},
-        {"stratopause_altitude_m", a->stratopause_altitude_m},
-        {"stratopause_temperature_K", a->stratopause_temperature_K},
-        {"stratospheric_water_column_kg_m2", col},
-        {"stratospheric_water_column_precip_um", isfinite(col) ? sl_kg_m2_to_precip_um(col) : NAN},
-        {"stratospheric_water_burden_kg", a->strat_water_burden_kg},
-        {"stratospheric_water_burden_Tg",
-         isfinite(a->strat_water_burden_kg) ? sl_kg_to_tg(a->strat_water_burden_kg) : NAN},
-        {"bottom_altitude_m", a->altitude_m[0]},
-        {"top_altitude_m", a->altitude_m[a->n - 1]},
-    };
-    const size_t nr = sizeof rows / sizeof rows[0];
-    if (json) {
-        printf("{\n");
-        json_str(stdout, "name", a->name);
-        json_str(stdout, "source", a->source);
-        for (size_t i = 0; i < nr; i++)
-            json_num(stdout, rows[i].key, rows[i].v, i + 1 == nr);
-        printf("}\n");
-    } else if (csv) {
-        printf("name");
-        for (size_t i = 0; i < nr; i++)
-            printf(",%s", rows[i].key);
-        printf("\n\"%s\"", a->name);
-        for (size_t i = 0; i < nr; i++) {
-            if (isfinite(rows[i].v))
-                printf(",%.10g", rows[i].v);
-            else
-                printf(",");
-        }
-        printf("\n");
-    } else {
-        printf("%-38s %s\n", "name", a->name);
-        printf("%-38s %s\n", "source", a->source);
-        printf("%-38s %zu\n", "levels", a->n);
-        for (size_t i = 0; i < nr; i++) {
-            if (isfinite(rows[i].v))
-                printf("%-38s %.10g\n", rows[i].key, rows[i].v);
-            else
-                printf("%-38s not found\n", rows[i].key);
-        }
-        printf("# the column runs from the tropopause to the stratopause; the burden is that column\n"
-               "# over the whole Earth's area (%.6g m2)\n",
-               SL_EARTH_AREA_M2);
-    }
-}
-
-static void print_json_table(const sl_atmosphere *a)
-{
-    printf("{\n");
-    json_str(stdout, "name", a->name);
-    json_str(stdout, "source", a->source);
-    const char *keys[7] = {"altitude_m",    "temperature_K", "pressure_Pa",        "h2o_ppmv",
-                           "density_kg_m3", "n2_per_s2",     "ice_saturation_ppmv"};
-    for (int k = 0; k < 7; k++) {
-        printf("  \"%s\": [", keys[k]);
-        for (size_t i = 0; i < a->n; i++) {
-            double v;
-            switch (k) {
-            case 0: v = a->altitude_m[i]; break;
-            case 1: v = a->temperature_K[i]; break;
-            case 2: v = a->pressure_Pa[i]; break;
-            case 3: v = sl_mole_fraction_to_ppmv(a->h2o_mole_fraction[i]); break;
-            case 4: v = a->density_kg_m3[i]; break;
-            case 5: v = a->n2_per_s2[i]; break;
-            default:
-                v = sl_mole_fraction_to_ppmv(sl_water_esat_ice_Pa(a->temperature_K[i]) / a->pressure_Pa[i]);
-                break;
-            }
-            printf("%s%.10g", i ? ", " : "", v);
-        }
-        printf("]%s\n", k == 6 ? "" : ",");
-    }
-    printf("}\n");
 }
 
 int sl_cmd_atmos(int argc, char **argv, const sl_cli_globals *g)
@@ -281,17 +132,8 @@ int sl_cmd_atmos(int argc, char **argv, const sl_cli_globals *g)
     if (strcmp(what, "list") == 0) {
         if (have_at || summary)
             return sl_cli_usage_error(g, "atmos", "'list' takes no --at or --summary");
-        for (int i = 0; sl_atmosphere_builtin_names[i]; i++) {
-            if (json)
-                printf("%s\"%s\"", i ? ", " : "[", sl_atmosphere_builtin_names[i]);
-            else if (csv)
-                printf("%s%s,\"%s\"\n", i ? "" : "name,description\n", sl_atmosphere_builtin_names[i],
-                       builtin_about[i]);
-            else
-                printf("%-20s %s\n", sl_atmosphere_builtin_names[i], builtin_about[i]);
-        }
-        if (json)
-            printf("]\n");
+        if (sl_output_atmos_list(csv, json, &e) != SL_OK)
+            return sl_cli_report(g, "atmos", &e);
     } else {
         sl_atmosphere atm;
         memset(&atm, 0, sizeof atm);
@@ -303,12 +145,12 @@ int sl_cmd_atmos(int argc, char **argv, const sl_cli_globals *g)
             if (rc == SL_OK)
                 rc = sl_atmosphere_at(&atm, at_m, &s, &e);
             if (rc == SL_OK)
-                print_at(&s, csv, json);
+                rc = sl_output_atmos_level(&s, csv, json, &e);
         } else if (rc == SL_OK && summary) {
-            print_summary(&atm, csv, json);
+            rc = sl_output_atmos_summary(&atm, csv, json, &e);
         } else if (rc == SL_OK) {
             if (json)
-                print_json_table(&atm);
+                rc = sl_output_atmos_json(&atm, &e);
             else
                 rc = sl_atmosphere_write_text(&atm, csv, stdout, &e);
         }

@@ -12,38 +12,6 @@
 #include <stdarg.h>
 #include <string.h>
 
-static void json_string(FILE *out, const char *s)
-{
-    fputc('"', out);
-    for (const unsigned char *p = (const unsigned char *)s; *p; p++) {
-        if (*p == '"' || *p == '\\')
-            fprintf(out, "\\%c", *p);
-        else if (*p == '\n')
-            fputs("\\n", out);
-        else if (*p == '\t')
-            fputs("\\t", out);
-        else if (*p < 0x20)
-            fprintf(out, "\\u%04x", *p);
-        else
-            fputc(*p, out);
-    }
-    fputc('"', out);
-}
-
-/* Separator, indentation and key of the next JSON member. */
-static void json_member(sl_report *r, const char *key)
-{
-    if (r->count[r->depth]++ > 0)
-        fputc(',', r->out);
-    fputc('\n', r->out);
-    for (int i = 0; i <= r->depth; i++)
-        fputs("  ", r->out);
-    if (key && !r->in_array[r->depth]) {
-        json_string(r->out, key);
-        fputs(": ", r->out);
-    }
-}
-
 void sl_output_fmt3(char *buf, size_t n, double x)
 {
     if (!isfinite(x)) {
@@ -80,13 +48,13 @@ void sl_report_begin(sl_report *r, FILE *out, int json)
     r->out = out;
     r->json = json;
     if (json)
-        fputc('{', out);
+        sl_json_begin(&r->writer, out);
 }
 
 int sl_report_end(sl_report *r, sl_err *e)
 {
     if (r->json)
-        fputs("\n}\n", r->out);
+        return sl_json_end(&r->writer, e);
     if (fflush(r->out) != 0 || ferror(r->out))
         SL_FAIL_RETURN(e, SL_EIO, "cannot write the summary");
     return SL_OK;
@@ -102,11 +70,7 @@ void sl_report_number(sl_report *r, const char *key, double value_si, const char
                       const char *unit)
 {
     if (r->json) {
-        json_member(r, key);
-        if (isfinite(value_si))
-            fprintf(r->out, "%.10g", value_si);
-        else
-            fputs("null", r->out);
+        sl_json_number(&r->writer, key, value_si);
         return;
     }
     text_label(r, label);
@@ -121,8 +85,7 @@ void sl_report_number(sl_report *r, const char *key, double value_si, const char
 void sl_report_bool(sl_report *r, const char *key, int value, const char *label)
 {
     if (r->json) {
-        json_member(r, key);
-        fputs(value ? "true" : "false", r->out);
+        sl_json_bool(&r->writer, key, value);
         return;
     }
     text_label(r, label);
@@ -132,8 +95,7 @@ void sl_report_bool(sl_report *r, const char *key, int value, const char *label)
 void sl_report_string(sl_report *r, const char *key, const char *value, const char *label)
 {
     if (r->json) {
-        json_member(r, key);
-        json_string(r->out, value);
+        sl_json_string(&r->writer, key, value);
         return;
     }
     text_label(r, label);
@@ -143,13 +105,10 @@ void sl_report_string(sl_report *r, const char *key, const char *value, const ch
 static void begin_nested(sl_report *r, const char *key, const char *label, int array)
 {
     if (r->json) {
-        json_member(r, key);
-        fputc(array ? '[' : '{', r->out);
-        if (r->depth + 1 < SL_REPORT_MAX_DEPTH) {
-            r->depth++;
-            r->count[r->depth] = 0;
-            r->in_array[r->depth] = array;
-        }
+        if (array)
+            sl_json_begin_array(&r->writer, key, SL_JSON_LINES);
+        else
+            sl_json_begin_object(&r->writer, key, SL_JSON_LINES);
         return;
     }
     if (label)
@@ -160,15 +119,10 @@ static void begin_nested(sl_report *r, const char *key, const char *label, int a
 static void end_nested(sl_report *r, int array)
 {
     if (r->json) {
-        int had = r->count[r->depth] > 0;
-        if (r->depth > 0)
-            r->depth--;
-        if (had) {
-            fputc('\n', r->out);
-            for (int i = 0; i <= r->depth; i++)
-                fputs("  ", r->out);
-        }
-        fputc(array ? ']' : '}', r->out);
+        if (array)
+            sl_json_end_array(&r->writer);
+        else
+            sl_json_end_object(&r->writer);
         return;
     }
     if (r->text_indent > 0)
@@ -856,4 +810,73 @@ int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, int detail, 
     emit_parameters(&r, ch);
     sl_report_string(&r, "caution", sl_cli_caution(), "caution");
     return sl_report_end(&r, e);
+}
+
+void sl_output_text_strat_series(FILE *out, const sl_strat_result *r)
+{
+    fprintf(out, "time_days,global_excess_kg,global_anomaly_ppmv,global_column_kg_m2,local_column_kg_m2,"
+                 "percent_of_background,forcing_W_m2");
+    for (int s = 0; s < SL_STRAT_N_SINKS; s++)
+        fprintf(out, ",sink_%s_kg", sl_strat_sink_names[s]);
+    fputc('\n', out);
+    for (size_t i = 0; i < r->n_times; i++) {
+        fprintf(out, "%.6g,%.6g,%.6g,%.6g,%.6g,%.6g,%.6g", sl_s_to_days(r->time_s[i]), r->global_excess_kg[i],
+                sl_mole_fraction_to_ppmv(r->global_anomaly_mole_fraction[i]), r->global_column_kg_m2[i],
+                r->local_column_kg_m2[i], r->percent_of_background[i], r->forcing_W_m2[i]);
+        for (int s = 0; s < SL_STRAT_N_SINKS; s++)
+            fprintf(out, ",%.6g", r->sink_kg[i * SL_STRAT_N_SINKS + s]);
+        fputc('\n', out);
+    }
+}
+
+int sl_output_text_calibration(FILE *out, const sl_strat_params *p,
+                               const sl_atmosphere *const atm[SL_STRAT_N_REGIONS], sl_err *e)
+{
+    sl_strat_params fit;
+    sl_strat_calibration before, after;
+    SL_TRY_RETURN(e, sl_strat_diagnose(p, atm, &before, e));
+    SL_TRY_RETURN(e, sl_strat_calibrate(p, atm, &fit, &after, e));
+    const double month_s = SL_S_PER_YEAR / 12.0;
+    fprintf(out, "steamloft decay --calibrate: transport constants fitted to published time scales\n");
+    fprintf(out, "  %-34s %12s %12s   %s\n", "quantity", "defaults", "fitted", "target (source)");
+    fprintf(out, "  %-34s %12.4g %12.4g   %s\n", "mean age, tropics 20 km (yr)",
+            sl_s_to_years(before.age_tropics_20km_s), sl_s_to_years(after.age_tropics_20km_s),
+            "about 1 (Waugh & Hall 2002)");
+    fprintf(out, "  %-34s %12.4g %12.4g   %s\n", "mean age, extratropics 25-40 km (yr)",
+            sl_s_to_years(before.age_extratropics_25_40km_s), sl_s_to_years(after.age_extratropics_25_40km_s),
+            "4-5 (Waugh & Hall 2002)");
+    fprintf(out, "  %-34s %12.4g %12.4g   %s\n", "slowest mode (yr)", sl_s_to_years(before.slowest_mode_s),
+            sl_s_to_years(after.slowest_mode_s), "3.8-5.3 (Ehhalt et al. 2004)");
+    fprintf(out, "  %-34s %12.4g %12.4g   %s\n", "upwelling 20-30 km (mm/s)", before.upwelling_20_30km_m_s * 1e3,
+            after.upwelling_20_30km_m_s * 1e3, "0.2-0.4 (Mote et al. 1996)");
+    fprintf(out, "  %-34s %12.4g %12.4g   %s\n", "in-mixing time (months)", p->inmixing_time_s / month_s,
+            fit.inmixing_time_s / month_s, "about 13.5 (Volk et al. 1996)");
+    fprintf(out, "  %-34s %12.4g %12.4g\n", "cost (squared misfits)", before.cost, after.cost);
+    fprintf(out, "fitted constants (%zu Nelder-Mead iterations):\n", after.iterations);
+    fprintf(out, "  deep_branch_fraction   = %.6g\n", fit.deep_branch_fraction);
+    fprintf(out, "  inmixing_time_s        = %.6g   (%.6g years)\n", fit.inmixing_time_s,
+            sl_s_to_years(fit.inmixing_time_s));
+    fprintf(out, "  kzz_m2_s               = %.6g\n", fit.kzz_m2_s);
+    fprintf(out, "%s\n", sl_cli_caution());
+    if (fflush(out) != 0 || ferror(out))
+        SL_FAIL_RETURN(e, SL_EIO, "writing the calibration: write error");
+    return SL_OK;
+}
+
+int sl_output_text_decay(FILE *out, const sl_strat_model *m, const sl_strat_result *r, const char *source, int json,
+                         sl_err *e)
+{
+    sl_report rep;
+    sl_report_begin(&rep, out, json);
+    if (!json)
+        fprintf(out, "steamloft decay: stratospheric box model (%zu boxes, %zu layers x 3 regions)\n", m->n_boxes,
+                m->n_layers);
+    sl_report_string(&rep, "source", source, "source");
+    sl_report_number(&rep, "span_years", sl_s_to_years(r->time_s[r->n_times - 1]), "length of the run", 1.0,
+                     "years");
+    sl_output_text_strat(&rep, m, r);
+    if (!json)
+        fputc('\n', out);
+    sl_report_string(&rep, "caution", sl_cli_caution(), "caution");
+    return sl_report_end(&rep, e);
 }

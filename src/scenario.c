@@ -18,6 +18,8 @@
  * 2005 (MAPS 40, 817, eq. 9), Y = 10^(2.107 + 0.0624 sqrt(rho)) Pa with rho in
  * kg m-3, fitted by them to bolide breakup data. */
 #include "steamloft/scenario.h"
+
+#include "steamloft/date.h"
 #include "steamloft/dist.h"
 #include "steamloft/units.h"
 #include "steamloft/units_table.h"
@@ -112,6 +114,8 @@ void sl_scenario_range_text(sl_param_id id, char *buf, size_t n)
     const sl_param_def *d = &sl_scenario_params[id];
     if (d->type == SL_PT_CHOICE)
         snprintf(buf, n, "one of %s", d->choices);
+    else if (d->type == SL_PT_TEXT && (d->flags & SL_PF_DATE))
+        snprintf(buf, n, "%s", SL_DATE_FORMS);
     else if (d->type == SL_PT_TEXT && (d->flags & SL_PF_OPTIONAL))
         snprintf(buf, n, "free text");
     else if (d->type == SL_PT_TEXT)
@@ -446,6 +450,12 @@ static int convert_value(sl_scenario *sc, int id, sl_err *e)
         if (text[0] == '\0')
             SL_FAIL_RETURN(e, SL_EDATA, "%s: empty value (valid: %s)", at, range);
         sc->value_si[id] = NAN;
+        if (d->flags & SL_PF_DATE) {
+            double t;
+            if (sl_date_parse(text, &t) != 0)
+                SL_FAIL_RETURN(e, SL_EDATA, "%s: '%s' is not a date (valid: %s)", at, text, range);
+            sc->value_si[id] = t; /* seconds since 1970-01-01 00:00:00 UTC */
+        }
         return SL_OK;
     case SL_PT_CHOICE: {
         const char *p = d->choices;
@@ -497,6 +507,28 @@ static double strength_from_density_Pa(double density_kg_m3)
 /* Fill derived defaults and check relations between keys. */
 static int resolve(sl_scenario *sc, sl_err *e)
 {
+    /* The month follows from a date; a month written too must agree. */
+    if ((sc->origin[SL_P_SITE_DATE] == SL_ORIGIN_FILE || sc->origin[SL_P_SITE_DATE] == SL_ORIGIN_SET) &&
+        isfinite(sc->value_si[SL_P_SITE_DATE])) {
+        sl_date_fields f;
+        sl_date_split(sc->value_si[SL_P_SITE_DATE], &f);
+        sl_param_origin om = sc->origin[SL_P_SITE_MONTH];
+        const double given = sc->value_si[SL_P_SITE_MONTH];
+        if ((om == SL_ORIGIN_FILE || om == SL_ORIGIN_SET) && isfinite(given) && given != 0.0 &&
+            (int)lround(given) != f.month) {
+            char at[320];
+            sl_scenario_where(sc, SL_P_SITE_MONTH, at, sizeof at);
+            SL_FAIL_RETURN(e, SL_EDATA,
+                           "%s: %d does not agree with [site] date = %s (valid: %d, or leave month "
+                           "out: it follows from the date)",
+                           at, (int)lround(given), sc->raw[SL_P_SITE_DATE], f.month);
+        }
+        sc->value_si[SL_P_SITE_MONTH] = f.month;
+        if (om != SL_ORIGIN_FILE && om != SL_ORIGIN_SET) {
+            snprintf(sc->raw[SL_P_SITE_MONTH], sizeof sc->raw[SL_P_SITE_MONTH], "%d", f.month);
+            sc->origin[SL_P_SITE_MONTH] = SL_ORIGIN_DERIVED;
+        }
+    }
     /* Site-aware defaults: the rules are site.c's (the one place). */
     {
         const double lat = sl_rad_to_deg(sc->value_si[SL_P_SITE_LATITUDE]);
@@ -680,7 +712,8 @@ int sl_scenario_finish(sl_scenario *sc, sl_err *e)
                            d->section, d->key, d->meaning, range);
         }
         if (d->type == SL_PT_TEXT && (d->flags & SL_PF_OPTIONAL)) {
-            sc->raw[id][0] = '\0'; /* optional text (the name): stays unset */
+            sc->raw[id][0] = '\0'; /* optional text (the name, the date): stays unset */
+            sc->value_si[id] = NAN;
             sc->origin[id] = SL_ORIGIN_UNSET;
         } else if (d->type == SL_PT_TEXT) {
             /* The atmosphere: derived from latitude and month in resolve(). */

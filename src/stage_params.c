@@ -96,3 +96,13 @@ void sl_strat_params_from_scenario(sl_strat_params *p, const sl_scenario *sc)
     double month = sl_scenario_value(sc, SL_P_SITE_MONTH);
     p->start_month = isfinite(month) && month >= 1.0 && month <= 12.0 ? (int)month : 0;
 }
+
+void sl_emission_params_from_scenario(sl_emission_params *p, const sl_scenario *sc)
+{
+    sl_param_origin od = sc->origin[SL_P_SITE_DATE];
+    p->event_time_s = od == SL_ORIGIN_FILE || od == SL_ORIGIN_SET ? sc->value_si[SL_P_SITE_DATE] : NAN;
+    double month = sl_scenario_value(sc, SL_P_SITE_MONTH);
+    p->month = isfinite(month) && month >= 1.0 && month <= 12.0 ? (int)month : 0;
+    p->duration_s = sl_scenario_value(sc, SL_P_EMISSION_DURATION);
+    p->radius_m = sl_scenario_value(sc, SL_P_EMISSION_RADIUS); /* NaN: from the cloud */
+}

@@ -124,11 +124,15 @@
  * threshold (non-linear) and is applied after every internal step (operator
  * splitting, error O(h)).  Months are equal, 1/12 of a Julian year.
  *
- * Forcing indicator (coarse): about 0.2 W/m2 per ppmv of a near-uniform
- * increase of stratospheric water (range 0.1-0.3; Forster & Shine 1999, GRL
- * 26, 3309; Solomon et al. 2010, Science 327, 1219), larger for water near the tropopause and smaller higher up: per-box
+ * Forcing indicator (coarse): 0.3 W/m2 per ppmv of a near-uniform increase
+ * of stratospheric water (the upper end of the 0.1-0.3 range of Forster &
+ * Shine 1999, GRL 26, 3309, and Solomon et al. 2010, Science 327, 1219, from
+ * memory), larger for water near the tropopause and smaller higher up: per-box
  * weight exp(-(z - 16 km)/14 km), normalised so that a uniform increase above
- * 100 hPa gives 0.2 W/m2 per ppmv.  The shape is PRACTICE (no published
+ * 100 hPa gives 0.3 W/m2 per ppmv.  CALIBRATED on the 2022 Hunga water: with
+ * 0.2 the 146 Tg at 22-27 km gave 0.078 W/m2, a third below the +0.12 W/m2
+ * early forcing of Jenkins et al. 2023 (Nature Climate Change 13, 127; seen
+ * in the source's abstract as reported); 0.3 gives 0.117, inside 0.10-0.15.  The shape is PRACTICE (no published
  * forcing-per-layer kernel was found): 14 km makes water at 25-30 km count
  * about half as much as water at the tropopause.  It is an order-of-magnitude
  * indicator, not a radiative-transfer result.
@@ -214,7 +218,7 @@ void sl_strat_params_default(sl_strat_params *p)
     p->cloud_freeze_out = 0;
     p->zonal_spread_time_s = 14.0 * SL_S_PER_DAY;
     p->region_spread_time_s = 90.0 * SL_S_PER_DAY;
-    p->forcing_W_m2_per_mole_fraction = 0.2e6; /* 0.2 W m-2 per ppmv */
+    p->forcing_W_m2_per_mole_fraction = 0.3e6; /* 0.3 W m-2 per ppmv: CALIBRATED, see the header */
     p->forcing_scale_height_m = 14.0e3;
     p->span_s = 20.0 * SL_S_PER_YEAR;
     p->step_s = MONTH_S;

@@ -2,7 +2,8 @@
  *   scenario -> atmosphere -> entry (impactors) -> partition -> sources
  *   -> plume rise and freeze-out -> injection profile
  *   -> stratospheric box model (decay, columns, percent of background)
- * (later stages add their members and calls here).
+ * The chain is a loop over a table of stages (src/chain.c), each with the
+ * same shape: parameters from the scenario in, solve, results in the chain.
  *
  * An sl_chain is reusable: zero it once, call sl_chain_run() as many times
  * as wanted (an ensemble calls it once per member), then sl_chain_free().
@@ -24,10 +25,21 @@
 #include "steamloft/stage_params.h"
 #include "steamloft/strat.h"
 
-/* Stages timed by sl_chain_run (for `make bench`). */
+/* The stages of the chain, in order; each is timed (for `make bench`). */
 enum { SL_CHAIN_T_ATMOSPHERE = 0, SL_CHAIN_T_ENTRY, SL_CHAIN_T_PARTITION, SL_CHAIN_T_PLUME,
        SL_CHAIN_T_STRAT, SL_CHAIN_N_TIMED };
 extern const char *const sl_chain_stage_names[SL_CHAIN_N_TIMED];
+
+/* What a caller entering the chain at the box model may give beyond the
+ * scenario (the [strat] keys name built-in backgrounds only): background
+ * profile files of the tropics [0] and extratropics [1] (NULL or "" = the
+ * scenario's), and an immediate freeze-out of the water the young cloud
+ * cannot hold (sl_strat_params.cloud_freeze_out; `decay --freeze-out` for raw
+ * lofted water).  Zero for `run`. */
+typedef struct sl_chain_box_input {
+    const char *atmosphere[2];
+    int cloud_freeze_out;
+} sl_chain_box_input;
 
 typedef struct sl_chain {
     sl_scenario scenario;          /* copy of the scenario last run */
@@ -45,6 +57,7 @@ typedef struct sl_chain {
     sl_entry entry;                /* valid when has_entry */
     int has_entry;                 /* the scenario is an [impactor] */
     double air_source_altitude_m;  /* where the air's share was released */
+    sl_partition_input partition_input; /* built by the atmosphere and entry stages */
     sl_partition partition;        /* energy shares and the plume sources */
     sl_plume plume;                /* rise of each source, cloud, freeze-out (workspace kept) */
     int have_plume;
@@ -56,6 +69,7 @@ typedef struct sl_chain {
     sl_atmosphere strat_atmosphere[2];
     int have_strat_atmosphere[2];
     char strat_atmosphere_name[2][SL_SCENARIO_RAW_LEN];
+    sl_chain_box_input box_input;  /* set by the caller before the run, kept */
     sl_strat_params strat_params;  /* of the model built */
     sl_strat_model strat_model;
     int have_strat_model;
@@ -67,6 +81,18 @@ typedef struct sl_chain {
  * what it had allocated (sl_chain_free releases it) and E says which stage
  * failed and why. */
 int sl_chain_run(const sl_scenario *sc, sl_chain *ch, sl_err *e);
+
+/* The chain entered at stage FIRST_STAGE: SL_CHAIN_T_ATMOSPHERE (the whole
+ * chain, = sl_chain_run) or SL_CHAIN_T_STRAT (`decay`: the caller has put the
+ * injection profile in ch->injection, which the chain then owns and frees;
+ * the box model is set up exactly as in a full run, from the same keys).
+ * SL_EINTERNAL for any other stage. */
+int sl_chain_run_from(const sl_scenario *sc, sl_chain *ch, int first_stage, sl_err *e);
+
+/* Set up the box model of SC (the backgrounds and the model, kept while they
+ * do not change) without running it: ch->strat_params, ch->strat_model and
+ * ch->strat_atmosphere are then valid (`decay --calibrate`). */
+int sl_chain_prepare_box(const sl_scenario *sc, sl_chain *ch, sl_err *e);
 
 /* The sources handed to the plume stage (valid after a successful run). */
 const sl_source_list *sl_chain_sources(const sl_chain *ch);

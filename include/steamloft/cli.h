@@ -76,7 +76,7 @@ int sl_cli_option_error(const sl_cli_globals *g, const char *cmd, int c, char **
  * command takes keys over before they are converted, as the ensemble does).
  * The values are applied in order with sl_scenario_override (scenario.h):
  * the key's own unit as a user writes it, text and choice keys too. */
-enum { SL_CLI_OPT_SET = 0x5380, SL_CLI_MAX_SETS = 128 };
+enum { SL_CLI_OPT_SET = 0x5380, SL_CLI_MAX_SETS = 128, SL_CLI_MAX_KEY_SETS = 16 };
 #define SL_CLI_SET_OPTION {"set", required_argument, NULL, SL_CLI_OPT_SET}
 #define SL_CLI_SET_HELP                                                                     \
     "      --set SECTION.KEY=VALUE  override one scenario key (repeatable), VALUE in the\n"  \
@@ -85,11 +85,23 @@ enum { SL_CLI_OPT_SET = 0x5380, SL_CLI_MAX_SETS = 128 };
 typedef struct sl_cli_sets {
     size_t n;
     const char *item[SL_CLI_MAX_SETS];
+    /* the assignments written by sl_cli_sets_add_key */
+    char text[SL_CLI_MAX_KEY_SETS][SL_SCENARIO_RAW_LEN + 64];
+    size_t n_text;
 } sl_cli_sets;
 
 /* Record one --set argument; checks at once that it is SECTION.KEY=VALUE with
  * a known key (SL_EUSAGE naming --set, the key, and the keys of its section). */
 int sl_cli_sets_add(sl_cli_sets *s, const char *arg, sl_err *e);
+
+/* A command's own option as a short form of --set for key ID (`decay
+ * --month N` is --set site.month=N): recorded in order with the --set values.
+ * A number is checked against the table's range at once: SL_EUSAGE naming
+ * OPTION, the key and the valid range (the table is the one place for it). */
+int sl_cli_sets_add_key(sl_cli_sets *s, const char *option, sl_param_id id, const char *value, sl_err *e);
+
+/* 1 when WORD is one of the choices of the choice key ID. */
+int sl_cli_is_choice(sl_param_id id, const char *word);
 
 /* Apply the recorded --set values to a read, unfinished scenario. */
 int sl_cli_sets_apply(const sl_cli_sets *s, sl_scenario *sc, sl_err *e);

@@ -1,6 +1,7 @@
 /* output_text: the summary of a run, as a readable text or as JSON.
  *
- * JSON comes from one list of calls on an sl_report: each quantity is
+ * JSON comes from one list of calls on an sl_report (written by the one JSON
+ * writer, json.h): each quantity is
  * emitted once with its JSON key (SI, unit in the key: energy_J) at full
  * precision; `decay` uses the same report for text too (label, display
  * factor and unit; three significant figures).  The text summary of `run`
@@ -20,15 +21,12 @@
 
 #include "steamloft/chain.h"
 #include "steamloft/err.h"
-
-enum { SL_REPORT_MAX_DEPTH = 8 };
+#include "steamloft/json.h"
 
 typedef struct sl_report {
     FILE *out;
-    int json;                         /* 1 JSON, 0 text */
-    int depth;                        /* nesting of JSON objects/arrays */
-    int count[SL_REPORT_MAX_DEPTH];   /* members written at each depth */
-    int in_array[SL_REPORT_MAX_DEPTH];
+    int json;                         /* 1 JSON (through the one writer, json.h), 0 text */
+    sl_json writer;                   /* the JSON state */
     int text_indent;
 } sl_report;
 
@@ -55,6 +53,22 @@ void sl_report_end_array(sl_report *r);
 struct sl_strat_model;
 struct sl_strat_result;
 void sl_output_text_strat(sl_report *r, const struct sl_strat_model *m, const struct sl_strat_result *s);
+
+/* The summary of `decay` (text or JSON): what was decayed (SOURCE), the
+ * length of the run and the box-model section run's summary has, with the
+ * same keys, and the caution. */
+int sl_output_text_decay(FILE *out, const struct sl_strat_model *m, const struct sl_strat_result *r,
+                         const char *source, int json, sl_err *e);
+
+/* The box model's time series as CSV (`decay --series`): time in days, the
+ * global excess, anomaly and columns, the forcing and each sink, %.6g. */
+void sl_output_text_strat_series(FILE *out, const struct sl_strat_result *r);
+
+/* `decay --calibrate`: the transport constants fitted to the published time
+ * scales (sl_strat_calibrate) beside the defaults P, as a table.  SL_EIO when
+ * writing failed; the fit's own statuses. */
+int sl_output_text_calibration(FILE *out, const sl_strat_params *p,
+                               const sl_atmosphere *const atm[SL_STRAT_N_REGIONS], sl_err *e);
 
 /* X to three significant figures for people: fixed notation from 0.001 to
  * 999999 ("0.0042", "59.4", "1420"), else "1.83e+18"; "none" for NaN. */

@@ -20,6 +20,8 @@
  *   SL_PF_REQUIRED  must be given when its section is in use
  *   SL_PF_DERIVED   when absent, computed from other keys (documented in meaning)
  *   SL_PF_OPTIONAL  may stay unset (value NaN); its absence means something
+ *   SL_PF_DATE      a text key holding an ISO 8601 UTC date (include/steamloft/date.h);
+ *                   its value_si is the time in seconds since 1970-01-01 00:00:00 UTC
  *
  * Errors (all name the file, the line when there is one, the key and its
  * valid range):
@@ -60,7 +62,8 @@
     X(ENTRY, "entry", "coefficients of the atmospheric-entry model")                               \
     X(PARTITION, "partition", "how the energy reaching the sea is shared out")                            \
     X(PLUME, "plume", "plume rise, freeze-out in the young cloud, and the altitude bands")          \
-    X(STRAT, "strat", "stratospheric box model: time span, output step, backgrounds, time scales")
+    X(STRAT, "strat", "stratospheric box model: time span, output step, backgrounds, time scales") \
+    X(EMISSION, "emission", "optional: the injection as a model input: pulse length and horizontal footprint")
 
 typedef enum sl_param_type {
     SL_PT_REAL = 0,  /* a real number in the key's unit */
@@ -69,7 +72,7 @@ typedef enum sl_param_type {
     SL_PT_CHOICE     /* one of a '|'-separated list of words; value_si is its index */
 } sl_param_type;
 
-enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
+enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u, SL_PF_DATE = 8u };
 
 #define SL_NODEFAULT NAN
 
@@ -120,7 +123,12 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
       "paths first next to the scenario file; default derived from latitude and month (tropical, "  \
       "mid-latitude or sub-arctic, summer or winter; docs/physics.md section 1)")                   \
     X(SITE_MONTH, "site", "month", SL_PT_INT, "", 0.0, 0.0, 12.0, 0u, NULL,                         \
-      "month of the event, 1-12 (0 = not given; annual-mean conditions)")                           \
+      "month of the event, 1-12 (0 = not given; annual-mean conditions); follows from date "      \
+      "when that is given")                                                                         \
+    X(SITE_DATE, "site", "date", SL_PT_TEXT, "", SL_NODEFAULT, 0.0, 0.0,                            \
+      SL_PF_OPTIONAL | SL_PF_DATE, NULL,                                                            \
+      "UTC date and time of the event, ISO 8601 (2022-01-15 or 2022-01-15T04:15:00Z); sets the "    \
+      "month; without it outputs carry a nominal date (the 1st of the month, or January 1st)")     \
     X(AIRBURST_ALTITUDE, "airburst", "altitude_m", SL_PT_REAL, "m", SL_NODEFAULT, 0.0, 100000.0,   \
       SL_PF_OPTIONAL, NULL, "impose the burst at this altitude (needs energy_fraction)")            \
     X(AIRBURST_FRACTION, "airburst", "energy_fraction", SL_PT_REAL, "1", SL_NODEFAULT, 0.0, 1.0,   \
@@ -228,7 +236,13 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u };
     X(STRAT_LMS_RESIDENCE, "strat", "lms_residence_days", SL_PT_REAL, "days", 50.0, 1.0, 3650.0, 0u, \
       NULL, "residence of water in the lowermost stratosphere (Gettelman 1999: about 50 days)")     \
     X(STRAT_VORTEX, "strat", "antarctic_vortex_fraction", SL_PT_REAL, "1", 0.1424, 0.0, 0.9, 0u,     \
-      NULL, "share of the southern extratropical air (poleward of 65 S) dried each winter")
+      NULL, "share of the southern extratropical air (poleward of 65 S) dried each winter")       \
+    X(EMISSION_DURATION, "emission", "duration_s", SL_PT_REAL, "s", 21600.0, 60.0, 3.15576e7, 0u,   \
+      NULL, "length of the emission pulse handed to a model (6 h: the usual pulse of "              \
+      "elevated-emission inputs of explosive eruptions, common practice)")                          \
+    X(EMISSION_RADIUS, "emission", "radius_m", SL_PT_REAL, "m", SL_NODEFAULT, 1000.0, 5.0e6,       \
+      SL_PF_OPTIONAL, NULL, "radius of the horizontal footprint (a disc on the sphere around the "  \
+      "site); default: the largest radius of the rising thermals at their apex")
 
 /* Row indices SL_P_<ID>, and SL_P_COUNT. */
 typedef enum sl_param_id {

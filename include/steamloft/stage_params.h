@@ -6,6 +6,7 @@
 #ifndef STEAMLOFT_STAGE_PARAMS_H
 #define STEAMLOFT_STAGE_PARAMS_H
 
+#include "steamloft/emission.h"
 #include "steamloft/entry.h"
 #include "steamloft/partition.h"
 #include "steamloft/plume.h"
@@ -30,5 +31,9 @@ void sl_plume_params_from_scenario(sl_plume_params *par, const sl_scenario *sc);
  * [site] month (0 = unknown).  The region backgrounds are named by
  * sl_scenario_text(sc, SL_P_STRAT_TROPICS_ATMOSPHERE / _EXTRATROPICS_ATMOSPHERE). */
 void sl_strat_params_from_scenario(sl_strat_params *p, const sl_scenario *sc);
+
+/* The event time (NaN without [site] date), month, pulse and footprint radius
+ * (NaN: derive it from the cloud) of the [site] and [emission] keys. */
+void sl_emission_params_from_scenario(sl_emission_params *p, const sl_scenario *sc);
 
 #endif

@@ -81,10 +81,10 @@ if command -v bash >/dev/null 2>&1; then
   if [ "$reg" = "complete -F _steamloft steamloft" ]; then sl_ok "complete -p steamloft: -F _steamloft"; else sl_fail "complete -p steamloft gives '$reg'"; fi
   got=$(comp steamloft run x.ini --set impactor.diam)
   if [ "$got" = "impactor.diameter_m=" ]; then sl_ok "run --set impactor.diam<TAB> -> impactor.diameter_m="; else sl_fail "run --set key gives '$got'"; fi
-  got=$(comp steamloft run x.ini --forc)
-  if [ "$got" = "--force" ]; then sl_ok "run x.ini --forc<TAB> -> --force (global options anywhere)"; else sl_fail "run x.ini --forc<TAB> gives '$got'"; fi
-  got=$(comp steamloft atmos --s | tr '\n' ' ')
-  if [ "$got" = "--summary " ]; then sl_ok "atmos --s<TAB> -> --summary (no usage-line debris)"; else sl_fail "atmos --s<TAB> gives '$got'"; fi
+  got=$(comp steamloft run x.ini --force)
+  if [ "$got" = "--force" ]; then sl_ok "run x.ini --force<TAB> -> --force (global options anywhere)"; else sl_fail "run x.ini --force<TAB> gives '$got'"; fi
+  got=$(comp steamloft atmos --su | tr '\n' ' ')
+  if [ "$got" = "--summary " ]; then sl_ok "atmos --su<TAB> -> --summary (no usage-line debris)"; else sl_fail "atmos --su<TAB> gives '$got'"; fi
   # Every option that takes a value in a command's --help has a value kind
   # in the completion (none dropped, e.g. the last of the list).
   miss=""

@@ -1,0 +1,419 @@
+/* model_inputs: the injection table, the gridded emission file and the
+ * forcing series (see include/steamloft/model_inputs.h).  No physics: the
+ * numbers are the stages' results, converted at this output boundary. */
+#include "steamloft/model_inputs.h"
+
+#include "steamloft/cli.h"
+#include "steamloft/date.h"
+#include "steamloft/json.h"
+#include "steamloft/outfile.h"
+#include "steamloft/units.h"
+
+#include <math.h>
+#include <netcdf.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <strings.h>
+
+void sl_model_inputs_digest(const char *text, char out[17])
+{
+    unsigned long long h = 14695981039346656037ull; /* FNV-1a offset basis */
+    for (const unsigned char *p = (const unsigned char *)text; *p; p++) {
+        h ^= *p;
+        h *= 1099511628211ull; /* FNV prime */
+    }
+    snprintf(out, 17, "%016llx", h);
+}
+
+static int ends_with(const char *s, const char *suffix)
+{
+    size_t n = strlen(s), m = strlen(suffix);
+    return n > m && strcasecmp(s + n - m, suffix) == 0;
+}
+
+/* The directory of PATH into DIR; returns its file name. */
+static const char *split_path(const char *path, char *dir, size_t n)
+{
+    const char *slash = strrchr(path, '/');
+    if (slash == NULL)
+        snprintf(dir, n, ".");
+    else if (slash == path)
+        snprintf(dir, n, "/");
+    else
+        snprintf(dir, n, "%.*s", (int)(slash - path), path);
+    return slash ? slash + 1 : path;
+}
+
+static double pressure_hPa(const sl_atmosphere *atm, double z_m)
+{
+    sl_atmos_state st;
+    sl_err e = {0};
+    if (atm == NULL || sl_atmosphere_at(atm, z_m, &st, &e) != SL_OK)
+        return NAN;
+    return st.pressure_Pa / 100.0;
+}
+
+int sl_model_inputs_table_write(const sl_model_inputs *mi, const char *path, int force, sl_err *e)
+{
+    sl_emission_profile pr;
+    SL_TRY_RETURN(e, sl_emission_profile_build(&pr, mi->inj, NAN, e));
+    sl_outset *set = calloc(1, sizeof *set);
+    if (set == NULL) {
+        sl_emission_profile_free(&pr);
+        SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory");
+    }
+    char dir[SL_OUTSET_PATH_LEN];
+    const char *base = split_path(path, dir, sizeof dir);
+    FILE *fp = NULL;
+    int rc = sl_outset_begin(set, dir, force, 0, e);
+    if (rc == SL_OK)
+        rc = sl_outset_fopen(set, base, &fp, e);
+    if (rc == SL_OK) {
+        char when[32];
+        sl_date_format(mi->event_time_s, when, sizeof when);
+        const int json = ends_with(path, ".json");
+        const char *sp[2] = {"water_vapour", "ice"};
+        sl_json j;
+        if (json) {
+            sl_json_begin(&j, fp);
+            sl_json_string(&j, "caution", sl_cli_caution());
+            sl_json_string(&j, "version", sl_cli_version());
+            sl_json_string(&j, "scenario_digest", mi->digest);
+            sl_json_bool(&j, "time_is_nominal", !mi->date_given);
+            sl_json_number(&j, "total_mass_kg", pr.total_kg);
+            sl_json_begin_array(&j, "rows", SL_JSON_LINES);
+        } else {
+            fprintf(fp, "# %s\n# version: %s\n# scenario digest: %s (FNV-1a 64 of the scenario's "
+                        "key=value lines)\n",
+                    sl_cli_caution(), sl_cli_version(), mi->digest);
+            fprintf(fp, "# event time %s%s; water above the tropopause in layers (the layer "
+                        "holding the tropopause starts at it); pressures from the run's atmosphere\n",
+                    when, mi->date_given ? "" : " is NOMINAL (no [site] date given)");
+            fprintf(fp, "# total mass: %.10g kg\n", pr.total_kg);
+            fprintf(fp, "event_time_utc,latitude_deg,longitude_deg,bottom_m,top_m,bottom_hPa,top_hPa,"
+                        "species,mass_kg,duration_s,radius_m\n");
+        }
+        for (size_t i = 0; i < pr.n; i++) {
+            const sl_emission_layer *L = &pr.layer[i];
+            double m[2] = {L->vapor_kg, L->ice_kg};
+            double pb = pressure_hPa(mi->atm, L->bottom_m), pt = pressure_hPa(mi->atm, L->top_m);
+            for (int s = 0; s < 2; s++) {
+                if (!(m[s] > 0.0))
+                    continue;
+                if (json) {
+                    sl_json_begin_object(&j, NULL, SL_JSON_INLINE);
+                    sl_json_string(&j, "event_time_utc", when);
+                    sl_json_number(&j, "latitude_deg", mi->latitude_deg);
+                    sl_json_number(&j, "longitude_deg", mi->longitude_deg);
+                    sl_json_number(&j, "bottom_m", L->bottom_m);
+                    sl_json_number(&j, "top_m", L->top_m);
+                    sl_json_number(&j, "bottom_hPa", pb);
+                    sl_json_number(&j, "top_hPa", pt);
+                    sl_json_string(&j, "species", sp[s]);
+                    sl_json_number(&j, "mass_kg", m[s]);
+                    sl_json_number(&j, "duration_s", mi->duration_s);
+                    sl_json_number(&j, "radius_m", mi->radius_m);
+                    sl_json_end_object(&j);
+                } else {
+                    fprintf(fp, "%s,%.6f,%.6f,%.10g,%.10g,%.6g,%.6g,%s,%.10g,%.10g,%.10g\n", when,
+                            mi->latitude_deg, mi->longitude_deg, L->bottom_m, L->top_m, pb, pt, sp[s],
+                            m[s], mi->duration_s, mi->radius_m);
+                }
+            }
+        }
+        if (json) {
+            sl_json_end_array(&j);
+            rc = sl_json_end(&j, e);
+        }
+        sl_err close_err = {0};
+        const int rc_close = sl_outset_fclose(set, base, fp, rc == SL_OK ? e : &close_err);
+        if (rc == SL_OK)
+            rc = rc_close;
+    }
+    if (rc == SL_OK)
+        rc = sl_outset_commit(set, e);
+    else
+        sl_outset_abort(set);
+    free(set);
+    sl_emission_profile_free(&pr);
+    return rc;
+}
+
+/* ---- the gridded emission file ------------------------------------------ */
+
+typedef struct ncw {
+    int ncid;
+    const char *path; /* final path, for messages */
+} ncw;
+
+#define NC_TRY(w, what, call)                                                                     \
+    do {                                                                                          \
+        int st_ = (call);                                                                         \
+        if (st_ != NC_NOERR) {                                                                    \
+            rc = SL_EIO;                                                                          \
+            sl_err_set(e, SL_EIO, __func__, __LINE__, "%s: netCDF: %s: %s", (w)->path, (what), nc_strerror(st_));     \
+            goto done;                                                                            \
+        }                                                                                         \
+    } while (0)
+
+static int att_text(int ncid, int v, const char *name, const char *text)
+{
+    return nc_put_att_text(ncid, v, name, strlen(text), text);
+}
+
+/* A coordinate with bounds: VALUES (n) and EDGES (n, 2). */
+static int def_coord(int ncid, const char *name, int dim, int nv, const char *units,
+                     const char *std, const char *axis, int *vid, int *bid)
+{
+    char b[64];
+    snprintf(b, sizeof b, "%s_bnds", name);
+    int dims[2] = {dim, nv}, st;
+    if ((st = nc_def_var(ncid, name, NC_DOUBLE, 1, &dim, vid)) != NC_NOERR ||
+        (st = att_text(ncid, *vid, "units", units)) != NC_NOERR ||
+        (std && (st = att_text(ncid, *vid, "standard_name", std)) != NC_NOERR) ||
+        (st = att_text(ncid, *vid, "axis", axis)) != NC_NOERR)
+        return st;
+    if (bid == NULL)
+        return NC_NOERR;
+    if ((st = att_text(ncid, *vid, "bounds", b)) != NC_NOERR ||
+        (st = nc_def_var(ncid, b, NC_DOUBLE, 2, dims, bid)) != NC_NOERR)
+        return st;
+    return NC_NOERR;
+}
+
+int sl_model_inputs_emission_write(const sl_model_inputs *mi, const char *path,
+                                   const sl_emission_grid *g, int cesm, double model_top_m,
+                                   int force, double *above_top_kg, sl_err *e)
+{
+    sl_emission_profile pr;
+    SL_TRY_RETURN(e, sl_emission_profile_build(&pr, mi->inj, model_top_m, e));
+    if (above_top_kg)
+        *above_top_kg = pr.above_top_kg;
+    const size_t nc = g->nlat * g->nlon, nz = pr.n;
+    double *w = malloc(nc * sizeof *w);
+    float *slab = malloc(nc * sizeof *slab);
+    double *edge = malloc(2 * (nz > 0 ? nz : 1) * sizeof *edge);
+    double *mid = malloc((nz + 1) * sizeof *mid);
+    sl_outset *set = calloc(1, sizeof *set);
+    int rc = SL_OK;
+    ncw W = {-1, path}, *wp = &W;
+    if (!w || !slab || !edge || !mid || !set) {
+        rc = SL_ENOMEM;
+        sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "out of memory (emission file on a %zux%zu grid)", g->nlat, g->nlon);
+        goto done;
+    }
+    double found_area = 0.0;
+    rc = sl_emission_footprint(g, mi->latitude_deg, mi->longitude_deg, mi->radius_m, w, &found_area, e);
+    if (rc != SL_OK)
+        goto done;
+    const char *stage = NULL;
+    rc = sl_outset_begin_file(set, path, force, &stage, e);
+    if (rc != SL_OK)
+        goto done;
+    NC_TRY(wp, "create", nc_create(stage, NC_NETCDF4 | NC_CLASSIC_MODEL, &W.ncid));
+    int d_time, d_lat, d_lon, d_alt, d_nv, d_alti = -1;
+    int v_time, v_tb = -1, v_lat, v_latb, v_lon, v_lonb, v_alt, v_altb = -1, v_alti = -1;
+    int v_date = -1, v_datesec = -1, v_q[2] = {-1, -1};
+    const size_t nrec = cesm ? 4 : 1;
+    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "time", NC_UNLIMITED, &d_time));
+    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "altitude", nz, &d_alt));
+    if (cesm)
+        NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "altitude_int", nz + 1, &d_alti));
+    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "lat", g->nlat, &d_lat));
+    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "lon", g->nlon, &d_lon));
+    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "nv", 2, &d_nv));
+    char tunits[64], when[32];
+    sl_date_format(mi->event_time_s, when, sizeof when);
+    sl_date_fields f0;
+    sl_date_split(mi->event_time_s, &f0);
+    const double t_ref = sl_date_epoch_of_day(f0.year, f0.month, f0.day);
+    snprintf(tunits, sizeof tunits, "days since %04d-%02d-%02d 00:00:00", f0.year, f0.month, f0.day);
+    NC_TRY(wp, "time", def_coord(W.ncid, "time", d_time, d_nv, tunits, "time", "T", &v_time,
+                                 cesm ? NULL : &v_tb));
+    NC_TRY(wp, "time", att_text(W.ncid, v_time, "calendar", cesm ? "gregorian" : "standard"));
+    NC_TRY(wp, "altitude", def_coord(W.ncid, "altitude", d_alt, d_nv, "km", "altitude", "Z", &v_alt,
+                                     cesm ? NULL : &v_altb));
+    NC_TRY(wp, "altitude", att_text(W.ncid, v_alt, "positive", "up"));
+    if (cesm) {
+        NC_TRY(wp, "altitude_int", nc_def_var(W.ncid, "altitude_int", NC_DOUBLE, 1, &d_alti, &v_alti));
+        NC_TRY(wp, "altitude_int", att_text(W.ncid, v_alti, "units", "km"));
+        NC_TRY(wp, "altitude_int", att_text(W.ncid, v_alti, "long_name", "altitude interfaces"));
+        NC_TRY(wp, "date", nc_def_var(W.ncid, "date", NC_INT, 1, &d_time, &v_date));
+        NC_TRY(wp, "date", att_text(W.ncid, v_date, "long_name", "date (YYYYMMDD)"));
+        NC_TRY(wp, "datesec", nc_def_var(W.ncid, "datesec", NC_INT, 1, &d_time, &v_datesec));
+        NC_TRY(wp, "datesec", att_text(W.ncid, v_datesec, "long_name", "seconds of the day"));
+        NC_TRY(wp, "datesec", att_text(W.ncid, v_datesec, "units", "s"));
+    }
+    NC_TRY(wp, "lat", def_coord(W.ncid, "lat", d_lat, d_nv, "degrees_north", "latitude", "Y", &v_lat, &v_latb));
+    NC_TRY(wp, "lon", def_coord(W.ncid, "lon", d_lon, d_nv, "degrees_east", "longitude", "X", &v_lon, &v_lonb));
+    int dims[4] = {d_time, d_alt, d_lat, d_lon};
+    size_t chunk[4] = {1, 1, g->nlat, g->nlon};
+    const char *names_cf[2] = {"water_vapour_emission", "ice_emission"};
+    const char *longs_cf[2] = {"water vapour emitted per volume and time",
+                               "ice (and liquid) emitted per volume and time"};
+    for (int s = 0; s < (cesm ? 1 : 2); s++) {
+        const char *nm = cesm ? "H2O" : names_cf[s];
+        NC_TRY(wp, nm, nc_def_var(W.ncid, nm, NC_FLOAT, 4, dims, &v_q[s]));
+        NC_TRY(wp, nm, nc_def_var_chunking(W.ncid, v_q[s], NC_CHUNKED, chunk));
+        NC_TRY(wp, nm, nc_def_var_deflate(W.ncid, v_q[s], 1, 1, 4));
+        NC_TRY(wp, nm, att_text(W.ncid, v_q[s], "units", cesm ? "molecules/cm3/s" : "kg m-3 s-1"));
+        NC_TRY(wp, nm, att_text(W.ncid, v_q[s], "long_name",
+                                cesm ? "water (vapour and ice: the ice sublimates in the dry "
+                                       "stratosphere) emitted, molecules per volume and time"
+                                     : longs_cf[s]));
+        if (cesm) {
+            double mw = SL_MOLAR_MASS_H2O_KG_MOL * 1e3;
+            NC_TRY(wp, nm, nc_put_att_double(W.ncid, v_q[s], "molecular_weight", NC_DOUBLE, 1, &mw));
+            NC_TRY(wp, nm, att_text(W.ncid, v_q[s], "molecular_weight_units", "g/mole"));
+        } else {
+            NC_TRY(wp, nm, att_text(W.ncid, v_q[s], "cell_methods", "time: mean area: mean"));
+        }
+    }
+    /* Global attributes. */
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "Conventions", "CF-1.11"));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "title", mi->title ? mi->title : "steamloft emission"));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "comment", sl_cli_caution()));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "source", sl_cli_version()));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "scenario_digest", mi->digest));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "event_time", when));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "event_time_is_nominal", mi->date_given ? "no" : "yes"));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "grid", g->description));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "emission_convention", cesm ? "cesm" : "cf"));
+    double attv[8] = {mi->latitude_deg, mi->longitude_deg, mi->radius_m, mi->duration_s, pr.total_kg,
+                      pr.above_top_kg, found_area, isfinite(model_top_m) ? model_top_m : -1.0};
+    const char *attn[8] = {"event_latitude_deg", "event_longitude_deg", "footprint_radius_m", "pulse_duration_s",
+                           "mass_check_kg", "water_above_model_top_kg", "footprint_area_m2", "model_top_m"};
+    for (int k = 0; k < 8; k++)
+        if (k != 7 || isfinite(model_top_m))
+            NC_TRY(wp, attn[k], nc_put_att_double(W.ncid, NC_GLOBAL, attn[k], NC_DOUBLE, 1, &attv[k]));
+    NC_TRY(wp, "attributes",
+           att_text(W.ncid, NC_GLOBAL, "mass_check",
+                    cesm ? "mass_check_kg = sum over cells of H2O x 1e6 / molecules_per_kg x cell area x "
+                           "layer depth (altitude_int) integrated linearly in time over the records"
+                         : "mass_check_kg = sum of (vapour + ice) x cell area x layer depth x pulse "
+                           "length (time_bnds); cell areas of the sphere of radius 6371008.8 m"));
+    NC_TRY(wp, "enddef", nc_enddef(W.ncid));
+
+    /* Coordinates. */
+    for (size_t k = 0; k < nz; k++) {
+        edge[2 * k] = pr.layer[k].bottom_m / 1e3;
+        edge[2 * k + 1] = pr.layer[k].top_m / 1e3;
+        mid[k] = 0.5 * (edge[2 * k] + edge[2 * k + 1]);
+    }
+    if (nz > 0)
+        NC_TRY(wp, "altitude", nc_put_var_double(W.ncid, v_alt, mid));
+    if (cesm) {
+        for (size_t k = 0; k < nz; k++)
+            mid[k] = edge[2 * k];
+        mid[nz] = nz > 0 ? edge[2 * nz - 1] : 0.0;
+        NC_TRY(wp, "altitude_int", nc_put_var_double(W.ncid, v_alti, mid));
+    } else if (nz > 0) {
+        NC_TRY(wp, "altitude_bnds", nc_put_var_double(W.ncid, v_altb, edge));
+    }
+    NC_TRY(wp, "lat", nc_put_var_double(W.ncid, v_lat, g->lat_deg));
+    NC_TRY(wp, "lat_bnds", nc_put_var_double(W.ncid, v_latb, g->lat_edge_deg));
+    NC_TRY(wp, "lon", nc_put_var_double(W.ncid, v_lon, g->lon_deg));
+    NC_TRY(wp, "lon_bnds", nc_put_var_double(W.ncid, v_lonb, g->lon_edge_deg));
+    const double t0 = (mi->event_time_s - t_ref) / SL_S_PER_DAY, D = mi->duration_s;
+    double on[4] = {0.0, 1.0, 1.0, 0.0};
+    for (size_t r = 0; r < nrec; r++) {
+        size_t st = r, cnt = 1;
+        double tsec = cesm ? (r == 0 ? 0.0 : r == 1 ? 1.0 : r == 2 ? D : D + 1.0) : 0.5 * D;
+        double tv = t0 + tsec / SL_S_PER_DAY;
+        NC_TRY(wp, "time", nc_put_vara_double(W.ncid, v_time, &st, &cnt, &tv));
+        if (cesm) {
+            sl_date_fields f;
+            sl_date_split(mi->event_time_s + tsec, &f);
+            int date = f.year * 10000 + f.month * 100 + f.day, ds = f.hour * 3600 + f.minute * 60 + f.second;
+            NC_TRY(wp, "date", nc_put_vara_int(W.ncid, v_date, &st, &cnt, &date));
+            NC_TRY(wp, "datesec", nc_put_vara_int(W.ncid, v_datesec, &st, &cnt, &ds));
+        } else {
+            double tb[2] = {t0, t0 + D / SL_S_PER_DAY};
+            size_t s2[2] = {r, 0}, c2[2] = {1, 2};
+            NC_TRY(wp, "time_bnds", nc_put_vara_double(W.ncid, v_tb, s2, c2, tb));
+        }
+        for (int s = 0; s < (cesm ? 1 : 2); s++) {
+            for (size_t k = 0; k < nz; k++) {
+                const sl_emission_layer *L = &pr.layer[k];
+                double mass = cesm ? L->vapor_kg + L->ice_kg : (s == 0 ? L->vapor_kg : L->ice_kg);
+                double dz = L->top_m - L->bottom_m;
+                double conv = cesm ? sl_emission_molecules_per_kg() * 1e-6 : 1.0; /* per m3 -> per cm3 */
+                for (size_t c = 0; c < nc; c++) {
+                    double rate = w[c] > 0.0 ? mass * w[c] / (g->area_m2[c] * dz * D) * conv : 0.0;
+                    slab[c] = (float)(cesm ? rate * on[r] : rate);
+                }
+                size_t st4[4] = {r, k, 0, 0}, cn4[4] = {1, 1, g->nlat, g->nlon};
+                NC_TRY(wp, "emission", nc_put_vara_float(W.ncid, v_q[s], st4, cn4, slab));
+            }
+        }
+    }
+    NC_TRY(wp, "close", nc_close(W.ncid));
+    W.ncid = -1;
+    rc = sl_outset_commit(set, e);
+done:
+    if (W.ncid >= 0)
+        nc_close(W.ncid);
+    if (rc != SL_OK && set)
+        sl_outset_abort(set);
+    free(set);
+    free(w);
+    free(slab);
+    free(edge);
+    free(mid);
+    sl_emission_profile_free(&pr);
+    return rc;
+}
+
+/* ---- the forcing series ---------------------------------------------------- */
+
+int sl_model_inputs_forcing_write(const sl_model_inputs *mi, const char *path, int force, sl_err *e)
+{
+    const sl_strat_result *r = mi->strat;
+    if (r == NULL || r->n_times < 2)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "--forcing-series: the run has no box-model time series");
+    sl_outset *set = calloc(1, sizeof *set);
+    if (set == NULL)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory");
+    char dir[SL_OUTSET_PATH_LEN];
+    const char *base = split_path(path, dir, sizeof dir);
+    FILE *fp = NULL;
+    int rc = sl_outset_begin(set, dir, force, 0, e);
+    if (rc == SL_OK)
+        rc = sl_outset_fopen(set, base, &fp, e);
+    if (rc == SL_OK) {
+        char when[32];
+        sl_date_format(mi->event_time_s, when, sizeof when);
+        fprintf(fp, "# %s\n# version: %s\n# scenario digest: %s\n", sl_cli_caution(), sl_cli_version(),
+                mi->digest);
+        fprintf(fp, "# comment: annual means of the box model's forcing indicator: an order-of-magnitude "
+                    "stratospheric water vapour radiative forcing scaled from the global anomaly "
+                    "(docs/physics.md), not a radiative-transfer result; time 0 = event at %s%s; "
+                    "year k spans [k, k+1) Julian years after the event, mean of the output steps "
+                    "inside it (trapezoids)\n",
+                when, mi->date_given ? "" : " (nominal)");
+        fprintf(fp, "time_start_years,time_end_years,forcing_indicator_W_m2\n");
+        const double tend = r->time_s[r->n_times - 1];
+        for (int y = 0; (double)(y + 1) * SL_S_PER_YEAR <= tend * (1.0 + 1e-12); y++) {
+            double a = y * SL_S_PER_YEAR, b = a + SL_S_PER_YEAR, sum = 0.0;
+            for (size_t i = 0; i + 1 < r->n_times; i++) {
+                double t0 = r->time_s[i], t1 = r->time_s[i + 1];
+                double lo = fmax(t0, a), hi = fmin(t1, b);
+                if (hi <= lo)
+                    continue;
+                /* linear between output steps: mean over [lo, hi] */
+                double f0 = r->forcing_W_m2[i], f1 = r->forcing_W_m2[i + 1];
+                double flo = f0 + (f1 - f0) * (lo - t0) / (t1 - t0), fhi = f0 + (f1 - f0) * (hi - t0) / (t1 - t0);
+                sum += 0.5 * (flo + fhi) * (hi - lo);
+            }
+            fprintf(fp, "%d,%d,%.6g\n", y, y + 1, sum / SL_S_PER_YEAR);
+        }
+        rc = sl_outset_fclose(set, base, fp, e);
+    }
+    if (rc == SL_OK)
+        rc = sl_outset_commit(set, e);
+    else
+        sl_outset_abort(set);
+    free(set);
+    return rc;
+}
