@@ -74,8 +74,10 @@ if [ "$(id -u)" = 0 ]; then
   [ "$n_inst" -eq 1 ] && sl_ok "one install call" || sl_fail "$n_inst install calls"
   grep -q ' update' "$calls" && sl_ok "the package lists are updated first" || sl_fail "no apt-get update"
   if command -v setpriv >/dev/null 2>&1; then
-    chmod 755 "$SL_TMP" "$stub"; chmod 644 "$calls" 2>/dev/null; : >"$calls"; chmod 666 "$calls"
-    setpriv --reuid=65534 --regid=65534 --clear-groups env PATH="$P" HOME=/ sh "$deps" build \
+    # A copy the unprivileged user can read (the tree may sit in root's home).
+    cp "$deps" "$SL_TMP/deps.sh"
+    chmod 755 "$SL_TMP" "$stub" "$SL_TMP/deps.sh"; : >"$calls"; chmod 666 "$calls"
+    (cd / && setpriv --reuid=65534 --regid=65534 --clear-groups env PATH="$P" HOME=/ sh "$SL_TMP/deps.sh" build) \
       >"$SL_TMP/out" 2>"$SL_TMP/err"; st=$?
     [ "$st" -eq 1 ] && sl_ok "not root: exit 1" || sl_fail "not root: exit $st"
     sl_expect_grep "$SL_TMP/err" "not root; run as root:" "not root: says to run as root"
