@@ -1,16 +1,20 @@
 #!/bin/sh
 # `make bench`: a benchmark, not a test.  Runs the full chain on a fixed
-# ensemble (examples/ensemble-stony.ini, seed 1) and reports scenarios per
-# second on 1 and 2 threads, the time per scenario per core, peak resident
-# memory (getrusage), the time split by chain stage, and the memory of a ten
-# times larger run (only the scalar outputs grow with the member count).
+# ensemble (examples/ensemble-stony.ini, seed 1) on 1 and 2 threads and
+# reports: user CPU time per scenario (getrusage, the whole command: the
+# number that does not depend on what else runs on a shared machine), the
+# time per chain stage by thread CPU clock (CLOCK_THREAD_CPUTIME_ID, so a
+# pre-empted thread charges nothing to the stage it was in), the wall-clock
+# rates beside them, the target and the ratio to it, whether the 1- and
+# 2-thread member files are identical, and peak memory of the run and of a
+# ten times larger one (memory that grows with the member count).
 #   scripts/bench.sh [BUILD_DIR]        SL_BENCH_MEMBERS=N to change the size (default 2000)
-# Timings depend on what else runs on the machine: check `uptime` first.
 set -u
 build=${1:-build}
 bin="$build/steamloft"
 scen=examples/ensemble-stony.ini
 n=${SL_BENCH_MEMBERS:-2000}
+target_ms=0.15
 tmp=$(mktemp -d "${TMPDIR:-/tmp}/slbench.XXXXXX")
 trap 'rm -rf "$tmp"' EXIT
 [ -x "$bin" ] || { echo "bench: $bin not built (run make)" >&2; exit 66; }
@@ -21,21 +25,26 @@ run() { # threads members tag
 }
 rate() { sed -n 's/.* (\([0-9.e+]*\) members\/s)$/\1/p' "$tmp/$1.out"; }
 mem() { sed -n 's/.*peak resident memory \([0-9.]*\) MiB.*/\1/p' "$tmp/$1.err"; }
+cpu() { sed -n 's/.*user CPU .*, \([0-9.e+-]*\) ms per member (getrusage).*/\1/p' "$tmp/$1.err"; }
+stages() { sed -n 's/^steamloft: chain stages, thread CPU ms per member (rank 0, all threads): //p' "$tmp/$1.err"; }
 
 echo "steamloft bench: $("$bin" --version | head -1)"
 echo "machine: $(nproc) cores; load average now: $(cut -d' ' -f1-3 /proc/loadavg)"
 echo "ensemble: $scen, $n members, Monte Carlo seed 1 (entry, partition, plume, box model per member)"
 run 1 "$n" t1
 run 2 "$n" t2
-r1=$(rate t1); r2=$(rate t2)
+r1=$(rate t1); r2=$(rate t2); c1=$(cpu t1); c2=$(cpu t2)
 if cmp -s "$tmp/t1.csv" "$tmp/t2.csv"; then same="identical"; else same="DIFFERENT (a bug)"; fi
+awk -v c1="$c1" -v c2="$c2" -v t="$target_ms" 'BEGIN {
+  printf "user CPU per scenario: %.4f ms (1 thread), %.4f ms (2 threads)\n", c1, c2;
+  printf "target: %.2f ms CPU per scenario; ratio to it: %.2f (1 thread)\n", t, c1 / t }'
+echo "thread CPU per stage (1 thread), ms per scenario: $(stages t1)"
 awk -v r1="$r1" -v r2="$r2" 'BEGIN {
-  printf "1 thread : %9.1f scenarios/s  (%.3f ms per scenario per core)\n", r1, 1000 / r1;
-  printf "2 threads: %9.1f scenarios/s  (%.3f ms per scenario per core; speed-up %.2f)\n", r2, 2000 / r2, r2 / r1 }'
+  printf "wall rate, 1 thread : %9.1f scenarios/s (%.3f ms per scenario per core)\n", r1, 1000 / r1;
+  printf "wall rate, 2 threads: %9.1f scenarios/s (%.3f ms per scenario per core; speed-up %.2f)\n", r2, 2000 / r2, r2 / r1 }'
 echo "member files of the 1- and 2-thread runs: $same"
 echo "peak resident memory: $(mem t1) MiB (1 thread), $(mem t2) MiB (2 threads)"
-sed -n 's/^steamloft: time per member .*; chain stages (rank 0, all threads): /time split (1 thread): /p' "$tmp/t1.err"
 n10=$((n * 10))
 run 2 "$n10" big
-echo "peak resident memory with $n10 members: $(mem big) MiB ($(rate big) scenarios/s on 2 threads)"
-echo "target of this project: 0.15 ms CPU per scenario per core"
+echo "peak resident memory with $n10 members: $(mem big) MiB ($(rate big) scenarios/s on 2 threads, $(cpu big) ms CPU per scenario)"
+[ "$same" = identical ] || exit 1

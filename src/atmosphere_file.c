@@ -34,6 +34,7 @@
  * variable and index, and the valid range; all are SL_EDATA (exit 65). */
 #include "atmosphere_internal.h"
 
+#include "steamloft/infile.h"
 #include "steamloft/units.h"
 #include "steamloft/water.h"
 
@@ -349,20 +350,19 @@ static int header_value(char *body, const char *key, char **value)
     return 1;
 }
 
-static int read_text_levels(FILE *fp, const char *path, text_buf *b, char *name, size_t name_cap, char *src,
+static int read_text_levels(char *text, const char *path, text_buf *b, char *name, size_t name_cap, char *src,
                             size_t src_cap, int *has_h2o, sl_err *e)
 {
     const column_def *cols[MAX_COLS];
     size_t ncols = 0, lineno = 0;
-    char *buf = NULL;
-    size_t bufcap = 0;
-    ssize_t len;
+    char *buf = NULL, *cursor = text;
     int rc = SL_OK;
-    while (rc == SL_OK && (len = getline(&buf, &bufcap, fp)) != -1) {
+    while (rc == SL_OK && sl_infile_next_line(&cursor, &buf)) {
         lineno++;
-        if (memchr(buf, '\0', (size_t)len)) {
-            rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: binary data (a NUL byte) in a text profile",
-                            path, lineno);
+        if (sl_infile_content_len(buf, "#", 0) > SL_INFILE_MAX_LINE) {
+            rc = sl_err_set(e, SL_EDATA, __func__, __LINE__,
+                            "%s:%zu: line longer than %d characters (comments and line ends not counted)", path,
+                            lineno, SL_INFILE_MAX_LINE);
             break;
         }
         char *s = trim(buf);
@@ -406,11 +406,10 @@ static int read_text_levels(FILE *fp, const char *path, text_buf *b, char *name,
         }
         double vals[Q_N] = {NAN, NAN, NAN, NAN, NAN};
         for (size_t i = 0; i < k; i++) {
-            char *end = NULL;
-            errno = 0;
-            const double v = strtod(f[i], &end);
-            if (end == f[i] || *end != '\0' || errno == ERANGE || !isfinite(v)) {
-                rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: column %s: '%s' is not a finite number",
+            double v;
+            if (sl_infile_parse_double(f[i], &v) != 0) {
+                rc = sl_err_set(e, SL_EDATA, __func__, __LINE__,
+                                "%s:%zu: column %s: '%s' is not a finite number (decimal only, e.g. 1500, -2.5, 3e-6)",
                                 path, lineno, cols[i]->name, f[i]);
                 break;
             }
@@ -420,11 +419,8 @@ static int read_text_levels(FILE *fp, const char *path, text_buf *b, char *name,
         if (rc == SL_OK)
             rc = text_buf_push(b, vals, lineno, e);
     }
-    if (rc == SL_OK && ferror(fp))
-        rc = sl_err_set(e, SL_EIO, __func__, __LINE__, "%s: read error", path);
     if (rc == SL_OK && ncols == 0)
         rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s: no column declaration and no data", path);
-    free(buf);
     *has_h2o = 0;
     for (size_t i = 0; i < ncols; i++)
         if (cols[i]->qty == Q_H2O)
@@ -440,17 +436,17 @@ static const char *base_name(const char *path)
 
 int sl_atmosphere_read_text_(sl_atmosphere *atm, const char *path, sl_err *e)
 {
-    FILE *fp = fopen(path, "r");
-    if (!fp)
-        SL_FAIL_RETURN(e, SL_ENOINPUT, "%s: cannot open: %s", path, strerror(errno));
+    char *text = NULL;
+    size_t text_len = 0;
+    SL_TRY_RETURN(e, sl_infile_read_text(path, "atmosphere profile", SL_INFILE_MAX_BYTES, &text, &text_len, e));
     text_buf b;
     memset(&b, 0, sizeof b);
     char name[64], src[200];
     snprintf(name, sizeof name, "%s", base_name(path));
     src[0] = '\0';
     int has_h2o = 0;
-    int rc = read_text_levels(fp, path, &b, name, sizeof name, src, sizeof src, &has_h2o, e);
-    fclose(fp);
+    int rc = read_text_levels(text, path, &b, name, sizeof name, src, sizeof src, &has_h2o, e);
+    free(text);
     if (rc == SL_OK && b.n >= 2 && b.v[Q_ALT][1] < b.v[Q_ALT][0]) {
         for (int q = 0; q < Q_N; q++)
             reverse(b.v[q], b.n);
@@ -758,6 +754,7 @@ static int read_netcdf(int ncid, const char *path, sl_atmosphere *atm, sl_err *e
 int sl_atmosphere_read_netcdf_(sl_atmosphere *atm, const char *path, sl_err *e)
 {
     int ncid;
+    SL_TRY_RETURN(e, sl_infile_nc_precheck(path, e));
     int s = nc_open(path, NC_NOWRITE, &ncid);
     if (s != NC_NOERR)
         SL_FAIL_RETURN(e, SL_EDATA, "%s: not a readable netCDF file: %s", path, nc_strerror(s));

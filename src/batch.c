@@ -353,7 +353,8 @@ static void csv_str(FILE *f, const char *s)
     X("energy_J", k.energy_J)                                 \
     X("energy_at_sea_J", k.energy_at_sea_J)                   \
     X("strat_injected_kg", k.strat_injected_kg)               \
-    X("stratospheric_water_kg", k.strat_vapor_kg)             \
+    X("stratospheric_water_kg", k.strat_water_kg)             \
+    X("stratospheric_vapor_kg", k.strat_vapor_kg)             \
     X("stratospheric_ice_kg", k.strat_ice_kg)                 \
     X("background_burden_kg", k.background_burden_kg)         \
     X("percent_of_background", k.percent_of_background)       \

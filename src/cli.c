@@ -1,5 +1,6 @@
 /* cli: global options and command dispatch.  See include/steamloft/cli.h. */
 #include "steamloft/cli.h"
+#include "steamloft/infile.h"
 #include "steamloft/cmd.h"
 
 #include "sl_gitversion.h"
@@ -167,7 +168,7 @@ int sl_cli_sets_add_key(sl_cli_sets *s, const char *option, sl_param_id id, cons
 {
     const sl_param_def *d = &sl_scenario_params[id];
     if (d->type == SL_PT_REAL || d->type == SL_PT_INT) {
-        double v;
+        double v = 0.0;
         char range[160];
         sl_scenario_range_text(id, range, sizeof range);
         SL_TRY_RETURN(e, sl_cli_parse_double(value, option, &v, e));
@@ -205,11 +206,10 @@ int sl_cli_scenario_load(const char *path, const sl_cli_sets *s, sl_scenario *sc
 
 int sl_cli_parse_double(const char *text, const char *what, double *out, sl_err *e)
 {
-    char *end = NULL;
-    errno = 0;
-    double v = strtod(text, &end);
-    if (end == text || *end != '\0' || errno == ERANGE || !isfinite(v))
-        SL_FAIL_RETURN(e, SL_EUSAGE, "%s: '%s' is not a finite number", what, text);
+    double v;
+    if (sl_infile_parse_double(text, &v) != 0)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "%s: '%s' is not a finite number (decimal only, e.g. 250, 1.5e3)",
+                       what, text);
     *out = v;
     return SL_OK;
 }
@@ -217,7 +217,7 @@ int sl_cli_parse_double(const char *text, const char *what, double *out, sl_err 
 int sl_cli_between_m(const char *bottom_text, const char *top_text, double max_top_m,
                      double *bottom_m, double *top_m, sl_err *e)
 {
-    double b, t;
+    double b = NAN, t = NAN;
     SL_TRY_RETURN(e, sl_cli_parse_double(bottom_text, "--between BOTTOM_M", &b, e));
     SL_TRY_RETURN(e, sl_cli_parse_double(top_text, "--between TOP_M", &t, e));
     /* A layer that ends at or below 120 m cannot reach the stratosphere:

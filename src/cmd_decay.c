@@ -46,8 +46,7 @@ static void usage(FILE *out)
             "                           then acts at its annual mean)\n"
             "      --span-years Y       = --set strat.span_years=Y\n"
             "      --step-days D        = --set strat.step_days=D\n"
-            "      --tropics-atmosphere NAME|FILE       = --set strat.tropics_atmosphere=NAME,\n"
-            "                           or a profile file\n"
+            "      --tropics-atmosphere NAME|FILE  = --set strat.tropics_atmosphere=NAME, or a file\n"
             "      --extratropics-atmosphere NAME|FILE  the same for strat.extratropics_atmosphere\n"
             "      --atmosphere NAME|FILE  both of them\n"
             "      --inject MASS_KG     water mass of a single layer, kg\n"
@@ -56,17 +55,13 @@ static void usage(FILE *out)
             "      --latitude DEG       latitude of the event (overrides the profile's; a single\n"
             "                           layer without it takes the scenario's [site] latitude_deg)\n"
             "      --cloud-area M2      area of the young cloud, m2 (for the local column)\n"
-            "      --freeze-out         freeze out at once the water above ice saturation in\n"
-            "                           the young cloud (for raw lofted water; profiles from\n"
-            "                           steamloft are frozen out already)\n"
+            "      --freeze-out         freeze out at once what the young cloud cannot hold as\n"
+            "                           vapour (raw lofted water; steamloft's profiles are frozen out)\n"
             "      --json               print the summary as JSON\n"
             "      --series             also print the time series (CSV) after the summary\n"
-            "      --calibrate          fit the transport constants to the published time\n"
-            "                           scales and print them (no run)\n"
+            "      --calibrate          fit the transport constants to published time scales\n"
             "  -h, --help               print this help\n"
-            "\n" SL_OUTPUT_HELP
-            "\n"
-            "%s\n",
+            "\n" SL_OUTPUT_HELP "\n%s\n",
             sl_cli_caution());
 }
 
@@ -165,12 +160,17 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
         switch (c) {
         case 'h': usage(stdout); *done = 1; return EX_OK;
         case O_INJECT:
+            /* Upper end: about the mass of all the air above 100 hPa (a tenth of
+             * the atmosphere's 5.1e18 kg; common practice, no source). */
             rc = number_opt(g, "--inject", 0.0, HUGE_VAL, &o->inject_kg, &o->have_inject);
-            if (rc == EX_OK && !(o->inject_kg > 0.0))
-                return sl_cli_usage_error(g, "decay", "--inject %s: the mass must be > 0 kg", optarg);
+            if (rc == EX_OK && (!(o->inject_kg > 0.0) || o->inject_kg > 5.0e17))
+                return sl_cli_usage_error(g, "decay", "--inject %s: valid range above 0 to 5e17 kg", optarg);
             break;
         case O_BETWEEN: rc = parse_between(o, g, argc, argv); break;
-        case O_LAT: rc = number_opt(g, "--latitude", -90.0, 90.0, &o->latitude_deg, &o->have_latitude); break;
+        case O_LAT: /* the range of [site] latitude_deg */
+            rc = number_opt(g, "--latitude", sl_scenario_params[SL_P_SITE_LATITUDE].min_value,
+                            sl_scenario_params[SL_P_SITE_LATITUDE].max_value, &o->latitude_deg, &o->have_latitude);
+            break;
         case O_AREA: rc = number_opt(g, "--cloud-area", 1.0e6, SL_EARTH_AREA_M2, &o->area_m2, &o->have_area); break;
         case O_MONTH: rc = short_set(o, g, "--month", SL_P_SITE_MONTH, optarg); break;
         case O_SPAN: rc = short_set(o, g, "--span-years", SL_P_STRAT_SPAN, optarg); break;

@@ -9,6 +9,7 @@
  * Part of the input layer: the scenario reader uses it to recognise a value
  * that is a distribution, and the ensemble samples it. */
 #include "steamloft/dist.h"
+#include "steamloft/infile.h"
 #include "steamloft/units.h"
 #include "steamloft/units_table.h"
 
@@ -67,6 +68,26 @@ int sl_dist_is_distribution(const char *text)
     return *p == '(';
 }
 
+int sl_dist_looks_like_law(const char *text)
+{
+    if (text == NULL)
+        return 0;
+    while (isspace((unsigned char)*text))
+        text++;
+    size_t n = ident_len(text);
+    if (n == 0 || isdigit((unsigned char)text[0]))
+        return 0;
+    const char *p = text + n;
+    while (isspace((unsigned char)*p))
+        p++;
+    return *p == '(';
+}
+
+const char *sl_dist_forms(void)
+{
+    return dist_valid_forms;
+}
+
 void sl_dist_free(sl_dist *d)
 {
     if (d == NULL)
@@ -109,11 +130,10 @@ static int parse_args(const char *args, size_t len, double *vals, size_t maxv, s
             SL_FAIL_RETURN(e, SL_EDATA, "%s: argument '%.20s...' of %s is too long", where, t, form);
         memcpy(buf, t, tl);
         buf[tl] = '\0';
-        char *end = NULL;
-        errno = 0;
-        double v = strtod(buf, &end);
-        if (end == buf || *end != '\0' || errno == ERANGE || !isfinite(v))
-            SL_FAIL_RETURN(e, SL_EDATA, "%s: '%s' in %s is not a finite number", where, buf, form);
+        double v;
+        if (sl_infile_parse_double(buf, &v) != 0)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: '%s' in %s is not a finite number (decimal only)", where,
+                           buf, form);
         if (*nv >= maxv)
             SL_FAIL_RETURN(e, SL_EDATA, "%s: %s takes at most %zu values", where, form, maxv);
         vals[(*nv)++] = v;
@@ -134,6 +154,9 @@ int sl_dist_parse(const char *text, const char *key, const char *where, sl_dist 
         s++;
     size_t n = ident_len(s);
     const dist_name *dn = find_dist(s, n);
+    if (dn == NULL && sl_dist_looks_like_law(s))
+        SL_FAIL_RETURN(e, SL_EDATA, "%s: '%.*s' is not a distribution law (valid: %s)", where,
+                       (int)(n > 40 ? 40 : n), s, dist_valid_forms);
     if (dn == NULL)
         SL_FAIL_RETURN(e, SL_EDATA, "%s: '%s' is not a distribution; valid: %s", where, s,
                        dist_valid_forms);

@@ -492,7 +492,7 @@ static void run_one(const sl_ens_plan *p, const sl_ens_model *m, void *ws, doubl
         reason[len] = '\0';
     }
     if (rc != SL_OK)
-        for (size_t j = 0; j < no; j++)
+        for (size_t j = 0; j < no + m->n_extra; j++)
             out[j] = NAN;
     *st = rc;
 }
@@ -526,6 +526,7 @@ int sl_ens_run(const sl_ens_plan *p, const sl_ens_model *m, const sl_ens_run_opt
     }
 #endif
     const size_t ni = p->n_inputs, no = m->n_outputs, n = p->n_members;
+    const size_t nw = no + m->n_extra; /* per-member values: key outputs, then extras */
     const size_t B = o && o->block ? o->block : 256;
     int nt = o && o->n_threads > 0 ? o->n_threads : 1;
 #ifdef _OPENMP
@@ -571,7 +572,7 @@ int sl_ens_run(const sl_ens_plan *p, const sl_ens_model *m, const sl_ens_run_opt
     }
     size_t lcap = B / (size_t)size + 1;
     rm.lin = malloc((lcap * ni + 1) * sizeof *rm.lin);
-    rm.lout = malloc((lcap * no + 1) * sizeof *rm.lout);
+    rm.lout = malloc((lcap * nw + 1) * sizeof *rm.lout);
     rm.lst = malloc(lcap * sizeof *rm.lst);
     rm.lreason = malloc(lcap * SL_ENS_REASON_LEN);
     if (!rm.lin || !rm.lout || !rm.lst || !rm.lreason)
@@ -583,7 +584,7 @@ int sl_ens_run(const sl_ens_plan *p, const sl_ens_model *m, const sl_ens_run_opt
         rm.greason = rm.lreason;
     } else if (rank == 0) {
         rm.gin = malloc((B * ni + 1) * sizeof *rm.gin);
-        rm.gout = malloc((B * no + 1) * sizeof *rm.gout);
+        rm.gout = malloc((B * nw + 1) * sizeof *rm.gout);
         rm.gst = malloc(B * sizeof *rm.gst);
         rm.greason = malloc(B * SL_ENS_REASON_LEN);
         rm.cnt = malloc((size_t)size * sizeof *rm.cnt);
@@ -643,7 +644,7 @@ setup_sync:
         run_mem *rmp = &rm;
         const size_t stride = (size_t)size;
 #pragma omp parallel for schedule(dynamic, 1) num_threads(nt) default(none) \
-    shared(pp, mm, rmp, nl, i0, first, stride, ni, no)
+    shared(pp, mm, rmp, nl, i0, first, stride, ni, nw)
         for (size_t li = 0; li < nl; li++) {
             int t = 0;
 #ifdef _OPENMP
@@ -655,13 +656,13 @@ setup_sync:
                 sample_mc(pp, rmp->rng[t], first + i, in);
             else
                 memcpy(in, rmp->blk_in + i * ni, ni * sizeof *in);
-            run_one(pp, mm, rmp->ws[t], rmp->si + (size_t)t * ni, in, rmp->lout + li * no,
+            run_one(pp, mm, rmp->ws[t], rmp->si + (size_t)t * ni, in, rmp->lout + li * nw,
                     &rmp->lst[li], rmp->lreason + li * SL_ENS_REASON_LEN);
         }
 #ifdef SL_HAVE_MPI
         if (size > 1) {
             /* Gather rank-major: rank k's members, in member order, at displ[k]. */
-            int mult[4] = {(int)ni, (int)no, 1, SL_ENS_REASON_LEN};
+            int mult[4] = {(int)ni, (int)nw, 1, SL_ENS_REASON_LEN};
             void *sendb[4] = {rm.lin, rm.lout, rm.lst, rm.lreason};
             void *recvb[4] = {rm.gin, rm.gout, rm.gst, rm.greason};
             MPI_Datatype ty[4] = {MPI_DOUBLE, MPI_DOUBLE, MPI_INT, MPI_CHAR};
@@ -691,7 +692,7 @@ setup_sync:
                 rank_share(first, count, (int)k, size, &ki0);
                 size_t g = off + (i - ki0) / (size_t)size;
                 const double *in = rm.gin + g * ni;
-                const double *out = rm.gout + g * no;
+                const double *out = rm.gout + g * nw;
                 int st = rm.gst[g];
                 const char *reason = rm.greason + g * SL_ENS_REASON_LEN;
                 size_t mi = first + i;

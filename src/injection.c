@@ -38,6 +38,9 @@
  * huge water excess of an impact plume the crystals grow large and fall, f_s
  * towards 1.  It is a leading uncertainty and meant to be varied in ensembles. */
 #include "steamloft/injection.h"
+
+#include "steamloft/date.h"
+#include "steamloft/infile.h"
 #include "steamloft/units_table.h"
 #include "steamloft/water.h"
 
@@ -58,6 +61,9 @@ static void set_empty_meta(sl_injection *inj)
     inj->latitude_deg = 0.0;
     inj->time_s = 0.0;
     inj->cloud_area_m2 = 0.0;
+    inj->longitude_deg = NAN;
+    inj->event_time_s = NAN;
+    inj->month = 0;
 }
 
 int sl_injection_init_bands(sl_injection *inj, const double *edges_m, size_t n_edges, sl_err *e)
@@ -255,6 +261,19 @@ static int cloud_level(const sl_atmosphere *atm, double altitude_m, double *r_ic
     return SL_OK;
 }
 
+/* Share of a triangular profile (bottom to top, mode at peak_m) below Z. */
+static double tent_cdf(const sl_young_cloud *c, double z)
+{
+    double a = c->bottom_m, b = c->top_m, m = c->peak_m;
+    if (z <= a)
+        return 0.0;
+    if (z >= b)
+        return 1.0;
+    if (z <= m)
+        return m > a ? (z - a) * (z - a) / ((b - a) * (m - a)) : 0.0;
+    return b > m ? 1.0 - (b - z) * (b - z) / ((b - a) * (b - m)) : 1.0;
+}
+
 int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl_young_cloud *c,
                            double sediment_fraction, sl_freeze_out *tally, sl_err *e)
 {
@@ -270,6 +289,7 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
         SL_FAIL_RETURN(e, SL_EDATA, "young cloud %g-%g m lies outside the bands (valid range %g to %g m)", c->bottom_m,
                        c->top_m, lo, hi);
     double thick = c->top_m - c->bottom_m;
+    int tent = thick > 0.0 && c->peak_m >= c->bottom_m && c->peak_m <= c->top_m;
     for (size_t i = 0; i < inj->n_bands && c->water_kg > 0.0; i++) {
         double a, b, f;
         if (thick > 0.0) {
@@ -277,7 +297,7 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
             b = fmin(c->top_m, inj->band_top_m[i]);
             if (b <= a)
                 continue;
-            f = (b - a) / thick;
+            f = tent ? tent_cdf(c, b) - tent_cdf(c, a) : (b - a) / thick;
         } else {
             /* A thin sheet: all in the band holding it (the top band at the very top). */
             if (!(c->bottom_m < inj->band_top_m[i] || i + 1 == inj->n_bands))
@@ -369,6 +389,9 @@ static int rows_to_injection(const rows *r, const sl_injection *meta, sl_injecti
     inj->latitude_deg = meta->latitude_deg;
     inj->time_s = meta->time_s;
     inj->cloud_area_m2 = meta->cloud_area_m2;
+    inj->longitude_deg = meta->longitude_deg;
+    inj->event_time_s = meta->event_time_s;
+    inj->month = meta->month;
     return SL_OK;
 }
 
@@ -382,20 +405,10 @@ static char *trim(char *s)
     return s;
 }
 
-/* Parse the whole of TEXT as a finite double. */
+/* Parse the whole of TEXT as a finite decimal number (infile.h rules). */
 static int parse_number(const char *text, double *out)
 {
-    char *end;
-    errno = 0;
-    double v = strtod(text, &end);
-    if (end == text || errno == ERANGE || !isfinite(v))
-        return -1;
-    while (*end == ' ' || *end == '\t')
-        end++;
-    if (*end != '\0')
-        return -1;
-    *out = v;
-    return 0;
+    return sl_infile_parse_double(text, out);
 }
 
 /* Column roles in a CSV header. */
@@ -433,6 +446,19 @@ static int csv_meta(char *body, sl_injection *meta, const char *path, size_t lin
 {
     char *eq = strchr(body, '=');
     if (eq == NULL)
+        return SL_OK;
+    /* Metadata is "# KEY = VALUE" with KEY one word of letters, digits and
+     * '_'; any other comment (prose that happens to hold an '=') is ignored. */
+    char *k0 = body;
+    while (*k0 == ' ' || *k0 == '\t')
+        k0++;
+    char *k1 = k0;
+    while (*k1 == '_' || (*k1 >= 'a' && *k1 <= 'z') || (*k1 >= 'A' && *k1 <= 'Z') || (*k1 >= '0' && *k1 <= '9'))
+        k1++;
+    char *k2 = k1;
+    while (*k2 == ' ' || *k2 == '\t')
+        k2++;
+    if (k1 == k0 || k2 != eq)
         return SL_OK;
     *eq = '\0';
     char *key = trim(body), *val = trim(eq + 1);
@@ -477,24 +503,25 @@ static int csv_meta(char *body, sl_injection *meta, const char *path, size_t lin
     SL_FAIL_RETURN(e, SL_EDATA, "%s:%zu: unknown metadata key '%s' (known: " CSV_META ")", path, line, key);
 }
 
-static int read_csv(FILE *f, const char *path, sl_injection *inj, sl_err *e)
+static int read_csv(char *text, const char *path, sl_injection *inj, sl_err *e)
 {
     sl_injection meta;
     memset(&meta, 0, sizeof meta);
     set_empty_meta(&meta);
     rows r = {0};
-    char *buf = NULL;
-    size_t cap = 0, line = 0;
+    char *buf = NULL, *cursor = text;
+    size_t line = 0;
     int col_role[16];
     double col_factor[16];
     size_t n_cols = 0;
     int have_header = 0;
     int rc = SL_OK;
-    ssize_t len;
-    while ((len = getline(&buf, &cap, f)) != -1) {
+    while (sl_infile_next_line(&cursor, &buf)) {
         line++;
-        if ((size_t)len != strlen(buf)) {
-            rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: NUL byte in a text line (is this a CSV file?)", path, line);
+        if (sl_infile_content_len(buf, "#", 0) > SL_INFILE_MAX_LINE) {
+            rc = sl_err_set(e, SL_EDATA, __func__, __LINE__,
+                            "%s:%zu: line longer than %d characters (comments and line ends not counted)", path, line,
+                            SL_INFILE_MAX_LINE);
             goto done;
         }
         char *s = trim(buf);
@@ -590,10 +617,6 @@ static int read_csv(FILE *f, const char *path, sl_injection *inj, sl_err *e)
             goto done;
         }
     }
-    if (ferror(f)) {
-        rc = sl_err_set(e, SL_EIO, __func__, __LINE__, "%s:%zu: read error: %s", path, line + 1, strerror(errno));
-        goto done;
-    }
     if (!have_header || r.n == 0) {
         rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: no %s found (a header " CSV_COLUMNS " and one row per band)", path,
                         line, have_header ? "bands" : "header");
@@ -601,7 +624,6 @@ static int read_csv(FILE *f, const char *path, sl_injection *inj, sl_err *e)
     }
     rc = rows_to_injection(&r, &meta, inj, e);
 done:
-    free(buf);
     rows_free(&r);
     if (rc != SL_OK)
         sl_err_push(e, rc, __func__, __LINE__);
@@ -689,6 +711,36 @@ static int nc_scalar(int ncid, const char *path, const char *name, const char *c
     return SL_OK;
 }
 
+/* Optional global attributes of steamloft's own files: event_month (1-12)
+ * and, unless event_time_is_nominal says "yes", event_time (ISO 8601 UTC). */
+static int nc_event_meta(int ncid, const char *path, sl_injection *meta, sl_err *e)
+{
+    size_t len = 0;
+    int month = 0;
+    if (nc_inq_attlen(ncid, NC_GLOBAL, "event_month", &len) == NC_NOERR) {
+        if (len != 1 || nc_get_att_int(ncid, NC_GLOBAL, "event_month", &month) != NC_NOERR || month < 0 || month > 12)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: global attribute event_month: need one integer 0-12", path);
+        meta->month = month;
+    }
+    char text[64], nominal[8] = "";
+    if (nc_inq_attlen(ncid, NC_GLOBAL, "event_time_is_nominal", &len) == NC_NOERR && len < sizeof nominal &&
+        nc_get_att_text(ncid, NC_GLOBAL, "event_time_is_nominal", nominal) == NC_NOERR)
+        nominal[len] = '\0';
+    if (strcmp(nominal, "no") == 0 && nc_inq_attlen(ncid, NC_GLOBAL, "event_time", &len) == NC_NOERR) {
+        double t;
+        if (len >= sizeof text || nc_get_att_text(ncid, NC_GLOBAL, "event_time", text) != NC_NOERR ||
+            (text[len] = '\0', sl_date_parse(text, &t)) != 0)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: global attribute event_time: not %s", path, SL_DATE_FORMS);
+        meta->event_time_s = t;
+        if (meta->month == 0) {
+            sl_date_fields f;
+            sl_date_split(t, &f);
+            meta->month = f.month;
+        }
+    }
+    return SL_OK;
+}
+
 /* Mass variable NAME(altitude) in kg or Tg into OUT (n values). */
 static int nc_mass(int ncid, int dimid, size_t n, const char *path, const char *name, int required, double *out, sl_err *e)
 {
@@ -727,6 +779,7 @@ static int read_netcdf(const char *path, sl_injection *inj, sl_err *e)
     int ncid = -1, rc = SL_OK;
     rows r = {0};
     double *z = NULL, *bnds = NULL;
+    SL_TRY_RETURN(e, sl_infile_nc_precheck(path, e));
     int st = nc_open(path, NC_NOWRITE, &ncid);
     if (st != NC_NOERR)
         SL_FAIL_RETURN(e, SL_EDATA, "%s: cannot open as netCDF: %s", path, nc_strerror(st));
@@ -739,6 +792,18 @@ static int read_netcdf(const char *path, sl_injection *inj, sl_err *e)
         goto done;
     }
     NCK(nc_inq_varid(ncid, "altitude", &zid), "coordinate variable altitude");
+    /* The buffers below hold N values: the coordinate must lie on exactly
+     * the altitude dimension (a 2-D or longer altitude would overrun them). */
+    NCK(nc_inq_varndims(ncid, zid, &ndims), "altitude");
+    if (ndims == 1)
+        NCK(nc_inq_vardimid(ncid, zid, dims), "altitude");
+    if (ndims != 1 || dims[0] != dimid) {
+        rc = sl_err_set(e, SL_EDATA, __func__, __LINE__,
+                        "%s: netCDF variable altitude: must be the coordinate altitude(altitude), one dimension; "
+                        "it has %d dimension%s%s",
+                        path, ndims, ndims == 1 ? "" : "s", ndims == 1 ? " other than altitude" : "");
+        goto done;
+    }
     static const char *const zunits[] = {"m", "km", NULL};
     static const double zfactors[] = {1.0, 1.0e3};
     double zf;
@@ -827,6 +892,11 @@ static int read_netcdf(const char *path, sl_injection *inj, sl_err *e)
             rc = nc_scalar(ncid, path, "cloud_area", area_u, area_f, 0.0, 1.0e15, &meta.cloud_area_m2, e);
         if (rc == SL_OK)
             rc = nc_scalar(ncid, path, "time", t_u, t_f, 0.0, 1.0e10, &meta.time_s, e);
+        static const char *const lon_u[] = {"degrees_east", "degree_east", "degrees", NULL};
+        if (rc == SL_OK)
+            rc = nc_scalar(ncid, path, "longitude", lon_u, lat_f, -360.0, 720.0, &meta.longitude_deg, e);
+        if (rc == SL_OK)
+            rc = nc_event_meta(ncid, path, &meta, e);
         if (rc != SL_OK)
             goto done;
     }
@@ -862,9 +932,12 @@ int sl_injection_read(sl_injection *inj, const char *path, sl_err *e)
         SL_TRY_RETURN(e, read_netcdf(path, inj, e));
         return SL_OK;
     }
-    rewind(f);
-    int rc = read_csv(f, path, inj, e);
     fclose(f);
+    char *text = NULL;
+    size_t len = 0;
+    SL_TRY_RETURN(e, sl_infile_read_text(path, "injection profile", SL_INFILE_MAX_BYTES, &text, &len, e));
+    int rc = read_csv(text, path, inj, e);
+    free(text);
     SL_TRY_RETURN(e, rc);
     return SL_OK;
 }

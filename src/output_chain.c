@@ -1,10 +1,11 @@
 /* output_chain: the writers' view of a chain run (see
  * include/steamloft/output_chain.h).  No physics: the numbers are the
- * stages' own results, in SI, copied by name; the event date is nominal
- * (2000-MM-01, MM the scenario's month or January) because scenarios give a
- * month, not a date. */
+ * stages' own results, in SI, copied by name; the event date is the
+ * scenario's [site] date, else nominal (2000-MM-01, MM the scenario's month
+ * or January). */
 #include "steamloft/output_chain.h"
 
+#include "steamloft/date.h"
 #include "steamloft/units.h"
 
 #include <math.h>
@@ -63,21 +64,31 @@ int sl_output_chain_init(sl_output_chain *oc, const sl_chain *ch, const sl_strat
                    pl->neutral_altitude_m);
         add_scalar(oc, &n, "cloud_bottom", "bottom of the young cloud envelope", "m", pl->cloud_bottom_m);
         add_scalar(oc, &n, "cloud_top", "top of the young cloud envelope", "m", pl->cloud_top_m);
-        add_scalar(oc, &n, "water_lofted", "water in the young clouds before freeze-out", "kg",
-                   pl->water_lofted_kg);
-        add_scalar(oc, &n, "fallout", "condensate that fell out during the rise", "kg", pl->fallout_kg);
-        add_scalar(oc, &n, "frozen_out", "ice formed at cloud level that sedimented out", "kg",
-                   pl->frozen_out_kg);
-        add_scalar(oc, &n, "stratospheric_vapor", "vapour injected above the tropopause", "kg",
-                   pl->stratospheric_water_kg);
-        add_scalar(oc, &n, "stratospheric_ice", "ice remaining above the tropopause", "kg",
+        /* The water budget (include/steamloft/plume.h): the JSON key without "_kg". */
+        /* (stratospheric_water itself is the netCDF injection variable of that name, output_nc.c) */
+#define SL_WATER_BUDGET_SCALAR(name, sign, label)                                                            \
+    if (strcmp(#name, "stratospheric_water") != 0)                                                             \
+        add_scalar(oc, &n, #name, label, "kg", pl->name##_kg);
+        SL_WATER_BUDGET_LINES(SL_WATER_BUDGET_SCALAR)
+#undef SL_WATER_BUDGET_SCALAR
+        add_scalar(oc, &n, "stratospheric_vapor", "of the stratospheric water: vapour", "kg",
+                   pl->stratospheric_vapor_kg);
+        add_scalar(oc, &n, "stratospheric_ice", "of the stratospheric water: ice", "kg",
                    pl->stratospheric_ice_kg);
-        if (pl->regime == SL_REGIME_BLOWOUT)
+        if (pl->regime != SL_REGIME_THERMAL) {
+            /* The regime of each source (in the order of the JSON "thermals"). */
+            char per[96] = "";
+            for (size_t i = 0; i < pl->n_thermals && i < 8; i++) {
+                size_t l = strlen(per);
+                snprintf(per + l, sizeof per - l, "%s%zu %s", i ? ", " : "", i + 1,
+                         sl_plume_regime_name(pl->th[i].regime));
+            }
             snprintf(oc->regime_note, sizeof oc->regime_note,
-                     "blow-out regime: the fireball is larger than the atmosphere's scale height or "
-                     "the thermal left the profile, so it is not a buoyant thermal; the water is "
-                     "placed by the simple blow-out rule (the thermal equations followed anyway, "
-                     "reach clipped at the profile top): the roughest numbers of this tool");
+                     "%s regime (sources: %s): a release wider than the scale height is not only a "
+                     "buoyant thermal; its water is shared between the thermal and a ballistic flight "
+                     "that re-enters over a wide area: the roughest numbers of this tool",
+                     sl_plume_regime_name(pl->regime), per);
+        }
     }
 
     const sl_output_series *series = NULL;
@@ -95,6 +106,12 @@ int sl_output_chain_init(sl_output_chain *oc, const sl_chain *ch, const sl_strat
     int month = (int)lround(sc->value_si[SL_P_SITE_MONTH]);
     snprintf(oc->event_time, sizeof oc->event_time, "2000-%02d-01 00:00:00",
              month >= 1 && month <= 12 ? month : 1);
+    if (isfinite(ch->injection.event_time_s)) { /* a [site] date: the real time */
+        sl_date_fields f;
+        sl_date_split(ch->injection.event_time_s, &f);
+        snprintf(oc->event_time, sizeof oc->event_time, "%04d-%02d-%02d %02d:%02d:%02d", f.year,
+                 f.month, f.day, f.hour, f.minute, f.second);
+    }
     char name[200];
     sl_scenario_name(sc, name, sizeof name); /* the [scenario] name, else the file's base name */
     snprintf(oc->title, sizeof oc->title, "%s (%s)", name,

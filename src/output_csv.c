@@ -64,8 +64,13 @@ static void write_profile(FILE *fp, const sl_output_view *v)
     comment(fp, buf);
     comment(fp, "columns: band bottom and top (km above mean sea level), water vapour and "
                 "condensed water (ice and liquid) in the band (Tg; totals per band, not rates)");
-    if (isfinite(inj->tropopause_altitude_m))
+    if (isfinite(inj->tropopause_altitude_m)) {
+        /* The one stratospheric number (include/steamloft/plume.h), as a comment. */
+        snprintf(buf, sizeof buf, "stratospheric_water_Tg: %.10g (vapour and ice above the tropopause)",
+                 sl_kg_to_tg(sl_injection_mass_above_kg(inj, inj->tropopause_altitude_m)));
+        comment(fp, buf);
         fprintf(fp, "# tropopause_altitude_km = %.10g\n", sl_m_to_km(inj->tropopause_altitude_m));
+    }
     fprintf(fp, "# latitude_deg = %.10g\n", inj->latitude_deg);
     fprintf(fp, "# time_s = %.10g\n", inj->time_s);
     if (inj->cloud_area_m2 > 0)

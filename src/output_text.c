@@ -295,15 +295,16 @@ static void emit_plume(sl_report *r, const sl_chain *ch)
     sl_report_number(r, "cloud_bottom_m", pl->cloud_bottom_m, "cloud bottom", 1e-3, "km");
     sl_report_number(r, "cloud_top_m", pl->cloud_top_m, "cloud top", 1e-3, "km");
     sl_report_number(r, "tropopause_altitude_m", pl->tropopause_altitude_m, "tropopause", 1e-3, "km");
-    sl_report_number(r, "water_lofted_kg", pl->water_lofted_kg, "water in the young clouds", 1e-9, "Tg");
-    sl_report_number(r, "fallout_kg", pl->fallout_kg, "fallen out: spray and condensate", 1e-9, "Tg");
-    sl_report_number(r, "frozen_out_kg", pl->frozen_out_kg, "ice sedimented out at cloud level", 1e-9, "Tg");
-    sl_report_number(r, "background_water_kg", pl->background_kg, "background vapour of the cloud air", 1e-9, "Tg");
-    sl_report_number(r, "water_below_bands_kg", pl->below_bands_kg, "cloud water below the lowest band", 1e-9, "Tg");
+    /* The water budget: the one table of include/steamloft/plume.h. */
+#define SL_WATER_BUDGET_JSON(name, sign, label) sl_report_number(r, #name "_kg", pl->name##_kg, label, 1e-9, "Tg");
+    SL_WATER_BUDGET_LINES(SL_WATER_BUDGET_JSON)
+#undef SL_WATER_BUDGET_JSON
+    sl_report_number(r, "stratospheric_vapor_kg", pl->stratospheric_vapor_kg, "of it vapour", 1e-9, "Tg");
+    sl_report_number(r, "stratospheric_ice_kg", pl->stratospheric_ice_kg, "of it ice", 1e-9, "Tg");
+    sl_report_number(r, "water_below_bands_kg", pl->water_below_bands_kg, "cloud water below the lowest band", 1e-9,
+                     "Tg");
     sl_report_number(r, "injected_vapor_kg", sl_injection_total_vapor_kg(inj), "vapour injected (all bands)", 1e-9, "Tg");
     sl_report_number(r, "injected_ice_kg", sl_injection_total_ice_kg(inj), "ice remaining (all bands)", 1e-9, "Tg");
-    sl_report_number(r, "stratospheric_water_kg", pl->stratospheric_water_kg, "vapour above the tropopause", 1e-9, "Tg");
-    sl_report_number(r, "stratospheric_ice_kg", pl->stratospheric_ice_kg, "ice above the tropopause", 1e-9, "Tg");
     sl_report_begin_array(r, "thermals", r->json ? NULL : "\nThermals");
     for (size_t i = 0; i < pl->n_thermals; i++) {
         const sl_thermal *th = &pl->th[i];
@@ -320,6 +321,14 @@ static void emit_plume(sl_report *r, const sl_chain *ch)
         sl_report_number(r, "cloud_bottom_m", th->cloud_bottom_m, "cloud bottom", 1e-3, "km");
         sl_report_number(r, "cloud_top_m", th->cloud_top_m, "cloud top", 1e-3, "km");
         sl_report_number(r, "max_speed_m_s", th->max_speed_m_s, "fastest rise", 1.0, "m/s");
+        sl_report_number(r, "ballistic_fraction", th->ballistic_fraction, "ballistic share of the water", 1.0, "");
+        if (th->ballistic_fraction > 0.0) {
+            sl_report_number(r, "launch_speed_m_s", th->launch_speed_m_s, "ballistic launch speed", 1.0, "m/s");
+            sl_report_number(r, "apogee_m", th->apogee_m, "ballistic apogee", 1e-3, "km");
+            sl_report_number(r, "reentry_range_m", th->reentry_range_m, "re-entry range", 1e-3, "km");
+            sl_report_number(r, "reentry_bottom_m", th->reentry_bottom_m, "re-entry layer bottom", 1e-3, "km");
+            sl_report_number(r, "reentry_top_m", th->reentry_top_m, "re-entry layer top", 1e-3, "km");
+        }
         sl_report_number(r, "water_kg", th->vapor_kg + th->liquid_kg + th->ice_kg, "water at apex", 1e-9, "Tg");
         sl_report_number(r, "entrained_air_kg", th->air_entrained_kg, "air entrained", 1e-9, "Tg");
         sl_report_end_object(r);
@@ -428,7 +437,8 @@ void sl_output_key_results(const sl_chain *ch, sl_key_results *k)
     k->energy_J = ch->partition.energy_total_J;
     k->energy_at_sea_J = ch->partition.energy_at_sea_J;
     k->regime = ch->have_plume ? sl_plume_regime_name(ch->plume.regime) : "none";
-    k->strat_vapor_kg = ch->have_plume ? ch->plume.stratospheric_water_kg : NAN;
+    k->strat_water_kg = ch->have_plume ? ch->plume.stratospheric_water_kg : NAN;
+    k->strat_vapor_kg = ch->have_plume ? ch->plume.stratospheric_vapor_kg : NAN;
     k->strat_ice_kg = ch->have_plume ? ch->plume.stratospheric_ice_kg : NAN;
     k->strat_injected_kg = k->background_burden_kg = k->percent_of_background = NAN;
     k->efolding_years = k->mean_residence_years = NAN;
@@ -446,14 +456,19 @@ void sl_output_key_results(const sl_chain *ch, sl_key_results *k)
      * this wording when it lands (one function, called here). */
     snprintf(k->validity_short, sizeof k->validity_short, "%s",
              !ch->have_plume ? "no plume"
-             : ch->plume.regime == SL_REGIME_BLOWOUT ? "rough: blow-out rule" : "thermal model");
+             : ch->plume.regime == SL_REGIME_BALLISTIC ? "rough: ballistic"
+             : ch->plume.regime != SL_REGIME_THERMAL ? "rough: blow-out" : "thermal model");
     if (k->efolding_extrapolated)
         strncat(k->validity_short, "; e-fold extrapolated",
                 sizeof k->validity_short - strlen(k->validity_short) - 1);
-    if (ch->have_plume && ch->plume.regime == SL_REGIME_BLOWOUT)
+    if (ch->have_plume && ch->plume.regime == SL_REGIME_BALLISTIC)
         snprintf(k->validity, sizeof k->validity,
-                 "rough: blow-out, water placed by the blow-out rule (fireball beyond the scale "
-                 "height, or the thermal left the profile)");
+                 "rough: ballistic, the release is several scale heights across or left the "
+                 "atmosphere; its water is thrown above the air and placed where it re-enters");
+    else if (ch->have_plume && ch->plume.regime != SL_REGIME_THERMAL)
+        snprintf(k->validity, sizeof k->validity,
+                 "rough: blow-out, the release is larger than the scale height; its water is shared "
+                 "between the thermal and the ballistic re-entry");
     else if (ch->have_plume)
         snprintf(k->validity, sizeof k->validity, "within the thermal-plume model");
     else
@@ -500,7 +515,7 @@ static void text_answer(FILE *o, const sl_chain *ch, const sl_key_results *k, fm
 {
     fprintf(o, "\nWhat reaches the stratosphere\n");
     row(o, "water above the tropopause", "%s Tg  (%s Tg vapour, %s Tg ice)",
-        f3(f, k->strat_injected_kg * 1e-9), f3(f, k->strat_vapor_kg * 1e-9), f3(f, k->strat_ice_kg * 1e-9));
+        f3(f, k->strat_water_kg * 1e-9), f3(f, k->strat_vapor_kg * 1e-9), f3(f, k->strat_ice_kg * 1e-9));
     row(o, "share of the background", "%s %% at the peak  (background %s Tg above ~100 hPa)",
         f3(f, k->percent_of_background), f3(f, k->background_burden_kg * 1e-9));
     if (isfinite(k->efolding_years))
@@ -513,30 +528,37 @@ static void text_answer(FILE *o, const sl_chain *ch, const sl_key_results *k, fm
     (void)ch;
 }
 
-/* The water budget of the event, sources to stratosphere, in Tg.  This is
- * the place of the plume stage's budget table: when its function lands it
- * is called here instead of these rows (same quantities, one writer). */
+/* The water budget of the event, sources to stratosphere, in Tg: the lines
+ * of SL_WATER_BUDGET_LINES (include/steamloft/plume.h), each with its sign,
+ * so the column adds up; the partition's lines say what the sources carry,
+ * the box model's line what entered it (the same tropopause). */
 static void text_water_budget(FILE *o, const sl_chain *ch, fmt_ring *f)
 {
     const sl_partition *pt = &ch->partition;
     fprintf(o, "\nWater budget (Tg)\n");
-    row(o, "sea water turned to vapour", "%s", f3(f, pt->water_vaporized_kg * 1e-9));
-    if (ch->has_entry) {
-        row(o, "liquid water thrown up", "%s", f3(f, pt->water_liquid_lofted_kg * 1e-9));
-        row(o, "water brought by the body", "%s", f3(f, pt->impactor_water_kg * 1e-9));
-    }
-    if (!ch->have_plume)
+    if (!ch->have_plume) {
+        row(o, "sea water vaporised", "%s", f3(f, pt->water_vaporized_kg * 1e-9));
         return;
+    }
     const sl_plume *pl = &ch->plume;
-    const sl_injection *inj = &ch->injection;
-    double bands = sl_injection_total_vapor_kg(inj) + sl_injection_total_ice_kg(inj);
-    row(o, "fell back during the rise", "%s", f3(f, pl->fallout_kg * 1e-9));
-    row(o, "carried into the young clouds", "%s", f3(f, pl->water_lofted_kg * 1e-9));
-    row(o, "  of it: ice settled out", "%s", f3(f, pl->frozen_out_kg * 1e-9));
-    row(o, "  of it: background vapour", "%s", f3(f, pl->background_kg * 1e-9));
-    row(o, "  of it: below the lowest band", "%s", f3(f, pl->below_bands_kg * 1e-9));
-    row(o, "  of it: left in the bands", "%s  (above the tropopause: %s vapour + %s ice)",
-        f3(f, bands * 1e-9), f3(f, pl->stratospheric_water_kg * 1e-9), f3(f, pl->stratospheric_ice_kg * 1e-9));
+    char label[64];
+#define SL_WATER_BUDGET_ROW(name, sign, text)                                                                   \
+    snprintf(label, sizeof label, "%c %s", sign, text);                                                        \
+    if (&pl->name##_kg == &pl->stratospheric_water_kg)                                                         \
+        row(o, label, "%12s  (%s vapour + %s ice)", f3(f, pl->name##_kg * 1e-9),                               \
+            f3(f, pl->stratospheric_vapor_kg * 1e-9), f3(f, pl->stratospheric_ice_kg * 1e-9));                 \
+    else                                                                                                       \
+        row(o, label, "%12s", f3(f, pl->name##_kg * 1e-9));                                                    \
+    if (&pl->name##_kg == &pl->water_source_kg) {                                                              \
+        row(o, "    sea water turned to vapour", "%12s", f3(f, pt->water_vaporized_kg * 1e-9));        \
+        if (ch->has_entry)                                                                                     \
+            row(o, "    liquid thrown up + body water", "%12s + %s", f3(f, pt->water_liquid_lofted_kg * 1e-9),  \
+                f3(f, pt->impactor_water_kg * 1e-9));                                                          \
+    }
+    SL_WATER_BUDGET_LINES(SL_WATER_BUDGET_ROW)
+#undef SL_WATER_BUDGET_ROW
+    if (ch->have_strat_model)
+        row(o, "  entering the box model", "%12s", f3(f, ch->strat.injected_kg * 1e-9));
 }
 
 /* The event and where it happens.  The atmosphere stage adds here the line

@@ -62,9 +62,14 @@
  * its temperature; its volume is that of its gas at ambient pressure.
  *
  * Air share (an airburst, or the trail of a body that reaches the sea) and
- * explosions: a fraction f_a of the energy is buoyant heat (default 0.4: the
- * thermal-radiation 35 % and blast 50 % of a nuclear burst, Glasstone & Dolan
- * 1977, bracket it; to be calibrated on cloud heights) in a fireball whose
+ * explosions, one heat rule: the buoyant heat is that of the air filling the
+ * fireball at its maximum size at 3000 K, but at most a fraction f_a of the
+ * energy (default 0.4: the thermal-radiation 35 % and blast 50 % of a nuclear
+ * burst, Glasstone & Dolan 1977, bracket it; the near-field waste heat of the
+ * blast wave, Brode 1968); the cap binds from about 1 Mt up.  A burst whose
+ * fireball reaches the sea vaporises sea water (solve_explosion: the thermal
+ * radiation in the part of the sphere below the surface, then the budget
+ * method's vapour fraction); the steam rises in the fireball.  The fireball's
  * radius follows the maximum fireball sizes of Glasstone & Dolan 1977
  * (diameter 1,550 ft at 20 kt and 7,200 ft at 1 Mt: R = 1097 m Y_Mt^0.393,
  * DERIVED from those two values), scaled as (rho_0/rho)^(1/3) with the air
@@ -99,6 +104,14 @@ static const double salinity_g_kg = 35.0;   /* standard sea water */
 static const double fireball_r_1mt_m = 1097.0;
 static const double fireball_exponent = 0.393;
 static const double fireball_q_max = 0.9;
+/* Temperature of the fireball at its maximum size (FROM MEMORY: a few
+ * thousand kelvin once the second thermal pulse is over, Glasstone & Dolan
+ * 1977 ch. 2; the air inside the fireball radius keeps the near-field waste
+ * heat of the blast wave, Brode 1968, Annu. Rev. Nucl. Sci. 18, 153). */
+static const double T_fireball_max_K = 3000.0;
+/* Thermal radiation share of a nuclear burst (Glasstone & Dolan 1977, from memory). */
+static const double radiated_fraction = 0.35;
+static const double rho_sea_level_kg_m3 = 1.225; /* USSA76 sea-level density: the reference of the size scaling */
 static const double boiling_K = 373.124;    /* at 101325 Pa (IAPWS-95) */
 
 void sl_partition_free(sl_partition *pt)
@@ -317,12 +330,32 @@ static int shock_vapor(sl_partition *pt, const sl_partition_input *in, double *v
     return SL_OK;
 }
 
+/* Radius of the fireball of ENERGY_J at its maximum size in AIR (m). */
+static double fireball_radius_m(double energy_J, const sl_partition_air *air)
+{
+    return fireball_r_1mt_m * pow(energy_J / SL_J_PER_MT_TNT, fireball_exponent) *
+           cbrt(rho_sea_level_kg_m3 / air->density_kg_m3);
+}
+
+/* The fireball heat rule (one rule for explosions and the air's share of an
+ * impact): the buoyant heat is that of the air filling the fireball at its
+ * maximum size at T_FIREBALL_MAX_K, rho_a V c_p T_a (1 - T_a/T_fb) (the air
+ * at ambient pressure heated from T_a to T_fb), but at most the fraction
+ * CAP_FRACTION of the energy (energy budget: what the blast wave and the
+ * radiation carry away is not there to buoy the cloud). */
+static double fireball_heat_J(double energy_J, double cap_fraction, const sl_partition_air *air)
+{
+    double r = fireball_radius_m(energy_J, air);
+    double vol = 4.0 / 3.0 * SL_PI * r * r * r;
+    double hold = air->density_kg_m3 * vol * SL_CP_DRY_AIR_J_KG_K * air->temperature_K *
+                  (1.0 - air->temperature_K / T_fireball_max_K);
+    return fmin(cap_fraction * energy_J, hold);
+}
+
 /* Fireball of buoyant heat Q at ambient AIR: fills radius, air mass, temperature. */
 static void fireball(sl_source *s, double energy_J, double heat_J, const sl_partition_air *air)
 {
-    double rho0 = 1.225; /* USSA76 sea-level density: the reference of the size scaling */
-    double r = fireball_r_1mt_m * pow(energy_J / SL_J_PER_MT_TNT, fireball_exponent) *
-               cbrt(rho0 / air->density_kg_m3);
+    double r = fireball_radius_m(energy_J, air);
     double vol = 4.0 / 3.0 * SL_PI * r * r * r;
     double q = heat_J / (air->density_kg_m3 * SL_CP_DRY_AIR_J_KG_K * vol * air->temperature_K);
     if (q > fireball_q_max) {
@@ -363,10 +396,36 @@ static int solve_explosion(sl_partition *pt, const sl_partition_input *in, sl_er
     pt->energy_in_air_J = E;
     sl_source s = {0};
     s.kind = SL_SOURCE_EXPLOSION;
-    fireball(&s, E, f * E, &in->air_at_source);
+    double Q = fireball_heat_J(E, f, &in->air_at_source);
+    /* Sea water (coupling, PRACTICE): a fireball that reaches the sea sends
+     * its thermal radiation (35 % of the energy, Glasstone & Dolan 1977, from
+     * memory) into the water in proportion to the part of its sphere
+     * (centred at the burst point, height h) that lies below the surface,
+     * (R - h)^2 (2R + h) / (4 R^3); that energy vaporises sea water with the
+     * impact's budget physics (the vapour fraction f_v of [partition]
+     * vapor_energy_fraction; the rest heats the sea, waves and spray), and the
+     * steam, at the boiling point, rises in the fireball. */
+    double h = fmax(in->explosion_altitude_m, 0.0), R = fireball_radius_m(E, &in->air_at_source);
+    double vap = 0.0, E_w = 0.0;
+    if (h < R && in->ocean_depth_m > 0.0 && in->sea_temperature_K > 250.0 && in->sea_temperature_K < 373.0) {
+        double share = (R - h) * (R - h) * (2.0 * R + h) / (4.0 * R * R * R);
+        double hv = sl_water_seawater_vaporization_J_kg(in->sea_temperature_K, salinity_g_kg, p_release_Pa);
+        if (!(hv > 1e6))
+            SL_FAIL_RETURN(e, SL_EINTERNAL, "partition: vaporisation energy %g J/kg is not physical", hv);
+        E_w = share * radiated_fraction * E;
+        vap = in->vapor_energy_fraction * E_w / hv;
+        pt->vaporization_energy_J_kg = hv;
+        pt->energy_at_sea_J = E_w;
+        pt->energy_to_water_J = E_w;
+        pt->water_vaporized_kg = vap;
+        pt->energy_vaporization_J = vap * hv;
+        pt->energy_in_air_J = E - E_w;
+    }
+    fireball(&s, E, Q, &in->air_at_source);
+    s.vapor_mass_kg = vap;
     /* A burst at the surface sits on it: its centre is one radius up. */
     s.altitude_m = fmax(in->explosion_altitude_m, s.radius_m);
-    pt->energy_other_J = E - s.heat_J;
+    pt->energy_other_J = E - s.heat_J - pt->energy_vaporization_J;
     return add_source(pt, &s, e);
 }
 
@@ -462,7 +521,7 @@ int sl_partition_solve(sl_partition *pt, const sl_partition_input *in, sl_err *e
         SL_TRY_RETURN(e, check_air(&in->air_at_source, "at the burst", e));
         sl_source s = {0};
         s.kind = SL_SOURCE_AIRBURST;
-        fireball(&s, e_air, fa * e_air, &in->air_at_source);
+        fireball(&s, e_air, fireball_heat_J(e_air, fa, &in->air_at_source), &in->air_at_source);
         s.altitude_m = fmax(in->air_source_altitude_m, s.radius_m);
         s.vapor_mass_kg = water_air;
         SL_TRY_RETURN(e, add_source(pt, &s, e));

@@ -29,6 +29,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <sys/statvfs.h>
 #include <sys/wait.h>
 #include <unistd.h>
 
@@ -594,6 +595,12 @@ static int render_and_commit(sl_outset *set, const sl_plot_options *o, const cha
             }
         }
     }
+    /* gnuplot failing because the disk is full is a write error, not a
+     * missing tool: the plots cannot be there, so it is exit 74. */
+    struct statvfs vfs;
+    if (o->render && !rendered && statvfs(set->stage, &vfs) == 0 && vfs.f_bavail == 0)
+        SL_FAIL_RETURN(e, SL_EIO, "writing the plots in '%s': %s (%s could not write its images)",
+                       set->dir, strerror(ENOSPC), prog);
     if (!rendered)
         for (size_t i = 0; i < n_images; i++)
             sl_outset_forget(set, images[i]);

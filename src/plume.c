@@ -68,7 +68,7 @@
  * spheres; three profiles) all rise without failure, the energy budget closed
  * to 4e-6 and the water budget to 1e-15.
  *
- * Cloud rule.  The young cloud fills the layer between the neutral-buoyancy
+ * Cloud rule.  The young cloud spans the layer between the neutral-buoyancy
  * level z_N (where the buoyancy force first vanished) and the highest reach
  * of the thermal's top, z_apex + b_apex: the overshooting thermal collapses
  * and spreads between its neutral height and its overshoot height, the
@@ -80,27 +80,31 @@
  * cloud), which put the cloud bottom far below the observed one; the rule
  * used reproduces the 1.69 Mt surface-burst cloud (top 21.6 km, bottom
  * 12.3 km) within the tolerance of tests/test_plume.c.  In the Boussinesq
- * limit it spans [2^-1/4, 1 + alpha] z_max.
+ * limit it spans [2^-1/4, 1 + alpha] z_max.  Within the layer the mass is
+ * placed where it is: densest at the neutral level, where the collapsing
+ * thermal spreads as an umbrella, and thinning linearly to nothing at the top
+ * of the overshoot (a triangular profile with its mode at z_N; Morton, Taylor
+ * & Turner 1956; Sparks 1986; Woods 1988), not spread evenly.
  *
- * Regime.  When the initial radius (the source's, or the radius its gas would
- * fill at ambient pressure when that is larger) exceeds the scale height
- * H = p/(rho g) at the source, the release is not a thermal in an atmosphere:
- * it blows out of it.  The regime is then marked "blow-out" (in every output)
- * and the water is placed by the simple rule that follows.  The release is
- * still followed with the thermal equations above, which is the best estimate
- * this model has of how high the buoyant gas goes; a thermal whose centre
- * reaches the top of the atmosphere profile stops there and its water fills
- * the layer of its radius below the profile top; one whose top (apex +
- * radius) passes the profile top keeps the cloud rule, its reach clipped at
- * the profile top, and is marked blow-out too.  An earlier rule placed a
- * blown-out release over its own initial extent [z - r, z + r] without any
- * rise; that made stratospheric water fall by six orders of magnitude when a
- * sea plume crossed r = H (a 340 m body lofted less than a 320 m one), so it
- * was dropped (2026-12-01).  Blow-out material in nature is thrown higher
- * still and falls back over a wide area; the numbers in this regime are the
- * roughest of the tool and are flagged everywhere.  Each thermal also
- * reports its radius over the scale height at the apex: near 1 for a 1-2 Mt
- * cloud, 2.2 for 15 Mt, where the bulk thermal starts to strain.
+ * Ballistic regime: see sl_plume_rise's helpers ballistic_weight and
+ * ballistic_flight below (and docs/physics.md section 6).
+ *
+ * Regimes.  X = r/H, the initial radius (the source's, or the radius its gas
+ * would fill at ambient pressure when that is larger) over the scale height
+ * H = p/(rho g) at the source.  X <= 1: a thermal.  1 < X < 4: "blow-out",
+ * a share ln X / ln 4 of the water is ballistic, the rest follows the
+ * thermal (so results change smoothly across the crossing).  X >= 4, or a
+ * thermal whose centre reaches 120 km: "ballistic", all the gas (after the
+ * spray has fallen back) flies above the atmosphere and re-enters
+ * (ballistic_flight: launch speed sqrt(2 e) from the gas's specific energy,
+ * Melosh 1989 ch. 5; 45 degree mass-mean path; re-entry over the disc of its
+ * range, stopped where it has met its own mass of air, water left in the two
+ * scale heights above; Shuvalov 1999; Pierazzo et al. 2010).  A thermal whose
+ * top (apex + radius) passes 120 km but not its centre keeps the cloud rule,
+ * its reach clipped at 120 km.  The regime of each source is in every
+ * output, with a validity line; these numbers are the roughest of the tool.
+ * Each thermal also reports its radius over the scale height at the apex:
+ * near 1 for a 1-2 Mt cloud, 2.2 for 15 Mt, where the bulk thermal strains.
  *
  * Units: SI throughout (m, s, kg, J, K, Pa). */
 #include "steamloft/plume.h"
@@ -204,7 +208,7 @@ int sl_plume_params_check(const sl_plume_params *p, sl_err *e)
 
 const char *sl_plume_regime_name(int regime)
 {
-    return regime == SL_REGIME_BLOWOUT ? "blow-out" : "thermal";
+    return regime == SL_REGIME_BALLISTIC ? "ballistic" : regime == SL_REGIME_BLOWOUT ? "blow-out" : "thermal";
 }
 
 /* ------------------------------------------------------------------ thermo */
@@ -694,6 +698,88 @@ static void finish_budget(sl_plume_work *w, sl_thermal *out, const double *s, co
  * result does not depend on where the profile ends (atmosphere branch,
  * issue 12; the ballistic regime replaces this stop). */
 #define THERMAL_TOP_M 120000.0
+/* Cloud top of a wide thermal above its centre, in ambient scale heights (see sl_plume_rise). */
+#define TOP_SCALE_HEIGHTS 3.0
+
+/* ------------------------------------------------------------------ ballistic */
+
+/* Ballistic regime (see the header comment).  A release X = r/H scale heights
+ * across is a thermal for X <= 1 and fully ballistic from X >= X_BALLISTIC;
+ * in between the water is shared with the weight ln X / ln X_BALLISTIC, so
+ * results change smoothly across the crossing (PRACTICE, no source: a
+ * release a few scale heights across has little atmosphere above it to rise
+ * through; Melosh 1989, Impact Cratering, ch. 5, vapour plumes expand freely
+ * once they outgrow the scale height). */
+#define X_BALLISTIC 4.0
+/* Highest apogee followed: the top of the built-in atmospheres (PRACTICE). */
+#define APOGEE_MAX_M 1.0e6
+
+static double ballistic_weight(double x)
+{
+    if (!(x > 1.0))
+        return 0.0;
+    return fmin(1.0, log(x) / log(X_BALLISTIC));
+}
+
+/* Column mass per area above Z (kg/m2): p(z)/g(z), hydrostatic. */
+static int column_above(const sl_atmosphere *atm, double z_m, double *col, sl_err *e)
+{
+    sl_atmos_state a;
+    SL_TRY_RETURN(e, sl_atmosphere_at(atm, z_m, &a, e));
+    *col = a.pressure_Pa / gravity_m_s2(z_m);
+    return SL_OK;
+}
+
+/* The ballistic flight of a release of gas mass M_GAS (kg) with specific
+ * energy E_J_KG above the ambient air at altitude Z0: launch speed
+ * v = sqrt(2 e), the energy of free expansion (Melosh 1989 ch. 5); the
+ * mass-mean path leaves at 45 degrees, its apogee with inverse-square gravity,
+ * its range v^2/g (flat Earth, at most a quarter of the circumference); the
+ * gas comes back over the disc of that radius and is stopped where it has
+ * met its own mass of air, p(z_r)/g = M_gas/A (momentum, PRACTICE); the water
+ * is left in the layer of two scale heights above z_r (Shuvalov 1999, JGR 104,
+ * 5877, and Pierazzo et al. 2010, EPSL 299, 263: the water of a 1 km ocean
+ * impact is thrown to ~160 km and falls back over more than 1000 km). */
+static int ballistic_flight(const sl_atmosphere *atm, double z0_m, double m_gas_kg, double e_J_kg, sl_thermal *out,
+                            sl_err *e)
+{
+    double v = e_J_kg > 0.0 ? sqrt(2.0 * e_J_kg) : 0.0;
+    double g0 = gravity_m_s2(z0_m), R = SL_USSA_R0_M + z0_m;
+    double vz2 = 0.5 * v * v;
+    double rise = vz2 < 1.999 * g0 * R ? vz2 * R / (2.0 * g0 * R - vz2) : APOGEE_MAX_M;
+    out->launch_speed_m_s = v;
+    out->apogee_m = fmin(z0_m + rise, APOGEE_MAX_M);
+    out->reentry_range_m = fmin(v * v / g0, 0.5 * SL_PI * SL_USSA_R0_M);
+    double area = fmin(SL_PI * out->reentry_range_m * out->reentry_range_m, SL_EARTH_AREA_M2);
+    double sigma = area > 0.0 ? m_gas_kg / area : INFINITY;
+    double zlo = atm->altitude_m[0], zhi = fmin(atm->altitude_m[atm->n - 1], fmax(out->apogee_m, zlo));
+    double clo = 0.0, chi = 0.0;
+    SL_TRY_RETURN(e, column_above(atm, zlo, &clo, e));
+    SL_TRY_RETURN(e, column_above(atm, zhi, &chi, e));
+    double zr;
+    if (sigma >= clo)
+        zr = zlo;
+    else if (sigma <= chi)
+        zr = zhi;
+    else {
+        double a = zlo, b = zhi;
+        for (int it = 0; it < 60 && b - a > 1.0; it++) { /* bisection on ln(column) to 1 m */
+            double m = 0.5 * (a + b), cm = 0.0;
+            SL_TRY_RETURN(e, column_above(atm, m, &cm, e));
+            if (cm > sigma)
+                a = m;
+            else
+                b = m;
+        }
+        zr = 0.5 * (a + b);
+    }
+    sl_atmos_state ar;
+    SL_TRY_RETURN(e, sl_atmosphere_at(atm, zr, &ar, e));
+    double hr = ar.pressure_Pa / (ar.density_kg_m3 * gravity_m_s2(zr));
+    out->reentry_bottom_m = zr;
+    out->reentry_top_m = fmin(zr + 2.0 * hr, atm->altitude_m[atm->n - 1]);
+    return SL_OK;
+}
 
 int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, sl_thermal *out, sl_err *e)
 {
@@ -743,6 +829,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * best estimate this model has of how high the buoyant gas goes) and
      * flagged; see "Regime" in the header comment. */
     int blowout_at_start = fmax(r_fireball, st.radius_m) > out->scale_height_m;
+    out->ballistic_fraction = ballistic_weight(fmax(r_fireball, st.radius_m) / out->scale_height_m);
 
     double w0 = src->vertical_speed_m_s, phi0 = potential_J_kg(src->altitude_m);
     double kin0 = 0.5 * (1.0 + w->k) * w0 * w0;
@@ -763,6 +850,34 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     double spray = ml0 + mi0;
     double h_spray = ml0 * CPL * (T_eq - T_TRIPLE) + mi0 * (CPI * (T_eq - T_TRIPLE) - w->lf0_J_kg);
     double Mw1 = Mw0 - spray, M1 = st.air_kg + Mw1;
+
+    /* The ballistic part: specific energy of the gas above ambient air
+     * (latent heat included: it is released as the expanding vapour
+     * condenses). */
+    double e_gas = (H0 - h_spray) / M1 - CPA * (amb.temperature_K - T_TRIPLE);
+    SL_TRY_RETURN(e, ballistic_flight(atm, src->altitude_m, M1, e_gas, out, e));
+    if (out->ballistic_fraction >= 1.0) {
+        /* Fully ballistic: no rise through the air; the gas phase flies and
+         * re-enters, the spray has fallen back. */
+        out->regime = SL_REGIME_BALLISTIC;
+        out->apex_time_s = 2.0 * out->launch_speed_m_s * sqrt(0.5) / gravity_m_s2(src->altitude_m);
+        out->apex_altitude_m = out->top_altitude_m = out->apogee_m;
+        out->apex_radius_m = out->reentry_range_m;
+        out->apex_scale_height_m = out->scale_height_m;
+        out->neutral_altitude_m = out->reentry_bottom_m;
+        out->cloud_bottom_m = out->reentry_bottom_m;
+        out->cloud_top_m = out->reentry_top_m;
+        out->max_speed_m_s = out->launch_speed_m_s;
+        out->water_final_kg = Mw1;
+        out->water_fallout_kg = spray;
+        out->water_entrained_kg = 0.0;
+        out->air_kg = st.air_kg;
+        out->vapor_kg = Mw1;
+        out->temperature_apex_K = T_eq;
+        out->energy_fallout_J = h_spray + spray * (phi0 + kin0);
+        out->energy_final_J = out->energy_initial_J - out->energy_fallout_J;
+        return SL_OK;
+    }
 
     /* Scales of the state (the solver works on y/scale, tolerances rtol):
      * each mass on its own scale, so a little air in much steam (or the
@@ -871,7 +986,12 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     out->apex_altitude_m = d.z_m;
     out->apex_radius_m = d.radius_m;
     out->apex_scale_height_m = d.amb.pressure_Pa / (d.amb.density_kg_m3 * d.g_m_s2);
-    out->top_altitude_m = d.z_m + d.radius_m;
+    /* Highest reach: apex + radius, but for a thermal wider than a few scale
+     * heights the energetics: at its apex the gas has about the ambient
+     * temperature, so its mass is stratified with the ambient scale height
+     * and only e^-3 = 5 % of it lies more than TOP_SCALE_HEIGHTS above the
+     * centre (PRACTICE, no source for the 5 %); the two agree at b = 3 H. */
+    out->top_altitude_m = d.z_m + fmin(d.radius_m, TOP_SCALE_HEIGHTS * out->apex_scale_height_m);
     finish_budget(w, out, w->y, &d);
     if (out->regime == SL_REGIME_BLOWOUT) {
         if (!have_neutral)
@@ -894,10 +1014,59 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     }
     if (blowout_at_start)
         out->regime = SL_REGIME_BLOWOUT;
+    if (d.z_m >= w->z_top_m) {
+        /* The thermal's centre left the atmosphere: what it carries flies on
+         * ballistically (its top clipped at the profile top said nothing about
+         * where the water goes). */
+        out->ballistic_fraction = 1.0;
+    }
+    if (out->ballistic_fraction >= 1.0)
+        out->regime = SL_REGIME_BALLISTIC;
+    /* Highest reach: the water-weighted mean of the two parts. */
+    double f = out->ballistic_fraction;
+    out->top_altitude_m = (1.0 - f) * out->top_altitude_m + f * fmax(out->apogee_m, out->top_altitude_m);
     return SL_OK;
 }
 
 /* ------------------------------------------------------------------ event */
+
+/* Put AIR and WATER of a cloud layer [CB, CT] into the bands (freeze-out of
+ * injection.c): the share below the lowest band is left out and tallied, a
+ * layer reaching above the top band is pressed into it. */
+static int add_layer(sl_plume *pl, sl_injection *inj, const sl_atmosphere *atm, double cb, double ct, double peak,
+                     double air, double water, sl_err *e)
+{
+    if (!(water > 0.0))
+        return SL_OK;
+    double band_lo = inj->band_bottom_m[0], band_hi = inj->band_top_m[inj->n_bands - 1];
+    double keep = 1.0;
+    int tent = ct > cb && peak >= cb && peak <= ct;
+    if (ct <= band_lo)
+        keep = 0.0;
+    else if (cb < band_lo) {
+        double u = band_lo - cb;
+        if (!tent)
+            keep = (ct - band_lo) / (ct - cb);
+        else if (band_lo <= peak)
+            keep = 1.0 - u * u / ((ct - cb) * (peak - cb));
+        else
+            keep = (ct - band_lo) * (ct - band_lo) / ((ct - cb) * (ct - peak));
+    }
+    pl->water_below_bands_kg += water * (1.0 - keep);
+    if (keep == 0.0)
+        return SL_OK;
+    sl_young_cloud c;
+    c.bottom_m = fmin(fmax(cb, band_lo), band_hi);
+    c.top_m = fmin(fmax(ct, band_lo), band_hi);
+    c.air_kg = air * keep;
+    c.water_kg = water * keep;
+    c.peak_m = tent ? fmin(fmax(peak, c.bottom_m), c.top_m) : NAN;
+    sl_freeze_out fo;
+    SL_TRY_RETURN(e, sl_injection_add_cloud(inj, atm, &c, pl->par.ice_sediment_fraction, &fo, e));
+    pl->water_sedimented_kg += fo.sedimented_kg;
+    pl->water_air_humidity_kg += fo.background_kg;
+    return SL_OK;
+}
 
 int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list *src, sl_injection *inj, sl_err *e)
 {
@@ -911,17 +1080,18 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
     pl->regime = SL_REGIME_THERMAL;
     pl->plume_top_m = pl->cloud_bottom_m = pl->cloud_top_m = pl->neutral_altitude_m = NAN;
     pl->tropopause_altitude_m = atm->tropopause_altitude_m;
-    pl->water_lofted_kg = pl->fallout_kg = pl->frozen_out_kg = pl->background_kg = pl->below_bands_kg = 0.0;
-    pl->stratospheric_water_kg = pl->stratospheric_ice_kg = 0.0;
+#define SL_WATER_BUDGET_ZERO(name, sign, label) pl->name##_kg = 0.0;
+    SL_WATER_BUDGET_LINES(SL_WATER_BUDGET_ZERO)
+#undef SL_WATER_BUDGET_ZERO
+    pl->stratospheric_vapor_kg = pl->stratospheric_ice_kg = pl->water_below_bands_kg = 0.0;
     double most_water = -1.0, t_last = 0.0, area = 0.0;
     int any_wet = 0;
-    double band_lo = inj->band_bottom_m[0], band_hi = inj->band_top_m[inj->n_bands - 1];
     for (size_t i = 0; i < src->n; i++) {
         sl_thermal *th = &pl->th[i];
         SL_TRY_RETURN(e, sl_plume_rise(pl, atm, &src->src[i], th, e));
         pl->n_thermals++;
-        if (th->regime == SL_REGIME_BLOWOUT)
-            pl->regime = SL_REGIME_BLOWOUT;
+        if (th->regime > pl->regime)
+            pl->regime = th->regime;
         double water = th->vapor_kg + th->liquid_kg + th->ice_kg;
         if (!(pl->plume_top_m >= th->top_altitude_m))
             pl->plume_top_m = th->top_altitude_m;
@@ -935,49 +1105,56 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
             pl->cloud_bottom_m = pl->cloud_top_m = NAN;
         }
         if (wet || !any_wet) {
-            if (!(pl->cloud_bottom_m <= th->cloud_bottom_m))
-                pl->cloud_bottom_m = th->cloud_bottom_m;
-            if (!(pl->cloud_top_m >= th->cloud_top_m))
-                pl->cloud_top_m = th->cloud_top_m;
+            /* Envelope of the thermal part's cloud and the ballistic part's layer. */
+            double fb = th->ballistic_fraction;
+            double cb = fb >= 1.0 ? th->reentry_bottom_m : fb > 0.0 ? fmin(th->cloud_bottom_m, th->reentry_bottom_m)
+                                                                     : th->cloud_bottom_m;
+            double ct = fb >= 1.0 ? th->reentry_top_m : fb > 0.0 ? fmax(th->cloud_top_m, th->reentry_top_m)
+                                                                  : th->cloud_top_m;
+            if (!(pl->cloud_bottom_m <= cb))
+                pl->cloud_bottom_m = cb;
+            if (!(pl->cloud_top_m >= ct))
+                pl->cloud_top_m = ct;
         }
         if (water > most_water) {
             most_water = water;
             pl->neutral_altitude_m = th->neutral_altitude_m;
         }
-        pl->water_lofted_kg += water;
-        pl->fallout_kg += th->water_fallout_kg;
+        pl->water_source_kg += th->water_initial_kg;
+        pl->water_background_kg += th->water_entrained_kg;
+        pl->water_fallout_kg += th->water_fallout_kg;
+        pl->water_rising_kg += water;
         t_last = fmax(t_last, th->apex_time_s);
-        area += SL_PI * th->apex_radius_m * th->apex_radius_m;
-        /* The cloud layer in the band range: the share below the lowest band
-         * is left out of the profile (tallied), a cloud reaching above the
-         * top band is pressed into it. */
-        sl_young_cloud c;
-        double cb = th->cloud_bottom_m, ct = th->cloud_top_m, keep = 1.0;
-        if (ct <= band_lo)
-            keep = 0.0;
-        else if (cb < band_lo)
-            keep = (ct - band_lo) / (ct - cb);
-        pl->below_bands_kg += water * (1.0 - keep);
-        if (keep == 0.0)
-            continue;
-        c.bottom_m = fmin(fmax(cb, band_lo), band_hi);
-        c.top_m = fmin(fmax(ct, band_lo), band_hi);
-        c.air_kg = th->air_kg * keep;
-        c.water_kg = water * keep;
-        sl_freeze_out fo;
-        SL_TRY_RETURN(e, sl_injection_add_cloud(inj, atm, &c, pl->par.ice_sediment_fraction, &fo, e));
-        pl->frozen_out_kg += fo.sedimented_kg;
-        pl->background_kg += fo.background_kg;
+        /* The thermal part and the ballistic part, each in its layer. */
+        double f = th->ballistic_fraction;
+        /* Placement by mass: the thermal's cloud is densest at its neutral-
+         * buoyancy level, where the umbrella spreads, and thins to nothing at
+         * the top of the overshoot (Morton, Taylor & Turner 1956; Sparks 1986;
+         * Woods 1988): a triangular profile with its mode at z_N. */
+        SL_TRY_RETURN(e, add_layer(pl, inj, atm, th->cloud_bottom_m, th->cloud_top_m, th->neutral_altitude_m,
+                                   th->air_kg * (1.0 - f), water * (1.0 - f), e));
+        if (f > 0.0) {
+            /* The re-entering gas mixes with the air that stopped it, as much
+             * again as its own mass (ballistic_flight). */
+            double air = 2.0 * th->air_kg + water;
+            SL_TRY_RETURN(e, add_layer(pl, inj, atm, th->reentry_bottom_m, th->reentry_top_m, NAN, air * f, water * f,
+                                       e));
+        }
+        area += (1.0 - f) * fmin(SL_PI * th->apex_radius_m * th->apex_radius_m, SL_EARTH_AREA_M2) +
+                f * fmin(SL_PI * th->reentry_range_m * th->reentry_range_m, SL_EARTH_AREA_M2);
     }
     if (src->n == 0) /* nothing rose: report zeros, never NaN */
         pl->plume_top_m = pl->cloud_bottom_m = pl->cloud_top_m = pl->neutral_altitude_m = 0.0;
     inj->time_s = t_last;
-    inj->cloud_area_m2 = area;
+    inj->cloud_area_m2 = fmin(area, SL_EARTH_AREA_M2);
+    /* The budget's last lines: the excess in the bands, split at the one
+     * tropopause (the box model uses the same, strat.c). */
+    double bands = sl_injection_total_vapor_kg(inj) + sl_injection_total_ice_kg(inj);
     if (isfinite(atm->tropopause_altitude_m)) {
-        pl->stratospheric_water_kg = sl_injection_vapor_above_kg(inj, atm->tropopause_altitude_m);
-        pl->stratospheric_ice_kg = sl_injection_mass_above_kg(inj, atm->tropopause_altitude_m) - pl->stratospheric_water_kg;
-        if (pl->stratospheric_ice_kg < 0.0)
-            pl->stratospheric_ice_kg = 0.0;
+        pl->stratospheric_water_kg = sl_injection_mass_above_kg(inj, atm->tropopause_altitude_m);
+        pl->stratospheric_vapor_kg = sl_injection_vapor_above_kg(inj, atm->tropopause_altitude_m);
+        pl->stratospheric_ice_kg = fmax(pl->stratospheric_water_kg - pl->stratospheric_vapor_kg, 0.0);
     }
+    pl->water_troposphere_kg = fmax(bands - pl->stratospheric_water_kg, 0.0) + pl->water_below_bands_kg;
     return SL_OK;
 }

@@ -21,6 +21,7 @@
 
 #include "steamloft/date.h"
 #include "steamloft/dist.h"
+#include "steamloft/infile.h"
 #include "steamloft/units.h"
 #include "steamloft/units_table.h"
 #include "steamloft/site.h"
@@ -54,7 +55,9 @@ const char *const sl_scenario_section_meanings[SL_S_COUNT] = {
 };
 
 /* Longest line inih handles in Debian's build is INI_MAX_LINE (200) minus
- * "\r\n\0"; a longer line would be split silently, so we refuse it first. */
+ * "\r\n\0"; a longer line would be split silently, so we refuse it first.
+ * Comments and line ends are taken out before inih sees the text (see
+ * strip_comments), so only the content of a line counts. */
 enum { MAX_LINE_CHARS = 196, MAX_FILE_BYTES = 1 << 20 };
 
 
@@ -284,6 +287,8 @@ static int ini_handler_fn(void *user, const char *section, const char *name, con
     return 1;
 }
 
+static int scenario_parse_text(sl_scenario *sc, const char *text, sl_err *e);
+
 static void scenario_reset(sl_scenario *sc, const char *name)
 {
     memset(sc, 0, sizeof *sc);
@@ -292,21 +297,74 @@ static void scenario_reset(sl_scenario *sc, const char *name)
         sc->value_si[i] = NAN;
 }
 
-int sl_scenario_read_string(sl_scenario *sc, const char *name, const char *text, sl_err *e)
+/* A copy of TEXT without a leading byte-order mark, comments (a line whose
+ * first non-blank is ';' or '#', or from a ';' after a blank to the line end,
+ * as inih reads them) and CRs before a LF; line numbers are kept.  Returns
+ * NULL when out of memory, and the 1-based number of the first line with more
+ * than MAX_LINE_CHARS characters of content in *LONG_LINE (0 if none). */
+static char *strip_comments(const char *text, int *long_line)
+{
+    if ((unsigned char)text[0] == 0xEF && (unsigned char)text[1] == 0xBB &&
+        (unsigned char)text[2] == 0xBF)
+        text += 3;
+    size_t n = strlen(text);
+    char *out = malloc(n + 1);
+    if (out == NULL)
+        return NULL;
+    *long_line = 0;
+    size_t o = 0;
+    int lineno = 1;
+    const char *p = text;
+    while (*p) {
+        const char *nl = strchr(p, '\n');
+        size_t len = nl ? (size_t)(nl - p) : strlen(p);
+        size_t keep;
+        /* Inline comments: ';' after a blank (inih's rule); '#' stays in values. */
+        size_t first = 0;
+        while (first < len && (p[first] == ' ' || p[first] == '\t'))
+            first++;
+        if (first < len && (p[first] == ';' || p[first] == '#'))
+            keep = 0;
+        else
+            keep = sl_infile_content_len(p, ";", 1);
+        if (keep > len)
+            keep = len;
+        if (keep > MAX_LINE_CHARS && *long_line == 0)
+            *long_line = lineno;
+        memcpy(out + o, p, keep);
+        o += keep;
+        if (nl == NULL)
+            break;
+        out[o++] = '\n';
+        p = nl + 1;
+        lineno++;
+    }
+    out[o] = '\0';
+    return out;
+}
+
+int sl_scenario_read_string(sl_scenario *sc, const char *name, const char *raw_text, sl_err *e)
 {
     scenario_reset(sc, name);
+    int long_line = 0;
+    char *text = strip_comments(raw_text, &long_line);
+    if (text == NULL)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "%s: out of memory while parsing", sc->path);
     /* Refuse lines inih would split. */
-    int lineno = 1;
-    size_t len = 0;
-    for (const char *p = text; *p; p++) {
-        if (*p == '\n') {
-            lineno++;
-            len = 0;
-        } else if (++len > MAX_LINE_CHARS) {
-            SL_FAIL_RETURN(e, SL_ECONFIG, "%s:%d: line longer than %d characters", sc->path,
-                           lineno, MAX_LINE_CHARS);
-        }
+    if (long_line) {
+        free(text);
+        SL_FAIL_RETURN(e, SL_ECONFIG,
+                       "%s:%d: line longer than %d characters (comments and line ends not "
+                       "counted)",
+                       sc->path, long_line, MAX_LINE_CHARS);
     }
+    int rc = scenario_parse_text(sc, text, e);
+    free(text);
+    return rc;
+}
+
+static int scenario_parse_text(sl_scenario *sc, const char *text, sl_err *e)
+{
     parse_ctx c = {sc, text, 0, 0, 1, e, 0};
     int rc = ini_parse_stream(buffer_reader, &c, ini_handler_fn, &c);
     if (c.failed)
@@ -475,10 +533,15 @@ static int convert_value(sl_scenario *sc, int id, sl_err *e)
     }
     case SL_PT_REAL:
     case SL_PT_INT: {
-        char *end = NULL;
-        errno = 0;
-        double v = strtod(text, &end);
-        if (text[0] == '\0' || end == text || *end != '\0' || errno == ERANGE || !isfinite(v)) {
+        double v = 0.0;
+        if (sl_infile_parse_double(text, &v) != 0) {
+            if (sl_dist_looks_like_law(text) && !sl_dist_is_distribution(text)) {
+                size_t wl = strcspn(text, " \t(");
+                SL_FAIL_RETURN(e, SL_EDATA,
+                               "%s: '%.*s' is not a distribution law (valid: %s) and '%s' is not "
+                               "a number (valid range: %s)",
+                               at, (int)(wl > 40 ? 40 : wl), text, sl_dist_forms(), text, range);
+            }
             const char *hint = strchr(text, '#') ? " (an inline comment needs ' ;', not '#')"
                                : sl_dist_is_distribution(text)
                                    ? " but a distribution: run the scenario with 'steamloft ensemble'"

@@ -62,6 +62,15 @@ void sl_partition_input_from_scenario(sl_partition_input *in, const sl_scenario 
         in->explosion_energy_J = sl_scenario_value(sc, SL_P_EXPLOSION_ENERGY);
         in->explosion_altitude_m = sl_scenario_value(sc, SL_P_EXPLOSION_ALTITUDE);
         in->explosion_heat_fraction = sl_scenario_value(sc, SL_P_EXPLOSION_HEAT);
+        /* A burst touching the sea vaporises water with the impact's budget physics. */
+        in->vapor_energy_fraction = sl_scenario_has(sc, SL_P_PARTITION_VAPOR_FRACTION)
+                                        ? sl_scenario_value(sc, SL_P_PARTITION_VAPOR_FRACTION)
+                                        : sl_scenario_params[SL_P_PARTITION_VAPOR_FRACTION].default_value;
+        in->plume_heat_fraction = sl_scenario_has(sc, SL_P_PARTITION_HEAT_FRACTION)
+                                      ? sl_scenario_value(sc, SL_P_PARTITION_HEAT_FRACTION)
+                                      : sl_scenario_params[SL_P_PARTITION_HEAT_FRACTION].default_value;
+        if (!sl_scenario_has(sc, SL_P_SITE_OCEAN_DEPTH) || !isfinite(in->ocean_depth_m))
+            in->ocean_depth_m = 0.0; /* no sea given: no sea water */
         return;
     }
     in->method = (sl_partition_method)(int)sl_scenario_value(sc, SL_P_PARTITION_METHOD);

@@ -132,7 +132,7 @@
  * 100 hPa gives 0.3 W/m2 per ppmv.  CALIBRATED on the 2022 Hunga water: with
  * 0.2 the 146 Tg at 22-27 km gave 0.078 W/m2, a third below the +0.12 W/m2
  * early forcing of Jenkins et al. 2023 (Nature Climate Change 13, 127; seen
- * in the source's abstract as reported); 0.3 gives 0.117, inside 0.10-0.15.  The shape is PRACTICE (no published
+ * in the source's abstract as reported); 0.3 gives about 0.115, inside 0.10-0.15.  The shape is PRACTICE (no published
  * forcing-per-layer kernel was found): 14 km makes water at 25-30 km count
  * about half as much as water at the tropopause.  It is an order-of-magnitude
  * indicator, not a radiative-transfer result.
@@ -1016,6 +1016,7 @@ void sl_strat_result_free(sl_strat_result *r)
     free(r->early_area_m2);
     free(r->early_column_kg_m2);
     free(r->work);
+    free(r->linear);
     memset(r, 0, sizeof *r);
 }
 
@@ -1042,7 +1043,8 @@ int sl_strat_result_init(sl_strat_result *r, const sl_strat_model *m, sl_err *e)
     r->early_area_m2 = calloc(r->n_early, sizeof(double));
     r->early_column_kg_m2 = calloc(r->n_early, sizeof(double));
     r->work = calloc(2 * m->n_aug, sizeof(double));
-    if (!r->time_s || !r->box_excess_kg || !r->sink_kg || !r->global_excess_kg || !r->global_anomaly_mole_fraction ||
+    r->linear = calloc(nt * SL_STRAT_RESPONSE_ROWS, sizeof(double));
+    if (!r->linear || !r->time_s || !r->box_excess_kg || !r->sink_kg || !r->global_excess_kg || !r->global_anomaly_mole_fraction ||
         !r->layer_anomaly_mole_fraction || !r->global_column_kg_m2 || !r->local_column_kg_m2 ||
         !r->percent_of_background || !r->forcing_W_m2 || !r->early_time_s || !r->early_area_m2 ||
         !r->early_column_kg_m2 || !r->work) {
@@ -1093,26 +1095,34 @@ static double cloud_room_kg(const sl_strat_model *m, int r, double a0, double z0
 }
 
 /* Distribute MASS uniformly over [z0, z1] into region R's boxes of Y;
- * returns the part below the tropopause. */
-static double place(const sl_strat_model *m, int r, double mass, double z0, double z1, double *y)
+ * returns the part below the tropopause TP.  TP is the injection's own
+ * tropopause when it has one (the plume stage's: one tropopause for the plume
+ * stage and the box model, issue 12), else the region's.  Water above TP but
+ * below the region's lowest box goes into that box, water above the top box
+ * into the top box, so every kilogram above TP enters. */
+static double place(const sl_strat_model *m, int r, double mass, double z0, double z1, double tp, double *y)
 {
     double below = 0.0, width = z1 - z0;
-    int top_box = -1;
+    int top_box = -1, bottom_box = m->box_of[r][lowest_layer(m, r)];
     for (size_t k = m->n_layers; k-- > 0;)
         if (m->box_of[r][k] >= 0) {
             top_box = m->box_of[r][k];
             break;
         }
-    double tp = m->tropopause_m[r];
     if (z0 < tp)
         below += mass * (fmin(z1, tp) - z0) / width;
-    double ztop = m->box_top_m[top_box];
+    double za = fmax(z0, tp); /* the part above the tropopause starts here */
+    if (za >= z1)
+        return below;
+    double ztop = m->box_top_m[top_box], zbot = m->box_bottom_m[bottom_box];
     if (z1 > ztop)
-        y[top_box] += mass * (z1 - fmax(z0, ztop)) / width;
+        y[top_box] += mass * (z1 - fmax(za, ztop)) / width;
+    if (za < zbot)
+        y[bottom_box] += mass * (fmin(z1, zbot) - za) / width;
     for (size_t b = 0; b < m->n_boxes; b++) {
         if (m->box_region[b] != r)
             continue;
-        double a = fmax(z0, m->box_bottom_m[b]), c = fmin(z1, m->box_top_m[b]);
+        double a = fmax(za, m->box_bottom_m[b]), c = fmin(z1, m->box_top_m[b]);
         if (c > a)
             y[b] += mass * (c - a) / width;
     }
@@ -1128,11 +1138,29 @@ static void cold_point_clip(const sl_strat_model *m, double *y)
     }
 }
 
+/* The global series of row I from the excess Q (kg), the forcing F (W m-2)
+ * and the excess per region COL (kg). */
+static void record_series(const sl_strat_model *m, sl_strat_result *r, size_t i, double t_s, double q, double f,
+                          const double col[SL_STRAT_N_REGIONS], double a0, double lat_deg, int cloud_region)
+{
+    r->time_s[i] = t_s;
+    r->global_excess_kg[i] = q;
+    r->global_anomaly_mole_fraction[i] = q / (m->reference_air_kg * mass_ratio());
+    r->global_column_kg_m2[i] = q / SL_EARTH_AREA_M2;
+    r->percent_of_background[i] = 100.0 * q / m->reference_background_kg;
+    r->forcing_W_m2[i] = f;
+    double local = 0.0;
+    for (int g = 0; g < SL_STRAT_N_REGIONS; g++)
+        local = fmax(local, col[g] / m->region_area_m2[g]);
+    if (a0 > 0.0 && t_s < m->par.region_spread_time_s)
+        local = fmax(local, q / cloud_area(&m->par, a0, lat_deg, m->region_area_m2[cloud_region], t_s));
+    r->local_column_kg_m2[i] = local;
+}
+
 static void record(const sl_strat_model *m, sl_strat_result *r, size_t i, double t_s, const double *y, double a0,
                    double lat_deg, int cloud_region)
 {
     size_t nb = m->n_boxes;
-    r->time_s[i] = t_s;
     double q = 0.0, f = 0.0;
     double col[SL_STRAT_N_REGIONS] = {0.0, 0.0, 0.0};
     for (size_t b = 0; b < nb; b++) {
@@ -1152,17 +1180,7 @@ static void record(const sl_strat_model *m, sl_strat_result *r, size_t i, double
             }
         r->layer_anomaly_mole_fraction[i * m->n_layers + k] = qk / (mk * mass_ratio());
     }
-    r->global_excess_kg[i] = q;
-    r->global_anomaly_mole_fraction[i] = q / (m->reference_air_kg * mass_ratio());
-    r->global_column_kg_m2[i] = q / SL_EARTH_AREA_M2;
-    r->percent_of_background[i] = 100.0 * q / m->reference_background_kg;
-    r->forcing_W_m2[i] = f;
-    double local = 0.0;
-    for (int g = 0; g < SL_STRAT_N_REGIONS; g++)
-        local = fmax(local, col[g] / m->region_area_m2[g]);
-    if (a0 > 0.0 && t_s < m->par.region_spread_time_s)
-        local = fmax(local, q / cloud_area(&m->par, a0, lat_deg, m->region_area_m2[cloud_region], t_s));
-    r->local_column_kg_m2[i] = local;
+    record_series(m, r, i, t_s, q, f, col, a0, lat_deg, cloud_region);
 }
 
 /* Q at time T by log-linear interpolation of the global excess (n points). */
@@ -1178,6 +1196,36 @@ static double excess_at(const sl_strat_result *r, size_t n, double t_s)
         }
     }
     return r->global_excess_kg[n - 1];
+}
+
+/* The calendar month (0-11) of time T_S after the event. */
+static int calendar_month(const sl_strat_model *m, double t_s)
+{
+    int start = m->par.start_month > 0 ? m->par.start_month - 1 : 0;
+    return (int)(((long)start + (long)floor(t_s / MONTH_S)) % 12);
+}
+
+/* OUT = P Y for the augmented state (n values, the first NB boxes), as a sum
+ * of columns (stored contiguously, so the inner loop vectorises).  The sink
+ * columns of P are unit vectors: sinks keep their value plus what flows in. */
+static void propagate(const double *P, size_t n, size_t nb, const double *y, double *restrict out)
+{
+    for (size_t a = 0; a < n; a++)
+        out[a] = a < nb ? 0.0 : y[a];
+    size_t b = 0;
+    for (; b + 4 <= nb; b += 4) { /* four columns per pass over OUT */
+        const double *restrict c0 = P + b * n, *restrict c1 = c0 + n, *restrict c2 = c1 + n,
+                               *restrict c3 = c2 + n;
+        const double y0 = y[b], y1 = y[b + 1], y2b = y[b + 2], y3 = y[b + 3];
+        for (size_t a = 0; a < n; a++)
+            out[a] += c0[a] * y0 + c1[a] * y1 + c2[a] * y2b + c3[a] * y3;
+    }
+    for (; b < nb; b++) {
+        const double *restrict col = P + b * n;
+        const double yb = y[b];
+        for (size_t a = 0; a < n; a++)
+            out[a] += col[a] * yb;
+    }
 }
 
 static int integrate(const sl_strat_model *m, sl_strat_result *r, double a0, double lat_deg, int rc_cloud, sl_err *e);
@@ -1200,12 +1248,17 @@ int sl_strat_run_boxes(const sl_strat_model *m, const double *box_kg, sl_strat_r
     }
     r->not_entered_kg = 0.0;
     SL_TRY_RETURN(e, integrate(m, r, 0.0, 0.0, SL_STRAT_TROPICS, e));
+    r->has_detail = 1;
     return SL_OK;
 }
 
-int sl_strat_run(const sl_strat_model *m, const sl_injection *inj, sl_strat_result *r, sl_err *e)
+/* The state at t = 0 in r->work (boxes and sinks) for injection INJ: the
+ * latitude split, the young cloud's area and (on request) its freeze-out,
+ * the bands placed into the boxes.  *A0 and *RC_CLOUD get the cloud's area
+ * and region. */
+static int initial_state(const sl_strat_model *m, const sl_injection *inj, sl_strat_result *r, double *a0_out,
+                         int *rc_out, sl_err *e)
 {
-    SL_TRY_RETURN(e, check_result(m, r, e));
     if (!(inj->latitude_deg >= -90.0 && inj->latitude_deg <= 90.0))
         SL_FAIL_RETURN(e, SL_EDATA, "strat: injection latitude %g deg is outside the valid range -90 to 90", inj->latitude_deg);
     if (!(inj->cloud_area_m2 >= 0.0 && inj->cloud_area_m2 <= SL_EARTH_AREA_M2))
@@ -1234,7 +1287,8 @@ int sl_strat_run(const sl_strat_model *m, const sl_injection *inj, sl_strat_resu
     int freeze = p->cloud_freeze_out;
     double a0 = inj->cloud_area_m2 > 0.0 ? inj->cloud_area_m2 : p->default_cloud_area_m2;
     if (!freeze && !(inj->cloud_area_m2 > 0.0)) {
-        double need = 0.0, tp = m->tropopause_m[rc_cloud];
+        double need = 0.0, tp = isfinite(inj->tropopause_altitude_m) ? inj->tropopause_altitude_m
+                                                                     : m->tropopause_m[rc_cloud];
         for (size_t i = 0; i < inj->n_bands; i++) {
             double z0 = inj->band_bottom_m[i], z1 = inj->band_top_m[i];
             double water = inj->vapor_kg[i] + inj->ice_kg[i];
@@ -1248,6 +1302,8 @@ int sl_strat_run(const sl_strat_model *m, const sl_injection *inj, sl_strat_resu
         a0 = fmax(a0, need);
     }
     a0 = fmin(a0, m->region_area_m2[rc_cloud]);
+    /* One tropopause: the injection's (the plume stage's) when it has one. */
+    double tp_inj = inj->tropopause_altitude_m;
     double not_entered = 0.0, frozen = 0.0;
     for (size_t i = 0; i < inj->n_bands; i++) {
         double z0 = inj->band_bottom_m[i], z1 = inj->band_top_m[i];
@@ -1258,8 +1314,8 @@ int sl_strat_run(const sl_strat_model *m, const sl_injection *inj, sl_strat_resu
             SL_FAIL_RETURN(e, SL_EDATA, "strat: injection band %zu has top %g m <= bottom %g m", i, z1, z0);
         if (water == 0.0)
             continue;
-        /* Young-cloud freeze-out above the tropopause of the cloud's region. */
-        double tp = m->tropopause_m[rc_cloud];
+        /* Young-cloud freeze-out above the tropopause (the injection's). */
+        double tp = isfinite(tp_inj) ? tp_inj : m->tropopause_m[rc_cloud];
         double keep = 1.0;
         if (freeze && z1 > tp) {
             double lo = fmax(z0, tp);
@@ -1272,84 +1328,36 @@ int sl_strat_run(const sl_strat_model *m, const sl_injection *inj, sl_strat_resu
         }
         double wk = water * keep;
         if (w_t > 0.0)
-            not_entered += place(m, SL_STRAT_TROPICS, wk * w_t, z0, z1, y);
+            not_entered += place(m, SL_STRAT_TROPICS, wk * w_t, z0, z1,
+                                 isfinite(tp_inj) ? tp_inj : m->tropopause_m[SL_STRAT_TROPICS], y);
         if (w_t < 1.0)
-            not_entered += place(m, rx, wk * (1.0 - w_t), z0, z1, y);
+            not_entered += place(m, rx, wk * (1.0 - w_t), z0, z1, isfinite(tp_inj) ? tp_inj : m->tropopause_m[rx], y);
     }
     y[nb + SL_STRAT_SINK_CLOUD_FREEZE] = frozen;
     r->not_entered_kg = not_entered;
-    SL_TRY_RETURN(e, integrate(m, r, a0, inj->latitude_deg, rc_cloud, e));
+    *a0_out = a0;
+    *rc_out = rc_cloud;
     return SL_OK;
 }
 
-/* Integrate from the state in r->work (boxes and sinks at t = 0) and fill
- * every output of R.  A0 <= 0: no young cloud (local column from the regions). */
-static int integrate(const sl_strat_model *m, sl_strat_result *r, double a0, double lat_deg, int rc_cloud, sl_err *e)
+int sl_strat_run(const sl_strat_model *m, const sl_injection *inj, sl_strat_result *r, sl_err *e)
+{
+    SL_TRY_RETURN(e, check_result(m, r, e));
+    double a0 = 0.0;
+    int rc_cloud = SL_STRAT_TROPICS;
+    SL_TRY_RETURN(e, initial_state(m, inj, r, &a0, &rc_cloud, e));
+    SL_TRY_RETURN(e, integrate(m, r, a0, inj->latitude_deg, rc_cloud, e));
+    r->has_detail = 1;
+    return SL_OK;
+}
+
+/* The scalar results from the recorded series (global excess, percent of
+ * background, columns, forcing) of R, for an initial excess Q0 (kg) and the
+ * young cloud (area A0, latitude, region). */
+static void series_scalars(const sl_strat_model *m, sl_strat_result *r, double q0, double a0, double lat_deg,
+                           int rc_cloud)
 {
     const sl_strat_params *p = &m->par;
-    size_t nb = m->n_boxes, n = m->n_aug;
-    double *y = r->work, *y2 = r->work + n;
-    cold_point_clip(m, y);
-    double injected = 0.0;
-    for (size_t j = 0; j < n; j++)
-        injected += y[j];
-    r->injected_kg = injected;
-    double q0 = 0.0;
-    for (size_t b = 0; b < nb; b++)
-        q0 += y[b];
-    r->initial_excess_kg = q0;
-
-    /* Integrate. */
-    double h = m->internal_step_s;
-    double worst = 0.0;
-    record(m, r, 0, 0.0, y, a0, lat_deg, rc_cloud);
-    for (size_t i = 1; i < m->n_run; i++) {
-        for (size_t s = 0; s < m->substeps; s++) {
-            double tmid = ((double)((i - 1) * m->substeps + s) + 0.5) * h;
-            int start = p->start_month > 0 ? p->start_month - 1 : 0;
-            int cal = (int)(((long)start + (long)floor(tmid / MONTH_S)) % 12);
-            /* y2 = P y as a sum of columns (stored contiguously, so the
-             * inner loop vectorises).  The sink columns of P are unit
-             * vectors: sinks keep their value plus what flows in. */
-            const double *P = m->propagator[cal];
-            double *restrict out = y2;
-            for (size_t a = 0; a < n; a++)
-                out[a] = a < nb ? 0.0 : y[a];
-            size_t b = 0;
-            for (; b + 4 <= nb; b += 4) { /* four columns per pass over OUT */
-                const double *restrict c0 = P + b * n, *restrict c1 = c0 + n, *restrict c2 = c1 + n,
-                                       *restrict c3 = c2 + n;
-                const double y0 = y[b], y1 = y[b + 1], y2b = y[b + 2], y3 = y[b + 3];
-                for (size_t a = 0; a < n; a++)
-                    out[a] += c0[a] * y0 + c1[a] * y1 + c2[a] * y2b + c3[a] * y3;
-            }
-            for (; b < nb; b++) {
-                const double *restrict col = P + b * n;
-                const double yb = y[b];
-                for (size_t a = 0; a < n; a++)
-                    out[a] += col[a] * yb;
-            }
-            double *tmp = y;
-            y = y2;
-            y2 = tmp;
-            cold_point_clip(m, y);
-        }
-        record(m, r, i, (double)i * p->step_s, y, a0, lat_deg, rc_cloud);
-        double tot = 0.0;
-        for (size_t j = 0; j < n; j++) {
-            if (y[j] < 0.0)
-                SL_FAIL_RETURN(e, SL_EINTERNAL, "strat: negative mass %g kg in state %zu at step %zu", y[j], j, i);
-            tot += y[j];
-        }
-        if (injected > 0.0)
-            worst = fmax(worst, fabs(tot - injected) / injected);
-    }
-    r->budget_max_rel_error = worst;
-    /* Conservation to rounding: 1e-12 allows ~1e4 roundings of 1e-16 (PRACTICE). */
-    if (worst > 1e-12)
-        SL_FAIL_RETURN(e, SL_EINTERNAL, "strat: mass budget off by %.3g of the injection", worst);
-
-    /* Scalar diagnostics. */
     size_t nr = m->n_run, no = m->n_out;
     r->efolding_s = 0.0;
     r->efolding_extrapolated = 0;
@@ -1404,6 +1412,57 @@ static int integrate(const sl_strat_model *m, sl_strat_result *r, double a0, dou
         r->early_column_kg_m2[i] = excess_at(r, nr, t) / a;
         r->peak_local_column_kg_m2 = fmax(r->peak_local_column_kg_m2, r->early_column_kg_m2[i]);
     }
+}
+
+/* Integrate from the state in r->work (boxes and sinks at t = 0) and fill
+ * every output of R.  A0 <= 0: no young cloud (local column from the regions). */
+static int integrate(const sl_strat_model *m, sl_strat_result *r, double a0, double lat_deg, int rc_cloud, sl_err *e)
+{
+    const sl_strat_params *p = &m->par;
+    size_t nb = m->n_boxes, n = m->n_aug;
+    double *y = r->work, *y2 = r->work + n;
+    cold_point_clip(m, y);
+    double injected = 0.0;
+    for (size_t j = 0; j < n; j++)
+        injected += y[j];
+    r->injected_kg = injected;
+    double q0 = 0.0;
+    for (size_t b = 0; b < nb; b++)
+        q0 += y[b];
+    r->initial_excess_kg = q0;
+
+    /* Integrate. */
+    double h = m->internal_step_s;
+    double worst = 0.0;
+    record(m, r, 0, 0.0, y, a0, lat_deg, rc_cloud);
+    /* Nothing above the tropopause (no water entered): the state stays zero,
+     * so the propagator products are skipped (0 * P = 0 exactly). */
+    int empty = injected == 0.0;
+    for (size_t i = 1; i < m->n_run; i++) {
+        for (size_t s = 0; s < m->substeps && !empty; s++) {
+            double tmid = ((double)((i - 1) * m->substeps + s) + 0.5) * h;
+            propagate(m->propagator[calendar_month(m, tmid)], n, nb, y, y2);
+            double *tmp = y;
+            y = y2;
+            y2 = tmp;
+            cold_point_clip(m, y);
+        }
+        record(m, r, i, (double)i * p->step_s, y, a0, lat_deg, rc_cloud);
+        double tot = 0.0;
+        for (size_t j = 0; j < n; j++) {
+            if (y[j] < 0.0)
+                SL_FAIL_RETURN(e, SL_EINTERNAL, "strat: negative mass %g kg in state %zu at step %zu", y[j], j, i);
+            tot += y[j];
+        }
+        if (injected > 0.0)
+            worst = fmax(worst, fabs(tot - injected) / injected);
+    }
+    r->budget_max_rel_error = worst;
+    /* Conservation to rounding: 1e-12 allows ~1e4 roundings of 1e-16 (PRACTICE). */
+    if (worst > 1e-12)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "strat: mass budget off by %.3g of the injection", worst);
+
+    series_scalars(m, r, q0, a0, lat_deg, rc_cloud);
     return SL_OK;
 }
 
@@ -1439,3 +1498,163 @@ int sl_strat_params_equal(const sl_strat_params *a, const sl_strat_params *b)
 }
 _Static_assert(sizeof(sl_strat_params) == 20 * sizeof(double) + 2 * sizeof(double),
                "sl_strat_params changed: update sl_strat_params_equal");
+
+/* ------------------------------------------------------------------ linear response */
+
+/* Rows of the response: what record_series needs, plus the total mass. */
+enum { RESP_EXCESS = 0, RESP_FORCING, RESP_REGION0, RESP_TOTAL = RESP_REGION0 + SL_STRAT_N_REGIONS, RESP_ROWS };
+_Static_assert((int)RESP_ROWS == (int)SL_STRAT_RESPONSE_ROWS, "SL_STRAT_RESPONSE_ROWS");
+
+void sl_strat_response_free(sl_strat_response *rs)
+{
+    if (rs == NULL)
+        return;
+    free(rs->rows);
+    free(rs->clip);
+    free(rs->clip_max);
+    memset(rs, 0, sizeof *rs);
+}
+
+/* Between the clips the model is y(t_i) = P_i ... P_1 y(0), linear in the
+ * t = 0 state: integrate a unit mass from each box once and keep the rows
+ * the outputs need (excess, forcing, excess per region, total) at every
+ * output time, and the tropical bottom box after every internal step (to
+ * tell whether the cold-point clip would act). */
+int sl_strat_response_init(sl_strat_response *rs, const sl_strat_model *m, sl_err *e)
+{
+    memset(rs, 0, sizeof *rs);
+    size_t nb = m->n_boxes, n = m->n_aug, nr = m->n_run, ns = (nr - 1) * m->substeps;
+    rs->n_boxes = nb;
+    rs->n_run = nr;
+    rs->n_steps = ns;
+    rs->par = m->par;
+    rs->rows = calloc(nr * RESP_ROWS * nb, sizeof(double));
+    rs->clip = calloc((ns ? ns : 1) * nb, sizeof(double));
+    rs->clip_max = calloc(nb ? nb : 1, sizeof(double));
+    double *y = calloc(2 * n, sizeof(double));
+    if (!rs->rows || !rs->clip || !rs->clip_max || !y) {
+        free(y);
+        sl_strat_response_free(rs);
+        SL_FAIL_RETURN(e, SL_ENOMEM, "strat: out of memory for the linear response");
+    }
+    int bt = m->box_of[SL_STRAT_TROPICS][lowest_layer(m, SL_STRAT_TROPICS)];
+    double h = m->internal_step_s;
+    for (size_t b = 0; b < nb; b++) {
+        double *u = y, *u2 = y + n;
+        memset(y, 0, 2 * n * sizeof(double));
+        u[b] = 1.0;
+        rs->clip_max[b] = u[bt];
+        for (size_t i = 0; i < nr; i++) {
+            if (i > 0)
+                for (size_t s = 0; s < m->substeps; s++) {
+                    size_t k = (i - 1) * m->substeps + s;
+                    propagate(m->propagator[calendar_month(m, ((double)k + 0.5) * h)], n, nb, u, u2);
+                    double *t = u;
+                    u = u2;
+                    u2 = t;
+                    rs->clip[k * nb + b] = u[bt];
+                    rs->clip_max[b] = fmax(rs->clip_max[b], u[bt]);
+                }
+            /* Column b of the response (what a unit mass in box b gives). */
+            double *row = rs->rows + b * nr * RESP_ROWS + i * RESP_ROWS;
+            double q = 0.0, f = 0.0, tot = 0.0;
+            for (size_t a = 0; a < nb; a++) {
+                q += u[a];
+                f += m->box_forcing_W_m2_per_kg[a] * u[a];
+                row[RESP_REGION0 + (size_t)m->box_region[a]] += u[a];
+            }
+            for (size_t a = 0; a < n; a++)
+                tot += u[a];
+            row[RESP_EXCESS] = q;
+            row[RESP_FORCING] = f;
+            row[RESP_TOTAL] = tot;
+        }
+    }
+    free(y);
+    return SL_OK;
+}
+
+static double dot(const double *restrict a, const double *restrict b, size_t n)
+{
+    double s = 0.0;
+    for (size_t i = 0; i < n; i++)
+        s += a[i] * b[i];
+    return s;
+}
+
+/* 1 when the cold-point clip would act on the state Y at t = 0 or after
+ * some internal step: the bound from each box's largest share first (one
+ * dot product), the steps one by one only when the bound allows it. */
+static int would_clip(const sl_strat_model *m, const sl_strat_response *rs, const double *y)
+{
+    int bt = m->box_of[SL_STRAT_TROPICS][lowest_layer(m, SL_STRAT_TROPICS)];
+    double room = m->cold_point_room_kg;
+    size_t nb = m->n_boxes;
+    if (y[bt] > room)
+        return 1;
+    if (dot(rs->clip_max, y, nb) <= room)
+        return 0;
+    for (size_t k = 0; k < rs->n_steps; k++)
+        if (dot(rs->clip + k * nb, y, nb) > room)
+            return 1;
+    return 0;
+}
+
+int sl_strat_run_linear(const sl_strat_model *m, const sl_strat_response *rs, const sl_injection *inj,
+                        sl_strat_result *r, sl_err *e)
+{
+    SL_TRY_RETURN(e, check_result(m, r, e));
+    if (rs->rows == NULL || rs->n_boxes != m->n_boxes || rs->n_run != m->n_run ||
+        !sl_strat_params_equal(&rs->par, &m->par))
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "strat: the linear response was not built for this model");
+    double a0 = 0.0;
+    int rc_cloud = SL_STRAT_TROPICS;
+    SL_TRY_RETURN(e, initial_state(m, inj, r, &a0, &rc_cloud, e));
+    size_t nb = m->n_boxes, n = m->n_aug;
+    const double *y = r->work;
+    double q0 = 0.0, sinks0 = 0.0;
+    for (size_t b = 0; b < nb; b++)
+        q0 += y[b];
+    for (size_t j = nb; j < n; j++)
+        sinks0 += y[j];
+    if (!(q0 > 0.0) || would_clip(m, rs, y)) {
+        /* Nothing entered (the direct path skips the products), or the
+         * cold point clips: the direct integration. */
+        SL_TRY_RETURN(e, integrate(m, r, a0, inj->latitude_deg, rc_cloud, e));
+        r->has_detail = 1;
+        return SL_OK;
+    }
+    double injected = q0 + sinks0, worst = 0.0;
+    r->injected_kg = injected;
+    r->initial_excess_kg = q0;
+    /* All rows at once, R y as a sum of the response's columns (contiguous,
+     * so the inner loop vectorises); boxes without water are skipped. */
+    size_t nk = m->n_run * RESP_ROWS;
+    double *out = r->linear;
+    memset(out, 0, nk * sizeof *out);
+    for (size_t b = 0; b < nb; b++) {
+        const double yb = y[b];
+        if (yb == 0.0)
+            continue;
+        const double *restrict col = rs->rows + b * nk;
+        for (size_t k = 0; k < nk; k++)
+            out[k] += col[k] * yb;
+    }
+    for (size_t i = 0; i < m->n_run; i++) {
+        const double *row = out + i * RESP_ROWS;
+        double q = i == 0 ? q0 : row[RESP_EXCESS];
+        double f = row[RESP_FORCING];
+        double col[SL_STRAT_N_REGIONS];
+        for (int g = 0; g < SL_STRAT_N_REGIONS; g++)
+            col[g] = row[RESP_REGION0 + (size_t)g];
+        double tot = row[RESP_TOTAL] + sinks0;
+        record_series(m, r, i, (double)i * m->par.step_s, q, f, col, a0, inj->latitude_deg, rc_cloud);
+        worst = fmax(worst, fabs(tot - injected) / injected);
+    }
+    r->budget_max_rel_error = worst;
+    if (worst > 1e-12)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "strat: mass budget off by %.3g of the injection", worst);
+    series_scalars(m, r, q0, a0, inj->latitude_deg, rc_cloud);
+    r->has_detail = 0;
+    return SL_OK;
+}

@@ -74,7 +74,10 @@ typedef struct sl_chain {
     sl_strat_model strat_model;
     int have_strat_model;
     sl_strat_result strat;         /* valid when have_strat_model after a successful run */
-    double stage_s[SL_CHAIN_N_TIMED]; /* wall-clock seconds per stage, summed over runs */
+    int strat_linear;              /* set by the caller: the box model by its linear response
+                                      (sl_strat_run_linear; ensembles), built once per model */
+    sl_strat_response strat_response;
+    double stage_s[SL_CHAIN_N_TIMED]; /* thread CPU seconds per stage, summed over runs */
 } sl_chain;
 
 /* Run every stage for the finished scenario SC into CH.  On failure CH keeps

@@ -63,4 +63,11 @@ void sl_dist_describe(const sl_dist *d, char *buf, size_t n);
 /* Release d's memory; safe on a zeroed struct; leaves d zeroed. */
 void sl_dist_free(sl_dist *d);
 
+/* 1 if TEXT has the shape of a distribution, "name(" (any identifier), so
+ * that a misspelled law can be named as such. */
+int sl_dist_looks_like_law(const char *text);
+
+/* The valid distribution forms, for messages. */
+const char *sl_dist_forms(void);
+
 #endif

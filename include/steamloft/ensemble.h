@@ -151,10 +151,15 @@ typedef struct sl_ens_model {
     void (*ws_free)(void *ws);
     int (*member)(void *ws, void *ctx, const sl_ens_plan *plan, const double *inputs_si,
                   double *outputs, sl_err *e);
+    size_t n_extra;     /* values the member writes after its key outputs, at
+                         * outputs[n_outputs ..]: passed to the row callback
+                         * (profiles, time series), never kept in the result
+                         * nor checked for finiteness; NAN for a failed member */
 } sl_ens_model;
 
 /* Called serially, in member order, on MPI rank 0, once per member: inputs in
- * the keys' units, outputs (undefined when status != SL_OK), status and reason
+ * the keys' units, outputs (n_outputs key outputs then n_extra extras;
+ * undefined when status != SL_OK), status and reason
  * ("" when ok).  Returning non-SL_OK stops the run with that status. */
 typedef int (*sl_ens_row_fn)(void *sink, size_t member, const double *inputs,
                              const double *outputs, int status, const char *reason, sl_err *e);
@@ -291,5 +296,35 @@ void sl_ens_progress_update(sl_ens_progress *pg, size_t done);
 
 /* Finish the line (newline) if the bar was drawn. */
 void sl_ens_progress_end(sl_ens_progress *pg);
+
+/* ------------------------------------------------------------ binned percentiles */
+
+/* Percentiles of many per-member series (a profile per band, a time
+ * series per output time) in memory that does not grow with the member
+ * count: each series keeps counts in log-spaced bins (PER_DECADE bins per
+ * decade from 10^LO_LOG10 to 10^HI_LOG10), a count of exact zeros, of values
+ * below and above, and its minimum and maximum.  A percentile is the
+ * geometric centre of the bin holding the order statistic of rank
+ * floor((n - 1) p / 100) (the type-7 position of Hyndman & Fan 1996, without
+ * the interpolation), clamped to [min, max]: exact for zeros and at the
+ * extremes, otherwise within half a bin (10^(0.5/PER_DECADE) - 1, 1.2 % for
+ * 100 per decade).  Counts are integers, so the result does not depend on the
+ * order the values came in (threads, ranks).  Non-finite values are skipped. */
+typedef struct sl_ens_hist {
+    size_t n_series, n_bins;
+    double lo_log10, per_decade;
+    uint32_t *count;     /* n_series x (n_bins + 3): zero, below, bins..., above */
+    double *vmin, *vmax; /* n_series */
+    size_t *n;           /* finite values per series */
+} sl_ens_hist;
+
+/* Errors: SL_EUSAGE for a bad bin layout, SL_ENOMEM. */
+int sl_ens_hist_init(sl_ens_hist *h, size_t n_series, double lo_log10, double hi_log10, double per_decade,
+                     sl_err *e);
+/* Add VALUES[0..n_series-1], one value to each series. */
+void sl_ens_hist_add(sl_ens_hist *h, const double *values);
+/* Percentile P (0..100) of series K; NAN when it has no value. */
+double sl_ens_hist_percentile(const sl_ens_hist *h, size_t k, double p);
+void sl_ens_hist_free(sl_ens_hist *h);
 
 #endif

@@ -37,6 +37,11 @@ typedef struct sl_injection {
     double latitude_deg;       /* where the cloud sits (event latitude) */
     double time_s;             /* time after the event the profile refers to */
     double cloud_area_m2;      /* horizontal area of the young cloud (0 if unknown) */
+    /* Where and when (carried through files so that `decay` on a run file
+     * starts where the run started): */
+    double longitude_deg;      /* event longitude, degrees east; NaN unknown */
+    double event_time_s;       /* event time, s since 1970-01-01 UTC; NaN unknown (nominal) */
+    int month;                 /* event month 1-12; 0 unknown (annual-mean conditions) */
 } sl_injection;
 
 /* Allocate bands from N_EDGES edges (strictly increasing); masses zero. */
@@ -68,6 +73,8 @@ typedef struct sl_young_cloud {
     double bottom_m, top_m;    /* the layer (bottom <= top; equal for a thin sheet) */
     double air_kg;             /* dry air in the cloud */
     double water_kg;           /* all its water: vapour, liquid and ice */
+    double peak_m;             /* where its mass is densest (a triangular profile from bottom to top
+                                * with its mode here); outside [bottom, top] or NaN: uniform */
 } sl_young_cloud;
 
 /* What the freeze-out did with a cloud's water (kg).  water_kg of the cloud =
@@ -80,7 +87,8 @@ typedef struct sl_freeze_out {
 } sl_freeze_out;
 
 /* Freeze-out in the young cloud, then add its water to INJ.  The cloud's air
- * and water are spread uniformly in altitude over its layer; in each band the
+ * and water are spread in altitude over its layer, uniformly or with the
+ * triangular profile peaked at peak_m; in each band the
  * cloud takes the ambient temperature and pressure of ATM at the middle of the
  * overlap, keeps vapour up to ice saturation, and turns the rest into ice, of
  * which SEDIMENT_FRACTION (0 to 1) falls out.  The band gets the vapour in

@@ -10,8 +10,16 @@
  *     check happens when the name is added (early, before any work) and
  *     again atomically at the rename (renameat2 RENAME_NOREPLACE, falling
  *     back to link(2)+unlink(2) on file systems without it);
+ *   - only a regular file (or nothing) at an output path is ever replaced,
+ *     with or without FORCE: a symbolic link, FIFO, device, socket or
+ *     directory there fails with SL_ECANTCREAT (exit 73), when the name is
+ *     added and again at the rename;
  *   - a missing or unwritable destination fails with SL_ECANTCREAT (exit 73)
  *     naming the path;
+ *   - the stage folder is ".steamloft-stage-HOST-PID-XXXXXX"; SIGINT, SIGTERM
+ *     and SIGHUP remove it (sl_outset_handle_signals), and one left by a
+ *     killed run is removed by the next set begun in that directory on the
+ *     same host once process PID is gone;
  *   - after any failure, and after sl_outset_abort(), nothing of the set is
  *     left behind: no staging directory, no partial file, and no file of the
  *     set that was already moved (those are removed again; with FORCE a
@@ -73,6 +81,12 @@ int sl_outset_fopen(sl_outset *set, const char *name, FILE **fp, sl_err *e);
  * failure. */
 int sl_outset_fclose(sl_outset *set, const char *name, FILE *fp, sl_err *e);
 
+/* add() NAME and write its whole content DATA (LEN bytes) with plain
+ * write(2) and fsync; a failure is SL_EIO with the true cause (no space left
+ * on device, disk quota exceeded) and leaves no staged file. */
+int sl_outset_write_file(sl_outset *set, const char *name, const void *data, size_t len,
+                         sl_err *e);
+
 /* Take NAME out of the set again (its staged file, if written, is deleted).
  * For outputs that turn out not to be produced (plots without gnuplot).
  * Unknown names are ignored.  Stage paths handed out for names added after
@@ -89,5 +103,11 @@ int sl_outset_commit(sl_outset *set, sl_err *e);
 
 /* Remove everything staged; safe on a zeroed, committed or aborted set. */
 void sl_outset_abort(sl_outset *set);
+
+/* Install handlers for SIGINT, SIGTERM and SIGHUP (main() calls it once):
+ * they remove the stage folders of every set begun and not yet committed or
+ * aborted, and exit with status 128 + the signal number.  A signal the
+ * parent ignores stays ignored. */
+int sl_outset_handle_signals(sl_err *e);
 
 #endif

@@ -6,7 +6,7 @@
  *   vapor_mass_content (altitude)                    standard_name
  *       mass_content_of_water_vapor_in_atmosphere_layer, kg m-2, averaged over the Earth
  *   cloud_vapor_mass_content (altitude), cloud_area  the same over the young cloud (area known)
- *   total_vapor_mass, total_ice_mass, tropopause_altitude, stratospheric_water_mass,
+ *   total_vapor_mass, total_ice_mass, tropopause_altitude, stratospheric_water,
  *       latitude, injection_time (scalars)
  *   atm_altitude(atm_altitude) with air_temperature, air_pressure, air_density,
  *       h2o_mole_fraction (mole_fraction_of_water_vapor_in_air), buoyancy_frequency_squared,
@@ -62,5 +62,15 @@ int sl_output_nc_parse_format(const char *text, sl_nc_format *fmt, sl_err *e);
  * view).  On any error PATH is untouched and no temporary file remains. */
 int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_options *opt,
                        sl_err *e);
+
+/* For the other netCDF writers of the output layer (the ensemble file,
+ * output_ensemble.c), so every netCDF message has one form: a netCDF-C
+ * STATUS other than NC_NOERR becomes SL_EIO "writing 'PATH': WHAT 'NAME' of
+ * VARIABLE: nc_strerror"; NC_NOERR gives SL_OK. */
+int sl_output_nc_check(int status, int ncid, int varid, const char *path, const char *what, const char *name,
+                       sl_err *e);
+/* A text attribute (NC_CHAR, so netCDF-3 readers work), checked as above;
+ * TEXT NULL writes nothing. */
+int sl_output_nc_att_text(int ncid, int varid, const char *path, const char *name, const char *text, sl_err *e);
 
 #endif

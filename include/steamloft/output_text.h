@@ -83,8 +83,9 @@ typedef struct sl_key_results {
     const char *regime;          /* regime: "thermal" or "blow-out" */
     double energy_J;             /* energy_J: kinetic energy at entry, or the explosion's */
     double energy_at_sea_J;      /* energy_at_sea_J */
-    double strat_injected_kg;    /* strat_injected_kg: water (vapour + ice) above the tropopause */
-    double strat_vapor_kg;       /* stratospheric_water_kg: of it, vapour */
+    double strat_injected_kg;    /* strat_injected_kg: water entering the box model (the same tropopause) */
+    double strat_water_kg;       /* stratospheric_water_kg: plume stage, vapour + ice above the tropopause */
+    double strat_vapor_kg;       /* stratospheric_vapor_kg: of it, vapour */
     double strat_ice_kg;         /* stratospheric_ice_kg: of it, ice */
     double background_burden_kg; /* background_burden_kg: background water above ~100 hPa */
     double percent_of_background; /* percent_of_background: peak excess / background */

@@ -7,9 +7,12 @@
  * entrainment velocity alpha*w through the surface of a sphere, moist
  * thermodynamics (vapour, liquid, ice in equilibrium; the entrained air brings
  * its humidity; latent heats of the water module) and fallout of condensate.
- * The apex is found by event detection (root of w(t)).  The young cloud fills
+ * The apex is found by event detection (root of w(t)).  The young cloud spans
  * the layer from the neutral-buoyancy level to the highest reach of the
- * thermal's top (apex + radius), the umbrella layer of Sparks (1986).
+ * thermal's top (apex + radius), the umbrella layer of Sparks (1986), its mass
+ * densest at the neutral level and thinning to the top (triangular profile).
+ * Releases wider than the scale height are partly or wholly ballistic
+ * (sl_plume_regime; plume.c "Ballistic regime").
  * Several sources rise on their own; their water adds up in the injection
  * profile, after freeze-out (sl_injection_add_cloud).  The equations, units
  * and references are in the header comment of src/plume.c.
@@ -25,6 +28,36 @@
 #include "steamloft/err.h"
 #include "steamloft/injection.h"
 #include "steamloft/source.h"
+
+/* The one water budget of an event, in the order it is told.  X(name, sign,
+ * label): the field is name_kg (sl_plume), the JSON key name_kg, the netCDF
+ * and CSV scalar name (in kg), the ensemble column name_Tg.  SIGN says how a line adds up: "+" adds to the running
+ * total, "-" takes from it, "=" is the total so far (a check: the lines
+ * above it add up to it to rounding, tests/test_plume.c).
+ *
+ *   water_source_kg        + what the sources carry into the plume stage:
+ *                            sea water vaporised (partition's water_vaporized_kg),
+ *                            liquid thrown up with it, the body's own water
+ *   water_background_kg    + background water (the air's humidity) entrained during the rise
+ *   water_fallout_kg       - fallen out during the rise: spray collapse and condensate
+ *   water_rising_kg        = in the clouds at the end of the rise (apex, or re-entry)
+ *   water_sedimented_kg    - frozen at cloud level and sedimented out
+ *   water_air_humidity_kg  - the cloud air's own humidity at its new level (no excess)
+ *   water_troposphere_kg   - excess left below the tropopause (water_below_bands_kg of it
+ *                            below the lowest band)
+ *   stratospheric_water_kg = excess above the tropopause: stratospheric_vapor_kg +
+ *                            stratospheric_ice_kg; all of it enters the box model
+ *                            (strat_injected_kg, the same tropopause)
+ */
+#define SL_WATER_BUDGET_LINES(X)                                                                             \
+    X(water_source, '+', "water the sources carry")                                                       \
+    X(water_background, '+', "background water entrained")                                   \
+    X(water_fallout, '-', "fallen out during the rise")                                                   \
+    X(water_rising, '=', "in the clouds after the rise")                                                  \
+    X(water_sedimented, '-', "frozen and sedimented")                                                     \
+    X(water_air_humidity, '-', "cloud air's own humidity")                                    \
+    X(water_troposphere, '-', "excess left below the tropopause")                                         \
+    X(stratospheric_water, '=', "above the tropopause")
 
 /* Parameters (scenario section [plume]); defaults from sl_plume_params_default. */
 typedef struct sl_plume_params {
@@ -44,11 +77,13 @@ int sl_plume_params_check(const sl_plume_params *par, sl_err *e);
 
 typedef enum sl_plume_regime {
     SL_REGIME_THERMAL = 0, /* buoyant thermal: the model applies */
-    SL_REGIME_BLOWOUT = 1  /* fireball larger than the scale height, or the thermal left the
-                            * atmosphere profile: water placed by the blow-out rule */
+    SL_REGIME_BLOWOUT = 1, /* release larger than the scale height (part thermal, part ballistic,
+                            * weighted by ballistic_fraction) */
+    SL_REGIME_BALLISTIC = 2 /* release several scale heights across, or a thermal that left the
+                             * atmosphere: flies above it and re-enters over a wide area */
 } sl_plume_regime;
 
-/* "thermal" or "blow-out". */
+/* "thermal", "blow-out" or "ballistic". */
 const char *sl_plume_regime_name(int regime);
 
 /* The rise of one source. */
@@ -71,6 +106,12 @@ typedef struct sl_thermal {
     double air_kg;                 /* dry air in the thermal at the apex */
     double vapor_kg, liquid_kg, ice_kg; /* water at the apex */
     double max_speed_m_s;
+    /* Ballistic part (plume.c, "Ballistic regime"): share of the water it carries (0 thermal, 1
+     * ballistic), launch speed from the gas's specific energy, apogee of the mass-mean (45 degree)
+     * path, re-entry range from the source, the layer the re-entering water is stopped in. */
+    double ballistic_fraction;
+    double launch_speed_m_s, apogee_m, reentry_range_m;
+    double reentry_bottom_m, reentry_top_m;
     /* Budgets, integrated with the state (all in J or kg). */
     double water_initial_kg, water_entrained_kg, water_fallout_kg, water_final_kg;
     double energy_initial_J, energy_entrained_J, energy_fallout_J, energy_final_J;
@@ -86,19 +127,20 @@ typedef struct sl_plume {
     size_t n_thermals;
     sl_thermal th[SL_MAX_SOURCES];
     /* Whole event (all sources). */
-    int regime;                    /* SL_REGIME_BLOWOUT when any source is */
+    int regime;                    /* the highest regime of its sources */
     double plume_top_m;            /* highest thermal top */
     double cloud_bottom_m, cloud_top_m; /* envelope of the clouds */
     double neutral_altitude_m;     /* of the source carrying the most water to its apex */
-    double tropopause_altitude_m;  /* of the atmosphere used */
-    double water_lofted_kg;        /* water in all clouds before freeze-out */
-    double fallout_kg;             /* condensate that fell out during the rise */
-    double frozen_out_kg;          /* ice formed at cloud level that sedimented out */
-    double background_kg;          /* background vapour carried by the cloud air (not injection) */
-    double below_bands_kg;         /* cloud water below the lowest band, left out of the profile;
-                                    * water_lofted = bands + frozen_out + background + below_bands */
-    double stratospheric_water_kg; /* injected vapour above the tropopause */
-    double stratospheric_ice_kg;   /* ice remaining above the tropopause */
+    double tropopause_altitude_m;  /* of the atmosphere used: the one tropopause of the plume stage
+                                    * and of the box model's injection (strat.c) */
+    /* The water budget (kg); the lines and their meaning are SL_WATER_BUDGET_LINES. */
+#define SL_WATER_BUDGET_FIELD(name, sign, label) double name##_kg;
+    SL_WATER_BUDGET_LINES(SL_WATER_BUDGET_FIELD)
+#undef SL_WATER_BUDGET_FIELD
+    double stratospheric_vapor_kg; /* of stratospheric_water_kg: vapour */
+    double stratospheric_ice_kg;   /* of stratospheric_water_kg: ice */
+    double water_below_bands_kg;   /* of water_troposphere_kg: below the lowest band, left out of the
+                                    * injection profile */
 } sl_plume;
 
 /* Set parameters and allocate the ODE workspace.  PL must be zeroed.
@@ -119,7 +161,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
 /* Rise every source of SRC, place each cloud, apply the freeze-out and add the
  * water into INJ (which must have bands; its masses are cleared first, its
  * tropopause set from ATM), and fill the event totals.  A cloud's share
- * below the lowest band is left out (below_bands_kg); a cloud reaching above
+ * below the lowest band is left out (water_below_bands_kg); a cloud reaching above
  * the top band is pressed into it.  Allocates nothing. */
 int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list *src, sl_injection *inj, sl_err *e);
 

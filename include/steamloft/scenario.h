@@ -103,9 +103,11 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u, SL_PF_DATE 
     X(EXPLOSION_ALTITUDE, "explosion", "altitude_m", SL_PT_REAL, "m", 0.0, 0.0, 80000.0, 0u, NULL, \
       "height of the burst above sea level (0 = at the surface)")                                   \
     X(EXPLOSION_HEAT, "explosion", "heat_fraction", SL_PT_REAL, "1", 0.4, 0.05, 1.0, 0u, NULL,     \
-      "fraction of the energy left as buoyant heat in the fireball (0.4: between the 35% thermal "  \
-      "radiation and the 50% blast of Glasstone & Dolan 1977; checked on cloud heights: the plume " \
-      "stage then gives the 1.69 Mt surface-burst cloud within 5% and the 15 Mt top 13% low)")    \
+      "largest fraction of the energy left as buoyant heat in the fireball; the heat is that of "   \
+      "the air in the fireball at its maximum size at 3000 K, at most this fraction (0.4: "         \
+      "between the 35% thermal radiation and the 50% blast of Glasstone & Dolan 1977; with it the " \
+      "1.69 Mt surface-burst cloud is within 5% and the 15 Mt top 13% low, 0.55 puts the first "   \
+      "13% high)")                                                                                  \
     X(SITE_LATITUDE, "site", "latitude_deg", SL_PT_REAL, "deg", SL_NODEFAULT, -90.0, 90.0,         \
       SL_PF_REQUIRED, NULL, "latitude of the impact or burst point")                                \
     X(SITE_LONGITUDE, "site", "longitude_deg", SL_PT_REAL, "deg", 0.0, -180.0, 360.0, 0u, NULL,    \
@@ -189,8 +191,8 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u, SL_PF_DATE 
     X(PARTITION_HEAT_FRACTION, "partition", "plume_heat_fraction", SL_PT_REAL, "1", 0.1, 0.0, 1.0, \
       0u, NULL, "both methods: fraction of the energy at the sea left as sensible heat in the plume") \
     X(PARTITION_AIRBURST_HEAT, "partition", "air_heat_fraction", SL_PT_REAL, "1", 0.4, 0.05, 1.0,  \
-      0u, NULL, "fraction of the energy deposited in the air left as buoyant heat (as for "          \
-      "[explosion] heat_fraction)")                                                                 \
+      0u, NULL, "largest fraction of the energy deposited in the air left as buoyant heat (the "     \
+      "rule of [explosion] heat_fraction)")                                                         \
     X(PARTITION_IMPACTOR_HUGONIOT, "partition", "impactor_material", SL_PT_CHOICE, "", 0.0, 0.0,    \
       0.0, 0u, "auto|basalt|granite|iron|ice",                                                       \
       "shock method: linear Hugoniot of the impactor (auto: iron above 5000 kg/m3, else basalt)")  \

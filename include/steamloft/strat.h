@@ -40,6 +40,9 @@ enum {
     SL_STRAT_N_REGIONS = 3
 };
 
+/* Rows of the linear response per output time (sl_strat_response). */
+enum { SL_STRAT_RESPONSE_ROWS = 6 };
+
 /* Fixed layer edges above the bottom layer, km (boundary unit, converted once). */
 #define SL_STRAT_EDGES_KM {16.0, 20.0, 25.0, 30.0, 35.0, 40.0, 50.0, 60.0, 70.0, 85.0, 100.0}
 enum { SL_STRAT_N_FIXED_EDGES = 11, SL_STRAT_MAX_LAYERS = SL_STRAT_N_FIXED_EDGES,
@@ -189,9 +192,13 @@ typedef struct sl_strat_result {
     double forcing_indicator_W_m2;      /* peak */
     double fraction_remaining_1y, fraction_remaining_3y;
     double budget_max_rel_error;        /* max over times of |injected - remaining - sinks| / injected */
+    int has_detail;                     /* 1: box_excess_kg, sink_kg and layer_anomaly_mole_fraction
+                                           are filled; 0 after sl_strat_run_linear took its short
+                                           path (only the global series and the scalars are) */
     /* Workspace (private). */
     size_t n_run;
     double *work;
+    double *linear;                     /* n_run x SL_STRAT_RESPONSE_ROWS (sl_strat_run_linear) */
 } sl_strat_result;
 
 /* Allocate RESULT for model M (once; reusable for many runs). */
@@ -212,6 +219,36 @@ int sl_strat_run(const sl_strat_model *m, const sl_injection *inj, sl_strat_resu
 /* Run from given box masses BOX_KG[n_boxes] at t = 0 (no young cloud, no
  * freeze-out; for restarts and for checks against analytic solutions). */
 int sl_strat_run_boxes(const sl_strat_model *m, const double *box_kg, sl_strat_result *r, sl_err *e);
+
+/* The linear response of the model (see sl_strat_run_linear): built once per
+ * model (about n_boxes direct runs), read-only afterwards, shareable between
+ * threads. */
+typedef struct sl_strat_response {
+    size_t n_boxes, n_run, n_steps;
+    sl_strat_params par;  /* of the model it was built for */
+    double *rows;         /* [n_boxes][n_run][SL_STRAT_RESPONSE_ROWS]: excess, forcing, excess
+                             per region, total mass, per unit mass in each box */
+    double *clip;         /* [n_steps][n_boxes]: tropical bottom box after each internal step */
+    double *clip_max;     /* [n_boxes]: the largest of those (and of t = 0) per box */
+} sl_strat_response;
+
+/* Build RS for model M.  SL_ENOMEM. */
+int sl_strat_response_init(sl_strat_response *rs, const sl_strat_model *m, sl_err *e);
+/* Release RS; safe on a zeroed struct. */
+void sl_strat_response_free(sl_strat_response *rs);
+
+/* sl_strat_run by superposition: between the cold-point clips the box model
+ * is linear in the state at t = 0, so each global series at output time i is
+ * a row of RS times that state (seven dot products of n_boxes per output
+ * time instead of an n_aug x n_boxes product per internal step).  When the
+ * clip would act at some step (the member's tropical bottom box predicted
+ * above its room) or nothing entered, it runs the direct integration
+ * instead, so the results equal sl_strat_run's to rounding (a test checks
+ * 1e-9 relative) in every case.  After the short path r->has_detail is 0:
+ * box_excess_kg, sink_kg and layer_anomaly_mole_fraction are not filled.
+ * Errors as sl_strat_run; SL_EINTERNAL when RS was built for another model. */
+int sl_strat_run_linear(const sl_strat_model *m, const sl_strat_response *rs, const sl_injection *inj,
+                        sl_strat_result *r, sl_err *e);
 
 /* Calibration of the three free transport constants (deep_branch_fraction,
  * inmixing_time_s, kzz_m2_s) against the published

@@ -111,7 +111,7 @@ if [ $? -eq 0 ]; then sl_ok "mean, sd, percentiles and exceedance match numpy ($
 # on the CSV (ranks with ties averaged, as scipy.stats.spearmanr does: MEM) to
 # 1e-9 (the JSON has 10 digits; the CSV holds the exact doubles).
 (cd "$SL_TMP/t1" && "$SL_BIN" ensemble ../ens.ini -n 300 --seed 11 --json -p 1,99 \
-  --exceed 'strat_water_Tg>=1' >summary.json 2>/dev/null)
+  --exceed 'stratospheric_water_Tg>=1' >summary.json 2>/dev/null)
 $PY - "$SL_TMP/t1/m.csv" "$SL_TMP/t1/summary.json" <<'EOF' >"$SL_TMP/py.txt" 2>&1
 import csv, json, sys
 import numpy as np
@@ -140,7 +140,7 @@ for name, o in js["outputs"].items():
         w = np.corrcoef(ranks(x), ranks(y))[0, 1]
         assert abs(rho - w) <= 1e-9, (name, key, rho, w); n += 1
 ex = js["exceedance"][0]
-y = np.array([float(r["strat_water_Tg"]) for r in rows])
+y = np.array([float(r["stratospheric_water_Tg"]) for r in rows])
 assert ex["op"] == ">=" and abs(ex["probability"] - np.mean(y >= 1)) <= 1e-9
 # First-order variance shares: present for every input, inside [-0.1, 1],
 # and the diameter explains most of the energy's variance (E ~ D^3).
@@ -158,13 +158,15 @@ EOF
 if [ $? -eq 0 ]; then sl_ok "--json percentiles and Spearman match numpy ($(cat "$SL_TMP/py.txt"))"; else
   sl_fail "--json vs numpy"; sed 's/^/#   /' "$SL_TMP/py.txt" | tail -3; fi
 
-# netCDF: the member dimension holds every member; failed ones carry _FillValue.
+# netCDF: the realization dimension (CF standard name) holds every member, fixed
+# size; failed ones carry _FillValue.
 $PY - "$SL_TMP/t1/m.nc" "$SL_TMP/t1/m.csv" <<'EOF' >"$SL_TMP/py.txt" 2>&1
 import csv, sys
 import netCDF4, numpy as np
 ds = netCDF4.Dataset(sys.argv[1])
 rows = list(csv.DictReader(open(sys.argv[2])))
-assert len(ds.dimensions["member"]) == len(rows)
+assert len(ds.dimensions["realization"]) == len(rows) and not ds.dimensions["realization"].isunlimited()
+assert ds["realization"].standard_name == "realization"
 st = ds["status"][:]
 e = ds["energy_Mt"][:]
 for i, r in enumerate(rows):
@@ -264,7 +266,7 @@ assert W[-1] > 10 * W[k], W
 # must not loft less).  Regression (2026-12-01): the former
 # blow-out rule made it fall by six orders of magnitude where the sea plume's
 # fireball outgrew the scale height.
-S = [float(r["strat_water_Tg"]) for r in rows]
+S = [float(r["stratospheric_water_Tg"]) for r in rows]
 imp = list(range(k, len(d)))
 assert len(imp) >= 4, imp
 assert any(rows[i]["sea_plume_blowout"] == "1" for i in imp), "no blown-out member in the sweep"
@@ -366,6 +368,71 @@ sl_expect_exit 73 "existing output without --force" "$SL_BIN" ensemble "$SL_TMP/
 sl_expect_exit 0 "existing output with --force" "$SL_BIN" --force ensemble "$SL_TMP/ens.ini" -n 5 -o "$SL_TMP/t2/s12.csv"
 sl_expect_exit 73 "output directory missing" "$SL_BIN" ensemble "$SL_TMP/ens.ini" -n 5 -o "$SL_TMP/nodir/m.csv"
 sl_expect_exit 66 "missing scenario" "$SL_BIN" ensemble "$SL_TMP/none.ini"
+
+# ---- -o chooses the format by the file's extension; a mismatch is refused.
+(cd "$SL_TMP/t1" && "$SL_BIN" ensemble ../ens.ini -n 300 --seed 11 -o byext.nc >/dev/null 2>&1)
+if $PY -c "import netCDF4,sys; d=netCDF4.Dataset(sys.argv[1]); assert len(d.dimensions['realization'])==300" \
+    "$SL_TMP/t1/byext.nc" 2>/dev/null; then sl_ok "-o FILE.nc writes netCDF"; else sl_fail "-o FILE.nc is not netCDF"; fi
+sl_expect_exit 64 "-o with an unknown extension" "$SL_BIN" ensemble "$SL_TMP/ens.ini" -n 10 -o "$SL_TMP/x.txt"
+sl_expect_grep "$SL_TMP/err" "give FILE.csv (or - for standard output) or FILE.nc" "the message names the formats"
+if [ -e "$SL_TMP/x.txt" ]; then sl_fail "x.txt was created"; else sl_ok "no file for a refused -o"; fi
+sl_expect_exit 64 "--netcdf with a CSV name" "$SL_BIN" ensemble "$SL_TMP/ens.ini" -n 10 --netcdf "$SL_TMP/x.csv"
+sl_expect_exit 64 "two netCDF files" "$SL_BIN" ensemble "$SL_TMP/ens.ini" -n 10 --netcdf "$SL_TMP/a.nc" -o "$SL_TMP/b.nc"
+
+# ---- a summary that cannot be written is an error (exit 74), in JSON and text.
+sl_expect_exit 74 "--json summary to a full device" sh -c "'$SL_BIN' ensemble '$SL_TMP/ens.ini' -n 10 --json >/dev/full"
+sl_expect_exit 74 "text summary to a full device" sh -c "'$SL_BIN' ensemble '$SL_TMP/ens.ini' -n 10 >/dev/full"
+
+# ---- members drawn outside a key's range are counted per key, with the
+# truncation used; the count equals the failed members whose reason names
+# the key's range, and the netCDF's binned profile percentiles agree with
+# numpy's order statistics (method 'lower') within the documented 1.2 %.
+(cd "$SL_TMP/t1" && "$SL_BIN" ensemble ../ens.ini -n 300 --seed 11 --json >oor.json 2>/dev/null)
+(cd "$SL_TMP/t1" && "$SL_BIN" ensemble ../ens.ini -n 300 --seed 11 >oor.txt 2>/dev/null)
+$PY - "$SL_TMP/t1/m.csv" "$SL_TMP/t1/oor.json" "$SL_TMP/t1/m.nc" <<'EOF' >"$SL_TMP/py.txt" 2>&1
+import csv, json, sys
+import netCDF4, numpy as np
+rows = list(csv.DictReader(open(sys.argv[1])))
+js = json.load(open(sys.argv[2]))
+sp = [i for i in js["inputs"] if i["key"] == "impactor.speed_km_s"][0]
+lo = float(sp["valid_range"].split()[0])
+n_out = sum(1 for r in rows if float(r["impactor.speed_km_s"]) < lo)
+assert n_out > 0, "this seed draws no slow member"
+assert sp["members_out_of_range"] == n_out, (sp, n_out)
+assert sum(1 for r in rows if "speed_km_s" in r["reason"] and "out of range" in r["reason"]) == n_out
+assert sp["truncation"].startswith("rejected")
+ds = netCDF4.Dataset(sys.argv[3])
+prof = ds["lofted_water_mass"][:]
+ok = ds["status"][:] == 0
+pct = list(ds["percentile"][:])
+pp = ds["lofted_water_mass_percentile"][:]
+for q, p in enumerate(pct):
+    for b in range(prof.shape[1]):
+        col = np.asarray(prof[ok, b], dtype=float)
+        want = np.percentile(col, p, method="lower")
+        got = float(pp[q, b])
+        assert (want == 0 and got == 0) or abs(got - want) <= 0.0125 * want, (p, b, got, want)
+rem = ds["remaining_fraction_percentile"][:]
+assert rem.shape[0] == len(pct) and abs(float(rem[0, 0]) - 1.0) < 1e-12, rem[:, 0]
+assert np.all(np.diff(np.asarray(rem[pct.index(50)], dtype=float)) <= 1e-12), "median fraction grows"
+print(n_out, "members out of range;", prof.shape[1], "bands")
+EOF
+if [ $? -eq 0 ]; then sl_ok "out-of-range members counted; binned percentiles match numpy ($(cat "$SL_TMP/py.txt"))"; else
+  sl_fail "out-of-range count / profile percentiles"; sed 's/^/#   /' "$SL_TMP/py.txt" | tail -3; fi
+sl_expect_grep "$SL_TMP/t1/oor.txt" "drew values outside the valid range 11 to 73 km/s; truncation: rejected" \
+  "the text summary reports the out-of-range members"
+
+# ---- --plot DIR: the ensemble band plots carry the caution.
+if command -v gnuplot >/dev/null 2>&1; then
+  (cd "$SL_TMP/t1" && "$SL_BIN" ensemble ../ens.ini -n 100 --seed 11 --plot plots >/dev/null 2>plot.err)
+  for f in ensemble_profile ensemble_remaining; do
+    if [ -s "$SL_TMP/t1/plots/$f.svg" ] && grep -q "Screening estimate" "$SL_TMP/t1/plots/$f.svg" && \
+       [ -s "$SL_TMP/t1/plots/$f.png" ]; then sl_ok "--plot: $f.svg has the caution"; else
+      sl_fail "--plot: $f.svg missing or without the caution"; sed 's/^/#   /' "$SL_TMP/t1/plot.err" | head -3; fi
+  done
+else
+  sl_skip "gnuplot not installed: the ensemble plots are not rendered"
+fi
 
 # ---- MPI: `make MPI=1` in its own build directory; 2 ranks give the same file.
 if command -v mpirun >/dev/null 2>&1 && command -v mpicc >/dev/null 2>&1; then

@@ -33,7 +33,7 @@ att . Conventions CF-1.11
 att . scenario_decay_source $PROF
 att altitude axis Z
 att altitude positive up
-att vapor_mass_content standard_name mass_content_of_water_vapor_in_atmosphere_layer
+att buoyancy_frequency_squared standard_name square_of_brunt_vaisala_frequency_in_air
 att time calendar standard
 has excess_water_mass
 has removed_troposphere
@@ -190,7 +190,7 @@ with netCDF4.Dataset(sys.argv[1]) as ds:
             print("mismatch", name, got, want); bad += 1
     close("sum vapor_mass", float(np.sum(ds.variables["vapor_mass"][:])), j["injected_vapor_kg"])
     close("sum ice_mass", float(np.sum(ds.variables["ice_mass"][:])), j["injected_ice_kg"])
-    close("stratospheric_vapor", float(ds.variables["stratospheric_vapor"][...]), j["stratospheric_water_kg"])
+    close("stratospheric_vapor", float(ds.variables["stratospheric_vapor"][...]), j["stratospheric_vapor_kg"])
     close("event_energy", float(ds.variables["event_energy"][...]), j["energy_J"])
     close("water_vaporized", float(ds.variables["water_vaporized"][...]), j["water_vaporized_kg"])
     # The box model of the same run (10 digits in the JSON; years of 365.25 d).

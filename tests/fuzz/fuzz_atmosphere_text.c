@@ -1,11 +1,8 @@
 /* libFuzzer harness for the text atmosphere-profile reader
  * (src/atmosphere_file.c).  Each input is written to a private temporary
  * file and read as a profile; any crash, sanitizer report or leak is a bug,
- * a clean SL_EDATA is the expected answer to garbage.  Build and run:
- *   clang -g -O1 -fsanitize=fuzzer,address,undefined -D_GNU_SOURCE -Iinclude -Isrc \
- *     tests/fuzz/fuzz_atmosphere_text.c $(ls src/*.c | grep -v main.c) \
- *     -lgsl -lgslcblas -lnetcdf -lm -o build/fuzz_atmosphere_text
- *   build/fuzz_atmosphere_text -max_total_time=60 atmospheres/ */
+ * a clean SL_EDATA is the expected answer to garbage.  `make fuzz` builds
+ * and runs it. */
 #include "atmosphere_internal.h"
 
 #include <stdint.h>

@@ -1,11 +1,8 @@
 /* libFuzzer harness for the scenario parser (src/scenario.c): each input is
  * parsed as a scenario file and, when it is valid, its provenance listed and
  * one value set by name.  Any crash, sanitizer report or leak is a bug; a
- * clean SL_ECONFIG or SL_EDATA is the expected answer to garbage.  Build and run:
- *   clang -g -O1 -fsanitize=fuzzer,address,undefined -D_GNU_SOURCE -Iinclude \
- *     tests/fuzz/fuzz_scenario.c src/scenario.c src/units.c src/err.c \
- *     $(pkg-config --libs inih gsl) -lm -o build/fuzz_scenario
- *   build/fuzz_scenario -max_total_time=60 examples/ */
+ * clean SL_ECONFIG or SL_EDATA is the expected answer to garbage.  `make fuzz`
+ * builds and runs it. */
 #include "steamloft/scenario.h"
 
 #include <stdint.h>
