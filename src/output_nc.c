@@ -36,6 +36,8 @@
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
+#include <errno.h>
+#include <sys/statvfs.h>
 
 enum { MAX_PUT = 96 };
 
@@ -85,20 +87,40 @@ static const char *var_label(const ncw *w, int varid, char *buf)
     return buf;
 }
 
+/* The message of netCDF status STATUS for a file at PATH.  The libraries
+ * report a full disk under other names (HDF5 failures come back as
+ * "Permission denied" or "HDF error"); when the file system holding PATH
+ * has no free block left, that is said first. */
+static const char *nc_cause(const char *path, int status, char *buf, size_t n)
+{
+    char dir[SL_OUTSET_PATH_LEN];
+    const char *slash = path ? strrchr(path, '/') : NULL;
+    snprintf(dir, sizeof dir, "%.*s", slash ? (int)(slash - path) : 1, slash ? path : ".");
+    if (slash == path)
+        strcpy(dir, "/");
+    struct statvfs vfs;
+    if (statvfs(dir, &vfs) == 0 && vfs.f_bavail == 0) {
+        snprintf(buf, n, "%s (the netCDF library said: %s)", strerror(ENOSPC), nc_strerror(status));
+        return buf;
+    }
+    return nc_strerror(status);
+}
+
 /* "writing 'out.nc': attribute 'units' of altitude: NetCDF: ..." */
-static int nc_fail(const ncw *w, int varid, const char *what, const char *name, int status,
+static int nc_fail(const ncw *w, int varid, const char *what, const char *name, int status_in,
                    sl_err *e, int line)
 {
-    char vn[NC_MAX_NAME + 1];
+    char vn[NC_MAX_NAME + 1], cause[256];
     const char *label = var_label(w, varid, vn);
+    const char *status = nc_cause(w->path, status_in, cause, sizeof cause);
     if (name && name[0] && varid == NC_GLOBAL)
         return sl_err_set(e, SL_EIO, "sl_output_nc_write", line, "writing '%s': %s '%s': %s",
-                          w->path, what, name, nc_strerror(status));
+                          w->path, what, name, status);
     if (name && name[0])
         return sl_err_set(e, SL_EIO, "sl_output_nc_write", line, "writing '%s': %s '%s' of %s: %s",
-                          w->path, what, name, label, nc_strerror(status));
+                          w->path, what, name, label, status);
     return sl_err_set(e, SL_EIO, "sl_output_nc_write", line, "writing '%s': %s %s: %s", w->path,
-                      what, label, nc_strerror(status));
+                      what, label, status);
 }
 
 static int queue(ncw *w, int varid, const double *data, sl_err *e)

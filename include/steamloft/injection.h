@@ -7,8 +7,12 @@
  * netCDF files by their magic number, everything else is read as CSV):
  *
  * CSV: '#' starts a comment line; comment lines of the form "# key = value"
- * set metadata: tropopause_altitude_m|_km, latitude_deg, time_s|_days,
- * cloud_area_m2.  The first other line is a header naming the columns, each
+ * with KEY one word of letters, digits and '_' set metadata:
+ * tropopause_altitude_m|_km, latitude_deg, time_s|_days, cloud_area_m2 (such
+ * a word that is not one of these is refused as a likely typo; any other
+ * comment, an '=' in prose included, is ignored).  The text rules of
+ * include/steamloft/infile.h apply (16 MiB, BOM and CRLF accepted, decimal
+ * numbers only, 4096 characters of content per line).  The first other line is a header naming the columns, each
  * with its unit suffix: bottom_m|bottom_km, top_m|top_km, vapor_kg|vapor_Tg
  * (mass_kg|mass_Tg are read as vapour) and optionally ice_kg|ice_Tg, in any
  * order.  Then one row per band, bottom to top, contiguous (each bottom equal
