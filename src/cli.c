@@ -204,6 +204,29 @@ int sl_cli_scenario_load(const char *path, const sl_cli_sets *s, sl_scenario *sc
     return sl_scenario_finish(sc, e);
 }
 
+/* A command that printed its answer onto a full disk or a closed pipe has
+ * not succeeded, whatever it returned: exit 74 with the cause.  When an
+ * earlier buffered write failed its errno is gone; one more byte written
+ * and flushed finds the cause again (the output is incomplete anyway). */
+static int stdout_status(const sl_cli_globals *g, const char *cmd, int rc)
+{
+    if (rc != EX_OK)
+        return rc;
+    errno = 0;
+    if (fflush(stdout) == 0 && !ferror(stdout))
+        return rc;
+    int err = errno;
+    if (err == 0) {
+        clearerr(stdout);
+        errno = 0;
+        if (fputc('\n', stdout) == EOF || fflush(stdout) != 0)
+            err = errno;
+    }
+    fprintf(stderr, "%s%s%s: error: writing standard output: %s\n", g->prog, cmd ? " " : "",
+            cmd ? cmd : "", strerror(err ? err : EIO));
+    return EX_IOERR;
+}
+
 int sl_cli_parse_double(const char *text, const char *what, double *out, sl_err *e)
 {
     double v;
@@ -211,6 +234,27 @@ int sl_cli_parse_double(const char *text, const char *what, double *out, sl_err 
         SL_FAIL_RETURN(e, SL_EUSAGE, "%s: '%s' is not a finite number (decimal only, e.g. 250, 1.5e3)",
                        what, text);
     *out = v;
+    return SL_OK;
+}
+
+int sl_cli_between_m(const char *bottom_text, const char *top_text, double max_top_m,
+                     double *bottom_m, double *top_m, sl_err *e)
+{
+    double b = NAN, t = NAN;
+    SL_TRY_RETURN(e, sl_cli_parse_double(bottom_text, "--between BOTTOM_M", &b, e));
+    SL_TRY_RETURN(e, sl_cli_parse_double(top_text, "--between TOP_M", &t, e));
+    /* A layer that ends at or below 120 m cannot reach the stratosphere:
+     * such values are kilometres written where metres are wanted. */
+    if (t > b && b >= 0.0 && t <= 120.0)
+        SL_FAIL_RETURN(e, SL_EUSAGE,
+                       "--between %g %g: the altitudes are in metres and these look like "
+                       "kilometres; for %g to %g km write --between %g %g",
+                       b, t, b, t, b * 1000.0, t * 1000.0);
+    if (!(b >= 0.0 && t > b && t <= max_top_m))
+        SL_FAIL_RETURN(e, SL_EUSAGE, "--between %g %g: need 0 <= BOTTOM_M < TOP_M <= %g m", b, t,
+                       max_top_m);
+    *bottom_m = b;
+    *top_m = t;
     return SL_OK;
 }
 
@@ -274,11 +318,18 @@ int sl_cli_main(int argc, char **argv)
         case 'v': g.verbosity = g.verbosity < 0 ? 1 : g.verbosity + 1; break;
         case 'q': g.verbosity = -1; break;
         case 'f': g.force = 1; break;
-        case 'h': print_help(stdout); return EX_OK;
+        case 'h': print_help(stdout); return stdout_status(&g, NULL, EX_OK);
         case 'V':
             printf("%s\n", sl_cli_version());
+            /* Which build this is, so a serial and an MPI binary cannot be
+             * mixed up (files written by either are the same byte for byte). */
+#ifdef SL_HAVE_MPI
+            printf("Build: MPI (make MPI=1): ensemble members are split over the ranks of mpirun.\n");
+#else
+            printf("Build: serial (without MPI; 'make MPI=1' builds build-mpi/steamloft).\n");
+#endif
             printf("Copyright (C) 2026 the steamloft developers. License GPL-3.0-or-later.\n");
-            return EX_OK;
+            return stdout_status(&g, NULL, EX_OK);
         default:
             if (optopt)
                 return sl_cli_usage_error(&g, NULL, "unknown option '-%c'", optopt);
@@ -310,7 +361,7 @@ int sl_cli_main(int argc, char **argv)
             opterr = 0; /* one message per mistake: sl_cli_option_error */
             int rc = commands[i].fn(n, sub, &g);
             free(sub);
-            return rc;
+            return stdout_status(&g, name, rc);
         }
     }
     return sl_cli_usage_error(&g, NULL, "unknown command '%s'", name);
