@@ -1044,13 +1044,16 @@ static int add_layer(sl_plume *pl, sl_injection *inj, const sl_atmosphere *atm, 
     if (ct <= band_lo)
         keep = 0.0;
     else if (cb < band_lo) {
-        double u = band_lo - cb;
         if (!tent)
             keep = (ct - band_lo) / (ct - cb);
-        else if (band_lo <= peak)
-            keep = 1.0 - u * u / ((ct - cb) * (peak - cb));
-        else
-            keep = (ct - band_lo) * (ct - band_lo) / ((ct - cb) * (ct - peak));
+        else {
+            /* The umbrella's mass share above the lowest band (placement by mass). */
+            sl_young_cloud whole = {cb, ct, 0.0, 0.0, peak};
+            double w_all, w_in;
+            SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, &whole, cb, ct, &w_all, e));
+            SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, &whole, band_lo, ct, &w_in, e));
+            keep = w_all > 0.0 ? w_in / w_all : 0.0;
+        }
     }
     pl->water_below_bands_kg += water * (1.0 - keep);
     if (keep == 0.0)
