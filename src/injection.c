@@ -16,7 +16,9 @@
  *
  * Freeze-out (sl_injection_add_cloud).  A young cloud left by a plume is a
  * layer of cloud air (dry mass A) carrying water W (all phases), spread
- * uniformly in altitude over its layer.  In each band it is taken at the
+ * uniformly in altitude over its layer or, for a plume's umbrella, by mass:
+ * a triangular volume profile peaked at the neutral level times the ambient
+ * density (sl_injection_umbrella_weight).  In each band it is taken at the
  * ambient temperature and pressure there (the cloud has come to rest near its
  * neutral level).  It can hold vapour up to ice saturation,
  *   r_ice = eps e_ice(T) / (p - e_ice(T))  (kg per kg of dry air; Murphy & Koop 2005
