@@ -26,7 +26,7 @@ BUILD_PKGS="gcc libc6-dev make pkg-config libgsl-dev libnetcdf-dev libinih-dev"
 PLOT_PKGS="gnuplot-nox"
 # The tests add these.  To add test packages, append them to this line (or add
 # a line TEST_PKGS="$TEST_PKGS ...").
-TEST_PKGS="check netcdf-bin python3 python3-numpy python3-netcdf4 python3-iapws man-db"
+TEST_PKGS="check netcdf-bin python3 python3-numpy python3-netcdf4 python3-iapws man-db nco python3-xarray python3-dask"
 MPI_PKGS="libopenmpi-dev openmpi-bin"
 CDO_PKGS="cdo"
 FUZZ_PKGS="clang libclang-rt-14-dev"

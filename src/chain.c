@@ -162,6 +162,13 @@ static int stage_plume(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     }
     SL_TRY_RETURN(e, sl_plume_solve(&ch->plume, &ch->atmosphere, &ch->partition.sources, &ch->injection, e));
     ch->injection.latitude_deg = sl_rad_to_deg(sl_scenario_value(sc, SL_P_SITE_LATITUDE));
+    {   /* where and when, carried into the files (emission.h: the [site] keys) */
+        sl_emission_params ep;
+        sl_emission_params_from_scenario(&ep, sc);
+        ch->injection.longitude_deg = sl_rad_to_deg(sl_scenario_value(sc, SL_P_SITE_LONGITUDE));
+        ch->injection.event_time_s = ep.event_time_s;
+        ch->injection.month = ep.month;
+    }
     return SL_OK;
 }
 

@@ -204,6 +204,29 @@ int sl_cli_scenario_load(const char *path, const sl_cli_sets *s, sl_scenario *sc
     return sl_scenario_finish(sc, e);
 }
 
+/* A command that printed its answer onto a full disk or a closed pipe has
+ * not succeeded, whatever it returned: exit 74 with the cause.  When an
+ * earlier buffered write failed its errno is gone; one more byte written
+ * and flushed finds the cause again (the output is incomplete anyway). */
+static int stdout_status(const sl_cli_globals *g, const char *cmd, int rc)
+{
+    if (rc != EX_OK)
+        return rc;
+    errno = 0;
+    if (fflush(stdout) == 0 && !ferror(stdout))
+        return rc;
+    int err = errno;
+    if (err == 0) {
+        clearerr(stdout);
+        errno = 0;
+        if (fputc('\n', stdout) == EOF || fflush(stdout) != 0)
+            err = errno;
+    }
+    fprintf(stderr, "%s%s%s: error: writing standard output: %s\n", g->prog, cmd ? " " : "",
+            cmd ? cmd : "", strerror(err ? err : EIO));
+    return EX_IOERR;
+}
+
 int sl_cli_parse_double(const char *text, const char *what, double *out, sl_err *e)
 {
     double v;
@@ -274,11 +297,11 @@ int sl_cli_main(int argc, char **argv)
         case 'v': g.verbosity = g.verbosity < 0 ? 1 : g.verbosity + 1; break;
         case 'q': g.verbosity = -1; break;
         case 'f': g.force = 1; break;
-        case 'h': print_help(stdout); return EX_OK;
+        case 'h': print_help(stdout); return stdout_status(&g, NULL, EX_OK);
         case 'V':
             printf("%s\n", sl_cli_version());
             printf("Copyright (C) 2026 the steamloft developers. License GPL-3.0-or-later.\n");
-            return EX_OK;
+            return stdout_status(&g, NULL, EX_OK);
         default:
             if (optopt)
                 return sl_cli_usage_error(&g, NULL, "unknown option '-%c'", optopt);
@@ -310,7 +333,7 @@ int sl_cli_main(int argc, char **argv)
             opterr = 0; /* one message per mistake: sl_cli_option_error */
             int rc = commands[i].fn(n, sub, &g);
             free(sub);
-            return rc;
+            return stdout_status(&g, name, rc);
         }
     }
     return sl_cli_usage_error(&g, NULL, "unknown command '%s'", name);

@@ -162,7 +162,7 @@ static int parse_opts(int argc, char **argv, const sl_cli_globals *g, decay_opts
         case O_INJECT:
             /* Upper end: about the mass of all the air above 100 hPa (a tenth of
              * the atmosphere's 5.1e18 kg; common practice, no source). */
-            rc = number_opt(g, "--inject", 0.0, HUGE_VAL, &o->inject_kg, &o->have_inject);
+            rc = number_opt(g, "--inject", -HUGE_VAL, HUGE_VAL, &o->inject_kg, &o->have_inject);
             if (rc == EX_OK && (!(o->inject_kg > 0.0) || o->inject_kg > 5.0e17))
                 return sl_cli_usage_error(g, "decay", "--inject %s: valid range above 0 to 5e17 kg", optarg);
             break;
@@ -231,12 +231,15 @@ static int load_keys(const decay_opts *o, sl_scenario *sc, sl_err *e)
 }
 
 /* The profile, or the single layer, into the chain's injection. */
-static int load_injection(const decay_opts *o, const sl_scenario *sc, sl_injection *inj, char *source, size_t n,
+static int load_injection(const decay_opts *o, sl_scenario *sc, sl_injection *inj, char *source, size_t n,
                           sl_err *e)
 {
     if (o->profile) {
         snprintf(source, n, "%s", o->profile);
         SL_TRY_RETURN(e, sl_injection_read(inj, o->profile, e));
+        /* A run file carries its event month: decay then reproduces the run. */
+        if (inj->month >= 1 && sc->origin[SL_P_SITE_MONTH] <= SL_ORIGIN_DEFAULT)
+            SL_TRY_RETURN(e, sl_scenario_set_id(sc, SL_P_SITE_MONTH, inj->month, e));
     } else {
         snprintf(source, n, "single layer %.6g kg at %.6g-%.6g m", o->inject_kg, o->bottom_m, o->top_m);
         SL_TRY_RETURN(e, sl_injection_init_bands(inj, (double[]){o->bottom_m, o->top_m}, 2, e));

@@ -49,7 +49,7 @@ static void print_help(const char *cmd)
                "  choice(v1, v2, ...)     one of the values, equally likely\n"
                "  flux_angle(lo, hi)      impact angle of an isotropic flux, dP = sin 2θ dθ\n"
                "                          (Shoemaker 1962), truncated to [lo, hi] degrees\n"
-               "  -n, --members N         members (default 1000)\n"
+               "  -n, --members N         members, 1 to 10000000 (default 1000)\n"
                "  -s, --seed S            base seed (default 1); member m is seeded from (S, m)\n"
                "      --sobol             Sobol quasi-random points instead of Monte Carlo\n"
                "                          (1 to 40 uncertain inputs)\n");

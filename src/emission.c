@@ -2,6 +2,7 @@
  * include/steamloft/emission.h).  Geometry only; the masses are the
  * injection stage's. */
 #include "steamloft/emission.h"
+#include "steamloft/infile.h"
 
 #include "steamloft/units.h"
 
@@ -181,6 +182,7 @@ static int coord_edges(int ncid, int varid, const double *x, size_t n, double lo
 
 static int grid_read(sl_emission_grid *g, const char *path, sl_err *e)
 {
+    SL_TRY_RETURN(e, sl_infile_nc_precheck(path, e));
     int ncid, st = nc_open(path, NC_NOWRITE, &ncid);
     if (st != NC_NOERR)
         SL_FAIL_RETURN(e, st == ENOENT ? SL_ENOINPUT : SL_EDATA,

@@ -115,12 +115,19 @@ static int build_plan(const sl_ens_request *c, sl_scenario *sc, sl_ens_plan *p, 
     for (int id = 0; id < SL_P_COUNT; id++) {
         int line = 0;
         const char *raw = sl_scenario_raw(sc, (sl_param_id)id, &line);
-        if (raw == NULL || !sl_dist_is_distribution(raw))
+        /* A misspelled law ("unifrom(1, 2)") is parsed too, so that the
+         * message names it rather than saying there is nothing uncertain. */
+        if (raw == NULL || !(sl_dist_is_distribution(raw) || sl_dist_looks_like_law(raw)))
             continue;
         const sl_param_def *def = &sl_scenario_params[id];
         char where[SL_SCENARIO_PATH_LEN + 128], key[SL_ENS_KEY_LEN];
         snprintf(where, sizeof where, "%s:%d: [%s] %s", sc->path, line, def->section, def->key);
         snprintf(key, sizeof key, "%s.%s", def->section, def->key);
+        if (!sl_dist_is_distribution(raw)) {
+            sl_dist bad;
+            SL_TRY_RETURN(e, sl_dist_parse(raw, def->key, where, &bad, e));
+            sl_dist_free(&bad);
+        }
         if (c->sweep)
             SL_FAIL_RETURN(e, SL_EUSAGE,
                            "%s is a distribution (%s); a sweep needs fixed values: use "

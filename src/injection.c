@@ -40,6 +40,8 @@
  * huge water excess of an impact plume the crystals grow large and fall, f_s
  * towards 1.  It is a leading uncertainty and meant to be varied in ensembles. */
 #include "steamloft/injection.h"
+
+#include "steamloft/date.h"
 #include "steamloft/infile.h"
 #include "steamloft/units_table.h"
 #include "steamloft/water.h"
@@ -61,6 +63,9 @@ static void set_empty_meta(sl_injection *inj)
     inj->latitude_deg = 0.0;
     inj->time_s = 0.0;
     inj->cloud_area_m2 = 0.0;
+    inj->longitude_deg = NAN;
+    inj->event_time_s = NAN;
+    inj->month = 0;
 }
 
 int sl_injection_init_bands(sl_injection *inj, const double *edges_m, size_t n_edges, sl_err *e)
@@ -446,6 +451,9 @@ static int rows_to_injection(const rows *r, const sl_injection *meta, sl_injecti
     inj->latitude_deg = meta->latitude_deg;
     inj->time_s = meta->time_s;
     inj->cloud_area_m2 = meta->cloud_area_m2;
+    inj->longitude_deg = meta->longitude_deg;
+    inj->event_time_s = meta->event_time_s;
+    inj->month = meta->month;
     return SL_OK;
 }
 
@@ -765,6 +773,36 @@ static int nc_scalar(int ncid, const char *path, const char *name, const char *c
     return SL_OK;
 }
 
+/* Optional global attributes of steamloft's own files: event_month (1-12)
+ * and, unless event_time_is_nominal says "yes", event_time (ISO 8601 UTC). */
+static int nc_event_meta(int ncid, const char *path, sl_injection *meta, sl_err *e)
+{
+    size_t len = 0;
+    int month = 0;
+    if (nc_inq_attlen(ncid, NC_GLOBAL, "event_month", &len) == NC_NOERR) {
+        if (len != 1 || nc_get_att_int(ncid, NC_GLOBAL, "event_month", &month) != NC_NOERR || month < 0 || month > 12)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: global attribute event_month: need one integer 0-12", path);
+        meta->month = month;
+    }
+    char text[64], nominal[8] = "";
+    if (nc_inq_attlen(ncid, NC_GLOBAL, "event_time_is_nominal", &len) == NC_NOERR && len < sizeof nominal &&
+        nc_get_att_text(ncid, NC_GLOBAL, "event_time_is_nominal", nominal) == NC_NOERR)
+        nominal[len] = '\0';
+    if (strcmp(nominal, "no") == 0 && nc_inq_attlen(ncid, NC_GLOBAL, "event_time", &len) == NC_NOERR) {
+        double t;
+        if (len >= sizeof text || nc_get_att_text(ncid, NC_GLOBAL, "event_time", text) != NC_NOERR ||
+            (text[len] = '\0', sl_date_parse(text, &t)) != 0)
+            SL_FAIL_RETURN(e, SL_EDATA, "%s: global attribute event_time: not %s", path, SL_DATE_FORMS);
+        meta->event_time_s = t;
+        if (meta->month == 0) {
+            sl_date_fields f;
+            sl_date_split(t, &f);
+            meta->month = f.month;
+        }
+    }
+    return SL_OK;
+}
+
 /* Mass variable NAME(altitude) in kg or Tg into OUT (n values). */
 static int nc_mass(int ncid, int dimid, size_t n, const char *path, const char *name, int required, double *out, sl_err *e)
 {
@@ -916,6 +954,11 @@ static int read_netcdf(const char *path, sl_injection *inj, sl_err *e)
             rc = nc_scalar(ncid, path, "cloud_area", area_u, area_f, 0.0, 1.0e15, &meta.cloud_area_m2, e);
         if (rc == SL_OK)
             rc = nc_scalar(ncid, path, "time", t_u, t_f, 0.0, 1.0e10, &meta.time_s, e);
+        static const char *const lon_u[] = {"degrees_east", "degree_east", "degrees", NULL};
+        if (rc == SL_OK)
+            rc = nc_scalar(ncid, path, "longitude", lon_u, lat_f, -360.0, 720.0, &meta.longitude_deg, e);
+        if (rc == SL_OK)
+            rc = nc_event_meta(ncid, path, &meta, e);
         if (rc != SL_OK)
             goto done;
     }

@@ -169,7 +169,7 @@ static int def_coord(int ncid, const char *name, int dim, int nv, const char *un
     char b[64];
     snprintf(b, sizeof b, "%s_bnds", name);
     int dims[2] = {dim, nv}, st;
-    if ((st = nc_def_var(ncid, name, NC_DOUBLE, 1, &dim, vid)) != NC_NOERR ||
+    if ((st = nc_def_var(ncid, name, NC_DOUBLE, dim < 0 ? 0 : 1, &dim, vid)) != NC_NOERR ||
         (st = att_text(ncid, *vid, "units", units)) != NC_NOERR ||
         (std && (st = att_text(ncid, *vid, "standard_name", std)) != NC_NOERR) ||
         (st = att_text(ncid, *vid, "axis", axis)) != NC_NOERR)
@@ -190,6 +190,15 @@ int sl_model_inputs_emission_write(const sl_model_inputs *mi, const char *path,
     SL_TRY_RETURN(e, sl_emission_profile_build(&pr, mi->inj, model_top_m, e));
     if (above_top_kg)
         *above_top_kg = pr.above_top_kg;
+    if (pr.n == 0) {
+        /* No water above the tropopause (or below the model top): one empty 1-km layer
+         * above the tropopause, so that the file exists with zero rates (a netCDF
+         * dimension of length 0 would be a second unlimited one). */
+        double z0 = isfinite(mi->inj->tropopause_altitude_m) ? mi->inj->tropopause_altitude_m
+                    : mi->inj->n_bands > 0 ? mi->inj->band_bottom_m[0] : 0.0;
+        pr.layer[0] = (sl_emission_layer){z0, z0 + 1000.0, 0.0, 0.0};
+        pr.n = 1;
+    }
     const size_t nc = g->nlat * g->nlon, nz = pr.n;
     double *w = malloc(nc * sizeof *w);
     float *slab = malloc(nc * sizeof *slab);
@@ -275,6 +284,10 @@ int sl_model_inputs_emission_write(const sl_model_inputs *mi, const char *path,
     NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "title", mi->title ? mi->title : "steamloft emission"));
     NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "comment", sl_cli_caution()));
     NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "source", sl_cli_version()));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "history", "written by steamloft run --emission"));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "references",
+                                      "docs/physics.md section 10 of the steamloft sources (footprint, "
+                                      "rates, records)"));
     NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "scenario_digest", mi->digest));
     NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "event_time", when));
     NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "event_time_is_nominal", mi->date_given ? "no" : "yes"));
@@ -415,5 +428,156 @@ int sl_model_inputs_forcing_write(const sl_model_inputs *mi, const char *path, i
     else
         sl_outset_abort(set);
     free(set);
+    return rc;
+}
+
+/* ---- the zonal-mean anomaly field ------------------------------------------- */
+
+int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model *m,
+                                const char *path, int force, sl_err *e)
+{
+    const sl_strat_result *r = mi->strat;
+    if (r == NULL || m == NULL || r->n_times < 1)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "--zonal: the run has no box-model time series");
+    const size_t nt = r->n_times, nl = m->n_layers, nr = SL_STRAT_N_REGIONS, nb = m->n_boxes;
+    const double fill = NC_FILL_DOUBLE;
+    double *buf = malloc(nt * nl * nr * sizeof *buf);
+    double *cb = malloc(nl * nr * sizeof *cb), *ct = malloc(nl * nr * sizeof *ct);
+    sl_outset *set = calloc(1, sizeof *set);
+    int rc = SL_OK;
+    ncw W = {-1, path}, *wp = &W;
+    if (!buf || !cb || !ct || !set) {
+        rc = SL_ENOMEM;
+        sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "out of memory (zonal file)");
+        goto done;
+    }
+    const char *stage = NULL;
+    rc = sl_outset_begin_file(set, path, force, &stage, e);
+    if (rc != SL_OK)
+        goto done;
+    NC_TRY(wp, "create", nc_create(stage, NC_NETCDF4 | NC_CLASSIC_MODEL, &W.ncid));
+    int d_t, d_z, d_y, d_nv, v_t, v_z, v_zb, v_y, v_yb, v_x, v_xb, v_bb, v_bt, v_q, v_m;
+    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "time", NC_UNLIMITED, &d_t));
+    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "altitude", nl, &d_z));
+    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "lat", nr, &d_y));
+    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "nv", 2, &d_nv));
+    char tunits[64], when[32];
+    sl_date_format(mi->event_time_s, when, sizeof when);
+    sl_date_fields f0;
+    sl_date_split(mi->event_time_s, &f0);
+    snprintf(tunits, sizeof tunits, "days since %04d-%02d-%02d %02d:%02d:%02d", f0.year, f0.month,
+             f0.day, f0.hour, f0.minute, f0.second);
+    NC_TRY(wp, "time", def_coord(W.ncid, "time", d_t, d_nv, tunits, "time", "T", &v_t, NULL));
+    NC_TRY(wp, "time", att_text(W.ncid, v_t, "calendar", "standard"));
+    NC_TRY(wp, "altitude", def_coord(W.ncid, "altitude", d_z, d_nv, "m", "altitude", "Z", &v_z, &v_zb));
+    NC_TRY(wp, "altitude", att_text(W.ncid, v_z, "positive", "up"));
+    NC_TRY(wp, "altitude", att_text(W.ncid, v_z, "long_name",
+                                    "box-model layer (nominal bounds; each region's boxes in box_bottom/box_top)"));
+    NC_TRY(wp, "lat", def_coord(W.ncid, "lat", d_y, d_nv, "degrees_north", "latitude", "Y", &v_y, &v_yb));
+    NC_TRY(wp, "lat", att_text(W.ncid, v_y, "long_name", "centre of the latitude region"));
+    NC_TRY(wp, "lon", def_coord(W.ncid, "lon", -1, d_nv, "degrees_east", "longitude", "X", &v_x, NULL));
+    NC_TRY(wp, "lon", nc_def_var(W.ncid, "lon_bnds", NC_DOUBLE, 1, &d_nv, &v_xb));
+    NC_TRY(wp, "lon", att_text(W.ncid, v_x, "bounds", "lon_bnds"));
+    NC_TRY(wp, "lon", att_text(W.ncid, v_x, "long_name", "all longitudes (zonal means)"));
+    int d2[2] = {d_y, d_z}, d3[3] = {d_t, d_z, d_y};
+    const char *bn[2] = {"box_bottom", "box_top"};
+    int *bv[2] = {&v_bb, &v_bt};
+    for (int k = 0; k < 2; k++) {
+        NC_TRY(wp, bn[k], nc_def_var(W.ncid, bn[k], NC_DOUBLE, 2, d2, bv[k]));
+        NC_TRY(wp, bn[k], nc_def_var_fill(W.ncid, *bv[k], 0, &fill));
+        NC_TRY(wp, bn[k], att_text(W.ncid, *bv[k], "units", "m"));
+        NC_TRY(wp, bn[k], att_text(W.ncid, *bv[k], "long_name",
+                                   k ? "top of the box of this region and layer"
+                                     : "bottom of the box of this region and layer (the lowest box "
+                                       "of a region starts at the region's tropopause)"));
+    }
+    size_t chunk[3] = {nt, nl, nr};
+    NC_TRY(wp, "mole_fraction_anomaly", nc_def_var(W.ncid, "mole_fraction_anomaly", NC_DOUBLE, 3, d3, &v_q));
+    NC_TRY(wp, "mass_per_area", nc_def_var(W.ncid, "mass_per_area", NC_DOUBLE, 3, d3, &v_m));
+    int vq[2] = {v_q, v_m};
+    const char *qu[2] = {"mol mol-1", "kg m-2"};
+    const char *ql[2] = {"excess water vapour mole fraction over background, mean over the box",
+                         "excess water in the box per unit area of its latitude region"};
+    for (int k = 0; k < 2; k++) {
+        NC_TRY(wp, "field", nc_def_var_chunking(W.ncid, vq[k], NC_CHUNKED, chunk));
+        NC_TRY(wp, "field", nc_def_var_fill(W.ncid, vq[k], 0, &fill));
+        NC_TRY(wp, "field", att_text(W.ncid, vq[k], "units", qu[k]));
+        NC_TRY(wp, "field", att_text(W.ncid, vq[k], "long_name", ql[k]));
+        NC_TRY(wp, "field", att_text(W.ncid, vq[k], "cell_methods",
+                                     k ? "time: point altitude: sum area: mean"
+                                       : "time: point altitude: mean area: mean"));
+        NC_TRY(wp, "field", att_text(W.ncid, vq[k], "coordinates", "lon"));
+        NC_TRY(wp, "field", att_text(W.ncid, vq[k], "comment",
+                                     "_FillValue where the region has no box in the layer (below its "
+                                     "tropopause); an anomaly over the background, not the total"));
+    }
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "Conventions", "CF-1.11"));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "title", mi->title ? mi->title : "steamloft zonal anomaly"));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "comment", sl_cli_caution()));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "source", sl_cli_version()));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "history", "written by steamloft run --zonal"));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "references",
+                                      "docs/physics.md sections 8 and 10 of the steamloft sources"));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "scenario_digest", mi->digest));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "event_time", when));
+    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "event_time_is_nominal", mi->date_given ? "no" : "yes"));
+    NC_TRY(wp, "enddef", nc_enddef(W.ncid));
+
+    for (size_t t = 0; t < nt; t++)
+        buf[t] = r->time_s[t] / SL_S_PER_DAY;
+    size_t st1 = 0, cn1 = nt;
+    NC_TRY(wp, "time", nc_put_vara_double(W.ncid, v_t, &st1, &cn1, buf));
+    double zc[SL_STRAT_MAX_LAYERS], zb[2 * SL_STRAT_MAX_LAYERS], lowest = INFINITY;
+    for (size_t b = 0; b < nb; b++)
+        if (m->box_layer[b] == 0)
+            lowest = fmin(lowest, m->box_bottom_m[b]);
+    for (size_t l = 0; l < nl; l++) {
+        zb[2 * l] = l > 0 ? m->layer_top_m[l - 1] : lowest;
+        zb[2 * l + 1] = m->layer_top_m[l];
+        zc[l] = 0.5 * (zb[2 * l] + zb[2 * l + 1]);
+    }
+    NC_TRY(wp, "altitude", nc_put_var_double(W.ncid, v_z, zc));
+    NC_TRY(wp, "altitude_bnds", nc_put_var_double(W.ncid, v_zb, zb));
+    const double edge = m->par.tropics_edge_deg;
+    double yb[6] = {-90.0, -edge, -edge, edge, edge, 90.0}, yc[3] = {0.5 * (-90.0 - edge), 0.0, 0.5 * (90.0 + edge)};
+    double xc = 180.0, xb[2] = {0.0, 360.0};
+    NC_TRY(wp, "lat", nc_put_var_double(W.ncid, v_y, yc));
+    NC_TRY(wp, "lat_bnds", nc_put_var_double(W.ncid, v_yb, yb));
+    NC_TRY(wp, "lon", nc_put_var_double(W.ncid, v_x, &xc));
+    NC_TRY(wp, "lon_bnds", nc_put_var_double(W.ncid, v_xb, xb));
+    for (size_t reg = 0; reg < nr; reg++)
+        for (size_t l = 0; l < nl; l++) {
+            int b = m->box_of[reg][l];
+            cb[reg * nl + l] = b >= 0 ? m->box_bottom_m[b] : fill;
+            ct[reg * nl + l] = b >= 0 ? m->box_top_m[b] : fill;
+        }
+    NC_TRY(wp, "box_bottom", nc_put_var_double(W.ncid, v_bb, cb));
+    NC_TRY(wp, "box_top", nc_put_var_double(W.ncid, v_bt, ct));
+    const double eps = SL_MOLAR_MASS_H2O_KG_MOL / SL_MOLAR_MASS_DRY_AIR_KG_MOL;
+    size_t st3[3] = {0, 0, 0}, cn3[3] = {nt, nl, nr};
+    for (int k = 0; k < 2; k++) {
+        for (size_t t = 0; t < nt; t++)
+            for (size_t l = 0; l < nl; l++)
+                for (size_t reg = 0; reg < nr; reg++) {
+                    int b = m->box_of[reg][l];
+                    double x = b >= 0 ? r->box_excess_kg[t * nb + (size_t)b] : fill;
+                    if (b >= 0)
+                        x = k ? x / m->region_area_m2[reg] : x / (eps * m->box_air_kg[b]);
+                    buf[(t * nl + l) * nr + reg] = x;
+                }
+        NC_TRY(wp, "field", nc_put_vara_double(W.ncid, vq[k], st3, cn3, buf));
+    }
+    NC_TRY(wp, "close", nc_close(W.ncid));
+    W.ncid = -1;
+    rc = sl_outset_commit(set, e);
+done:
+    if (W.ncid >= 0)
+        nc_close(W.ncid);
+    if (rc != SL_OK && set)
+        sl_outset_abort(set);
+    free(set);
+    free(buf);
+    free(cb);
+    free(ct);
     return rc;
 }

@@ -25,7 +25,7 @@ void sl_model_inputs_request_init(sl_model_inputs_request *rq)
 
 int sl_model_inputs_request_is_option(int c)
 {
-    return c >= SL_MIOPT_TABLE && c <= SL_MIOPT_FORCING;
+    return c >= SL_MIOPT_TABLE && c <= SL_MIOPT_ZONAL;
 }
 
 static int ends_with(const char *s, const char *suffix)
@@ -75,6 +75,11 @@ int sl_model_inputs_request_option(sl_model_inputs_request *rq, int c, const cha
             SL_FAIL_RETURN(e, SL_EUSAGE, "--forcing-series %s: the name must end in .csv", arg);
         rq->forcing_path = arg;
         return SL_OK;
+    case SL_MIOPT_ZONAL:
+        if (!ends_with(arg, ".nc"))
+            SL_FAIL_RETURN(e, SL_EUSAGE, "--zonal %s: the name must end in .nc", arg);
+        rq->zonal_path = arg;
+        return SL_OK;
     default:
         SL_FAIL_RETURN(e, SL_EINTERNAL, "option code %d is not a model-input option", c);
     }
@@ -82,7 +87,7 @@ int sl_model_inputs_request_option(sl_model_inputs_request *rq, int c, const cha
 
 int sl_model_inputs_request_any(const sl_model_inputs_request *rq)
 {
-    return rq->table_path || rq->emission_path || rq->forcing_path;
+    return rq->table_path || rq->emission_path || rq->forcing_path || rq->zonal_path;
 }
 
 static int preflight_file(const char *path, int force, sl_err *e)
@@ -101,8 +106,8 @@ int sl_model_inputs_request_preflight(const sl_model_inputs_request *rq, int for
     if (rq->emission_path == NULL && (rq->grid_spec || rq->convention_given || rq->model_top_given))
         SL_FAIL_RETURN(e, SL_EUSAGE,
                        "--grid, --emission-convention and --model-top-km apply to --emission FILE.nc");
-    const char *paths[3] = {rq->table_path, rq->emission_path, rq->forcing_path};
-    for (int i = 0; i < 3; i++)
+    const char *paths[4] = {rq->table_path, rq->emission_path, rq->forcing_path, rq->zonal_path};
+    for (int i = 0; i < 4; i++)
         for (int j = 0; j < i; j++)
             if (paths[i] && paths[j] && strcmp(paths[i], paths[j]) == 0)
                 SL_FAIL_RETURN(e, SL_EUSAGE, "%s: named for two outputs", paths[i]);
@@ -111,7 +116,7 @@ int sl_model_inputs_request_preflight(const sl_model_inputs_request *rq, int for
         SL_TRY_RETURN(e, sl_emission_grid_init(&g, rq->grid_spec ? rq->grid_spec : "180x360", e));
         sl_emission_grid_free(&g);
     }
-    for (int i = 0; i < 3; i++)
+    for (int i = 0; i < 4; i++)
         if (paths[i])
             SL_TRY_RETURN(e, preflight_file(paths[i], force, e));
     return SL_OK;
@@ -173,7 +178,7 @@ int sl_model_inputs_request_write(const sl_model_inputs_request *rq, const sl_ch
         free(text);
     }
     int force = g ? g->force : 0, quiet = g && g->verbosity < 0, rc = SL_OK;
-    int done_table = 0, done_emission = 0;
+    int done_table = 0, done_emission = 0, done_forcing = 0;
     if (rq->table_path) {
         rc = sl_model_inputs_table_write(&mi, rq->table_path, force, e);
         done_table = rc == SL_OK;
@@ -192,9 +197,16 @@ int sl_model_inputs_request_write(const sl_model_inputs_request *rq, const sl_ch
                     g && g->prog ? g->prog : "steamloft", above * 1e-9, rq->model_top_m / 1e3,
                     rq->emission_path);
     }
-    if (rc == SL_OK && rq->forcing_path)
+    if (rc == SL_OK && rq->forcing_path) {
         rc = sl_model_inputs_forcing_write(&mi, rq->forcing_path, force, e);
+        done_forcing = rc == SL_OK;
+    }
+    if (rc == SL_OK && rq->zonal_path)
+        rc = sl_model_inputs_zonal_write(&mi, ch->have_strat_model ? &ch->strat_model : NULL,
+                                         rq->zonal_path, force, e);
     if (rc != SL_OK && !force) {
+        if (done_forcing)
+            (void)unlink(rq->forcing_path);
         if (done_table)
             (void)unlink(rq->table_path);
         if (done_emission)

@@ -1,10 +1,11 @@
 /* output_chain: the writers' view of a chain run (see
  * include/steamloft/output_chain.h).  No physics: the numbers are the
- * stages' own results, in SI, copied by name; the event date is nominal
- * (2000-MM-01, MM the scenario's month or January) because scenarios give a
- * month, not a date. */
+ * stages' own results, in SI, copied by name; the event date is the
+ * scenario's [site] date, else nominal (2000-MM-01, MM the scenario's month
+ * or January). */
 #include "steamloft/output_chain.h"
 
+#include "steamloft/date.h"
 #include "steamloft/units.h"
 
 #include <math.h>
@@ -105,6 +106,12 @@ int sl_output_chain_init(sl_output_chain *oc, const sl_chain *ch, const sl_strat
     int month = (int)lround(sc->value_si[SL_P_SITE_MONTH]);
     snprintf(oc->event_time, sizeof oc->event_time, "2000-%02d-01 00:00:00",
              month >= 1 && month <= 12 ? month : 1);
+    if (isfinite(ch->injection.event_time_s)) { /* a [site] date: the real time */
+        sl_date_fields f;
+        sl_date_split(ch->injection.event_time_s, &f);
+        snprintf(oc->event_time, sizeof oc->event_time, "%04d-%02d-%02d %02d:%02d:%02d", f.year,
+                 f.month, f.day, f.hour, f.minute, f.second);
+    }
     char name[200];
     sl_scenario_name(sc, name, sizeof name); /* the [scenario] name, else the file's base name */
     snprintf(oc->title, sizeof oc->title, "%s (%s)", name,

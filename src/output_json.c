@@ -1,6 +1,7 @@
 /* output_json: the one JSON writer (see include/steamloft/json.h). */
 #include "steamloft/json.h"
 
+#include <errno.h>
 #include <math.h>
 #include <string.h>
 
@@ -159,8 +160,9 @@ int sl_json_end(sl_json *j, sl_err *e)
     while (j->depth > 0)
         close_container(j, j->array[j->depth]);
     fputs(j->count[0] > 0 ? "\n}\n" : "}\n", j->out);
+    errno = 0;
     if (fflush(j->out) != 0 || ferror(j->out))
-        SL_FAIL_RETURN(e, SL_EIO, "cannot write the JSON output: %s", "write error");
+        SL_FAIL_RETURN(e, SL_EIO, "cannot write the JSON output: %s", strerror(errno ? errno : EIO));
     if (j->misuse)
         SL_FAIL_RETURN(e, SL_EINTERNAL, "JSON writer: containers opened and closed out of order");
     return SL_OK;

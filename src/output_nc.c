@@ -36,6 +36,8 @@
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
+#include <errno.h>
+#include <sys/statvfs.h>
 
 enum { MAX_PUT = 96 };
 
@@ -51,6 +53,9 @@ typedef struct ncw {
     } put[MAX_PUT];
     size_t n_owned;
     double *owned[MAX_PUT];
+    int profile_ids[3];  /* vapor_mass, ice_mass, vapor_mass_content: get the scalar coordinates */
+    int time_dim;        /* the record dimension (unlimited), -1 before the series */
+    size_t n_records;
 } ncw;
 
 int sl_output_nc_parse_format(const char *text, sl_nc_format *fmt, sl_err *e)
@@ -82,20 +87,40 @@ static const char *var_label(const ncw *w, int varid, char *buf)
     return buf;
 }
 
+/* The message of netCDF status STATUS for a file at PATH.  The libraries
+ * report a full disk under other names (HDF5 failures come back as
+ * "Permission denied" or "HDF error"); when the file system holding PATH
+ * has no free block left, that is said first. */
+static const char *nc_cause(const char *path, int status, char *buf, size_t n)
+{
+    char dir[SL_OUTSET_PATH_LEN];
+    const char *slash = path ? strrchr(path, '/') : NULL;
+    snprintf(dir, sizeof dir, "%.*s", slash ? (int)(slash - path) : 1, slash ? path : ".");
+    if (slash == path)
+        strcpy(dir, "/");
+    struct statvfs vfs;
+    if (statvfs(dir, &vfs) == 0 && vfs.f_bavail == 0) {
+        snprintf(buf, n, "%s (the netCDF library said: %s)", strerror(ENOSPC), nc_strerror(status));
+        return buf;
+    }
+    return nc_strerror(status);
+}
+
 /* "writing 'out.nc': attribute 'units' of altitude: NetCDF: ..." */
-static int nc_fail(const ncw *w, int varid, const char *what, const char *name, int status,
+static int nc_fail(const ncw *w, int varid, const char *what, const char *name, int status_in,
                    sl_err *e, int line)
 {
-    char vn[NC_MAX_NAME + 1];
+    char vn[NC_MAX_NAME + 1], cause[256];
     const char *label = var_label(w, varid, vn);
+    const char *status = nc_cause(w->path, status_in, cause, sizeof cause);
     if (name && name[0] && varid == NC_GLOBAL)
         return sl_err_set(e, SL_EIO, "sl_output_nc_write", line, "writing '%s': %s '%s': %s",
-                          w->path, what, name, nc_strerror(status));
+                          w->path, what, name, status);
     if (name && name[0])
         return sl_err_set(e, SL_EIO, "sl_output_nc_write", line, "writing '%s': %s '%s' of %s: %s",
-                          w->path, what, name, label, nc_strerror(status));
+                          w->path, what, name, label, status);
     return sl_err_set(e, SL_EIO, "sl_output_nc_write", line, "writing '%s': %s %s: %s", w->path,
-                      what, label, nc_strerror(status));
+                      what, label, status);
 }
 
 static int queue(ncw *w, int varid, const double *data, sl_err *e)
@@ -145,6 +170,34 @@ static double *own(ncw *w, size_t n, sl_err *e)
     return p;
 }
 
+/* Number of values of a variable on DIMS (the record dimension counted with
+ * the records to come). */
+static size_t values_of(const ncw *w, int ndims, const int *dims)
+{
+    size_t n = 1;
+    for (int k = 0; k < ndims; k++) {
+        size_t len = 0;
+        if (dims[k] == w->time_dim)
+            len = w->n_records;
+        else if (nc_inq_dimlen(w->ncid, dims[k], &len) != NC_NOERR)
+            return 0;
+        n *= len;
+    }
+    return n;
+}
+
+/* Compress only variables large enough to gain: a chunked, deflated HDF5
+ * dataset carries a B-tree and filter pipeline of a few kB, more than a small
+ * array saves (with every variable deflated the netCDF-4 file was larger than
+ * the netCDF-3 one); small arrays stay contiguous. */
+enum { DEFLATE_MIN_VALUES = 1024 };
+static int maybe_deflate(ncw *w, int id, int ndims, const int *dims, sl_err *e)
+{
+    if (w->nc4 && ndims > 0 && values_of(w, ndims, dims) >= DEFLATE_MIN_VALUES)
+        NCK(w, id, "compression of", NULL, nc_def_var_deflate(w->ncid, id, 1, 1, w->deflate_level));
+    return SL_OK;
+}
+
 /* Define an NC_DOUBLE variable with long_name and units (and standard_name
  * when given); queue DATA to be written after enddef. */
 static int def_var(ncw *w, const char *name, int ndims, const int *dims, const double *data,
@@ -153,8 +206,16 @@ static int def_var(ncw *w, const char *name, int ndims, const int *dims, const d
 {
     int id;
     NCK(w, NC_GLOBAL, "defining variable", name, nc_def_var(w->ncid, name, NC_DOUBLE, ndims, dims, &id));
-    if (w->nc4 && ndims > 0)
-        NCK(w, id, "compression of", NULL, nc_def_var_deflate(w->ncid, id, 1, 1, w->deflate_level));
+    SL_TRY_RETURN(e, maybe_deflate(w, id, ndims, dims, e));
+    if (w->nc4 && ndims > 0 && ndims <= 4 && dims[0] == w->time_dim) {
+        /* Record variables: one chunk holding the whole series (the library's default of
+         * one record per chunk makes a compressed file larger than netCDF-3). */
+        size_t chunk[4];
+        chunk[0] = w->n_records > 0 ? w->n_records : 1;
+        for (int k = 1; k < ndims; k++)
+            NCK(w, id, "dimension length of", NULL, nc_inq_dimlen(w->ncid, dims[k], &chunk[k]));
+        NCK(w, id, "chunking of", NULL, nc_def_var_chunking(w->ncid, id, NC_CHUNKED, chunk));
+    }
     SL_TRY_RETURN(e, att_text(w, id, "standard_name", standard_name, e));
     SL_TRY_RETURN(e, att_text(w, id, "long_name", long_name, e));
     SL_TRY_RETURN(e, att_text(w, id, "units", units, e));
@@ -186,8 +247,7 @@ static int def_zaxis(ncw *w, const char *name, const char *long_name, const doub
     SL_TRY_RETURN(e, att_text(w, id, "bounds", bname, e));
     /* CF 7.1: bounds inherit units etc. from their coordinate; none repeated. */
     NCK(w, NC_GLOBAL, "defining variable", bname, nc_def_var(w->ncid, bname, NC_DOUBLE, 2, bd, &bid));
-    if (w->nc4)
-        NCK(w, bid, "compression of", NULL, nc_def_var_deflate(w->ncid, bid, 1, 1, w->deflate_level));
+    SL_TRY_RETURN(e, maybe_deflate(w, bid, 2, bd, e));
     return queue(w, bid, b, e);
 }
 
@@ -332,10 +392,12 @@ static int profile_vars(ncw *w, const sl_output_view *v, int nv, int *zdim, sl_e
                                inj->band_top_m, n, nv, zdim, e));
     SL_TRY_RETURN(e, def_var(w, "vapor_mass", 1, zdim, inj->vapor_kg, NULL,
                              "water vapour lofted into the altitude band", "kg", &id, e));
+    w->profile_ids[0] = id;
     SL_TRY_RETURN(e, att_text(w, id, "cell_methods", "altitude: sum", e));
     SL_TRY_RETURN(e, def_var(w, "ice_mass", 1, zdim, inj->ice_kg, NULL,
                              "condensed water (ice and liquid) lofted into the altitude band", "kg",
                              &id, e));
+    w->profile_ids[1] = id;
     SL_TRY_RETURN(e, att_text(w, id, "cell_methods", "altitude: sum", e));
 
     double *glob = own(w, n, e);
@@ -343,10 +405,12 @@ static int profile_vars(ncw *w, const sl_output_view *v, int nv, int *zdim, sl_e
         return e ? e->code : SL_ENOMEM;
     for (size_t i = 0; i < n; i++)
         glob[i] = inj->vapor_kg[i] / SL_EARTH_AREA_M2;
-    SL_TRY_RETURN(e, def_var(w, "vapor_mass_content", 1, zdim, glob,
-                             "mass_content_of_water_vapor_in_atmosphere_layer",
+    /* An increment (lofted water), not the layer's total content: no standard name (the CF
+     * name mass_content_of_water_vapor_in_atmosphere_layer means all the layer's vapour). */
+    SL_TRY_RETURN(e, def_var(w, "vapor_mass_content", 1, zdim, glob, NULL,
                              "lofted water vapour per unit area, averaged over the whole Earth",
                              "kg m-2", &id, e));
+    w->profile_ids[2] = id;
     SL_TRY_RETURN(e, att_text(w, id, "cell_methods", "area: mean", e));
     SL_TRY_RETURN(e, att_text(w, id, "comment",
                               "vapor_mass divided by the area of the Earth (4 pi R^2, "
@@ -357,8 +421,7 @@ static int profile_vars(ncw *w, const sl_output_view *v, int nv, int *zdim, sl_e
             return e ? e->code : SL_ENOMEM;
         for (size_t i = 0; i < n; i++)
             loc[i] = inj->vapor_kg[i] / inj->cloud_area_m2;
-        SL_TRY_RETURN(e, def_var(w, "cloud_vapor_mass_content", 1, zdim, loc,
-                                 "mass_content_of_water_vapor_in_atmosphere_layer",
+        SL_TRY_RETURN(e, def_var(w, "cloud_vapor_mass_content", 1, zdim, loc, NULL,
                                  "lofted water vapour per unit area over the young cloud", "kg m-2",
                                  &id, e));
         SL_TRY_RETURN(e, att_text(w, id, "comment",
@@ -388,6 +451,19 @@ static int profile_vars(ncw *w, const sl_output_view *v, int nv, int *zdim, sl_e
     }
     SL_TRY_RETURN(e, def_scalar(w, "latitude", inj->latitude_deg, "latitude",
                                 "latitude of the event", "degrees_north", e));
+    if (isfinite(inj->longitude_deg)) /* a scalar coordinate beside latitude (CF 5.7) */
+        SL_TRY_RETURN(e, def_scalar(w, "longitude", inj->longitude_deg, "longitude",
+                                    "longitude of the event", "degrees_east", e));
+    for (size_t k = 0; k < sizeof w->profile_ids / sizeof w->profile_ids[0]; k++)
+        if (w->profile_ids[k] >= 0)
+            SL_TRY_RETURN(e, att_text(w, w->profile_ids[k], "coordinates",
+                                      isfinite(inj->longitude_deg) ? "latitude longitude" : "latitude", e));
+    if (inj->month >= 1 && inj->month <= 12) {
+        NCK(w, NC_GLOBAL, "writing attribute", "event_month",
+            nc_put_att_int(w->ncid, NC_GLOBAL, "event_month", NC_INT, 1, &inj->month));
+    }
+    SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "event_time_is_nominal",
+                              isfinite(inj->event_time_s) ? "no" : "yes", e));
     SL_TRY_RETURN(e, def_scalar(w, "injection_time", inj->time_s, NULL,
                                 "time after the event that the injection profile refers to", "s", e));
     return SL_OK;
@@ -411,7 +487,8 @@ static int atmosphere_vars(ncw *w, const sl_atmosphere *a, sl_err *e)
     SL_TRY_RETURN(e, def_var(w, "h2o_mole_fraction", 1, &dim, a->h2o_mole_fraction,
                              "mole_fraction_of_water_vapor_in_air",
                              "background water vapour mole fraction", "mol mol-1", &id, e));
-    SL_TRY_RETURN(e, def_var(w, "buoyancy_frequency_squared", 1, &dim, a->n2_per_s2, NULL,
+    SL_TRY_RETURN(e, def_var(w, "buoyancy_frequency_squared", 1, &dim, a->n2_per_s2,
+                             "square_of_brunt_vaisala_frequency_in_air",
                              "square of the background buoyancy (Brunt-Vaisala) frequency", "s-2",
                              &id, e));
     SL_TRY_RETURN(e, att_text(w, NC_GLOBAL, "background_atmosphere", a->name, e));
@@ -451,7 +528,10 @@ static int series_vars(ncw *w, const sl_output_view *v, int nv, int band_dim, sl
     int tdim, ldim, zdim, id;
     char units[96];
 
-    NCK(w, NC_GLOBAL, "defining dimension", "time", nc_def_dim(w->ncid, "time", nt, &tdim));
+    /* Unlimited, so that record operators (NCO's ncrcat) join runs along time. */
+    NCK(w, NC_GLOBAL, "defining dimension", "time", nc_def_dim(w->ncid, "time", NC_UNLIMITED, &tdim));
+    w->time_dim = tdim;
+    w->n_records = nt;
     double *days = own(w, nt, e);
     if (days == NULL)
         return e ? e->code : SL_ENOMEM;
@@ -477,8 +557,7 @@ static int series_vars(ncw *w, const sl_output_view *v, int nv, int band_dim, sl
     SL_TRY_RETURN(e, att_text(w, id, "bounds", "lat_bnds", e));
     int bd[2] = {ldim, nv}, bid;
     NCK(w, NC_GLOBAL, "defining variable", "lat_bnds", nc_def_var(w->ncid, "lat_bnds", NC_DOUBLE, 2, bd, &bid));
-    if (w->nc4)
-        NCK(w, bid, "compression of", NULL, nc_def_var_deflate(w->ncid, bid, 1, 1, w->deflate_level));
+    SL_TRY_RETURN(e, maybe_deflate(w, bid, 2, bd, e));
     SL_TRY_RETURN(e, queue(w, bid, lb, e));
 
     if (same_cells(s->layer_bottom_m, s->layer_top_m, s->n_layer, inj->band_bottom_m,
@@ -551,9 +630,47 @@ static int write_all(ncw *w, const sl_output_view *v, sl_err *e)
         SL_TRY_RETURN(e, def_scalar(w, sc->name, sc->value, sc->standard_name, sc->long_name,
                                     sc->units, e));
     }
+    /* The scalar results again as global attributes result_<name> (their units in
+     * result_units): tools that keep only gridded variables (CDO drops scalar
+     * variables) keep global attributes, so the key numbers survive `cdo copy`. */
+    if (v->n_scalars > 0) {
+        size_t cap = 64 * v->n_scalars + 1, off = 0;
+        char *units = malloc(cap);
+        if (units == NULL)
+            SL_FAIL_RETURN(e, SL_ENOMEM, "writing '%s': out of memory", w->path);
+        units[0] = '\0';
+        int rc = SL_OK;
+        for (size_t i = 0; i < v->n_scalars && rc == SL_OK; i++) {
+            const sl_output_scalar *sc = &v->scalars[i];
+            char name[NC_MAX_NAME + 1];
+            snprintf(name, sizeof name, "result_%s", sc->name);
+            rc = att_double(w, NC_GLOBAL, name, sc->value, e);
+            int k = snprintf(units + off, cap - off, "%s%s: %s", i ? "; " : "", sc->name, sc->units);
+            if (k > 0 && (size_t)k < cap - off)
+                off += (size_t)k;
+        }
+        if (rc == SL_OK)
+            rc = att_text(w, NC_GLOBAL, "result_units", units, e);
+        free(units);
+        SL_TRY_RETURN(e, rc);
+    }
     NCK(w, NC_GLOBAL, "leaving define mode after", NULL, nc_enddef(w->ncid));
-    for (size_t i = 0; i < w->n_put; i++)
-        NCK(w, w->put[i].varid, "writing data of", NULL, nc_put_var_double(w->ncid, w->put[i].varid, w->put[i].data));
+    for (size_t i = 0; i < w->n_put; i++) {
+        /* Record variables need their counts: nc_put_var writes as many records as the
+         * file has, which is none yet. */
+        int id = w->put[i].varid, nd = 0, dims[NC_MAX_VAR_DIMS];
+        NCK(w, id, "inquiring", NULL, nc_inq_varndims(w->ncid, id, &nd));
+        NCK(w, id, "inquiring", NULL, nc_inq_vardimid(w->ncid, id, dims));
+        if (nd > 0 && nd <= 4 && dims[0] == w->time_dim) {
+            size_t start[4] = {0, 0, 0, 0}, count[4];
+            count[0] = w->n_records;
+            for (int k = 1; k < nd; k++)
+                NCK(w, id, "dimension length of", NULL, nc_inq_dimlen(w->ncid, dims[k], &count[k]));
+            NCK(w, id, "writing data of", NULL, nc_put_vara_double(w->ncid, id, start, count, w->put[i].data));
+        } else {
+            NCK(w, id, "writing data of", NULL, nc_put_var_double(w->ncid, id, w->put[i].data));
+        }
+    }
     return SL_OK;
 }
 
@@ -574,6 +691,8 @@ int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_op
     w->path = path;
     w->nc4 = o.format == SL_NC_NETCDF4_CLASSIC;
     w->deflate_level = o.deflate_level ? o.deflate_level : 4;
+    w->profile_ids[0] = w->profile_ids[1] = w->profile_ids[2] = -1;
+    w->time_dim = -1;
     w->ncid = -1;
 
     /* The file is built in memory (nc_create_mem, nc_close_memio) and its
@@ -587,7 +706,8 @@ int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_op
         const char *slash = strrchr(path, '/');
         snprintf(base, sizeof base, "%s", slash ? slash + 1 : path);
         sl_outset_forget(set, base); /* re-added by sl_outset_write_file */
-        int cmode = w->nc4 ? (NC_NETCDF4 | NC_CLASSIC_MODEL) : 0;
+        /* NC_NOATTCREORD: no attribute creation-order index per HDF5 object. */
+        int cmode = w->nc4 ? (NC_NETCDF4 | NC_CLASSIC_MODEL | NC_NOATTCREORD) : 0;
         int st = nc_create_mem(base, cmode, 1 << 16, &w->ncid);
         if (st != NC_NOERR) {
             w->ncid = -1;

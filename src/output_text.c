@@ -10,6 +10,7 @@
 
 #include <math.h>
 #include <stdarg.h>
+#include <errno.h>
 #include <string.h>
 
 void sl_output_fmt3(char *buf, size_t n, double x)
@@ -55,8 +56,9 @@ int sl_report_end(sl_report *r, sl_err *e)
 {
     if (r->json)
         return sl_json_end(&r->writer, e);
+    errno = 0;
     if (fflush(r->out) != 0 || ferror(r->out))
-        SL_FAIL_RETURN(e, SL_EIO, "cannot write the summary");
+        SL_FAIL_RETURN(e, SL_EIO, "cannot write the summary: %s", strerror(errno ? errno : EIO));
     return SL_OK;
 }
 
@@ -796,8 +798,9 @@ int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, int detail, 
 {
     if (!json) {
         text_summary(out, ch, detail);
+        errno = 0;
         if (fflush(out) != 0 || ferror(out))
-            SL_FAIL_RETURN(e, SL_EIO, "cannot write the summary");
+            SL_FAIL_RETURN(e, SL_EIO, "cannot write the summary: %s", strerror(errno ? errno : EIO));
         return SL_OK;
     }
     sl_report r;

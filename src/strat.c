@@ -132,7 +132,7 @@
  * 100 hPa gives 0.3 W/m2 per ppmv.  CALIBRATED on the 2022 Hunga water: with
  * 0.2 the 146 Tg at 22-27 km gave 0.078 W/m2, a third below the +0.12 W/m2
  * early forcing of Jenkins et al. 2023 (Nature Climate Change 13, 127; seen
- * in the source's abstract as reported); 0.3 gives 0.117, inside 0.10-0.15.  The shape is PRACTICE (no published
+ * in the source's abstract as reported); 0.3 gives about 0.115, inside 0.10-0.15.  The shape is PRACTICE (no published
  * forcing-per-layer kernel was found): 14 km makes water at 25-30 km count
  * about half as much as water at the tropopause.  It is an order-of-magnitude
  * indicator, not a radiative-transfer result.

@@ -66,7 +66,7 @@ static inline void build_fixture(int layers_equal_bands)
         F.ice[i] = 0.1 * F.vap[i];
         F.total_vapor_kg += F.vap[i];
     }
-    F.inj = (sl_injection){NB, F.bottom, F.top, F.vap, F.ice, 16500.0, -20.5, 3600.0, 2.0e11};
+    F.inj = (sl_injection){NB, F.bottom, F.top, F.vap, F.ice, 16500.0, -20.5, 3600.0, 2.0e11, NAN, NAN, 0};
 
     /* Isothermal hydrostatic background, T = 250 K, scale height R T / (M g). */
     double H = SL_GAS_CONSTANT_J_MOL_K * 250.0 / (SL_MOLAR_MASS_DRY_AIR_KG_MOL * SL_USSA_G0_M_S2);

@@ -301,6 +301,56 @@ START_TEST(test_mass_conserved)
 }
 END_TEST
 
+START_TEST(test_reader_carries_place_and_time)
+{
+    /* A profile file as steamloft writes it: the reader hands longitude, event
+     * time and month to the injection, so `decay` can start where the run did;
+     * a nominal time is not taken for a date. */
+    char dir[] = "/tmp/sl_emission_XXXXXX", path[256];
+    ck_assert_ptr_nonnull(mkdtemp(dir));
+    snprintf(path, sizeof path, "%s/prof.nc", dir);
+    for (int nominal = 0; nominal < 2; nominal++) {
+        int ncid, dz, dnv, vz, vb, vm, vlon, dims[2];
+        ck_assert_int_eq(nc_create(path, NC_CLOBBER, &ncid), NC_NOERR);
+        ck_assert_int_eq(nc_def_dim(ncid, "altitude", 2, &dz), NC_NOERR);
+        ck_assert_int_eq(nc_def_dim(ncid, "nv", 2, &dnv), NC_NOERR);
+        ck_assert_int_eq(nc_def_var(ncid, "altitude", NC_DOUBLE, 1, &dz, &vz), NC_NOERR);
+        nc_put_att_text(ncid, vz, "units", 1, "m");
+        nc_put_att_text(ncid, vz, "bounds", 13, "altitude_bnds");
+        dims[0] = dz, dims[1] = dnv;
+        ck_assert_int_eq(nc_def_var(ncid, "altitude_bnds", NC_DOUBLE, 2, dims, &vb), NC_NOERR);
+        ck_assert_int_eq(nc_def_var(ncid, "vapor_mass", NC_DOUBLE, 1, &dz, &vm), NC_NOERR);
+        nc_put_att_text(ncid, vm, "units", 2, "kg");
+        ck_assert_int_eq(nc_def_var(ncid, "longitude", NC_DOUBLE, 0, NULL, &vlon), NC_NOERR);
+        nc_put_att_text(ncid, vlon, "units", 12, "degrees_east");
+        int month = 1;
+        nc_put_att_int(ncid, NC_GLOBAL, "event_month", NC_INT, 1, &month);
+        nc_put_att_text(ncid, NC_GLOBAL, "event_time", 19, "2022-01-15 04:15:00");
+        nc_put_att_text(ncid, NC_GLOBAL, "event_time_is_nominal", nominal ? 3 : 2, nominal ? "yes" : "no");
+        ck_assert_int_eq(nc_enddef(ncid), NC_NOERR);
+        double z[2] = {20500.0, 21500.0}, b[4] = {20000.0, 21000.0, 21000.0, 22000.0}, m[2] = {1e9, 2e9};
+        double lon = 184.6;
+        nc_put_var_double(ncid, vz, z);
+        nc_put_var_double(ncid, vb, b);
+        nc_put_var_double(ncid, vm, m);
+        nc_put_var_double(ncid, vlon, &lon);
+        ck_assert_int_eq(nc_close(ncid), NC_NOERR);
+        sl_injection inj;
+        sl_err e = {0};
+        ck_assert_int_eq(sl_injection_read(&inj, path, &e), SL_OK);
+        ck_assert_double_eq(inj.longitude_deg, 184.6);
+        ck_assert_int_eq(inj.month, 1);
+        if (nominal)
+            ck_assert(isnan(inj.event_time_s));
+        else
+            SL_CK_ABS(inj.event_time_s, 19007.0 * 86400.0 + 15300.0, 0.0);
+        sl_injection_free(&inj);
+    }
+    unlink(path);
+    rmdir(dir);
+}
+END_TEST
+
 static Suite *emission_suite(void)
 {
     sl_err_gsl_handler_off();
@@ -313,6 +363,7 @@ static Suite *emission_suite(void)
     tcase_add_test(tc, test_template);
     tcase_add_test(tc, test_footprint_area);
     tcase_add_test(tc, test_mass_conserved);
+    tcase_add_test(tc, test_reader_carries_place_and_time);
     suite_add_tcase(s, tc);
     return s;
 }

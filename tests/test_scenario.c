@@ -344,6 +344,38 @@ START_TEST(provenance_lists_resolved_values)
 }
 END_TEST
 
+START_TEST(date_sets_the_month)
+{
+    /* [site] date: ISO 8601 UTC; the month follows from it (origin derived), a
+     * written month must agree, a bad date names file, line, key and the forms;
+     * [emission] duration_s has its range. */
+    sl_scenario sc;
+    sl_err e = {0};
+    const char *dated = "[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = -20\ndate = 2022-07-15T04:15:00Z\n";
+    ck_assert_int_eq(sl_scenario_load_string(&sc, "d.ini", dated, &e), SL_OK);
+    ck_assert_double_eq(sl_scenario_value(&sc, SL_P_SITE_MONTH), 7.0);
+    ck_assert_int_eq(sc.origin[SL_P_SITE_MONTH], SL_ORIGIN_DERIVED);
+    ck_assert_double_eq(sl_scenario_value(&sc, SL_P_SITE_DATE), 19188.0 * 86400.0 + 15300.0);
+    ck_assert_double_eq(sl_scenario_value(&sc, SL_P_EMISSION_DURATION), 21600.0);
+    ck_assert(isnan(sl_scenario_value(&sc, SL_P_EMISSION_RADIUS)));
+    const char *undated = "[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = -20\n";
+    ck_assert_int_eq(sl_scenario_load_string(&sc, "u.ini", undated, &e), SL_OK);
+    ck_assert(isnan(sl_scenario_value(&sc, SL_P_SITE_DATE)));
+    ck_assert_double_eq(sl_scenario_value(&sc, SL_P_SITE_MONTH), 0.0);
+    const char *bad = "[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 0\ndate = 2022-02-30\n";
+    ck_assert_int_eq(sl_scenario_load_string(&sc, "b.ini", bad, &e), SL_EDATA);
+    ck_assert_ptr_nonnull(strstr(e.msg, "b.ini:5: [site] date"));
+    ck_assert_ptr_nonnull(strstr(e.msg, "YYYY-MM-DD"));
+    const char *clash = "[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 0\ndate = 2022-01-15\nmonth = 3\n";
+    ck_assert_int_eq(sl_scenario_load_string(&sc, "c.ini", clash, &e), SL_EDATA);
+    ck_assert_ptr_nonnull(strstr(e.msg, "c.ini:6: [site] month"));
+    const char *dur = "[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 0\n[emission]\nduration_s = -5\n";
+    ck_assert_int_eq(sl_scenario_load_string(&sc, "t.ini", dur, &e), SL_EDATA);
+    ck_assert_ptr_nonnull(strstr(e.msg, "t.ini:6: [emission] duration_s"));
+    ck_assert_ptr_nonnull(strstr(e.msg, "60 to"));
+}
+END_TEST
+
 static Suite *scenario_suite(void)
 {
     Suite *s = suite_create("scenario");
@@ -357,6 +389,7 @@ static Suite *scenario_suite(void)
     tcase_add_test(tc, external_values_and_set_by_name);
     tcase_add_test(tc, provenance_lists_resolved_values);
     tcase_add_test(tc, override_as_written_in_the_file);
+    tcase_add_test(tc, date_sets_the_month);
     suite_add_tcase(s, tc);
     return s;
 }

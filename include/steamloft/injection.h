@@ -7,8 +7,12 @@
  * netCDF files by their magic number, everything else is read as CSV):
  *
  * CSV: '#' starts a comment line; comment lines of the form "# key = value"
- * set metadata: tropopause_altitude_m|_km, latitude_deg, time_s|_days,
- * cloud_area_m2.  The first other line is a header naming the columns, each
+ * with KEY one word of letters, digits and '_' set metadata:
+ * tropopause_altitude_m|_km, latitude_deg, time_s|_days, cloud_area_m2 (such
+ * a word that is not one of these is refused as a likely typo; any other
+ * comment, an '=' in prose included, is ignored).  The text rules of
+ * include/steamloft/infile.h apply (16 MiB, BOM and CRLF accepted, decimal
+ * numbers only, 4096 characters of content per line).  The first other line is a header naming the columns, each
  * with its unit suffix: bottom_m|bottom_km, top_m|top_km, vapor_kg|vapor_Tg
  * (mass_kg|mass_Tg are read as vapour) and optionally ice_kg|ice_Tg, in any
  * order.  Then one row per band, bottom to top, contiguous (each bottom equal
@@ -37,6 +41,11 @@ typedef struct sl_injection {
     double latitude_deg;       /* where the cloud sits (event latitude) */
     double time_s;             /* time after the event the profile refers to */
     double cloud_area_m2;      /* horizontal area of the young cloud (0 if unknown) */
+    /* Where and when (carried through files so that `decay` on a run file
+     * starts where the run started): */
+    double longitude_deg;      /* event longitude, degrees east; NaN unknown */
+    double event_time_s;       /* event time, s since 1970-01-01 UTC; NaN unknown (nominal) */
+    int month;                 /* event month 1-12; 0 unknown (annual-mean conditions) */
 } sl_injection;
 
 /* Allocate bands from N_EDGES edges (strictly increasing); masses zero. */

@@ -14,6 +14,8 @@
  *     date/datesec, altitude and altitude_int in km, and four records
  *     zero / on / on / zero (t0, t0 + 1 s, t0 + D, t0 + D + 1 s) whose
  *     linear-in-time integral is exactly the rate times D.
+ *   zonal field (netCDF-4): the box model's excess on (time, altitude,
+ *     latitude region), see sl_model_inputs_zonal_write.
  *   forcing series (CSV): annual means of the box model's forcing indicator
  *     with each year's bounds.
  * Every file is staged and renamed through outfile.h. */
@@ -50,6 +52,12 @@ int sl_model_inputs_table_write(const sl_model_inputs *mi, const char *path, int
 int sl_model_inputs_emission_write(const sl_model_inputs *mi, const char *path,
                                    const sl_emission_grid *g, int cesm, double model_top_m,
                                    int force, double *above_top_kg, sl_err *e);
+
+/* The box model's excess as a zonal-mean field on (time, altitude, lat):
+ * mole-fraction anomaly and mass per area, region and box bounds, _FillValue
+ * where a region has no box in a layer. */
+int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model *m,
+                                const char *path, int force, sl_err *e);
 
 int sl_model_inputs_forcing_write(const sl_model_inputs *mi, const char *path, int force, sl_err *e);
 

@@ -1,6 +1,6 @@
 /* model_inputs_request: the model-input options of `steamloft run`
  * (--injection-table, --emission with --grid, --emission-convention and
- * --model-top-km, --forcing-series), parsed, checked before the run and
+ * --model-top-km, --forcing-series, --zonal), parsed, checked before the run and
  * written after it, as output_request.h does for the other outputs. */
 #ifndef STEAMLOFT_MODEL_INPUTS_REQUEST_H
 #define STEAMLOFT_MODEL_INPUTS_REQUEST_H
@@ -17,7 +17,8 @@ enum {
     SL_MIOPT_GRID,
     SL_MIOPT_CONVENTION,
     SL_MIOPT_MODEL_TOP,
-    SL_MIOPT_FORCING
+    SL_MIOPT_FORCING,
+    SL_MIOPT_ZONAL
 };
 
 #define SL_MODEL_INPUTS_LONG_OPTIONS                                         \
@@ -26,7 +27,8 @@ enum {
     {"grid", required_argument, NULL, SL_MIOPT_GRID},                        \
     {"emission-convention", required_argument, NULL, SL_MIOPT_CONVENTION},   \
     {"model-top-km", required_argument, NULL, SL_MIOPT_MODEL_TOP},           \
-    {"forcing-series", required_argument, NULL, SL_MIOPT_FORCING}
+    {"forcing-series", required_argument, NULL, SL_MIOPT_FORCING},           \
+    {"zonal", required_argument, NULL, SL_MIOPT_ZONAL}
 
 #define SL_MODEL_INPUTS_HELP                                                                     \
     "Model inputs (the water above the tropopause; [site] date, [emission] duration_s and\n"    \
@@ -38,10 +40,11 @@ enum {
     "      --emission-convention cf|cesm  kg m-3 s-1 with CF coordinates (default), or\n"     \
     "                           molecules/cm3/s with date/datesec and altitude_int\n"          \
     "      --model-top-km KM    leave out (and report) the water above a model's top\n"        \
-    "      --forcing-series FILE.csv  annual means of the forcing indicator, with bounds\n"
+    "      --forcing-series FILE.csv  annual means of the forcing indicator, with bounds\n"     \
+    "      --zonal FILE.nc      the box model's anomaly on time x altitude x latitude region\n"
 
 typedef struct sl_model_inputs_request {
-    const char *table_path, *emission_path, *forcing_path;
+    const char *table_path, *emission_path, *forcing_path, *zonal_path;
     const char *grid_spec;   /* NULL: 180x360 */
     int cesm, convention_given;
     double model_top_m;      /* NaN: none */

@@ -57,6 +57,12 @@ sl_expect_exit 0 "decay without --scenario" "$SL_BIN" decay "$SL_TMP/c.nc" --jso
 if same "$SL_TMP/run_c.json" "$SL_TMP/out"; then sl_ok "decay's defaults are run's"
 else sl_fail "decay's defaults differ from run's"; fi
 
+# 3b. A run file carries its month (issue 13): decay on the file alone,
+# without --scenario, reproduces a run whose scenario has a month.
+sl_expect_exit 0 "decay of a July run's file alone" "$SL_BIN" decay "$SL_TMP/a.nc" --json
+if same "$SL_TMP/run_a.json" "$SL_TMP/out"; then sl_ok "decay reads the month back from the run file"
+else sl_fail "decay on the run file alone differs from the run"; fi
+
 # 4. The comparison can fail: one key changed on one side only.
 sl_expect_exit 0 "decay with another month" "$SL_BIN" decay "$SL_TMP/c.nc" --json --month 1
 if same "$SL_TMP/run_c.json" "$SL_TMP/out" >/dev/null; then sl_fail "a changed month went unnoticed"

@@ -33,7 +33,7 @@ att . Conventions CF-1.11
 att . scenario_decay_source $PROF
 att altitude axis Z
 att altitude positive up
-att vapor_mass_content standard_name mass_content_of_water_vapor_in_atmosphere_layer
+att buoyancy_frequency_squared standard_name square_of_brunt_vaisala_frequency_in_air
 att time calendar standard
 has excess_water_mass
 has removed_troposphere

@@ -46,7 +46,7 @@ static double fz_value(fz_in *in)
 
 /* Which family of files: the atmosphere reader wants standard names, the
  * injection reader an altitude coordinate with bounds and masses. */
-enum { FZ_ATMOS = 0, FZ_INJECTION = 1 };
+enum { FZ_ATMOS = 0, FZ_INJECTION = 1, FZ_GRID = 2 };
 
 /* Build a netCDF-3 file from the bytes of IN into *BUF (malloc'd). */
 static int fz_build(fz_in *in, int family, void **buf, size_t *len)
@@ -66,10 +66,11 @@ static int fz_build(fz_in *in, int family, void **buf, size_t *len)
                                           "humidity_mixing_ratio", "air_temperature"};
     static const char *const inj_vars[] = {"altitude", "altitude_bnds", "vapor_mass", "ice_mass",
                                            "latitude", "time", "tropopause_altitude", "cloud_area"};
+    static const char *const grid_vars[] = {"lat", "lon", "lat_bnds", "lon_bnds"};
     static const char *const units[] = {"m", "km", "K", "degC", "Pa", "hPa", "1", "ppmv", "kg",
-                                        "Tg", "s", "days", "degrees_north", "m2", "", "furlong"};
+                                        "Tg", "s", "days", "degrees_north", "m2", "degrees_east", "furlong"};
     static const nc_type types[] = {NC_DOUBLE, NC_FLOAT, NC_INT, NC_SHORT, NC_BYTE, NC_CHAR};
-    size_t nvars = family == FZ_ATMOS ? 5 : 8;
+    size_t nvars = family == FZ_ATMOS ? 5 : family == FZ_GRID ? 4 : 8;
     int varid[8], rank[8], vdims[8][3];
     for (size_t v = 0; v < nvars; v++) {
         unsigned shape = fz_byte(in);
@@ -85,7 +86,7 @@ static int fz_build(fz_in *in, int family, void **buf, size_t *len)
         if (shape % 9 == 0 && rank[v] >= 1)
             vdims[v][0] = dims[0];
         nc_type t = types[fz_byte(in) % (sizeof types / sizeof types[0])];
-        const char *name = family == FZ_ATMOS ? atm_vars[v] : inj_vars[v];
+        const char *name = family == FZ_ATMOS ? atm_vars[v] : family == FZ_GRID ? grid_vars[v] : inj_vars[v];
         if (nc_def_var(ncid, name, t, rank[v], vdims[v], &varid[v]) != NC_NOERR)
             varid[v] = -1;
         if (varid[v] < 0)
@@ -102,6 +103,11 @@ static int fz_build(fz_in *in, int family, void **buf, size_t *len)
             if (fz_byte(in) % 7 == 0) {
                 double sf = fz_value(in);
                 nc_put_att_double(ncid, varid[v], "scale_factor", NC_DOUBLE, 1, &sf);
+            }
+        } else if (family == FZ_GRID) {
+            if (v < 2 && fz_byte(in) % 3) {
+                const char *b = v == 0 ? "lat_bnds" : fz_byte(in) % 4 ? "lon_bnds" : "lat";
+                nc_put_att_text(ncid, varid[v], "bounds", strlen(b), b);
             }
         } else if (v == 0 && fz_byte(in) % 6) {
             const char *b = fz_byte(in) % 4 ? "altitude_bnds" : "vapor_mass";
