@@ -608,6 +608,63 @@ START_TEST(test_umbrella_by_mass)
 }
 END_TEST
 
+/* A Hunga-like source (invented to resemble the 15 January 2022 eruption):
+ * 1e17 J of heat (of the order of the published explosion-energy estimates,
+ * from memory) in a 5.5 km sphere sitting on the sea, carrying 150 Tg of
+ * vapour (the ~146 Tg found in the stratosphere, Millan et al. 2022, SEEN),
+ * tropical profile (20.5 S).  Its top comes out near the observed ~57 km
+ * (Carr et al. 2022; Proud et al. 2022; from memory), within 10 %.  The
+ * observed water had its bulk at 22-27 km with little above 35 km (Millan
+ * et al. 2022; Xu et al. 2022; Khaykin et al. 2022).  The model does not yet
+ * meet that (issue 12; docs/physics.md section 6): its first neutral level
+ * is at ~27 km.  Asserted here is what placement by mass gives: the water
+ * peaks within 2 km of the neutral level (not at 35 km, as when the volume
+ * was taken as the mass) and under a third of it lies above 35 km (it was
+ * two thirds). */
+START_TEST(test_hunga_like_placement)
+{
+    sl_atmosphere atm = {0};
+    sl_err e = {0};
+    ck_assert_msg(sl_atmosphere_init(&atm, "tropical", &e) == SL_OK, "%s", e.msg);
+    sl_plume pl = {0};
+    init_plume(&pl, 0.25, 0.5, 1e-6, 1.0);
+    sl_injection inj = {0};
+    ck_assert_int_eq(sl_injection_init_uniform(&inj, 0.0, 100e3, 1e3, &e), SL_OK);
+    sl_source_list L = {0};
+    L.n = 1;
+    L.src[0].kind = SL_SOURCE_SEA_PLUME;
+    L.src[0].heat_J = 1.0e17;
+    L.src[0].radius_m = 5500.0;
+    L.src[0].altitude_m = 5500.0;
+    L.src[0].vapor_mass_kg = 1.5e11;
+    ck_assert_msg(sl_plume_solve(&pl, &atm, &L, &inj, &e) == SL_OK, "%s", e.msg);
+    const sl_thermal *th = &pl.th[0];
+    double tot = 0.0, above = 0.0, best = -1.0;
+    size_t ib = 0;
+    for (size_t i = 0; i < inj.n_bands; i++) {
+        double m = inj.vapor_kg[i] + inj.ice_kg[i];
+        tot += m;
+        if (inj.band_bottom_m[i] >= 35000.0)
+            above += m;
+        if (m > best) {
+            best = m;
+            ib = i;
+        }
+    }
+    printf("Hunga-like: neutral %.1f km, top %.1f km, peak band %.0f-%.0f km, %.1f %% above 35 km, %.0f Tg above the "
+           "tropopause\n",
+           th->neutral_altitude_m / 1e3, th->top_altitude_m / 1e3, inj.band_bottom_m[ib] / 1e3, inj.band_top_m[ib] / 1e3,
+           100.0 * above / tot, pl.stratospheric_water_kg / 1e9);
+    ck_assert_int_eq(th->regime, SL_REGIME_THERMAL);
+    SL_CK_REL(th->top_altitude_m, 57000.0, 0.10);
+    SL_CK_RANGE(inj.band_bottom_m[ib], th->neutral_altitude_m - 1000.0, th->neutral_altitude_m + 2000.0);
+    ck_assert_msg(above / tot < 1.0 / 3.0, "share above 35 km %g", above / tot);
+    sl_injection_free(&inj);
+    sl_plume_free(&pl);
+    sl_atmosphere_free(&atm);
+}
+END_TEST
+
 /* Pseudo-equivalent potential temperature of saturated air, Bolton (1980,
  * Mon. Weather Rev. 108, 1046, eq. 43, MEM-high), with T_L = T when saturated;
  * r is the mixing ratio in kg/kg. */
@@ -886,6 +943,7 @@ static Suite *plume_suite(void)
     tcase_add_test(tc, test_profile_top_does_not_matter);
     tcase_add_test(tc, test_freeze_out);
     tcase_add_test(tc, test_umbrella_by_mass);
+    tcase_add_test(tc, test_hunga_like_placement);
     tcase_add_test(tc, test_moist_adiabat);
     tcase_add_test(tc, test_spray_collapse);
     tcase_add_test(tc, test_reuse_is_deterministic);
