@@ -16,7 +16,11 @@ cmds=$(awk '/^Commands:/ {on = 1; next} on && /^$/ {exit} on {print $1}' "$tmp/m
 [ -n "$cmds" ] || { echo "gen-completion.sh: no 'Commands:' list in '$bin --help'" >&2; exit 1; }
 
 # Options of a help text: "NAME" for a flag, "NAME=ARG" for one that takes a
-# value (the upper-case word after it, e.g. --csv DIR, --atmosphere NAME|FILE).
+# value (the upper-case word after it, e.g. --csv DIR, --atmosphere NAME|FILE,
+# --set SECTION.KEY=VALUE).  A line whose first word is not a plain option
+# name (the wrapped part of a usage line, "--summary] NAME|FILE") is no
+# option line.  An option listed twice (--at ALTITUDE_M, --at PRESSURE) is
+# kept once, with its first argument word.
 options() {
   awk '/^ +-/ {
     # the option words end where the description starts (two spaces)
@@ -24,11 +28,13 @@ options() {
     n = split(line, w, /[ ,]+/); k = 0; arg = ""
     for (i = 1; i <= n; i++) {
       if (w[i] == "") continue
-      if (w[i] !~ /^-/) { if (w[i] ~ /^[A-Z][A-Za-z0-9_|.]*$/) arg = w[i]; break }
-      name = w[i]; sub(/=.*/, "", name); opt[++k] = name
+      if (w[i] !~ /^-/) { if (w[i] ~ /^[A-Z][A-Za-z0-9_|.=]*$/) arg = w[i]; break }
+      name = w[i]; sub(/=.*/, "", name)
+      if (name !~ /^--?[A-Za-z0-9][A-Za-z0-9-]*$/) { k = 0; break }
+      opt[++k] = name
     }
     for (i = 1; i <= k; i++) print (arg == "" ? opt[i] : opt[i] "=" arg)
-  }' | sort -u
+  }' | awk -F= '!seen[$1]++' | sort
 }
 
 # Scenario keys as section.key, from `steamloft params`.
@@ -38,8 +44,6 @@ options() {
 "$bin" atmos list 2>/dev/null | awk 'NF {print $1}' >"$tmp/atmos" || : >"$tmp/atmos"
 
 list() { tr '\n' ' ' | sed 's/ *$//'; }
-flags() { grep -v = | list; }
-with_arg() { grep = | list; }
 
 options <"$tmp/main" >"$tmp/gopts"
 cat <<EOF
@@ -47,6 +51,7 @@ cat <<EOF
 # the program's own help texts; do not edit.
 _steamloft_commands="$(printf '%s\n' $cmds | list)"
 _steamloft_global_opts="$(sed 's/=.*//' "$tmp/gopts" | list)"
+_steamloft_anywhere_opts="$(sed 's/=.*//' "$tmp/gopts" | grep -v -x -e --help -e -h -e --version -e -V | list)"
 _steamloft_keys="$(list <"$tmp/keys")"
 _steamloft_atmospheres="$(list <"$tmp/atmos")"
 EOF
@@ -65,13 +70,13 @@ echo '_steamloft_arg_kind() {'
 echo '  case "$1:$2" in'
 for c in $cmds; do
   "$bin" "$c" --help >"$tmp/c" 2>/dev/null || continue
-  options <"$tmp/c" | with_arg | tr ' ' '\n' | while IFS== read -r o a; do
+  options <"$tmp/c" | grep = | while IFS== read -r o a; do
     case "$a" in
       DIR) k=dir ;;
       *FILE*NAME*|*NAME*FILE*) k=atmosphere ;;
       FILE*|PROFILE*) k=file ;;
       SPEC) case "$o" in --vary|--set) k=key ;; *) k=value ;; esac ;;
-      KEY*) k=key ;;
+      KEY*|SECTION.KEY*) k=key ;;
       *) k=value ;;
     esac
     printf '    %s:%s) echo %s ;;\n' "$c" "$o" "$k"
@@ -112,7 +117,8 @@ _steamloft() {
     esac
   fi
   if [[ "$cur" == -* ]]; then
-    COMPREPLY=($(compgen -W "$(_steamloft_cmd_opts "$cmd")" -- "$cur"))
+    # the command's options and the global ones accepted anywhere (-v, -q, -f)
+    COMPREPLY=($(compgen -W "$(_steamloft_cmd_opts "$cmd") $_steamloft_anywhere_opts" -- "$cur"))
     return 0
   fi
   case "$cmd" in

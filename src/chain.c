@@ -110,9 +110,9 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     }
     int rc = sl_atmosphere_init(&ch->atmosphere, use, e);
     if (rc != SL_OK) {
-        int line = 0;
-        const char *raw = sl_scenario_raw(sc, SL_P_SITE_ATMOSPHERE, &line);
-        char inner[SL_ERR_MSG_LEN / 2], names[160] = "";
+        const char *raw = sl_scenario_raw(sc, SL_P_SITE_ATMOSPHERE, NULL);
+        char inner[SL_ERR_MSG_LEN / 2], names[160] = "", at[SL_SCENARIO_PATH_LEN + 64];
+        sl_scenario_where(sc, SL_P_SITE_ATMOSPHERE, at, sizeof at);
         snprintf(inner, sizeof inner, "%.380s", e ? e->msg : "");
         for (size_t i = 0; sl_atmosphere_builtin_names[i]; i++) {
             size_t used = strlen(names);
@@ -120,9 +120,9 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         }
         sl_atmosphere_free(&ch->atmosphere);
         if (raw)
-            SL_FAIL_RETURN(e, rc, "%s:%d: [site] atmosphere = %s: %s (valid: a built-in profile, "
+            SL_FAIL_RETURN(e, rc, "%s = %s: %s (valid: a built-in profile, "
                                   "one of %s (steamloft atmos), or a profile file)",
-                           sc->path, line, raw, inner, names);
+                           at, raw, inner, names);
         SL_FAIL_RETURN(e, rc, "%s: atmosphere %s: %s", sc->path, name, inner);
     }
     snprintf(ch->atmosphere_name, sizeof ch->atmosphere_name, "%s", name);
@@ -145,13 +145,11 @@ static int stage_plume(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     double b0 = sl_scenario_value(sc, SL_P_PLUME_BAND_BOTTOM), b1 = sl_scenario_value(sc, SL_P_PLUME_BAND_TOP);
     double bw = sl_scenario_value(sc, SL_P_PLUME_BAND_WIDTH);
     if (!(b1 - b0 >= bw)) {
-        int l0 = 0, l1 = 0;
-        sl_scenario_raw(sc, SL_P_PLUME_BAND_BOTTOM, &l0);
-        sl_scenario_raw(sc, SL_P_PLUME_BAND_TOP, &l1);
+        char at[SL_SCENARIO_PATH_LEN + 64];
+        sl_scenario_where(sc, SL_P_PLUME_BAND_TOP, at, sizeof at);
         SL_FAIL_RETURN(e, SL_EDATA,
-                       "%s:%d: [plume] band_top_m = %g must exceed band_bottom_m = %g (line %d) by at least "
-                       "band_width_m = %g",
-                       sc->path, l1, b1, b0, l0, bw);
+                       "%s = %g must exceed band_bottom_m = %g by at least band_width_m = %g",
+                       at, b1, b0, bw);
     }
     if (ch->injection.n_bands == 0 || b0 != ch->band_bottom_m || b1 != ch->band_top_m || bw != ch->band_width_m) {
         sl_injection_free(&ch->injection);

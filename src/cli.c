@@ -237,6 +237,27 @@ int sl_cli_parse_double(const char *text, const char *what, double *out, sl_err 
     return SL_OK;
 }
 
+int sl_cli_between_m(const char *bottom_text, const char *top_text, double max_top_m,
+                     double *bottom_m, double *top_m, sl_err *e)
+{
+    double b = NAN, t = NAN;
+    SL_TRY_RETURN(e, sl_cli_parse_double(bottom_text, "--between BOTTOM_M", &b, e));
+    SL_TRY_RETURN(e, sl_cli_parse_double(top_text, "--between TOP_M", &t, e));
+    /* A layer that ends at or below 120 m cannot reach the stratosphere:
+     * such values are kilometres written where metres are wanted. */
+    if (t > b && b >= 0.0 && t <= 120.0)
+        SL_FAIL_RETURN(e, SL_EUSAGE,
+                       "--between %g %g: the altitudes are in metres and these look like "
+                       "kilometres; for %g to %g km write --between %g %g",
+                       b, t, b, t, b * 1000.0, t * 1000.0);
+    if (!(b >= 0.0 && t > b && t <= max_top_m))
+        SL_FAIL_RETURN(e, SL_EUSAGE, "--between %g %g: need 0 <= BOTTOM_M < TOP_M <= %g m", b, t,
+                       max_top_m);
+    *bottom_m = b;
+    *top_m = t;
+    return SL_OK;
+}
+
 /* `steamloft help [COMMAND]`: the global help, or COMMAND --help. */
 int sl_cmd_help(int argc, char **argv, const sl_cli_globals *g)
 {
@@ -300,6 +321,13 @@ int sl_cli_main(int argc, char **argv)
         case 'h': print_help(stdout); return stdout_status(&g, NULL, EX_OK);
         case 'V':
             printf("%s\n", sl_cli_version());
+            /* Which build this is, so a serial and an MPI binary cannot be
+             * mixed up (files written by either are the same byte for byte). */
+#ifdef SL_HAVE_MPI
+            printf("Build: MPI (make MPI=1): ensemble members are split over the ranks of mpirun.\n");
+#else
+            printf("Build: serial (without MPI; 'make MPI=1' builds build-mpi/steamloft).\n");
+#endif
             printf("Copyright (C) 2026 the steamloft developers. License GPL-3.0-or-later.\n");
             return stdout_status(&g, NULL, EX_OK);
         default:

@@ -108,20 +108,8 @@ static int parse_between(decay_opts *o, const sl_cli_globals *g, int argc, char 
     } else {
         return sl_cli_usage_error(g, "decay", "--between needs two altitudes, BOTTOM_M TOP_M");
     }
-    if (sl_cli_parse_double(buf, "--between BOTTOM_M", &o->bottom_m, &e) != SL_OK ||
-        sl_cli_parse_double(second, "--between TOP_M", &o->top_m, &e) != SL_OK)
+    if (sl_cli_between_m(buf, second, 1.0e5, &o->bottom_m, &o->top_m, &e) != SL_OK)
         return sl_cli_usage_error(g, "decay", "%s", e.msg);
-    /* A layer that ends below 120 m cannot reach the stratosphere: such values
-     * are kilometres written where metres are wanted. */
-    if (o->top_m > o->bottom_m && o->bottom_m >= 0.0 && o->top_m <= 120.0)
-        return sl_cli_usage_error(g, "decay",
-                                  "--between %g %g: the altitudes are in metres and these look like kilometres; "
-                                  "for %g to %g km write --between %g %g",
-                                  o->bottom_m, o->top_m, o->bottom_m, o->top_m, o->bottom_m * 1000.0,
-                                  o->top_m * 1000.0);
-    if (!(o->bottom_m >= 0.0 && o->top_m > o->bottom_m && o->top_m <= 1.0e5))
-        return sl_cli_usage_error(g, "decay", "--between %g %g: need 0 <= BOTTOM_M < TOP_M <= 100000 m",
-                                  o->bottom_m, o->top_m);
     o->have_between = 1;
     return EX_OK;
 }

@@ -113,15 +113,14 @@ static int build_plan(const sl_ens_request *c, sl_scenario *sc, sl_ens_plan *p, 
     SL_TRY_RETURN(e, rc);
     SL_TRY_RETURN(e, sl_cli_sets_apply(&c->sets, sc, e));
     for (int id = 0; id < SL_P_COUNT; id++) {
-        int line = 0;
-        const char *raw = sl_scenario_raw(sc, (sl_param_id)id, &line);
+        const char *raw = sl_scenario_raw(sc, (sl_param_id)id, NULL);
         /* A misspelled law ("unifrom(1, 2)") is parsed too, so that the
          * message names it rather than saying there is nothing uncertain. */
         if (raw == NULL || !(sl_dist_is_distribution(raw) || sl_dist_looks_like_law(raw)))
             continue;
         const sl_param_def *def = &sl_scenario_params[id];
         char where[SL_SCENARIO_PATH_LEN + 128], key[SL_ENS_KEY_LEN];
-        snprintf(where, sizeof where, "%s:%d: [%s] %s", sc->path, line, def->section, def->key);
+        sl_scenario_where(sc, (sl_param_id)id, where, sizeof where);
         snprintf(key, sizeof key, "%s.%s", def->section, def->key);
         if (!sl_dist_is_distribution(raw)) {
             sl_dist bad;

@@ -72,8 +72,9 @@ static void script_caution(FILE *fp)
 {
     fputs("caution = ", fp);
     gp_string(fp, sl_cli_caution());
-    fputs("\n# the caution under the title of every plot\n"
-          "caution_label = \"set label 99 caution at graph 0.5, graph 1 offset 0, 0.9 center font \\\",9\\\" "
+    fputs("\n# the caution under the title of every plot, centred on the canvas so that a\n"
+          "# key outside the graph cannot push it off the left edge\n"
+          "caution_label = \"set label 99 caution at screen 0.5, graph 1 offset 0, 0.9 center font \\\",9\\\" "
           "tc rgb c_caution noenhanced; set title offset 0, 1.2; set tmargin 4.5\"\n",
           fp);
 }
@@ -304,7 +305,7 @@ static void write_script(FILE *fp, const sl_output_view *v)
     }
 
     fputs("# steamloft plots.  Edit freely, then run `gnuplot steamloft.gp` in this directory\n"
-          "# to redraw profile, decay and column as SVG and PNG.\n",
+          "# to redraw them (profile, decay, column, section, sinks) as SVG and PNG.\n",
           fp);
     fprintf(fp, "# %s\n# %s\n\n", sl_cli_version(), sl_cli_caution());
     fputs("# ---- style: colours, fonts, sizes -------------------------------------\n"

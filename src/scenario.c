@@ -484,7 +484,7 @@ static int param_active(const sl_scenario *sc, int id)
 
 /* "FILE:LINE: [sec] key" prefix for messages ("--set sec.key" for a value
  * given on the command line). */
-static void where(const sl_scenario *sc, int id, char *buf, size_t n)
+void sl_scenario_where(const sl_scenario *sc, sl_param_id id, char *buf, size_t n)
 {
     const sl_param_def *d = &sl_scenario_params[id];
     if (sc->set_key[id])
@@ -501,7 +501,7 @@ static int convert_value(sl_scenario *sc, int id, sl_err *e)
     const sl_param_def *d = &sl_scenario_params[id];
     const char *text = sc->raw[id];
     char at[320], range[96];
-    where(sc, id, at, sizeof at);
+    sl_scenario_where(sc, id, at, sizeof at);
     sl_scenario_range_text((sl_param_id)id, range, sizeof range);
     switch (d->type) {
     case SL_PT_TEXT:
@@ -580,7 +580,7 @@ static int resolve(sl_scenario *sc, sl_err *e)
         if ((om == SL_ORIGIN_FILE || om == SL_ORIGIN_SET) && isfinite(given) && given != 0.0 &&
             (int)lround(given) != f.month) {
             char at[320];
-            where(sc, SL_P_SITE_MONTH, at, sizeof at);
+            sl_scenario_where(sc, SL_P_SITE_MONTH, at, sizeof at);
             SL_FAIL_RETURN(e, SL_EDATA,
                            "%s: %d does not agree with [site] date = %s (valid: %d, or leave month "
                            "out: it follows from the date)",
@@ -623,7 +623,7 @@ static int resolve(sl_scenario *sc, sl_err *e)
         double z0 = sc->value_si[SL_P_ENTRY_START_ALTITUDE];
         if (isfinite(za) && isfinite(z0) && za >= z0) {
             char at[320];
-            where(sc, SL_P_AIRBURST_ALTITUDE, at, sizeof at);
+            sl_scenario_where(sc, SL_P_AIRBURST_ALTITUDE, at, sizeof at);
             SL_FAIL_RETURN(e, SL_EDATA,
                            "%s: %g m is not below [entry] start_altitude_m = %g m (valid range: "
                            "0 to the start altitude)",

@@ -61,6 +61,32 @@ static void check_svg_has(const char *path, const char *text)
     ck_assert_msg(strstr(buf, text) != NULL, "%s lacks '%s'", path, text);
 }
 
+/* The caution in the SVG at PATH is centred on the canvas (its group is
+ * translated to half the <svg> width, text-anchor middle), so a key outside
+ * the graph cannot push its start off the left edge. */
+static void check_caution_centred(const char *path)
+{
+    FILE *f = fopen(path, "rb");
+    ck_assert_msg(f != NULL, "%s missing", path);
+    static char buf[4 << 20];
+    size_t n = fread(buf, 1, sizeof buf - 1, f);
+    fclose(f);
+    buf[n] = '\0';
+    double w = 0, x = -1;
+    const char *svg = strstr(buf, "<svg");
+    ck_assert_msg(svg && sscanf(strstr(svg, "width=\"") + 7, "%lf", &w) == 1 && w > 0, "%s: no width", path);
+    const char *c = strstr(buf, sl_cli_caution());
+    ck_assert_msg(c != NULL, "%s lacks the caution", path);
+    const char *t = NULL;
+    for (const char *q = c; q > buf && c - q < 400 && t == NULL; q--)
+        if (strncmp(q, "translate(", 10) == 0)
+            t = q;
+    ck_assert_msg(t && sscanf(t + 10, "%lf", &x) == 1, "%s: the caution has no position", path);
+    ck_assert_msg(fabs(x - 0.5 * w) < 1.0, "%s: caution centred at x = %g, canvas %g wide", path, x, w);
+    const char *anchor = strstr(t, "text-anchor=\"middle\"");
+    ck_assert_msg(anchor != NULL && anchor < c, "%s: the caution is not centred on its position", path);
+}
+
 /* gnuplot redraws everything from SCRIPT in DIR (the script stands alone). */
 static void redraw(const char *dir, const char *script)
 {
@@ -87,6 +113,7 @@ START_TEST(renders_all_plots)
         snprintf(p, sizeof p, "%s/%s.svg", dir, names[i]);
         check_svg(p);
         check_svg_has(p, sl_cli_caution());
+        check_caution_centred(p);
         check_svg_has(p, "invented test scenario"); /* the view's title, not a path */
         snprintf(p, sizeof p, "%s/%s.png", dir, names[i]);
         check_png(p, 1100, 830); /* png_w, png_h in the script */
@@ -238,6 +265,7 @@ START_TEST(ensemble_renders)
         snprintf(p, sizeof p, "%s/%s.svg", dir, names[i]);
         check_svg(p);
         check_svg_has(p, sl_cli_caution());
+        check_caution_centred(p);
         check_svg_has(p, "invented ensemble: 500 members");
         check_svg_has(p, "5-95 % of members");
         snprintf(p, sizeof p, "%s/%s.png", dir, names[i]);

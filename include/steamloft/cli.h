@@ -55,6 +55,15 @@ int sl_cli_usage_error(const sl_cli_globals *g, const char *cmd, const char *fmt
  * Returns SL_OK or SL_EUSAGE with a message naming what. */
 int sl_cli_parse_double(const char *text, const char *what, double *out, sl_err *e);
 
+/* The layer of `decay --between BOTTOM_M TOP_M`: parse both altitudes (m) and
+ * check 0 <= BOTTOM_M < TOP_M <= MAX_TOP_M.  Altitudes whose top is at most
+ * 120 m are kilometres written where metres are wanted (no such layer can
+ * reach the stratosphere): SL_EUSAGE with the fix, "for 22 to 27 km write
+ * --between 22000 27000".  Other mistakes: SL_EUSAGE naming the option and
+ * the valid range.  BOTTOM_M and TOP_M are set only on success. */
+int sl_cli_between_m(const char *bottom_text, const char *top_text, double max_top_m,
+                     double *bottom_m, double *top_m, sl_err *e);
+
 /* Report the option mistake getopt_long just returned (C is '?' or ':'):
  * one line naming the option, "Try ... --help", exit 64.  Commands put ':'
  * first in their short-option string so a missing value is told apart. */

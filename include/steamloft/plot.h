@@ -10,11 +10,21 @@
  *   decay.dat     time (years), global excess and excess per latitude region (Tg),
  *                 percent of background
  *   column.dat    time (years), global-mean and local column anomaly (precipitable um)
+ *   section.dat   time (years), layer centre (km), global-mean excess mole fraction
+ *                 (ppmv) and the half-widths of each layer-time box
+ *   sinks.dat     time (years), excess still in the stratosphere and the
+ *                 cumulative mass each removal path took (Tg)
  *   steamloft.gp  the script: `gnuplot steamloft.gp` in DIR redraws everything;
  *                 colours, sizes and labels are variables at its top
  *   profile.svg/png  lofted water against altitude, tropopause and background marked
  *   decay.svg/png    the excess over years (with a series)
  *   column.svg/png   the column anomaly over years (with a series)
+ *   section.svg/png  altitude-time section of the excess mole fraction, log colour
+ *                    scale, tropopauses marked (with the layer mole fractions)
+ *   sinks.svg/png    the excess and where it went, stacked over time (with sinks)
+ * Every plot is titled with the view's title (the scenario's name) and
+ * carries the caution (sl_cli_caution) under it; nothing is drawn outside
+ * the axis ranges.
  * gnuplot runs with posix_spawnp (no shell) in a private staging directory;
  * when it is not installed, or fails, the data and the script are still
  * written and a warning (not an error) is returned. */

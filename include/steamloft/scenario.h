@@ -370,6 +370,12 @@ void sl_scenario_path_stem(const char *path, char *buf, size_t n);
  * 0) and its line, or NULL when neither has the key. */
 const char *sl_scenario_raw(const sl_scenario *sc, sl_param_id id, int *line);
 
+/* Where key ID came from, as the prefix of a message about its value:
+ * "FILE:LINE: [sec] key" for a key written in the file, "FILE: --set
+ * sec.key" for one given by --set, "FILE: column sec.key" for a tabulate
+ * row, "FILE: [sec] key" otherwise (a default).  Always NUL-terminated. */
+void sl_scenario_where(const sl_scenario *sc, sl_param_id id, char *buf, size_t n);
+
 /* Valid range of a numeric key in its own unit, as people read it:
  * "0.1 to 100000 m", or the choices "shock|budget". */
 void sl_scenario_range_text(sl_param_id id, char *buf, size_t n);

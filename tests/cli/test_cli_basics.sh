@@ -7,6 +7,7 @@ sl_expect_grep "$SL_TMP/out" "Usage: steamloft" "--help prints usage to stdout"
 sl_expect_grep "$SL_TMP/out" "Screening estimate" "--help carries the caution"
 sl_expect_exit 0 "--version" "$SL_BIN" --version
 sl_expect_grep "$SL_TMP/out" "^steamloft [0-9][0-9.]* (git [0-9a-f]*" "--version prints version and git hash"
+sl_expect_grep "$SL_TMP/out" "^Build: serial (without MPI" "--version says which build (serial)"
 sl_expect_exit 64 "unknown command" "$SL_BIN" frobnicate
 sl_expect_grep "$SL_TMP/err" "unknown command 'frobnicate'" "unknown command is named"
 sl_expect_grep "$SL_TMP/err" "steamloft --help" "unknown command points to --help"
@@ -43,6 +44,22 @@ sl_expect_exit 0 "run x.ini --force -o out.nc" "$SL_BIN" run "$ex" --force -o "$
 [ "$(strat "$D/out.nc")" = "$want1" ] && sl_ok "--force after the command replaced the file" || sl_fail "--force after the command"
 sl_expect_exit 0 "steamloft --force run x.ini -o out.nc" "$SL_BIN" --force run "$ex2" -o "$D/out.nc"
 [ "$(strat "$D/out.nc")" = "$want2" ] && sl_ok "--force before the command replaced the file" || sl_fail "--force before the command"
+# The two placements write the same file: every variable and attribute equal
+# but the history (the command line and time it records).
+if command -v ncdump >/dev/null 2>&1; then
+  "$SL_BIN" run "$ex" --force -o "$D/after.nc" >/dev/null 2>&1
+  "$SL_BIN" --force run "$ex" -o "$D/before.nc" >/dev/null 2>&1
+  "$SL_BIN" run "$ex" --force -o "$D/after.nc" >/dev/null 2>&1
+  "$SL_BIN" --force run "$ex" -o "$D/before.nc" >/dev/null 2>&1
+  for f in after before; do ncdump "$D/$f.nc" | sed '1d; /:history = /d' >"$SL_TMP/$f.cdl"; done
+  if [ "$(wc -l <"$SL_TMP/after.cdl")" -gt 100 ] && cmp -s "$SL_TMP/after.cdl" "$SL_TMP/before.cdl"; then
+    sl_ok "run x.ini --force -o F and --force run x.ini -o F write the same file (all but history)"
+  else sl_fail "the two --force placements write different files"; diff "$SL_TMP/after.cdl" "$SL_TMP/before.cdl" | head -5 | sed 's/^/#   /'; fi
+  ncdump -h "$D/after.nc" | grep -q -- ":history = .*steamloft run $ex --force -o $D/after.nc\"" \
+    && sl_ok "the history records the command line as given" || sl_fail "history lacks the command line"
+else
+  sl_skip "ncdump (netcdf-bin) missing: the two --force placements are compared by decay only"
+fi
 sl_expect_exit 0 "run -o out.nc -f (short, at the end)" "$SL_BIN" run "$ex" -o "$D/out.nc" -f
 [ "$(strat "$D/out.nc")" = "$want1" ] && sl_ok "-f at the end replaced the file" || sl_fail "-f at the end"
 sl_expect_exit 0 "-q after the command" "$SL_BIN" run "$ex" -q

@@ -76,6 +76,31 @@ if command -v bash >/dev/null 2>&1; then
     sl_fail "--vary <TAB> keys differ from steamloft params"; diff "$SL_TMP/keys.txt" "$SL_TMP/ckeys.txt" | head -5; fi
   got=$(comp steamloft sweep x.ini --vary impactor.diam)
   if [ "$got" = "impactor.diameter_m=" ]; then sl_ok "--vary impactor.diam<TAB> -> impactor.diameter_m="; else sl_fail "--vary key gives '$got'"; fi
+  # Registered with bash's `complete` for the command name.
+  reg=$(bash -c '. "$1"; complete -p steamloft' reg "$compl" 2>&1)
+  if [ "$reg" = "complete -F _steamloft steamloft" ]; then sl_ok "complete -p steamloft: -F _steamloft"; else sl_fail "complete -p steamloft gives '$reg'"; fi
+  got=$(comp steamloft run x.ini --set impactor.diam)
+  if [ "$got" = "impactor.diameter_m=" ]; then sl_ok "run --set impactor.diam<TAB> -> impactor.diameter_m="; else sl_fail "run --set key gives '$got'"; fi
+  got=$(comp steamloft run x.ini --force)
+  if [ "$got" = "--force" ]; then sl_ok "run x.ini --force<TAB> -> --force (global options anywhere)"; else sl_fail "run x.ini --force<TAB> gives '$got'"; fi
+  got=$(comp steamloft atmos --su | tr '\n' ' ')
+  if [ "$got" = "--summary " ]; then sl_ok "atmos --su<TAB> -> --summary (no usage-line debris)"; else sl_fail "atmos --su<TAB> gives '$got'"; fi
+  # Every option that takes a value in a command's --help has a value kind
+  # in the completion (none dropped, e.g. the last of the list).
+  miss=""
+  for c in $cmds; do
+    [ "$c" = help ] && continue
+    "$SL_BIN" "$c" --help 2>/dev/null | awk '/^ +-/ { line = $0; sub(/^ +/, "", line); g = index(line, "  ");
+        if (g) line = substr(line, 1, g - 1); n = split(line, w, /[ ,]+/); k = 0
+        for (i = 1; i <= n; i++) { if (w[i] !~ /^-/) { if (w[i] ~ /^[A-Z]/) for (j = 1; j <= k; j++) print o[j]; break }
+                                   if (w[i] !~ /^--?[a-z0-9][a-z0-9-]*$/) break; o[++k] = w[i] } }' |
+      sort -u >"$SL_TMP/argopts.txt"
+    while read -r o; do
+      kind=$(bash -c '. "$1"; _steamloft_arg_kind "$2" "$3"' k "$compl" "$c" "$o")
+      [ "$kind" = none ] && miss="$miss $c:$o"
+    done <"$SL_TMP/argopts.txt"
+  done
+  if [ -z "$miss" ]; then sl_ok "every option with a value has a value kind in the completion"; else sl_fail "options without a kind:$miss"; fi
   got=$(comp steamloft decay --atmosphere subarctic-w)
   if [ "$got" = "subarctic-winter" ]; then sl_ok "--atmosphere completes built-in profiles"; else sl_fail "--atmosphere gives '$got'"; fi
 else
@@ -117,6 +142,12 @@ if command -v make >/dev/null 2>&1 && [ -f "$SL_SRCDIR/Makefile" ]; then
   (cd "$SL_SRCDIR" && env -u MAKEFLAGS -u MFLAGS -u MAKELEVEL -u BUILD make -n -B MPI=0 build) >"$SL_TMP/n-ser.txt" 2>&1
   if grep -q '^cc .* -o build/obj/main.o' "$SL_TMP/n-ser.txt" && ! grep -q 'build-mpi' "$SL_TMP/n-ser.txt"; then
     sl_ok "the serial build compiles with cc into build/"; else sl_fail "the serial build does not use build/"; head -3 "$SL_TMP/n-ser.txt" | sed 's/^/#   /'; fi
+fi
+
+# An MPI binary, when one was built, says so: the two cannot be mixed up.
+if [ -x "$SL_SRCDIR/build-mpi/steamloft" ]; then
+  "$SL_SRCDIR/build-mpi/steamloft" --version >"$SL_TMP/v-mpi.txt" 2>&1
+  sl_expect_grep "$SL_TMP/v-mpi.txt" "^Build: MPI (make MPI=1)" "build-mpi/steamloft --version says MPI"
 fi
 
 if [ "$sl_n" -le 2 ] && [ -n "$skipped" ]; then

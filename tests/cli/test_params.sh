@@ -69,5 +69,18 @@ nerr=$(wc -l <"$SL_TMP/err")
 [ "$nerr" -eq 2 ] && sl_ok "one message (and the --help pointer) per mistake" || sl_fail "$nerr lines on stderr"
 sl_expect_exit 78 "--set of the other event type" "$SL_BIN" params --set explosion.energy_Mt=5 "$ex"
 sl_expect_grep "$SL_TMP/err" "\[explosion\] cannot go with \[impactor\]" "two event types are refused"
+# A --set value checked only when a stage uses it (the atmosphere is opened by
+# the chain) is named as --set too, never as line 0 of the file.
+sl_expect_exit 66 "run --set site.atmosphere=nosuch" "$SL_BIN" run "$ex" --set site.atmosphere=nosuch
+sl_expect_grep "$SL_TMP/err" "ocean-stony-300m.ini: --set site.atmosphere = nosuch: atmosphere 'nosuch' is neither a built-in profile (us1976," \
+  "the atmosphere error names --set and the built-in profiles"
+if grep -q ':0:' "$SL_TMP/err"; then sl_fail "the message shows line 0"; else sl_ok "no line 0 in the message"; fi
+printf 'altitude_km temperature_K\n' >"$SL_TMP/bad.atm"
+sl_expect_exit 65 "run --set site.atmosphere=a bad profile file" "$SL_BIN" run "$ex" --set site.atmosphere="$SL_TMP/bad.atm"
+sl_expect_grep "$SL_TMP/err" "--set site.atmosphere = $SL_TMP/bad.atm: $SL_TMP/bad.atm" "the profile error names --set, then the profile file"
+sl_expect_exit 65 "run --set plume.band_top_m too close to the bottom" "$SL_BIN" run "$ex" --set plume.band_bottom_m=5000 --set plume.band_top_m=5500
+sl_expect_grep "$SL_TMP/err" "--set plume.band_top_m = 5500 must exceed band_bottom_m = 5000 by at least band_width_m = 1000" "the band error names --set"
+sl_expect_exit 64 "sweep with a --set distribution" "$SL_BIN" sweep "$ex" --set "impactor.angle_deg=uniform(30,60)" --vary impactor.diameter_m=250,300
+sl_expect_grep "$SL_TMP/err" "ocean-stony-300m.ini: --set impactor.angle_deg is a distribution" "the sweep error names --set"
 sl_expect_exit 64 "two files" "$SL_BIN" params a b
 sl_done
