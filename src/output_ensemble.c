@@ -1,6 +1,7 @@
 /* output_ensemble: per-member CSV and netCDF, the summary and the plots of
  * an ensemble or sweep (see include/steamloft/output_ensemble.h). */
 #include "steamloft/output_ensemble.h"
+#include "steamloft/output_csv.h"
 
 #include "steamloft/output_nc.h"
 #include "steamloft/output_text.h"
@@ -60,11 +61,7 @@ static void csv_field(FILE *f, const char *s)
 static void csv_number(FILE *f, double x)
 {
     char buf[40];
-    for (int prec = 15; prec <= 17; prec++) {
-        snprintf(buf, sizeof buf, "%.*g", prec, x);
-        if (prec == 17 || strtod(buf, NULL) == x)
-            break;
-    }
+    sl_csv_number_text(buf, x);
     fputs(buf, f);
 }
 
