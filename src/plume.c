@@ -81,10 +81,13 @@
  * used reproduces the 1.69 Mt surface-burst cloud (top 21.6 km, bottom
  * 12.3 km) within the tolerance of tests/test_plume.c.  In the Boussinesq
  * limit it spans [2^-1/4, 1 + alpha] z_max.  Within the layer the mass is
- * placed where it is: densest at the neutral level, where the collapsing
- * thermal spreads as an umbrella, and thinning linearly to nothing at the top
- * of the overshoot (a triangular profile with its mode at z_N; Morton, Taylor
- * & Turner 1956; Sparks 1986; Woods 1988), not spread evenly.
+ * placed where it is: the umbrella's volume is widest at the neutral level,
+ * where the collapsing thermal spreads, and narrows linearly to nothing at
+ * the top of the overshoot (a triangular profile with its mode at z_N;
+ * Morton, Taylor & Turner 1956; Sparks 1986; Woods 1988), and its mass is
+ * that volume times the ambient density (the gas has come to rest near its
+ * level), so the overshoot, in thinner air, carries little of it
+ * (sl_injection_umbrella_weight; docs/physics.md section 6).
  *
  * Ballistic regime: see sl_plume_rise's helpers ballistic_weight and
  * ballistic_flight below (and docs/physics.md section 6).
@@ -980,13 +983,16 @@ static int add_layer(sl_plume *pl, sl_injection *inj, const sl_atmosphere *atm, 
     if (ct <= band_lo)
         keep = 0.0;
     else if (cb < band_lo) {
-        double u = band_lo - cb;
         if (!tent)
             keep = (ct - band_lo) / (ct - cb);
-        else if (band_lo <= peak)
-            keep = 1.0 - u * u / ((ct - cb) * (peak - cb));
-        else
-            keep = (ct - band_lo) * (ct - band_lo) / ((ct - cb) * (ct - peak));
+        else {
+            /* The umbrella's mass share above the lowest band (placement by mass). */
+            sl_young_cloud whole = {cb, ct, 0.0, 0.0, peak};
+            double w_all, w_in;
+            SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, &whole, cb, ct, &w_all, e));
+            SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, &whole, band_lo, ct, &w_in, e));
+            keep = w_all > 0.0 ? w_in / w_all : 0.0;
+        }
     }
     pl->water_below_bands_kg += water * (1.0 - keep);
     if (keep == 0.0)
@@ -1063,10 +1069,10 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
         t_last = fmax(t_last, th->apex_time_s);
         /* The thermal part and the ballistic part, each in its layer. */
         double f = th->ballistic_fraction;
-        /* Placement by mass: the thermal's cloud is densest at its neutral-
-         * buoyancy level, where the umbrella spreads, and thins to nothing at
-         * the top of the overshoot (Morton, Taylor & Turner 1956; Sparks 1986;
-         * Woods 1988): a triangular profile with its mode at z_N. */
+        /* Placement by mass: the thermal's umbrella is widest at its neutral-
+         * buoyancy level and narrows to nothing at the top of the overshoot
+         * (Morton, Taylor & Turner 1956; Sparks 1986; Woods 1988): a triangular
+         * volume profile with its mode at z_N, times the ambient density. */
         SL_TRY_RETURN(e, add_layer(pl, inj, atm, th->cloud_bottom_m, th->cloud_top_m, th->neutral_altitude_m,
                                    th->air_kg * (1.0 - f), water * (1.0 - f), e));
         if (f > 0.0) {
