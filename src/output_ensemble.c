@@ -5,6 +5,7 @@
 #include "steamloft/output_nc.h"
 #include "steamloft/output_text.h"
 #include "steamloft/plot.h"
+#include "steamloft/sweep_rows.h"
 #include "steamloft/units.h"
 #include "steamloft/units_table.h"
 
@@ -125,9 +126,11 @@ int sl_ens_sink_row(void *sinkp, size_t m, const double *in, const double *out, 
 {
     sl_ens_sink *s = sinkp;
     size_t ni = s->plan->n_inputs, no = s->model->n_outputs, nb = s->chain->n_band;
+    if (s->rows)
+        sl_sweep_rows_add(s->rows, m, out + no + nb + s->chain->n_time, st, reason);
     for (size_t k = 0; k < ni; k++) {
         const sl_param_def *d = &sl_scenario_params[s->ids[k]];
-        if (in[k] < d->min_value || in[k] > d->max_value)
+        if (s->plan->inputs[k].labels == NULL && (in[k] < d->min_value || in[k] > d->max_value))
             s->out_of_range[k]++;
     }
     if (st == SL_OK) {
@@ -140,8 +143,12 @@ int sl_ens_sink_row(void *sinkp, size_t m, const double *in, const double *out, 
         fprintf(f, "%zu,%s,", m, status_word(st));
         csv_field(f, reason);
         for (size_t k = 0; k < ni; k++) {
+            const char *label = sl_ens_input_label(s->plan, k, in[k]); /* a text key's value */
             fputc(',', f);
-            csv_number(f, in[k]);
+            if (label)
+                csv_field(f, label);
+            else
+                csv_number(f, in[k]);
         }
         for (size_t j = 0; j < no; j++) {
             fputc(',', f);
@@ -267,6 +274,11 @@ static int nc_define(sl_ens_sink *s, const char *path, size_t np, const double *
         for (char *q = name; *q; q++)
             if (*q == '.')
                 *q = '_';
+        if (p->inputs[k].labels) { /* a text key: its index, CF flags */
+            SL_TRY_RETURN(e, sl_sweep_nc_text_input(s->nc, path, dm, &p->inputs[k], name, &s->nc_in[k], e));
+            SL_TRY_RETURN(e, member_chunks(s, s->nc_in[k], 1, 1, sizeof(int), e));
+            continue;
+        }
         udunits_of_key(s->ids[k], units, sizeof units);
         SL_TRY_RETURN(e, def_double(s, name, 1, &dm, p->inputs[k].key, units, 0, &s->nc_in[k], e));
         SL_TRY_RETURN(e, member_chunks(s, s->nc_in[k], 1, 1, sizeof(double), e));
@@ -381,6 +393,12 @@ int sl_ens_sink_open(sl_ens_sink *s, const sl_ens_request *rq, const sl_cli_glob
     s->out_of_range = calloc(p->n_inputs + 1, sizeof *s->out_of_range);
     if (s->out_of_range == NULL)
         SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory");
+    if (p->mode == SL_ENS_GRID && p->n_members <= SL_SWEEP_MAX_ROWS) {
+        s->rows = calloc(1, sizeof *s->rows);
+        if (s->rows == NULL)
+            SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory");
+        SL_TRY_RETURN(e, sl_sweep_rows_init(s->rows, p->n_members, e));
+    }
     SL_TRY_RETURN(e, sl_ens_hist_init(&s->hprof, c->n_band, PROF_LO_LOG10, PROF_HI_LOG10, BINS_PER_DECADE, e));
     SL_TRY_RETURN(e, sl_ens_hist_init(&s->hrem, c->n_time, REM_LO_LOG10, REM_HI_LOG10, BINS_PER_DECADE, e));
     s->csv_stdout = rq->csv_path && strcmp(rq->csv_path, "-") == 0;
@@ -468,6 +486,8 @@ void sl_ens_sink_free(sl_ens_sink *s)
     free(s->buf_m);
     free(s->buf_reason);
     free(s->out_of_range);
+    sl_sweep_rows_free(s->rows);
+    free(s->rows);
     sl_ens_hist_free(&s->hprof);
     sl_ens_hist_free(&s->hrem);
     summary_free(s->summary);
@@ -611,6 +631,8 @@ static void summary_json(FILE *f, const sl_ens_sink *s, const sl_ens_result *r, 
     sl_report_number(rep, "ranks", r->mpi_ranks, "", 1, "");
     sl_report_number(rep, "threads", r->threads, "", 1, "");
     sl_report_number(rep, "wall_s", r->wall_s, "", 1, "");
+    if (s->rows)
+        sl_sweep_rows_json(rep, p, m, r, s->rows);
     sl_report_string(rep, "caution", sl_cli_caution(), "");
 }
 
@@ -725,7 +747,12 @@ int sl_ens_summary_write(FILE *f, const sl_ens_sink *s, const sl_ens_result *r, 
         summary_json(f, s, r, u, thr, &rep);
         return sl_report_end(&rep, e);
     }
+    if (s->rows) /* a sweep of at most SL_SWEEP_MAX_ROWS points: a row each */
+        return sl_sweep_rows_text(f, s->rq->scenario, s->plan, s->model, r, s->rows, e);
     summary_text(f, s, r, u, thr);
+    if (s->plan->mode == SL_ENS_GRID)
+        fprintf(f, "(%zu grid points: the statistics above; one row per point is in the CSV, -o FILE.csv)\n",
+                r->n_members);
     if (fflush(f) != 0 || ferror(f))
         SL_FAIL_RETURN(e, SL_EIO, "cannot write the summary");
     return SL_OK;

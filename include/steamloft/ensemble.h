@@ -88,6 +88,10 @@ typedef struct sl_ens_input {
     char key[SL_ENS_KEY_LEN]; /* "section.key" as in the scenario */
     double to_si;             /* multiply a value in the key's unit to get SI */
     sl_dist dist;             /* GRID uses dist.kind == SL_DIST_CHOICE */
+    char **labels;            /* a text key's values (owned), NULL for a numeric key: the
+                               * input's value is then the index 0..n_labels-1 of the text
+                               * (dist a CHOICE of the indices, to_si 1; sweep_rows.c) */
+    size_t n_labels;
 } sl_ens_input;
 
 typedef struct sl_ens_plan {
@@ -109,6 +113,10 @@ int sl_ens_plan_add(sl_ens_plan *p, const char *key, double to_si, sl_dist *d, s
  * included); STEP must be non-zero and point from START towards STOP.  At most
  * 100000 values.  Errors: SL_EUSAGE naming the specification and the form. */
 int sl_ens_parse_vary(const char *spec, char *key_out, sl_dist *d, sl_err *e);
+
+/* Text of input K's value X: the label of a text key (X its index), NULL
+ * for a numeric key (src/sweep_rows.c). */
+const char *sl_ens_input_label(const sl_ens_plan *p, size_t k, double x);
 
 /* Check the plan and fill derived fields (GRID: n_members = product of list
  * lengths).  Errors: SL_EUSAGE for no members, Sobol with 0 or more than 40
