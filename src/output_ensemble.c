@@ -282,7 +282,7 @@ static int nc_define(sl_ens_sink *s, const char *path, size_t np, const double *
         udunits_of_key(s->ids[k], units, sizeof units);
         SL_TRY_RETURN(e, def_double(s, name, 1, &dm, p->inputs[k].key, units, 0, &s->nc_in[k], e));
         SL_TRY_RETURN(e, member_chunks(s, s->nc_in[k], 1, 1, sizeof(double), e));
-        sl_dist_describe(&p->inputs[k].dist, desc, sizeof desc);
+        sl_ens_input_describe(p, k, desc, sizeof desc);
         SL_TRY_RETURN(e, att(s, s->nc_in[k], "sampled_from", desc, e));
     }
     for (size_t j = 0; j < m->n_outputs; j++) {
@@ -583,7 +583,7 @@ static void summary_json(FILE *f, const sl_ens_sink *s, const sl_ens_result *r, 
     sl_report_begin_array(rep, "inputs", NULL);
     for (size_t k = 0; k < p->n_inputs; k++) {
         char desc[160], range[96];
-        sl_dist_describe(&p->inputs[k].dist, desc, sizeof desc);
+        sl_ens_input_describe(p, k, desc, sizeof desc);
         range_text(s->ids[k], range, sizeof range);
         sl_report_begin_object(rep, NULL, NULL);
         sl_report_string(rep, "key", p->inputs[k].key, "");
@@ -654,7 +654,7 @@ static void summary_text(FILE *f, const sl_ens_sink *s, const sl_ens_result *r, 
     fprintf(f, "%s:\n", p->mode == SL_ENS_GRID ? "swept inputs" : "uncertain inputs");
     for (size_t k = 0; k < p->n_inputs; k++) {
         char desc[160];
-        sl_dist_describe(&p->inputs[k].dist, desc, sizeof desc);
+        sl_ens_input_describe(p, k, desc, sizeof desc);
         fprintf(f, "  %-36s %s\n", p->inputs[k].key, desc);
     }
     for (size_t k = 0; k < p->n_inputs; k++)

@@ -21,6 +21,18 @@ const char *sl_ens_input_label(const sl_ens_plan *p, size_t k, double x)
     return in->labels[(size_t)x];
 }
 
+void sl_ens_input_describe(const sl_ens_plan *p, size_t k, char *buf, size_t n)
+{
+    const sl_ens_input *in = &p->inputs[k];
+    if (in->labels == NULL) {
+        sl_dist_describe(&in->dist, buf, n);
+        return;
+    }
+    int w = snprintf(buf, n, "values");
+    for (size_t i = 0; i < in->n_labels && w > 0 && (size_t)w < n; i++)
+        w += snprintf(buf + w, n - (size_t)w, "%s %s", i ? "," : "", in->labels[i]);
+}
+
 int sl_sweep_is_text_key(const char *spec, int *id)
 {
     const char *eq = strchr(spec, '=');
@@ -250,12 +262,12 @@ int sl_sweep_rows_text(FILE *f, const char *scenario, const sl_ens_plan *p, cons
             res->n_members - res->n_failed, res->n_failed);
     for (size_t k = 0; k < ni; k++)
         fprintf(f, "%-*s  ", w[k], "");
-    fprintf(f, "%-8s %9s %11s %9s %9s\n", "", "at sea", "above trop", "of bkgd", "e-fold");
+    fprintf(f, "%-8s %9s %11s %9s %9s\n", "", "at sea", "strat water", "of bkgd", "e-fold");
     for (size_t k = 0; k < ni; k++) {
         const char *dot = strchr(p->inputs[k].key, '.');
         fprintf(f, "%-*s  ", w[k], dot ? dot + 1 : p->inputs[k].key);
     }
-    fprintf(f, "%-8s %9s %11s %9s %9s  %s\n", "regime", "Mt TNT", "Tg water", "%", "years", "validity");
+    fprintf(f, "%-8s %9s %11s %9s %9s  %s\n", "regime", "Mt TNT", "Tg", "%", "years", "validity");
     for (size_t mi = 0; mi < res->n_members; mi++) {
         for (size_t k = 0; k < ni; k++) {
             char b[SL_SCENARIO_RAW_LEN];

@@ -36,7 +36,8 @@
  * is not a Monte Carlo standard error.
  *
  * Grid (sweep): each swept key takes a list of values; members run through the
- * Cartesian product with the LAST key varying fastest.
+ * Cartesian product with the LAST key varying fastest.  A text key's list is
+ * the indices of its texts (sl_ens_input.labels).
  *
  * Determinism: members are computed in blocks; each member's inputs, outputs,
  * status and reason are stored in its own slot, and everything that reduces
@@ -113,10 +114,6 @@ int sl_ens_plan_add(sl_ens_plan *p, const char *key, double to_si, sl_dist *d, s
  * included); STEP must be non-zero and point from START towards STOP.  At most
  * 100000 values.  Errors: SL_EUSAGE naming the specification and the form. */
 int sl_ens_parse_vary(const char *spec, char *key_out, sl_dist *d, sl_err *e);
-
-/* Text of input K's value X: the label of a text key (X its index), NULL
- * for a numeric key (src/sweep_rows.c). */
-const char *sl_ens_input_label(const sl_ens_plan *p, size_t k, double x);
 
 /* Check the plan and fill derived fields (GRID: n_members = product of list
  * lengths).  Errors: SL_EUSAGE for no members, Sobol with 0 or more than 40

@@ -33,6 +33,14 @@ enum { SL_SWEEP_MAX_ROWS = 200, SL_SWEEP_ROW_EXTRAS = 2 };
 int sl_sweep_add_text_input(const sl_scenario *sc, sl_ens_plan *p, int *ids, int id, const char *key,
                             const char *values, sl_err *e);
 
+/* Text of input K's value X: the label of a text key (X its index), NULL
+ * for a numeric key. */
+const char *sl_ens_input_label(const sl_ens_plan *p, size_t k, double x);
+
+/* How input K is sampled, for summaries: sl_dist_describe, or for a text key
+ * "values a, b, c". */
+void sl_ens_input_describe(const sl_ens_plan *p, size_t k, char *buf, size_t n);
+
 /* Whether "section.key=..." names a text or choice key (its id in *ID). */
 int sl_sweep_is_text_key(const char *spec, int *id);
 
