@@ -543,6 +543,12 @@ static int summary_compute(summary *u, const sl_ens_sink *s, const sl_ens_result
     }
     if (u->ni > 0)
         SL_TRY_RETURN(e, sl_ens_sensitivity(r, u->sens, u->sens + u->ni * u->no, e));
+    /* A text key's value is an index without order: no rank correlation
+     * (its first-order share, from classes of equal values, stays in JSON). */
+    for (size_t k = 0; k < u->ni; k++)
+        if (s->plan->inputs[k].labels)
+            for (size_t j = 0; j < u->no; j++)
+                u->sens[j * u->ni + k] = NAN;
     for (size_t t = 0; t < s->rq->nthr; t++)
         sl_ens_exceedance(r, (size_t)thr_out[t], &thr[t], &u->pe[t], &u->se[t], &u->pe_n[t]);
     return SL_OK;

@@ -39,6 +39,27 @@ PYEOF
 if [ $? -eq 0 ]; then sl_ok "each sweep row = run --set site.atmosphere=... (energy at sea, water, % of background, e-folding, regime, validity)"; else
   sl_fail "sweep rows vs run"; sed 's/^/#   /' "$SL_TMP/py.txt" | tail -3; fi
 
+# A choice key of the box model (the members rebuild it): the same numbers as run --set.
+sl_expect_exit 0 "sweep over strat.extratropics_atmosphere" "$SL_BIN" sweep "$EX/ocean-stony-300m.ini" \
+  --vary strat.extratropics_atmosphere=us1976-humid,subarctic-winter --json
+cp "$SL_TMP/out" "$SL_TMP/strat.json"
+for a in us1976-humid subarctic-winter; do
+  "$SL_BIN" run "$EX/ocean-stony-300m.ini" --set strat.extratropics_atmosphere=$a --json >"$SL_TMP/srun-$a.json" 2>"$SL_TMP/err" ||
+    sl_fail "run --set strat.extratropics_atmosphere=$a"
+done
+$PY - "$SL_TMP/strat.json" "$SL_TMP/srun-us1976-humid.json" "$SL_TMP/srun-subarctic-winter.json" <<'PYEOF' >"$SL_TMP/py.txt" 2>&1
+import json, sys
+rows = json.load(open(sys.argv[1]))["rows"]
+for r, path in zip(rows, sys.argv[2:]):
+    run = json.load(open(path))
+    for k in ("percent_of_background", "efolding_years"):
+        a, b = r[k], run[k]
+        assert abs(a - b) <= 1e-8 * max(abs(a), abs(b)), (k, a, b)
+assert rows[0]["percent_of_background"] != rows[1]["percent_of_background"], rows
+PYEOF
+if [ $? -eq 0 ]; then sl_ok "a box-model choice key swept: each row = run --set (percent of background, e-folding)"; else
+  sl_fail "strat choice sweep vs run"; sed 's/^/#   /' "$SL_TMP/py.txt" | tail -3; fi
+
 # The text table: a row per point with the atmosphere's name first.
 sl_expect_exit 0 "sweep table" "$SL_BIN" sweep "$EX/demo.ini" --vary site.atmosphere=tropical,subarctic-winter
 if [ "$(grep -c '^tropical \|^subarctic-winter ' "$SL_TMP/out")" -eq 2 ] && grep -q "regime" "$SL_TMP/out"; then
