@@ -183,26 +183,47 @@ int sl_sweep_add_text_input(const sl_scenario *sc, sl_ens_plan *p, int *ids, int
 
 /* ------------------------------------------------------------ rows */
 
-int sl_sweep_rows_init(sl_sweep_rows *r, size_t n, sl_err *e)
+/* The key outputs of a row, by their ensemble names. */
+static const char *const row_outputs[SL_SWEEP_ROW_OUT] = {"energy_at_sea_Mt", "stratospheric_water_Tg",
+                                                          "percent_of_background", "efolding_years"};
+
+int sl_sweep_rows_init(sl_sweep_rows *r, const sl_ens_plan *p, const sl_ens_model *m, sl_err *e)
 {
     memset(r, 0, sizeof *r);
+    size_t n = p->n_members, ni = p->n_inputs;
+    for (int q = 0; q < SL_SWEEP_ROW_OUT; q++) {
+        r->col[q] = -1;
+        for (size_t j = 0; j < m->n_outputs; j++)
+            if (strcmp(m->outputs[j].name, row_outputs[q]) == 0)
+                r->col[q] = (int)j;
+    }
+    r->in = calloc(n * ni + 1, sizeof *r->in);
+    r->out = calloc(n * SL_SWEEP_ROW_OUT + 1, sizeof *r->out);
+    r->status = calloc(n + 1, sizeof *r->status);
     r->regime = calloc(n + 1, sizeof *r->regime);
     r->extrapolated = calloc(n + 1, sizeof *r->extrapolated);
     r->reason = calloc((n + 1) * SL_ENS_REASON_LEN, 1);
-    if (!r->regime || !r->extrapolated || !r->reason) {
+    if (!r->in || !r->out || !r->status || !r->regime || !r->extrapolated || !r->reason) {
         sl_sweep_rows_free(r);
         SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory for the sweep's rows");
     }
     r->n = n;
+    r->ni = ni;
     return SL_OK;
 }
 
-void sl_sweep_rows_add(sl_sweep_rows *r, size_t m, const double *tail, int status, const char *reason)
+void sl_sweep_rows_add(sl_sweep_rows *r, size_t m, const double *in, const double *out, const double *tail,
+                       int status, const char *reason)
 {
     if (m >= r->n)
         return;
-    int ok = status == SL_OK && isfinite(tail[0]);
-    r->regime[m] = ok ? (int)tail[0] : -1;
+    int ok = status == SL_OK;
+    memcpy(r->in + m * r->ni, in, r->ni * sizeof *in);
+    for (int q = 0; q < SL_SWEEP_ROW_OUT; q++)
+        r->out[m * SL_SWEEP_ROW_OUT + (size_t)q] = ok && r->col[q] >= 0 ? out[r->col[q]] : NAN;
+    r->status[m] = status;
+    r->n_failed += !ok;
+    r->regime[m] = ok && isfinite(tail[0]) ? (int)tail[0] : -1;
     r->extrapolated[m] = ok && tail[1] > 0.5;
     snprintf(r->reason + m * SL_ENS_REASON_LEN, SL_ENS_REASON_LEN, "%s", reason ? reason : "");
 }
@@ -211,25 +232,13 @@ void sl_sweep_rows_free(sl_sweep_rows *r)
 {
     if (r == NULL)
         return;
+    free(r->in);
+    free(r->out);
+    free(r->status);
     free(r->regime);
     free(r->extrapolated);
     free(r->reason);
     memset(r, 0, sizeof *r);
-}
-
-/* The key outputs of a row, by their ensemble names. */
-static const char *const row_outputs[] = {"energy_at_sea_Mt", "stratospheric_water_Tg", "percent_of_background",
-                                          "efolding_years"};
-enum { N_ROW_OUT = 4 };
-
-static void row_columns(const sl_ens_model *m, int *col)
-{
-    for (int q = 0; q < N_ROW_OUT; q++) {
-        col[q] = -1;
-        for (size_t j = 0; j < m->n_outputs; j++)
-            if (strcmp(m->outputs[j].name, row_outputs[q]) == 0)
-                col[q] = (int)j;
-    }
 }
 
 static void input_text(const sl_ens_plan *p, size_t k, double x, char *buf, size_t n)
@@ -241,25 +250,22 @@ static void input_text(const sl_ens_plan *p, size_t k, double x, char *buf, size
         snprintf(buf, n, "%.6g", x);
 }
 
-int sl_sweep_rows_text(FILE *f, const char *scenario, const sl_ens_plan *p, const sl_ens_model *m,
-                       const sl_ens_result *res, const sl_sweep_rows *r, sl_err *e)
+int sl_sweep_rows_text(FILE *f, const char *scenario, const sl_ens_plan *p, const sl_sweep_rows *r, sl_err *e)
 {
-    int col[N_ROW_OUT];
-    row_columns(m, col);
-    size_t ni = p->n_inputs, no = res->n_outputs;
+    size_t ni = r->ni;
     int w[SL_P_COUNT + 16];
     for (size_t k = 0; k < ni && k < sizeof w / sizeof w[0]; k++) {
         const char *dot = strchr(p->inputs[k].key, '.');
         w[k] = (int)strlen(dot ? dot + 1 : p->inputs[k].key);
-        for (size_t mi = 0; mi < res->n_members; mi++) {
+        for (size_t mi = 0; mi < r->n; mi++) {
             char b[SL_SCENARIO_RAW_LEN];
-            input_text(p, k, res->inputs[mi * ni + k], b, sizeof b);
+            input_text(p, k, r->in[mi * ni + k], b, sizeof b);
             int l = (int)strlen(b);
             w[k] = l > w[k] ? (l > 40 ? 40 : l) : w[k];
         }
     }
-    fprintf(f, "steamloft sweep: %s, %zu grid points; %zu ok, %zu failed\n\n", scenario, res->n_members,
-            res->n_members - res->n_failed, res->n_failed);
+    fprintf(f, "steamloft sweep: %s, %zu grid points; %zu ok, %zu failed\n\n", scenario, r->n, r->n - r->n_failed,
+            r->n_failed);
     for (size_t k = 0; k < ni; k++)
         fprintf(f, "%-*s  ", w[k], "");
     fprintf(f, "%-8s %9s %11s %9s %9s\n", "", "at sea", "strat water", "of bkgd", "e-fold");
@@ -268,19 +274,19 @@ int sl_sweep_rows_text(FILE *f, const char *scenario, const sl_ens_plan *p, cons
         fprintf(f, "%-*s  ", w[k], dot ? dot + 1 : p->inputs[k].key);
     }
     fprintf(f, "%-8s %9s %11s %9s %9s  %s\n", "regime", "Mt TNT", "Tg", "%", "years", "validity");
-    for (size_t mi = 0; mi < res->n_members; mi++) {
+    for (size_t mi = 0; mi < r->n; mi++) {
         for (size_t k = 0; k < ni; k++) {
             char b[SL_SCENARIO_RAW_LEN];
-            input_text(p, k, res->inputs[mi * ni + k], b, sizeof b);
+            input_text(p, k, r->in[mi * ni + k], b, sizeof b);
             fprintf(f, "%-*.*s  ", w[k], w[k], b);
         }
-        if (res->status[mi] != SL_OK) {
+        if (r->status[mi] != SL_OK) {
             fprintf(f, "%-8s %s\n", "FAILED", r->reason + mi * SL_ENS_REASON_LEN);
             continue;
         }
-        char v[N_ROW_OUT][32], vs[64], vl[256];
-        for (int q = 0; q < N_ROW_OUT; q++)
-            sl_output_fmt3(v[q], sizeof v[q], col[q] >= 0 ? res->outputs[mi * no + (size_t)col[q]] : NAN);
+        char v[SL_SWEEP_ROW_OUT][32], vs[64], vl[256];
+        for (int q = 0; q < SL_SWEEP_ROW_OUT; q++)
+            sl_output_fmt3(v[q], sizeof v[q], r->out[mi * SL_SWEEP_ROW_OUT + (size_t)q]);
         int rg = r->regime[mi];
         sl_output_validity(rg >= 0, rg, r->extrapolated[mi], vs, sizeof vs, vl, sizeof vl);
         fprintf(f, "%-8s %9s %11s %9s %9s  %s\n", rg >= 0 ? sl_plume_regime_name(rg) : "none", v[0], v[1], v[2],
@@ -292,25 +298,22 @@ int sl_sweep_rows_text(FILE *f, const char *scenario, const sl_ens_plan *p, cons
     return SL_OK;
 }
 
-void sl_sweep_rows_json(sl_report *rep, const sl_ens_plan *p, const sl_ens_model *m, const sl_ens_result *res,
-                        const sl_sweep_rows *r)
+void sl_sweep_rows_json(sl_report *rep, const sl_ens_plan *p, const sl_sweep_rows *r)
 {
-    int col[N_ROW_OUT];
-    row_columns(m, col);
-    size_t ni = p->n_inputs, no = res->n_outputs;
+    size_t ni = r->ni;
     sl_report_begin_array(rep, "rows", NULL);
-    for (size_t mi = 0; mi < res->n_members; mi++) {
+    for (size_t mi = 0; mi < r->n; mi++) {
         sl_report_begin_object(rep, NULL, NULL);
         sl_report_number(rep, "member", (double)mi, "", 1, "");
         for (size_t k = 0; k < ni; k++) {
-            double x = res->inputs[mi * ni + k];
+            double x = r->in[mi * ni + k];
             const char *l = sl_ens_input_label(p, k, x);
             if (l)
                 sl_report_string(rep, p->inputs[k].key, l, "");
             else
                 sl_report_number(rep, p->inputs[k].key, x, "", 1, "");
         }
-        int ok = res->status[mi] == SL_OK;
+        int ok = r->status[mi] == SL_OK;
         sl_report_string(rep, "status", ok ? "ok" : "failed", "");
         if (!ok) {
             sl_report_string(rep, "reason", r->reason + mi * SL_ENS_REASON_LEN, "");
@@ -321,9 +324,8 @@ void sl_sweep_rows_json(sl_report *rep, const sl_ens_plan *p, const sl_ens_model
         char vs[64], vl[256];
         sl_output_validity(rg >= 0, rg, r->extrapolated[mi], vs, sizeof vs, vl, sizeof vl);
         sl_report_string(rep, "regime", rg >= 0 ? sl_plume_regime_name(rg) : "none", "");
-        for (int q = 0; q < N_ROW_OUT; q++)
-            sl_report_number(rep, row_outputs[q], col[q] >= 0 ? res->outputs[mi * no + (size_t)col[q]] : NAN, "", 1,
-                             "");
+        for (int q = 0; q < SL_SWEEP_ROW_OUT; q++)
+            sl_report_number(rep, row_outputs[q], r->out[mi * SL_SWEEP_ROW_OUT + (size_t)q], "", 1, "");
         sl_report_string(rep, "validity", vl, "");
         sl_report_end_object(rep);
     }

@@ -49,28 +49,35 @@ int sl_sweep_is_text_key(const char *spec, int *id);
  * the netCDF library is not thread-safe). */
 int sl_sweep_file_profiles(const sl_ens_plan *p, const int *ids);
 
-/* The per-member things the rows need that the result does not keep: the
- * plume regime, whether the e-folding was extrapolated, the failure reason. */
+enum { SL_SWEEP_ROW_OUT = 4 };
+
+/* Each row, kept as the members come in (the result may hold its scalars
+ * on disk): the inputs, the key outputs of a row, the plume regime, whether
+ * the e-folding was extrapolated, the status and the failure reason. */
 typedef struct sl_sweep_rows {
-    size_t n;
+    size_t n, ni, n_failed;
+    int col[SL_SWEEP_ROW_OUT]; /* the model's output index of each row output, -1 none */
+    double *in;       /* n x ni, keys' units (a text key: the index) */
+    double *out;      /* n x SL_SWEEP_ROW_OUT */
+    int *status;
     int *regime;      /* sl_plume_regime, -1 without a plume or for a failed member */
     int *extrapolated;
     char *reason;     /* n x SL_ENS_REASON_LEN */
 } sl_sweep_rows;
 
-/* Rows for N members (N <= SL_SWEEP_MAX_ROWS); SL_ENOMEM. */
-int sl_sweep_rows_init(sl_sweep_rows *r, size_t n, sl_err *e);
-/* Member M's row from its extras' last SL_SWEEP_ROW_EXTRAS values (TAIL:
- * regime code, e-folding extrapolated), status and reason. */
-void sl_sweep_rows_add(sl_sweep_rows *r, size_t m, const double *tail, int status, const char *reason);
+/* Rows for the members of plan P (at most SL_SWEEP_MAX_ROWS) of model M;
+ * SL_ENOMEM. */
+int sl_sweep_rows_init(sl_sweep_rows *r, const sl_ens_plan *p, const sl_ens_model *m, sl_err *e);
+/* Member M's row: its inputs, outputs, the extras' last SL_SWEEP_ROW_EXTRAS
+ * values (TAIL: regime code, e-folding extrapolated), status and reason. */
+void sl_sweep_rows_add(sl_sweep_rows *r, size_t m, const double *in, const double *out, const double *tail,
+                       int status, const char *reason);
 void sl_sweep_rows_free(sl_sweep_rows *r);
 
 /* The table of rows for people (3 significant figures) and the caution. */
-int sl_sweep_rows_text(FILE *f, const char *scenario, const sl_ens_plan *p, const sl_ens_model *m,
-                       const sl_ens_result *res, const sl_sweep_rows *r, sl_err *e);
+int sl_sweep_rows_text(FILE *f, const char *scenario, const sl_ens_plan *p, const sl_sweep_rows *r, sl_err *e);
 /* The same rows as a JSON array "rows" in an open report (full precision). */
-void sl_sweep_rows_json(sl_report *rep, const sl_ens_plan *p, const sl_ens_model *m, const sl_ens_result *res,
-                        const sl_sweep_rows *r);
+void sl_sweep_rows_json(sl_report *rep, const sl_ens_plan *p, const sl_sweep_rows *r);
 
 /* netCDF variable for text input K on dimension DIM: its index (int) with
  * flag_values, flag_meanings (the texts, blanks made '_') and the texts as
