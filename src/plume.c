@@ -729,11 +729,17 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     memset(out, 0, sizeof *out);
     out->kind = src->kind;
     double zlo = atm->altitude_m[0], zhi = atm->altitude_m[atm->n - 1];
-    if (!isfinite(src->altitude_m) || src->altitude_m < zlo || src->altitude_m > zhi)
+    if (!isfinite(src->altitude_m) || src->altitude_m < zlo)
         SL_FAIL_RETURN(e, SL_EDATA, "source altitude_m = %g is outside the atmosphere profile '%s' (valid range %g to %g m)",
                        src->altitude_m, atm->name, zlo, zhi);
+    /* A release centred above the profile's top (a fireball sized in the thin
+     * air of a very high burst, lifted off the surface by its own radius) has
+     * no air to rise through: it is wholly ballistic from the top of the
+     * profile (Melosh 1989 ch. 5), never an error. */
+    const int above_top = src->altitude_m > zhi;
+    const double z_src = above_top ? zhi : src->altitude_m;
     sl_atmos_state amb;
-    SL_TRY_RETURN(e, sl_atmosphere_at(atm, src->altitude_m, &amb, e));
+    SL_TRY_RETURN(e, sl_atmosphere_at(atm, z_src, &amb, e));
     start st = {0};
     SL_TRY_RETURN(e, source_state(src, &amb, &st, e));
 
@@ -749,7 +755,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
 
     out->source_altitude_m = src->altitude_m;
     out->source_radius_m = st.radius_m;
-    out->scale_height_m = amb.pressure_Pa / (amb.density_kg_m3 * gravity_m_s2(src->altitude_m));
+    out->scale_height_m = amb.pressure_Pa / (amb.density_kg_m3 * gravity_m_s2(z_src));
 
     /* Initial enthalpy with the water as given (vapour, liquid); the
      * equilibrium diagnosis then settles the phases at constant enthalpy. */
@@ -769,9 +775,9 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * best estimate this model has of how high the buoyant gas goes) and
      * flagged; see "Regime" in the header comment. */
     int blowout_at_start = fmax(r_fireball, st.radius_m) > out->scale_height_m;
-    out->ballistic_fraction = ballistic_weight(fmax(r_fireball, st.radius_m) / out->scale_height_m);
+    out->ballistic_fraction = above_top ? 1.0 : ballistic_weight(fmax(r_fireball, st.radius_m) / out->scale_height_m);
 
-    double w0 = src->vertical_speed_m_s, phi0 = potential_J_kg(src->altitude_m);
+    double w0 = src->vertical_speed_m_s, phi0 = potential_J_kg(z_src);
     double kin0 = 0.5 * (1.0 + w->k) * w0 * w0;
     out->energy_initial_J = H0 + M0 * (phi0 + kin0);
 
@@ -795,12 +801,12 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * (latent heat included: it is released as the expanding vapour
      * condenses). */
     double e_gas = (H0 - h_spray) / M1 - CPA * (amb.temperature_K - T_TRIPLE);
-    SL_TRY_RETURN(e, ballistic_flight(atm, src->altitude_m, M1, e_gas, out, e));
+    SL_TRY_RETURN(e, ballistic_flight(atm, z_src, M1, e_gas, out, e));
     if (out->ballistic_fraction >= 1.0) {
         /* Fully ballistic: no rise through the air; the gas phase flies and
          * re-enters, the spray has fallen back. */
         out->regime = SL_REGIME_BALLISTIC;
-        out->apex_time_s = 2.0 * out->launch_speed_m_s * sqrt(0.5) / gravity_m_s2(src->altitude_m);
+        out->apex_time_s = 2.0 * out->launch_speed_m_s * sqrt(0.5) / gravity_m_s2(z_src);
         out->apex_altitude_m = out->top_altitude_m = out->apogee_m;
         out->apex_radius_m = out->reentry_range_m;
         out->apex_scale_height_m = out->scale_height_m;
