@@ -5,6 +5,7 @@
  * plots (output_ensemble.h). */
 #include "steamloft/cmd.h"
 #include "steamloft/ensemble_chain.h"
+#include "steamloft/sweep_rows.h"
 
 #include <errno.h>
 #include <getopt.h>
@@ -37,9 +38,13 @@ static void print_help(const char *cmd)
                "[OPTIONS]\n"
                "Run the whole chain over a grid of scenario values.  KEY is section.key as\n"
                "'steamloft params' lists it; values are in the key's own unit.  The grid is the\n"
-               "product of all --vary lists, the last --vary varying fastest.\n"
+               "product of all --vary lists, the last --vary varying fastest.  A text key takes\n"
+               "a list of its values (--vary site.atmosphere=tropical,subarctic-winter), each\n"
+               "checked before any member runs.  Up to %d points print one row each (the swept\n"
+               "values, regime, energy at the sea, stratospheric water, percent of background,\n"
+               "e-folding, validity; --json: a \"rows\" array); larger grids print statistics.\n"
                "      --vary SPEC         a swept key (repeatable, up to %d)\n",
-               MAX_VARY);
+               (int)SL_SWEEP_MAX_ROWS, MAX_VARY);
     } else {
         printf("Usage: steamloft ensemble SCENARIO [--members N] [--seed S] [--sobol] [OPTIONS]\n"
                "Run the whole chain on N members whose uncertain inputs are the scenario values\n"

@@ -201,8 +201,12 @@ void sl_ens_plan_free(sl_ens_plan *p)
 {
     if (p == NULL)
         return;
-    for (size_t i = 0; i < p->n_inputs; i++)
+    for (size_t i = 0; i < p->n_inputs; i++) {
         sl_dist_free(&p->inputs[i].dist);
+        for (size_t k = 0; k < p->inputs[i].n_labels; k++)
+            free(p->inputs[i].labels[k]);
+        free(p->inputs[i].labels);
+    }
     free(p->inputs);
     memset(p, 0, sizeof *p);
 }

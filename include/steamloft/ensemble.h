@@ -36,7 +36,8 @@
  * is not a Monte Carlo standard error.
  *
  * Grid (sweep): each swept key takes a list of values; members run through the
- * Cartesian product with the LAST key varying fastest.
+ * Cartesian product with the LAST key varying fastest.  A text key's list is
+ * the indices of its texts (sl_ens_input.labels).
  *
  * Determinism: members are computed in blocks; each member's inputs, outputs,
  * status and reason are stored in its own slot, and everything that reduces
@@ -95,6 +96,10 @@ typedef struct sl_ens_input {
     char key[SL_ENS_KEY_LEN]; /* "section.key" as in the scenario */
     double to_si;             /* multiply a value in the key's unit to get SI */
     sl_dist dist;             /* GRID uses dist.kind == SL_DIST_CHOICE */
+    char **labels;            /* a text key's values (owned), NULL for a numeric key: the
+                               * input's value is then the index 0..n_labels-1 of the text
+                               * (dist a CHOICE of the indices, to_si 1; sweep_rows.c) */
+    size_t n_labels;
 } sl_ens_input;
 
 typedef struct sl_ens_plan {

@@ -57,6 +57,7 @@ typedef struct sl_ens_sink {
     size_t n_ok;
     int csv_closed;         /* the staged CSV is complete, waiting for the commit */
     struct sl_ens_summary *summary; /* owned (sl_ens_sink_summarize) */
+    struct sl_sweep_rows *rows;     /* owned: a sweep's per-point rows (sweep_rows.h), NULL otherwise */
 } sl_ens_sink;
 
 /* Stage the requested files and define the netCDF (before the run, on rank
