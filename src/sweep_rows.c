@@ -268,12 +268,12 @@ int sl_sweep_rows_text(FILE *f, const char *scenario, const sl_ens_plan *p, cons
             r->n_failed);
     for (size_t k = 0; k < ni; k++)
         fprintf(f, "%-*s  ", w[k], "");
-    fprintf(f, "%-8s %9s %11s %9s %9s\n", "", "at sea", "strat water", "of bkgd", "e-fold");
+    fprintf(f, "%-8s %9s %11s %9s %9s\n", "", "at sea", "above trop", "of bkgd", "e-fold");
     for (size_t k = 0; k < ni; k++) {
         const char *dot = strchr(p->inputs[k].key, '.');
         fprintf(f, "%-*s  ", w[k], dot ? dot + 1 : p->inputs[k].key);
     }
-    fprintf(f, "%-8s %9s %11s %9s %9s  %s\n", "regime", "Mt TNT", "Tg", "%", "years", "validity");
+    fprintf(f, "%-8s %9s %11s %9s %9s  %s\n", "regime", "Mt TNT", "Tg water", "%", "years", "validity");
     for (size_t mi = 0; mi < r->n; mi++) {
         for (size_t k = 0; k < ni; k++) {
             char b[SL_SCENARIO_RAW_LEN];
