@@ -91,6 +91,14 @@ int sl_model_inputs_table_write(const sl_model_inputs *mi, const char *path, int
                         "holding the tropopause starts at it); pressures from the run's atmosphere\n",
                     when, mi->date_given ? "" : " is NOMINAL (no [site] date given)");
             fprintf(fp, "# total mass: %.10g kg\n", pr.total_kg);
+            /* What `decay` needs to reproduce the run's box model from this
+             * table (src/injection.c reads these keys; doubles round-trip). */
+            if (isfinite(mi->inj->tropopause_altitude_m))
+                fprintf(fp, "# tropopause_altitude_m = %.17g\n", mi->inj->tropopause_altitude_m);
+            if (mi->inj->cloud_area_m2 > 0.0)
+                fprintf(fp, "# cloud_area_m2 = %.17g\n", mi->inj->cloud_area_m2);
+            if (!mi->date_given)
+                fprintf(fp, "# event_month = %d\n", mi->month);
             fprintf(fp, "event_time_utc,latitude_deg,longitude_deg,bottom_m,top_m,bottom_hPa,top_hPa,"
                         "species,mass_kg,duration_s,radius_m\n");
         }
@@ -116,7 +124,7 @@ int sl_model_inputs_table_write(const sl_model_inputs *mi, const char *path, int
                     sl_json_number(&j, "radius_m", mi->radius_m);
                     sl_json_end_object(&j);
                 } else {
-                    fprintf(fp, "%s,%.6f,%.6f,%.10g,%.10g,%.6g,%.6g,%s,%.10g,%.10g,%.10g\n", when,
+                    fprintf(fp, "%s,%.6f,%.6f,%.17g,%.17g,%.6g,%.6g,%s,%.17g,%.10g,%.10g\n", when,
                             mi->latitude_deg, mi->longitude_deg, L->bottom_m, L->top_m, pb, pt, sp[s],
                             m[s], mi->duration_s, mi->radius_m);
                 }
