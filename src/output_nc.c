@@ -682,12 +682,8 @@ int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_op
     if (o.deflate_level < 0 || o.deflate_level > 9)
         SL_FAIL_RETURN(e, SL_EUSAGE, "deflate level %d outside 0-9", o.deflate_level);
     ncw *w = calloc(1, sizeof *w);
-    sl_outset *set = calloc(1, sizeof *set);
-    if (w == NULL || set == NULL) {
-        free(w);
-        free(set);
+    if (w == NULL)
         SL_FAIL_RETURN(e, SL_ENOMEM, "writing '%s': out of memory", path);
-    }
     w->path = path;
     w->nc4 = o.format == SL_NC_NETCDF4_CLASSIC;
     w->deflate_level = o.deflate_level ? o.deflate_level : 4;
@@ -695,55 +691,84 @@ int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_op
     w->time_dim = -1;
     w->ncid = -1;
 
-    /* The file is built in memory (nc_create_mem, nc_close_memio) and its
-     * bytes are then put into the stage with plain write(2): a full disk or
-     * a quota is then an ordinary write error with its true cause, never a
-     * failure inside the HDF5 library (which can crash after a failed write). */
-    const char *stage = NULL;
-    int rc = sl_outset_begin_file(set, path, o.force, &stage, e);
-    char base[SL_OUTSET_NAME_LEN] = "";
+    sl_nc_file file;
+    /* NC_NOATTCREORD: no attribute creation-order index per HDF5 object. */
+    int rc = sl_output_nc_create(&file, path, w->nc4 ? (NC_NETCDF4 | NC_CLASSIC_MODEL | NC_NOATTCREORD) : 0, o.force, e);
     if (rc == SL_OK) {
-        const char *slash = strrchr(path, '/');
-        snprintf(base, sizeof base, "%s", slash ? slash + 1 : path);
-        sl_outset_forget(set, base); /* re-added by sl_outset_write_file */
-        /* NC_NOATTCREORD: no attribute creation-order index per HDF5 object. */
-        int cmode = w->nc4 ? (NC_NETCDF4 | NC_CLASSIC_MODEL | NC_NOATTCREORD) : 0;
-        int st = nc_create_mem(base, cmode, 1 << 16, &w->ncid);
-        if (st != NC_NOERR) {
-            w->ncid = -1;
-            rc = sl_err_set(e, SL_ECANTCREAT, __func__, __LINE__, "cannot create '%s': %s", path,
-                            nc_strerror(st));
-        }
-    }
-    if (rc == SL_OK)
+        w->ncid = file.ncid;
         rc = write_all(w, v, e);
-    if (rc == SL_OK) {
-        NC_memio mem = {0, NULL, 0};
-        int st = nc_close_memio(w->ncid, &mem);
-        w->ncid = -1;
-        if (st != NC_NOERR)
-            rc = sl_err_set(e, st == NC_ENOMEM ? SL_ENOMEM : SL_EIO, __func__, __LINE__,
-                            "writing '%s': closing: %s", path, nc_strerror(st));
-        else
-            rc = sl_outset_write_file(set, base, mem.memory, mem.size, e);
-        free(mem.memory);
     }
-    if (rc == SL_OK)
-        rc = sl_outset_commit(set, e);
-    if (rc != SL_OK) {
-        if (w->ncid >= 0)
-            (void)nc_abort(w->ncid);
-        sl_outset_abort(set);
+    if (rc == SL_OK || file.set != NULL)
+        rc = sl_output_nc_finish(&file, rc, e);
+    if (rc != SL_OK)
         sl_err_push(e, rc, __func__, __LINE__);
-    }
     for (size_t i = 0; i < w->n_owned; i++)
         free(w->owned[i]);
     free(w);
-    free(set);
     return rc;
 }
 
 /* ------------------------------------------------------------ for the other netCDF writers */
+
+/* The file is built in memory (nc_create_mem, nc_close_memio) and its bytes
+ * are then put into the stage with plain write(2): a full disk or a quota is
+ * then an ordinary write error with its true cause, never a failure inside
+ * the HDF5 library (which can crash after a failed write). */
+int sl_output_nc_create(sl_nc_file *f, const char *path, int cmode, int force, sl_err *e)
+{
+    memset(f, 0, sizeof *f);
+    f->ncid = -1;
+    f->path = path;
+    f->set = calloc(1, sizeof *f->set);
+    if (f->set == NULL)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "writing '%s': out of memory", path);
+    const char *stage = NULL;
+    int rc = sl_outset_begin_file(f->set, path, force, &stage, e);
+    if (rc == SL_OK) {
+        const char *slash = strrchr(path, '/');
+        snprintf(f->base, sizeof f->base, "%s", slash ? slash + 1 : path);
+        sl_outset_forget(f->set, f->base); /* re-added by sl_outset_write_file */
+        int st = nc_create_mem(f->base, cmode, 1 << 16, &f->ncid);
+        if (st != NC_NOERR) {
+            f->ncid = -1;
+            rc = sl_err_set(e, SL_ECANTCREAT, __func__, __LINE__, "cannot create '%s': %s", path, nc_strerror(st));
+        }
+    }
+    if (rc != SL_OK) {
+        sl_outset_abort(f->set);
+        free(f->set);
+        f->set = NULL;
+    }
+    return rc;
+}
+
+int sl_output_nc_finish(sl_nc_file *f, int rc, sl_err *e)
+{
+    if (f->set == NULL)
+        return rc != SL_OK ? rc : SL_EINTERNAL;
+    if (rc == SL_OK) {
+        NC_memio mem = {0, NULL, 0};
+        int st = nc_close_memio(f->ncid, &mem);
+        f->ncid = -1;
+        if (st != NC_NOERR)
+            rc = sl_err_set(e, st == NC_ENOMEM ? SL_ENOMEM : SL_EIO, __func__, __LINE__, "writing '%s': closing: %s",
+                            f->path, nc_strerror(st));
+        else
+            rc = sl_outset_write_file(f->set, f->base, mem.memory, mem.size, e);
+        free(mem.memory);
+    }
+    if (rc == SL_OK)
+        rc = sl_outset_commit(f->set, e);
+    if (rc != SL_OK) {
+        if (f->ncid >= 0)
+            (void)nc_abort(f->ncid);
+        sl_outset_abort(f->set);
+    }
+    f->ncid = -1;
+    free(f->set);
+    f->set = NULL;
+    return rc;
+}
 
 int sl_output_nc_check(int status, int ncid, int varid, const char *path, const char *what, const char *name,
                        sl_err *e)

@@ -39,6 +39,7 @@
 #define STEAMLOFT_OUTPUT_NC_H
 
 #include "steamloft/err.h"
+#include "steamloft/outfile.h"
 #include "steamloft/output.h"
 
 typedef enum sl_nc_format {
@@ -69,6 +70,23 @@ int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_op
  * VARIABLE: nc_strerror"; NC_NOERR gives SL_OK. */
 int sl_output_nc_check(int status, int ncid, int varid, const char *path, const char *what, const char *name,
                        sl_err *e);
+/* One netCDF file of the output layer, built in memory and put on disk with
+ * write(2) (so a full disk is an ordinary write error, exit 74 with its true
+ * cause), staged and renamed into place: sl_output_nc_create opens F->ncid
+ * with netCDF-C creation mode CMODE (0: netCDF-3 classic); the caller
+ * defines and writes through F->ncid, then sl_output_nc_finish(F, RC, E)
+ * with its status RC: on SL_OK it closes, writes and renames, else (or when
+ * that fails) it discards everything; it returns the final status and frees
+ * F's resources.  On an error of sl_output_nc_create nothing is left. */
+typedef struct sl_nc_file {
+    int ncid;
+    const char *path;              /* final path, for messages */
+    char base[SL_OUTSET_NAME_LEN]; /* its file name */
+    sl_outset *set;
+} sl_nc_file;
+int sl_output_nc_create(sl_nc_file *f, const char *path, int cmode, int force, sl_err *e);
+int sl_output_nc_finish(sl_nc_file *f, int rc, sl_err *e);
+
 /* A text attribute (NC_CHAR, so netCDF-3 readers work), checked as above;
  * TEXT NULL writes nothing. */
 int sl_output_nc_att_text(int ncid, int varid, const char *path, const char *name, const char *text, sl_err *e);
