@@ -99,7 +99,7 @@ int sl_output_strat_init(sl_output_strat *os, const struct sl_strat_model *m,
         SL_FAIL_RETURN(e, SL_EINTERNAL, "box-model result without times or layers");
     os->layer_bottom_m = malloc(nl * sizeof(double));
     os->layer_top_m = malloc(nl * sizeof(double));
-    os->excess_kg = calloc(nt * nr * nl, sizeof(double));
+    os->excess_kg = malloc(nt * nr * nl * sizeof(double));
     os->sink_kg = malloc(ns * nt * sizeof(double));
     if (!os->layer_bottom_m || !os->layer_top_m || !os->excess_kg || !os->sink_kg) {
         sl_output_strat_free(os);
@@ -113,6 +113,10 @@ int sl_output_strat_init(sl_output_strat *os, const struct sl_strat_model *m,
         os->layer_top_m[l] = m->layer_top_m[l];
         os->layer_bottom_m[l] = l > 0 ? m->layer_top_m[l - 1] : (isfinite(lowest) ? lowest : 0.0);
     }
+    /* A region without a box in a layer (the layer lies below its tropopause)
+     * has no excess there: undefined, never 0. */
+    for (size_t i = 0; i < nt * nr * nl; i++)
+        os->excess_kg[i] = NAN;
     for (size_t t = 0; t < nt; t++)
         for (size_t b = 0; b < m->n_boxes; b++) {
             size_t reg = (size_t)m->box_region[b], lay = (size_t)m->box_layer[b];
@@ -170,11 +174,18 @@ int sl_output_strat_init(sl_output_strat *os, const struct sl_strat_model *m,
          "largest |injected - remaining - removed| / injected over the run (mass conservation)", "1",
          r->budget_max_rel_error},
     };
+    /* Times and fractions of a decay are undefined when nothing entered the
+     * stratosphere (as in the JSON and text reports, output_text.c): NaN here,
+     * _FillValue in the netCDF, never 0. */
+    const int undefined_decay = !(r->initial_excess_kg > 0.0);
     for (size_t i = 0; i < sizeof sc / sizeof sc[0] && i < SL_OUTPUT_STRAT_MAX_SCALARS; i++) {
-        if (!isfinite(sc[i].value))
-            continue; /* e.g. no e-folding when nothing entered: left out, never NaN */
-        os->scalars[os->n_scalars++] =
-            (sl_output_scalar){sc[i].name, sc[i].long_name, sc[i].units, NULL, sc[i].value};
+        double x = sc[i].value;
+        if (undefined_decay && (strcmp(sc[i].name, "efolding_time") == 0 || strcmp(sc[i].name, "mean_residence_time") == 0 ||
+                                strncmp(sc[i].name, "fraction_remaining_", 19) == 0))
+            x = NAN;
+        if (!isfinite(x))
+            x = NAN; /* undefined (an infinite result is not a number either) */
+        os->scalars[os->n_scalars++] = (sl_output_scalar){sc[i].name, sc[i].long_name, sc[i].units, NULL, x};
     }
     return SL_OK;
 }
@@ -192,6 +203,15 @@ static int check_finite(const double *a, size_t n, const char *what, sl_err *e)
         if (!isfinite(a[i]))
             SL_FAIL_RETURN(e, SL_EINTERNAL, "result '%s' is not finite at index %zu (%g): not written",
                            what, i, a[i]);
+    return SL_OK;
+}
+
+/* Finite or NaN (undefined, written as _FillValue), never infinite. */
+static int check_defined(const double *a, size_t n, const char *what, sl_err *e)
+{
+    for (size_t i = 0; a != NULL && i < n; i++)
+        if (isinf(a[i]))
+            SL_FAIL_RETURN(e, SL_EINTERNAL, "result '%s' is infinite at index %zu: not written", what, i);
     return SL_OK;
 }
 
@@ -263,7 +283,7 @@ int sl_output_view_check(const sl_output_view *v, sl_err *e)
         SL_TRY_RETURN(e, check_cells(s->layer_bottom_m, s->layer_top_m, s->n_layer,
                                      "box-model layers", e));
         size_t nt = s->n_time;
-        SL_TRY_RETURN(e, check_finite(s->excess_kg, nt * s->n_region * s->n_layer, "excess_kg", e));
+        SL_TRY_RETURN(e, check_defined(s->excess_kg, nt * s->n_region * s->n_layer, "excess_kg", e));
         SL_TRY_RETURN(e, check_finite(s->mole_fraction_anomaly, nt * s->n_layer,
                                       "mole_fraction_anomaly", e));
         SL_TRY_RETURN(e, check_finite(s->global_excess_kg, nt, "global_excess_kg", e));
@@ -283,8 +303,8 @@ int sl_output_view_check(const sl_output_view *v, sl_err *e)
         const sl_output_scalar *sc = &v->scalars[i];
         if (sc->name == NULL || sc->units == NULL || sc->long_name == NULL)
             SL_FAIL_RETURN(e, SL_EINTERNAL, "scalar result %zu lacks a name, long_name or units", i);
-        if (!isfinite(sc->value))
-            SL_FAIL_RETURN(e, SL_EINTERNAL, "scalar result '%s' is not finite: not written", sc->name);
+        if (isinf(sc->value))
+            SL_FAIL_RETURN(e, SL_EINTERNAL, "scalar result '%s' is infinite: not written", sc->name);
     }
     for (size_t i = 0; i < v->n_params; i++) {
         if (v->params[i].name == NULL)

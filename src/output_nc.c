@@ -219,6 +219,20 @@ static int def_var(ncw *w, const char *name, int ndims, const int *dims, const d
     SL_TRY_RETURN(e, att_text(w, id, "standard_name", standard_name, e));
     SL_TRY_RETURN(e, att_text(w, id, "long_name", long_name, e));
     SL_TRY_RETURN(e, att_text(w, id, "units", units, e));
+    /* An undefined value (NaN in the view: an empty box, an e-folding time when
+     * nothing entered) is written as _FillValue (CF 2.5.1), never as 0 or NaN. */
+    size_t n = values_of(w, ndims, dims), n_undefined = 0;
+    for (size_t i = 0; data != NULL && i < n; i++)
+        n_undefined += isnan(data[i]) != 0;
+    if (n_undefined > 0) {
+        double *filled = own(w, n, e);
+        if (filled == NULL)
+            return e ? e->code : SL_ENOMEM;
+        for (size_t i = 0; i < n; i++)
+            filled[i] = isnan(data[i]) ? NC_FILL_DOUBLE : data[i];
+        data = filled;
+        SL_TRY_RETURN(e, att_double(w, id, "_FillValue", NC_FILL_DOUBLE, e));
+    }
     SL_TRY_RETURN(e, queue(w, id, data, e));
     if (varid)
         *varid = id;
@@ -642,10 +656,12 @@ static int write_all(ncw *w, const sl_output_view *v, sl_err *e)
         int rc = SL_OK;
         for (size_t i = 0; i < v->n_scalars && rc == SL_OK; i++) {
             const sl_output_scalar *sc = &v->scalars[i];
+            if (isnan(sc->value))
+                continue; /* undefined: no attribute (the variable holds _FillValue) */
             char name[NC_MAX_NAME + 1];
             snprintf(name, sizeof name, "result_%s", sc->name);
             rc = att_double(w, NC_GLOBAL, name, sc->value, e);
-            int k = snprintf(units + off, cap - off, "%s%s: %s", i ? "; " : "", sc->name, sc->units);
+            int k = snprintf(units + off, cap - off, "%s%s: %s", off ? "; " : "", sc->name, sc->units);
             if (k > 0 && (size_t)k < cap - off)
                 off += (size_t)k;
         }

@@ -30,7 +30,9 @@ typedef struct sl_output_series {
     const double *region_north_deg;        /* n_region */
     const double *layer_bottom_m;          /* n_layer */
     const double *layer_top_m;             /* n_layer */
-    const double *excess_kg;               /* n_time*n_region*n_layer: excess water per box */
+    const double *excess_kg;               /* n_time*n_region*n_layer: excess water per box;
+                                            * NaN where the region has no box in the layer
+                                            * (below its tropopause): netCDF _FillValue, CSV empty */
     const double *mole_fraction_anomaly;   /* n_time*n_layer: global-mean excess, mol mol-1 (optional) */
     const double *global_excess_kg;        /* n_time: total excess in the stratosphere */
     const double *column_anomaly_kg_m2;    /* n_time: global-mean column excess (optional) */
@@ -49,7 +51,7 @@ typedef struct sl_output_scalar {
     const char *long_name;     /* one line for people */
     const char *units;         /* UDUNITS spelling of the SI unit: "m", "kg", "s", "J", "1" */
     const char *standard_name; /* a name from the CF table, or NULL (never invented) */
-    double value;              /* finite */
+    double value;              /* finite, or NaN: undefined (JSON null, netCDF _FillValue) */
 } sl_output_scalar;
 
 /* One scenario parameter as it was used (after defaults), for provenance. */

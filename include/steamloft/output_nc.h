@@ -19,6 +19,10 @@
  *                                                    box layers equal the bands, else layer(layer)
  *                                                    with layer_bnds
  *   one scalar variable per sl_output_scalar (e-folding time, burst altitude, ...)
+ *   Undefined results are _FillValue (CF 2.5.1), never 0: excess_water_mass where a
+ *   region has no box in a layer (below its tropopause), and a scalar the run cannot
+ *   give (an e-folding time when nothing entered the stratosphere: null in the JSON,
+ *   and no result_<name> attribute)
  *   global attributes: Conventions, title, source, history (UTC time and the command line),
  *       references (the published methods used), comment (the caution, the validity note),
  *       tool_version, git_hash, event_time, scenario_file, validity_warning,
