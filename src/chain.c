@@ -110,19 +110,15 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     }
     int rc = sl_atmosphere_init(&ch->atmosphere, use, e);
     if (rc != SL_OK) {
+        /* The atmosphere module's message already says what is valid (the
+         * built-in names for an unknown name, file and line for a bad file). */
         const char *raw = sl_scenario_raw(sc, SL_P_SITE_ATMOSPHERE, NULL);
-        char inner[SL_ERR_MSG_LEN / 2], names[160] = "", at[SL_SCENARIO_PATH_LEN + 64];
+        char inner[SL_ERR_MSG_LEN / 2], at[SL_SCENARIO_PATH_LEN + 64];
         sl_scenario_where(sc, SL_P_SITE_ATMOSPHERE, at, sizeof at);
         snprintf(inner, sizeof inner, "%.380s", e ? e->msg : "");
-        for (size_t i = 0; sl_atmosphere_builtin_names[i]; i++) {
-            size_t used = strlen(names);
-            snprintf(names + used, sizeof names - used, "%s%s", i ? ", " : "", sl_atmosphere_builtin_names[i]);
-        }
         sl_atmosphere_free(&ch->atmosphere);
         if (raw)
-            SL_FAIL_RETURN(e, rc, "%s = %s: %s (valid: a built-in profile, "
-                                  "one of %s (steamloft atmos), or a profile file)",
-                           at, raw, inner, names);
+            SL_FAIL_RETURN(e, rc, "%s = %s: %s", at, raw, inner);
         SL_FAIL_RETURN(e, rc, "%s: atmosphere %s: %s", sc->path, name, inner);
     }
     snprintf(ch->atmosphere_name, sizeof ch->atmosphere_name, "%s", name);

@@ -532,6 +532,20 @@ static int thresholds(const sl_ens_request *c, const sl_ens_model *m, sl_ens_thr
     return SL_OK;
 }
 
+/* Where rank 0 keeps the members' scalars (a column file, unlinked as soon
+ * as it is made, so memory stays flat in the member count): the stage
+ * folder of an output (on the destination's file system), else $TMPDIR,
+ * else /tmp. */
+static const char *store_dir(const sl_ens_sink *s)
+{
+    if (s->set_csv.active)
+        return s->set_csv.stage;
+    if (s->set_nc.active)
+        return s->set_nc.stage;
+    const char *t = getenv("TMPDIR");
+    return t && *t ? t : "/tmp";
+}
+
 int sl_ens_command_run(const sl_ens_request *c, const sl_cli_globals *g)
 {
     int root = sl_ens_is_root();
@@ -569,7 +583,9 @@ int sl_ens_command_run(const sl_ens_request *c, const sl_cli_globals *g)
         st = sl_ens_sink_open(&sink, c, g, &plan, &model, &chain, ids, &e);
     st = sl_ens_agree(st, &e);
     if (st == SL_OK) {
-        sl_ens_run_opts o = {c->threads, c->block, 0, root ? sl_ens_sink_row : NULL, &sink};
+        sl_ens_run_opts o = {c->threads, c->block, 0, root ? sl_ens_sink_row : NULL, &sink,
+                             root ? store_dir(&sink) : NULL, root && c->csv_path ? sl_ens_sink_format : NULL,
+                             sl_ens_sink_row_cap(&plan, &model)};
         o.progress = root && g->verbosity >= 0 && (c->progress == 1 || (c->progress == -1 && isatty(2)));
         st = sl_ens_run(&plan, &model, &o, &res, &e);
     }

@@ -82,11 +82,10 @@
  * is an independent check of the solution.  The workspace is allocated once
  * and reused; nothing is allocated per step or per group. */
 #include "steamloft/entry.h"
+#include "steamloft/ode.h"
 #include "steamloft/units.h"
 
 #include <gsl/gsl_errno.h>
-#include <gsl/gsl_odeiv2.h>
-#include <gsl/gsl_roots.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -113,10 +112,7 @@ static const long max_steps = 2000000;
 static const double stefan_boltzmann = 5.670374419e-8;
 
 struct sl_entry_work {
-    gsl_odeiv2_step *step;        /* adaptive integration (driven here, to reuse derivatives) */
-    gsl_odeiv2_control *control;
-    gsl_odeiv2_step *probe;       /* single steps inside an accepted step (events) */
-    gsl_root_fsolver *root;
+    sl_ode *ode;                  /* the ODE-with-events layer (ode.h) */
 };
 
 typedef struct rhs_ctx {
@@ -153,6 +149,7 @@ static int air_density(rhs_ctx *c, double h, double *rho)
         return GSL_EBADFUNC;
     }
     if (!isfinite(*rho) || *rho < 0) {
+        /* GSL_EDOM: the solver retries the step shorter (ode.h) */
         /* a trial stage far outside the air (an overflowing extrapolation):
          * the step is refused and retried shorter; on an accepted state it is
          * an error */
@@ -160,8 +157,9 @@ static int air_density(rhs_ctx *c, double h, double *rho)
             sl_err_set(c->e, SL_ENUMERIC, __func__, __LINE__,
                        "air density at %.1f m is not a finite non-negative number", h);
             c->air_failed = 1;
+            return GSL_EBADFUNC;
         }
-        return GSL_EBADFUNC;
+        return GSL_EDOM;
     }
     return GSL_SUCCESS;
 }
@@ -173,10 +171,11 @@ static int rhs(double t, const double y[], double f[], void *params)
     const sl_entry_params *p = c->p;
     double v = y[Y_V], m = y[Y_M], gam = y[Y_GAMMA], h = y[Y_H], r = y[Y_R];
     if (!(v > 0) || !(m > 0) || !(r > 0))
-        return GSL_EBADFUNC;
+        return GSL_EDOM; /* a trial outside the domain: a shorter step */
     double rho;
-    if (air_density(c, h, &rho) != GSL_SUCCESS)
-        return GSL_EBADFUNC;
+    int st = air_density(c, h, &rho);
+    if (st != GSL_SUCCESS)
+        return st;
     double Rh = c->R_m + h;
     double g = c->g0_m_s2 > 0 ? c->g0_m_s2 * (c->R_m / Rh) * (c->R_m / Rh) : 0.0;
     double area = SL_PI * r * r;
@@ -265,63 +264,18 @@ static int event_value(rhs_ctx *c, int ev, const double y[], double *out)
     return GSL_EBADFUNC;
 }
 
-typedef struct probe_ctx {
-    sl_entry_work *w;
-    gsl_odeiv2_system *sys;
-    rhs_ctx *c;
-    const double *y0;
-    double t0;
-    int ev;
-    double *ytmp;
-    double *yerr;
-    int failed;
-} probe_ctx;
-
-/* State at t0 + tau by one step of the probe integrator from y0. */
-static int probe_state(probe_ctx *q, double tau, double *y)
+/* All event values of a scaled state (ode.h). */
+static int events(double t, const double ys[], double g[], void *params)
 {
-    if (tau == 0.0) {
-        memcpy(y, q->y0, NY * sizeof(double));
-        return GSL_SUCCESS;
+    (void)t;
+    rhs_ctx *c = params;
+    double y[NY];
+    from_scaled(c, ys, y);
+    for (int ev = 0; ev < N_EVENTS; ev++) {
+        int st = event_value(c, ev, y, &g[ev]);
+        if (st != GSL_SUCCESS)
+            return st;
     }
-    double ys[NY];
-    to_scaled(q->c, q->y0, ys);
-    gsl_odeiv2_step_reset(q->w->probe);
-    int st = gsl_odeiv2_step_apply(q->w->probe, q->t0, tau, ys, q->yerr, NULL, NULL, q->sys);
-    from_scaled(q->c, ys, y);
-    return st;
-}
-
-static double probe_fn(double tau, void *params)
-{
-    probe_ctx *q = params;
-    double g = 0.0;
-    if (probe_state(q, tau, q->ytmp) != GSL_SUCCESS || event_value(q->c, q->ev, q->ytmp, &g) != GSL_SUCCESS) {
-        q->failed = 1;
-        return GSL_NAN;
-    }
-    return g;
-}
-
-/* Find tau in (0, dt] where event EV crosses zero.  Returns GSL status. */
-static int locate_event(probe_ctx *q, double dt, double *tau_out)
-{
-    gsl_function F = {probe_fn, q};
-    double lo = 0.0, hi = dt;
-    int status = gsl_root_fsolver_set(q->w->root, &F, lo, hi);
-    if (status != GSL_SUCCESS)
-        return status;
-    for (int it = 0; it < 200; it++) {
-        status = gsl_root_fsolver_iterate(q->w->root);
-        if (status != GSL_SUCCESS || q->failed)
-            return status != GSL_SUCCESS ? status : GSL_EBADFUNC;
-        lo = gsl_root_fsolver_x_lower(q->w->root);
-        hi = gsl_root_fsolver_x_upper(q->w->root);
-        if (gsl_root_test_interval(lo, hi, 1e-12, 1e-12) == GSL_SUCCESS)
-            break;
-    }
-    /* Take the upper end so the event has happened (g <= 0) at the new state. */
-    *tau_out = hi;
     return GSL_SUCCESS;
 }
 
@@ -389,12 +343,15 @@ static int ensure_work(sl_entry *en, const sl_entry_params *p, sl_err *e)
         if (w == NULL)
             SL_FAIL_RETURN(e, SL_ENOMEM, "entry: cannot allocate the workspace");
         en->w = w;
-        w->step = gsl_odeiv2_step_alloc(gsl_odeiv2_step_rkf45, NY);
-        w->probe = gsl_odeiv2_step_alloc(gsl_odeiv2_step_rkf45, NY);
-        w->root = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
-        w->control = gsl_odeiv2_control_y_new(1e-8, 1e-8);
-        if (!w->step || !w->probe || !w->root || !w->control)
-            SL_FAIL_RETURN(e, SL_ENOMEM, "entry: cannot allocate the ODE workspace");
+    }
+    if (en->w->ode == NULL) {
+        /* Runge-Kutta-Fehlberg 4(5) on the scaled state; a trial outside the
+         * domain is retried four times shorter; at the smallest step an error
+         * above the tolerance is rounding and the step is taken. */
+        sl_ode_config oc = {.dim = NY, .stepper = SL_ODE_RKF45, .rhs = rhs_scaled, .events = events,
+                            .n_events = N_EVENTS, .atol = 1e-8, .rtol = 1e-8, .fail_shrink = 0.25,
+                            .accept_at_h_min = 1, .event_xtol = 1e-12};
+        SL_TRY_RETURN(e, sl_ode_init(&en->w->ode, &oc, e));
     }
     return SL_OK;
 }
@@ -522,7 +479,6 @@ typedef struct solver {
     sl_entry *en;
     const sl_entry_params *p;
     rhs_ctx c;
-    gsl_odeiv2_system sys;
     pending stack[SL_ENTRY_MAX_GROUPS];
     size_t n_stack;
     double sea_angle_weight;      /* sum of E gamma over what reached the sea */
@@ -702,7 +658,7 @@ static int fly(solver *s, pending *q, long *n_steps, sl_err *e)
     sl_entry_work *w = en->w;
     rhs_ctx *c = &s->c;
     sl_entry_group *g = &en->groups[q->index];
-    double y[NY], y0[NY], ytmp[NY], yerr[NY], ys[NY], ys_try[NY], f0[NY], f1[NY];
+    double y[NY], y0[NY], ys[NY], f_sea[NY];
     memcpy(y, q->y, sizeof y);
     double t = q->t;
 
@@ -716,23 +672,25 @@ static int fly(solver *s, pending *q, long *n_steps, sl_err *e)
     const double scale[NY] = {y[Y_V], y[Y_M], 1.0, p->start_altitude_m, p->start_altitude_m,
                               y[Y_R], 0.01 * y[Y_V], ek0, ek0, ek0};
     memcpy(c->scale, scale, sizeof scale);
-    gsl_odeiv2_step_reset(w->step);
-    probe_ctx pq = {w, &s->sys, c, y0, 0.0, 0, ytmp, yerr, 0};
+    sl_ode *ode = w->ode;
 
     double h_step = 1e-3 * p->start_altitude_m / y[Y_V];
     const double h_min = 1e-10 * p->start_altitude_m / p->speed_m_s; /* ~0.5 ns */
     /* at most a quarter of the start altitude along the path per step: keeps
      * trial stages of loose tolerances inside the air (rarely binding) */
     const double h_max = 0.25 * p->start_altitude_m / y[Y_V];
-    int have_f = 0, check_break = 1, have_g = 0;
-    double g_prev[N_EVENTS];
+    sl_ode_set_step_limits(ode, h_min, h_max);
+    int start = 1, check_break = 1, broke = 0;
+    sl_err oe; /* the solver's message (E keeps the air's when that failed) */
+    sl_err_clear(&oe);
     for (;;) {
         /* Already past its strength (at the start, or at a break-up event): break now. */
         double gb = 1.0;
-        if (check_break && event_value(c, EV_BREAKUP, y, &gb) != GSL_SUCCESS)
+        if (check_break && !broke && event_value(c, EV_BREAKUP, y, &gb) != GSL_SUCCESS)
             return sl_err_push(e, e ? e->code : SL_ENUMERIC, __func__, __LINE__);
         check_break = 0;
-        if (gb <= 0.0) {
+        if (gb <= 0.0 || broke) {
+            broke = 0;
             note_breakup(en, y);
             if (s->fragments) {
                 en->energy_air_drag_J += g->count * y[Y_EDRAG];
@@ -750,108 +708,63 @@ static int fly(solver *s, pending *q, long *n_steps, sl_err *e)
             y[Y_RDOT] = 0.0;
             q->cloud_radius_m = y[Y_R];
             c->spread_limit_m = p->burst_spread_factor * y[Y_R];
-            have_f = 0;
-            have_g = 0;
+            start = 1;
         }
-        if (!have_f) {
+        if (start) {
             to_scaled(c, y, ys);
-            if (rhs_scaled(t, ys, f0, c) != GSL_SUCCESS) {
+            if (sl_ode_restart(ode, t, ys, h_step, &oe) != SL_OK) {
                 if (c->air_failed)
                     return sl_err_push(e, e ? e->code : SL_ENUMERIC, __func__, __LINE__);
                 SL_FAIL_RETURN(e, SL_ENUMERIC, "entry: bad state at %.0f m, %.1f m/s", y[Y_H], y[Y_V]);
             }
-            have_f = 1;
+            start = 0;
         }
-        /* One accepted step. */
-        memcpy(y0, y, sizeof y);
-        double t0 = t, dt;
-        for (;;) {
-            if (++*n_steps > max_steps)
-                SL_FAIL_RETURN(e, SL_ENUMERIC, "entry: more than %ld steps (at %.0f m, %.1f m/s)",
-                               max_steps, y[Y_H], y[Y_V]);
-            memcpy(ys_try, ys, sizeof ys);
-            int st = gsl_odeiv2_step_apply(w->step, t0, h_step, ys_try, yerr, f0, f1, &s->sys);
-            if (c->air_failed)
-                return sl_err_push(e, e ? e->code : SL_ENUMERIC, __func__, __LINE__);
-            if (st != GSL_SUCCESS) {
-                /* the trial left the physical domain (mass or speed <= 0): shorter step */
-                h_step *= 0.25;
-                gsl_odeiv2_step_reset(w->step);
-                if (h_step > h_min)
-                    continue;
-                if (y0[Y_M] < 1e-3 * g->piece_mass_kg || y0[Y_V] < 10.0 * stall_speed_m_s) {
-                    /* all but gone, or at rest: it ends here */
-                    en->energy_air_drag_J += g->count * y0[Y_EDRAG];
-                    en->energy_ablation_J += g->count * y0[Y_EABL];
-                    en->gravity_work_J += g->count * y0[Y_WGRAV];
-                    en->energy_in_air_J += g->count * (y0[Y_EDRAG] + y0[Y_EABL]);
-                    finish(s, q, y0, SL_ENTRY_END_AIR, t0);
-                    return SL_OK;
-                }
-                SL_FAIL_RETURN(e, SL_ENUMERIC, "entry: ODE solver failed (%s) at %.0f m, %.1f m/s",
-                               gsl_strerror(st), y0[Y_H], y0[Y_V]);
-            }
-            double h_new = h_step;
-            int adj = gsl_odeiv2_control_hadjust(w->control, w->step, ys_try, yerr, f1, &h_new);
-            if (adj == GSL_ODEIV_HADJ_DEC) {
-                if (h_step > h_min) {
-                    h_step = fmax(h_new, h_min);
-                    continue;
-                }
-                /* At the floor the error estimate is rounding (a tolerance near
-                 * double precision): take the step. */
-                h_new = h_min;
-            }
-            dt = h_step;
-            h_step = fmin(h_new, h_max);
-            break;
+        /* One accepted step, with the earliest event crossed on it. */
+        long trials0 = sl_ode_trials(ode);
+        int kind;
+        sl_ode_hits hits;
+        int rc = sl_ode_step(ode, INFINITY, &kind, &hits, &oe);
+        *n_steps += sl_ode_trials(ode) - trials0;
+        if (c->air_failed)
+            return sl_err_push(e, e ? e->code : SL_ENUMERIC, __func__, __LINE__);
+        if (rc != SL_OK) {
+            if (e)
+                *e = oe;
+            return sl_err_push(e, rc, __func__, __LINE__);
         }
-        memcpy(ys, ys_try, sizeof ys);
-        from_scaled(c, ys, y);
-        t = t0 + dt;
-
-        /* Earliest event crossed on this step. */
-        int first = -1;
-        double tau_first = dt, g_new[N_EVENTS];
-        for (int ev = 0; ev < N_EVENTS; ev++) {
-            double g0, g1;
-            if (have_g)
-                g0 = g_prev[ev]; /* the end of the last step is the start of this one */
-            else if (event_value(c, ev, y0, &g0) != GSL_SUCCESS)
-                return sl_err_push(e, e ? e->code : SL_ENUMERIC, __func__, __LINE__);
-            if (event_value(c, ev, y, &g1) != GSL_SUCCESS)
-                return sl_err_push(e, e ? e->code : SL_ENUMERIC, __func__, __LINE__);
-            g_new[ev] = g1;
-            if (!(g0 > 0.0 && g1 <= 0.0))
-                continue;
-            double tau;
-            pq.t0 = t0;
-            pq.ev = ev;
-            pq.failed = 0;
-            int rs = locate_event(&pq, dt, &tau);
-            if (rs != GSL_SUCCESS || pq.failed) {
-                if (c->air_failed)
-                    return sl_err_push(e, e ? e->code : SL_ENUMERIC, __func__, __LINE__);
-                SL_FAIL_RETURN(e, SL_ENUMERIC, "entry: event location failed near %.0f m", y0[Y_H]);
+        if (*n_steps > max_steps)
+            SL_FAIL_RETURN(e, SL_ENUMERIC, "entry: more than %ld steps (at %.0f m, %.1f m/s)", max_steps, y[Y_H],
+                           y[Y_V]);
+        h_step = sl_ode_h(ode);
+        from_scaled(c, sl_ode_y_prev(ode), y0);
+        double t0 = sl_ode_t_prev(ode);
+        if (kind == SL_ODE_STEP_STUCK) {
+            /* every trial left the physical domain (mass or speed <= 0) down to the smallest step */
+            if (y0[Y_M] < 1e-3 * g->piece_mass_kg || y0[Y_V] < 10.0 * stall_speed_m_s) {
+                /* all but gone, or at rest: it ends here */
+                en->energy_air_drag_J += g->count * y0[Y_EDRAG];
+                en->energy_ablation_J += g->count * y0[Y_EABL];
+                en->gravity_work_J += g->count * y0[Y_WGRAV];
+                en->energy_in_air_J += g->count * (y0[Y_EDRAG] + y0[Y_EABL]);
+                finish(s, q, y0, SL_ENTRY_END_AIR, t0);
+                return SL_OK;
             }
-            if (first < 0 || tau < tau_first) {
-                first = ev;
-                tau_first = tau;
-            }
+            SL_FAIL_RETURN(e, SL_ENUMERIC, "entry: ODE solver failed (no step is small enough) at %.0f m, %.1f m/s",
+                           y0[Y_H], y0[Y_V]);
         }
-        if (first >= 0) {
-            pq.t0 = t0;
-            if (probe_state(&pq, tau_first, y) != GSL_SUCCESS)
-                SL_FAIL_RETURN(e, SL_ENUMERIC, "entry: state at an event failed near %.0f m", y0[Y_H]);
-            t = t0 + tau_first;
-            if (first == EV_SEA)
-                y[Y_H] = 0.0; /* the root is found to 1e-12 of the step; pin it */
+        from_scaled(c, sl_ode_y(ode), y);
+        t = sl_ode_t(ode);
+        int first = hits.terminal ? (int)hits.event[hits.n - 1] : -1;
+        const double *f0 = sl_ode_dydt_prev(ode), *f1 = sl_ode_dydt(ode);
+        if (first == EV_SEA) {
+            y[Y_H] = 0.0; /* the root is found to 1e-12 of the step; pin it */
             to_scaled(c, y, ys);
-            if (rhs_scaled(t, ys, f1, c) != GSL_SUCCESS) {
+            if (rhs_scaled(t, ys, f_sea, c) != GSL_SUCCESS) {
                 if (c->air_failed)
                     return sl_err_push(e, e ? e->code : SL_ENUMERIC, __func__, __LINE__);
                 SL_FAIL_RETURN(e, SL_ENUMERIC, "entry: bad state at an event near %.0f m", y[Y_H]);
             }
+            f1 = f_sea;
         }
 
         /* Energy given to the air on this step, spread by the Hermite curve. */
@@ -859,16 +772,11 @@ static int fly(solver *s, pending *q, long *n_steps, sl_err *e)
         double de = g->count * ((y[Y_EDRAG] + y[Y_EABL]) - (y0[Y_EDRAG] + y0[Y_EABL]));
         deposit_step(en, y0[Y_H], y[Y_H], de, g->count * se * (f0[Y_EDRAG] + f0[Y_EABL]),
                      g->count * se * (f1[Y_EDRAG] + f1[Y_EABL]), sh * f0[Y_H], sh * f1[Y_H]);
-        memcpy(f0, f1, sizeof f0);
 
-        if (first < 0) {
-            memcpy(g_prev, g_new, sizeof g_prev);
-            have_g = 1;
+        if (first < 0)
             continue;
-        }
-        have_g = 0;
         if (first == EV_BREAKUP) {
-            check_break = 1; /* handled at the top of the loop (the state is at the strength) */
+            broke = 1; /* handled at the top of the loop (the state is at the strength) */
             continue;
         }
         en->energy_air_drag_J += g->count * y[Y_EDRAG];
@@ -947,12 +855,11 @@ int sl_entry_solve(sl_entry *en, const sl_entry_params *p, const sl_entry_air *a
                                           ? stefan_boltzmann * pow(p->radiation_temperature_K, 4) /
                                                 p->heat_of_ablation_J_kg
                                           : INFINITY};
-    s.sys = (gsl_odeiv2_system){rhs_scaled, NULL, NY, &s.c};
     s.fragments = p->breakup_model == SL_ENTRY_MODEL_FRAGMENTS ||
                   (p->breakup_model == SL_ENTRY_MODEL_AUTO && p->strength_Pa >= p->fragmenting_strength_Pa);
     double tol = p->relative_tolerance;
-    if (gsl_odeiv2_control_init(w->control, tol, tol, 1.0, 0.0) != GSL_SUCCESS)
-        SL_FAIL_RETURN(e, SL_EINTERNAL, "entry: cannot set the tolerance %g", tol);
+    SL_TRY_RETURN(e, sl_ode_set_tolerance(w->ode, tol, tol, e));
+    sl_ode_set_params(w->ode, &s.c);
 
     double y[NY] = {0};
     y[Y_V] = p->speed_m_s;
@@ -1011,14 +918,7 @@ void sl_entry_free(sl_entry *en)
     if (en == NULL)
         return;
     if (en->w) {
-        if (en->w->step)
-            gsl_odeiv2_step_free(en->w->step);
-        if (en->w->probe)
-            gsl_odeiv2_step_free(en->w->probe);
-        if (en->w->control)
-            gsl_odeiv2_control_free(en->w->control);
-        if (en->w->root)
-            gsl_root_fsolver_free(en->w->root);
+        sl_ode_free(en->w->ode);
         free(en->w);
     }
     free(en->band_energy_J);

@@ -198,3 +198,92 @@ int sl_output_csv_write(const sl_output_view *v, const char *dir, int force, sl_
     free(set);
     return rc;
 }
+
+/* ------------------------------------------------------------ number text */
+
+void sl_csv_number_text(char *buf, double x)
+{
+    if (!isfinite(x) || x == 0.0) {
+        snprintf(buf, 32, "%.15g", x);
+        return;
+    }
+    char e17[40];
+    snprintf(e17, sizeof e17, "%.16e", x); /* [-]d.dddddddddddddddde[+-]XX */
+    int neg = e17[0] == '-';
+    const char *p = e17 + neg;
+    char dig[18];
+    dig[0] = p[0];
+    memcpy(dig + 1, p + 2, 16);
+    dig[17] = 0;
+    int xe = atoi(p + 19);
+    for (int prec = 15; prec <= 17; prec++) {
+        char d[18];
+        int xp = xe;
+        if (prec < 17) {
+            /* round the 17 digits to PREC; a tie in the dropped digits (which
+             * stood for an exact value on either side) goes to snprintf */
+            int tie = prec == 16 ? dig[16] == '5' : (dig[15] == '5' && dig[16] == '0');
+            if (tie) {
+                snprintf(buf, 32, "%.*g", prec, x);
+                if (strtod(buf, NULL) == x)
+                    return;
+                continue;
+            }
+            memcpy(d, dig, (size_t)prec);
+            if (dig[prec] >= '5') {
+                int k = prec - 1;
+                while (k >= 0 && d[k] == '9')
+                    d[k--] = '0';
+                if (k >= 0)
+                    d[k]++;
+                else {
+                    d[0] = '1'; /* 99..9 -> 100..0 */
+                    xp++;
+                }
+            }
+        } else {
+            memcpy(d, dig, 17);
+        }
+        /* the %g layout of PREC digits D with exponent XP */
+        int np = prec;
+        while (np > 1 && d[np - 1] == '0')
+            np--;
+        char *o = buf;
+        if (neg)
+            *o++ = '-';
+        if (xp < -4 || xp >= prec) {
+            *o++ = d[0];
+            if (np > 1) {
+                *o++ = '.';
+                memcpy(o, d + 1, (size_t)(np - 1));
+                o += np - 1;
+            }
+            *o++ = 'e';
+            int ax = xp < 0 ? -xp : xp;
+            *o++ = xp < 0 ? '-' : '+';
+            if (ax >= 100)
+                *o++ = (char)('0' + ax / 100);
+            *o++ = (char)('0' + ax / 10 % 10);
+            *o++ = (char)('0' + ax % 10);
+        } else if (xp < 0) {
+            *o++ = '0';
+            *o++ = '.';
+            for (int k = 0; k < -xp - 1; k++)
+                *o++ = '0';
+            memcpy(o, d, (size_t)np);
+            o += np;
+        } else {
+            int ni = xp + 1; /* digits before the point */
+            memcpy(o, d, (size_t)ni);
+            o += ni;
+            if (np > ni) {
+                *o++ = '.';
+                memcpy(o, d + ni, (size_t)(np - ni));
+                o += np - ni;
+            }
+        }
+        *o = 0;
+        if (prec == 17 || strtod(buf, NULL) == x)
+            return;
+    }
+}

@@ -1,6 +1,7 @@
 /* output_ensemble: per-member CSV and netCDF, the summary and the plots of
  * an ensemble or sweep (see include/steamloft/output_ensemble.h). */
 #include "steamloft/output_ensemble.h"
+#include "steamloft/output_csv.h"
 
 #include "steamloft/output_nc.h"
 #include "steamloft/output_text.h"
@@ -39,33 +40,46 @@ static const char *sampling_word(const sl_ens_plan *p)
     return p->mode == SL_ENS_GRID ? "grid" : p->mode == SL_ENS_SOBOL ? "sobol" : "monte_carlo";
 }
 
-/* Write S as one CSV field, quoted when it holds a comma, quote or newline. */
-static void csv_field(FILE *f, const char *s)
+/* Text appended to a row buffer (room is counted by sl_ens_sink_row_cap). */
+typedef struct textbuf {
+    char *p;
+    size_t n, cap;
+} textbuf;
+
+static void tb_put(textbuf *t, const char *s, size_t len)
 {
-    if (strpbrk(s, ",\"\n\r") == NULL) {
-        fputs(s, f);
-        return;
-    }
-    fputc('"', f);
-    for (; *s; s++) {
-        if (*s == '"')
-            fputc('"', f);
-        fputc(*s == '\n' || *s == '\r' ? ' ' : *s, f);
-    }
-    fputc('"', f);
+    if (t->n + len >= t->cap)
+        len = t->n + 1 < t->cap ? t->cap - 1 - t->n : 0;
+    memcpy(t->p + t->n, s, len);
+    t->n += len;
+    t->p[t->n] = '\0';
 }
 
-/* Write X with the fewest digits (15 to 17) that read back to the same
- * double, so the CSV holds exactly what the statistics used. */
-static void csv_number(FILE *f, double x)
+static void tb_char(textbuf *t, char c) { tb_put(t, &c, 1); }
+
+/* S as one CSV field, quoted when it holds a comma, quote or newline. */
+static void csv_field(textbuf *t, const char *s)
+{
+    if (strpbrk(s, ",\"\n\r") == NULL) {
+        tb_put(t, s, strlen(s));
+        return;
+    }
+    tb_char(t, '"');
+    for (; *s; s++) {
+        if (*s == '"')
+            tb_char(t, '"');
+        tb_char(t, *s == '\n' || *s == '\r' ? ' ' : *s);
+    }
+    tb_char(t, '"');
+}
+
+/* X with the fewest digits (15 to 17) that read back to the same double, so
+ * the CSV holds exactly what the statistics used. */
+static void csv_number(textbuf *t, double x)
 {
     char buf[40];
-    for (int prec = 15; prec <= 17; prec++) {
-        snprintf(buf, sizeof buf, "%.*g", prec, x);
-        if (prec == 17 || strtod(buf, NULL) == x)
-            break;
-    }
-    fputs(buf, f);
+    sl_csv_number_text(buf, x);
+    tb_put(t, buf, strlen(buf));
 }
 
 static const char *status_word(int st)
@@ -120,8 +134,41 @@ static int nc_flush(sl_ens_sink *s, sl_err *e)
     return SL_OK;
 }
 
+size_t sl_ens_sink_row_cap(const sl_ens_plan *p, const sl_ens_model *m)
+{
+    /* member and status (48), the reason quoted with every character
+     * doubled, 25 per number (a comma and at most 24 characters of %.17g),
+     * the newline. */
+    return 48 + 2 * SL_ENS_REASON_LEN + 2 + 25 * (p->n_inputs + m->n_outputs) + 2;
+}
+
+void sl_ens_sink_format(const void *sinkp, size_t m, const double *in, const double *out, int st,
+                        const char *reason, char *text, size_t cap)
+{
+    const sl_ens_sink *s = sinkp;
+    textbuf t = {text, 0, cap};
+    text[0] = '\0';
+    if (!s->csv)
+        return;
+    size_t ni = s->plan->n_inputs, no = s->model->n_outputs;
+    char head[64];
+    int w = snprintf(head, sizeof head, "%zu,%s,", m, status_word(st));
+    tb_put(&t, head, w > 0 ? (size_t)w : 0);
+    csv_field(&t, reason);
+    for (size_t k = 0; k < ni; k++) {
+        tb_char(&t, ',');
+        csv_number(&t, in[k]);
+    }
+    for (size_t j = 0; j < no; j++) {
+        tb_char(&t, ',');
+        if (st == SL_OK && isfinite(out[j]))
+            csv_number(&t, out[j]); /* else: failed member, or an output that does not apply */
+    }
+    tb_char(&t, '\n');
+}
+
 int sl_ens_sink_row(void *sinkp, size_t m, const double *in, const double *out, int st, const char *reason,
-                    sl_err *e)
+                    const char *text, sl_err *e)
 {
     sl_ens_sink *s = sinkp;
     size_t ni = s->plan->n_inputs, no = s->model->n_outputs, nb = s->chain->n_band;
@@ -135,20 +182,9 @@ int sl_ens_sink_row(void *sinkp, size_t m, const double *in, const double *out, 
         sl_ens_hist_add(&s->hprof, out + no);
         sl_ens_hist_add(&s->hrem, out + no + nb);
     }
-    if (s->csv) {
-        FILE *f = s->csv;
-        fprintf(f, "%zu,%s,", m, status_word(st));
-        csv_field(f, reason);
-        for (size_t k = 0; k < ni; k++) {
-            fputc(',', f);
-            csv_number(f, in[k]);
-        }
-        for (size_t j = 0; j < no; j++) {
-            fputc(',', f);
-            if (st == SL_OK && isfinite(out[j]))
-                csv_number(f, out[j]); /* else: failed member, or an output that does not apply */
-        }
-        if (fputc('\n', f) == EOF)
+    if (s->csv && text) {
+        size_t len = strlen(text);
+        if (fwrite(text, 1, len, s->csv) != len)
             SL_FAIL_RETURN(e, SL_EIO, "%s: write error: %s", s->csv_name, strerror(errno));
     }
     if (s->nc >= 0) {
@@ -518,13 +554,13 @@ static int summary_compute(summary *u, const sl_ens_sink *s, const sl_ens_result
     if (!u->mean || !u->sd || !u->vals || !u->sens || !u->nok)
         SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory for the summary");
     for (size_t j = 0; j < u->no; j++) {
-        sl_ens_mean_sd(r, j, &u->mean[j], &u->sd[j], &u->nok[j]);
+        SL_TRY_RETURN(e, sl_ens_mean_sd(r, j, &u->mean[j], &u->sd[j], &u->nok[j], e));
         SL_TRY_RETURN(e, sl_ens_percentiles(r, j, u->pct, u->np, u->vals + j * u->np, &u->nok[j], e));
     }
     if (u->ni > 0)
         SL_TRY_RETURN(e, sl_ens_sensitivity(r, u->sens, u->sens + u->ni * u->no, e));
     for (size_t t = 0; t < s->rq->nthr; t++)
-        sl_ens_exceedance(r, (size_t)thr_out[t], &thr[t], &u->pe[t], &u->se[t], &u->pe_n[t]);
+        SL_TRY_RETURN(e, sl_ens_exceedance(r, (size_t)thr_out[t], &thr[t], &u->pe[t], &u->se[t], &u->pe_n[t], e));
     return SL_OK;
 }
 

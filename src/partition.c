@@ -225,12 +225,14 @@ static double halfspace_waste_heat_J(double p_ic, double r_ic, double n, double 
                    r_ic * r_ic * r_ic;
     if (p_ic <= p_end)
         return total;
-    double lr0 = log(r_ic), lr1 = lr0 + log(p_ic / p_end) / n, dl = (lr1 - lr0) / N_SHELLS;
-    for (int k = 0; k < N_SHELLS; k++) {
-        double r = exp(lr0 + (k + 0.5) * dl);
-        double pr = p_ic * pow(r / r_ic, -n);
+    double dl = log(p_ic / p_end) / n / N_SHELLS;
+    /* Shell midpoints r_k = r_ic e^((k + 1/2) dl) and pressures p_ic (r_k/r_ic)^-n
+     * by geometric recurrence (no exp or pow per shell; rounding of the
+     * product grows to ~1e-14 over the shells). */
+    double q = exp(dl), qp = exp(-n * dl);
+    double r = r_ic * exp(0.5 * dl), pr = p_ic * exp(-0.5 * n * dl);
+    for (int k = 0; k < N_SHELLS; k++, r *= q, pr *= qp)
         total += waste_heat_J_kg(w, particle_speed_from_pressure(w, pr)) * rho_w * 2.0 * SL_PI * r * r * r * dl;
-    }
     return total;
 }
 

@@ -81,10 +81,13 @@
  * used reproduces the 1.69 Mt surface-burst cloud (top 21.6 km, bottom
  * 12.3 km) within the tolerance of tests/test_plume.c.  In the Boussinesq
  * limit it spans [2^-1/4, 1 + alpha] z_max.  Within the layer the mass is
- * placed where it is: densest at the neutral level, where the collapsing
- * thermal spreads as an umbrella, and thinning linearly to nothing at the top
- * of the overshoot (a triangular profile with its mode at z_N; Morton, Taylor
- * & Turner 1956; Sparks 1986; Woods 1988), not spread evenly.
+ * placed where it is: the umbrella's volume is widest at the neutral level,
+ * where the collapsing thermal spreads, and narrows linearly to nothing at
+ * the top of the overshoot (a triangular profile with its mode at z_N;
+ * Morton, Taylor & Turner 1956; Sparks 1986; Woods 1988), and its mass is
+ * that volume times the ambient density (the gas has come to rest near its
+ * level), so the overshoot, in thinner air, carries little of it
+ * (sl_injection_umbrella_weight; docs/physics.md section 6).
  *
  * Ballistic regime: see sl_plume_rise's helpers ballistic_weight and
  * ballistic_flight below (and docs/physics.md section 6).
@@ -108,12 +111,11 @@
  *
  * Units: SI throughout (m, s, kg, J, K, Pa). */
 #include "steamloft/plume.h"
+#include "steamloft/ode.h"
 #include "steamloft/units.h"
 #include "steamloft/water.h"
 
 #include <gsl/gsl_errno.h>
-#include <gsl/gsl_odeiv2.h>
-#include <gsl/gsl_roots.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -144,12 +146,8 @@ enum { IZ, IMA, IMW, IPI, IH, IEIN, IEOUT, IWIN, IWOUT, IAIN, NY };
 #define T_FIREBALL_CAP_K 3000.0
 
 struct sl_plume_work {
-    gsl_odeiv2_step *step, *step_root;
-    gsl_odeiv2_control *ctl;
-    gsl_odeiv2_evolve *ev;
-    gsl_root_fsolver *root;
-    gsl_odeiv2_system sys;
-    double y[NY], y_prev[NY], y_tmp[NY], y_err[NY];
+    sl_ode *ode;               /* the ODE-with-events layer (ode.h) */
+    double y[NY], y_tmp[NY];
     double scale[NY];
     /* Context of the current rise (set before integrating). */
     const sl_atmosphere *atm;
@@ -160,12 +158,14 @@ struct sl_plume_work {
     double z_bottom_m;         /* bottom of the atmosphere profile */
     int rhs_failed;            /* the atmosphere could not be evaluated */
     double T_guess;            /* last equilibrium temperature: Newton's first guess */
-    double T_event_guess;      /* fixed first guess while an event is located */
     sl_err rhs_err;
-    /* Root-finding context. */
-    double t_prev;
-    int event;                 /* 0: w (apex), 1: buoyancy force (neutral level), 2: z - z_top */
 };
+
+/* Events of the rise (ode.h: each positive before it, <= 0 at it). */
+enum { EV_APEX = 0,            /* w: the apex (terminal) */
+       EV_NEUTRAL,             /* buoyancy force: the neutral level (not terminal, the first only) */
+       EV_TOP,                 /* z_top - z: the top of the atmosphere profile (terminal) */
+       N_EVENTS };
 
 /* Diagnosed quantities of a state. */
 typedef struct diag {
@@ -446,77 +446,34 @@ static double total_energy(const sl_plume_work *w, const double *s, const diag *
 
 /* ------------------------------------------------------------------ events */
 
-static double event_value(sl_plume_work *w, const double *s, int event, int *ok)
+/* All event values of a scaled state.  An evaluation leaves the Newton
+ * guess alone, so that while an event is located one time gives one value
+ * (the buoyancy force is a small difference of large terms). */
+static int events(double t, const double *s, double *g, void *params)
 {
-    diag d;
-    *ok = diagnose(w, s, &d) == GSL_SUCCESS;
-    if (!*ok)
-        return NAN;
-    if (event == 0)
-        return d.w_m_s;
-    if (event == 1)
-        return d.buoy_N;
-    return d.z_m - w->z_top_m;
-}
-
-/* Take one step of size T - t_prev from y_prev into y_tmp. */
-static int step_to(sl_plume_work *w, double t)
-{
-    memcpy(w->y_tmp, w->y_prev, sizeof w->y_tmp);
-    double h = t - w->t_prev;
-    if (h == 0.0)
-        return GSL_SUCCESS;
-    gsl_odeiv2_step_reset(w->step_root);
-    return gsl_odeiv2_step_apply(w->step_root, w->t_prev, h, w->y_tmp, w->y_err, NULL, NULL, &w->sys);
-}
-
-static double event_at(double t, void *params)
-{
+    (void)t;
     sl_plume_work *w = params;
-    /* The same first guess for every evaluation, so that one time gives one
-     * value (the buoyancy force is a small difference of large terms). */
-    w->T_guess = w->T_event_guess;
-    if (step_to(w, t) != GSL_SUCCESS)
-        return NAN;
-    int ok;
-    return event_value(w, w->y_tmp, w->event, &ok);
+    double T_keep = w->T_guess;
+    diag d;
+    int st = diagnose(w, s, &d);
+    w->T_guess = T_keep;
+    if (st != GSL_SUCCESS)
+        return st;
+    g[EV_APEX] = d.w_m_s;
+    g[EV_NEUTRAL] = d.buoy_N;
+    g[EV_TOP] = w->z_top_m - d.z_m;
+    return GSL_SUCCESS;
 }
 
-/* Root of event EVENT in [t_prev, t_now]; leaves the state there in y_tmp. */
-static int locate(sl_plume_work *w, int event, double t_now, double *t_root, sl_err *e)
+/* A failed step: the atmosphere's message when the right-hand side could not
+ * evaluate it, else the solver's (already in E). */
+static int solver_failure(sl_plume_work *w, sl_err *e)
 {
-    w->event = event;
-    w->T_event_guess = w->T_guess;
-    gsl_function F = {event_at, w};
-    double f0 = event_at(w->t_prev, w), f1 = event_at(t_now, w);
-    if (isfinite(f0) && isfinite(f1) && f0 * f1 > 0.0) {
-        /* The re-step to the step's end can differ from the accepted step by
-         * rounding; when that hides a sign change the event sits at an end
-         * of the step, within rounding: take the end nearer to zero. */
-        *t_root = fabs(f1) <= fabs(f0) ? t_now : w->t_prev;
-        if (step_to(w, *t_root) != GSL_SUCCESS)
-            SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: step to the event at t = %g s failed", *t_root);
-        return SL_OK;
+    if (w->rhs_failed) {
+        sl_err_set(e, w->rhs_err.code, __func__, __LINE__, "plume: %s", w->rhs_err.msg);
+        return w->rhs_err.code;
     }
-    int st = gsl_root_fsolver_set(w->root, &F, w->t_prev, t_now);
-    if (st != GSL_SUCCESS)
-        SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: event %d not bracketed between t = %g and %g s (%s)", event, w->t_prev,
-                       t_now, gsl_strerror(st));
-    double r = t_now;
-    for (int it = 0; it < 100; it++) {
-        st = gsl_root_fsolver_iterate(w->root);
-        if (st != GSL_SUCCESS)
-            SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: root finding for event %d failed near t = %g s (%s)", event, r,
-                           gsl_strerror(st));
-        r = gsl_root_fsolver_root(w->root);
-        double lo = gsl_root_fsolver_x_lower(w->root), hi = gsl_root_fsolver_x_upper(w->root);
-        if (gsl_root_test_interval(lo, hi, 1.0e-9, 1.0e-13) == GSL_SUCCESS)
-            break;
-    }
-    *t_root = r;
-    if (step_to(w, r) != GSL_SUCCESS)
-        SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: step to the event at t = %g s failed", r);
-    return SL_OK;
+    return sl_err_push(e, e ? e->code : SL_ENUMERIC, __func__, __LINE__);
 }
 
 /* ------------------------------------------------------------------ set-up */
@@ -533,20 +490,14 @@ int sl_plume_init(sl_plume *pl, const sl_plume_params *par, sl_err *e)
     if (w == NULL)
         SL_FAIL_RETURN(e, SL_ENOMEM, "plume: out of memory for the workspace");
     pl->work = w;
-    w->step = gsl_odeiv2_step_alloc(gsl_odeiv2_step_rkck, NY);
-    w->step_root = gsl_odeiv2_step_alloc(gsl_odeiv2_step_rkck, NY);
-    /* Scaled state: absolute and relative tolerance both rtol. */
-    w->ctl = gsl_odeiv2_control_standard_new(pl->par.rtol, pl->par.rtol, 1.0, 0.0);
-    w->ev = gsl_odeiv2_evolve_alloc(NY);
-    w->root = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
-    if (!w->step || !w->step_root || !w->ctl || !w->ev || !w->root) {
+    /* Cash-Karp 4(5) on the scaled state: absolute and relative tolerance both rtol. */
+    sl_ode_config oc = {.dim = NY, .stepper = SL_ODE_RKCK, .rhs = rhs, .events = events, .n_events = N_EVENTS,
+                        .params = w, .atol = pl->par.rtol, .rtol = pl->par.rtol};
+    int rc = sl_ode_init(&w->ode, &oc, e);
+    if (rc != SL_OK) {
         sl_plume_free(pl);
-        SL_FAIL_RETURN(e, SL_ENOMEM, "plume: out of memory for the ODE solver");
+        return sl_err_push(e, rc, __func__, __LINE__);
     }
-    w->sys.function = rhs;
-    w->sys.jacobian = NULL;
-    w->sys.dimension = NY;
-    w->sys.params = w;
     w->lv0_J_kg = sl_water_latent_vaporization_J_kg(T_TRIPLE);
     w->lf0_J_kg = sl_water_latent_sublimation_J_kg(T_TRIPLE) - w->lv0_J_kg;
     if (!(w->lv0_J_kg > 2.0e6 && w->lv0_J_kg < 3.0e6 && w->lf0_J_kg > 2.0e5 && w->lf0_J_kg < 4.0e5)) {
@@ -563,9 +514,7 @@ int sl_plume_set_params(sl_plume *pl, const sl_plume_params *par, sl_err *e)
         SL_FAIL_RETURN(e, SL_EINTERNAL, "sl_plume_set_params: plume not initialised");
     SL_TRY_RETURN(e, sl_plume_params_check(par, e));
     if (par->rtol != pl->par.rtol) {
-        int st = gsl_odeiv2_control_init(pl->work->ctl, par->rtol, par->rtol, 1.0, 0.0);
-        if (st != GSL_SUCCESS)
-            SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: cannot set the tolerance %g (%s)", par->rtol, gsl_strerror(st));
+        SL_TRY_RETURN(e, sl_ode_set_tolerance(pl->work->ode, par->rtol, par->rtol, e));
     }
     pl->par = *par;
     return SL_OK;
@@ -576,16 +525,7 @@ void sl_plume_free(sl_plume *pl)
     if (pl == NULL || pl->work == NULL)
         return;
     sl_plume_work *w = pl->work;
-    if (w->step)
-        gsl_odeiv2_step_free(w->step);
-    if (w->step_root)
-        gsl_odeiv2_step_free(w->step_root);
-    if (w->ctl)
-        gsl_odeiv2_control_free(w->ctl);
-    if (w->ev)
-        gsl_odeiv2_evolve_free(w->ev);
-    if (w->root)
-        gsl_root_fsolver_free(w->root);
+    sl_ode_free(w->ode);
     free(w);
     pl->work = NULL;
 }
@@ -789,11 +729,17 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     memset(out, 0, sizeof *out);
     out->kind = src->kind;
     double zlo = atm->altitude_m[0], zhi = atm->altitude_m[atm->n - 1];
-    if (!isfinite(src->altitude_m) || src->altitude_m < zlo || src->altitude_m > zhi)
+    if (!isfinite(src->altitude_m) || src->altitude_m < zlo)
         SL_FAIL_RETURN(e, SL_EDATA, "source altitude_m = %g is outside the atmosphere profile '%s' (valid range %g to %g m)",
                        src->altitude_m, atm->name, zlo, zhi);
+    /* A release centred above the profile's top (a fireball sized in the thin
+     * air of a very high burst, lifted off the surface by its own radius) has
+     * no air to rise through: it is wholly ballistic from the top of the
+     * profile (Melosh 1989 ch. 5), never an error. */
+    const int above_top = src->altitude_m > zhi;
+    const double z_src = above_top ? zhi : src->altitude_m;
     sl_atmos_state amb;
-    SL_TRY_RETURN(e, sl_atmosphere_at(atm, src->altitude_m, &amb, e));
+    SL_TRY_RETURN(e, sl_atmosphere_at(atm, z_src, &amb, e));
     start st = {0};
     SL_TRY_RETURN(e, source_state(src, &amb, &st, e));
 
@@ -809,7 +755,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
 
     out->source_altitude_m = src->altitude_m;
     out->source_radius_m = st.radius_m;
-    out->scale_height_m = amb.pressure_Pa / (amb.density_kg_m3 * gravity_m_s2(src->altitude_m));
+    out->scale_height_m = amb.pressure_Pa / (amb.density_kg_m3 * gravity_m_s2(z_src));
 
     /* Initial enthalpy with the water as given (vapour, liquid); the
      * equilibrium diagnosis then settles the phases at constant enthalpy. */
@@ -829,9 +775,9 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * best estimate this model has of how high the buoyant gas goes) and
      * flagged; see "Regime" in the header comment. */
     int blowout_at_start = fmax(r_fireball, st.radius_m) > out->scale_height_m;
-    out->ballistic_fraction = ballistic_weight(fmax(r_fireball, st.radius_m) / out->scale_height_m);
+    out->ballistic_fraction = above_top ? 1.0 : ballistic_weight(fmax(r_fireball, st.radius_m) / out->scale_height_m);
 
-    double w0 = src->vertical_speed_m_s, phi0 = potential_J_kg(src->altitude_m);
+    double w0 = src->vertical_speed_m_s, phi0 = potential_J_kg(z_src);
     double kin0 = 0.5 * (1.0 + w->k) * w0 * w0;
     out->energy_initial_J = H0 + M0 * (phi0 + kin0);
 
@@ -855,12 +801,12 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * (latent heat included: it is released as the expanding vapour
      * condenses). */
     double e_gas = (H0 - h_spray) / M1 - CPA * (amb.temperature_K - T_TRIPLE);
-    SL_TRY_RETURN(e, ballistic_flight(atm, src->altitude_m, M1, e_gas, out, e));
+    SL_TRY_RETURN(e, ballistic_flight(atm, z_src, M1, e_gas, out, e));
     if (out->ballistic_fraction >= 1.0) {
         /* Fully ballistic: no rise through the air; the gas phase flies and
          * re-enters, the spray has fallen back. */
         out->regime = SL_REGIME_BALLISTIC;
-        out->apex_time_s = 2.0 * out->launch_speed_m_s * sqrt(0.5) / gravity_m_s2(src->altitude_m);
+        out->apex_time_s = 2.0 * out->launch_speed_m_s * sqrt(0.5) / gravity_m_s2(z_src);
         out->apex_altitude_m = out->top_altitude_m = out->apogee_m;
         out->apex_radius_m = out->reentry_range_m;
         out->apex_scale_height_m = out->scale_height_m;
@@ -925,63 +871,62 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
         return SL_OK;
     }
 
-    gsl_odeiv2_evolve_reset(w->ev);
-    gsl_odeiv2_step_reset(w->step);
     double t = 0.0;
     double tau = sqrt(Ls / SL_USSA_G0_M_S2);
-    double h = 1.0e-3 * tau;
     double tmax = pl->par.max_time_s;
     out->max_speed_m_s = fmax(0.0, w_prev);
-    int done = 0;
+    sl_ode *ode = w->ode;
+    sl_ode_event_mode(ode, EV_APEX, 1, 1);
+    sl_ode_event_mode(ode, EV_NEUTRAL, 0, !have_neutral);
+    sl_ode_event_mode(ode, EV_TOP, 1, 1);
+    if (sl_ode_restart(ode, t, w->y, 1.0e-3 * tau, e) != SL_OK)
+        return solver_failure(w, e);
+    int done = 0, hits_top = 0;
     while (!done) {
         if (t >= tmax)
             SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: no apex within max_time_s = %g s (last altitude %g m, speed %g m/s)",
-                           tmax, d.z_m, w_prev);
-        memcpy(w->y_prev, w->y, sizeof w->y);
-        w->t_prev = t;
-        int st2 = gsl_odeiv2_evolve_apply(w->ev, w->ctl, w->step, &w->sys, &t, tmax, &h, w->y);
-        if (st2 != GSL_SUCCESS) {
-            if (w->rhs_failed) {
-                sl_err_set(e, w->rhs_err.code, __func__, __LINE__, "plume: %s", w->rhs_err.msg);
-                return w->rhs_err.code;
-            }
-            SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: ODE solver failed at t = %g s, altitude %g m (%s)", t, d.z_m,
-                           gsl_strerror(st2));
-        }
+                           tmax, sl_ode_y(ode)[IZ] * w->scale[IZ], sl_ode_g(ode)[EV_APEX]);
+        int kind;
+        sl_ode_hits hits;
+        if (sl_ode_step(ode, tmax, &kind, &hits, e) != SL_OK)
+            return solver_failure(w, e);
+        if (kind == SL_ODE_STEP_STUCK)
+            SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: ODE solver failed at t = %g s, altitude %g m (step too small)", t,
+                           sl_ode_y(ode)[IZ] * w->scale[IZ]);
         out->n_steps++;
-        if (diagnose(w, w->y, &d) != GSL_SUCCESS)
-            SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: state not usable at t = %g s", t);
-        if (d.w_m_s > out->max_speed_m_s)
-            out->max_speed_m_s = d.w_m_s;
-        double t_ev;
-        if (!have_neutral && f_prev > 0.0 && d.buoy_N <= 0.0) {
-            SL_TRY_RETURN(e, locate(w, 1, t, &t_ev, e));
-            diag dn;
-            if (diagnose(w, w->y_tmp, &dn) != GSL_SUCCESS)
-                SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: state not usable at the neutral level");
-            out->neutral_altitude_m = dn.z_m;
-            out->neutral_time_s = t_ev;
-            have_neutral = 1;
+        t = sl_ode_t(ode);
+        const double *g = sl_ode_g(ode);
+        if (g[EV_APEX] > out->max_speed_m_s)
+            out->max_speed_m_s = g[EV_APEX];
+        for (size_t k = 0; k < hits.n; k++) {
+            if (hits.event[k] == EV_NEUTRAL) {
+                diag dn;
+                sl_ode_dense(ode, hits.t[k], w->y_tmp);
+                if (diagnose(w, w->y_tmp, &dn) != GSL_SUCCESS)
+                    SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: state not usable at the neutral level");
+                out->neutral_altitude_m = dn.z_m;
+                out->neutral_time_s = hits.t[k];
+                have_neutral = 1;
+                sl_ode_event_mode(ode, EV_NEUTRAL, 0, 0);
+            } else if (hits.event[k] == EV_TOP) {
+                out->regime = SL_REGIME_BLOWOUT;
+                hits_top = 1;
+            }
         }
-        if (w_prev > 0.0 && d.w_m_s <= 0.0) {
-            SL_TRY_RETURN(e, locate(w, 0, t, &t_ev, e));
-            memcpy(w->y, w->y_tmp, sizeof w->y);
-            t = t_ev;
-            if (diagnose(w, w->y, &d) != GSL_SUCCESS)
-                SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: state not usable at the apex");
-            done = 1;
-        } else if (d.z_m >= w->z_top_m) {
-            SL_TRY_RETURN(e, locate(w, 2, t, &t_ev, e));
-            memcpy(w->y, w->y_tmp, sizeof w->y);
-            t = t_ev;
-            if (diagnose(w, w->y, &d) != GSL_SUCCESS)
-                SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: state not usable at the top of the profile");
-            out->regime = SL_REGIME_BLOWOUT;
+        /* Stopped at the apex or the top of the profile; or at or above the
+         * top at the end of a step without crossing it there. */
+        if (hits.terminal || !(g[EV_TOP] > 0.0)) {
+            if (!hits.terminal)
+                out->regime = SL_REGIME_BLOWOUT;
             done = 1;
         }
-        w_prev = d.w_m_s;
-        f_prev = d.buoy_N;
     }
+    memcpy(w->y, sl_ode_y(ode), sizeof w->y);
+    if (diagnose(w, w->y, &d) != GSL_SUCCESS)
+        SL_FAIL_RETURN(e, SL_ENUMERIC, "plume: state not usable at the %s",
+                       out->regime == SL_REGIME_BLOWOUT ? "top of the profile" : "apex");
+    if (hits_top)
+        d.z_m = w->z_top_m; /* located to 1e-12 of the step: the centre is at the top and leaves the profile */
     out->apex_time_s = t;
     out->apex_altitude_m = d.z_m;
     out->apex_radius_m = d.radius_m;
@@ -1044,13 +989,16 @@ static int add_layer(sl_plume *pl, sl_injection *inj, const sl_atmosphere *atm, 
     if (ct <= band_lo)
         keep = 0.0;
     else if (cb < band_lo) {
-        double u = band_lo - cb;
         if (!tent)
             keep = (ct - band_lo) / (ct - cb);
-        else if (band_lo <= peak)
-            keep = 1.0 - u * u / ((ct - cb) * (peak - cb));
-        else
-            keep = (ct - band_lo) * (ct - band_lo) / ((ct - cb) * (ct - peak));
+        else {
+            /* The umbrella's mass share above the lowest band (placement by mass). */
+            sl_young_cloud whole = {cb, ct, 0.0, 0.0, peak};
+            double w_all, w_in;
+            SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, &whole, cb, ct, &w_all, e));
+            SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, &whole, band_lo, ct, &w_in, e));
+            keep = w_all > 0.0 ? w_in / w_all : 0.0;
+        }
     }
     pl->water_below_bands_kg += water * (1.0 - keep);
     if (keep == 0.0)
@@ -1127,10 +1075,10 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
         t_last = fmax(t_last, th->apex_time_s);
         /* The thermal part and the ballistic part, each in its layer. */
         double f = th->ballistic_fraction;
-        /* Placement by mass: the thermal's cloud is densest at its neutral-
-         * buoyancy level, where the umbrella spreads, and thins to nothing at
-         * the top of the overshoot (Morton, Taylor & Turner 1956; Sparks 1986;
-         * Woods 1988): a triangular profile with its mode at z_N. */
+        /* Placement by mass: the thermal's umbrella is widest at its neutral-
+         * buoyancy level and narrows to nothing at the top of the overshoot
+         * (Morton, Taylor & Turner 1956; Sparks 1986; Woods 1988): a triangular
+         * volume profile with its mode at z_N, times the ambient density. */
         SL_TRY_RETURN(e, add_layer(pl, inj, atm, th->cloud_bottom_m, th->cloud_top_m, th->neutral_altitude_m,
                                    th->air_kg * (1.0 - f), water * (1.0 - f), e));
         if (f > 0.0) {

@@ -33,4 +33,11 @@
  * SL_EINTERNAL (bad view).  On error nothing is left behind. */
 int sl_output_csv_write(const sl_output_view *v, const char *dir, int force, sl_err *e);
 
+/* The shortest of printf's "%.15g", "%.16g", "%.17g" of X that reads back
+ * as X (strtod), into BUF (at least 32 bytes): the ensemble's number text.
+ * Byte for byte what that loop of snprintf and strtod gives, with one
+ * snprintf (17 digits, rounded to 16 and 15 in the decimal string unless the
+ * dropped digits sit on a rounding tie, which falls back to snprintf). */
+void sl_csv_number_text(char *buf, double x);
+
 #endif

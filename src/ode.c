@@ -1,0 +1,331 @@
+/* ode: one ODE-with-events layer (include/steamloft/ode.h).
+ *
+ * The step-size logic follows gsl_odeiv2_evolve_apply (GSL 2.x): a trial
+ * that leaves the domain is retried shorter, an error above the tolerance
+ * retries with the step gsl_odeiv2_control_hadjust proposes, an accepted
+ * step proposes the next one; a step that would pass t_end ends on it.  The
+ * difference: the derivative at a step's end is kept and passed to the next
+ * step as its first stage (GSL's evolve evaluates it again), and it is the
+ * slope of the cubic Hermite interpolant on which events are located. */
+#include "steamloft/ode.h"
+
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_odeiv2.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+struct sl_ode {
+    sl_ode_config cfg;
+    gsl_odeiv2_step *step;
+    gsl_odeiv2_control *ctl;
+    gsl_odeiv2_system sys;
+    long trials, rhs_calls;
+    int rhs_status;
+    double t, t_prev, h;
+    int terminal[SL_ODE_MAX_EVENTS], active[SL_ODE_MAX_EVENTS];
+    /* One block of 8 dim + 3 n_events doubles. */
+    double *y, *f, *y_prev, *f_prev, *y_try, *f_try, *y_err, *y_tmp;
+    double *g, *g_prev, *g_tmp;
+    double *block;
+};
+
+static int counted_rhs(double t, const double y[], double dydt[], void *params)
+{
+    sl_ode *o = params;
+    o->rhs_calls++;
+    int st = o->cfg.rhs(t, y, dydt, o->cfg.params);
+    if (st != GSL_SUCCESS)
+        o->rhs_status = st;
+    return st;
+}
+
+void sl_ode_free(sl_ode *ode)
+{
+    if (ode == NULL)
+        return;
+    if (ode->step)
+        gsl_odeiv2_step_free(ode->step);
+    if (ode->ctl)
+        gsl_odeiv2_control_free(ode->ctl);
+    free(ode->block);
+    free(ode);
+}
+
+int sl_ode_init(sl_ode **out, const sl_ode_config *cfg, sl_err *e)
+{
+    *out = NULL;
+    if (cfg == NULL || cfg->dim == 0 || cfg->rhs == NULL || cfg->n_events > SL_ODE_MAX_EVENTS ||
+        (cfg->n_events > 0 && cfg->events == NULL))
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "ode: bad configuration (dimension, right-hand side or events)");
+    if (!(cfg->rtol >= 0.0) || !(cfg->atol >= 0.0) || !(cfg->rtol + cfg->atol > 0.0))
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "ode: tolerances %g (absolute), %g (relative) are not usable", cfg->atol,
+                       cfg->rtol);
+    sl_ode *o = calloc(1, sizeof *o);
+    if (o == NULL)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "ode: out of memory for the solver");
+    o->cfg = *cfg;
+    if (!(o->cfg.fail_shrink > 0.0 && o->cfg.fail_shrink < 1.0))
+        o->cfg.fail_shrink = 0.5;
+    if (!(o->cfg.event_xtol > 0.0))
+        o->cfg.event_xtol = 1e-12;
+    size_t n = cfg->dim, m = cfg->n_events;
+    o->block = malloc((8 * n + 3 * (m + 1)) * sizeof(double));
+    o->step = gsl_odeiv2_step_alloc(cfg->stepper == SL_ODE_RKF45 ? gsl_odeiv2_step_rkf45 : gsl_odeiv2_step_rkck, n);
+    o->ctl = gsl_odeiv2_control_standard_new(cfg->atol, cfg->rtol, 1.0, 0.0);
+    if (o->block == NULL || o->step == NULL || o->ctl == NULL) {
+        sl_ode_free(o);
+        SL_FAIL_RETURN(e, SL_ENOMEM, "ode: out of memory for the solver");
+    }
+    double *p = o->block;
+    double **vec[] = {&o->y, &o->f, &o->y_prev, &o->f_prev, &o->y_try, &o->f_try, &o->y_err, &o->y_tmp};
+    for (size_t i = 0; i < sizeof vec / sizeof vec[0]; i++, p += n)
+        *vec[i] = p;
+    o->g = p;
+    o->g_prev = p + (m + 1);
+    o->g_tmp = p + 2 * (m + 1);
+    for (size_t i = 0; i < m; i++)
+        o->terminal[i] = o->active[i] = 1;
+    o->sys = (gsl_odeiv2_system){counted_rhs, NULL, n, o};
+    *out = o;
+    return SL_OK;
+}
+
+int sl_ode_set_tolerance(sl_ode *ode, double atol, double rtol, sl_err *e)
+{
+    if (gsl_odeiv2_control_init(ode->ctl, atol, rtol, 1.0, 0.0) != GSL_SUCCESS)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "ode: cannot set the tolerances %g (absolute), %g (relative)", atol, rtol);
+    ode->cfg.atol = atol;
+    ode->cfg.rtol = rtol;
+    return SL_OK;
+}
+
+void sl_ode_set_params(sl_ode *ode, void *params)
+{
+    ode->cfg.params = params;
+}
+
+void sl_ode_set_step_limits(sl_ode *ode, double h_min, double h_max)
+{
+    ode->cfg.h_min = h_min;
+    ode->cfg.h_max = h_max;
+}
+
+void sl_ode_event_mode(sl_ode *ode, size_t i, int terminal, int active)
+{
+    if (i < ode->cfg.n_events) {
+        ode->terminal[i] = terminal;
+        ode->active[i] = active;
+    }
+}
+
+static int eval_events(sl_ode *o, double t, const double *y, double *g, sl_err *e)
+{
+    if (o->cfg.n_events == 0)
+        return SL_OK;
+    int st = o->cfg.events(t, y, g, o->cfg.params);
+    if (st != GSL_SUCCESS)
+        SL_FAIL_RETURN(e, SL_ENUMERIC, "ode: event functions failed at t = %.9g (%s)", t, gsl_strerror(st));
+    return SL_OK;
+}
+
+int sl_ode_restart(sl_ode *ode, double t0, const double y0[], double h0, sl_err *e)
+{
+    size_t n = ode->cfg.dim;
+    memcpy(ode->y, y0, n * sizeof(double));
+    ode->t = ode->t_prev = t0;
+    ode->h = h0;
+    gsl_odeiv2_step_reset(ode->step);
+    int st = counted_rhs(t0, ode->y, ode->f, ode);
+    if (st != GSL_SUCCESS)
+        SL_FAIL_RETURN(e, SL_ENUMERIC, "ode: right-hand side failed at the start, t = %.9g (%s)", t0,
+                       gsl_strerror(st));
+    memcpy(ode->y_prev, ode->y, n * sizeof(double));
+    memcpy(ode->f_prev, ode->f, n * sizeof(double));
+    SL_TRY_RETURN(e, eval_events(ode, t0, ode->y, ode->g, e));
+    memcpy(ode->g_prev, ode->g, ode->cfg.n_events * sizeof(double));
+    return SL_OK;
+}
+
+void sl_ode_dense(const sl_ode *o, double t, double y[])
+{
+    double h = o->t - o->t_prev;
+    if (h == 0.0) {
+        memcpy(y, o->y, o->cfg.dim * sizeof(double));
+        return;
+    }
+    double s = (t - o->t_prev) / h;
+    /* Cubic Hermite: (1-s) y0 + s y1 + s (s-1) [(1-2s)(y1-y0) + (s-1) h f0 + s h f1]. */
+    double a = s * (s - 1.0), b = 1.0 - 2.0 * s, c = (s - 1.0) * h, d = s * h;
+    for (size_t i = 0; i < o->cfg.dim; i++) {
+        double y0 = o->y_prev[i], y1 = o->y[i], dy = y1 - y0;
+        y[i] = y0 + s * dy + a * (b * dy + c * o->f_prev[i] + d * o->f[i]);
+    }
+}
+
+/* Event I on the last step: g_prev[i] > 0 >= g[i].  Illinois regula falsi
+ * on the interpolant; the upper end of the final bracket. */
+static int locate(sl_ode *o, size_t i, double *t_out, sl_err *e)
+{
+    double a = o->t_prev, b = o->t, fa = o->g_prev[i], fb = o->g[i];
+    double xtol = o->cfg.event_xtol * fabs(b - a);
+    int side = 0;
+    for (int it = 0; it < 200 && fb != 0.0 && fabs(b - a) > xtol; it++) {
+        double c = (a * fb - b * fa) / (fb - fa);
+        if (!(c > a && c < b))
+            c = 0.5 * (a + b);
+        if (!(c > a && c < b))
+            break; /* adjacent doubles */
+        sl_ode_dense(o, c, o->y_tmp);
+        SL_TRY_RETURN(e, eval_events(o, c, o->y_tmp, o->g_tmp, e));
+        double fc = o->g_tmp[i];
+        if (!isfinite(fc))
+            SL_FAIL_RETURN(e, SL_ENUMERIC, "ode: event %zu is not finite at t = %.9g", i, c);
+        if (fc <= 0.0) {
+            b = c;
+            fb = fc;
+            if (side == -1)
+                fa *= 0.5;
+            side = -1;
+        } else {
+            a = c;
+            fa = fc;
+            if (side == 1)
+                fb *= 0.5;
+            side = 1;
+        }
+    }
+    *t_out = b;
+    return SL_OK;
+}
+
+static int find_events(sl_ode *o, sl_ode_hits *hits, sl_err *e)
+{
+    hits->n = 0;
+    hits->terminal = 0;
+    size_t m = o->cfg.n_events;
+    if (m == 0)
+        return SL_OK;
+    SL_TRY_RETURN(e, eval_events(o, o->t, o->y, o->g, e));
+    for (size_t i = 0; i < m; i++) {
+        if (!o->active[i] || !(o->g_prev[i] > 0.0 && o->g[i] <= 0.0))
+            continue;
+        double te = o->t;
+        SL_TRY_RETURN(e, locate(o, i, &te, e));
+        /* insert in time order (a terminal event first among equal times) */
+        size_t k = hits->n;
+        while (k > 0 && (hits->t[k - 1] > te || (hits->t[k - 1] == te && o->terminal[i] && !o->terminal[hits->event[k - 1]]))) {
+            hits->t[k] = hits->t[k - 1];
+            hits->event[k] = hits->event[k - 1];
+            k--;
+        }
+        hits->t[k] = te;
+        hits->event[k] = i;
+        hits->n++;
+    }
+    for (size_t k = 0; k < hits->n; k++)
+        if (o->terminal[hits->event[k]]) {
+            hits->n = k + 1;
+            hits->terminal = 1;
+            break;
+        }
+    return SL_OK;
+}
+
+/* Move the state to the terminal event at TE: one step of the stepper from
+ * the start of the last step, then derivative and events there. */
+static int to_event(sl_ode *o, double te, sl_err *e)
+{
+    size_t n = o->cfg.dim;
+    double h = te - o->t_prev;
+    memcpy(o->y_try, o->y_prev, n * sizeof(double));
+    if (h != 0.0) {
+        gsl_odeiv2_step_reset(o->step);
+        int st = gsl_odeiv2_step_apply(o->step, o->t_prev, h, o->y_try, o->y_err, o->f_prev, o->f_try, &o->sys);
+        if (st != GSL_SUCCESS)
+            SL_FAIL_RETURN(e, SL_ENUMERIC, "ode: step to the event at t = %.9g failed (%s)", te, gsl_strerror(st));
+    } else {
+        memcpy(o->f_try, o->f_prev, n * sizeof(double));
+    }
+    memcpy(o->y, o->y_try, n * sizeof(double));
+    memcpy(o->f, o->f_try, n * sizeof(double));
+    o->t = te;
+    return eval_events(o, te, o->y, o->g, e);
+}
+
+int sl_ode_step(sl_ode *o, double t_end, int *kind, sl_ode_hits *hits, sl_err *e)
+{
+    size_t n = o->cfg.dim;
+    const sl_ode_config *c = &o->cfg;
+    double t0 = o->t, h = o->h;
+    *kind = SL_ODE_STEP_OK;
+    hits->n = 0;
+    hits->terminal = 0;
+    memcpy(o->y_prev, o->y, n * sizeof(double));
+    memcpy(o->f_prev, o->f, n * sizeof(double));
+    memcpy(o->g_prev, o->g, c->n_events * sizeof(double));
+    o->t_prev = t0;
+    int final = 0;
+    for (;;) {
+        o->trials++;
+        if (c->h_max > 0.0 && h > c->h_max)
+            h = c->h_max;
+        final = isfinite(t_end) && h >= t_end - t0;
+        if (final)
+            h = t_end - t0;
+        memcpy(o->y_try, o->y_prev, n * sizeof(double));
+        o->rhs_status = GSL_SUCCESS;
+        int st = gsl_odeiv2_step_apply(o->step, t0, h, o->y_try, o->y_err, o->f_prev, o->f_try, &o->sys);
+        if (st != GSL_SUCCESS) {
+            if (st != GSL_EDOM)
+                SL_FAIL_RETURN(e, SL_ENUMERIC, "ode: step from t = %.9g failed (%s)", t0, gsl_strerror(st));
+            gsl_odeiv2_step_reset(o->step);
+            double h_new = h * c->fail_shrink;
+            if (c->h_min > 0.0 ? !(h_new > c->h_min) : t0 + h_new == t0) {
+                o->h = h_new;
+                *kind = SL_ODE_STEP_STUCK;
+                return SL_OK;
+            }
+            h = h_new;
+            continue;
+        }
+        double h_new = h;
+        int adj = gsl_odeiv2_control_hadjust(o->ctl, o->step, o->y_try, o->y_err, o->f_try, &h_new);
+        if (adj == GSL_ODEIV_HADJ_DEC) {
+            if (c->h_min > 0.0 && h > c->h_min) {
+                h = fmax(h_new, c->h_min);
+                continue;
+            }
+            if (c->h_min <= 0.0 && h_new < h && t0 + h_new != t0) {
+                h = h_new;
+                continue;
+            }
+            if (!c->accept_at_h_min)
+                SL_FAIL_RETURN(e, SL_ENUMERIC, "ode: tolerance not reachable at t = %.9g (step %g)", t0, h);
+            h_new = c->h_min > 0.0 ? c->h_min : h;
+        }
+        o->h = h_new;
+        break;
+    }
+    memcpy(o->y, o->y_try, n * sizeof(double));
+    memcpy(o->f, o->f_try, n * sizeof(double));
+    o->t = final ? t_end : t0 + h;
+    if (final)
+        *kind = SL_ODE_STEP_AT_END;
+    SL_TRY_RETURN(e, find_events(o, hits, e));
+    if (hits->terminal)
+        SL_TRY_RETURN(e, to_event(o, hits->t[hits->n - 1], e));
+    return SL_OK;
+}
+
+double sl_ode_t(const sl_ode *o) { return o->t; }
+const double *sl_ode_y(const sl_ode *o) { return o->y; }
+const double *sl_ode_dydt(const sl_ode *o) { return o->f; }
+const double *sl_ode_g(const sl_ode *o) { return o->g; }
+double sl_ode_t_prev(const sl_ode *o) { return o->t_prev; }
+double sl_ode_h(const sl_ode *o) { return o->h; }
+const double *sl_ode_y_prev(const sl_ode *o) { return o->y_prev; }
+const double *sl_ode_dydt_prev(const sl_ode *o) { return o->f_prev; }
+long sl_ode_trials(const sl_ode *o) { return o->trials; }
+long sl_ode_rhs_count(const sl_ode *o) { return o->rhs_calls; }
+int sl_ode_rhs_status(const sl_ode *o) { return o->rhs_status; }
