@@ -86,6 +86,8 @@ void sl_output_strat_free(sl_output_strat *os)
     free(os->layer_bottom_m);
     free(os->layer_top_m);
     free(os->excess_kg);
+    free(os->box_bottom_m);
+    free(os->box_top_m);
     free(os->sink_kg);
     memset(os, 0, sizeof *os);
 }
@@ -101,7 +103,10 @@ int sl_output_strat_init(sl_output_strat *os, const struct sl_strat_model *m,
     os->layer_top_m = malloc(nl * sizeof(double));
     os->excess_kg = malloc(nt * nr * nl * sizeof(double));
     os->sink_kg = malloc(ns * nt * sizeof(double));
-    if (!os->layer_bottom_m || !os->layer_top_m || !os->excess_kg || !os->sink_kg) {
+    os->box_bottom_m = malloc(nr * nl * sizeof(double));
+    os->box_top_m = malloc(nr * nl * sizeof(double));
+    if (!os->layer_bottom_m || !os->layer_top_m || !os->excess_kg || !os->sink_kg || !os->box_bottom_m ||
+        !os->box_top_m) {
         sl_output_strat_free(os);
         SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory for the box-model output");
     }
@@ -117,6 +122,13 @@ int sl_output_strat_init(sl_output_strat *os, const struct sl_strat_model *m,
      * has no excess there: undefined, never 0. */
     for (size_t i = 0; i < nt * nr * nl; i++)
         os->excess_kg[i] = NAN;
+    for (size_t i = 0; i < nr * nl; i++)
+        os->box_bottom_m[i] = os->box_top_m[i] = NAN;
+    for (size_t b = 0; b < m->n_boxes; b++) {
+        size_t k = (size_t)m->box_region[b] * nl + (size_t)m->box_layer[b];
+        os->box_bottom_m[k] = m->box_bottom_m[b];
+        os->box_top_m[k] = m->box_top_m[b];
+    }
     for (size_t t = 0; t < nt; t++)
         for (size_t b = 0; b < m->n_boxes; b++) {
             size_t reg = (size_t)m->box_region[b], lay = (size_t)m->box_layer[b];
@@ -137,7 +149,8 @@ int sl_output_strat_init(sl_output_strat *os, const struct sl_strat_model *m,
                                     os->excess_kg, r->layer_anomaly_mole_fraction,
                                     r->global_excess_kg, r->global_column_kg_m2,
                                     r->local_column_kg_m2, r->percent_of_background, r->forcing_W_m2,
-                                    ns, sl_strat_sink_names, os->sink_kg, os->region_tropopause_m};
+                                    ns, sl_strat_sink_names, os->sink_kg, os->region_tropopause_m,
+                                    os->box_bottom_m, os->box_top_m};
     const struct {
         const char *name, *long_name, *units;
         double value;
@@ -293,6 +306,8 @@ int sl_output_view_check(const sl_output_view *v, sl_err *e)
         SL_TRY_RETURN(e, check_finite(s->percent_of_background, nt, "percent_of_background", e));
         SL_TRY_RETURN(e, check_finite(s->forcing_W_m2, nt, "forcing_W_m2", e));
         SL_TRY_RETURN(e, check_finite(s->region_tropopause_m, s->n_region, "region_tropopause_m", e));
+        SL_TRY_RETURN(e, check_defined(s->box_bottom_m, s->n_region * s->n_layer, "box_bottom_m", e));
+        SL_TRY_RETURN(e, check_defined(s->box_top_m, s->n_region * s->n_layer, "box_top_m", e));
         if (s->n_sink > 0) {
             if (s->sink_name == NULL || s->sink_kg == NULL)
                 SL_FAIL_RETURN(e, SL_EINTERNAL, "series sinks without names or masses");

@@ -588,6 +588,15 @@ static int series_vars(ncw *w, const sl_output_view *v, int nv, int band_dim, sl
         SL_TRY_RETURN(e, att_text(w, id, "comment",
                                   "the box model's lowest box in each region starts here", e));
     }
+    if (s->box_bottom_m && s->box_top_m) {
+        /* Each region's boxes (the lowest starts at the region's own tropopause);
+         * _FillValue where a region has no box in a layer. */
+        int dz[2] = {ldim, zdim};
+        SL_TRY_RETURN(e, def_var(w, "box_bottom", 2, dz, s->box_bottom_m, NULL,
+                                 "bottom of the box-model box of this latitude region and layer", "m", &id, e));
+        SL_TRY_RETURN(e, def_var(w, "box_top", 2, dz, s->box_top_m, NULL,
+                                 "top of the box-model box of this latitude region and layer", "m", &id, e));
+    }
     int d3[3] = {tdim, ldim, zdim}, d2[2] = {tdim, zdim};
     SL_TRY_RETURN(e, def_var(w, "excess_water_mass", 3, d3, s->excess_kg, NULL,
                              "excess water in the box (latitude region and layer) over background",

@@ -43,6 +43,8 @@ typedef struct sl_output_series {
     const char *const *sink_name;          /* n_sink short names, [A-Za-z0-9_] */
     const double *sink_kg;                 /* n_sink*n_time: cumulative mass removed by each path */
     const double *region_tropopause_m;     /* n_region: where each region's lowest box starts (optional) */
+    const double *box_bottom_m, *box_top_m; /* n_region*n_layer: each region's box in each layer,
+                                            * NaN where it has none (optional, both or neither) */
 } sl_output_series;
 
 /* A named scalar result (burst altitude, e-folding time, ...), in SI. */
@@ -85,6 +87,7 @@ typedef struct sl_output_strat {
     double *layer_bottom_m, *layer_top_m;       /* n_layer */
     double *excess_kg;                          /* n_time * 3 * n_layer */
     double *sink_kg;                            /* n_sink * n_time */
+    double *box_bottom_m, *box_top_m;           /* 3 * n_layer */
 } sl_output_strat;
 
 /* Build OS from model M and result R (which must outlive OS).  SL_ENOMEM. */

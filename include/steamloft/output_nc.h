@@ -12,7 +12,7 @@
  *       h2o_mole_fraction (mole_fraction_of_water_vapor_in_air), buoyancy_frequency_squared,
  *       background_stratospheric_water_mass/_column     the background used
  *   time(time) days since the event, calendar standard; lat(lat), lat_bnds(lat,nv) regions;
- *       region_tropopause_altitude(lat)
+ *       region_tropopause_altitude(lat); box_bottom, box_top (lat,<z>) each region's boxes
  *   excess_water_mass(time,lat,<z>), mole_fraction_anomaly(time,<z>), global_excess_water_mass,
  *       column_anomaly, local_column_anomaly, percent_of_background, forcing_indicator,
  *       removed_<sink> (time)                        the box-model series; <z> is altitude when the

@@ -242,6 +242,13 @@ with netCDF4.Dataset(sys.argv[1]) as ds:
     for r, l in empty:   # only layers below the region's tropopause have no box
         check(zb[l][0] < tp[r], "empty cell (%d, %d) starts below its tropopause" % (r, l))
         check(bool(np.all(np.isnan(raw[:, r, l]))), "cell (%d, %d) empty at every time" % (r, l))
+    # The box bounds per region: _FillValue exactly where the excess is, each
+    # region's lowest box starting at its own tropopause.
+    bb = np.ma.filled(ds.variables["box_bottom"][:].astype(float), np.nan)
+    check(bool(np.array_equal(np.isnan(bb), np.isnan(raw[0]))), "box_bottom is _FillValue where excess_water_mass is")
+    for r in range(raw.shape[1]):
+        lowest = bb[r][~np.isnan(bb[r])][0]
+        check(abs(lowest - tp[r]) <= 1e-9 * tp[r], "region %d: lowest box starts at its tropopause" % r)
     g = ds.variables["global_excess_water_mass"][:]
     s = np.nansum(raw, axis=(1, 2))
     check(bool(np.all(np.abs(s - g) <= 1e-9 * np.maximum(np.abs(g), 1.0))), "defined boxes sum to the global excess")
