@@ -27,7 +27,10 @@
  * Event time, latitude and longitude come from the rows and must be the same
  * on every row; the month follows from the time unless "# event_month = M"
  * says it (a run without a [site] date writes that line; its time is nominal
- * and is then not taken).  The metadata lines above apply as well.
+ * and is then not taken).  The metadata lines above apply as well.  The
+ * pressure, duration and radius columns are checked (decimal numbers in
+ * range) but not used: the box model takes the cloud's area from
+ * cloud_area_m2, as for the other CSV layout.
  *
  * CF netCDF: a coordinate variable altitude(altitude) (units "m" or "km",
  * increasing) with a "bounds" attribute naming altitude_bnds(altitude, 2);
