@@ -501,10 +501,11 @@ static int header_role(const char *name, double *factor)
 }
 
 #define CSV_COLUMNS "bottom_m|bottom_km, top_m|top_km, vapor_kg|vapor_Tg (or mass_kg|mass_Tg), optional ice_kg|ice_Tg"
-#define CSV_META "tropopause_altitude_m|_km, latitude_deg, time_s|_days, cloud_area_m2"
+#define CSV_META "tropopause_altitude_m|_km, latitude_deg, time_s|_days, cloud_area_m2, event_month"
 
-/* "# key = value" metadata into META; a comment without '=' is ignored. */
-static int csv_meta(char *body, sl_injection *meta, const char *path, size_t line, sl_err *e)
+/* "# key = value" metadata into META (event_month into *EVENT_MONTH); a
+ * comment without '=' is ignored. */
+static int csv_meta(char *body, sl_injection *meta, int *event_month, const char *path, size_t line, sl_err *e)
 {
     char *eq = strchr(body, '=');
     if (eq == NULL)
@@ -535,6 +536,7 @@ static int csv_meta(char *body, sl_injection *meta, const char *path, size_t lin
         {"time_s", "s", 0.0, 1.0e10},
         {"time_days", "days", 0.0, 1.0e5},
         {"cloud_area_m2", NULL, 0.0, 1.0e15},
+        {"event_month", NULL, 0.0, 12.0},
     };
     for (size_t i = 0; i < sizeof known / sizeof known[0]; i++) {
         if (strcmp(key, known[i].key) != 0)
@@ -551,7 +553,11 @@ static int csv_meta(char *body, sl_injection *meta, const char *path, size_t lin
             f = u->to_si;
         }
         v *= f;
-        if (strncmp(key, "tropopause", 10) == 0)
+        if (strcmp(key, "event_month") == 0) {
+            if (v != floor(v))
+                SL_FAIL_RETURN(e, SL_EDATA, "%s:%zu: event_month = '%s' is not a whole number 0 to 12", path, line, val);
+            *event_month = (int)v;
+        } else if (strncmp(key, "tropopause", 10) == 0)
             meta->tropopause_altitude_m = v;
         else if (strncmp(key, "latitude", 8) == 0)
             meta->latitude_deg = v;
@@ -565,6 +571,127 @@ static int csv_meta(char *body, sl_injection *meta, const char *path, size_t lin
     SL_FAIL_RETURN(e, SL_EDATA, "%s:%zu: unknown metadata key '%s' (known: " CSV_META ")", path, line, key);
 }
 
+/* ---- the injection table of `run --injection-table` (model_inputs.c)
+ *
+ * Recognised by its header, exactly TABLE_COLUMNS: one row per band and
+ * species, bands bottom to top, the rows of one band adjacent.  The species
+ * of a band are summed into its vapour and ice; a gap between two bands
+ * becomes a band without water.  Latitude, longitude and event time must be
+ * the same on every row; the month follows from the event time unless the
+ * file says "# event_month = M" (the table of a run without a [site] date
+ * carries a nominal time and says the month that run used, 0 for none; the
+ * time is then left unknown). */
+#define TABLE_COLUMNS "event_time_utc,latitude_deg,longitude_deg,bottom_m,top_m,bottom_hPa,top_hPa,species,mass_kg,duration_s,radius_m"
+enum { T_TIME, T_LAT, T_LON, T_BOTTOM, T_TOP, T_PBOT, T_PTOP, T_SPECIES, T_MASS, T_DURATION, T_RADIUS, T_NCOLS };
+
+typedef struct table_state {
+    int have_event;        /* the first row's event is in lat, lon, time */
+    double lat, lon, time_s;
+    unsigned species_seen; /* bit 0 vapour, bit 1 ice, in the last band */
+} table_state;
+
+/* Is the header in FIELDS the injection table's?  1 yes, 0 no; a header that
+ * starts like one but differs is an error naming the valid form. */
+static int table_header(char **fields, size_t nf, const char *path, size_t line, int *rc, sl_err *e)
+{
+    static const char *const names[T_NCOLS] = {"event_time_utc", "latitude_deg", "longitude_deg", "bottom_m",
+                                               "top_m", "bottom_hPa", "top_hPa", "species", "mass_kg",
+                                               "duration_s", "radius_m"};
+    if (nf == 0 || strcmp(fields[0], names[0]) != 0)
+        return 0;
+    for (size_t c = 0; c < T_NCOLS; c++)
+        if (c >= nf || strcmp(fields[c], names[c]) != 0) {
+            *rc = sl_err_set(e, SL_EDATA, __func__, __LINE__,
+                             "%s:%zu: column %zu of an injection table header is '%s'; the header must be exactly " TABLE_COLUMNS,
+                             path, line, c + 1, c < nf ? fields[c] : "(missing)");
+            return 1;
+        }
+    if (nf != T_NCOLS)
+        *rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: %zu columns; the injection table header is exactly " TABLE_COLUMNS,
+                         path, line, nf);
+    return 1;
+}
+
+/* One table row into R (summed into its band) and the event into TS. */
+static int table_row(char **fields, size_t nf, table_state *ts, rows *r, const char *path, size_t line, sl_err *e)
+{
+    static const char *const names[T_NCOLS] = {"event_time_utc", "latitude_deg", "longitude_deg", "bottom_m",
+                                               "top_m", "bottom_hPa", "top_hPa", "species", "mass_kg",
+                                               "duration_s", "radius_m"};
+    static const struct {
+        double lo, hi;
+        const char *range;
+    } lim[T_NCOLS] = {
+        [T_LAT] = {-90.0, 90.0, "-90 to 90"},
+        [T_LON] = {-360.0, 720.0, "-360 to 720"},
+        [T_BOTTOM] = {0.0, MAX_FILE_ALTITUDE_M, "0 to 1e6 m"},
+        [T_TOP] = {0.0, MAX_FILE_ALTITUDE_M, "0 to 1e6 m"},
+        [T_PBOT] = {0.0, 2.0e3, "0 to 2000 hPa"},
+        [T_PTOP] = {0.0, 2.0e3, "0 to 2000 hPa"},
+        [T_MASS] = {0.0, INFINITY, "0 to inf kg"},
+        [T_DURATION] = {0.0, INFINITY, "above 0 s"},
+        [T_RADIUS] = {0.0, INFINITY, "0 to inf m"},
+    };
+    if (nf != T_NCOLS)
+        SL_FAIL_RETURN(e, SL_EDATA, "%s:%zu: %zu fields, the injection table has %d columns (" TABLE_COLUMNS ")", path,
+                       line, nf, T_NCOLS);
+    double v[T_NCOLS] = {0};
+    if (sl_date_parse(fields[T_TIME], &v[T_TIME]) != 0)
+        SL_FAIL_RETURN(e, SL_EDATA, "%s:%zu: column 1 (event_time_utc): '%s' is not %s", path, line, fields[T_TIME],
+                       SL_DATE_FORMS);
+    for (int c = T_LAT; c < T_NCOLS; c++) {
+        if (c == T_SPECIES)
+            continue;
+        if (parse_number(fields[c], &v[c]) != 0 || v[c] < lim[c].lo || v[c] > lim[c].hi ||
+            (c == T_DURATION && !(v[c] > 0.0)))
+            SL_FAIL_RETURN(e, SL_EDATA, "%s:%zu: column %d (%s): '%s' is not a decimal number in the valid range %s", path,
+                           line, c + 1, names[c], fields[c], lim[c].range);
+    }
+    int ice;
+    if (strcmp(fields[T_SPECIES], "water_vapour") == 0)
+        ice = 0;
+    else if (strcmp(fields[T_SPECIES], "ice") == 0)
+        ice = 1;
+    else
+        SL_FAIL_RETURN(e, SL_EDATA, "%s:%zu: column %d (species): '%s' is not a species (valid: water_vapour, ice)", path,
+                       line, T_SPECIES + 1, fields[T_SPECIES]);
+    if (!ts->have_event) {
+        ts->have_event = 1;
+        ts->lat = v[T_LAT], ts->lon = v[T_LON], ts->time_s = v[T_TIME];
+    } else {
+        static const int same[3] = {T_TIME, T_LAT, T_LON};
+        const double first[3] = {ts->time_s, ts->lat, ts->lon};
+        for (int k = 0; k < 3; k++)
+            if (v[same[k]] != first[k])
+                SL_FAIL_RETURN(e, SL_EDATA,
+                               "%s:%zu: column %d (%s): '%s' differs from the first row's; one event per table, "
+                               "the same time, latitude and longitude on every row",
+                               path, line, same[k] + 1, names[same[k]], fields[same[k]]);
+    }
+    double b = v[T_BOTTOM], t = v[T_TOP], m = v[T_MASS];
+    if (!(t > b))
+        SL_FAIL_RETURN(e, SL_EDATA, "%s:%zu: column 5 (top_m): band top %g m is not above its bottom %g m", path, line, t, b);
+    if (r->n > 0 && b == r->bottom_m[r->n - 1] && t == r->top_m[r->n - 1]) {
+        if (ts->species_seen & (1u << ice))
+            SL_FAIL_RETURN(e, SL_EDATA, "%s:%zu: column 8 (species): %s repeats in the band %g-%g m (one row per band and species)",
+                           path, line, fields[T_SPECIES], b, t);
+        ts->species_seen |= 1u << ice;
+        (ice ? r->ice_kg : r->vapor_kg)[r->n - 1] += m;
+        return SL_OK;
+    }
+    if (r->n > 0 && b < r->top_m[r->n - 1])
+        SL_FAIL_RETURN(e, SL_EDATA,
+                       "%s:%zu: column 4 (bottom_m): band bottom %g m lies below the previous band's top %g m; bands "
+                       "bottom to top, without overlap, the rows of one band adjacent",
+                       path, line, b, r->top_m[r->n - 1]);
+    if (r->n > 0 && b > r->top_m[r->n - 1] && rows_push(r, r->top_m[r->n - 1], b, 0.0, 0.0) != 0)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "%s:%zu: out of memory", path, line);
+    if (rows_push(r, b, t, ice ? 0.0 : m, ice ? m : 0.0) != 0)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "%s:%zu: out of memory", path, line);
+    ts->species_seen = 1u << ice;
+    return SL_OK;
+}
+
 static int read_csv(char *text, const char *path, sl_injection *inj, sl_err *e)
 {
     sl_injection meta;
@@ -576,7 +703,8 @@ static int read_csv(char *text, const char *path, sl_injection *inj, sl_err *e)
     int col_role[16];
     double col_factor[16];
     size_t n_cols = 0;
-    int have_header = 0;
+    int have_header = 0, is_table = 0, event_month = -1;
+    table_state ts = {0};
     int rc = SL_OK;
     while (sl_infile_next_line(&cursor, &buf)) {
         line++;
@@ -590,7 +718,7 @@ static int read_csv(char *text, const char *path, sl_injection *inj, sl_err *e)
         if (*s == '\0')
             continue;
         if (*s == '#') {
-            rc = csv_meta(s + 1, &meta, path, line, e);
+            rc = csv_meta(s + 1, &meta, &event_month, path, line, e);
             if (rc != SL_OK)
                 goto done;
             continue;
@@ -611,6 +739,18 @@ static int read_csv(char *text, const char *path, sl_injection *inj, sl_err *e)
             if (!comma)
                 break;
             p = comma + 1;
+        }
+        if (!have_header && (is_table = table_header(fields, nf, path, line, &rc, e)) != 0) {
+            if (rc != SL_OK)
+                goto done;
+            have_header = 1;
+            continue;
+        }
+        if (is_table) {
+            rc = table_row(fields, nf, &ts, &r, path, line, e);
+            if (rc != SL_OK)
+                goto done;
+            continue;
         }
         if (!have_header) {
             int seen[N_ROLES] = {0};
@@ -680,9 +820,23 @@ static int read_csv(char *text, const char *path, sl_injection *inj, sl_err *e)
         }
     }
     if (!have_header || r.n == 0) {
-        rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: no %s found (a header " CSV_COLUMNS " and one row per band)", path,
+        rc = sl_err_set(e, SL_EDATA, __func__, __LINE__, "%s:%zu: no %s found (a header " CSV_COLUMNS " and one row per band, or "
+                        "an injection table: " TABLE_COLUMNS ")", path,
                         line, have_header ? "bands" : "header");
         goto done;
+    }
+    if (is_table) {
+        meta.latitude_deg = ts.lat;
+        meta.longitude_deg = ts.lon;
+        meta.event_time_s = ts.time_s;
+        sl_date_fields df;
+        sl_date_split(ts.time_s, &df);
+        meta.month = df.month;
+    }
+    if (event_month >= 0) { /* the file says the month; a table's time is then nominal */
+        meta.month = event_month;
+        if (is_table)
+            meta.event_time_s = NAN;
     }
     rc = rows_to_injection(&r, &meta, inj, e);
 done:

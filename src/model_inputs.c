@@ -7,6 +7,7 @@
 #include "steamloft/date.h"
 #include "steamloft/json.h"
 #include "steamloft/outfile.h"
+#include "steamloft/output_nc.h"
 #include "steamloft/units.h"
 
 #include <math.h>
@@ -91,6 +92,14 @@ int sl_model_inputs_table_write(const sl_model_inputs *mi, const char *path, int
                         "holding the tropopause starts at it); pressures from the run's atmosphere\n",
                     when, mi->date_given ? "" : " is NOMINAL (no [site] date given)");
             fprintf(fp, "# total mass: %.10g kg\n", pr.total_kg);
+            /* What `decay` needs to reproduce the run's box model from this
+             * table (src/injection.c reads these keys; doubles round-trip). */
+            if (isfinite(mi->inj->tropopause_altitude_m))
+                fprintf(fp, "# tropopause_altitude_m = %.17g\n", mi->inj->tropopause_altitude_m);
+            if (mi->inj->cloud_area_m2 > 0.0)
+                fprintf(fp, "# cloud_area_m2 = %.17g\n", mi->inj->cloud_area_m2);
+            if (!mi->date_given)
+                fprintf(fp, "# event_month = %d\n", mi->month);
             fprintf(fp, "event_time_utc,latitude_deg,longitude_deg,bottom_m,top_m,bottom_hPa,top_hPa,"
                         "species,mass_kg,duration_s,radius_m\n");
         }
@@ -116,7 +125,7 @@ int sl_model_inputs_table_write(const sl_model_inputs *mi, const char *path, int
                     sl_json_number(&j, "radius_m", mi->radius_m);
                     sl_json_end_object(&j);
                 } else {
-                    fprintf(fp, "%s,%.6f,%.6f,%.10g,%.10g,%.6g,%.6g,%s,%.10g,%.10g,%.10g\n", when,
+                    fprintf(fp, "%s,%.6f,%.6f,%.17g,%.17g,%.6g,%.6g,%s,%.17g,%.10g,%.10g\n", when,
                             mi->latitude_deg, mi->longitude_deg, L->bottom_m, L->top_m, pb, pt, sp[s],
                             m[s], mi->duration_s, mi->radius_m);
                 }
@@ -142,20 +151,12 @@ int sl_model_inputs_table_write(const sl_model_inputs *mi, const char *path, int
 
 /* ---- the gridded emission file ------------------------------------------ */
 
-typedef struct ncw {
-    int ncid;
-    const char *path; /* final path, for messages */
-} ncw;
-
-#define NC_TRY(w, what, call)                                                                     \
-    do {                                                                                          \
-        int st_ = (call);                                                                         \
-        if (st_ != NC_NOERR) {                                                                    \
-            rc = SL_EIO;                                                                          \
-            sl_err_set(e, SL_EIO, __func__, __LINE__, "%s: netCDF: %s: %s", (w)->path, (what), nc_strerror(st_));     \
-            goto done;                                                                            \
-        }                                                                                         \
-    } while (0)
+/* Status of one netCDF call on file W through the output layer's one status
+ * helper (sl_output_nc_check: file, what and the true cause, SL_EIO). */
+static int chk(const sl_nc_file *w, const char *what, int status, sl_err *e)
+{
+    return sl_output_nc_check(status, w->ncid, NC_GLOBAL, w->path, "netCDF call for", what, e);
+}
 
 static int att_text(int ncid, int v, const char *name, const char *text)
 {
@@ -204,10 +205,9 @@ int sl_model_inputs_emission_write(const sl_model_inputs *mi, const char *path,
     float *slab = malloc(nc * sizeof *slab);
     double *edge = malloc(2 * (nz > 0 ? nz : 1) * sizeof *edge);
     double *mid = malloc((nz + 1) * sizeof *mid);
-    sl_outset *set = calloc(1, sizeof *set);
     int rc = SL_OK;
-    ncw W = {-1, path}, *wp = &W;
-    if (!w || !slab || !edge || !mid || !set) {
+    sl_nc_file W = {.ncid = -1, .path = path}, *wp = &W;
+    if (!w || !slab || !edge || !mid) {
         rc = SL_ENOMEM;
         sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "out of memory (emission file on a %zux%zu grid)", g->nlat, g->nlon);
         goto done;
@@ -216,46 +216,64 @@ int sl_model_inputs_emission_write(const sl_model_inputs *mi, const char *path,
     rc = sl_emission_footprint(g, mi->latitude_deg, mi->longitude_deg, mi->radius_m, w, &found_area, e);
     if (rc != SL_OK)
         goto done;
-    const char *stage = NULL;
-    rc = sl_outset_begin_file(set, path, force, &stage, e);
+    rc = sl_output_nc_create(wp, path, NC_NETCDF4 | NC_CLASSIC_MODEL, force, e);
     if (rc != SL_OK)
         goto done;
-    NC_TRY(wp, "create", nc_create(stage, NC_NETCDF4 | NC_CLASSIC_MODEL, &W.ncid));
     int d_time, d_lat, d_lon, d_alt, d_nv, d_alti = -1;
     int v_time, v_tb = -1, v_lat, v_latb, v_lon, v_lonb, v_alt, v_altb = -1, v_alti = -1;
     int v_date = -1, v_datesec = -1, v_q[2] = {-1, -1};
     const size_t nrec = cesm ? 4 : 1;
-    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "time", NC_UNLIMITED, &d_time));
-    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "altitude", nz, &d_alt));
+    if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "time", NC_UNLIMITED, &d_time), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "altitude", nz, &d_alt), e)) != SL_OK)
+        goto done;
     if (cesm)
-        NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "altitude_int", nz + 1, &d_alti));
-    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "lat", g->nlat, &d_lat));
-    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "lon", g->nlon, &d_lon));
-    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "nv", 2, &d_nv));
+        if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "altitude_int", nz + 1, &d_alti), e)) != SL_OK)
+            goto done;
+    if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "lat", g->nlat, &d_lat), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "lon", g->nlon, &d_lon), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "nv", 2, &d_nv), e)) != SL_OK)
+        goto done;
     char tunits[64], when[32];
     sl_date_format(mi->event_time_s, when, sizeof when);
     sl_date_fields f0;
     sl_date_split(mi->event_time_s, &f0);
     const double t_ref = sl_date_epoch_of_day(f0.year, f0.month, f0.day);
     snprintf(tunits, sizeof tunits, "days since %04d-%02d-%02d 00:00:00", f0.year, f0.month, f0.day);
-    NC_TRY(wp, "time", def_coord(W.ncid, "time", d_time, d_nv, tunits, "time", "T", &v_time,
-                                 cesm ? NULL : &v_tb));
-    NC_TRY(wp, "time", att_text(W.ncid, v_time, "calendar", cesm ? "gregorian" : "standard"));
-    NC_TRY(wp, "altitude", def_coord(W.ncid, "altitude", d_alt, d_nv, "km", "altitude", "Z", &v_alt,
-                                     cesm ? NULL : &v_altb));
-    NC_TRY(wp, "altitude", att_text(W.ncid, v_alt, "positive", "up"));
+    if ((rc = chk(wp, "time", def_coord(wp->ncid, "time", d_time, d_nv, tunits, "time", "T", &v_time,
+                                 cesm ? NULL : &v_tb), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "time", att_text(wp->ncid, v_time, "calendar", cesm ? "gregorian" : "standard"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "altitude", def_coord(wp->ncid, "altitude", d_alt, d_nv, "km", "altitude", "Z", &v_alt,
+                                     cesm ? NULL : &v_altb), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "altitude", att_text(wp->ncid, v_alt, "positive", "up"), e)) != SL_OK)
+        goto done;
     if (cesm) {
-        NC_TRY(wp, "altitude_int", nc_def_var(W.ncid, "altitude_int", NC_DOUBLE, 1, &d_alti, &v_alti));
-        NC_TRY(wp, "altitude_int", att_text(W.ncid, v_alti, "units", "km"));
-        NC_TRY(wp, "altitude_int", att_text(W.ncid, v_alti, "long_name", "altitude interfaces"));
-        NC_TRY(wp, "date", nc_def_var(W.ncid, "date", NC_INT, 1, &d_time, &v_date));
-        NC_TRY(wp, "date", att_text(W.ncid, v_date, "long_name", "date (YYYYMMDD)"));
-        NC_TRY(wp, "datesec", nc_def_var(W.ncid, "datesec", NC_INT, 1, &d_time, &v_datesec));
-        NC_TRY(wp, "datesec", att_text(W.ncid, v_datesec, "long_name", "seconds of the day"));
-        NC_TRY(wp, "datesec", att_text(W.ncid, v_datesec, "units", "s"));
+        if ((rc = chk(wp, "altitude_int", nc_def_var(wp->ncid, "altitude_int", NC_DOUBLE, 1, &d_alti, &v_alti), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, "altitude_int", att_text(wp->ncid, v_alti, "units", "km"), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, "altitude_int", att_text(wp->ncid, v_alti, "long_name", "altitude interfaces"), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, "date", nc_def_var(wp->ncid, "date", NC_INT, 1, &d_time, &v_date), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, "date", att_text(wp->ncid, v_date, "long_name", "date (YYYYMMDD)"), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, "datesec", nc_def_var(wp->ncid, "datesec", NC_INT, 1, &d_time, &v_datesec), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, "datesec", att_text(wp->ncid, v_datesec, "long_name", "seconds of the day"), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, "datesec", att_text(wp->ncid, v_datesec, "units", "s"), e)) != SL_OK)
+            goto done;
     }
-    NC_TRY(wp, "lat", def_coord(W.ncid, "lat", d_lat, d_nv, "degrees_north", "latitude", "Y", &v_lat, &v_latb));
-    NC_TRY(wp, "lon", def_coord(W.ncid, "lon", d_lon, d_nv, "degrees_east", "longitude", "X", &v_lon, &v_lonb));
+    if ((rc = chk(wp, "lat", def_coord(wp->ncid, "lat", d_lat, d_nv, "degrees_north", "latitude", "Y", &v_lat, &v_latb), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "lon", def_coord(wp->ncid, "lon", d_lon, d_nv, "degrees_east", "longitude", "X", &v_lon, &v_lonb), e)) != SL_OK)
+        goto done;
     int dims[4] = {d_time, d_alt, d_lat, d_lon};
     size_t chunk[4] = {1, 1, g->nlat, g->nlon};
     const char *names_cf[2] = {"water_vapour_emission", "ice_emission"};
@@ -263,50 +281,72 @@ int sl_model_inputs_emission_write(const sl_model_inputs *mi, const char *path,
                                "ice (and liquid) emitted per volume and time"};
     for (int s = 0; s < (cesm ? 1 : 2); s++) {
         const char *nm = cesm ? "H2O" : names_cf[s];
-        NC_TRY(wp, nm, nc_def_var(W.ncid, nm, NC_FLOAT, 4, dims, &v_q[s]));
-        NC_TRY(wp, nm, nc_def_var_chunking(W.ncid, v_q[s], NC_CHUNKED, chunk));
-        NC_TRY(wp, nm, nc_def_var_deflate(W.ncid, v_q[s], 1, 1, 4));
-        NC_TRY(wp, nm, att_text(W.ncid, v_q[s], "units", cesm ? "molecules/cm3/s" : "kg m-3 s-1"));
-        NC_TRY(wp, nm, att_text(W.ncid, v_q[s], "long_name",
+        if ((rc = chk(wp, nm, nc_def_var(wp->ncid, nm, NC_FLOAT, 4, dims, &v_q[s]), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, nm, nc_def_var_chunking(wp->ncid, v_q[s], NC_CHUNKED, chunk), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, nm, nc_def_var_deflate(wp->ncid, v_q[s], 1, 1, 4), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, nm, att_text(wp->ncid, v_q[s], "units", cesm ? "molecules/cm3/s" : "kg m-3 s-1"), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, nm, att_text(wp->ncid, v_q[s], "long_name",
                                 cesm ? "water (vapour and ice: the ice sublimates in the dry "
                                        "stratosphere) emitted, molecules per volume and time"
-                                     : longs_cf[s]));
+                                     : longs_cf[s]), e)) != SL_OK)
+            goto done;
         if (cesm) {
             double mw = SL_MOLAR_MASS_H2O_KG_MOL * 1e3;
-            NC_TRY(wp, nm, nc_put_att_double(W.ncid, v_q[s], "molecular_weight", NC_DOUBLE, 1, &mw));
-            NC_TRY(wp, nm, att_text(W.ncid, v_q[s], "molecular_weight_units", "g/mole"));
+            if ((rc = chk(wp, nm, nc_put_att_double(wp->ncid, v_q[s], "molecular_weight", NC_DOUBLE, 1, &mw), e)) != SL_OK)
+                goto done;
+            if ((rc = chk(wp, nm, att_text(wp->ncid, v_q[s], "molecular_weight_units", "g/mole"), e)) != SL_OK)
+                goto done;
         } else {
-            NC_TRY(wp, nm, att_text(W.ncid, v_q[s], "cell_methods", "time: mean area: mean"));
+            if ((rc = chk(wp, nm, att_text(wp->ncid, v_q[s], "cell_methods", "time: mean area: mean"), e)) != SL_OK)
+                goto done;
         }
     }
     /* Global attributes. */
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "Conventions", "CF-1.11"));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "title", mi->title ? mi->title : "steamloft emission"));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "comment", sl_cli_caution()));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "source", sl_cli_version()));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "history", "written by steamloft run --emission"));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "references",
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "Conventions", "CF-1.11"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "title", mi->title ? mi->title : "steamloft emission"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "comment", sl_cli_caution()), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "source", sl_cli_version()), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "history", "written by steamloft run --emission"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "references",
                                       "docs/physics.md section 10 of the steamloft sources (footprint, "
-                                      "rates, records)"));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "scenario_digest", mi->digest));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "event_time", when));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "event_time_is_nominal", mi->date_given ? "no" : "yes"));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "grid", g->description));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "emission_convention", cesm ? "cesm" : "cf"));
+                                      "rates, records)"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "scenario_digest", mi->digest), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "event_time", when), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "event_time_is_nominal", mi->date_given ? "no" : "yes"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "grid", g->description), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "emission_convention", cesm ? "cesm" : "cf"), e)) != SL_OK)
+        goto done;
     double attv[8] = {mi->latitude_deg, mi->longitude_deg, mi->radius_m, mi->duration_s, pr.total_kg,
                       pr.above_top_kg, found_area, isfinite(model_top_m) ? model_top_m : -1.0};
     const char *attn[8] = {"event_latitude_deg", "event_longitude_deg", "footprint_radius_m", "pulse_duration_s",
                            "mass_check_kg", "water_above_model_top_kg", "footprint_area_m2", "model_top_m"};
     for (int k = 0; k < 8; k++)
         if (k != 7 || isfinite(model_top_m))
-            NC_TRY(wp, attn[k], nc_put_att_double(W.ncid, NC_GLOBAL, attn[k], NC_DOUBLE, 1, &attv[k]));
-    NC_TRY(wp, "attributes",
-           att_text(W.ncid, NC_GLOBAL, "mass_check",
+            if ((rc = chk(wp, attn[k], nc_put_att_double(wp->ncid, NC_GLOBAL, attn[k], NC_DOUBLE, 1, &attv[k]), e)) != SL_OK)
+                goto done;
+    if ((rc = chk(wp, "attributes",
+           att_text(wp->ncid, NC_GLOBAL, "mass_check",
                     cesm ? "mass_check_kg = sum over cells of H2O x 1e6 / molecules_per_kg x cell area x "
                            "layer depth (altitude_int) integrated linearly in time over the records"
                          : "mass_check_kg = sum of (vapour + ice) x cell area x layer depth x pulse "
-                           "length (time_bnds); cell areas of the sphere of radius 6371008.8 m"));
-    NC_TRY(wp, "enddef", nc_enddef(W.ncid));
+                           "length (time_bnds); cell areas of the sphere of radius 6371008.8 m"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "enddef", nc_enddef(wp->ncid), e)) != SL_OK)
+        goto done;
 
     /* Coordinates. */
     for (size_t k = 0; k < nz; k++) {
@@ -315,36 +355,47 @@ int sl_model_inputs_emission_write(const sl_model_inputs *mi, const char *path,
         mid[k] = 0.5 * (edge[2 * k] + edge[2 * k + 1]);
     }
     if (nz > 0)
-        NC_TRY(wp, "altitude", nc_put_var_double(W.ncid, v_alt, mid));
+        if ((rc = chk(wp, "altitude", nc_put_var_double(wp->ncid, v_alt, mid), e)) != SL_OK)
+            goto done;
     if (cesm) {
         for (size_t k = 0; k < nz; k++)
             mid[k] = edge[2 * k];
         mid[nz] = nz > 0 ? edge[2 * nz - 1] : 0.0;
-        NC_TRY(wp, "altitude_int", nc_put_var_double(W.ncid, v_alti, mid));
+        if ((rc = chk(wp, "altitude_int", nc_put_var_double(wp->ncid, v_alti, mid), e)) != SL_OK)
+            goto done;
     } else if (nz > 0) {
-        NC_TRY(wp, "altitude_bnds", nc_put_var_double(W.ncid, v_altb, edge));
+        if ((rc = chk(wp, "altitude_bnds", nc_put_var_double(wp->ncid, v_altb, edge), e)) != SL_OK)
+            goto done;
     }
-    NC_TRY(wp, "lat", nc_put_var_double(W.ncid, v_lat, g->lat_deg));
-    NC_TRY(wp, "lat_bnds", nc_put_var_double(W.ncid, v_latb, g->lat_edge_deg));
-    NC_TRY(wp, "lon", nc_put_var_double(W.ncid, v_lon, g->lon_deg));
-    NC_TRY(wp, "lon_bnds", nc_put_var_double(W.ncid, v_lonb, g->lon_edge_deg));
+    if ((rc = chk(wp, "lat", nc_put_var_double(wp->ncid, v_lat, g->lat_deg), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "lat_bnds", nc_put_var_double(wp->ncid, v_latb, g->lat_edge_deg), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "lon", nc_put_var_double(wp->ncid, v_lon, g->lon_deg), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "lon_bnds", nc_put_var_double(wp->ncid, v_lonb, g->lon_edge_deg), e)) != SL_OK)
+        goto done;
     const double t0 = (mi->event_time_s - t_ref) / SL_S_PER_DAY, D = mi->duration_s;
     double on[4] = {0.0, 1.0, 1.0, 0.0};
     for (size_t r = 0; r < nrec; r++) {
         size_t st = r, cnt = 1;
         double tsec = cesm ? (r == 0 ? 0.0 : r == 1 ? 1.0 : r == 2 ? D : D + 1.0) : 0.5 * D;
         double tv = t0 + tsec / SL_S_PER_DAY;
-        NC_TRY(wp, "time", nc_put_vara_double(W.ncid, v_time, &st, &cnt, &tv));
+        if ((rc = chk(wp, "time", nc_put_vara_double(wp->ncid, v_time, &st, &cnt, &tv), e)) != SL_OK)
+            goto done;
         if (cesm) {
             sl_date_fields f;
             sl_date_split(mi->event_time_s + tsec, &f);
             int date = f.year * 10000 + f.month * 100 + f.day, ds = f.hour * 3600 + f.minute * 60 + f.second;
-            NC_TRY(wp, "date", nc_put_vara_int(W.ncid, v_date, &st, &cnt, &date));
-            NC_TRY(wp, "datesec", nc_put_vara_int(W.ncid, v_datesec, &st, &cnt, &ds));
+            if ((rc = chk(wp, "date", nc_put_vara_int(wp->ncid, v_date, &st, &cnt, &date), e)) != SL_OK)
+                goto done;
+            if ((rc = chk(wp, "datesec", nc_put_vara_int(wp->ncid, v_datesec, &st, &cnt, &ds), e)) != SL_OK)
+                goto done;
         } else {
             double tb[2] = {t0, t0 + D / SL_S_PER_DAY};
             size_t s2[2] = {r, 0}, c2[2] = {1, 2};
-            NC_TRY(wp, "time_bnds", nc_put_vara_double(W.ncid, v_tb, s2, c2, tb));
+            if ((rc = chk(wp, "time_bnds", nc_put_vara_double(wp->ncid, v_tb, s2, c2, tb), e)) != SL_OK)
+                goto done;
         }
         for (int s = 0; s < (cesm ? 1 : 2); s++) {
             for (size_t k = 0; k < nz; k++) {
@@ -357,19 +408,14 @@ int sl_model_inputs_emission_write(const sl_model_inputs *mi, const char *path,
                     slab[c] = (float)(cesm ? rate * on[r] : rate);
                 }
                 size_t st4[4] = {r, k, 0, 0}, cn4[4] = {1, 1, g->nlat, g->nlon};
-                NC_TRY(wp, "emission", nc_put_vara_float(W.ncid, v_q[s], st4, cn4, slab));
+                if ((rc = chk(wp, "emission", nc_put_vara_float(wp->ncid, v_q[s], st4, cn4, slab), e)) != SL_OK)
+                    goto done;
             }
         }
     }
-    NC_TRY(wp, "close", nc_close(W.ncid));
-    W.ncid = -1;
-    rc = sl_outset_commit(set, e);
 done:
-    if (W.ncid >= 0)
-        nc_close(W.ncid);
-    if (rc != SL_OK && set)
-        sl_outset_abort(set);
-    free(set);
+    if (W.set != NULL) /* closes, writes and renames on success; discards on error */
+        rc = sl_output_nc_finish(wp, rc, e);
     free(w);
     free(slab);
     free(edge);
@@ -443,90 +489,126 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
     const double fill = NC_FILL_DOUBLE;
     double *buf = malloc(nt * nl * nr * sizeof *buf);
     double *cb = malloc(nl * nr * sizeof *cb), *ct = malloc(nl * nr * sizeof *ct);
-    sl_outset *set = calloc(1, sizeof *set);
     int rc = SL_OK;
-    ncw W = {-1, path}, *wp = &W;
-    if (!buf || !cb || !ct || !set) {
+    sl_nc_file W = {.ncid = -1, .path = path}, *wp = &W;
+    if (!buf || !cb || !ct) {
         rc = SL_ENOMEM;
         sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "out of memory (zonal file)");
         goto done;
     }
-    const char *stage = NULL;
-    rc = sl_outset_begin_file(set, path, force, &stage, e);
+    rc = sl_output_nc_create(wp, path, NC_NETCDF4 | NC_CLASSIC_MODEL, force, e);
     if (rc != SL_OK)
         goto done;
-    NC_TRY(wp, "create", nc_create(stage, NC_NETCDF4 | NC_CLASSIC_MODEL, &W.ncid));
     int d_t, d_z, d_y, d_nv, v_t, v_z, v_zb, v_y, v_yb, v_x, v_xb, v_bb, v_bt, v_q, v_m;
-    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "time", NC_UNLIMITED, &d_t));
-    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "altitude", nl, &d_z));
-    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "lat", nr, &d_y));
-    NC_TRY(wp, "dimensions", nc_def_dim(W.ncid, "nv", 2, &d_nv));
+    if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "time", NC_UNLIMITED, &d_t), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "altitude", nl, &d_z), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "lat", nr, &d_y), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "nv", 2, &d_nv), e)) != SL_OK)
+        goto done;
     char tunits[64], when[32];
     sl_date_format(mi->event_time_s, when, sizeof when);
     sl_date_fields f0;
     sl_date_split(mi->event_time_s, &f0);
     snprintf(tunits, sizeof tunits, "days since %04d-%02d-%02d %02d:%02d:%02d", f0.year, f0.month,
              f0.day, f0.hour, f0.minute, f0.second);
-    NC_TRY(wp, "time", def_coord(W.ncid, "time", d_t, d_nv, tunits, "time", "T", &v_t, NULL));
-    NC_TRY(wp, "time", att_text(W.ncid, v_t, "calendar", "standard"));
-    NC_TRY(wp, "altitude", def_coord(W.ncid, "altitude", d_z, d_nv, "m", "altitude", "Z", &v_z, &v_zb));
-    NC_TRY(wp, "altitude", att_text(W.ncid, v_z, "positive", "up"));
-    NC_TRY(wp, "altitude", att_text(W.ncid, v_z, "long_name",
-                                    "box-model layer (nominal bounds; each region's boxes in box_bottom/box_top)"));
-    NC_TRY(wp, "lat", def_coord(W.ncid, "lat", d_y, d_nv, "degrees_north", "latitude", "Y", &v_y, &v_yb));
-    NC_TRY(wp, "lat", att_text(W.ncid, v_y, "long_name", "centre of the latitude region"));
-    NC_TRY(wp, "lon", def_coord(W.ncid, "lon", -1, d_nv, "degrees_east", "longitude", "X", &v_x, NULL));
-    NC_TRY(wp, "lon", nc_def_var(W.ncid, "lon_bnds", NC_DOUBLE, 1, &d_nv, &v_xb));
-    NC_TRY(wp, "lon", att_text(W.ncid, v_x, "bounds", "lon_bnds"));
-    NC_TRY(wp, "lon", att_text(W.ncid, v_x, "long_name", "all longitudes (zonal means)"));
+    if ((rc = chk(wp, "time", def_coord(wp->ncid, "time", d_t, d_nv, tunits, "time", "T", &v_t, NULL), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "time", att_text(wp->ncid, v_t, "calendar", "standard"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "altitude", def_coord(wp->ncid, "altitude", d_z, d_nv, "m", "altitude", "Z", &v_z, &v_zb), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "altitude", att_text(wp->ncid, v_z, "positive", "up"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "altitude", att_text(wp->ncid, v_z, "long_name",
+                                    "box-model layer (nominal bounds; each region's boxes in box_bottom/box_top)"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "lat", def_coord(wp->ncid, "lat", d_y, d_nv, "degrees_north", "latitude", "Y", &v_y, &v_yb), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "lat", att_text(wp->ncid, v_y, "long_name", "centre of the latitude region"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "lon", def_coord(wp->ncid, "lon", -1, d_nv, "degrees_east", "longitude", "X", &v_x, NULL), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "lon", nc_def_var(wp->ncid, "lon_bnds", NC_DOUBLE, 1, &d_nv, &v_xb), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "lon", att_text(wp->ncid, v_x, "bounds", "lon_bnds"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "lon", att_text(wp->ncid, v_x, "long_name", "all longitudes (zonal means)"), e)) != SL_OK)
+        goto done;
     int d2[2] = {d_y, d_z}, d3[3] = {d_t, d_z, d_y};
     const char *bn[2] = {"box_bottom", "box_top"};
     int *bv[2] = {&v_bb, &v_bt};
     for (int k = 0; k < 2; k++) {
-        NC_TRY(wp, bn[k], nc_def_var(W.ncid, bn[k], NC_DOUBLE, 2, d2, bv[k]));
-        NC_TRY(wp, bn[k], nc_def_var_fill(W.ncid, *bv[k], 0, &fill));
-        NC_TRY(wp, bn[k], att_text(W.ncid, *bv[k], "units", "m"));
-        NC_TRY(wp, bn[k], att_text(W.ncid, *bv[k], "long_name",
+        if ((rc = chk(wp, bn[k], nc_def_var(wp->ncid, bn[k], NC_DOUBLE, 2, d2, bv[k]), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, bn[k], nc_def_var_fill(wp->ncid, *bv[k], 0, &fill), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, bn[k], att_text(wp->ncid, *bv[k], "units", "m"), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, bn[k], att_text(wp->ncid, *bv[k], "long_name",
                                    k ? "top of the box of this region and layer"
                                      : "bottom of the box of this region and layer (the lowest box "
-                                       "of a region starts at the region's tropopause)"));
+                                       "of a region starts at the region's tropopause)"), e)) != SL_OK)
+            goto done;
     }
     size_t chunk[3] = {nt, nl, nr};
-    NC_TRY(wp, "mole_fraction_anomaly", nc_def_var(W.ncid, "mole_fraction_anomaly", NC_DOUBLE, 3, d3, &v_q));
-    NC_TRY(wp, "mass_per_area", nc_def_var(W.ncid, "mass_per_area", NC_DOUBLE, 3, d3, &v_m));
+    if ((rc = chk(wp, "mole_fraction_anomaly", nc_def_var(wp->ncid, "mole_fraction_anomaly", NC_DOUBLE, 3, d3, &v_q), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "mass_per_area", nc_def_var(wp->ncid, "mass_per_area", NC_DOUBLE, 3, d3, &v_m), e)) != SL_OK)
+        goto done;
     int vq[2] = {v_q, v_m};
     const char *qu[2] = {"mol mol-1", "kg m-2"};
     const char *ql[2] = {"excess water vapour mole fraction over background, mean over the box",
                          "excess water in the box per unit area of its latitude region"};
     for (int k = 0; k < 2; k++) {
-        NC_TRY(wp, "field", nc_def_var_chunking(W.ncid, vq[k], NC_CHUNKED, chunk));
-        NC_TRY(wp, "field", nc_def_var_fill(W.ncid, vq[k], 0, &fill));
-        NC_TRY(wp, "field", att_text(W.ncid, vq[k], "units", qu[k]));
-        NC_TRY(wp, "field", att_text(W.ncid, vq[k], "long_name", ql[k]));
-        NC_TRY(wp, "field", att_text(W.ncid, vq[k], "cell_methods",
+        if ((rc = chk(wp, "field", nc_def_var_chunking(wp->ncid, vq[k], NC_CHUNKED, chunk), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, "field", nc_def_var_fill(wp->ncid, vq[k], 0, &fill), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, "field", att_text(wp->ncid, vq[k], "units", qu[k]), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, "field", att_text(wp->ncid, vq[k], "long_name", ql[k]), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, "field", att_text(wp->ncid, vq[k], "cell_methods",
                                      k ? "time: point altitude: sum area: mean"
-                                       : "time: point altitude: mean area: mean"));
-        NC_TRY(wp, "field", att_text(W.ncid, vq[k], "coordinates", "lon"));
-        NC_TRY(wp, "field", att_text(W.ncid, vq[k], "comment",
+                                       : "time: point altitude: mean area: mean"), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, "field", att_text(wp->ncid, vq[k], "coordinates", "lon"), e)) != SL_OK)
+            goto done;
+        if ((rc = chk(wp, "field", att_text(wp->ncid, vq[k], "comment",
                                      "_FillValue where the region has no box in the layer (below its "
-                                     "tropopause); an anomaly over the background, not the total"));
+                                     "tropopause); an anomaly over the background, not the total"), e)) != SL_OK)
+            goto done;
     }
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "Conventions", "CF-1.11"));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "title", mi->title ? mi->title : "steamloft zonal anomaly"));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "comment", sl_cli_caution()));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "source", sl_cli_version()));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "history", "written by steamloft run --zonal"));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "references",
-                                      "docs/physics.md sections 8 and 10 of the steamloft sources"));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "scenario_digest", mi->digest));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "event_time", when));
-    NC_TRY(wp, "attributes", att_text(W.ncid, NC_GLOBAL, "event_time_is_nominal", mi->date_given ? "no" : "yes"));
-    NC_TRY(wp, "enddef", nc_enddef(W.ncid));
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "Conventions", "CF-1.11"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "title", mi->title ? mi->title : "steamloft zonal anomaly"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "comment", sl_cli_caution()), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "source", sl_cli_version()), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "history", "written by steamloft run --zonal"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "references",
+                                      "docs/physics.md sections 8 and 10 of the steamloft sources"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "scenario_digest", mi->digest), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "event_time", when), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "event_time_is_nominal", mi->date_given ? "no" : "yes"), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "enddef", nc_enddef(wp->ncid), e)) != SL_OK)
+        goto done;
 
     for (size_t t = 0; t < nt; t++)
         buf[t] = r->time_s[t] / SL_S_PER_DAY;
     size_t st1 = 0, cn1 = nt;
-    NC_TRY(wp, "time", nc_put_vara_double(W.ncid, v_t, &st1, &cn1, buf));
+    if ((rc = chk(wp, "time", nc_put_vara_double(wp->ncid, v_t, &st1, &cn1, buf), e)) != SL_OK)
+        goto done;
     double zc[SL_STRAT_MAX_LAYERS], zb[2 * SL_STRAT_MAX_LAYERS], lowest = INFINITY;
     for (size_t b = 0; b < nb; b++)
         if (m->box_layer[b] == 0)
@@ -536,23 +618,31 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
         zb[2 * l + 1] = m->layer_top_m[l];
         zc[l] = 0.5 * (zb[2 * l] + zb[2 * l + 1]);
     }
-    NC_TRY(wp, "altitude", nc_put_var_double(W.ncid, v_z, zc));
-    NC_TRY(wp, "altitude_bnds", nc_put_var_double(W.ncid, v_zb, zb));
+    if ((rc = chk(wp, "altitude", nc_put_var_double(wp->ncid, v_z, zc), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "altitude_bnds", nc_put_var_double(wp->ncid, v_zb, zb), e)) != SL_OK)
+        goto done;
     const double edge = m->par.tropics_edge_deg;
     double yb[6] = {-90.0, -edge, -edge, edge, edge, 90.0}, yc[3] = {0.5 * (-90.0 - edge), 0.0, 0.5 * (90.0 + edge)};
     double xc = 180.0, xb[2] = {0.0, 360.0};
-    NC_TRY(wp, "lat", nc_put_var_double(W.ncid, v_y, yc));
-    NC_TRY(wp, "lat_bnds", nc_put_var_double(W.ncid, v_yb, yb));
-    NC_TRY(wp, "lon", nc_put_var_double(W.ncid, v_x, &xc));
-    NC_TRY(wp, "lon_bnds", nc_put_var_double(W.ncid, v_xb, xb));
+    if ((rc = chk(wp, "lat", nc_put_var_double(wp->ncid, v_y, yc), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "lat_bnds", nc_put_var_double(wp->ncid, v_yb, yb), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "lon", nc_put_var_double(wp->ncid, v_x, &xc), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "lon_bnds", nc_put_var_double(wp->ncid, v_xb, xb), e)) != SL_OK)
+        goto done;
     for (size_t reg = 0; reg < nr; reg++)
         for (size_t l = 0; l < nl; l++) {
             int b = m->box_of[reg][l];
             cb[reg * nl + l] = b >= 0 ? m->box_bottom_m[b] : fill;
             ct[reg * nl + l] = b >= 0 ? m->box_top_m[b] : fill;
         }
-    NC_TRY(wp, "box_bottom", nc_put_var_double(W.ncid, v_bb, cb));
-    NC_TRY(wp, "box_top", nc_put_var_double(W.ncid, v_bt, ct));
+    if ((rc = chk(wp, "box_bottom", nc_put_var_double(wp->ncid, v_bb, cb), e)) != SL_OK)
+        goto done;
+    if ((rc = chk(wp, "box_top", nc_put_var_double(wp->ncid, v_bt, ct), e)) != SL_OK)
+        goto done;
     const double eps = SL_MOLAR_MASS_H2O_KG_MOL / SL_MOLAR_MASS_DRY_AIR_KG_MOL;
     size_t st3[3] = {0, 0, 0}, cn3[3] = {nt, nl, nr};
     for (int k = 0; k < 2; k++) {
@@ -565,17 +655,12 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
                         x = k ? x / m->region_area_m2[reg] : x / (eps * m->box_air_kg[b]);
                     buf[(t * nl + l) * nr + reg] = x;
                 }
-        NC_TRY(wp, "field", nc_put_vara_double(W.ncid, vq[k], st3, cn3, buf));
+        if ((rc = chk(wp, "field", nc_put_vara_double(wp->ncid, vq[k], st3, cn3, buf), e)) != SL_OK)
+            goto done;
     }
-    NC_TRY(wp, "close", nc_close(W.ncid));
-    W.ncid = -1;
-    rc = sl_outset_commit(set, e);
 done:
-    if (W.ncid >= 0)
-        nc_close(W.ncid);
-    if (rc != SL_OK && set)
-        sl_outset_abort(set);
-    free(set);
+    if (W.set != NULL) /* closes, writes and renames on success; discards on error */
+        rc = sl_output_nc_finish(wp, rc, e);
     free(buf);
     free(cb);
     free(ct);

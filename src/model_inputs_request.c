@@ -160,6 +160,7 @@ int sl_model_inputs_request_write(const sl_model_inputs_request *rq, const sl_ch
     /* Without a date: the nominal time of the other outputs, 2000-MM-01. */
     mi.event_time_s = mi.date_given ? ep.event_time_s
                                     : sl_date_epoch_of_day(2000, ep.month >= 1 ? ep.month : 1, 1);
+    mi.month = ch->injection.month;
     mi.duration_s = ep.duration_s;
     mi.radius_m = footprint_radius(ch, ep.radius_m, &mi.radius_origin);
     char title[200];

@@ -86,6 +86,8 @@ void sl_output_strat_free(sl_output_strat *os)
     free(os->layer_bottom_m);
     free(os->layer_top_m);
     free(os->excess_kg);
+    free(os->box_bottom_m);
+    free(os->box_top_m);
     free(os->sink_kg);
     memset(os, 0, sizeof *os);
 }
@@ -99,9 +101,12 @@ int sl_output_strat_init(sl_output_strat *os, const struct sl_strat_model *m,
         SL_FAIL_RETURN(e, SL_EINTERNAL, "box-model result without times or layers");
     os->layer_bottom_m = malloc(nl * sizeof(double));
     os->layer_top_m = malloc(nl * sizeof(double));
-    os->excess_kg = calloc(nt * nr * nl, sizeof(double));
+    os->excess_kg = malloc(nt * nr * nl * sizeof(double));
     os->sink_kg = malloc(ns * nt * sizeof(double));
-    if (!os->layer_bottom_m || !os->layer_top_m || !os->excess_kg || !os->sink_kg) {
+    os->box_bottom_m = malloc(nr * nl * sizeof(double));
+    os->box_top_m = malloc(nr * nl * sizeof(double));
+    if (!os->layer_bottom_m || !os->layer_top_m || !os->excess_kg || !os->sink_kg || !os->box_bottom_m ||
+        !os->box_top_m) {
         sl_output_strat_free(os);
         SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory for the box-model output");
     }
@@ -112,6 +117,17 @@ int sl_output_strat_init(sl_output_strat *os, const struct sl_strat_model *m,
     for (size_t l = 0; l < nl; l++) {
         os->layer_top_m[l] = m->layer_top_m[l];
         os->layer_bottom_m[l] = l > 0 ? m->layer_top_m[l - 1] : (isfinite(lowest) ? lowest : 0.0);
+    }
+    /* A region without a box in a layer (the layer lies below its tropopause)
+     * has no excess there: undefined, never 0. */
+    for (size_t i = 0; i < nt * nr * nl; i++)
+        os->excess_kg[i] = NAN;
+    for (size_t i = 0; i < nr * nl; i++)
+        os->box_bottom_m[i] = os->box_top_m[i] = NAN;
+    for (size_t b = 0; b < m->n_boxes; b++) {
+        size_t k = (size_t)m->box_region[b] * nl + (size_t)m->box_layer[b];
+        os->box_bottom_m[k] = m->box_bottom_m[b];
+        os->box_top_m[k] = m->box_top_m[b];
     }
     for (size_t t = 0; t < nt; t++)
         for (size_t b = 0; b < m->n_boxes; b++) {
@@ -133,7 +149,8 @@ int sl_output_strat_init(sl_output_strat *os, const struct sl_strat_model *m,
                                     os->excess_kg, r->layer_anomaly_mole_fraction,
                                     r->global_excess_kg, r->global_column_kg_m2,
                                     r->local_column_kg_m2, r->percent_of_background, r->forcing_W_m2,
-                                    ns, sl_strat_sink_names, os->sink_kg, os->region_tropopause_m};
+                                    ns, sl_strat_sink_names, os->sink_kg, os->region_tropopause_m,
+                                    os->box_bottom_m, os->box_top_m};
     const struct {
         const char *name, *long_name, *units;
         double value;
@@ -170,11 +187,18 @@ int sl_output_strat_init(sl_output_strat *os, const struct sl_strat_model *m,
          "largest |injected - remaining - removed| / injected over the run (mass conservation)", "1",
          r->budget_max_rel_error},
     };
+    /* Times and fractions of a decay are undefined when nothing entered the
+     * stratosphere (as in the JSON and text reports, output_text.c): NaN here,
+     * _FillValue in the netCDF, never 0. */
+    const int undefined_decay = !(r->initial_excess_kg > 0.0);
     for (size_t i = 0; i < sizeof sc / sizeof sc[0] && i < SL_OUTPUT_STRAT_MAX_SCALARS; i++) {
-        if (!isfinite(sc[i].value))
-            continue; /* e.g. no e-folding when nothing entered: left out, never NaN */
-        os->scalars[os->n_scalars++] =
-            (sl_output_scalar){sc[i].name, sc[i].long_name, sc[i].units, NULL, sc[i].value};
+        double x = sc[i].value;
+        if (undefined_decay && (strcmp(sc[i].name, "efolding_time") == 0 || strcmp(sc[i].name, "mean_residence_time") == 0 ||
+                                strncmp(sc[i].name, "fraction_remaining_", 19) == 0))
+            x = NAN;
+        if (!isfinite(x))
+            x = NAN; /* undefined (an infinite result is not a number either) */
+        os->scalars[os->n_scalars++] = (sl_output_scalar){sc[i].name, sc[i].long_name, sc[i].units, NULL, x};
     }
     return SL_OK;
 }
@@ -192,6 +216,15 @@ static int check_finite(const double *a, size_t n, const char *what, sl_err *e)
         if (!isfinite(a[i]))
             SL_FAIL_RETURN(e, SL_EINTERNAL, "result '%s' is not finite at index %zu (%g): not written",
                            what, i, a[i]);
+    return SL_OK;
+}
+
+/* Finite or NaN (undefined, written as _FillValue), never infinite. */
+static int check_defined(const double *a, size_t n, const char *what, sl_err *e)
+{
+    for (size_t i = 0; a != NULL && i < n; i++)
+        if (isinf(a[i]))
+            SL_FAIL_RETURN(e, SL_EINTERNAL, "result '%s' is infinite at index %zu: not written", what, i);
     return SL_OK;
 }
 
@@ -263,7 +296,7 @@ int sl_output_view_check(const sl_output_view *v, sl_err *e)
         SL_TRY_RETURN(e, check_cells(s->layer_bottom_m, s->layer_top_m, s->n_layer,
                                      "box-model layers", e));
         size_t nt = s->n_time;
-        SL_TRY_RETURN(e, check_finite(s->excess_kg, nt * s->n_region * s->n_layer, "excess_kg", e));
+        SL_TRY_RETURN(e, check_defined(s->excess_kg, nt * s->n_region * s->n_layer, "excess_kg", e));
         SL_TRY_RETURN(e, check_finite(s->mole_fraction_anomaly, nt * s->n_layer,
                                       "mole_fraction_anomaly", e));
         SL_TRY_RETURN(e, check_finite(s->global_excess_kg, nt, "global_excess_kg", e));
@@ -273,6 +306,8 @@ int sl_output_view_check(const sl_output_view *v, sl_err *e)
         SL_TRY_RETURN(e, check_finite(s->percent_of_background, nt, "percent_of_background", e));
         SL_TRY_RETURN(e, check_finite(s->forcing_W_m2, nt, "forcing_W_m2", e));
         SL_TRY_RETURN(e, check_finite(s->region_tropopause_m, s->n_region, "region_tropopause_m", e));
+        SL_TRY_RETURN(e, check_defined(s->box_bottom_m, s->n_region * s->n_layer, "box_bottom_m", e));
+        SL_TRY_RETURN(e, check_defined(s->box_top_m, s->n_region * s->n_layer, "box_top_m", e));
         if (s->n_sink > 0) {
             if (s->sink_name == NULL || s->sink_kg == NULL)
                 SL_FAIL_RETURN(e, SL_EINTERNAL, "series sinks without names or masses");
@@ -283,8 +318,8 @@ int sl_output_view_check(const sl_output_view *v, sl_err *e)
         const sl_output_scalar *sc = &v->scalars[i];
         if (sc->name == NULL || sc->units == NULL || sc->long_name == NULL)
             SL_FAIL_RETURN(e, SL_EINTERNAL, "scalar result %zu lacks a name, long_name or units", i);
-        if (!isfinite(sc->value))
-            SL_FAIL_RETURN(e, SL_EINTERNAL, "scalar result '%s' is not finite: not written", sc->name);
+        if (isinf(sc->value))
+            SL_FAIL_RETURN(e, SL_EINTERNAL, "scalar result '%s' is infinite: not written", sc->name);
     }
     for (size_t i = 0; i < v->n_params; i++) {
         if (v->params[i].name == NULL)

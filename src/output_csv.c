@@ -143,7 +143,8 @@ static void write_series_layers(FILE *fp, const sl_output_view *v)
     const sl_output_series *s = v->series;
     preamble(fp, v, "steamloft stratospheric box model: excess water by time, layer and region");
     comment(fp, "one row per time and layer; mole_fraction_anomaly_ppmv is the global-mean "
-                "excess; excess_Tg_<south>_<north> is the excess mass in that latitude region");
+                "excess; excess_Tg_<south>_<north> is the excess mass in that latitude region "
+                "(empty where the region has no box in the layer)");
     fputs("time_days,layer_bottom_km,layer_top_km", fp);
     if (s->mole_fraction_anomaly)
         fputs(",mole_fraction_anomaly_ppmv", fp);
@@ -161,9 +162,14 @@ static void write_series_layers(FILE *fp, const sl_output_view *v)
             if (s->mole_fraction_anomaly)
                 fprintf(fp, ",%.10g",
                         sl_mole_fraction_to_ppmv(s->mole_fraction_anomaly[t * s->n_layer + l]));
-            for (size_t r = 0; r < s->n_region; r++)
-                fprintf(fp, ",%.10g",
-                        sl_kg_to_tg(s->excess_kg[(t * s->n_region + r) * s->n_layer + l]));
+            for (size_t r = 0; r < s->n_region; r++) {
+                /* A region without a box in this layer: an empty field (undefined, not 0). */
+                double x = s->excess_kg[(t * s->n_region + r) * s->n_layer + l];
+                if (isnan(x))
+                    fputc(',', fp);
+                else
+                    fprintf(fp, ",%.10g", sl_kg_to_tg(x));
+            }
             fputc('\n', fp);
         }
 }

@@ -219,6 +219,20 @@ static int def_var(ncw *w, const char *name, int ndims, const int *dims, const d
     SL_TRY_RETURN(e, att_text(w, id, "standard_name", standard_name, e));
     SL_TRY_RETURN(e, att_text(w, id, "long_name", long_name, e));
     SL_TRY_RETURN(e, att_text(w, id, "units", units, e));
+    /* An undefined value (NaN in the view: an empty box, an e-folding time when
+     * nothing entered) is written as _FillValue (CF 2.5.1), never as 0 or NaN. */
+    size_t n = values_of(w, ndims, dims), n_undefined = 0;
+    for (size_t i = 0; data != NULL && i < n; i++)
+        n_undefined += isnan(data[i]) != 0;
+    if (n_undefined > 0) {
+        double *filled = own(w, n, e);
+        if (filled == NULL)
+            return e ? e->code : SL_ENOMEM;
+        for (size_t i = 0; i < n; i++)
+            filled[i] = isnan(data[i]) ? NC_FILL_DOUBLE : data[i];
+        data = filled;
+        SL_TRY_RETURN(e, att_double(w, id, "_FillValue", NC_FILL_DOUBLE, e));
+    }
     SL_TRY_RETURN(e, queue(w, id, data, e));
     if (varid)
         *varid = id;
@@ -574,6 +588,15 @@ static int series_vars(ncw *w, const sl_output_view *v, int nv, int band_dim, sl
         SL_TRY_RETURN(e, att_text(w, id, "comment",
                                   "the box model's lowest box in each region starts here", e));
     }
+    if (s->box_bottom_m && s->box_top_m) {
+        /* Each region's boxes (the lowest starts at the region's own tropopause);
+         * _FillValue where a region has no box in a layer. */
+        int dz[2] = {ldim, zdim};
+        SL_TRY_RETURN(e, def_var(w, "box_bottom", 2, dz, s->box_bottom_m, NULL,
+                                 "bottom of the box-model box of this latitude region and layer", "m", &id, e));
+        SL_TRY_RETURN(e, def_var(w, "box_top", 2, dz, s->box_top_m, NULL,
+                                 "top of the box-model box of this latitude region and layer", "m", &id, e));
+    }
     int d3[3] = {tdim, ldim, zdim}, d2[2] = {tdim, zdim};
     SL_TRY_RETURN(e, def_var(w, "excess_water_mass", 3, d3, s->excess_kg, NULL,
                              "excess water in the box (latitude region and layer) over background",
@@ -642,10 +665,12 @@ static int write_all(ncw *w, const sl_output_view *v, sl_err *e)
         int rc = SL_OK;
         for (size_t i = 0; i < v->n_scalars && rc == SL_OK; i++) {
             const sl_output_scalar *sc = &v->scalars[i];
+            if (isnan(sc->value))
+                continue; /* undefined: no attribute (the variable holds _FillValue) */
             char name[NC_MAX_NAME + 1];
             snprintf(name, sizeof name, "result_%s", sc->name);
             rc = att_double(w, NC_GLOBAL, name, sc->value, e);
-            int k = snprintf(units + off, cap - off, "%s%s: %s", i ? "; " : "", sc->name, sc->units);
+            int k = snprintf(units + off, cap - off, "%s%s: %s", off ? "; " : "", sc->name, sc->units);
             if (k > 0 && (size_t)k < cap - off)
                 off += (size_t)k;
         }
@@ -682,12 +707,8 @@ int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_op
     if (o.deflate_level < 0 || o.deflate_level > 9)
         SL_FAIL_RETURN(e, SL_EUSAGE, "deflate level %d outside 0-9", o.deflate_level);
     ncw *w = calloc(1, sizeof *w);
-    sl_outset *set = calloc(1, sizeof *set);
-    if (w == NULL || set == NULL) {
-        free(w);
-        free(set);
+    if (w == NULL)
         SL_FAIL_RETURN(e, SL_ENOMEM, "writing '%s': out of memory", path);
-    }
     w->path = path;
     w->nc4 = o.format == SL_NC_NETCDF4_CLASSIC;
     w->deflate_level = o.deflate_level ? o.deflate_level : 4;
@@ -695,55 +716,84 @@ int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_op
     w->time_dim = -1;
     w->ncid = -1;
 
-    /* The file is built in memory (nc_create_mem, nc_close_memio) and its
-     * bytes are then put into the stage with plain write(2): a full disk or
-     * a quota is then an ordinary write error with its true cause, never a
-     * failure inside the HDF5 library (which can crash after a failed write). */
-    const char *stage = NULL;
-    int rc = sl_outset_begin_file(set, path, o.force, &stage, e);
-    char base[SL_OUTSET_NAME_LEN] = "";
+    sl_nc_file file;
+    /* NC_NOATTCREORD: no attribute creation-order index per HDF5 object. */
+    int rc = sl_output_nc_create(&file, path, w->nc4 ? (NC_NETCDF4 | NC_CLASSIC_MODEL | NC_NOATTCREORD) : 0, o.force, e);
     if (rc == SL_OK) {
-        const char *slash = strrchr(path, '/');
-        snprintf(base, sizeof base, "%s", slash ? slash + 1 : path);
-        sl_outset_forget(set, base); /* re-added by sl_outset_write_file */
-        /* NC_NOATTCREORD: no attribute creation-order index per HDF5 object. */
-        int cmode = w->nc4 ? (NC_NETCDF4 | NC_CLASSIC_MODEL | NC_NOATTCREORD) : 0;
-        int st = nc_create_mem(base, cmode, 1 << 16, &w->ncid);
-        if (st != NC_NOERR) {
-            w->ncid = -1;
-            rc = sl_err_set(e, SL_ECANTCREAT, __func__, __LINE__, "cannot create '%s': %s", path,
-                            nc_strerror(st));
-        }
-    }
-    if (rc == SL_OK)
+        w->ncid = file.ncid;
         rc = write_all(w, v, e);
-    if (rc == SL_OK) {
-        NC_memio mem = {0, NULL, 0};
-        int st = nc_close_memio(w->ncid, &mem);
-        w->ncid = -1;
-        if (st != NC_NOERR)
-            rc = sl_err_set(e, st == NC_ENOMEM ? SL_ENOMEM : SL_EIO, __func__, __LINE__,
-                            "writing '%s': closing: %s", path, nc_strerror(st));
-        else
-            rc = sl_outset_write_file(set, base, mem.memory, mem.size, e);
-        free(mem.memory);
     }
-    if (rc == SL_OK)
-        rc = sl_outset_commit(set, e);
-    if (rc != SL_OK) {
-        if (w->ncid >= 0)
-            (void)nc_abort(w->ncid);
-        sl_outset_abort(set);
+    if (rc == SL_OK || file.set != NULL)
+        rc = sl_output_nc_finish(&file, rc, e);
+    if (rc != SL_OK)
         sl_err_push(e, rc, __func__, __LINE__);
-    }
     for (size_t i = 0; i < w->n_owned; i++)
         free(w->owned[i]);
     free(w);
-    free(set);
     return rc;
 }
 
 /* ------------------------------------------------------------ for the other netCDF writers */
+
+/* The file is built in memory (nc_create_mem, nc_close_memio) and its bytes
+ * are then put into the stage with plain write(2): a full disk or a quota is
+ * then an ordinary write error with its true cause, never a failure inside
+ * the HDF5 library (which can crash after a failed write). */
+int sl_output_nc_create(sl_nc_file *f, const char *path, int cmode, int force, sl_err *e)
+{
+    memset(f, 0, sizeof *f);
+    f->ncid = -1;
+    f->path = path;
+    f->set = calloc(1, sizeof *f->set);
+    if (f->set == NULL)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "writing '%s': out of memory", path);
+    const char *stage = NULL;
+    int rc = sl_outset_begin_file(f->set, path, force, &stage, e);
+    if (rc == SL_OK) {
+        const char *slash = strrchr(path, '/');
+        snprintf(f->base, sizeof f->base, "%s", slash ? slash + 1 : path);
+        sl_outset_forget(f->set, f->base); /* re-added by sl_outset_write_file */
+        int st = nc_create_mem(f->base, cmode, 1 << 16, &f->ncid);
+        if (st != NC_NOERR) {
+            f->ncid = -1;
+            rc = sl_err_set(e, SL_ECANTCREAT, __func__, __LINE__, "cannot create '%s': %s", path, nc_strerror(st));
+        }
+    }
+    if (rc != SL_OK) {
+        sl_outset_abort(f->set);
+        free(f->set);
+        f->set = NULL;
+    }
+    return rc;
+}
+
+int sl_output_nc_finish(sl_nc_file *f, int rc, sl_err *e)
+{
+    if (f->set == NULL)
+        return rc != SL_OK ? rc : SL_EINTERNAL;
+    if (rc == SL_OK) {
+        NC_memio mem = {0, NULL, 0};
+        int st = nc_close_memio(f->ncid, &mem);
+        f->ncid = -1;
+        if (st != NC_NOERR)
+            rc = sl_err_set(e, st == NC_ENOMEM ? SL_ENOMEM : SL_EIO, __func__, __LINE__, "writing '%s': closing: %s",
+                            f->path, nc_strerror(st));
+        else
+            rc = sl_outset_write_file(f->set, f->base, mem.memory, mem.size, e);
+        free(mem.memory);
+    }
+    if (rc == SL_OK)
+        rc = sl_outset_commit(f->set, e);
+    if (rc != SL_OK) {
+        if (f->ncid >= 0)
+            (void)nc_abort(f->ncid);
+        sl_outset_abort(f->set);
+    }
+    f->ncid = -1;
+    free(f->set);
+    f->set = NULL;
+    return rc;
+}
 
 int sl_output_nc_check(int status, int ncid, int varid, const char *path, const char *what, const char *name,
                        sl_err *e)

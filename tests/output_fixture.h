@@ -116,7 +116,7 @@ static inline void build_fixture(int layers_equal_bands)
     }
     F.series = (sl_output_series){NT, NR, (size_t)nl, F.t_s, F.south, F.north, F.lbot, F.ltop,
                                   F.excess, F.xan, F.glob, F.col, NULL, F.pct, F.frc,
-                                  NSINK, F.sink_names, F.sink, NULL};
+                                  NSINK, F.sink_names, F.sink, NULL, NULL, NULL};
     F.scalars[0] = (sl_output_scalar){"efolding_time", "e-folding time of the global excess",
                                       "s", NULL, tau_s};
     F.scalars[1] = (sl_output_scalar){"burst_altitude", "altitude of the airburst", "m", NULL,

@@ -16,7 +16,21 @@
  * with its unit suffix: bottom_m|bottom_km, top_m|top_km, vapor_kg|vapor_Tg
  * (mass_kg|mass_Tg are read as vapour) and optionally ice_kg|ice_Tg, in any
  * order.  Then one row per band, bottom to top, contiguous (each bottom equal
- * to the previous top), altitudes 0 to 1000 km, masses >= 0.
+ * to the previous top), altitudes 0 to 1000 km, masses >= 0.  The metadata key
+ * event_month (0-12) sets the month.
+ *
+ * Injection table (the CSV of `run --injection-table`, told by its header
+ * event_time_utc,latitude_deg,longitude_deg,bottom_m,top_m,bottom_hPa,top_hPa,
+ * species,mass_kg,duration_s,radius_m): one row per band and species
+ * (water_vapour, ice), bands bottom to top, the rows of one band adjacent;
+ * species are summed per band into vapour and ice, gaps become empty bands.
+ * Event time, latitude and longitude come from the rows and must be the same
+ * on every row; the month follows from the time unless "# event_month = M"
+ * says it (a run without a [site] date writes that line; its time is nominal
+ * and is then not taken).  The metadata lines above apply as well.  The
+ * pressure, duration and radius columns are checked (decimal numbers in
+ * range) but not used: the box model takes the cloud's area from
+ * cloud_area_m2, as for the other CSV layout.
  *
  * CF netCDF: a coordinate variable altitude(altitude) (units "m" or "km",
  * increasing) with a "bounds" attribute naming altitude_bnds(altitude, 2);

@@ -35,6 +35,7 @@ typedef struct sl_model_inputs {
     double latitude_deg, longitude_deg;
     double event_time_s;           /* seconds since 1970-01-01 UTC */
     int date_given;                /* 0: the time is nominal (no [site] date) */
+    int month;                     /* the month the run used, 1-12; 0 none (annual mean) */
     double duration_s, radius_m;   /* pulse and footprint */
     const char *radius_origin;     /* "scenario" or how it was derived */
     char digest[17];               /* scenario digest, 16 hex digits */

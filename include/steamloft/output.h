@@ -30,7 +30,9 @@ typedef struct sl_output_series {
     const double *region_north_deg;        /* n_region */
     const double *layer_bottom_m;          /* n_layer */
     const double *layer_top_m;             /* n_layer */
-    const double *excess_kg;               /* n_time*n_region*n_layer: excess water per box */
+    const double *excess_kg;               /* n_time*n_region*n_layer: excess water per box;
+                                            * NaN where the region has no box in the layer
+                                            * (below its tropopause): netCDF _FillValue, CSV empty */
     const double *mole_fraction_anomaly;   /* n_time*n_layer: global-mean excess, mol mol-1 (optional) */
     const double *global_excess_kg;        /* n_time: total excess in the stratosphere */
     const double *column_anomaly_kg_m2;    /* n_time: global-mean column excess (optional) */
@@ -41,6 +43,8 @@ typedef struct sl_output_series {
     const char *const *sink_name;          /* n_sink short names, [A-Za-z0-9_] */
     const double *sink_kg;                 /* n_sink*n_time: cumulative mass removed by each path */
     const double *region_tropopause_m;     /* n_region: where each region's lowest box starts (optional) */
+    const double *box_bottom_m, *box_top_m; /* n_region*n_layer: each region's box in each layer,
+                                            * NaN where it has none (optional, both or neither) */
 } sl_output_series;
 
 /* A named scalar result (burst altitude, e-folding time, ...), in SI. */
@@ -49,7 +53,7 @@ typedef struct sl_output_scalar {
     const char *long_name;     /* one line for people */
     const char *units;         /* UDUNITS spelling of the SI unit: "m", "kg", "s", "J", "1" */
     const char *standard_name; /* a name from the CF table, or NULL (never invented) */
-    double value;              /* finite */
+    double value;              /* finite, or NaN: undefined (JSON null, netCDF _FillValue) */
 } sl_output_scalar;
 
 /* One scenario parameter as it was used (after defaults), for provenance. */
@@ -83,6 +87,7 @@ typedef struct sl_output_strat {
     double *layer_bottom_m, *layer_top_m;       /* n_layer */
     double *excess_kg;                          /* n_time * 3 * n_layer */
     double *sink_kg;                            /* n_sink * n_time */
+    double *box_bottom_m, *box_top_m;           /* 3 * n_layer */
 } sl_output_strat;
 
 /* Build OS from model M and result R (which must outlive OS).  SL_ENOMEM. */

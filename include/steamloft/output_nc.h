@@ -12,13 +12,17 @@
  *       h2o_mole_fraction (mole_fraction_of_water_vapor_in_air), buoyancy_frequency_squared,
  *       background_stratospheric_water_mass/_column     the background used
  *   time(time) days since the event, calendar standard; lat(lat), lat_bnds(lat,nv) regions;
- *       region_tropopause_altitude(lat)
+ *       region_tropopause_altitude(lat); box_bottom, box_top (lat,<z>) each region's boxes
  *   excess_water_mass(time,lat,<z>), mole_fraction_anomaly(time,<z>), global_excess_water_mass,
  *       column_anomaly, local_column_anomaly, percent_of_background, forcing_indicator,
  *       removed_<sink> (time)                        the box-model series; <z> is altitude when the
  *                                                    box layers equal the bands, else layer(layer)
  *                                                    with layer_bnds
  *   one scalar variable per sl_output_scalar (e-folding time, burst altitude, ...)
+ *   Undefined results are _FillValue (CF 2.5.1), never 0: excess_water_mass where a
+ *   region has no box in a layer (below its tropopause), and a scalar the run cannot
+ *   give (an e-folding time when nothing entered the stratosphere: null in the JSON,
+ *   and no result_<name> attribute)
  *   global attributes: Conventions, title, source, history (UTC time and the command line),
  *       references (the published methods used), comment (the caution, the validity note),
  *       tool_version, git_hash, event_time, scenario_file, validity_warning,
@@ -39,6 +43,7 @@
 #define STEAMLOFT_OUTPUT_NC_H
 
 #include "steamloft/err.h"
+#include "steamloft/outfile.h"
 #include "steamloft/output.h"
 
 typedef enum sl_nc_format {
@@ -69,6 +74,23 @@ int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_op
  * VARIABLE: nc_strerror"; NC_NOERR gives SL_OK. */
 int sl_output_nc_check(int status, int ncid, int varid, const char *path, const char *what, const char *name,
                        sl_err *e);
+/* One netCDF file of the output layer, built in memory and put on disk with
+ * write(2) (so a full disk is an ordinary write error, exit 74 with its true
+ * cause), staged and renamed into place: sl_output_nc_create opens F->ncid
+ * with netCDF-C creation mode CMODE (0: netCDF-3 classic); the caller
+ * defines and writes through F->ncid, then sl_output_nc_finish(F, RC, E)
+ * with its status RC: on SL_OK it closes, writes and renames, else (or when
+ * that fails) it discards everything; it returns the final status and frees
+ * F's resources.  On an error of sl_output_nc_create nothing is left. */
+typedef struct sl_nc_file {
+    int ncid;
+    const char *path;              /* final path, for messages */
+    char base[SL_OUTSET_NAME_LEN]; /* its file name */
+    sl_outset *set;
+} sl_nc_file;
+int sl_output_nc_create(sl_nc_file *f, const char *path, int cmode, int force, sl_err *e);
+int sl_output_nc_finish(sl_nc_file *f, int rc, sl_err *e);
+
 /* A text attribute (NC_CHAR, so netCDF-3 readers work), checked as above;
  * TEXT NULL writes nothing. */
 int sl_output_nc_att_text(int ncid, int varid, const char *path, const char *name, const char *text, sl_err *e);

@@ -28,6 +28,46 @@ tot = d["strat_remaining_kg"] + sum(d["strat_sinks_kg"].values())
 assert abs(tot - d["strat_injected_kg"]) <= 1e-5 * d["strat_injected_kg"], (tot, d["strat_injected_kg"])
 ' "$SL_TMP/out"; then sl_ok "JSON keys, Hunga ranges and budget"; else sl_fail "JSON keys, Hunga ranges and budget"; fi
 
+# The same Hunga-like event in the injection-table format `run --injection-table`
+# writes (one row per band and species; 15 January 2022 04:15 UTC, 20.55 S
+# 175.38 W; Millan et al. 2022): the same published ranges.
+H="$SL_TMP/hunga_table.csv"
+{ echo "# a Hunga-like event, invented rows in the table's layout"
+  echo "event_time_utc,latitude_deg,longitude_deg,bottom_m,top_m,bottom_hPa,top_hPa,species,mass_kg,duration_s,radius_m"
+  for b in 22000 23000 24000 25000 26000; do
+    echo "2022-01-15T04:15:00Z,-20.55,184.62,$b,$((b + 1000)),40,35,water_vapour,2.0e10,21600,250000"
+    echo "2022-01-15T04:15:00Z,-20.55,184.62,$b,$((b + 1000)),40,35,ice,9.2e9,21600,250000"
+  done; } > "$H"
+sl_expect_exit 0 "decay INJECTION-TABLE.csv" "$SL_BIN" decay --json "$H"
+if /usr/bin/python3 -c '
+import json, sys
+d = json.load(open(sys.argv[1]))
+assert abs(d["strat_injected_kg"] - 1.46e11) <= 1e-9 * 1.46e11, d["strat_injected_kg"]  # species summed per band
+assert 2.5 <= d["efolding_years"] <= 43 / 12, d["efolding_years"]
+assert 8.9 <= d["percent_of_background"] <= 13, d["percent_of_background"]
+' "$SL_TMP/out"; then sl_ok "injection table: 146 Tg, Hunga e-folding and percent"; else sl_fail "injection table: Hunga ranges"; fi
+# The table's event is one event: a row with another latitude, an unknown
+# species, a date that is not ISO 8601, a header that is not the table's.
+sed '5s/-20.55/-20.5/' "$H" > "$SL_TMP/t1.csv"
+sl_expect_exit 65 "table: a row with another latitude" "$SL_BIN" decay "$SL_TMP/t1.csv"
+sl_expect_grep "$SL_TMP/err" "t1.csv:5: column 2 (latitude_deg): '-20.5' differs from the first row" "file, line and column named"
+sed '4s/,ice,/,snow,/' "$H" > "$SL_TMP/t2.csv"
+sl_expect_exit 65 "table: unknown species" "$SL_BIN" decay "$SL_TMP/t2.csv"
+sl_expect_grep "$SL_TMP/err" "t2.csv:4: column 8 (species): 'snow' is not a species (valid: water_vapour, ice)" "species and valid form named"
+sed '3s/2022-01-15T04:15:00Z/15.1.2022/' "$H" > "$SL_TMP/t3.csv"
+sl_expect_exit 65 "table: a date that is not ISO 8601" "$SL_BIN" decay "$SL_TMP/t3.csv"
+sl_expect_grep "$SL_TMP/err" "t3.csv:3: column 1 (event_time_utc): '15.1.2022' is not an ISO 8601" "date form named"
+sed '3s/,2.0e10,/,0x10,/' "$H" > "$SL_TMP/t4.csv"
+sl_expect_exit 65 "table: a hexadecimal mass" "$SL_BIN" decay "$SL_TMP/t4.csv"
+sl_expect_grep "$SL_TMP/err" "t4.csv:3: column 9 (mass_kg): '0x10' is not a decimal number" "decimal-only numbers"
+sed '2s/,radius_m/,radius_km/' "$H" > "$SL_TMP/t5.csv"
+sl_expect_exit 65 "table: a header that differs" "$SL_BIN" decay "$SL_TMP/t5.csv"
+sl_expect_grep "$SL_TMP/err" "t5.csv:2: column 11 of an injection table header is 'radius_km'" "header column named"
+# BOM and CRLF line ends (include/steamloft/infile.h rules) read the same.
+printf '\357\273\277' > "$SL_TMP/t6.csv"; sed 's/$/\r/' "$H" >> "$SL_TMP/t6.csv"
+sl_expect_exit 0 "table with BOM and CRLF" "$SL_BIN" decay --json "$SL_TMP/t6.csv"
+sl_expect_grep "$SL_TMP/out" '"strat_injected_kg": 1.46e+11' "BOM/CRLF table: 146 Tg"
+
 # A profile file in the injection CSV format (Tg and km units).
 cat > "$SL_TMP/prof.csv" <<'CSV'
 # latitude_deg = -20

@@ -63,6 +63,21 @@ sl_expect_exit 0 "decay of a July run's file alone" "$SL_BIN" decay "$SL_TMP/a.n
 if same "$SL_TMP/run_a.json" "$SL_TMP/out"; then sl_ok "decay reads the month back from the run file"
 else sl_fail "decay on the run file alone differs from the run"; fi
 
+# 3c. The injection table `run --injection-table` writes is a profile decay
+# reads: the run's box model again, with a date (July run) and without one.
+S="$EX/ocean-stony-300m.ini"
+sl_expect_exit 0 "run --injection-table (nominal time, July)" "$SL_BIN" run "$S" --json --injection-table "$SL_TMP/a_table.csv"
+cp "$SL_TMP/out" "$SL_TMP/run_at.json"
+sl_expect_exit 0 "decay of the run's injection table" "$SL_BIN" decay "$SL_TMP/a_table.csv" --json
+if same "$SL_TMP/run_at.json" "$SL_TMP/out"; then sl_ok "run --injection-table then decay TABLE: identical box model"
+else sl_fail "decay of the run's injection table differs from the run"; fi
+sl_expect_exit 0 "run --injection-table (a [site] date)" "$SL_BIN" run "$S" --json --set site.date=2022-07-15T04:15:00Z \
+  --injection-table "$SL_TMP/d_table.csv"
+cp "$SL_TMP/out" "$SL_TMP/run_dt.json"
+sl_expect_exit 0 "decay of the dated table" "$SL_BIN" decay "$SL_TMP/d_table.csv" --json
+if same "$SL_TMP/run_dt.json" "$SL_TMP/out"; then sl_ok "dated table: decay takes the month from the rows"
+else sl_fail "decay of the dated table differs from the run"; fi
+
 # 4. The comparison can fail: one key changed on one side only.
 sl_expect_exit 0 "decay with another month" "$SL_BIN" decay "$SL_TMP/c.nc" --json --month 1
 if same "$SL_TMP/run_c.json" "$SL_TMP/out" >/dev/null; then sl_fail "a changed month went unnoticed"

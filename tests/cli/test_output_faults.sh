@@ -71,6 +71,8 @@ if [ "$(id -u)" -eq 0 ] && mount -t tmpfs -o size=256k steamloft-test "$M" 2>/de
   for c in "run $E/demo.ini -o $M/out.nc" "run $E/demo.ini --format classic -o $M/out3.nc" \
            "run $E/demo.ini --csv $M/csv" "run $E/demo.ini --plot $M/plots" \
            "decay $E/injection-profile.csv -o $M/d.nc" \
+           "run $E/demo.ini --emission $M/em.nc --grid 18x36" "run $E/demo.ini --zonal $M/z.nc" \
+           "run $E/demo.ini --emission $M/emc.nc --grid 18x36 --emission-convention cesm" \
            "ensemble $E/ensemble-stony.ini -n 8 -o $M/m.csv" "ensemble $E/ensemble-stony.ini -n 8 -o $M/m.nc"; do
     # shellcheck disable=SC2086
     sl_expect_exit 74 "full disk: $c" "$SL_BIN" $c

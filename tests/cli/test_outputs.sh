@@ -216,6 +216,64 @@ ncdump "$D/r2/run.nc" | grep -v ':history = ' >"$SL_TMP/d2"
 if [ -s "$SL_TMP/d1" ] && cmp -s "$SL_TMP/d1" "$SL_TMP/d2"; then sl_ok "run twice: identical ncdump without history"
 else sl_fail "run outputs differ"; diff "$SL_TMP/d1" "$SL_TMP/d2" | head -5 | sed 's/^/#   /'; fi
 
+# Undefined results (issue 13): a region without a box in a layer (the
+# tropics' lowest layer lies below their tropopause) is _FillValue in the
+# netCDF and an empty CSV field, never 0; the defined boxes sum to the global
+# excess.  A layer that never enters the stratosphere leaves the e-folding time
+# and the fractions undefined: JSON null, netCDF _FillValue (no result_
+# attribute), never 0.
+sl_expect_exit 0 "decay of a tropospheric layer" "$SL_BIN" decay --json --inject 1e9 --between 5000 6000 --latitude 0 -o "$D/none.nc"
+cp "$SL_TMP/out" "$SL_TMP/none.json"
+$PY - "$D/run.nc" "$D/runcsv/series_layers.csv" "$D/none.nc" "$SL_TMP/none.json" >"$SL_TMP/fill" 2>&1 <<'PYEOF'
+import csv, json, sys, netCDF4, numpy as np
+bad = 0
+def check(cond, what):
+    global bad
+    if not cond:
+        print("FAIL", what); bad += 1
+with netCDF4.Dataset(sys.argv[1]) as ds:
+    v = ds.variables["excess_water_mass"]
+    raw = np.ma.filled(v[:].astype(float), np.nan)
+    zb = ds.variables[v.dimensions[2] + "_bnds"][:]
+    tp = ds.variables["region_tropopause_altitude"][:]
+    check("_FillValue" in v.ncattrs(), "excess_water_mass has a _FillValue")
+    empty = [(r, l) for r in range(raw.shape[1]) for l in range(raw.shape[2]) if np.isnan(raw[0, r, l])]
+    check(len(empty) > 0, "some region has no box in some layer")
+    for r, l in empty:   # only layers below the region's tropopause have no box
+        check(zb[l][0] < tp[r], "empty cell (%d, %d) starts below its tropopause" % (r, l))
+        check(bool(np.all(np.isnan(raw[:, r, l]))), "cell (%d, %d) empty at every time" % (r, l))
+    # The box bounds per region: _FillValue exactly where the excess is, each
+    # region's lowest box starting at its own tropopause.
+    bb = np.ma.filled(ds.variables["box_bottom"][:].astype(float), np.nan)
+    check(bool(np.array_equal(np.isnan(bb), np.isnan(raw[0]))), "box_bottom is _FillValue where excess_water_mass is")
+    for r in range(raw.shape[1]):
+        lowest = bb[r][~np.isnan(bb[r])][0]
+        check(abs(lowest - tp[r]) <= 1e-9 * tp[r], "region %d: lowest box starts at its tropopause" % r)
+    g = ds.variables["global_excess_water_mass"][:]
+    s = np.nansum(raw, axis=(1, 2))
+    check(bool(np.all(np.abs(s - g) <= 1e-9 * np.maximum(np.abs(g), 1.0))), "defined boxes sum to the global excess")
+rows = [row for row in csv.reader(l for l in open(sys.argv[2]) if not l.startswith("#"))]
+head, rows = rows[0], rows[1:]
+cols = [i for i, h in enumerate(head) if h.startswith("excess_Tg_")]
+for r, l in empty:
+    check(rows[l][cols[r]] == "", "CSV: empty field for the empty cell (%d, %d)" % (r, l))
+check(sum(row[c] == "" for row in rows for c in cols) == len(empty) * raw.shape[0],
+      "CSV: empty fields exactly where the netCDF has _FillValue")
+j = json.load(open(sys.argv[4]))
+with netCDF4.Dataset(sys.argv[3]) as ds:
+    for name, key in (("efolding_time", "efolding_years"), ("mean_residence_time", "mean_residence_years"),
+                      ("fraction_remaining_1y", "fraction_remaining_1y"), ("fraction_remaining_3y", "fraction_remaining_3y")):
+        check(j[key] is None, "JSON %s is null" % key)
+        var = ds.variables[name]
+        check(bool(np.ma.is_masked(var[...])), "%s is _FillValue in the netCDF (not %r)" % (name, var[...]))
+        check("result_" + name not in ds.ncattrs(), "no result_%s attribute for an undefined result" % name)
+sys.exit(bad)
+PYEOF
+if [ $? -eq 0 ]; then sl_ok "undefined results: _FillValue in netCDF, empty in CSV, null in JSON"
+else sl_fail "undefined results"; sed 's/^/#   /' "$SL_TMP/fill" | head; fi
+if $PY "$SRC/tests/tools/nc_check.py" "$D/none.nc" >"$SL_TMP/chk" 2>&1; then sl_ok "decay file with undefined results passes the CF check"
+else sl_fail "CF check of the undefined-result file"; sed 's/^/#   /' "$SL_TMP/chk" | head; fi
+
 # Nothing stray anywhere: no staging directories left behind.
 if [ -z "$(find "$D" -name '.steamloft-stage-*')" ]; then sl_ok "no staging directories left"; else sl_fail "staging left"; fi
 sl_done

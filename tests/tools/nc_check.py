@@ -22,6 +22,7 @@ Prints a "FAIL - ..." line per failed check (with -v also "ok - ..." lines), the
 The CF rules checked (CF-1.11, sections cited; standard names from table
 version 83, https://cfconventions.org/standard-names.html):
   2.6   Conventions contains CF-1.11; history, source, references, comment present
+  2.5.1 data values finite; an undefined value only as the variable's declared _FillValue
   3.1   units present on every data variable; no ppm/ppmv/ppbv where a standard_name is set
   3.3   standard_name only from the CF table copy (tests/cf_standard_names_v83.txt), each
         with units convertible to its canonical units
@@ -119,8 +120,16 @@ def check_cf(ds):
         else:
             ok("long_name" in attrs, "%s: long_name where there is no standard_name" % name)
         data = var[:]
-        ok(not np.ma.is_masked(data) and np.all(np.isfinite(np.asarray(data))),
-           "%s: no missing or non-finite values" % name)
+        if "_FillValue" in attrs:
+            # CF 2.5.1: an undefined value (an empty box, a time that does not
+            # exist) is _FillValue; every other value finite, and never NaN.
+            fill = float(var.getncattr("_FillValue"))
+            raw = np.asarray(np.ma.getdata(data), dtype=float)
+            ok(np.isfinite(fill) and np.all(np.isfinite(raw[raw != fill])),
+               "%s: finite values, undefined ones as _FillValue" % name)
+        else:
+            ok(not np.ma.is_masked(data) and np.all(np.isfinite(np.asarray(data))),
+               "%s: no missing or non-finite values" % name)
         if sn == "air_temperature":
             ok(getattr(var, "units_metadata", "") == "temperature: on_scale",
                "%s: units_metadata temperature: on_scale" % name)
