@@ -160,7 +160,8 @@ atmospheres: build
 	scripts/make-atmospheres.sh $(BIN) atmospheres
 
 sanitize: ensure-test-deps
-	@$(MAKE) --no-print-directory BUILD=build-sanitize OPENMP=$(OPENMP) \
+	@LSAN_OPTIONS=suppressions=$(CURDIR)/tests/lsan.supp:print_suppressions=0 \
+	  $(MAKE) --no-print-directory BUILD=build-sanitize OPENMP=$(OPENMP) \
 	  CFLAGS="-O1 -g -fsanitize=address,undefined -fno-sanitize-recover=undefined -fno-omit-frame-pointer" \
 	  LDFLAGS="-fsanitize=address,undefined" check-run
 
