@@ -829,8 +829,12 @@ int sl_ens_plot_write(const sl_ens_sink *s, const char *dir, int quiet, sl_err *
             f[q][t] = isfinite(v) ? fmin(v, 1.0) : 0.0;
         }
     }
-    const char *title = strrchr(s->rq->scenario, '/');
-    title = title ? title + 1 : s->rq->scenario;
+    /* The plot's title is the scenario's name, as on a run's plots. */
+    char title[SL_SCENARIO_RAW_LEN];
+    if (c->base != NULL)
+        sl_scenario_name(c->base, title, sizeof title);
+    else
+        snprintf(title, sizeof title, "%s", s->rq->scenario);
     sl_plot_ensemble_view v = {title, s->n_ok, nb, c->band_bottom_m, c->band_top_m, w[0], w[1], w[2],
                                c->tropopause_m, nt, c->time_s, f[0], f[1], f[2]};
     sl_plot_options po = {s->g->force, 1, NULL};
