@@ -154,7 +154,8 @@ struct sl_plume_work {
     double z_top_m;            /* stop: top of the atmosphere profile */
     double z_bottom_m;         /* bottom of the atmosphere profile */
     int rhs_failed;            /* the atmosphere could not be evaluated */
-    double T_guess;            /* last equilibrium temperature: Newton's first guess */
+    double T_guess;            /* last equilibrium temperature: the root finder's first guess */
+    double es_triple_Pa;       /* saturation pressure at the triple point (sl_water_esat_Pa) */
     sl_err rhs_err;
 };
 
@@ -240,68 +241,117 @@ static double sat_ratio(double T_K, double p_Pa)
 }
 
 /* Enthalpy (J) of Ma, Mw at T with vapour at saturation (capped at Mw), the
- * condensate all liquid (ICE = 0) or all ice (ICE = 1); its derivative in T
- * into *DHDT (with the Clausius-Clapeyron slope of e_s: only Newton's step
- * uses it, the bracket keeps the root exact; over ice the slope is exact). */
+ * condensate all liquid (ICE = 0) or all ice (ICE = 1).  With D non-NULL,
+ * for the root finder: D[0], D[1] the first and second derivatives of the
+ * enthalpy in T (J/K, J/K^2), D[2], D[3] those of the vapour mass (kg/K,
+ * kg/K^2), all analytic from sl_water_esat_slopes_Pa (the same saturation
+ * law, its derivatives exact).  Below saturation (vapour = Mw) the vapour's
+ * derivatives are zero. */
 static double h_sat(const sl_plume_work *w, double T_K, double Ma, double Mw, double p_Pa, int ice, double *vap,
-                    double *dhdt)
+                    double *D)
 {
     double dT = T_K - T_TRIPLE;
     double cc = ice ? CPI : CPL;
-    double es = 0.0, rs;
+    double es = 0.0, g1 = 0.0, g2 = 0.0, rs;
     if (T_K >= T_NO_CONDENSATE_K)
         rs = INFINITY;
     else if (T_K <= T_FROZEN_SOLID_K)
         rs = 0.0;
     else {
-        es = sl_water_esat_Pa(T_K);
+        es = D ? sl_water_esat_slopes_Pa(T_K, &g1, &g2) : sl_water_esat_Pa(T_K);
         rs = es < p_Pa ? EPS_RV * es / (p_Pa - es) : INFINITY;
     }
-    double mv = fmin(Mw, Ma * rs);
+    double mvs = Ma * rs;
+    double mv = mvs < Mw ? mvs : Mw; /* fmin(Mw, Ma rs): Ma rs is never NaN here */
     double mc = Mw - mv;
     if (vap)
         *vap = mv;
     double latent = w->lv0_J_kg + (ice ? w->lf0_J_kg : 0.0);
-    if (dhdt) {
-        double d = Ma * CPA + mv * CPV + mc * cc;
+    if (D) {
+        D[0] = Ma * CPA + mv * CPV + mc * cc;
+        D[1] = D[2] = D[3] = 0.0;
         if (mv < Mw && es > 0.0) {
+            /* rs = eps es/(p - es): rs' = eps p es'/(p - es)^2,
+             * rs'' = eps p (es''/(p - es)^2 + 2 es'^2/(p - es)^3),
+             * es' = es g1, es'' = es (g1^2 + g2). */
             double lat_T = latent + (CPV - cc) * dT;
-            /* de_s/dT: exact for Murphy & Koop's ice equation (their eq. 7),
-             * Clausius-Clapeyron over liquid. */
-            double des = T_K < T_TRIPLE ? es * (5723.265 / (T_K * T_K) + 3.53068 / T_K - 0.00728332)
-                                        : es * lat_T / (RV * T_K * T_K);
-            double drs = EPS_RV * p_Pa / ((p_Pa - es) * (p_Pa - es)) * des;
-            d += Ma * drs * lat_T;
+            double q = 1.0 / (p_Pa - es);
+            double des = es * g1, d2es = es * (g1 * g1 + g2);
+            double drs = EPS_RV * p_Pa * q * q * des;
+            double d2rs = EPS_RV * p_Pa * q * q * (d2es + 2.0 * des * des * q);
+            D[2] = Ma * drs;
+            D[3] = Ma * d2rs;
+            D[0] += D[2] * lat_T;
+            D[1] = D[3] * lat_T + 2.0 * D[2] * (CPV - cc);
         }
-        *dhdt = d;
     }
     return (Ma * CPA + mv * CPV + mc * cc) * dT + mv * w->lv0_J_kg - (ice ? mc * w->lf0_J_kg : 0.0);
 }
 
-/* Root of h_sat(T) = H on [lo, hi] (h(lo) <= H <= h(hi) when hi is finite):
- * Newton's method from GUESS, kept inside the shrinking bracket, bisection
- * when a step leaves it; converged to 1e-12 relative in T. */
+/* h_sat at the triple point with liquid condensate (the saturation pressure
+ * there kept in the workspace): the same numbers as h_sat(T_TRIPLE, ice 0). */
+static double h_triple(const sl_plume_work *w, double Ma, double Mw, double p_Pa, double *vap)
+{
+    double es = w->es_triple_Pa;
+    double rs = es < p_Pa ? EPS_RV * es / (p_Pa - es) : INFINITY;
+    double mvs = Ma * rs;
+    double mv = mvs < Mw ? mvs : Mw;
+    *vap = mv;
+    return mv * w->lv0_J_kg;
+}
+
+/* Root of h_sat(T) = H on [lo, hi] (h(lo) <= H <= h(hi)); FLO, FHI are
+ * h - H at the ends when known (NaN if not).  Halley's method (the exact
+ * first and second derivatives) from GUESS, kept inside the shrinking
+ * bracket; a step that leaves it is replaced by the secant through the
+ * bracket's ends when both values are known (the step from the unsaturated
+ * side, where h is linear, overshoots), else by bisection.  Converged when
+ * the step is below 1e-12 T, or earlier when the step's own error estimate
+ * (cubic convergence: about (h''/2h')^2 |dT|^3, taken four times) is below
+ * 1e-14 T and the vapour moves by less than 1e-5 of itself over the step;
+ * the vapour is then carried to the root by its Taylor series to second
+ * order (error below 1e-15 of itself). */
 static double solve_T(const sl_plume_work *w, double H, double Ma, double Mw, double p, int ice, double lo, double hi,
-                      double guess, double *vap)
+                      double flo, double fhi, double guess, double *vap)
 {
     double x = (guess > lo && guess < hi) ? guess : (isfinite(hi) ? 0.5 * (lo + hi) : lo + 1.0);
     for (int it = 0; it < 100; it++) {
-        double d;
-        double f = h_sat(w, x, Ma, Mw, p, ice, vap, &d) - H;
+        double D[4], mv;
+        double f = h_sat(w, x, Ma, Mw, p, ice, &mv, D) - H;
+        *vap = mv;
         if (f == 0.0)
             return x;
-        if (f < 0.0)
+        if (f < 0.0) {
             lo = x;
-        else
+            flo = f;
+        } else {
             hi = x;
-        double xn = d > 0.0 ? x - f / d : NAN;
-        if (fabs(xn - x) <= 1.0e-12 * x) {
-            /* Converged: the vapour of the last evaluation is that of XN to
-             * well below the step (dMv/dT * 1e-12 T). */
-            return xn;
+            fhi = f;
         }
-        if (!(xn > lo && xn < hi))
-            xn = isfinite(hi) ? 0.5 * (lo + hi) : 2.0 * x - lo + 1.0;
+        double xn = NAN;
+        if (D[0] > 0.0) {
+            double dxn = f / D[0];              /* Newton's step */
+            double t = 0.5 * dxn * D[1] / D[0]; /* Halley's correction */
+            double dx = fabs(t) < 0.5 ? dxn / (1.0 - t) : dxn;
+            double c = 0.5 * D[1] / D[0];
+            double adx = fabs(dx);
+            if (adx <= 1.0e-12 * x ||
+                (mv < Mw && fabs(D[2]) * adx <= 1.0e-5 * mv && 4.0 * c * c * adx * adx * adx <= 1.0e-14 * x)) {
+                double v = mv - D[2] * dx + 0.5 * D[3] * dx * dx;
+                *vap = v < Mw ? v : Mw;
+                return x - dx;
+            }
+            xn = x - dx;
+        }
+        if (!(xn > lo && xn < hi)) {
+            double wdt = hi - lo;
+            xn = 0.5 * (lo + hi);
+            if (flo < 0.0 && fhi > 0.0) {
+                double xs = lo - flo * wdt / (fhi - flo);
+                if (xs > lo + 1.0e-3 * wdt && xs < hi - 1.0e-3 * wdt)
+                    xn = xs;
+            }
+        }
         x = xn;
     }
     h_sat(w, x, Ma, Mw, p, ice, vap, NULL);
@@ -317,32 +367,43 @@ static void equilibrate(const sl_plume_work *w, double H, double Ma, double Mw, 
     *ml = *mi = 0.0;
     /* All vapour: H linear in T. */
     double T1 = T_TRIPLE + (H - Mw * w->lv0_J_kg) / (Ma * CPA + Mw * CPV);
-    if (Mw <= 0.0 || Mw <= Ma * sat_ratio(T1, p)) {
+    double rs1 = Mw > 0.0 ? sat_ratio(T1, p) : 0.0;
+    if (Mw <= 0.0 || Mw <= Ma * rs1) {
         *T = T1;
         *mv = Mw;
         return;
     }
-    double vap_t;
-    double hl = h_sat(w, T_TRIPLE, Ma, Mw, p, 0, &vap_t, NULL);
-    double mc_t = Mw - vap_t;
+    double vap_t = 0.0, hl = 0.0;
+    if (T1 < T_TRIPLE)
+        hl = h_triple(w, Ma, Mw, p, &vap_t);
     if (T1 >= T_TRIPLE || H >= hl) {
-        /* Liquid condensate, T above the triple point: the root lies above T1
-         * (condensation heats) and below the all-vapour temperature for the
-         * enthalpy H (at most T1 plus the heat of condensing all the water). */
+        /* Liquid condensate, T above the triple point: the root lies above
+         * lo = max(T1, Tt) (condensation heats) and below
+         * hi = T1 + Mw (L_v0 + L_f0)/(Ma c_pa) + 1 K, capped at 640 K.  There
+         * h_sat(hi) > H always: with T >= lo, h_sat(T) - H = Ma c_pa (T - T1)
+         * + mv c_pv (T - T1) + mc (c_l (T - Tt) - c_pv (T1 - Tt) - L_v0)
+         * >= Ma c_pa (T - T1) - Mw L_v0 (c_l > c_pv), which is at least
+         * Mw L_f0 + Ma c_pa at hi; at the 640 K cap (no condensate) h_sat is
+         * the all-vapour enthalpy, above H since T1 < 640 K.  So the bracket
+         * needs no check. */
         double lo = fmax(T1, T_TRIPLE);
         double hi = fmin(T1 + Mw * (w->lv0_J_kg + w->lf0_J_kg) / (Ma * CPA) + 1.0, T_NO_CONDENSATE_K);
-        while (hi < T_NO_CONDENSATE_K && h_sat(w, hi, Ma, Mw, p, 0, NULL, NULL) < H)
-            hi = fmin(2.0 * hi - lo, T_NO_CONDENSATE_K);
+        /* h_sat - H at lo: at T1, (Ma rs(T1) - Mw) times the latent heat
+         * there (the all-vapour enthalpy at T1 is H); at Tt, hl - H. */
+        double flo = T1 >= T_TRIPLE ? (Ma * rs1 - Mw) * (w->lv0_J_kg + (CPV - CPL) * (T1 - T_TRIPLE)) : hl - H;
         double v;
-        *T = solve_T(w, H, Ma, Mw, p, 0, lo, hi, *T, &v);
+        *T = solve_T(w, H, Ma, Mw, p, 0, lo, hi, flo, NAN, *T, &v);
         *mv = v;
         *ml = Mw - v;
         return;
     }
+    double mc_t = Mw - vap_t;
     double hi_ice = hl - mc_t * w->lf0_J_kg;
     if (H <= hi_ice) {
+        double lo = fmax(T1, 0.5 * T_FROZEN_SOLID_K);
+        double flo = T1 >= lo ? (Ma * rs1 - Mw) * (w->lv0_J_kg + w->lf0_J_kg + (CPV - CPI) * (T1 - T_TRIPLE)) : NAN;
         double v;
-        *T = solve_T(w, H, Ma, Mw, p, 1, fmax(T1, 0.5 * T_FROZEN_SOLID_K), T_TRIPLE, *T, &v);
+        *T = solve_T(w, H, Ma, Mw, p, 1, lo, T_TRIPLE, flo, hi_ice - H, *T, &v);
         *mv = v;
         *mi = Mw - v;
         return;
@@ -497,6 +558,7 @@ int sl_plume_init(sl_plume *pl, const sl_plume_params *par, sl_err *e)
     }
     w->lv0_J_kg = sl_water_latent_vaporization_J_kg(T_TRIPLE);
     w->lf0_J_kg = sl_water_latent_sublimation_J_kg(T_TRIPLE) - w->lv0_J_kg;
+    w->es_triple_Pa = sl_water_esat_Pa(T_TRIPLE);
     if (!(w->lv0_J_kg > 2.0e6 && w->lv0_J_kg < 3.0e6 && w->lf0_J_kg > 2.0e5 && w->lf0_J_kg < 4.0e5)) {
         sl_plume_free(pl);
         SL_FAIL_RETURN(e, SL_EINTERNAL, "plume: latent heats at the triple point out of range (L_v %g, L_f %g J/kg)",
