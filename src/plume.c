@@ -306,11 +306,14 @@ static double h_triple(const sl_plume_work *w, double Ma, double Mw, double p_Pa
  * bracket; a step that leaves it is replaced by the secant through the
  * bracket's ends when both values are known (the step from the unsaturated
  * side, where h is linear, overshoots), else by bisection.  Converged when
- * the step is below 1e-12 T, or earlier when the step's own error estimate
- * (cubic convergence: about (h''/2h')^2 |dT|^3, taken four times) is below
- * 1e-14 T and the vapour moves by less than 1e-5 of itself over the step;
- * the vapour is then carried to the root by its Taylor series to second
- * order (error below 1e-15 of itself). */
+ * the step is below 1e-12 T, or earlier when the vapour (saturated, above
+ * 120 K) moves by less than 1e-5 of itself over the step and the step's own
+ * error estimate is below 1e-14 T: Halley's error is about
+ * (c^2 - h3/6h') |dT|^3, c = h''/2h', h3 the third derivative, here
+ * ~ h'' mv''/mv' (the exponential saturation law), taken four times.  The
+ * vapour is then carried to the root by its Taylor series to second order
+ * (error about (dmv/mv)^3/6 < 1e-15 of itself).  Measured on the bench
+ * ensemble: within 1e-15 in T of a solve iterated to the last step. */
 static double solve_T(const sl_plume_work *w, double H, double Ma, double Mw, double p, int ice, double lo, double hi,
                       double flo, double fhi, double guess, double *vap)
 {
@@ -336,7 +339,8 @@ static double solve_T(const sl_plume_work *w, double H, double Ma, double Mw, do
             double c = 0.5 * D[1] / D[0];
             double adx = fabs(dx);
             if (adx <= 1.0e-12 * x ||
-                (mv < Mw && fabs(D[2]) * adx <= 1.0e-5 * mv && 4.0 * c * c * adx * adx * adx <= 1.0e-14 * x)) {
+                (mv > 0.0 && mv < Mw && D[2] > 0.0 && D[2] * adx <= 1.0e-5 * mv &&
+                 4.0 * (c * c + fabs(c * D[3] / D[2]) / 3.0) * adx * adx * adx <= 1.0e-14 * x)) {
                 double v = mv - D[2] * dx + 0.5 * D[3] * dx * dx;
                 *vap = v < Mw ? v : Mw;
                 return x - dx;
