@@ -142,6 +142,15 @@ enum { IZ, IMA, IMW, IPI, IH, IEIN, IEOUT, IWIN, IWOUT, IAIN, NY };
  * needs.  The rise depends on the heat, hardly on this temperature. */
 #define T_FIREBALL_CAP_K 3000.0
 
+/* The last saturated temperature solve: its inputs, root and the enthalpy's
+ * partial derivatives there, so that the next solve starts from the
+ * first-order prediction T + (dH - h_Ma dMa - h_Mw dMw - h_p dp) / h_T
+ * (one evaluation of the saturation law fewer than a Newton step from T). */
+typedef struct warm_start {
+    int ok, ice;
+    double H, Ma, Mw, p, T, h_T, h_Ma, h_Mw, h_p;
+} warm_start;
+
 struct sl_plume_work {
     sl_ode *ode;               /* the ODE-with-events layer (ode.h) */
     double y[NY], y_tmp[NY];
@@ -155,6 +164,7 @@ struct sl_plume_work {
     double z_bottom_m;         /* bottom of the atmosphere profile */
     int rhs_failed;            /* the atmosphere could not be evaluated */
     double T_guess;            /* last equilibrium temperature: the root finder's first guess */
+    warm_start warm;           /* the last saturated solve, for the next one's first guess */
     double es_triple_Pa;       /* saturation pressure at the triple point (sl_water_esat_Pa) */
     sl_err rhs_err;
 };
@@ -315,13 +325,15 @@ static double h_triple(const sl_plume_work *w, double Ma, double Mw, double p_Pa
  * (error about (dmv/mv)^3/6 < 1e-15 of itself).  Measured on the bench
  * ensemble: within 1e-15 in T of a solve iterated to the last step. */
 static double solve_T(const sl_plume_work *w, double H, double Ma, double Mw, double p, int ice, double lo, double hi,
-                      double flo, double fhi, double guess, double *vap)
+                      double flo, double fhi, double guess, double *vap, double *dhdT)
 {
+    *dhdT = NAN;
     double x = (guess > lo && guess < hi) ? guess : (isfinite(hi) ? 0.5 * (lo + hi) : lo + 1.0);
     for (int it = 0; it < 100; it++) {
         double D[4], mv;
         double f = h_sat(w, x, Ma, Mw, p, ice, &mv, D) - H;
         *vap = mv;
+        *dhdT = D[0];
         if (f == 0.0)
             return x;
         if (f < 0.0) {
@@ -362,11 +374,46 @@ static double solve_T(const sl_plume_work *w, double H, double Ma, double Mw, do
     return x;
 }
 
+/* First guess of a saturated solve: the prediction from the last one on the
+ * same branch (WS may be NULL), else GUESS. */
+static double predict_T(const warm_start *ws, int ice, double H, double Ma, double Mw, double p, double guess)
+{
+    if (ws == NULL || !ws->ok || ws->ice != ice)
+        return guess;
+    double T = ws->T + (H - ws->H - ws->h_Ma * (Ma - ws->Ma) - ws->h_Mw * (Mw - ws->Mw) - ws->h_p * (p - ws->p)) / ws->h_T;
+    return isfinite(T) ? T : guess;
+}
+
+/* Record a saturated solve's root T, vapour MV and enthalpy slope H_T (of
+ * the root finder's last evaluation) in WS (if not NULL):
+ * h = (Ma c_pa + Mw c_c)(T - Tt) - [ice] Mw L_f0 + mv Lambda(T), mv = Ma r_s(T, p),
+ * Lambda = L_v0 + [ice] L_f0 + (c_pv - c_c)(T - Tt), dr_s/dp = -r_s/(p - e_s). */
+static void keep_warm(const sl_plume_work *w, warm_start *ws, int ice, double H, double Ma, double Mw, double p,
+                      double T, double mv, double h_T)
+{
+    if (ws == NULL)
+        return;
+    double cc = ice ? CPI : CPL, dT = T - T_TRIPLE;
+    double lam = w->lv0_J_kg + (ice ? w->lf0_J_kg : 0.0) + (CPV - cc) * dT;
+    double rs = mv / Ma, es = p * rs / (EPS_RV + rs);
+    ws->ok = mv > 0.0 && mv < Mw && h_T > 0.0 && isfinite(h_T);
+    ws->ice = ice;
+    ws->H = H;
+    ws->Ma = Ma;
+    ws->Mw = Mw;
+    ws->p = p;
+    ws->T = T;
+    ws->h_T = h_T;
+    ws->h_Ma = CPA * dT + rs * lam;
+    ws->h_Mw = cc * dT - (ice ? w->lf0_J_kg : 0.0);
+    ws->h_p = -Ma * lam * rs / (p - es);
+}
+
 /* Equilibrium temperature and phases for enthalpy H, dry air Ma, water Mw at
  * pressure p (saturation adjustment).  *T holds a first guess on entry (the
  * root is found to 1e-12 whatever the guess). */
-static void equilibrate(const sl_plume_work *w, double H, double Ma, double Mw, double p, double *T, double *mv,
-                        double *ml, double *mi)
+static void equilibrate_ws(const sl_plume_work *w, double H, double Ma, double Mw, double p, double *T, double *mv,
+                           double *ml, double *mi, warm_start *ws)
 {
     *ml = *mi = 0.0;
     /* All vapour: H linear in T. */
@@ -395,8 +442,9 @@ static void equilibrate(const sl_plume_work *w, double H, double Ma, double Mw, 
         /* h_sat - H at lo: at T1, (Ma rs(T1) - Mw) times the latent heat
          * there (the all-vapour enthalpy at T1 is H); at Tt, hl - H. */
         double flo = T1 >= T_TRIPLE ? (Ma * rs1 - Mw) * (w->lv0_J_kg + (CPV - CPL) * (T1 - T_TRIPLE)) : hl - H;
-        double v;
-        *T = solve_T(w, H, Ma, Mw, p, 0, lo, hi, flo, NAN, *T, &v);
+        double v, hT;
+        *T = solve_T(w, H, Ma, Mw, p, 0, lo, hi, flo, NAN, predict_T(ws, 0, H, Ma, Mw, p, *T), &v, &hT);
+        keep_warm(w, ws, 0, H, Ma, Mw, p, *T, v, hT);
         *mv = v;
         *ml = Mw - v;
         return;
@@ -406,8 +454,9 @@ static void equilibrate(const sl_plume_work *w, double H, double Ma, double Mw, 
     if (H <= hi_ice) {
         double lo = fmax(T1, 0.5 * T_FROZEN_SOLID_K);
         double flo = T1 >= lo ? (Ma * rs1 - Mw) * (w->lv0_J_kg + w->lf0_J_kg + (CPV - CPI) * (T1 - T_TRIPLE)) : NAN;
-        double v;
-        *T = solve_T(w, H, Ma, Mw, p, 1, lo, T_TRIPLE, flo, hi_ice - H, *T, &v);
+        double v, hT;
+        *T = solve_T(w, H, Ma, Mw, p, 1, lo, T_TRIPLE, flo, hi_ice - H, predict_T(ws, 1, H, Ma, Mw, p, *T), &v, &hT);
+        keep_warm(w, ws, 1, H, Ma, Mw, p, *T, v, hT);
         *mv = v;
         *mi = Mw - v;
         return;
@@ -418,6 +467,13 @@ static void equilibrate(const sl_plume_work *w, double H, double Ma, double Mw, 
     *mv = vap_t;
     *mi = (hl - H) / w->lf0_J_kg;
     *ml = mc_t - *mi;
+}
+
+/* equilibrate_ws without a warm start: *T is the first guess. */
+static void equilibrate(const sl_plume_work *w, double H, double Ma, double Mw, double p, double *T, double *mv,
+                        double *ml, double *mi)
+{
+    equilibrate_ws(w, H, Ma, Mw, p, T, mv, ml, mi, NULL);
 }
 
 /* Ambient moist air: specific humidity and enthalpy per kg. */
@@ -449,7 +505,12 @@ static int diagnose(sl_plume_work *w, const double *s, diag *d)
     }
     d->z_m = z;
     d->T_K = w->T_guess;
-    equilibrate(w, H, Ma, Mw, d->amb.pressure_Pa, &d->T_K, &d->vapor_kg, &d->liquid_kg, &d->ice_kg);
+    /* sl_plume_rise sets the guess to 0 at the start of each rise: no warm
+     * start from another source's rise, so a member's numbers never depend
+     * on the members before it. */
+    if (!(w->T_guess > 0.0))
+        w->warm.ok = 0;
+    equilibrate_ws(w, H, Ma, Mw, d->amb.pressure_Pa, &d->T_K, &d->vapor_kg, &d->liquid_kg, &d->ice_kg, &w->warm);
     w->T_guess = d->T_K;
     if (!(d->T_K > 0.0) || !isfinite(d->T_K))
         return GSL_EDOM;
@@ -516,9 +577,11 @@ static int events(double t, const double *s, double *g, void *params)
     (void)t;
     sl_plume_work *w = params;
     double T_keep = w->T_guess;
+    warm_start warm_keep = w->warm;
     diag d;
     int st = diagnose(w, s, &d);
     w->T_guess = T_keep;
+    w->warm = warm_keep;
     if (st != GSL_SUCCESS)
         return st;
     g[EV_APEX] = d.w_m_s;
