@@ -149,6 +149,7 @@ enum { IZ, IMA, IMW, IPI, IH, IEIN, IEOUT, IWIN, IWOUT, IAIN, NY };
 typedef struct warm_start {
     int ok, ice;
     double H, Ma, Mw, p, T, h_T, h_Ma, h_Mw, h_p;
+    double es_Pa;              /* saturation pressure at T */
 } warm_start;
 
 struct sl_plume_work {
@@ -403,6 +404,7 @@ static void keep_warm(const sl_plume_work *w, warm_start *ws, int ice, double H,
     ws->Mw = Mw;
     ws->p = p;
     ws->T = T;
+    ws->es_Pa = es;
     ws->h_T = h_T;
     ws->h_Ma = CPA * dT + rs * lam;
     ws->h_Mw = cc * dT - (ice ? w->lf0_J_kg : 0.0);
@@ -418,8 +420,14 @@ static void equilibrate_ws(const sl_plume_work *w, double H, double Ma, double M
     *ml = *mi = 0.0;
     /* All vapour: H linear in T. */
     double T1 = T_TRIPLE + (H - Mw * w->lv0_J_kg) / (Ma * CPA + Mw * CPV);
-    double rs1 = Mw > 0.0 ? sat_ratio(T1, p) : 0.0;
-    if (Mw <= 0.0 || Mw <= Ma * rs1) {
+    double rs1 = NAN; /* r_s(T1) when computed */
+    /* Condensate at T1 is certain without the saturation law when the last
+     * saturated solve was at a temperature above T1 and its saturation
+     * pressure, at this pressure, holds less than Mw (r_s grows with T; the
+     * margin covers the 4e-8 step of e_s between ice and liquid at Tt). */
+    int sure = ws && ws->ok && T1 <= ws->T && T1 > T_FROZEN_SOLID_K && ws->es_Pa < p &&
+               Ma * EPS_RV * ws->es_Pa / (p - ws->es_Pa) < Mw * (1.0 - 1.0e-6);
+    if (!sure && (Mw <= 0.0 || Mw <= Ma * (rs1 = sat_ratio(T1, p)))) {
         *T = T1;
         *mv = Mw;
         return;
