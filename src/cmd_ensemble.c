@@ -5,6 +5,7 @@
  * plots (output_ensemble.h). */
 #include "steamloft/cmd.h"
 #include "steamloft/ensemble_chain.h"
+#include "steamloft/sweep_rows.h"
 
 #include <errno.h>
 #include <getopt.h>
@@ -19,7 +20,8 @@ typedef sl_ens_request ens_cli;
 #define MAX_THR SL_ENS_MAX_THR
 #define MAX_VARY SL_ENS_MAX_VARY
 /* At most 1e7 members: the per-member scalars kept for the percentiles then
- * take about 1 GB (and a run that long takes days on a workstation). */
+ * take about 2.5 GB in the column store on disk and 0.5 GB of memory for the
+ * rank statistics (and a run that long takes hours on a workstation). */
 enum { MAX_MEMBERS = 10000000 };
 
 /* 1 when PATH ends in EXT (case-insensitive). */
@@ -36,9 +38,13 @@ static void print_help(const char *cmd)
                "[OPTIONS]\n"
                "Run the whole chain over a grid of scenario values.  KEY is section.key as\n"
                "'steamloft params' lists it; values are in the key's own unit.  The grid is the\n"
-               "product of all --vary lists, the last --vary varying fastest.\n"
+               "product of all --vary lists, the last --vary varying fastest.  A text key takes\n"
+               "a list of its values (--vary site.atmosphere=tropical,subarctic-winter), each\n"
+               "checked before any member runs.  Up to %d points print one row each (the swept\n"
+               "values, regime, energy at the sea, stratospheric water, percent of background,\n"
+               "e-folding, validity; --json: a \"rows\" array); larger grids print statistics.\n"
                "      --vary SPEC         a swept key (repeatable, up to %d)\n",
-               MAX_VARY);
+               (int)SL_SWEEP_MAX_ROWS, MAX_VARY);
     } else {
         printf("Usage: steamloft ensemble SCENARIO [--members N] [--seed S] [--sobol] [OPTIONS]\n"
                "Run the whole chain on N members whose uncertain inputs are the scenario values\n"

@@ -32,11 +32,13 @@
 
 #include <ctype.h>
 #include <errno.h>
+#include <inttypes.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
+#include <unistd.h>
 
 #ifdef _OPENMP
 #include <omp.h>
@@ -199,8 +201,12 @@ void sl_ens_plan_free(sl_ens_plan *p)
 {
     if (p == NULL)
         return;
-    for (size_t i = 0; i < p->n_inputs; i++)
+    for (size_t i = 0; i < p->n_inputs; i++) {
         sl_dist_free(&p->inputs[i].dist);
+        for (size_t k = 0; k < p->inputs[i].n_labels; k++)
+            free(p->inputs[i].labels[k]);
+        free(p->inputs[i].labels);
+    }
     free(p->inputs);
     memset(p, 0, sizeof *p);
 }
@@ -275,6 +281,116 @@ int sl_ens_sample(const sl_ens_plan *p, size_t first, size_t count, double *valu
     if (q)
         gsl_qrng_free(q);
     return rc;
+}
+
+/* ================================================================ the column store */
+
+/* Rows buffered before they are written, one column at a time (each write
+ * STORE_ROWS doubles). */
+enum { STORE_ROWS = 4096 };
+
+static int write_all(int fd, const void *buf, size_t len, off_t off)
+{
+    const char *p = buf;
+    while (len > 0) {
+        ssize_t w = pwrite(fd, p, len, off);
+        if (w < 0 && errno == EINTR)
+            continue;
+        if (w <= 0)
+            return -1;
+        p += w;
+        len -= (size_t)w;
+        off += (off_t)w;
+    }
+    return 0;
+}
+
+static int read_all(int fd, void *buf, size_t len, off_t off)
+{
+    char *p = buf;
+    while (len > 0) {
+        ssize_t w = pread(fd, p, len, off);
+        if (w < 0 && errno == EINTR)
+            continue;
+        if (w <= 0) {
+            if (w == 0)
+                errno = EIO; /* short file */
+            return -1;
+        }
+        p += w;
+        len -= (size_t)w;
+        off += (off_t)w;
+    }
+    return 0;
+}
+
+/* Make the store file in DIR and unlink it at once. */
+static int store_open(sl_ens_result *r, const char *dir, sl_err *e)
+{
+    char path[4096];
+    int w = snprintf(path, sizeof path, "%s/.steamloft-members-XXXXXX", dir);
+    if (w < 0 || (size_t)w >= sizeof path)
+        SL_FAIL_RETURN(e, SL_ECANTCREAT, "%s: directory name too long for the member store", dir);
+    int fd = mkstemp(path);
+    if (fd < 0)
+        SL_FAIL_RETURN(e, SL_ECANTCREAT, "%s: cannot create the member store: %s", dir, strerror(errno));
+    (void)unlink(path);
+    r->on_disk = 1;
+    r->store_fd = fd;
+    r->store_buf = malloc(((size_t)STORE_ROWS * (r->n_inputs + r->n_outputs + 1)) * sizeof *r->store_buf);
+    if (r->store_buf == NULL)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory for the member store");
+    return SL_OK;
+}
+
+static int store_flush(sl_ens_result *r, sl_err *e)
+{
+    size_t nc = r->n_inputs + r->n_outputs, k = r->store_rows;
+    if (!r->on_disk || k == 0)
+        return SL_OK;
+    double *col = r->store_buf + (size_t)STORE_ROWS * nc;
+    for (size_t c = 0; c < nc; c++) {
+        for (size_t q = 0; q < k; q++)
+            col[q] = r->store_buf[q * nc + c];
+        off_t off = (off_t)((c * r->n_members + r->store_first) * sizeof(double));
+        if (write_all(r->store_fd, col, k * sizeof(double), off) != 0)
+            SL_FAIL_RETURN(e, SL_EIO, "writing the member store: %s", strerror(errno));
+    }
+    r->store_first += k;
+    r->store_rows = 0;
+    return SL_OK;
+}
+
+/* Keep member MI's scalars (members come in order). */
+static int store_put(sl_ens_result *r, size_t mi, const double *in, const double *out, sl_err *e)
+{
+    size_t ni = r->n_inputs, no = r->n_outputs;
+    if (!r->on_disk) {
+        memcpy(r->inputs + mi * ni, in, ni * sizeof *in);
+        memcpy(r->outputs + mi * no, out, no * sizeof *out);
+        return SL_OK;
+    }
+    double *row = r->store_buf + r->store_rows * (ni + no);
+    memcpy(row, in, ni * sizeof *in);
+    memcpy(row + ni, out, no * sizeof *out);
+    if (++r->store_rows == STORE_ROWS)
+        return store_flush(r, e);
+    return SL_OK;
+}
+
+int sl_ens_column(const sl_ens_result *r, size_t c, double *buf, sl_err *e)
+{
+    size_t n = r->n_members, ni = r->n_inputs, no = r->n_outputs;
+    if (c >= ni + no)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "column %zu of %zu", c, ni + no);
+    if (r->on_disk) {
+        if (read_all(r->store_fd, buf, n * sizeof *buf, (off_t)(c * n * sizeof *buf)) != 0)
+            SL_FAIL_RETURN(e, SL_EIO, "reading the member store: %s", strerror(errno));
+        return SL_OK;
+    }
+    for (size_t m = 0; m < n; m++)
+        buf[m] = c < ni ? r->inputs[m * ni + c] : r->outputs[m * no + (c - ni)];
+    return SL_OK;
 }
 
 /* ================================================================ the member loop */
@@ -398,6 +514,9 @@ void sl_ens_result_free(sl_ens_result *r)
     free(r->inputs);
     free(r->outputs);
     free(r->status);
+    free(r->store_buf);
+    if (r->on_disk)
+        (void)close(r->store_fd);
     memset(r, 0, sizeof *r);
 }
 
@@ -416,6 +535,7 @@ typedef struct run_mem {
     double *gin, *gout; /* root: gathered block */
     int *gst;
     char *greason;
+    char *gtext;        /* root: the block's formatted rows (format callback) */
     int *cnt, *displ;   /* MPI */
 } run_mem;
 
@@ -448,6 +568,7 @@ static void run_mem_free(run_mem *rm, const sl_ens_model *m)
         free(rm->gst);
     if (rm->greason != rm->lreason)
         free(rm->greason);
+    free(rm->gtext);
     free(rm->cnt);
     free(rm->displ);
     memset(rm, 0, sizeof *rm);
@@ -461,6 +582,18 @@ static size_t rank_share(size_t first, size_t count, int r, int size, size_t *i0
     size_t s = (size_t)size;
     *i0 = ((size_t)r + s - first % s) % s;
     return count > *i0 ? (count - *i0 + s - 1) / s : 0;
+}
+
+/* Where member FIRST + I of a block of COUNT lies in the gathered block
+ * (rank-major: rank k's members, in member order, after those of ranks
+ * below k). */
+static size_t gathered_slot(size_t first, size_t count, size_t i, int size)
+{
+    size_t k = (first + i) % (size_t)size, ki0, off = 0;
+    for (size_t q = 0; q < k; q++)
+        off += rank_share(first, count, (int)q, size, &ki0);
+    rank_share(first, count, (int)k, size, &ki0);
+    return off + (i - ki0) / (size_t)size;
 }
 
 /* Run one member into its slot. */
@@ -592,17 +725,30 @@ int sl_ens_run(const sl_ens_plan *p, const sl_ens_model *m, const sl_ens_run_opt
         if (!rm.gin || !rm.gout || !rm.gst || !rm.greason || !rm.cnt || !rm.displ)
             SETUP_FAIL(SL_ENOMEM, "out of memory for the gathered block");
     }
+    if (rank == 0 && o && o->format) {
+        rm.gtext = malloc(B * (o->format_cap + 1));
+        if (!rm.gtext)
+            SETUP_FAIL(SL_ENOMEM, "out of memory for the text of a block");
+    }
     if (rank == 0) {
         if (n > (size_t)-1 / sizeof(double) / (ni + no + 1))
             SETUP_FAIL(SL_ENOMEM, "%zu members are too many for memory", n);
-        r->inputs = malloc((n * ni + 1) * sizeof *r->inputs);
-        r->outputs = malloc((n * no + 1) * sizeof *r->outputs);
-        r->status = malloc(n * sizeof *r->status);
-        if (!r->inputs || !r->outputs || !r->status)
-            SETUP_FAIL(SL_ENOMEM, "out of memory keeping the scalars of %zu members", n);
         r->n_members = n;
         r->n_inputs = ni;
         r->n_outputs = no;
+        r->status = malloc(n * sizeof *r->status);
+        if (!r->status)
+            SETUP_FAIL(SL_ENOMEM, "out of memory keeping the status of %zu members", n);
+        if (o && o->store_dir) {
+            rc = store_open(r, o->store_dir, e);
+            if (rc != SL_OK)
+                goto setup_sync;
+        } else {
+            r->inputs = malloc((n * ni + 1) * sizeof *r->inputs);
+            r->outputs = malloc((n * no + 1) * sizeof *r->outputs);
+            if (!r->inputs || !r->outputs)
+                SETUP_FAIL(SL_ENOMEM, "out of memory keeping the scalars of %zu members", n);
+        }
     }
     r->mpi_ranks = size;
     r->threads = nt;
@@ -682,22 +828,28 @@ setup_sync:
         }
 #endif
         int go_on = 1;
+        if (rank == 0 && rm.gtext) {
+            /* The rows' text, each thread its own members and slots. */
+            const sl_ens_run_opts *oo = o;
+#pragma omp parallel for schedule(static) num_threads(nt) default(none) \
+    shared(oo, rmp, first, count, size, ni, nw)
+            for (size_t i = 0; i < count; i++) {
+                size_t g = gathered_slot(first, count, i, size);
+                size_t cap = oo->format_cap + 1;
+                oo->format(oo->sink, first + i, rmp->gin + g * ni, rmp->gout + g * nw, rmp->gst[g],
+                           rmp->greason + g * SL_ENS_REASON_LEN, rmp->gtext + i * cap, cap);
+            }
+        }
         if (rank == 0) {
             /* Serial, in member order: keep scalars, stream rows. */
             for (size_t i = 0; i < count && rc == SL_OK; i++) {
-                size_t k = (first + i) % (size_t)size, ki0;
-                size_t off = 0;
-                for (size_t q = 0; q < k; q++)
-                    off += rank_share(first, count, (int)q, size, &ki0);
-                rank_share(first, count, (int)k, size, &ki0);
-                size_t g = off + (i - ki0) / (size_t)size;
+                size_t g = gathered_slot(first, count, i, size);
                 const double *in = rm.gin + g * ni;
                 const double *out = rm.gout + g * nw;
                 int st = rm.gst[g];
                 const char *reason = rm.greason + g * SL_ENS_REASON_LEN;
                 size_t mi = first + i;
-                memcpy(r->inputs + mi * ni, in, ni * sizeof *in);
-                memcpy(r->outputs + mi * no, out, no * sizeof *out);
+                rc = store_put(r, mi, in, out, e);
                 r->status[mi] = st;
                 if (st != SL_OK) {
                     if (r->n_failed == 0) {
@@ -706,8 +858,9 @@ setup_sync:
                     }
                     r->n_failed++;
                 }
-                if (o && o->row)
-                    rc = o->row(o->sink, mi, in, out, st, reason, e);
+                if (rc == SL_OK && o && o->row)
+                    rc = o->row(o->sink, mi, in, out, st, reason,
+                                rm.gtext ? rm.gtext + i * (o->format_cap + 1) : NULL, e);
             }
             go_on = rc == SL_OK;
             sl_ens_progress_update(&pg, first + count);
@@ -723,6 +876,8 @@ setup_sync:
         }
     }
     sl_ens_progress_end(&pg);
+    if (rank == 0 && (rc = store_flush(r, e)) != SL_OK)
+        goto done;
     r->wall_s = now_s() - t0;
     if (rank != 0)
         r->n_members = 0;
@@ -738,14 +893,26 @@ done:
 
 /* ================================================================ statistics */
 
-/* Copy output j of the successful members into buf (member order). */
-static size_t gather_ok(const sl_ens_result *r, size_t j, double *buf)
+/* A column of N doubles (at least one element). */
+static double *column_alloc(size_t n, sl_err *e)
 {
+    double *b = malloc((n + 1) * sizeof *b);
+    if (b == NULL)
+        sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "out of memory for a column of %zu members", n);
+    return b;
+}
+
+/* BUF = output j of the successful members whose value is finite, in member
+ * order; returns their number. */
+static int gather_ok(const sl_ens_result *r, size_t j, double *buf, size_t *n_ok, sl_err *e)
+{
+    SL_TRY_RETURN(e, sl_ens_column(r, r->n_inputs + j, buf, e));
     size_t k = 0;
     for (size_t m = 0; m < r->n_members; m++)
-        if (r->status[m] == SL_OK && isfinite(r->outputs[m * r->n_outputs + j]))
-            buf[k++] = r->outputs[m * r->n_outputs + j];
-    return k;
+        if (r->status[m] == SL_OK && isfinite(buf[m]))
+            buf[k++] = buf[m];
+    *n_ok = k;
+    return SL_OK;
 }
 
 int sl_ens_percentiles(const sl_ens_result *r, size_t j, const double *pct, size_t np,
@@ -754,36 +921,43 @@ int sl_ens_percentiles(const sl_ens_result *r, size_t j, const double *pct, size
     for (size_t k = 0; k < np; k++)
         if (!(pct[k] >= 0 && pct[k] <= 100))
             SL_FAIL_RETURN(e, SL_EUSAGE, "percentile %g is outside 0..100", pct[k]);
-    double *buf = malloc((r->n_members + 1) * sizeof *buf);
+    double *buf = column_alloc(r->n_members, e);
     if (buf == NULL)
-        SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory sorting %zu members", r->n_members);
-    size_t n = gather_ok(r, j, buf);
-    gsl_sort(buf, 1, n);
-    for (size_t k = 0; k < np; k++)
-        vals[k] = n ? gsl_stats_quantile_from_sorted_data(buf, 1, n, pct[k] / 100.0) : NAN;
+        return SL_ENOMEM;
+    size_t n = 0;
+    int rc = gather_ok(r, j, buf, &n, e);
+    if (rc == SL_OK) {
+        gsl_sort(buf, 1, n);
+        for (size_t k = 0; k < np; k++)
+            vals[k] = n ? gsl_stats_quantile_from_sorted_data(buf, 1, n, pct[k] / 100.0) : NAN;
+        *n_ok = n;
+    }
     free(buf);
-    *n_ok = n;
-    return SL_OK;
+    return rc;
 }
 
-void sl_ens_mean_sd(const sl_ens_result *r, size_t j, double *mean, double *sd, size_t *n_ok)
+int sl_ens_mean_sd(const sl_ens_result *r, size_t j, double *mean, double *sd, size_t *n_ok, sl_err *e)
 {
-    double s = 0;
+    double *y = column_alloc(r->n_members, e);
+    if (y == NULL)
+        return SL_ENOMEM;
     size_t n = 0;
-    for (size_t m = 0; m < r->n_members; m++)
-        if (r->status[m] == SL_OK && isfinite(r->outputs[m * r->n_outputs + j])) {
-            s += r->outputs[m * r->n_outputs + j];
-            n++;
-        }
-    double mu = n ? s / (double)n : NAN, ss = 0;
-    for (size_t m = 0; m < r->n_members; m++)
-        if (r->status[m] == SL_OK && isfinite(r->outputs[m * r->n_outputs + j])) {
-            double d = r->outputs[m * r->n_outputs + j] - mu;
+    int rc = gather_ok(r, j, y, &n, e);
+    if (rc == SL_OK) {
+        double s = 0;
+        for (size_t k = 0; k < n; k++)
+            s += y[k];
+        double mu = n ? s / (double)n : NAN, ss = 0;
+        for (size_t k = 0; k < n; k++) {
+            double d = y[k] - mu;
             ss += d * d;
         }
-    *mean = mu;
-    *sd = n > 1 ? sqrt(ss / (double)(n - 1)) : NAN;
-    *n_ok = n;
+        *mean = mu;
+        *sd = n > 1 ? sqrt(ss / (double)(n - 1)) : NAN;
+        *n_ok = n;
+    }
+    free(y);
+    return rc;
 }
 
 int sl_ens_parse_threshold(const char *spec, sl_ens_threshold *t, sl_err *e)
@@ -818,24 +992,48 @@ int sl_ens_parse_threshold(const char *spec, sl_ens_threshold *t, sl_err *e)
     return SL_OK;
 }
 
-void sl_ens_exceedance(const sl_ens_result *r, size_t j, const sl_ens_threshold *t, double *p,
-                       double *stderr_p, size_t *n_ok)
+int sl_ens_exceedance(const sl_ens_result *r, size_t j, const sl_ens_threshold *t, double *p,
+                      double *stderr_p, size_t *n_ok, sl_err *e)
 {
+    double *y = column_alloc(r->n_members, e);
+    if (y == NULL)
+        return SL_ENOMEM;
     size_t n = 0, k = 0;
-    for (size_t m = 0; m < r->n_members; m++) {
-        double x = r->outputs[m * r->n_outputs + j];
-        if (r->status[m] != SL_OK || !isfinite(x))
-            continue;
-        int hit = t->op == '>' ? x > t->value
-                  : t->op == 'g' ? x >= t->value
-                  : t->op == '<' ? x < t->value
-                                 : x <= t->value;
-        k += (size_t)hit;
-        n++;
+    int rc = gather_ok(r, j, y, &n, e);
+    if (rc == SL_OK) {
+        for (size_t q = 0; q < n; q++) {
+            double x = y[q];
+            int hit = t->op == '>' ? x > t->value
+                      : t->op == 'g' ? x >= t->value
+                      : t->op == '<' ? x < t->value
+                                     : x <= t->value;
+            k += (size_t)hit;
+        }
+        *n_ok = n;
+        *p = n ? (double)k / (double)n : NAN;
+        *stderr_p = n ? sqrt(*p * (1 - *p) / (double)n) : NAN;
     }
-    *n_ok = n;
-    *p = n ? (double)k / (double)n : NAN;
-    *stderr_p = n ? sqrt(*p * (1 - *p) / (double)n) : NAN;
+    free(y);
+    return rc;
+}
+
+/* X = input i and Y = output j of the members the statistics of output j
+ * use (successful, finite output), in member order; *N their number.  X and
+ * Y hold n_members each. */
+static int gather_pair(const sl_ens_result *r, size_t i, size_t j, double *x, double *y, size_t *n, sl_err *e)
+{
+    SL_TRY_RETURN(e, sl_ens_column(r, i, x, e));
+    SL_TRY_RETURN(e, sl_ens_column(r, r->n_inputs + j, y, e));
+    size_t k = 0;
+    for (size_t m = 0; m < r->n_members; m++) {
+        if (r->status[m] != SL_OK || !isfinite(y[m]))
+            continue;
+        x[k] = x[m];
+        y[k] = y[m];
+        k++;
+    }
+    *n = k;
+    return SL_OK;
 }
 
 int sl_ens_spearman(const sl_ens_result *r, size_t i, size_t j, double *rho, sl_err *e)
@@ -846,21 +1044,17 @@ int sl_ens_spearman(const sl_ens_result *r, size_t i, size_t j, double *rho, sl_
         SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory ranking %zu members", nm);
     double *x = buf, *y = buf + nm, *w = buf + 2 * nm;
     size_t n = 0;
-    int xconst = 1, yconst = 1;
-    for (size_t m = 0; m < nm; m++) {
-        if (r->status[m] != SL_OK || !isfinite(r->outputs[m * r->n_outputs + j]))
-            continue;
-        x[n] = r->inputs[m * r->n_inputs + i];
-        y[n] = r->outputs[m * r->n_outputs + j];
-        if (n > 0) {
-            xconst &= x[n] == x[0];
-            yconst &= y[n] == y[0];
+    int rc = gather_pair(r, i, j, x, y, &n, e);
+    if (rc == SL_OK) {
+        int xconst = 1, yconst = 1;
+        for (size_t k = 1; k < n; k++) {
+            xconst &= x[k] == x[0];
+            yconst &= y[k] == y[0];
         }
-        n++;
+        *rho = (n < 3 || xconst || yconst) ? NAN : gsl_stats_spearman(x, 1, y, 1, n, w);
     }
-    *rho = (n < 3 || xconst || yconst) ? NAN : gsl_stats_spearman(x, 1, y, 1, n, w);
     free(buf);
-    return SL_OK;
+    return rc;
 }
 
 int sl_ens_first_order(const sl_ens_result *r, size_t i, size_t j, double *s1, sl_err *e)
@@ -876,15 +1070,8 @@ int sl_ens_first_order(const sl_ens_result *r, size_t i, size_t j, double *s1, s
     }
     double *y = x + nm;
     size_t n = 0;
-    for (size_t m = 0; m < nm; m++) {
-        double v = r->outputs[m * r->n_outputs + j];
-        if (r->status[m] != SL_OK || !isfinite(v))
-            continue;
-        x[n] = r->inputs[m * r->n_inputs + i];
-        y[n] = v;
-        n++;
-    }
-    if (n >= 20) {
+    int rc = gather_pair(r, i, j, x, y, &n, e);
+    if (rc == SL_OK && n >= 20) {
         double mean = 0, var = 0;
         for (size_t k = 0; k < n; k++)
             mean += y[k];
@@ -918,15 +1105,17 @@ int sl_ens_first_order(const sl_ens_result *r, size_t i, size_t j, double *s1, s
     }
     free(x);
     free(ord);
-    return SL_OK;
+    return rc;
 }
 
 /* A value and its member, sorted by value then member (a total order, so
  * the result does not depend on the sort algorithm). */
 typedef struct keyed {
     double v;
-    size_t m;
+    uint32_t m;
 } keyed;
+
+_Static_assert(sizeof(keyed) <= 2 * sizeof(double), "the sort space is two columns of doubles");
 
 static int keyed_cmp(const void *pa, const void *pb)
 {
@@ -938,12 +1127,13 @@ static int keyed_cmp(const void *pa, const void *pb)
     return (a->m > b->m) - (a->m < b->m);
 }
 
-/* ORDER[0..n-1] = the members M[k] sorted by value V[k] (ties by member). */
-static void sort_members(keyed *work, const double *v, const size_t *mem, size_t n, size_t *order)
+/* ORDER[0..n-1] = the members MEM[k] (k when MEM is NULL) sorted by their
+ * value COL[member] (ties by member). */
+static void sort_members(keyed *work, const double *col, const uint32_t *mem, size_t n, uint32_t *order)
 {
     for (size_t k = 0; k < n; k++) {
-        work[k].v = v[k];
-        work[k].m = mem ? mem[k] : k;
+        work[k].m = mem ? mem[k] : (uint32_t)k;
+        work[k].v = col[work[k].m];
     }
     qsort(work, n, sizeof *work, keyed_cmp);
     for (size_t k = 0; k < n; k++)
@@ -952,18 +1142,91 @@ static void sort_members(keyed *work, const double *v, const size_t *mem, size_t
 
 /* Average ranks (1-based) of the NS members listed in ORDERED (sorted by
  * value VAL[member]), written to RANK[member]; ties share their mean rank. */
-static void average_ranks(const size_t *ordered, size_t ns, const double *val, size_t stride,
-                          size_t off, double *rank)
+static void average_ranks(const uint32_t *ordered, size_t ns, const double *val, double *rank)
 {
     size_t a = 0;
     while (a < ns) {
         size_t b = a + 1;
-        while (b < ns && val[ordered[b] * stride + off] == val[ordered[a] * stride + off])
+        while (b < ns && val[ordered[b]] == val[ordered[a]])
             b++;
         double mean_rank = 0.5 * (double)(a + 1 + b); /* mean of a+1 .. b */
         for (size_t k = a; k < b; k++)
             rank[ordered[k]] = mean_rank;
         a = b;
+    }
+}
+
+/* The sorted order of each input over all members: in memory (MEM, n_inputs
+ * x n), or in the column store after the columns. */
+typedef struct input_orders {
+    const sl_ens_result *r;
+    uint32_t *mem;
+    off_t base;
+} input_orders;
+
+static int orders_put(const input_orders *o, size_t i, const uint32_t *ord, sl_err *e)
+{
+    size_t n = o->r->n_members;
+    if (o->mem) {
+        memcpy(o->mem + i * n, ord, n * sizeof *ord);
+        return SL_OK;
+    }
+    if (write_all(o->r->store_fd, ord, n * sizeof *ord, o->base + (off_t)(i * n * sizeof *ord)) != 0)
+        SL_FAIL_RETURN(e, SL_EIO, "writing the member store: %s", strerror(errno));
+    return SL_OK;
+}
+
+static int orders_get(const input_orders *o, size_t i, uint32_t *ord, sl_err *e)
+{
+    size_t n = o->r->n_members;
+    if (o->mem) {
+        memcpy(ord, o->mem + i * n, n * sizeof *ord);
+        return SL_OK;
+    }
+    if (read_all(o->r->store_fd, ord, n * sizeof *ord, o->base + (off_t)(i * n * sizeof *ord)) != 0)
+        SL_FAIL_RETURN(e, SL_EIO, "reading the member store: %s", strerror(errno));
+    return SL_OK;
+}
+
+/* rho and s1 of output j (column YC, members SUB[0..ns-1] with ranks RY) and
+ * input i (column XC; FORD its order over the subset, NF = NS). */
+static void pair_measures(const double *xc, const double *yc, const uint32_t *sub, const uint32_t *ford, size_t ns,
+                          double mean, double var, int yconst, const double *ry, double *rx, double *rho,
+                          double *s1)
+{
+    int xconst = xc[ford[0]] == xc[ford[ns - 1]];
+    double mr = 0.5 * (double)(ns + 1);
+    if (rho && !xconst && !yconst) {
+        average_ranks(ford, ns, xc, rx);
+        double sxy = 0, sxx = 0, syy = 0;
+        for (size_t k = 0; k < ns; k++) {
+            double dx = rx[sub[k]] - mr, dy = ry[sub[k]] - mr;
+            sxy += dx * dy;
+            sxx += dx * dx;
+            syy += dy * dy;
+        }
+        *rho = sxy / sqrt(sxx * syy);
+    }
+    /* First-order share: classes of equal count along this order. */
+    if (s1 && ns >= 20 && var > 0 && !xconst) {
+        size_t nclass = (size_t)floor(sqrt((double)ns)), used = 0, start = 0;
+        double between = 0;
+        for (size_t c = 1; start < ns; c++) {
+            size_t end = c >= nclass ? ns : (size_t)((double)c * (double)ns / (double)nclass);
+            if (end <= start)
+                end = start + 1;
+            while (end < ns && xc[ford[end]] == xc[ford[end - 1]])
+                end++;
+            double cm = 0;
+            for (size_t k = start; k < end; k++)
+                cm += yc[ford[k]];
+            cm /= (double)(end - start);
+            between += (double)(end - start) * (cm - mean) * (cm - mean);
+            used++;
+            start = end;
+        }
+        double b = (double)(used - 1) / (double)(ns - 1);
+        *s1 = used > 1 ? (between / var - b) / (1 - b) : NAN;
     }
 }
 
@@ -978,32 +1241,45 @@ int sl_ens_sensitivity(const sl_ens_result *r, double *rho, double *s1, sl_err *
     }
     if (n == 0 || ni == 0 || no == 0)
         return SL_OK;
-    size_t *gord = malloc(ni * n * sizeof *gord);
-    size_t *sub = malloc(n * sizeof *sub), *ford = malloc(n * sizeof *ford);
-    size_t *yord = malloc(n * sizeof *yord);
-    double *col = malloc(n * sizeof *col), *rx = malloc(n * sizeof *rx), *ry = malloc(n * sizeof *ry);
+    if (n > UINT32_MAX)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "%zu members: the rank statistics take at most %" PRIu32, n, UINT32_MAX);
+    /* Per member: the input and the output column (16 bytes), two rank
+     * columns that are the sort space first (16), the subset and an order
+     * (8), a flag (1); plus 4 per input when the orders stay in memory. */
+    input_orders io = {r, NULL, (off_t)((ni + no) * n * sizeof(double))};
+    double *xc = malloc(n * sizeof *xc), *yc = malloc(n * sizeof *yc);
+    double *rxy = malloc(2 * n * sizeof *rxy);
+    uint32_t *sub = malloc(n * sizeof *sub), *ford = malloc(n * sizeof *ford);
     unsigned char *in = malloc(n);
-    keyed *work = malloc(n * sizeof *work);
+    if (!r->on_disk)
+        io.mem = malloc(ni * n * sizeof *io.mem);
     int rc = SL_OK;
-    if (!gord || !sub || !ford || !yord || !col || !rx || !ry || !in || !work) {
+    if (!xc || !yc || !rxy || !sub || !ford || !in || (!r->on_disk && !io.mem)) {
         rc = sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "out of memory ranking %zu members", n);
         goto out;
     }
+    keyed *work = (keyed *)(void *)rxy;
+    double *ry = rxy, *rx = rxy + n;
     /* Each input sorted once over all members. */
-    for (size_t i = 0; i < ni; i++) {
-        for (size_t m = 0; m < n; m++)
-            col[m] = r->inputs[m * ni + i];
-        sort_members(work, col, NULL, n, gord + i * n);
+    for (size_t i = 0; i < ni && rc == SL_OK; i++) {
+        rc = sl_ens_column(r, i, xc, e);
+        if (rc == SL_OK) {
+            sort_members(work, xc, NULL, n, ford);
+            rc = orders_put(&io, i, ford, e);
+        }
     }
-    for (size_t j = 0; j < no; j++) {
+    for (size_t j = 0; j < no && rc == SL_OK; j++) {
+        rc = sl_ens_column(r, ni + j, yc, e);
+        if (rc != SL_OK)
+            break;
         /* The members this output's statistics use, in member order. */
         size_t ns = 0;
         double mean = 0, var = 0;
         for (size_t m = 0; m < n; m++) {
-            double y = r->outputs[m * no + j];
+            double y = yc[m];
             in[m] = r->status[m] == SL_OK && isfinite(y);
             if (in[m]) {
-                sub[ns++] = m;
+                sub[ns++] = (uint32_t)m;
                 mean += y;
             }
         }
@@ -1011,69 +1287,36 @@ int sl_ens_sensitivity(const sl_ens_result *r, double *rho, double *s1, sl_err *
             continue;
         mean /= (double)ns;
         for (size_t k = 0; k < ns; k++) {
-            double d = r->outputs[sub[k] * no + j] - mean;
+            double d = yc[sub[k]] - mean;
             var += d * d;
         }
-        /* Output ranks over the subset. */
-        for (size_t k = 0; k < ns; k++)
-            col[k] = r->outputs[sub[k] * no + j];
-        sort_members(work, col, sub, ns, yord);
-        average_ranks(yord, ns, r->outputs, no, j, ry);
-        int yconst = r->outputs[yord[0] * no + j] == r->outputs[yord[ns - 1] * no + j];
-        double mr = 0.5 * (double)(ns + 1);
-        for (size_t i = 0; i < ni; i++) {
-            /* This input's order restricted to the subset. */
+        /* Output ranks over the subset (FORD holds the output order here). */
+        sort_members(work, yc, sub, ns, ford);
+        average_ranks(ford, ns, yc, ry);
+        int yconst = yc[ford[0]] == yc[ford[ns - 1]];
+        for (size_t i = 0; i < ni && rc == SL_OK; i++) {
+            rc = sl_ens_column(r, i, xc, e);
+            if (rc == SL_OK)
+                rc = orders_get(&io, i, ford, e);
+            if (rc != SL_OK)
+                break;
+            /* This input's order restricted to the subset (in place). */
             size_t nf = 0;
-            for (size_t k = 0; k < n; k++) {
-                size_t m = gord[i * n + k];
-                if (in[m])
-                    ford[nf++] = m;
-            }
-            int xconst = r->inputs[ford[0] * ni + i] == r->inputs[ford[nf - 1] * ni + i];
-            if (rho && !xconst && !yconst) {
-                average_ranks(ford, nf, r->inputs, ni, i, rx);
-                double sxy = 0, sxx = 0, syy = 0;
-                for (size_t k = 0; k < ns; k++) {
-                    double dx = rx[sub[k]] - mr, dy = ry[sub[k]] - mr;
-                    sxy += dx * dy;
-                    sxx += dx * dx;
-                    syy += dy * dy;
-                }
-                rho[j * ni + i] = sxy / sqrt(sxx * syy);
-            }
-            /* First-order share: classes of equal count along this order. */
-            if (s1 && ns >= 20 && var > 0 && !xconst) {
-                size_t nclass = (size_t)floor(sqrt((double)ns)), used = 0, start = 0;
-                double between = 0;
-                for (size_t c = 1; start < ns; c++) {
-                    size_t end = c >= nclass ? ns : (size_t)((double)c * (double)ns / (double)nclass);
-                    if (end <= start)
-                        end = start + 1;
-                    while (end < ns && r->inputs[ford[end] * ni + i] == r->inputs[ford[end - 1] * ni + i])
-                        end++;
-                    double cm = 0;
-                    for (size_t k = start; k < end; k++)
-                        cm += r->outputs[ford[k] * no + j];
-                    cm /= (double)(end - start);
-                    between += (double)(end - start) * (cm - mean) * (cm - mean);
-                    used++;
-                    start = end;
-                }
-                double b = (double)(used - 1) / (double)(ns - 1);
-                s1[j * ni + i] = used > 1 ? (between / var - b) / (1 - b) : NAN;
-            }
+            for (size_t k = 0; k < n; k++)
+                if (in[ford[k]])
+                    ford[nf++] = ford[k];
+            pair_measures(xc, yc, sub, ford, ns, mean, var, yconst, ry, rx, rho ? &rho[j * ni + i] : NULL,
+                          s1 ? &s1[j * ni + i] : NULL);
         }
     }
 out:
-    free(gord);
+    free(xc);
+    free(yc);
+    free(rxy);
     free(sub);
     free(ford);
-    free(yord);
-    free(col);
-    free(rx);
-    free(ry);
     free(in);
-    free(work);
+    free(io.mem);
     return rc;
 }
 

@@ -6,6 +6,7 @@
 
 #include "steamloft/output_ensemble.h"
 #include "steamloft/strat.h"
+#include "steamloft/sweep_rows.h"
 #include "steamloft/units.h"
 #include "steamloft/units_table.h"
 
@@ -148,6 +149,13 @@ static int build_plan(const sl_ens_request *c, sl_scenario *sc, sl_ens_plan *p, 
     for (size_t v = 0; v < c->nvary; v++) {
         char key[SL_ENS_KEY_LEN];
         sl_dist d;
+        int tid = -1;
+        if (sl_sweep_is_text_key(c->vary[v], &tid)) { /* --vary site.atmosphere=tropical,... */
+            const char *eq = strchr(c->vary[v], '=');
+            snprintf(key, sizeof key, "%.*s", (int)(eq - c->vary[v]), c->vary[v]);
+            SL_TRY_RETURN(e, sl_sweep_add_text_input(sc, p, ids, tid, key, eq + 1, e));
+            continue;
+        }
         SL_TRY_RETURN(e, sl_ens_parse_vary(c->vary[v], key, &d, e));
         int id = sl_scenario_find(key);
         int rc = SL_OK;
@@ -156,7 +164,7 @@ static int build_plan(const sl_ens_request *c, sl_scenario *sc, sl_ens_plan *p, 
                             "--vary: unknown key '%s' (section.key as 'steamloft params' lists)",
                             key);
         else if (sl_scenario_params[id].type != SL_PT_REAL && sl_scenario_params[id].type != SL_PT_INT)
-            rc = sl_err_set(e, SL_EUSAGE, __func__, __LINE__, "--vary: '%s' is not a numeric key", key);
+            rc = sl_err_set(e, SL_EUSAGE, __func__, __LINE__, "--vary: '%s' is not a numeric or text key", key);
         if (rc == SL_OK) {
             char where[SL_ENS_KEY_LEN + 32];
             snprintf(where, sizeof where, "--vary %s", key);
@@ -184,7 +192,11 @@ static int build_plan(const sl_ens_request *c, sl_scenario *sc, sl_ens_plan *p, 
     for (size_t k = 0; k < p->n_inputs; k++) {
         sl_scenario t = *sc;
         double x = sl_dist_median(&p->inputs[k].dist);
-        SL_TRY_RETURN(e, sl_scenario_set_id(&t, (sl_param_id)ids[k], x * p->inputs[k].to_si, e));
+        const char *label = sl_ens_input_label(p, k, x);
+        if (label)
+            SL_TRY_RETURN(e, sl_scenario_set_text(&t, (sl_param_id)ids[k], label, e));
+        else
+            SL_TRY_RETURN(e, sl_scenario_set_id(&t, (sl_param_id)ids[k], x * p->inputs[k].to_si, e));
     }
     return SL_OK;
 }
@@ -250,8 +262,13 @@ typedef struct chain_ws {
 static int set_inputs(const sl_ens_chain *c, sl_scenario *sc, const double *in_si, sl_err *e)
 {
     *sc = *c->base;
-    for (size_t k = 0; k < c->plan->n_inputs; k++)
-        SL_TRY_RETURN(e, sl_scenario_set_id(sc, (sl_param_id)c->ids[k], in_si[k], e));
+    for (size_t k = 0; k < c->plan->n_inputs; k++) {
+        const char *label = sl_ens_input_label(c->plan, k, in_si[k]); /* a text key: its index */
+        if (label)
+            SL_TRY_RETURN(e, sl_scenario_set_text(sc, (sl_param_id)c->ids[k], label, e));
+        else
+            SL_TRY_RETURN(e, sl_scenario_set_id(sc, (sl_param_id)c->ids[k], in_si[k], e));
+    }
     return SL_OK;
 }
 
@@ -352,6 +369,10 @@ static void extras(const sl_ens_chain *c, const sl_chain *ch, double *x)
     same = b->n_times == c->n_time && q0 > 0.0;
     for (size_t i = 0; i < c->n_time; i++)
         x[c->n_band + i] = same ? b->global_excess_kg[i] / q0 : NAN;
+    /* For the sweep's rows (sweep_rows.h): regime, e-folding extrapolated. */
+    x[c->n_band + c->n_time] = ch->have_plume ? (double)ch->plume.regime : -1.0;
+    x[c->n_band + c->n_time + 1] = ch->have_strat_model && ch->strat.efolding_extrapolated &&
+                                   b->initial_excess_kg > 0.0 && isfinite(b->efolding_s);
 }
 
 static int chain_member(void *ws, void *ctx, const sl_ens_plan *plan, const double *in_si,
@@ -442,7 +463,7 @@ static int ens_chain_init(sl_ens_chain *c, const sl_scenario *sc, const sl_ens_p
     m->ws_free = chain_ws_free;
     m->member = chain_member;
     SL_TRY_RETURN(e, extras_layout(c, e));
-    m->n_extra = c->n_band + c->n_time;
+    m->n_extra = c->n_band + c->n_time + SL_SWEEP_ROW_EXTRAS;
     return SL_OK;
 }
 
@@ -532,6 +553,20 @@ static int thresholds(const sl_ens_request *c, const sl_ens_model *m, sl_ens_thr
     return SL_OK;
 }
 
+/* Where rank 0 keeps the members' scalars (a column file, unlinked as soon
+ * as it is made, so memory stays flat in the member count): the stage
+ * folder of an output (on the destination's file system), else $TMPDIR,
+ * else /tmp. */
+static const char *store_dir(const sl_ens_sink *s)
+{
+    if (s->set_csv.active)
+        return s->set_csv.stage;
+    if (s->set_nc.active)
+        return s->set_nc.stage;
+    const char *t = getenv("TMPDIR");
+    return t && *t ? t : "/tmp";
+}
+
 int sl_ens_command_run(const sl_ens_request *c, const sl_cli_globals *g)
 {
     int root = sl_ens_is_root();
@@ -569,7 +604,15 @@ int sl_ens_command_run(const sl_ens_request *c, const sl_cli_globals *g)
         st = sl_ens_sink_open(&sink, c, g, &plan, &model, &chain, ids, &e);
     st = sl_ens_agree(st, &e);
     if (st == SL_OK) {
-        sl_ens_run_opts o = {c->threads, c->block, 0, root ? sl_ens_sink_row : NULL, &sink};
+        sl_ens_run_opts o = {c->threads, c->block, 0, root ? sl_ens_sink_row : NULL, &sink,
+                             root ? store_dir(&sink) : NULL, root && c->csv_path ? sl_ens_sink_format : NULL,
+                             sl_ens_sink_row_cap(&plan, &model)};
+        if (sl_sweep_file_profiles(&plan, ids)) {
+            if (!quiet && c->threads != 1)
+                fprintf(stderr, "steamloft: note: --vary site.atmosphere names a profile file; the members "
+                                "run on one thread (profile files are read as members run)\n");
+            o.n_threads = 1;
+        }
         o.progress = root && g->verbosity >= 0 && (c->progress == 1 || (c->progress == -1 && isatty(2)));
         st = sl_ens_run(&plan, &model, &o, &res, &e);
     }

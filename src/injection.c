@@ -16,7 +16,9 @@
  *
  * Freeze-out (sl_injection_add_cloud).  A young cloud left by a plume is a
  * layer of cloud air (dry mass A) carrying water W (all phases), spread
- * uniformly in altitude over its layer.  In each band it is taken at the
+ * uniformly in altitude over its layer or, for a plume's umbrella, by mass:
+ * a triangular volume profile peaked at the neutral level times the ambient
+ * density (sl_injection_umbrella_weight).  In each band it is taken at the
  * ambient temperature and pressure there (the cloud has come to rest near its
  * neutral level).  It can hold vapour up to ice saturation,
  *   r_ice = eps e_ice(T) / (p - e_ice(T))  (kg per kg of dry air; Murphy & Koop 2005
@@ -261,17 +263,60 @@ static int cloud_level(const sl_atmosphere *atm, double altitude_m, double *r_ic
     return SL_OK;
 }
 
-/* Share of a triangular profile (bottom to top, mode at peak_m) below Z. */
-static double tent_cdf(const sl_young_cloud *c, double z)
+/* Triangular profile of a cloud (bottom to top, mode at peak_m): its
+ * density per metre of height at Z (integrates to 1 over the layer). */
+static double tent_pdf(const sl_young_cloud *c, double z)
 {
     double a = c->bottom_m, b = c->top_m, m = c->peak_m;
-    if (z <= a)
+    if (z <= a || z >= b)
         return 0.0;
-    if (z >= b)
-        return 1.0;
     if (z <= m)
-        return m > a ? (z - a) * (z - a) / ((b - a) * (m - a)) : 0.0;
-    return b > m ? 1.0 - (b - z) * (b - z) / ((b - a) * (b - m)) : 1.0;
+        return m > a ? 2.0 * (z - a) / ((b - a) * (m - a)) : 0.0;
+    return b > m ? 2.0 * (b - z) / ((b - a) * (b - m)) : 0.0;
+}
+
+/* Integral of tent_pdf * rho_a over [Z0, Z1] on a smooth piece (no mode
+ * inside): 4-point Gauss-Legendre on sub-intervals of at most 500 m (the
+ * density changes by < 8 % over one; the rule is then exact to ~1e-9). */
+static int umbrella_piece(const sl_atmosphere *atm, const sl_young_cloud *c, double z0, double z1, double *w,
+                          sl_err *e)
+{
+    static const double x[4] = {-0.8611363115940526, -0.3399810435848563, 0.3399810435848563, 0.8611363115940526};
+    static const double wt[4] = {0.3478548451374538, 0.6521451548625461, 0.6521451548625461, 0.3478548451374538};
+    double sum = 0.0;
+    int n = (int)ceil((z1 - z0) / 500.0);
+    if (n < 1)
+        n = 1;
+    double h = (z1 - z0) / n;
+    for (int k = 0; k < n; k++) {
+        double mid = z0 + (k + 0.5) * h;
+        for (int j = 0; j < 4; j++) {
+            double z = mid + 0.5 * h * x[j];
+            sl_atmos_state a;
+            double zq = fmin(fmax(z, atm->altitude_m[0]), atm->altitude_m[atm->n - 1]);
+            SL_TRY_RETURN(e, sl_atmosphere_at(atm, zq, &a, e));
+            sum += 0.5 * h * wt[j] * tent_pdf(c, z) * a.density_kg_m3;
+        }
+    }
+    *w = sum;
+    return SL_OK;
+}
+
+int sl_injection_umbrella_weight(const sl_atmosphere *atm, const sl_young_cloud *c, double z0, double z1, double *w,
+                                 sl_err *e)
+{
+    *w = 0.0;
+    double a = fmax(z0, c->bottom_m), b = fmin(z1, c->top_m);
+    if (!(b > a))
+        return SL_OK;
+    double m = c->peak_m, w1 = 0.0, w2 = 0.0;
+    if (m > a && m < b) {
+        SL_TRY_RETURN(e, umbrella_piece(atm, c, a, m, &w1, e));
+        SL_TRY_RETURN(e, umbrella_piece(atm, c, m, b, &w2, e));
+    } else
+        SL_TRY_RETURN(e, umbrella_piece(atm, c, a, b, &w1, e));
+    *w = w1 + w2;
+    return SL_OK;
 }
 
 int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl_young_cloud *c,
@@ -290,6 +335,18 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
                        c->top_m, lo, hi);
     double thick = c->top_m - c->bottom_m;
     int tent = thick > 0.0 && c->peak_m >= c->bottom_m && c->peak_m <= c->top_m;
+    /* Placement by mass: the umbrella's weight of each band, normalised by
+     * their sum (so the shares add up to 1 to rounding). */
+    double wsum = 0.0;
+    if (tent) {
+        for (size_t i = 0; i < inj->n_bands; i++) {
+            double wb;
+            SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, c, inj->band_bottom_m[i], inj->band_top_m[i], &wb, e));
+            wsum += wb;
+        }
+        if (!(wsum > 0.0))
+            SL_FAIL_RETURN(e, SL_ENUMERIC, "young cloud %g-%g m: no air mass in its layer", c->bottom_m, c->top_m);
+    }
     for (size_t i = 0; i < inj->n_bands && c->water_kg > 0.0; i++) {
         double a, b, f;
         if (thick > 0.0) {
@@ -297,7 +354,12 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
             b = fmin(c->top_m, inj->band_top_m[i]);
             if (b <= a)
                 continue;
-            f = tent ? tent_cdf(c, b) - tent_cdf(c, a) : (b - a) / thick;
+            if (tent) {
+                double wb;
+                SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, c, a, b, &wb, e));
+                f = wb / wsum;
+            } else
+                f = (b - a) / thick;
         } else {
             /* A thin sheet: all in the band holding it (the top band at the very top). */
             if (!(c->bottom_m < inj->band_top_m[i] || i + 1 == inj->n_bands))

@@ -6,6 +6,7 @@
 #include "steamloft/output_nc.h"
 #include "steamloft/output_text.h"
 #include "steamloft/plot.h"
+#include "steamloft/sweep_rows.h"
 #include "steamloft/units.h"
 #include "steamloft/units_table.h"
 
@@ -40,29 +41,46 @@ static const char *sampling_word(const sl_ens_plan *p)
     return p->mode == SL_ENS_GRID ? "grid" : p->mode == SL_ENS_SOBOL ? "sobol" : "monte_carlo";
 }
 
-/* Write S as one CSV field, quoted when it holds a comma, quote or newline. */
-static void csv_field(FILE *f, const char *s)
+/* Text appended to a row buffer (room is counted by sl_ens_sink_row_cap). */
+typedef struct textbuf {
+    char *p;
+    size_t n, cap;
+} textbuf;
+
+static void tb_put(textbuf *t, const char *s, size_t len)
 {
-    if (strpbrk(s, ",\"\n\r") == NULL) {
-        fputs(s, f);
-        return;
-    }
-    fputc('"', f);
-    for (; *s; s++) {
-        if (*s == '"')
-            fputc('"', f);
-        fputc(*s == '\n' || *s == '\r' ? ' ' : *s, f);
-    }
-    fputc('"', f);
+    if (t->n + len >= t->cap)
+        len = t->n + 1 < t->cap ? t->cap - 1 - t->n : 0;
+    memcpy(t->p + t->n, s, len);
+    t->n += len;
+    t->p[t->n] = '\0';
 }
 
-/* Write X with the fewest digits (15 to 17) that read back to the same
- * double, so the CSV holds exactly what the statistics used. */
-static void csv_number(FILE *f, double x)
+static void tb_char(textbuf *t, char c) { tb_put(t, &c, 1); }
+
+/* S as one CSV field, quoted when it holds a comma, quote or newline. */
+static void csv_field(textbuf *t, const char *s)
+{
+    if (strpbrk(s, ",\"\n\r") == NULL) {
+        tb_put(t, s, strlen(s));
+        return;
+    }
+    tb_char(t, '"');
+    for (; *s; s++) {
+        if (*s == '"')
+            tb_char(t, '"');
+        tb_char(t, *s == '\n' || *s == '\r' ? ' ' : *s);
+    }
+    tb_char(t, '"');
+}
+
+/* X with the fewest digits (15 to 17) that read back to the same double, so
+ * the CSV holds exactly what the statistics used. */
+static void csv_number(textbuf *t, double x)
 {
     char buf[40];
     sl_csv_number_text(buf, x);
-    fputs(buf, f);
+    tb_put(t, buf, strlen(buf));
 }
 
 static const char *status_word(int st)
@@ -117,14 +135,58 @@ static int nc_flush(sl_ens_sink *s, sl_err *e)
     return SL_OK;
 }
 
+size_t sl_ens_sink_row_cap(const sl_ens_plan *p, const sl_ens_model *m)
+{
+    /* member and status (48), the reason quoted with every character
+     * doubled, 25 per number (a comma and at most 24 characters of %.17g),
+     * the newline. */
+    size_t text = 0; /* a text key's value, quoted with every character doubled */
+    for (size_t k = 0; k < p->n_inputs; k++)
+        for (size_t i = 0; i < p->inputs[k].n_labels; i++)
+            if (2 * strlen(p->inputs[k].labels[i]) + 3 > text)
+                text = 2 * strlen(p->inputs[k].labels[i]) + 3;
+    return 48 + 2 * SL_ENS_REASON_LEN + 2 + 25 * (p->n_inputs + m->n_outputs) + text * p->n_inputs + 2;
+}
+
+void sl_ens_sink_format(const void *sinkp, size_t m, const double *in, const double *out, int st,
+                        const char *reason, char *text, size_t cap)
+{
+    const sl_ens_sink *s = sinkp;
+    textbuf t = {text, 0, cap};
+    text[0] = '\0';
+    if (!s->csv)
+        return;
+    size_t ni = s->plan->n_inputs, no = s->model->n_outputs;
+    char head[64];
+    int w = snprintf(head, sizeof head, "%zu,%s,", m, status_word(st));
+    tb_put(&t, head, w > 0 ? (size_t)w : 0);
+    csv_field(&t, reason);
+    for (size_t k = 0; k < ni; k++) {
+        const char *label = sl_ens_input_label(s->plan, k, in[k]); /* a text key's value */
+        tb_char(&t, ',');
+        if (label)
+            csv_field(&t, label);
+        else
+            csv_number(&t, in[k]);
+    }
+    for (size_t j = 0; j < no; j++) {
+        tb_char(&t, ',');
+        if (st == SL_OK && isfinite(out[j]))
+            csv_number(&t, out[j]); /* else: failed member, or an output that does not apply */
+    }
+    tb_char(&t, '\n');
+}
+
 int sl_ens_sink_row(void *sinkp, size_t m, const double *in, const double *out, int st, const char *reason,
-                    sl_err *e)
+                    const char *text, sl_err *e)
 {
     sl_ens_sink *s = sinkp;
     size_t ni = s->plan->n_inputs, no = s->model->n_outputs, nb = s->chain->n_band;
+    if (s->rows)
+        sl_sweep_rows_add(s->rows, m, in, out, out + no + nb + s->chain->n_time, st, reason);
     for (size_t k = 0; k < ni; k++) {
         const sl_param_def *d = &sl_scenario_params[s->ids[k]];
-        if (in[k] < d->min_value || in[k] > d->max_value)
+        if (s->plan->inputs[k].labels == NULL && (in[k] < d->min_value || in[k] > d->max_value))
             s->out_of_range[k]++;
     }
     if (st == SL_OK) {
@@ -132,20 +194,9 @@ int sl_ens_sink_row(void *sinkp, size_t m, const double *in, const double *out, 
         sl_ens_hist_add(&s->hprof, out + no);
         sl_ens_hist_add(&s->hrem, out + no + nb);
     }
-    if (s->csv) {
-        FILE *f = s->csv;
-        fprintf(f, "%zu,%s,", m, status_word(st));
-        csv_field(f, reason);
-        for (size_t k = 0; k < ni; k++) {
-            fputc(',', f);
-            csv_number(f, in[k]);
-        }
-        for (size_t j = 0; j < no; j++) {
-            fputc(',', f);
-            if (st == SL_OK && isfinite(out[j]))
-                csv_number(f, out[j]); /* else: failed member, or an output that does not apply */
-        }
-        if (fputc('\n', f) == EOF)
+    if (s->csv && text) {
+        size_t len = strlen(text);
+        if (fwrite(text, 1, len, s->csv) != len)
             SL_FAIL_RETURN(e, SL_EIO, "%s: write error: %s", s->csv_name, strerror(errno));
     }
     if (s->nc >= 0) {
@@ -264,10 +315,15 @@ static int nc_define(sl_ens_sink *s, const char *path, size_t np, const double *
         for (char *q = name; *q; q++)
             if (*q == '.')
                 *q = '_';
+        if (p->inputs[k].labels) { /* a text key: its index, CF flags */
+            SL_TRY_RETURN(e, sl_sweep_nc_text_input(s->nc, path, dm, &p->inputs[k], name, &s->nc_in[k], e));
+            SL_TRY_RETURN(e, member_chunks(s, s->nc_in[k], 1, 1, sizeof(int), e));
+            continue;
+        }
         udunits_of_key(s->ids[k], units, sizeof units);
         SL_TRY_RETURN(e, def_double(s, name, 1, &dm, p->inputs[k].key, units, 0, &s->nc_in[k], e));
         SL_TRY_RETURN(e, member_chunks(s, s->nc_in[k], 1, 1, sizeof(double), e));
-        sl_dist_describe(&p->inputs[k].dist, desc, sizeof desc);
+        sl_ens_input_describe(p, k, desc, sizeof desc);
         SL_TRY_RETURN(e, att(s, s->nc_in[k], "sampled_from", desc, e));
     }
     for (size_t j = 0; j < m->n_outputs; j++) {
@@ -378,6 +434,12 @@ int sl_ens_sink_open(sl_ens_sink *s, const sl_ens_request *rq, const sl_cli_glob
     s->out_of_range = calloc(p->n_inputs + 1, sizeof *s->out_of_range);
     if (s->out_of_range == NULL)
         SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory");
+    if (p->mode == SL_ENS_GRID && p->n_members <= SL_SWEEP_MAX_ROWS) {
+        s->rows = calloc(1, sizeof *s->rows);
+        if (s->rows == NULL)
+            SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory");
+        SL_TRY_RETURN(e, sl_sweep_rows_init(s->rows, p, m, e));
+    }
     SL_TRY_RETURN(e, sl_ens_hist_init(&s->hprof, c->n_band, PROF_LO_LOG10, PROF_HI_LOG10, BINS_PER_DECADE, e));
     SL_TRY_RETURN(e, sl_ens_hist_init(&s->hrem, c->n_time, REM_LO_LOG10, REM_HI_LOG10, BINS_PER_DECADE, e));
     s->csv_stdout = rq->csv_path && strcmp(rq->csv_path, "-") == 0;
@@ -465,6 +527,8 @@ void sl_ens_sink_free(sl_ens_sink *s)
     free(s->buf_m);
     free(s->buf_reason);
     free(s->out_of_range);
+    sl_sweep_rows_free(s->rows);
+    free(s->rows);
     sl_ens_hist_free(&s->hprof);
     sl_ens_hist_free(&s->hrem);
     summary_free(s->summary);
@@ -515,13 +579,19 @@ static int summary_compute(summary *u, const sl_ens_sink *s, const sl_ens_result
     if (!u->mean || !u->sd || !u->vals || !u->sens || !u->nok)
         SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory for the summary");
     for (size_t j = 0; j < u->no; j++) {
-        sl_ens_mean_sd(r, j, &u->mean[j], &u->sd[j], &u->nok[j]);
+        SL_TRY_RETURN(e, sl_ens_mean_sd(r, j, &u->mean[j], &u->sd[j], &u->nok[j], e));
         SL_TRY_RETURN(e, sl_ens_percentiles(r, j, u->pct, u->np, u->vals + j * u->np, &u->nok[j], e));
     }
     if (u->ni > 0)
         SL_TRY_RETURN(e, sl_ens_sensitivity(r, u->sens, u->sens + u->ni * u->no, e));
+    /* A text key's value is an index without order: no rank correlation
+     * (its first-order share, from classes of equal values, stays in JSON). */
+    for (size_t k = 0; k < u->ni; k++)
+        if (s->plan->inputs[k].labels)
+            for (size_t j = 0; j < u->no; j++)
+                u->sens[j * u->ni + k] = NAN;
     for (size_t t = 0; t < s->rq->nthr; t++)
-        sl_ens_exceedance(r, (size_t)thr_out[t], &thr[t], &u->pe[t], &u->se[t], &u->pe_n[t]);
+        SL_TRY_RETURN(e, sl_ens_exceedance(r, (size_t)thr_out[t], &thr[t], &u->pe[t], &u->se[t], &u->pe_n[t], e));
     return SL_OK;
 }
 
@@ -560,7 +630,7 @@ static void summary_json(FILE *f, const sl_ens_sink *s, const sl_ens_result *r, 
     sl_report_begin_array(rep, "inputs", NULL);
     for (size_t k = 0; k < p->n_inputs; k++) {
         char desc[160], range[96];
-        sl_dist_describe(&p->inputs[k].dist, desc, sizeof desc);
+        sl_ens_input_describe(p, k, desc, sizeof desc);
         range_text(s->ids[k], range, sizeof range);
         sl_report_begin_object(rep, NULL, NULL);
         sl_report_string(rep, "key", p->inputs[k].key, "");
@@ -608,6 +678,8 @@ static void summary_json(FILE *f, const sl_ens_sink *s, const sl_ens_result *r, 
     sl_report_number(rep, "ranks", r->mpi_ranks, "", 1, "");
     sl_report_number(rep, "threads", r->threads, "", 1, "");
     sl_report_number(rep, "wall_s", r->wall_s, "", 1, "");
+    if (s->rows)
+        sl_sweep_rows_json(rep, p, s->rows);
     sl_report_string(rep, "caution", sl_cli_caution(), "");
 }
 
@@ -629,7 +701,7 @@ static void summary_text(FILE *f, const sl_ens_sink *s, const sl_ens_result *r, 
     fprintf(f, "%s:\n", p->mode == SL_ENS_GRID ? "swept inputs" : "uncertain inputs");
     for (size_t k = 0; k < p->n_inputs; k++) {
         char desc[160];
-        sl_dist_describe(&p->inputs[k].dist, desc, sizeof desc);
+        sl_ens_input_describe(p, k, desc, sizeof desc);
         fprintf(f, "  %-36s %s\n", p->inputs[k].key, desc);
     }
     for (size_t k = 0; k < p->n_inputs; k++)
@@ -722,7 +794,12 @@ int sl_ens_summary_write(FILE *f, const sl_ens_sink *s, const sl_ens_result *r, 
         summary_json(f, s, r, u, thr, &rep);
         return sl_report_end(&rep, e);
     }
+    if (s->rows) /* a sweep of at most SL_SWEEP_MAX_ROWS points: a row each */
+        return sl_sweep_rows_text(f, s->rq->scenario, s->plan, s->rows, e);
     summary_text(f, s, r, u, thr);
+    if (s->plan->mode == SL_ENS_GRID)
+        fprintf(f, "(%zu grid points: the statistics above; one row per point is in the CSV, -o FILE.csv)\n",
+                r->n_members);
     if (fflush(f) != 0 || ferror(f))
         SL_FAIL_RETURN(e, SL_EIO, "cannot write the summary");
     return SL_OK;

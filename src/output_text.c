@@ -454,30 +454,36 @@ void sl_output_key_results(const sl_chain *ch, sl_key_results *k)
         k->efolding_extrapolated = st->efolding_extrapolated && isfinite(k->efolding_years);
         k->mean_residence_years = sl_s_to_years(st->mean_residence_s) + undefined;
     }
+    sl_output_validity(ch->have_plume, ch->have_plume ? (int)ch->plume.regime : -1, k->efolding_extrapolated,
+                       k->validity_short, sizeof k->validity_short, k->validity, sizeof k->validity);
+}
+
+void sl_output_validity(int have_plume, int regime, int efolding_extrapolated, char *short_text, size_t ns,
+                        char *text, size_t n)
+{
     /* Validity in a few words.  The plume stage's own validity line replaces
      * this wording when it lands (one function, called here). */
-    snprintf(k->validity_short, sizeof k->validity_short, "%s",
-             !ch->have_plume ? "no plume"
-             : ch->plume.regime == SL_REGIME_BALLISTIC ? "rough: ballistic"
-             : ch->plume.regime != SL_REGIME_THERMAL ? "rough: blow-out" : "thermal model");
-    if (k->efolding_extrapolated)
-        strncat(k->validity_short, "; e-fold extrapolated",
-                sizeof k->validity_short - strlen(k->validity_short) - 1);
-    if (ch->have_plume && ch->plume.regime == SL_REGIME_BALLISTIC)
-        snprintf(k->validity, sizeof k->validity,
+    snprintf(short_text, ns, "%s",
+             !have_plume ? "no plume"
+             : regime == SL_REGIME_BALLISTIC ? "rough: ballistic"
+             : regime != SL_REGIME_THERMAL ? "rough: blow-out" : "thermal model");
+    if (efolding_extrapolated)
+        strncat(short_text, "; e-fold extrapolated", ns - strlen(short_text) - 1);
+    if (have_plume && regime == SL_REGIME_BALLISTIC)
+        snprintf(text, n,
                  "rough: ballistic, the release is several scale heights across or left the "
                  "atmosphere; its water is thrown above the air and placed where it re-enters");
-    else if (ch->have_plume && ch->plume.regime != SL_REGIME_THERMAL)
-        snprintf(k->validity, sizeof k->validity,
+    else if (have_plume && regime != SL_REGIME_THERMAL)
+        snprintf(text, n,
                  "rough: blow-out, the release is larger than the scale height; its water is shared "
                  "between the thermal and the ballistic re-entry");
-    else if (ch->have_plume)
-        snprintf(k->validity, sizeof k->validity, "within the thermal-plume model");
+    else if (have_plume)
+        snprintf(text, n, "within the thermal-plume model");
     else
-        snprintf(k->validity, sizeof k->validity, "no plume computed");
-    if (k->efolding_extrapolated) {
-        size_t l = strlen(k->validity);
-        snprintf(k->validity + l, sizeof k->validity - l, "; e-folding extrapolated beyond the run");
+        snprintf(text, n, "no plume computed");
+    if (efolding_extrapolated) {
+        size_t l = strlen(text);
+        snprintf(text + l, n - l, "; e-folding extrapolated beyond the run");
     }
 }
 

@@ -81,10 +81,13 @@
  * used reproduces the 1.69 Mt surface-burst cloud (top 21.6 km, bottom
  * 12.3 km) within the tolerance of tests/test_plume.c.  In the Boussinesq
  * limit it spans [2^-1/4, 1 + alpha] z_max.  Within the layer the mass is
- * placed where it is: densest at the neutral level, where the collapsing
- * thermal spreads as an umbrella, and thinning linearly to nothing at the top
- * of the overshoot (a triangular profile with its mode at z_N; Morton, Taylor
- * & Turner 1956; Sparks 1986; Woods 1988), not spread evenly.
+ * placed where it is: the umbrella's volume is widest at the neutral level,
+ * where the collapsing thermal spreads, and narrows linearly to nothing at
+ * the top of the overshoot (a triangular profile with its mode at z_N;
+ * Morton, Taylor & Turner 1956; Sparks 1986; Woods 1988), and its mass is
+ * that volume times the ambient density (the gas has come to rest near its
+ * level), so the overshoot, in thinner air, carries little of it
+ * (sl_injection_umbrella_weight; docs/physics.md section 6).
  *
  * Ballistic regime: see sl_plume_rise's helpers ballistic_weight and
  * ballistic_flight below (and docs/physics.md section 6).
@@ -863,11 +866,17 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     memset(out, 0, sizeof *out);
     out->kind = src->kind;
     double zlo = atm->altitude_m[0], zhi = atm->altitude_m[atm->n - 1];
-    if (!isfinite(src->altitude_m) || src->altitude_m < zlo || src->altitude_m > zhi)
+    if (!isfinite(src->altitude_m) || src->altitude_m < zlo)
         SL_FAIL_RETURN(e, SL_EDATA, "source altitude_m = %g is outside the atmosphere profile '%s' (valid range %g to %g m)",
                        src->altitude_m, atm->name, zlo, zhi);
+    /* A release centred above the profile's top (a fireball sized in the thin
+     * air of a very high burst, lifted off the surface by its own radius) has
+     * no air to rise through: it is wholly ballistic from the top of the
+     * profile (Melosh 1989 ch. 5), never an error. */
+    const int above_top = src->altitude_m > zhi;
+    const double z_src = above_top ? zhi : src->altitude_m;
     sl_atmos_state amb;
-    SL_TRY_RETURN(e, sl_atmosphere_at(atm, src->altitude_m, &amb, e));
+    SL_TRY_RETURN(e, sl_atmosphere_at(atm, z_src, &amb, e));
     start st = {0};
     SL_TRY_RETURN(e, source_state(src, &amb, &st, e));
 
@@ -883,7 +892,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
 
     out->source_altitude_m = src->altitude_m;
     out->source_radius_m = st.radius_m;
-    out->scale_height_m = amb.pressure_Pa / (amb.density_kg_m3 * gravity_m_s2(src->altitude_m));
+    out->scale_height_m = amb.pressure_Pa / (amb.density_kg_m3 * gravity_m_s2(z_src));
 
     /* Initial enthalpy with the water as given (vapour, liquid); the
      * equilibrium diagnosis then settles the phases at constant enthalpy. */
@@ -903,9 +912,9 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * best estimate this model has of how high the buoyant gas goes) and
      * flagged; see "Regime" in the header comment. */
     int blowout_at_start = fmax(r_fireball, st.radius_m) > out->scale_height_m;
-    out->ballistic_fraction = ballistic_weight(fmax(r_fireball, st.radius_m) / out->scale_height_m);
+    out->ballistic_fraction = above_top ? 1.0 : ballistic_weight(fmax(r_fireball, st.radius_m) / out->scale_height_m);
 
-    double w0 = src->vertical_speed_m_s, phi0 = potential_J_kg(src->altitude_m);
+    double w0 = src->vertical_speed_m_s, phi0 = potential_J_kg(z_src);
     double kin0 = 0.5 * (1.0 + w->k) * w0 * w0;
     out->energy_initial_J = H0 + M0 * (phi0 + kin0);
 
@@ -929,12 +938,12 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * (latent heat included: it is released as the expanding vapour
      * condenses). */
     double e_gas = (H0 - h_spray) / M1 - CPA * (amb.temperature_K - T_TRIPLE);
-    SL_TRY_RETURN(e, ballistic_flight(atm, src->altitude_m, M1, e_gas, out, e));
+    SL_TRY_RETURN(e, ballistic_flight(atm, z_src, M1, e_gas, out, e));
     if (out->ballistic_fraction >= 1.0) {
         /* Fully ballistic: no rise through the air; the gas phase flies and
          * re-enters, the spray has fallen back. */
         out->regime = SL_REGIME_BALLISTIC;
-        out->apex_time_s = 2.0 * out->launch_speed_m_s * sqrt(0.5) / gravity_m_s2(src->altitude_m);
+        out->apex_time_s = 2.0 * out->launch_speed_m_s * sqrt(0.5) / gravity_m_s2(z_src);
         out->apex_altitude_m = out->top_altitude_m = out->apogee_m;
         out->apex_radius_m = out->reentry_range_m;
         out->apex_scale_height_m = out->scale_height_m;
@@ -1117,13 +1126,16 @@ static int add_layer(sl_plume *pl, sl_injection *inj, const sl_atmosphere *atm, 
     if (ct <= band_lo)
         keep = 0.0;
     else if (cb < band_lo) {
-        double u = band_lo - cb;
         if (!tent)
             keep = (ct - band_lo) / (ct - cb);
-        else if (band_lo <= peak)
-            keep = 1.0 - u * u / ((ct - cb) * (peak - cb));
-        else
-            keep = (ct - band_lo) * (ct - band_lo) / ((ct - cb) * (ct - peak));
+        else {
+            /* The umbrella's mass share above the lowest band (placement by mass). */
+            sl_young_cloud whole = {cb, ct, 0.0, 0.0, peak};
+            double w_all, w_in;
+            SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, &whole, cb, ct, &w_all, e));
+            SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, &whole, band_lo, ct, &w_in, e));
+            keep = w_all > 0.0 ? w_in / w_all : 0.0;
+        }
     }
     pl->water_below_bands_kg += water * (1.0 - keep);
     if (keep == 0.0)
@@ -1200,10 +1212,10 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
         t_last = fmax(t_last, th->apex_time_s);
         /* The thermal part and the ballistic part, each in its layer. */
         double f = th->ballistic_fraction;
-        /* Placement by mass: the thermal's cloud is densest at its neutral-
-         * buoyancy level, where the umbrella spreads, and thins to nothing at
-         * the top of the overshoot (Morton, Taylor & Turner 1956; Sparks 1986;
-         * Woods 1988): a triangular profile with its mode at z_N. */
+        /* Placement by mass: the thermal's umbrella is widest at its neutral-
+         * buoyancy level and narrows to nothing at the top of the overshoot
+         * (Morton, Taylor & Turner 1956; Sparks 1986; Woods 1988): a triangular
+         * volume profile with its mode at z_N, times the ambient density. */
         SL_TRY_RETURN(e, add_layer(pl, inj, atm, th->cloud_bottom_m, th->cloud_top_m, th->neutral_altitude_m,
                                    th->air_kg * (1.0 - f), water * (1.0 - f), e));
         if (f > 0.0) {

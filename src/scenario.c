@@ -859,6 +859,26 @@ int sl_scenario_set_id(sl_scenario *sc, sl_param_id id, double value_si, sl_err 
     return SL_OK;
 }
 
+int sl_scenario_set_text(sl_scenario *sc, sl_param_id id, const char *text, sl_err *e)
+{
+    if ((int)id < 0 || id >= SL_P_COUNT || is_numeric((int)id))
+        SL_FAIL_RETURN(e, SL_EUSAGE, "scenario parameter %d is not a text key", (int)id);
+    const sl_param_def *d = &sl_scenario_params[id];
+    if (sc->kind != SL_SCENARIO_NONE && !param_active(sc, (int)id))
+        SL_FAIL_RETURN(e, SL_EUSAGE, "%s.%s does not apply to this scenario (no [%s] section)",
+                       d->section, d->key, d->section);
+    if (strlen(text) >= SL_SCENARIO_RAW_LEN)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "%s.%s: value longer than %d characters", d->section, d->key,
+                       SL_SCENARIO_RAW_LEN - 1);
+    snprintf(sc->raw[id], sizeof sc->raw[id], "%s", text);
+    sc->line[id] = 0;
+    SL_TRY_RETURN(e, convert_value(sc, (int)id, e));
+    sc->origin[id] = SL_ORIGIN_SET;
+    if (sc->finished)
+        SL_TRY_RETURN(e, resolve(sc, e));
+    return SL_OK;
+}
+
 int sl_scenario_set(sl_scenario *sc, const char *section_dot_key, double value_si, sl_err *e)
 {
     int id = sl_scenario_find(section_dot_key);

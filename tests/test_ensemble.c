@@ -4,6 +4,11 @@
 #include "sl_test.h"
 #include "steamloft/ensemble.h"
 #include "steamloft/units.h"
+#include "ens_reference.h"
+
+#include <dirent.h>
+#include <stdlib.h>
+#include <unistd.h>
 
 #include <gsl/gsl_sort.h>
 #include <gsl/gsl_statistics_double.h>
@@ -337,8 +342,9 @@ typedef struct row_log {
 } row_log;
 
 static int toy_row(void *sink, size_t m, const double *in, const double *out, int st,
-                   const char *reason, sl_err *e)
+                   const char *reason, const char *text, sl_err *e)
 {
+    (void)text;
     (void)in;
     (void)out;
     (void)e;
@@ -381,8 +387,8 @@ START_TEST(test_member_loop)
     sl_ens_model m = {NULL, 2, toy_outputs, toy_new, toy_free, toy_member, 0};
     sl_ens_result r1, r2;
     row_log l1 = {0, 0, 1, 0}, l2 = {0, 0, 1, 0};
-    sl_ens_run_opts o1 = {1, 100, 0, toy_row, &l1};
-    sl_ens_run_opts o2 = {2, 64, 0, toy_row, &l2};
+    sl_ens_run_opts o1 = {1, 100, 0, toy_row, &l1, NULL, NULL, 0};
+    sl_ens_run_opts o2 = {2, 64, 0, toy_row, &l2, NULL, NULL, 0};
     ck_assert_int_eq(sl_ens_run(&p, &m, &o1, &r1, &e), SL_OK);
     ck_assert_int_eq(sl_ens_run(&p, &m, &o2, &r2, &e), SL_OK);
     /* Rows arrive once per member, in member order. */
@@ -442,7 +448,7 @@ START_TEST(test_member_loop)
     sl_ens_threshold t;
     ck_assert_int_eq(sl_ens_parse_threshold("y1>1.6487212707", &t, &e), SL_OK);
     double pe, se;
-    sl_ens_exceedance(&r1, 1, &t, &pe, &se, &nok);
+    ck_assert_int_eq(sl_ens_exceedance(&r1, 1, &t, &pe, &se, &nok, &e), SL_OK);
     SL_CK_ABS(pe, 0.45 / 0.95, 5 * se);
     SL_CK_ABS(se, sqrt(pe * (1 - pe) / (double)nok), 1e-15);
 
@@ -463,8 +469,8 @@ START_TEST(test_member_loop)
 
     /* Sobol run across threads: identical too. */
     toy_plan(&p, SL_ENS_SOBOL, 999);
-    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){1, 7, 0, NULL, NULL}, &r1, &e), SL_OK);
-    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){2, 256, 0, NULL, NULL}, &r2, &e), SL_OK);
+    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){1, 7, 0, NULL, NULL, NULL, NULL, 0}, &r1, &e), SL_OK);
+    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){2, 256, 0, NULL, NULL, NULL, NULL, 0}, &r2, &e), SL_OK);
     ck_assert_int_eq(memcmp(r1.outputs, r2.outputs, 999 * 2 * sizeof(double)), 0);
     sl_ens_result_free(&r1);
     sl_ens_result_free(&r2);
@@ -535,7 +541,7 @@ START_TEST(test_missing_outputs)
     toy_plan(&p, SL_ENS_MONTE_CARLO, 4000);
     sl_ens_model m = {NULL, 2, gap_outputs, NULL, NULL, gap_member, 0};
     sl_ens_result r;
-    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){2, 0, 0, NULL, NULL}, &r, &e), SL_OK);
+    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){2, 0, 0, NULL, NULL, NULL, NULL, 0}, &r, &e), SL_OK);
     size_t fails = 0, applies = 0;
     for (size_t i = 0; i < r.n_members; i++) {
         double x = r.inputs[2 * i];
@@ -558,11 +564,11 @@ START_TEST(test_missing_outputs)
     ck_assert_uint_eq(nok, applies);
     ck_assert_double_ge(v[0], 1.0);
     SL_CK_ABS(v[1], 1.49, 5 * 0.98 * sqrt(0.25 / (double)nok) + 1e-3);
-    sl_ens_mean_sd(&r, 1, &mean, &sd, &nok);
+    ck_assert_int_eq(sl_ens_mean_sd(&r, 1, &mean, &sd, &nok, &e), SL_OK);
     ck_assert_uint_eq(nok, applies);
     SL_CK_ABS(mean, 1.49, 5 * 0.28 / sqrt((double)nok));
     sl_ens_threshold t = {"twice_x", 'l', 1.0};
-    sl_ens_exceedance(&r, 1, &t, &pe, &se, &nok);
+    ck_assert_int_eq(sl_ens_exceedance(&r, 1, &t, &pe, &se, &nok, &e), SL_OK);
     ck_assert_uint_eq(nok, applies);
     ck_assert(pe == 0.0 || pe < 2.0 / (double)nok);
     double rho;
@@ -616,7 +622,7 @@ START_TEST(test_first_order_ishigami)
     ck_assert_int_eq(sl_ens_plan_finish(&p, &e), SL_OK);
     sl_ens_model m = {NULL, 1, ishigami_outputs, NULL, NULL, ishigami_member, 0};
     sl_ens_result r;
-    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){2, 0, 0, NULL, NULL}, &r, &e), SL_OK);
+    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){2, 0, 0, NULL, NULL, NULL, NULL, 0}, &r, &e), SL_OK);
     const double pi4 = pow(SL_PI, 4), pi8 = pow(SL_PI, 8);
     double v = 49.0 / 8.0 + 0.1 * pi4 / 5.0 + 0.01 * pi8 / 18.0 + 0.5;
     double v1 = 0.5 * pow(1.0 + 0.1 * pi4 / 5.0, 2);
@@ -644,7 +650,7 @@ START_TEST(test_first_order_ishigami)
     ck_assert_int_eq(sl_ens_plan_add(&p, key, 1.0, &d, &e), SL_OK);
     p.mode = SL_ENS_GRID;
     ck_assert_int_eq(sl_ens_plan_finish(&p, &e), SL_OK);
-    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){1, 0, 0, NULL, NULL}, &r, &e), SL_OK);
+    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){1, 0, 0, NULL, NULL, NULL, NULL, 0}, &r, &e), SL_OK);
     double a1 = 0, a2 = 0, m1 = 0, m2 = 0;
     for (int k = 0; k < 10; k++) {
         double t = -2.5 + 0.5 * k;
@@ -680,7 +686,7 @@ START_TEST(test_sensitivity_batch)
     ck_assert_int_eq(sl_ens_plan_add(&p, "toy.c_1", 1.0, &d, &e), SL_OK);
     sl_ens_model m = {NULL, 2, gap_outputs, NULL, NULL, gap_member, 0};
     sl_ens_result r;
-    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){2, 0, 0, NULL, NULL}, &r, &e), SL_OK);
+    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){2, 0, 0, NULL, NULL, NULL, NULL, 0}, &r, &e), SL_OK);
     ck_assert_uint_gt(r.n_failed, 0);
     double rho[6], s1[6], a, b;
     ck_assert_int_eq(sl_ens_sensitivity(&r, rho, s1, &e), SL_OK);
@@ -703,6 +709,119 @@ END_TEST
  * bin (10^(0.5/100) - 1 = 1.16 %, DERIVED from the bin width), exact for
  * zeros and for p = 0 and 100, and identical when the values come in another
  * order (integer counts). */
+/* A model with ties and signed zeros (y1, y3), an output that does not apply
+ * to some members (y2), a constant output (y4) and failures (x0 > 0.97). */
+static int store_member(void *ws, void *ctx, const sl_ens_plan *plan, const double *in, double *out,
+                        sl_err *e)
+{
+    (void)ws;
+    (void)ctx;
+    (void)plan;
+    if (in[0] > 0.97)
+        SL_FAIL_RETURN(e, SL_ENUMERIC, "store model: x0 above 0.97");
+    out[0] = in[0] + 0.1 * in[1];
+    out[1] = in[2] * floor(4.0 * in[0]);
+    out[2] = in[1] < 0 ? NAN : in[1] * in[2];
+    out[3] = (in[1] > 0 ? 0.0 : -0.0) + floor(2.0 * in[0]);
+    out[4] = 1.5;
+    return SL_OK;
+}
+
+static const sl_ens_output store_outputs[] = {{"y0", "1", "sum", 0}, {"y1", "1", "ties", 0},
+                                              {"y2", "1", "gap", 1}, {"y3", "1", "zeros", 0},
+                                              {"y4", "1", "constant", 0}};
+
+/* Bit for bit, NAN equal to NAN. */
+static int same(double a, double b) { return (isnan(a) && isnan(b)) || memcmp(&a, &b, sizeof a) == 0; }
+
+START_TEST(test_column_store)
+{
+    /* The column store gives exactly the numbers of the in-memory path as it
+     * was before the store (tests/ens_reference.h): percentiles, mean and
+     * sd, exceedance, Spearman and first-order indices, on 5000 members
+     * (two store flushes, the second partial), 2 threads. */
+    sl_err e;
+    sl_ens_plan p;
+    toy_plan(&p, SL_ENS_MONTE_CARLO, 5000);
+    sl_dist d;
+    ck_assert_int_eq(sl_dist_parse("choice(1, 2, 3)", "c_1", "t", &d, &e), SL_OK);
+    ck_assert_int_eq(sl_ens_plan_add(&p, "toy.c_1", 1.0, &d, &e), SL_OK);
+    sl_ens_model m = {NULL, 5, store_outputs, NULL, NULL, store_member, 0};
+    char dir[] = "/tmp/sl-store-test-XXXXXX";
+    ck_assert_ptr_nonnull(mkdtemp(dir));
+    sl_ens_result rm, rd;
+    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){2, 1000, 0, NULL, NULL, NULL, NULL, 0}, &rm, &e), SL_OK);
+    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){2, 1000, 0, NULL, NULL, dir, NULL, 0}, &rd, &e), SL_OK);
+    ck_assert(rd.on_disk && rd.inputs == NULL && rd.outputs == NULL && !rm.on_disk);
+    ck_assert_uint_gt(rm.n_failed, 0);
+    ck_assert_uint_eq(rm.n_failed, rd.n_failed);
+    /* The store file was unlinked at once: the directory is empty. */
+    DIR *dd = opendir(dir);
+    ck_assert_ptr_nonnull(dd);
+    size_t entries = 0;
+    for (struct dirent *de; (de = readdir(dd)) != NULL;)
+        entries += strcmp(de->d_name, ".") != 0 && strcmp(de->d_name, "..") != 0;
+    closedir(dd);
+    ck_assert_uint_eq(entries, 0);
+    /* The columns read back exactly. */
+    double *col = malloc(5000 * sizeof *col);
+    for (size_t c = 0; c < 8; c++) {
+        ck_assert_int_eq(sl_ens_column(&rd, c, col, &e), SL_OK);
+        for (size_t q = 0; q < 5000; q++)
+            ck_assert(same(col[q], c < 3 ? rm.inputs[q * 3 + c] : rm.outputs[q * 5 + c - 3]));
+    }
+    free(col);
+    const double pct[5] = {0, 5, 50, 95, 100};
+    sl_ens_threshold t = {"", 'g', 1.0};
+    for (size_t j = 0; j < 5; j++) {
+        double a[5], b[5], ma, sa, mb, sb, pa, ea, pb, eb;
+        size_t na, nb;
+        ck_assert_int_eq(ref_percentiles(&rm, j, pct, 5, a, &na, &e), SL_OK);
+        ck_assert_int_eq(sl_ens_percentiles(&rd, j, pct, 5, b, &nb, &e), SL_OK);
+        ck_assert_uint_eq(na, nb);
+        for (int q = 0; q < 5; q++)
+            ck_assert_msg(same(a[q], b[q]), "output %zu p%g: %.17g vs %.17g", j, pct[q], a[q], b[q]);
+        ref_mean_sd(&rm, j, &ma, &sa, &na);
+        ck_assert_int_eq(sl_ens_mean_sd(&rd, j, &mb, &sb, &nb, &e), SL_OK);
+        ck_assert(same(ma, mb) && same(sa, sb) && na == nb);
+        ref_exceedance(&rm, j, &t, &pa, &ea, &na);
+        ck_assert_int_eq(sl_ens_exceedance(&rd, j, &t, &pb, &eb, &nb, &e), SL_OK);
+        ck_assert(same(pa, pb) && same(ea, eb) && na == nb);
+        for (size_t i = 0; i < 3; i++) {
+            ck_assert_int_eq(ref_spearman(&rm, i, j, &pa, &e), SL_OK);
+            ck_assert_int_eq(sl_ens_spearman(&rd, i, j, &pb, &e), SL_OK);
+            ck_assert_msg(same(pa, pb), "rho %zu %zu: %.17g vs %.17g", j, i, pa, pb);
+            ck_assert_int_eq(ref_first_order(&rm, i, j, &pa, &e), SL_OK);
+            ck_assert_int_eq(sl_ens_first_order(&rd, i, j, &pb, &e), SL_OK);
+            ck_assert_msg(same(pa, pb), "s1 %zu %zu: %.17g vs %.17g", j, i, pa, pb);
+        }
+    }
+    double ra[15], sa[15], rb[15], sb[15], rc[15], sc[15];
+    ck_assert_int_eq(ref_sensitivity(&rm, ra, sa, &e), SL_OK);
+    ck_assert_int_eq(sl_ens_sensitivity(&rd, rb, sb, &e), SL_OK);
+    ck_assert_int_eq(sl_ens_sensitivity(&rm, rc, sc, &e), SL_OK);
+    size_t finite = 0;
+    for (int q = 0; q < 15; q++) {
+        ck_assert_msg(same(ra[q], rb[q]) && same(ra[q], rc[q]), "rho %d: %.17g %.17g %.17g", q, ra[q], rb[q], rc[q]);
+        ck_assert_msg(same(sa[q], sb[q]) && same(sa[q], sc[q]), "s1 %d: %.17g %.17g %.17g", q, sa[q], sb[q], sc[q]);
+        finite += isfinite(ra[q]) && isfinite(sa[q]);
+    }
+    /* The constant output y4 has none, the other outputs all 3 inputs. */
+    ck_assert_uint_eq(finite, 12);
+    ck_assert(isnan(ra[12]) && isnan(sa[14]));
+    sl_ens_result_free(&rm);
+    sl_ens_result_free(&rd);
+    /* A store that cannot be made fails before any member runs. */
+    char gone[sizeof dir + 8];
+    snprintf(gone, sizeof gone, "%s/none", dir);
+    ck_assert_int_eq(sl_ens_run(&p, &m, &(sl_ens_run_opts){1, 0, 0, NULL, NULL, gone, NULL, 0}, &rd, &e), SL_ECANTCREAT);
+    ck_assert_ptr_nonnull(strstr(e.msg, "member store"));
+    sl_ens_result_free(&rd);
+    ck_assert_int_eq(rmdir(dir), 0);
+    sl_ens_plan_free(&p);
+}
+END_TEST
+
 START_TEST(test_binned_percentiles)
 {
     enum { N = 2001 };
@@ -764,6 +883,7 @@ static Suite *ensemble_suite(void)
     tcase_add_test(tc, test_first_order_ishigami);
     tcase_add_test(tc, test_sensitivity_batch);
     tcase_add_test(tc, test_binned_percentiles);
+    tcase_add_test(tc, test_column_store);
     suite_add_tcase(s, tc);
     return s;
 }

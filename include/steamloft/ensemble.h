@@ -36,7 +36,8 @@
  * is not a Monte Carlo standard error.
  *
  * Grid (sweep): each swept key takes a list of values; members run through the
- * Cartesian product with the LAST key varying fastest.
+ * Cartesian product with the LAST key varying fastest.  A text key's list is
+ * the indices of its texts (sl_ens_input.labels).
  *
  * Determinism: members are computed in blocks; each member's inputs, outputs,
  * status and reason are stored in its own slot, and everything that reduces
@@ -45,8 +46,15 @@
  * bit-identical for any number of threads and ranks.
  *
  * Memory: the run keeps only the scalar inputs, scalar key outputs and a
- * status per member (8 (n_in + n_out) + 4 bytes per member); per-member rows,
- * including failure reasons, are streamed to the row callback block by block.
+ * status per member; per-member rows, including failure reasons, are
+ * streamed to the row callback block by block.  In memory the scalars take
+ * 8 (n_in + n_out) + 4 bytes per member; with a column store
+ * (sl_ens_run_opts.store_dir) only the status stays in memory (4 bytes per
+ * member) and the scalars go to a file, one column of doubles per input and
+ * output, which the statistics read back one column at a time (exactly the
+ * same doubles, so exactly the same numbers).  The statistics then hold
+ * about 45 bytes per member at their peak (a few columns, 32-bit member
+ * indices, the sort space of one column).
  *
  * Statistics: percentiles by gsl_sort + gsl_stats_quantile_from_sorted_data
  * (linear interpolation between order statistics, Hyndman & Fan 1996 type 7),
@@ -88,6 +96,10 @@ typedef struct sl_ens_input {
     char key[SL_ENS_KEY_LEN]; /* "section.key" as in the scenario */
     double to_si;             /* multiply a value in the key's unit to get SI */
     sl_dist dist;             /* GRID uses dist.kind == SL_DIST_CHOICE */
+    char **labels;            /* a text key's values (owned), NULL for a numeric key: the
+                               * input's value is then the index 0..n_labels-1 of the text
+                               * (dist a CHOICE of the indices, to_si 1; sweep_rows.c) */
+    size_t n_labels;
 } sl_ens_input;
 
 typedef struct sl_ens_plan {
@@ -160,9 +172,19 @@ typedef struct sl_ens_model {
 /* Called serially, in member order, on MPI rank 0, once per member: inputs in
  * the keys' units, outputs (n_outputs key outputs then n_extra extras;
  * undefined when status != SL_OK), status and reason
- * ("" when ok).  Returning non-SL_OK stops the run with that status. */
+ * ("" when ok), and the member's TEXT made by the format callback (NULL
+ * without one).  Returning non-SL_OK stops the run with that status. */
 typedef int (*sl_ens_row_fn)(void *sink, size_t member, const double *inputs,
-                             const double *outputs, int status, const char *reason, sl_err *e);
+                             const double *outputs, int status, const char *reason, const char *text,
+                             sl_err *e);
+
+/* Optional: turn a member's row into text (a CSV line) in parallel, on MPI
+ * rank 0, for the members of each gathered block before their row calls:
+ * the OpenMP threads each format their own members into their own slots,
+ * so the serial part only writes the text.  Must be thread-safe and only
+ * read SINK; writes at most CAP bytes including the NUL. */
+typedef void (*sl_ens_format_fn)(const void *sink, size_t member, const double *inputs, const double *outputs,
+                                 int status, const char *reason, char *text, size_t cap);
 
 typedef struct sl_ens_run_opts {
     int n_threads;      /* 0: OpenMP default (OMP_NUM_THREADS) */
@@ -170,13 +192,20 @@ typedef struct sl_ens_run_opts {
     int progress;       /* 1: draw the progress bar on stderr (caller checks isatty) */
     sl_ens_row_fn row;  /* may be NULL */
     void *sink;
+    const char *store_dir; /* NULL: keep the scalars in memory; else rank 0
+                            * keeps them in a column file made in this
+                            * directory (mkstemp) and unlinked at once, so
+                            * nothing is left behind even if the process is
+                            * killed; the kernel frees it at the last close */
+    sl_ens_format_fn format; /* may be NULL */
+    size_t format_cap;       /* bytes of text per member (with the NUL) */
 } sl_ens_run_opts;
 
 /* What a run keeps: the scalars of every member (on MPI rank 0 only). */
 typedef struct sl_ens_result {
     size_t n_members, n_inputs, n_outputs;
-    double *inputs;   /* n_members x n_inputs, keys' units */
-    double *outputs;  /* n_members x n_outputs; NAN for failed members */
+    double *inputs;   /* n_members x n_inputs, keys' units (NULL with a store) */
+    double *outputs;  /* n_members x n_outputs; NAN for failed members (NULL with a store) */
     int *status;      /* SL_OK or the member's failure status */
     size_t n_failed;
     char first_failure[SL_ENS_REASON_LEN]; /* reason of the lowest failed member */
@@ -184,6 +213,13 @@ typedef struct sl_ens_result {
     int mpi_ranks;    /* ranks that shared the run (1 without MPI) */
     int threads;      /* OpenMP threads per rank */
     double wall_s;    /* wall-clock seconds of the member loop */
+    /* The column store (store_dir): column c (inputs, then outputs) of
+     * member m at byte 8 (c n_members + m); after the columns, scratch space
+     * of sl_ens_sensitivity. */
+    int on_disk, store_fd;
+    double *store_buf; /* rows not yet written, then one column of them */
+    size_t store_rows; /* rows in store_buf */
+    size_t store_first; /* member of its first row */
 } sl_ens_result;
 
 /* Run every member of the plan.  With SL_HAVE_MPI and MPI initialised by the
@@ -231,9 +267,14 @@ int sl_ens_agree(int status, sl_err *e);
 int sl_ens_percentiles(const sl_ens_result *r, size_t j, const double *pct, size_t np,
                        double *vals, size_t *n_ok, sl_err *e);
 
+/* Column C of the result (inputs 0..n_inputs-1, then the outputs) of every
+ * member into BUF[0..n_members-1], from memory or from the column store.
+ * Errors: SL_EIO (a read of the store failed). */
+int sl_ens_column(const sl_ens_result *r, size_t c, double *buf, sl_err *e);
+
 /* Mean and sample standard deviation of output j over successful members
- * (summed in member order). */
-void sl_ens_mean_sd(const sl_ens_result *r, size_t j, double *mean, double *sd, size_t *n_ok);
+ * (summed in member order).  Errors: SL_ENOMEM, SL_EIO (the store). */
+int sl_ens_mean_sd(const sl_ens_result *r, size_t j, double *mean, double *sd, size_t *n_ok, sl_err *e);
 
 /* A threshold test "NAME>VALUE", "NAME>=VALUE", "NAME<VALUE" or "NAME<=VALUE". */
 typedef struct sl_ens_threshold {
@@ -246,9 +287,9 @@ typedef struct sl_ens_threshold {
 int sl_ens_parse_threshold(const char *spec, sl_ens_threshold *t, sl_err *e);
 
 /* Fraction of successful members whose output j satisfies t, and its binomial
- * standard error.  NAN when no member succeeded. */
-void sl_ens_exceedance(const sl_ens_result *r, size_t j, const sl_ens_threshold *t, double *p,
-                       double *stderr_p, size_t *n_ok);
+ * standard error.  NAN when no member succeeded.  Errors: SL_ENOMEM, SL_EIO. */
+int sl_ens_exceedance(const sl_ens_result *r, size_t j, const sl_ens_threshold *t, double *p,
+                      double *stderr_p, size_t *n_ok, sl_err *e);
 
 /* Spearman rank correlation between input i and output j over successful
  * members (NAN when fewer than 3, or when either is constant).  Errors:
@@ -276,7 +317,10 @@ int sl_ens_first_order(const sl_ens_result *r, size_t i, size_t j, double *s1, s
  * sl_ens_spearman and sl_ens_first_order to rounding, but each input is
  * sorted once and each output once, instead of once per pair (a
  * 1,000,000-member run with 5 inputs and 24 outputs: seconds, not minutes).
- * Errors: SL_ENOMEM. */
+ * Memory: 45 bytes per member (with a column store the sorted order of each
+ * input goes to the store file; in memory it takes 4 n_inputs bytes more).
+ * At most 2^32 - 1 members (32-bit member indices).  Errors: SL_ENOMEM,
+ * SL_EUSAGE (too many members), SL_EIO (the store). */
 int sl_ens_sensitivity(const sl_ens_result *r, double *rho, double *s1, sl_err *e);
 
 /* ------------------------------------------------------------ progress bar */

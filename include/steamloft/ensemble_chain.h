@@ -3,7 +3,9 @@
  *
  * The plan: every scenario value written as a distribution (ensemble) or
  * every --vary key (sweep) becomes an uncertain input (ensemble.h); its law
- * must stay inside the key's valid range where it is bounded.
+ * must stay inside the key's valid range where it is bounded.  A text key
+ * on --vary (sweep_rows.h) is an input whose value is the index of its text;
+ * members set the text with sl_scenario_set_text.
  * The model: the ordinary chain (chain.h) on a copy of the scenario with the
  * member's values set through sl_scenario_set_id (ranges and derived
  * defaults checked exactly as for one run); the key outputs are the stage

@@ -77,9 +77,17 @@ typedef struct sl_young_cloud {
     double bottom_m, top_m;    /* the layer (bottom <= top; equal for a thin sheet) */
     double air_kg;             /* dry air in the cloud */
     double water_kg;           /* all its water: vapour, liquid and ice */
-    double peak_m;             /* where its mass is densest (a triangular profile from bottom to top
-                                * with its mode here); outside [bottom, top] or NaN: uniform */
+    double peak_m;             /* the umbrella's mode: its volume spread by a triangular profile from
+                                * bottom to top with its mode here, its mass that volume times the
+                                * ambient density; outside [bottom, top] or NaN: uniform */
 } sl_young_cloud;
+
+/* Weight of the umbrella profile of cloud C between Z0 and Z1: the integral of
+ * the triangular profile times the ambient density of ATM (kg/m3; the share
+ * of the cloud's mass there is this over the weight of the whole layer).
+ * Allocates nothing; errors of the atmosphere query are passed on. */
+int sl_injection_umbrella_weight(const sl_atmosphere *atm, const sl_young_cloud *c, double z0, double z1, double *w,
+                                 sl_err *e);
 
 /* What the freeze-out did with a cloud's water (kg).  water_kg of the cloud =
  * vapour anomaly added + ice added + sedimented_kg + background_kg. */
@@ -91,8 +99,9 @@ typedef struct sl_freeze_out {
 } sl_freeze_out;
 
 /* Freeze-out in the young cloud, then add its water to INJ.  The cloud's air
- * and water are spread in altitude over its layer, uniformly or with the
- * triangular profile peaked at peak_m; in each band the
+ * and water are spread in altitude over its layer, uniformly or, with a peak
+ * (the umbrella), by mass: the triangular profile peaked at peak_m times the
+ * ambient density (sl_injection_umbrella_weight); in each band the
  * cloud takes the ambient temperature and pressure of ATM at the middle of the
  * overlap, keeps vapour up to ice saturation, and turns the rest into ice, of
  * which SEDIMENT_FRACTION (0 to 1) falls out.  The band gets the vapour in

@@ -1,7 +1,8 @@
 /* output_ensemble: what an ensemble or sweep writes (see ensemble_chain.h).
  *
  * Per-member rows stream in member order through sl_ens_sink_row (the row
- * callback of sl_ens_run) to
+ * callback of sl_ens_run; the CSV lines are formatted beforehand by the
+ * OpenMP threads through sl_ens_sink_format, so rank 0 only writes them) to
  *   CSV     member,status,reason, the inputs in their keys' units, the key
  *           outputs (empty where a member failed or an output does not
  *           apply); numbers with the fewest digits (15-17) that read back
@@ -56,6 +57,7 @@ typedef struct sl_ens_sink {
     size_t n_ok;
     int csv_closed;         /* the staged CSV is complete, waiting for the commit */
     struct sl_ens_summary *summary; /* owned (sl_ens_sink_summarize) */
+    struct sl_sweep_rows *rows;     /* owned: a sweep's per-point rows (sweep_rows.h), NULL otherwise */
 } sl_ens_sink;
 
 /* Stage the requested files and define the netCDF (before the run, on rank
@@ -64,9 +66,17 @@ typedef struct sl_ens_sink {
 int sl_ens_sink_open(sl_ens_sink *s, const sl_ens_request *rq, const sl_cli_globals *g, const sl_ens_plan *p,
                      const sl_ens_model *m, const sl_ens_chain *c, const int *ids, sl_err *e);
 
-/* The row callback (sl_ens_row_fn); SINK is an sl_ens_sink. */
+/* The format callback (sl_ens_format_fn): the member's CSV line (empty
+ * without a CSV), in parallel; sl_ens_sink_row_cap bytes are enough for any
+ * line.  SINK is an sl_ens_sink. */
+void sl_ens_sink_format(const void *sink, size_t member, const double *inputs, const double *outputs,
+                        int status, const char *reason, char *text, size_t cap);
+size_t sl_ens_sink_row_cap(const sl_ens_plan *p, const sl_ens_model *m);
+
+/* The row callback (sl_ens_row_fn); SINK is an sl_ens_sink, TEXT the line
+ * of sl_ens_sink_format. */
 int sl_ens_sink_row(void *sink, size_t member, const double *inputs, const double *outputs, int status,
-                    const char *reason, sl_err *e);
+                    const char *reason, const char *text, sl_err *e);
 
 /* After the run: the percentile variables, close the files (still staged). */
 int sl_ens_sink_finish(sl_ens_sink *s, sl_err *e);

@@ -98,6 +98,13 @@ typedef struct sl_key_results {
 
 void sl_output_key_results(const sl_chain *ch, sl_key_results *k);
 
+/* The validity wording of sl_key_results from the plume regime (REGIME an
+ * sl_plume_regime, ignored without a plume) and whether the e-folding time
+ * was extrapolated: a few words (SHORT_TEXT) and in full (TEXT).  Also used
+ * for the rows of a sweep. */
+void sl_output_validity(int have_plume, int regime, int efolding_extrapolated, char *short_text, size_t ns,
+                        char *text, size_t n);
+
 /* The summary of a finished chain.  Text: it opens with the answer (water
  * above the tropopause, share of the background, e-folding time, regime,
  * validity), then the water budget and the stages in the order of the

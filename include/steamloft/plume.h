@@ -9,8 +9,9 @@
  * its humidity; latent heats of the water module) and fallout of condensate.
  * The apex is found by event detection (root of w(t)).  The young cloud spans
  * the layer from the neutral-buoyancy level to the highest reach of the
- * thermal's top (apex + radius), the umbrella layer of Sparks (1986), its mass
- * densest at the neutral level and thinning to the top (triangular profile).
+ * thermal's top (apex + radius), the umbrella layer of Sparks (1986), its volume
+ * widest at the neutral level and narrowing to the top (triangular profile), its
+ * mass that volume times the ambient density.
  * Releases wider than the scale height are partly or wholly ballistic
  * (sl_plume_regime; plume.c "Ballistic regime").
  * Several sources rise on their own; their water adds up in the injection

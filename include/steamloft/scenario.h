@@ -353,6 +353,16 @@ int sl_scenario_find(const char *section_dot_key);
 int sl_scenario_set(sl_scenario *sc, const char *section_dot_key, double value_si, sl_err *e);
 int sl_scenario_set_id(sl_scenario *sc, sl_param_id id, double value_si, sl_err *e);
 
+/* Set text or choice key ID to TEXT (a word, a profile name or a file path,
+ * as it would be written in the file), converted and checked as
+ * sl_scenario_finish does (SL_EDATA naming the valid choices), marked
+ * SL_ORIGIN_SET (line 0: a relative path is taken from the working
+ * directory) and, on a finished scenario, derived defaults re-resolved.
+ * SL_EUSAGE for a numeric key, a key of a section not in use, or text longer
+ * than SL_SCENARIO_RAW_LEN - 1.  Allocates nothing (sweeps call it per
+ * member). */
+int sl_scenario_set_text(sl_scenario *sc, sl_param_id id, const char *text, sl_err *e);
+
 /* SI value of a numeric key (NaN when unset). */
 double sl_scenario_value(const sl_scenario *sc, sl_param_id id);
 /* Whether a key has a value (given, defaulted, derived or set). */

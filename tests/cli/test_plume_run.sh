@@ -138,6 +138,20 @@ print("# apogee %.0f km, re-entry footprint %.0f km across" % (t["apogee_m"] / 1
 PY
 then sl_ok "1 km body: water above 100 km, back over more than 1000 km"; else sl_fail "1 km body ballistic reach"; fi
 
+# The top of the explosion range high up: 1e5 Mt at 80 km.  Its fireball,
+# sized in the thin air there, would be centred far above the profile's top;
+# it is wholly ballistic (a regime, not an error: issue 17's range sweep
+# found these exiting 65 with a message about an internal altitude).
+printf '[explosion]\nenergy_Mt = 1e5\naltitude_m = 80000\n[site]\nlatitude_deg = 10\natmosphere = tropical\n' >"$SL_TMP/hi.ini"
+sl_expect_exit 0 "1e5 Mt at 80 km runs" "$SL_BIN" run --json "$SL_TMP/hi.ini"
+if /usr/bin/python3 - "$SL_TMP/out" <<'PY'
+import json, sys
+d = json.load(open(sys.argv[1]))
+assert all(t["regime"] == "ballistic" for t in d["thermals"]), [t["regime"] for t in d["thermals"]]
+assert d.get("validity"), "no validity key"
+PY
+then sl_ok "1e5 Mt at 80 km: ballistic, with a validity key"; else sl_fail "1e5 Mt at 80 km regime"; fi
+
 # Mistakes in [plume].
 printf '[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 0\n[plume]\nentrainment_coefficient = 1.5\n' >"$SL_TMP/bad1.ini"
 sl_expect_exit 65 "entrainment coefficient out of range" "$SL_BIN" run "$SL_TMP/bad1.ini"
