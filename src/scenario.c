@@ -835,20 +835,23 @@ int sl_scenario_set_id(sl_scenario *sc, sl_param_id id, double value_si, sl_err 
     if ((int)id < 0 || id >= SL_P_COUNT || !is_numeric((int)id))
         SL_FAIL_RETURN(e, SL_EUSAGE, "scenario parameter %d is not numeric", (int)id);
     const sl_param_def *d = &sl_scenario_params[id];
-    char range[96];
-    sl_scenario_range_text(id, range, sizeof range);
+    char range[96]; /* the valid range as text: formatted only for a message */
     if (sc->kind != SL_SCENARIO_NONE && !param_active(sc, (int)id))
         SL_FAIL_RETURN(e, SL_EUSAGE, "%s.%s does not apply to this scenario (no [%s] section)",
                        d->section, d->key, d->section);
     double f = to_si_factor((int)id);
     double v = value_si / f; /* back in the key's unit for the range check */
     double slack = 1e-12 * fmax(fabs(d->min_value), fabs(d->max_value));
-    if (!isfinite(value_si) || v < d->min_value - slack || v > d->max_value + slack)
+    if (!isfinite(value_si) || v < d->min_value - slack || v > d->max_value + slack) {
+        sl_scenario_range_text(id, range, sizeof range);
         SL_FAIL_RETURN(e, SL_EDATA, "%s: %s.%s = %g %s (SI %g) is out of range (valid range: %s)",
                        sc->path, d->section, d->key, v, sl_scenario_unit_symbol(id), value_si, range);
-    if (d->type == SL_PT_INT && v != floor(v))
+    }
+    if (d->type == SL_PT_INT && v != floor(v)) {
+        sl_scenario_range_text(id, range, sizeof range);
         SL_FAIL_RETURN(e, SL_EDATA, "%s: %s.%s = %g is not an integer (valid range: %s)", sc->path,
                        d->section, d->key, v, range);
+    }
     sc->value_si[id] = value_si;
     sc->origin[id] = SL_ORIGIN_SET;
     if (sc->finished)

@@ -42,6 +42,7 @@
 #include "steamloft/units.h"
 
 #include <math.h>
+#include <stddef.h>
 
 /* Molar mass of water, kg/mol (units.h); mass ratio water/dry air. */
 #define M_W SL_MOLAR_MASS_H2O_KG_MOL
@@ -55,6 +56,47 @@ double sl_water_esat_ice_Pa(double temperature_K)
     return exp(9.550426 - 5723.265 / t + 3.53068 * log(t) - 0.00728332 * t);
 }
 
+/* ln(e_s / p_c) of Wagner & Pruss (1993) at T (K), and its first and second
+ * derivatives in T (analytic, from the same six terms): one expression for
+ * the pressure and for its slopes. */
+static double wp_log(double t, double *d1, double *d2)
+{
+    static const double tc = 647.096;
+    static const double a1 = -7.85951783, a2 = 1.84408259, a3 = -11.7866497, a4 = 22.6807411,
+                        a5 = -15.9618719, a6 = 1.80122502;
+    const double th = 1.0 - t / tc;
+    const double s = sqrt(th);
+    const double th3 = th * th * th;
+    const double P = a1 * th + a2 * th * s + a3 * th3 + a4 * th3 * s + a5 * th3 * th + a6 * th3 * th3 * th * s;
+    if (d1) {
+        const double th2 = th * th;
+        /* dP/dth and d2P/dth2; d(th)/dT = -1/tc. */
+        const double P1 = a1 + 1.5 * a2 * s + 3.0 * a3 * th2 + 3.5 * a4 * th2 * s + 4.0 * a5 * th3 +
+                          7.5 * a6 * th3 * th3 * s;
+        const double P2 = 0.75 * a2 / s + 6.0 * a3 * th + 8.75 * a4 * th * s + 12.0 * a5 * th2 +
+                          48.75 * a6 * th3 * th2 * s;
+        /* g = (tc/T) P: g' = -(tc P / T + P1) / T, g'' = 2 tc P / T^3 + 2 P1 / T^2 + P2 / (tc T). */
+        *d1 = -(tc * P / t + P1) / t;
+        *d2 = 2.0 * tc * P / (t * t * t) + 2.0 * P1 / (t * t) + P2 / (tc * t);
+    }
+    return tc / t * P;
+}
+
+double sl_water_esat_slopes_Pa(double temperature_K, double *dln_dT, double *d2ln_dT2)
+{
+    const double t = temperature_K;
+    if (!(t > 0.0) || t >= 647.096) {
+        *dln_dT = *d2ln_dT2 = NAN;
+        return NAN;
+    }
+    if (t >= SL_T_TRIPLE_K)
+        return 22.064e6 * exp(wp_log(t, dln_dT, d2ln_dT2));
+    /* Murphy & Koop eq. 7 differentiated. */
+    *dln_dT = 5723.265 / (t * t) + 3.53068 / t - 0.00728332;
+    *d2ln_dT2 = -2.0 * 5723.265 / (t * t * t) - 3.53068 / (t * t);
+    return sl_water_esat_ice_Pa(t);
+}
+
 /* Murphy & Koop 2005 eq. 10, liquid and supercooled water. */
 static double esat_liquid_mk(double t)
 {
@@ -66,15 +108,7 @@ static double esat_liquid_mk(double t)
 /* IAPWS 1992 (Wagner & Pruss 1993) saturation pressure over liquid water. */
 static double esat_liquid_wp(double t)
 {
-    static const double tc = 647.096, pc = 22.064e6;
-    static const double a1 = -7.85951783, a2 = 1.84408259, a3 = -11.7866497, a4 = 22.6807411,
-                        a5 = -15.9618719, a6 = 1.80122502;
-    const double th = 1.0 - t / tc;
-    const double s = sqrt(th);
-    const double th3 = th * th * th;
-    return pc * exp(tc / t *
-                    (a1 * th + a2 * th * s + a3 * th3 + a4 * th3 * s + a5 * th3 * th +
-                     a6 * th3 * th3 * th * s));
+    return 22.064e6 * exp(wp_log(t, NULL, NULL));
 }
 
 double sl_water_esat_liquid_Pa(double temperature_K)

@@ -28,6 +28,10 @@ double sl_water_esat_ice_Pa(double temperature_K);
 double sl_water_esat_liquid_Pa(double temperature_K);
 /* Over liquid above 273.16 K, over ice below: the phase the plume condenses into. */
 double sl_water_esat_Pa(double temperature_K);
+/* The same pressure as sl_water_esat_Pa (to the last bit), with the first and
+ * second derivatives of its logarithm in T (K^-1, K^-2) from the same
+ * equations, for Newton-type solves; NaN outside 0-647.096 K. */
+double sl_water_esat_slopes_Pa(double temperature_K, double *dln_dT, double *d2ln_dT2);
 /* Frost point for water partial pressure E_PA, K: the exact inverse of
  * sl_water_esat_ice_Pa (Newton, started from Murphy & Koop eq. 8). */
 double sl_water_frost_point_K(double vapor_pressure_Pa);
