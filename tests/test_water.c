@@ -168,6 +168,28 @@ START_TEST(test_moist_air)
 }
 END_TEST
 
+/* The analytic slopes of ln e_sat (used by the plume's Halley solve) against
+ * central differences of sl_water_esat_Pa itself (an analytic check, common
+ * practice): the pressure is the same to the bit, the first derivative agrees
+ * to 1e-7 and the second to 1e-4 relative, on the ice and the liquid branch. */
+START_TEST(test_esat_slopes)
+{
+    const double T[] = {150.0, 200.0, 250.0, 273.0, 273.3, 300.0, 373.15, 500.0, 640.0};
+    for (size_t i = 0; i < sizeof T / sizeof T[0]; i++) {
+        double d1 = NAN, d2 = NAN;
+        double e = sl_water_esat_slopes_Pa(T[i], &d1, &d2);
+        ck_assert_msg(e == sl_water_esat_Pa(T[i]), "T %g: pressure %.17g vs %.17g", T[i], e, sl_water_esat_Pa(T[i]));
+        double h = 1e-3 * T[i] * 1e-2;
+        double lp = log(sl_water_esat_Pa(T[i] + h)), l0 = log(e), lm = log(sl_water_esat_Pa(T[i] - h));
+        double f1 = (lp - lm) / (2.0 * h), f2 = (lp - 2.0 * l0 + lm) / (h * h);
+        ck_assert_msg(fabs(d1 - f1) <= 1e-7 * fabs(f1), "T %g: dln/dT %.10g vs %.10g", T[i], d1, f1);
+        ck_assert_msg(fabs(d2 - f2) <= 1e-4 * fabs(f2), "T %g: d2ln/dT2 %.10g vs %.10g", T[i], d2, f2);
+    }
+    double d1 = 0.0, d2 = 0.0;
+    ck_assert(isnan(sl_water_esat_slopes_Pa(700.0, &d1, &d2)));
+}
+END_TEST
+
 START_TEST(test_seawater)
 {
     /* Fresh water (S = 0) from 288.15 K to vapour at 1 atm equals the IAPWS-95
@@ -207,6 +229,7 @@ static Suite *water_suite(void)
     tcase_add_test(tc, test_latent_heats);
     tcase_add_test(tc, test_moist_air);
     tcase_add_test(tc, test_seawater);
+    tcase_add_test(tc, test_esat_slopes);
     suite_add_tcase(s, tc);
     return s;
 }
