@@ -1127,31 +1127,50 @@ static int keyed_cmp(const void *pa, const void *pb)
     return (a->m > b->m) - (a->m < b->m);
 }
 
-/* ORDER[0..n-1] = the members MEM[k] (k when MEM is NULL) sorted by their
- * value COL[member] (ties by member). */
-static void sort_members(keyed *work, const double *col, const uint32_t *mem, size_t n, uint32_t *order)
+/* ORDER[0..ns-1] = the members m with IN[m] (all n members when IN is NULL)
+ * sorted by their value COL[m] (ties by member); returns ns.  The sort space
+ * WORK is two columns of doubles whose first column is COL: the values are
+ * compacted to the front in member order, then spread to (value, member)
+ * pairs from the back (pair k fills doubles 2k and 2k+1, all at or above k
+ * and read already), so no third column is needed; COL is overwritten. */
+static size_t sort_members(keyed *work, double *col, const unsigned char *in, size_t n, uint32_t *order)
 {
-    for (size_t k = 0; k < n; k++) {
-        work[k].m = mem ? mem[k] : (uint32_t)k;
-        work[k].v = col[work[k].m];
+    size_t ns = n;
+    if (in) {
+        ns = 0;
+        for (size_t m = 0; m < n; m++)
+            if (in[m])
+                col[ns++] = col[m];
     }
-    qsort(work, n, sizeof *work, keyed_cmp);
-    for (size_t k = 0; k < n; k++)
+    size_t k = ns;
+    for (size_t m = n; m-- > 0 && k > 0;) {
+        if (in && !in[m])
+            continue;
+        k--;
+        double v = col[k];
+        work[k].v = v;
+        work[k].m = (uint32_t)m;
+    }
+    qsort(work, ns, sizeof *work, keyed_cmp);
+    for (k = 0; k < ns; k++)
         order[k] = work[k].m;
+    return ns;
 }
 
-/* Average ranks (1-based) of the NS members listed in ORDERED (sorted by
- * value VAL[member]), written to RANK[member]; ties share their mean rank. */
-static void average_ranks(const uint32_t *ordered, size_t ns, const double *val, double *rank)
+/* Twice the average ranks (1-based) of the NS members listed in ORDERED
+ * (sorted by value VAL[member]), written to RANK2[member]; ties share their
+ * mean rank.  Twice the rank is an integer (at most 2 ns + 1), so half of it
+ * as a double is the mean rank exactly. */
+static void average_ranks(const uint32_t *ordered, size_t ns, const double *val, uint32_t *rank2)
 {
     size_t a = 0;
     while (a < ns) {
         size_t b = a + 1;
         while (b < ns && val[ordered[b]] == val[ordered[a]])
             b++;
-        double mean_rank = 0.5 * (double)(a + 1 + b); /* mean of a+1 .. b */
+        uint32_t twice = (uint32_t)(a + 1 + b); /* twice the mean of a+1 .. b */
         for (size_t k = a; k < b; k++)
-            rank[ordered[k]] = mean_rank;
+            rank2[ordered[k]] = twice;
         a = b;
     }
 }
@@ -1188,19 +1207,22 @@ static int orders_get(const input_orders *o, size_t i, uint32_t *ord, sl_err *e)
     return SL_OK;
 }
 
-/* rho and s1 of output j (column YC, members SUB[0..ns-1] with ranks RY) and
- * input i (column XC; FORD its order over the subset, NF = NS). */
-static void pair_measures(const double *xc, const double *yc, const uint32_t *sub, const uint32_t *ford, size_t ns,
-                          double mean, double var, int yconst, const double *ry, double *rx, double *rho,
-                          double *s1)
+/* rho and s1 of output j (column YC, the N members m with IN[m], NS of
+ * them, with twice-ranks RY2) and input i (column XC; FORD its order over
+ * those members). */
+static void pair_measures(const double *xc, const double *yc, const unsigned char *in, size_t n,
+                          const uint32_t *ford, size_t ns, double mean, double var, int yconst, const uint32_t *ry2,
+                          uint32_t *rx2, double *rho, double *s1)
 {
     int xconst = xc[ford[0]] == xc[ford[ns - 1]];
     double mr = 0.5 * (double)(ns + 1);
     if (rho && !xconst && !yconst) {
-        average_ranks(ford, ns, xc, rx);
+        average_ranks(ford, ns, xc, rx2);
         double sxy = 0, sxx = 0, syy = 0;
-        for (size_t k = 0; k < ns; k++) {
-            double dx = rx[sub[k]] - mr, dy = ry[sub[k]] - mr;
+        for (size_t m = 0; m < n; m++) {
+            if (!in[m])
+                continue;
+            double dx = 0.5 * (double)rx2[m] - mr, dy = 0.5 * (double)ry2[m] - mr;
             sxy += dx * dy;
             sxx += dx * dx;
             syy += dy * dy;
@@ -1241,25 +1263,26 @@ int sl_ens_sensitivity(const sl_ens_result *r, double *rho, double *s1, sl_err *
     }
     if (n == 0 || ni == 0 || no == 0)
         return SL_OK;
-    if (n > UINT32_MAX)
-        SL_FAIL_RETURN(e, SL_EUSAGE, "%zu members: the rank statistics take at most %" PRIu32, n, UINT32_MAX);
-    /* Per member: the input and the output column (16 bytes), two rank
-     * columns that are the sort space first (16), the subset and an order
-     * (8), a flag (1); plus 4 per input when the orders stay in memory. */
+    if (n > UINT32_MAX / 2)
+        SL_FAIL_RETURN(e, SL_EUSAGE, "%zu members: the rank statistics take at most %" PRIu32, n,
+                       UINT32_MAX / 2);
+    /* Per member: the input and the output column, which are also the sort
+     * space (16 bytes), two twice-rank columns (8), an order (4), a flag (1);
+     * plus 4 per input when the orders stay in memory. */
     input_orders io = {r, NULL, (off_t)((ni + no) * n * sizeof(double))};
-    double *xc = malloc(n * sizeof *xc), *yc = malloc(n * sizeof *yc);
-    double *rxy = malloc(2 * n * sizeof *rxy);
-    uint32_t *sub = malloc(n * sizeof *sub), *ford = malloc(n * sizeof *ford);
+    double *xy = malloc(2 * n * sizeof *xy);
+    uint32_t *r2 = malloc(2 * n * sizeof *r2), *ford = malloc(n * sizeof *ford);
     unsigned char *in = malloc(n);
     if (!r->on_disk)
         io.mem = malloc(ni * n * sizeof *io.mem);
     int rc = SL_OK;
-    if (!xc || !yc || !rxy || !sub || !ford || !in || (!r->on_disk && !io.mem)) {
+    if (!xy || !r2 || !ford || !in || (!r->on_disk && !io.mem)) {
         rc = sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "out of memory ranking %zu members", n);
         goto out;
     }
-    keyed *work = (keyed *)(void *)rxy;
-    double *ry = rxy, *rx = rxy + n;
+    keyed *work = (keyed *)(void *)xy;
+    double *xc = xy, *yc = xy + n;
+    uint32_t *ry2 = r2, *rx2 = r2 + n;
     /* Each input sorted once over all members. */
     for (size_t i = 0; i < ni && rc == SL_OK; i++) {
         rc = sl_ens_column(r, i, xc, e);
@@ -1269,30 +1292,34 @@ int sl_ens_sensitivity(const sl_ens_result *r, double *rho, double *s1, sl_err *
         }
     }
     for (size_t j = 0; j < no && rc == SL_OK; j++) {
-        rc = sl_ens_column(r, ni + j, yc, e);
+        /* The members this output's statistics use, then their order by the
+         * output (FORD holds it here); the sort uses up the column. */
+        rc = sl_ens_column(r, ni + j, xc, e);
         if (rc != SL_OK)
             break;
-        /* The members this output's statistics use, in member order. */
         size_t ns = 0;
-        double mean = 0, var = 0;
         for (size_t m = 0; m < n; m++) {
-            double y = yc[m];
-            in[m] = r->status[m] == SL_OK && isfinite(y);
-            if (in[m]) {
-                sub[ns++] = (uint32_t)m;
-                mean += y;
-            }
+            in[m] = r->status[m] == SL_OK && isfinite(xc[m]);
+            ns += in[m];
         }
         if (ns < 3)
             continue;
+        sort_members(work, xc, in, n, ford);
+        rc = sl_ens_column(r, ni + j, yc, e);
+        if (rc != SL_OK)
+            break;
+        double mean = 0, var = 0;
+        for (size_t m = 0; m < n; m++)
+            if (in[m])
+                mean += yc[m];
         mean /= (double)ns;
-        for (size_t k = 0; k < ns; k++) {
-            double d = yc[sub[k]] - mean;
+        for (size_t m = 0; m < n; m++) {
+            if (!in[m])
+                continue;
+            double d = yc[m] - mean;
             var += d * d;
         }
-        /* Output ranks over the subset (FORD holds the output order here). */
-        sort_members(work, yc, sub, ns, ford);
-        average_ranks(ford, ns, yc, ry);
+        average_ranks(ford, ns, yc, ry2);
         int yconst = yc[ford[0]] == yc[ford[ns - 1]];
         for (size_t i = 0; i < ni && rc == SL_OK; i++) {
             rc = sl_ens_column(r, i, xc, e);
@@ -1305,15 +1332,13 @@ int sl_ens_sensitivity(const sl_ens_result *r, double *rho, double *s1, sl_err *
             for (size_t k = 0; k < n; k++)
                 if (in[ford[k]])
                     ford[nf++] = ford[k];
-            pair_measures(xc, yc, sub, ford, ns, mean, var, yconst, ry, rx, rho ? &rho[j * ni + i] : NULL,
+            pair_measures(xc, yc, in, n, ford, ns, mean, var, yconst, ry2, rx2, rho ? &rho[j * ni + i] : NULL,
                           s1 ? &s1[j * ni + i] : NULL);
         }
     }
 out:
-    free(xc);
-    free(yc);
-    free(rxy);
-    free(sub);
+    free(xy);
+    free(r2);
     free(ford);
     free(in);
     free(io.mem);
