@@ -163,6 +163,28 @@ static int att_text(int ncid, int v, const char *name, const char *text)
     return nc_put_att_text(ncid, v, name, strlen(text), text);
 }
 
+/* The global attributes both model-input files carry: conventions, the
+ * title, the caution, the version, what wrote it, where the method is
+ * described, the scenario's digest and the event time. */
+static int global_atts(const sl_nc_file *wp, const sl_model_inputs *mi, const char *title, const char *history,
+                       const char *references, const char *when, sl_err *e)
+{
+    const char *const att[][2] = {
+        {"Conventions", "CF-1.11"},
+        {"title", mi->title ? mi->title : title},
+        {"comment", sl_cli_caution()},
+        {"source", sl_cli_version()},
+        {"history", history},
+        {"references", references},
+        {"scenario_digest", mi->digest},
+        {"event_time", when},
+        {"event_time_is_nominal", mi->date_given ? "no" : "yes"},
+    };
+    for (size_t i = 0; i < sizeof att / sizeof att[0]; i++)
+        SL_TRY_RETURN(e, chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, att[i][0], att[i][1]), e));
+    return SL_OK;
+}
+
 /* A coordinate with bounds: VALUES (n) and EDGES (n, 2). */
 static int def_coord(int ncid, const char *name, int dim, int nv, const char *units,
                      const char *std, const char *axis, int *vid, int *bid)
@@ -306,25 +328,9 @@ int sl_model_inputs_emission_write(const sl_model_inputs *mi, const char *path,
         }
     }
     /* Global attributes. */
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "Conventions", "CF-1.11"), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "title", mi->title ? mi->title : "steamloft emission"), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "comment", sl_cli_caution()), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "source", sl_cli_version()), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "history", "written by steamloft run --emission"), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "references",
-                                      "docs/physics.md section 10 of the steamloft sources (footprint, "
-                                      "rates, records)"), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "scenario_digest", mi->digest), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "event_time", when), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "event_time_is_nominal", mi->date_given ? "no" : "yes"), e)) != SL_OK)
+    if ((rc = global_atts(wp, mi, "steamloft emission", "written by steamloft run --emission",
+                          "docs/physics.md section 10 of the steamloft sources (footprint, rates, records)", when,
+                          e)) != SL_OK)
         goto done;
     if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "grid", g->description), e)) != SL_OK)
         goto done;
@@ -582,24 +588,8 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
                                      "tropopause); an anomaly over the background, not the total"), e)) != SL_OK)
             goto done;
     }
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "Conventions", "CF-1.11"), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "title", mi->title ? mi->title : "steamloft zonal anomaly"), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "comment", sl_cli_caution()), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "source", sl_cli_version()), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "history", "written by steamloft run --zonal"), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "references",
-                                      "docs/physics.md sections 8 and 10 of the steamloft sources"), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "scenario_digest", mi->digest), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "event_time", when), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "attributes", att_text(wp->ncid, NC_GLOBAL, "event_time_is_nominal", mi->date_given ? "no" : "yes"), e)) != SL_OK)
+    if ((rc = global_atts(wp, mi, "steamloft zonal anomaly", "written by steamloft run --zonal",
+                          "docs/physics.md sections 8 and 10 of the steamloft sources", when, e)) != SL_OK)
         goto done;
     if ((rc = chk(wp, "enddef", nc_enddef(wp->ncid), e)) != SL_OK)
         goto done;
