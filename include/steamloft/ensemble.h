@@ -317,9 +317,9 @@ int sl_ens_first_order(const sl_ens_result *r, size_t i, size_t j, double *s1, s
  * sl_ens_spearman and sl_ens_first_order to rounding, but each input is
  * sorted once and each output once, instead of once per pair (a
  * 1,000,000-member run with 5 inputs and 24 outputs: seconds, not minutes).
- * Memory: 45 bytes per member (with a column store the sorted order of each
+ * Memory: 29 bytes per member (with a column store the sorted order of each
  * input goes to the store file; in memory it takes 4 n_inputs bytes more).
- * At most 2^32 - 1 members (32-bit member indices).  Errors: SL_ENOMEM,
+ * At most 2^31 - 1 members (32-bit member indices and twice-ranks).  Errors: SL_ENOMEM,
  * SL_EUSAGE (too many members), SL_EIO (the store). */
 int sl_ens_sensitivity(const sl_ens_result *r, double *rho, double *s1, sl_err *e);
 
