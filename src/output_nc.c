@@ -32,6 +32,7 @@
 #include <math.h>
 #include <netcdf.h>
 #include <netcdf_mem.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -735,6 +736,42 @@ int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_op
 
 /* ------------------------------------------------------------ for the other netCDF writers */
 
+/* The bytes of an in-memory HDF5 image that hold the file: HDF5's core driver
+ * hands back its whole buffer, grown in 64 KiB steps, while the superblock
+ * records the end-of-file address (HDF5 File Format Specification, section
+ * II.A: superblock versions 0-3).  Anything that does not parse as a
+ * superblock with base address 0 keeps its full size (netCDF-3 images). */
+static size_t hdf5_image_bytes(const unsigned char *p, size_t n)
+{
+    static const unsigned char sig[8] = {0x89, 'H', 'D', 'F', '\r', '\n', 0x1a, '\n'};
+    if (p == NULL || n < 64 || memcmp(p, sig, 8) != 0)
+        return n;
+    unsigned version = p[8];
+    size_t so, at;
+    if (version == 0 || version == 1) {
+        so = p[13];
+        at = (version == 0 ? 24 : 28);
+    } else if (version == 2 || version == 3) {
+        so = p[9];
+        at = 12;
+    } else {
+        return n;
+    }
+    if (so != 2 && so != 4 && so != 8)
+        return n;
+    size_t base_at = at, eof_at = at + 2 * so;
+    if (eof_at + so > n)
+        return n;
+    uint64_t base = 0, eof = 0;
+    for (size_t i = 0; i < so; i++) {
+        base |= (uint64_t)p[base_at + i] << (8 * i);
+        eof |= (uint64_t)p[eof_at + i] << (8 * i);
+    }
+    if (base != 0 || eof < eof_at + so || eof > n)
+        return n;
+    return (size_t)eof;
+}
+
 /* The file is built in memory (nc_create_mem, nc_close_memio) and its bytes
  * are then put into the stage with plain write(2): a full disk or a quota is
  * then an ordinary write error with its true cause, never a failure inside
@@ -779,7 +816,7 @@ int sl_output_nc_finish(sl_nc_file *f, int rc, sl_err *e)
             rc = sl_err_set(e, st == NC_ENOMEM ? SL_ENOMEM : SL_EIO, __func__, __LINE__, "writing '%s': closing: %s",
                             f->path, nc_strerror(st));
         else
-            rc = sl_outset_write_file(f->set, f->base, mem.memory, mem.size, e);
+            rc = sl_outset_write_file(f->set, f->base, mem.memory, hdf5_image_bytes(mem.memory, mem.size), e);
         free(mem.memory);
     }
     if (rc == SL_OK)

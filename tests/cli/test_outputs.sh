@@ -274,6 +274,24 @@ else sl_fail "undefined results"; sed 's/^/#   /' "$SL_TMP/fill" | head; fi
 if $PY "$SRC/tests/tools/nc_check.py" "$D/none.nc" >"$SL_TMP/chk" 2>&1; then sl_ok "decay file with undefined results passes the CF check"
 else sl_fail "CF check of the undefined-result file"; sed 's/^/#   /' "$SL_TMP/chk" | head; fi
 
+# A netCDF-4 file built in memory holds just the HDF5 file, not the core
+# driver's whole buffer (grown in 64 KiB steps): its size is the end-of-file
+# address its superblock records (HDF5 File Format Specification, II.A).
+sl_expect_exit 0 "run -o netCDF-4" "$SL_BIN" run "${SL_SRCDIR:-.}/examples/demo.ini" -o "$D/size4.nc"
+if /usr/bin/python3 - "$D/size4.nc" <<'PY'
+import os, struct, sys
+b = open(sys.argv[1], "rb").read(64)
+assert b[:8] == b"\x89HDF\r\n\x1a\n", "not HDF5"
+v = b[8]
+so = b[13] if v < 2 else b[9]
+at = {0: 24, 1: 28}.get(v, 12) + 2 * so
+eof = int.from_bytes(b[at:at + so], "little")
+size = os.path.getsize(sys.argv[1])
+print("# superblock v%d: end of file %d, file %d bytes" % (v, eof, size))
+sys.exit(0 if eof == size else 1)
+PY
+then sl_ok "netCDF-4 file is as long as its superblock says"; else sl_fail "netCDF-4 file carries the in-memory buffer's slack"; fi
+
 # Nothing stray anywhere: no staging directories left behind.
 if [ -z "$(find "$D" -name '.steamloft-stage-*')" ]; then sl_ok "no staging directories left"; else sl_fail "staging left"; fi
 sl_done
