@@ -46,6 +46,48 @@ static const char *split_path(const char *path, char *dir, size_t n)
     return slash ? slash + 1 : path;
 }
 
+/* One text file of the model inputs, staged and renamed into place (outfile.h). */
+typedef struct text_out {
+    sl_outset *set;
+    char dir[SL_OUTSET_PATH_LEN];
+    const char *base;
+    FILE *fp;
+} text_out;
+
+static int text_open(text_out *t, const char *path, int force, sl_err *e)
+{
+    memset(t, 0, sizeof *t);
+    t->set = calloc(1, sizeof *t->set);
+    if (t->set == NULL)
+        SL_FAIL_RETURN(e, SL_ENOMEM, "writing '%s': out of memory", path);
+    t->base = split_path(path, t->dir, sizeof t->dir);
+    int rc = sl_outset_begin(t->set, t->dir, force, 0, e);
+    if (rc == SL_OK)
+        rc = sl_outset_fopen(t->set, t->base, &t->fp, e);
+    if (rc != SL_OK) {
+        sl_outset_abort(t->set);
+        free(t->set);
+        t->set = NULL;
+    }
+    return rc;
+}
+
+/* Close, then rename into place when RC is SL_OK, else leave nothing. */
+static int text_close(text_out *t, int rc, sl_err *e)
+{
+    sl_err close_err = {0};
+    const int rc_close = sl_outset_fclose(t->set, t->base, t->fp, rc == SL_OK ? e : &close_err);
+    if (rc == SL_OK)
+        rc = rc_close;
+    if (rc == SL_OK)
+        rc = sl_outset_commit(t->set, e);
+    else
+        sl_outset_abort(t->set);
+    free(t->set);
+    t->set = NULL;
+    return rc;
+}
+
 static double pressure_hPa(const sl_atmosphere *atm, double z_m)
 {
     sl_atmos_state st;
@@ -59,17 +101,9 @@ int sl_model_inputs_table_write(const sl_model_inputs *mi, const char *path, int
 {
     sl_emission_profile pr;
     SL_TRY_RETURN(e, sl_emission_profile_build(&pr, mi->inj, NAN, e));
-    sl_outset *set = calloc(1, sizeof *set);
-    if (set == NULL) {
-        sl_emission_profile_free(&pr);
-        SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory");
-    }
-    char dir[SL_OUTSET_PATH_LEN];
-    const char *base = split_path(path, dir, sizeof dir);
-    FILE *fp = NULL;
-    int rc = sl_outset_begin(set, dir, force, 0, e);
-    if (rc == SL_OK)
-        rc = sl_outset_fopen(set, base, &fp, e);
+    text_out t;
+    int rc = text_open(&t, path, force, e);
+    FILE *fp = t.fp;
     if (rc == SL_OK) {
         char when[32];
         sl_date_format(mi->event_time_s, when, sizeof when);
@@ -135,16 +169,8 @@ int sl_model_inputs_table_write(const sl_model_inputs *mi, const char *path, int
             sl_json_end_array(&j);
             rc = sl_json_end(&j, e);
         }
-        sl_err close_err = {0};
-        const int rc_close = sl_outset_fclose(set, base, fp, rc == SL_OK ? e : &close_err);
-        if (rc == SL_OK)
-            rc = rc_close;
+        rc = text_close(&t, rc, e);
     }
-    if (rc == SL_OK)
-        rc = sl_outset_commit(set, e);
-    else
-        sl_outset_abort(set);
-    free(set);
     sl_emission_profile_free(&pr);
     return rc;
 }
@@ -437,15 +463,9 @@ int sl_model_inputs_forcing_write(const sl_model_inputs *mi, const char *path, i
     const sl_strat_result *r = mi->strat;
     if (r == NULL || r->n_times < 2)
         SL_FAIL_RETURN(e, SL_EUSAGE, "--forcing-series: the run has no box-model time series");
-    sl_outset *set = calloc(1, sizeof *set);
-    if (set == NULL)
-        SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory");
-    char dir[SL_OUTSET_PATH_LEN];
-    const char *base = split_path(path, dir, sizeof dir);
-    FILE *fp = NULL;
-    int rc = sl_outset_begin(set, dir, force, 0, e);
-    if (rc == SL_OK)
-        rc = sl_outset_fopen(set, base, &fp, e);
+    text_out t;
+    int rc = text_open(&t, path, force, e);
+    FILE *fp = t.fp;
     if (rc == SL_OK) {
         char when[32];
         sl_date_format(mi->event_time_s, when, sizeof when);
@@ -473,13 +493,8 @@ int sl_model_inputs_forcing_write(const sl_model_inputs *mi, const char *path, i
             }
             fprintf(fp, "%d,%d,%.6g\n", y, y + 1, sum / SL_S_PER_YEAR);
         }
-        rc = sl_outset_fclose(set, base, fp, e);
+        rc = text_close(&t, SL_OK, e);
     }
-    if (rc == SL_OK)
-        rc = sl_outset_commit(set, e);
-    else
-        sl_outset_abort(set);
-    free(set);
     return rc;
 }
 

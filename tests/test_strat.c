@@ -16,30 +16,7 @@
 #include <gsl/gsl_odeiv2.h>
 #include <string.h>
 
-/* The built-in profiles the defaults were calibrated on: tropical for the
- * tropics, us1976-humid (the standard with background water) for both
- * extratropical regions. */
-typedef struct fixture {
-    sl_atmosphere trop, us;
-    const sl_atmosphere *atm[SL_STRAT_N_REGIONS];
-} fixture;
-
-static void fixture_init(fixture *f)
-{
-    sl_err e = {0};
-    memset(f, 0, sizeof *f);
-    ck_assert_int_eq(sl_atmosphere_init(&f->trop, "tropical", &e), SL_OK);
-    ck_assert_int_eq(sl_atmosphere_init(&f->us, "us1976-humid", &e), SL_OK);
-    f->atm[SL_STRAT_SOUTH] = &f->us;
-    f->atm[SL_STRAT_TROPICS] = &f->trop;
-    f->atm[SL_STRAT_NORTH] = &f->us;
-}
-
-static void fixture_free(fixture *f)
-{
-    sl_atmosphere_free(&f->trop);
-    sl_atmosphere_free(&f->us);
-}
+#include "strat_fixture.h"
 
 /* A 1-km band profile 0-100 km with MASS_KG spread over [Z0, Z1]. */
 static void layer_profile(sl_injection *inj, double mass_kg, double z0_m, double z1_m, double lat_deg)

@@ -14,27 +14,7 @@
 
 #include <string.h>
 
-typedef struct fixture {
-    sl_atmosphere trop, us;
-    const sl_atmosphere *atm[SL_STRAT_N_REGIONS];
-} fixture;
-
-static void fixture_init(fixture *f)
-{
-    sl_err e = {0};
-    memset(f, 0, sizeof *f);
-    ck_assert_int_eq(sl_atmosphere_init(&f->trop, "tropical", &e), SL_OK);
-    ck_assert_int_eq(sl_atmosphere_init(&f->us, "us1976-humid", &e), SL_OK);
-    f->atm[SL_STRAT_SOUTH] = &f->us;
-    f->atm[SL_STRAT_TROPICS] = &f->trop;
-    f->atm[SL_STRAT_NORTH] = &f->us;
-}
-
-static void fixture_free(fixture *f)
-{
-    sl_atmosphere_free(&f->trop);
-    sl_atmosphere_free(&f->us);
-}
+#include "strat_fixture.h"
 
 /* |a - b| <= 1e-9 max(|a|, |b|), or both below TINY (a zero against a rounding). */
 static void close_to(const char *what, size_t i, double a, double b, double tiny)
