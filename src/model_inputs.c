@@ -520,12 +520,16 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
     rc = sl_output_nc_create(wp, path, NC_NETCDF4 | NC_CLASSIC_MODEL, force, e);
     if (rc != SL_OK)
         goto done;
-    int d_t, d_z, d_y, d_nv, v_t, v_z, v_zb, v_y, v_yb, v_x, v_xb, v_bb, v_bt, v_q, v_m;
+    int d_t, d_z, d_y, d_x, d_nv, v_t, v_z, v_zb, v_y, v_yb, v_x, v_xb, v_bb, v_bt, v_q, v_m;
     if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "time", NC_UNLIMITED, &d_t), e)) != SL_OK)
         goto done;
     if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "altitude", nl, &d_z), e)) != SL_OK)
         goto done;
     if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "lat", nr, &d_y), e)) != SL_OK)
+        goto done;
+    /* One longitude cell spanning 0-360 (a zonal mean, as CDO's zonmean writes it):
+     * with lon a scalar coordinate instead, CDO saw no latitude grid on the fields. */
+    if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "lon", 1, &d_x), e)) != SL_OK)
         goto done;
     if ((rc = chk(wp, "dimensions", nc_def_dim(wp->ncid, "nv", 2, &d_nv), e)) != SL_OK)
         goto done;
@@ -550,15 +554,11 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
         goto done;
     if ((rc = chk(wp, "lat", att_text(wp->ncid, v_y, "long_name", "centre of the latitude region"), e)) != SL_OK)
         goto done;
-    if ((rc = chk(wp, "lon", def_coord(wp->ncid, "lon", -1, d_nv, "degrees_east", "longitude", "X", &v_x, NULL), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "lon", nc_def_var(wp->ncid, "lon_bnds", NC_DOUBLE, 1, &d_nv, &v_xb), e)) != SL_OK)
-        goto done;
-    if ((rc = chk(wp, "lon", att_text(wp->ncid, v_x, "bounds", "lon_bnds"), e)) != SL_OK)
+    if ((rc = chk(wp, "lon", def_coord(wp->ncid, "lon", d_x, d_nv, "degrees_east", "longitude", "X", &v_x, &v_xb), e)) != SL_OK)
         goto done;
     if ((rc = chk(wp, "lon", att_text(wp->ncid, v_x, "long_name", "all longitudes (zonal means)"), e)) != SL_OK)
         goto done;
-    int d2[2] = {d_y, d_z}, d3[3] = {d_t, d_z, d_y};
+    int d2[2] = {d_y, d_z}, d4[4] = {d_t, d_z, d_y, d_x};
     const char *bn[2] = {"box_bottom", "box_top"};
     int *bv[2] = {&v_bb, &v_bt};
     for (int k = 0; k < 2; k++) {
@@ -574,10 +574,10 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
                                        "of a region starts at the region's tropopause)"), e)) != SL_OK)
             goto done;
     }
-    size_t chunk[3] = {nt, nl, nr};
-    if ((rc = chk(wp, "mole_fraction_anomaly", nc_def_var(wp->ncid, "mole_fraction_anomaly", NC_DOUBLE, 3, d3, &v_q), e)) != SL_OK)
+    size_t chunk[4] = {nt, nl, nr, 1};
+    if ((rc = chk(wp, "mole_fraction_anomaly", nc_def_var(wp->ncid, "mole_fraction_anomaly", NC_DOUBLE, 4, d4, &v_q), e)) != SL_OK)
         goto done;
-    if ((rc = chk(wp, "mass_per_area", nc_def_var(wp->ncid, "mass_per_area", NC_DOUBLE, 3, d3, &v_m), e)) != SL_OK)
+    if ((rc = chk(wp, "mass_per_area", nc_def_var(wp->ncid, "mass_per_area", NC_DOUBLE, 4, d4, &v_m), e)) != SL_OK)
         goto done;
     int vq[2] = {v_q, v_m};
     const char *qu[2] = {"mol mol-1", "kg m-2"};
@@ -585,6 +585,10 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
                          "excess water in the box per unit area of its latitude region"};
     for (int k = 0; k < 2; k++) {
         if ((rc = chk(wp, "field", nc_def_var_chunking(wp->ncid, vq[k], NC_CHUNKED, chunk), e)) != SL_OK)
+            goto done;
+        /* Lossless shuffle and deflate: the index of the one chunk is paid anyway
+         * (output_nc.c: what a netCDF-4 variable's storage costs). */
+        if ((rc = chk(wp, "field", nc_def_var_deflate(wp->ncid, vq[k], 1, 1, 4), e)) != SL_OK)
             goto done;
         if ((rc = chk(wp, "field", nc_def_var_fill(wp->ncid, vq[k], 0, &fill), e)) != SL_OK)
             goto done;
@@ -595,8 +599,6 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
         if ((rc = chk(wp, "field", att_text(wp->ncid, vq[k], "cell_methods",
                                      k ? "time: point altitude: sum area: mean"
                                        : "time: point altitude: mean area: mean"), e)) != SL_OK)
-            goto done;
-        if ((rc = chk(wp, "field", att_text(wp->ncid, vq[k], "coordinates", "lon"), e)) != SL_OK)
             goto done;
         if ((rc = chk(wp, "field", att_text(wp->ncid, vq[k], "comment",
                                      "_FillValue where the region has no box in the layer (below its "
@@ -649,7 +651,7 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
     if ((rc = chk(wp, "box_top", nc_put_var_double(wp->ncid, v_bt, ct), e)) != SL_OK)
         goto done;
     const double eps = SL_MOLAR_MASS_H2O_KG_MOL / SL_MOLAR_MASS_DRY_AIR_KG_MOL;
-    size_t st3[3] = {0, 0, 0}, cn3[3] = {nt, nl, nr};
+    size_t st4[4] = {0, 0, 0, 0}, cn4[4] = {nt, nl, nr, 1};
     for (int k = 0; k < 2; k++) {
         for (size_t t = 0; t < nt; t++)
             for (size_t l = 0; l < nl; l++)
@@ -660,7 +662,7 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
                         x = k ? x / m->region_area_m2[reg] : x / (eps * m->box_air_kg[b]);
                     buf[(t * nl + l) * nr + reg] = x;
                 }
-        if ((rc = chk(wp, "field", nc_put_vara_double(wp->ncid, vq[k], st3, cn3, buf), e)) != SL_OK)
+        if ((rc = chk(wp, "field", nc_put_vara_double(wp->ncid, vq[k], st4, cn4, buf), e)) != SL_OK)
             goto done;
     }
 done:

@@ -128,6 +128,7 @@ int sl_output_chain_init(sl_output_chain *oc, const sl_chain *ch, const sl_strat
     oc->view = (sl_output_view){&ch->injection, &ch->atmosphere, series, oc->scalars, n, oc->params,
                                 np, oc->title, sc->path, oc->event_time,
                                 oc->regime_note[0] ? oc->regime_note : NULL, methods,
-                                g ? g->full_argc : 0, g ? g->full_argv : NULL};
+                                g ? g->full_argc : 0, g ? g->full_argv : NULL,
+                                ch->have_plume ? pl : NULL};
     return SL_OK;
 }

@@ -10,6 +10,7 @@
 
 #include "steamloft/cli.h"
 #include "steamloft/outfile.h"
+#include "steamloft/output_text.h"
 #include "steamloft/units.h"
 
 #include <math.h>
@@ -174,6 +175,25 @@ static void write_series_layers(FILE *fp, const sl_output_view *v)
         }
 }
 
+/* One row per source of the plume stage, in the order of the JSON "sources"
+ * and "thermals": its kind and regime by the names every output uses, and the
+ * share of its water that flies ballistically. */
+static void write_sources(FILE *fp, const sl_output_view *v)
+{
+    const sl_plume *pl = v->plume;
+    preamble(fp, v, "steamloft sources of the plume stage and their regimes");
+    char buf[256];
+    snprintf(buf, sizeof buf, "event regime: %s (the highest of its sources)", sl_plume_regime_name(pl->regime));
+    comment(fp, buf);
+    comment(fp, "columns: source number (the order of the JSON sources and thermals), kind (sea_plume, "
+                "airburst, explosion), regime of its rise (thermal, blow-out, ballistic), ballistic share "
+                "of its water (0 thermal, 1 ballistic)");
+    fputs("source,kind,regime,ballistic_fraction\n", fp);
+    for (size_t i = 0; i < pl->n_thermals; i++)
+        fprintf(fp, "%zu,%s,%s,%.10g\n", i + 1, sl_output_source_kind_name(pl->th[i].kind),
+                sl_plume_regime_name(pl->th[i].regime), pl->th[i].ballistic_fraction);
+}
+
 int sl_output_csv_write(const sl_output_view *v, const char *dir, int force, sl_err *e)
 {
     SL_TRY_RETURN(e, sl_output_view_check(v, e));
@@ -183,6 +203,8 @@ int sl_output_csv_write(const sl_output_view *v, const char *dir, int force, sl_
     int rc = sl_outset_begin(set, dir, force, 1, e);
     if (rc == SL_OK)
         rc = sl_output_write_file(set, "profile.csv", write_profile, v, e);
+    if (rc == SL_OK && v->plume && v->plume->n_thermals > 0)
+        rc = sl_output_write_file(set, "sources.csv", write_sources, v, e);
     if (rc == SL_OK && v->atm)
         rc = sl_output_write_file(set, "background.csv", write_background, v, e);
     if (rc == SL_OK && v->series)

@@ -31,7 +31,7 @@ int sl_output_decay_write(const sl_output_request *out, const sl_chain *ch, cons
     sl_output_view v = {&ch->injection, atm, &os.series, os.scalars, os.n_scalars, params, np, title,
                         profile, event_time, NULL,
                         SL_OUTPUT_USED_ATMOSPHERE | SL_OUTPUT_USED_WATER | SL_OUTPUT_USED_STRAT,
-                        g->full_argc, g->full_argv};
+                        g->full_argc, g->full_argv, NULL /* no plume stage */};
     int rc = sl_output_request_write(out, &v, g, "decay", e);
     sl_output_strat_free(&os);
     return rc;

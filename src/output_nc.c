@@ -25,6 +25,7 @@
 
 #include "steamloft/cli.h"
 #include "steamloft/outfile.h"
+#include "steamloft/output_text.h"
 #include "steamloft/units.h"
 
 #include "sl_gitversion.h"
@@ -187,16 +188,111 @@ static size_t values_of(const ncw *w, int ndims, const int *dims)
     return n;
 }
 
-/* Compress only variables large enough to gain: a chunked, deflated HDF5
- * dataset carries a B-tree and filter pipeline of a few kB, more than a small
- * array saves (with every variable deflated the netCDF-4 file was larger than
- * the netCDF-3 one); small arrays stay contiguous. */
-enum { DEFLATE_MIN_VALUES = 1024 };
-static int maybe_deflate(ncw *w, int id, int ndims, const int *dims, sl_err *e)
+/* ---------------------------------------------------------------- storage of a variable
+ * Each variable of a netCDF-4 file is an HDF5 dataset, and what its storage
+ * costs decides whether the file is smaller than its netCDF-3 twin (measured
+ * on the demo run, 95 variables: every variable chunked and deflated made the
+ * file larger than netCDF-3).  The costs, from the HDF5 File Format
+ * Specification (version 2, sections III.A.1 and IV.A.2.i) for the HDF5-1.8
+ * file format netCDF-C writes: a chunked dataset carries a version-1 B-tree
+ * node, allocated whole, of 2K+1 keys of 8 + 8 (rank + 1) bytes and 2K child
+ * addresses of 8 bytes (K = 32, HDF5's default), about 2.1 kB for rank 1; a
+ * contiguous or compact dataset carries none; compact storage keeps the data
+ * in the dataset's object header (no separate data block and address).
+ * Variables on the unlimited time dimension must be chunked (one chunk holds
+ * the whole series: one record per chunk, the library's default, costs a
+ * B-tree entry and a chunk per record).  So: a record variable is
+ * shuffled and deflated whenever that is estimated to save bytes (the index
+ * is paid anyway); a fixed-size variable is chunked and deflated only when
+ * the estimated saving exceeds its B-tree node; otherwise it is compact when
+ * small and contiguous when large.  The estimate of the deflated size is the
+ * order-0 entropy of each byte plane after the shuffle filter, which
+ * overestimated zlib level 4 on every array of 891 or more values of the
+ * demo run (so the choice errs towards no compression).  Values are never
+ * changed: shuffle and deflate are lossless. */
+enum { BTREE_K = 32, COMPACT_MAX_BYTES = 8192 };
+
+static size_t chunk_index_bytes(int ndims)
 {
-    if (w->nc4 && ndims > 0 && values_of(w, ndims, dims) >= DEFLATE_MIN_VALUES)
-        NCK(w, id, "compression of", NULL, nc_def_var_deflate(w->ncid, id, 1, 1, w->deflate_level));
-    return SL_OK;
+    size_t key = 8 + 8 * (size_t)(ndims + 1);
+    return 24 + (2 * BTREE_K + 1) * key + 2 * BTREE_K * 8;
+}
+
+/* Estimated bytes of N doubles after shuffle and deflate. */
+static double deflated_estimate(const double *x, size_t n)
+{
+    double bits = 0;
+    for (int plane = 0; plane < 8; plane++) {
+        size_t count[256] = {0};
+        for (size_t i = 0; i < n; i++) {
+            unsigned char b[8];
+            memcpy(b, &x[i], 8);
+            count[b[plane]]++;
+        }
+        for (int k = 0; k < 256; k++)
+            if (count[k] > 0) {
+                double q = (double)count[k] / (double)n;
+                bits -= (double)count[k] * log2(q);
+            }
+    }
+    return bits / 8.0 + 64.0; /* + the zlib stream and filter-pipeline message */
+}
+
+int sl_output_nc_storage(int ncid, int varid, const double *data, size_t n, int deflate_level,
+                         const char *path, sl_err *e)
+{
+    int ndims = 0, dims[NC_MAX_VAR_DIMS], unlim = -1;
+    SL_TRY_RETURN(e, sl_output_nc_check(nc_inq_varndims(ncid, varid, &ndims), ncid, varid, path,
+                                        "inquiring", NULL, e));
+    if (ndims > NC_MAX_VAR_DIMS)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "writing '%s': rank %d", path, ndims);
+    SL_TRY_RETURN(e, sl_output_nc_check(nc_inq_vardimid(ncid, varid, dims), ncid, varid, path,
+                                        "inquiring", NULL, e));
+    SL_TRY_RETURN(e, sl_output_nc_check(nc_inq_unlimdim(ncid, &unlim), ncid, varid, path,
+                                        "inquiring", NULL, e));
+    int record = ndims > 0 && unlim >= 0 && dims[0] == unlim;
+    double raw = 8.0 * (double)n;
+    double packed = (data != NULL && n > 0) ? deflated_estimate(data, n) : raw;
+    int level = deflate_level > 0 ? deflate_level : 4;
+    if (record) {
+        size_t chunk[NC_MAX_VAR_DIMS];
+        chunk[0] = 1;
+        size_t inner = 1;
+        for (int k = 1; k < ndims; k++) {
+            SL_TRY_RETURN(e, sl_output_nc_check(nc_inq_dimlen(ncid, dims[k], &chunk[k]), ncid, varid,
+                                                path, "dimension length of", NULL, e));
+            inner *= chunk[k] ? chunk[k] : 1;
+        }
+        chunk[0] = n / inner > 0 ? n / inner : 1;
+        SL_TRY_RETURN(e, sl_output_nc_check(nc_def_var_chunking(ncid, varid, NC_CHUNKED, chunk), ncid,
+                                            varid, path, "chunking of", NULL, e));
+        if (packed < 0.95 * raw)
+            SL_TRY_RETURN(e, sl_output_nc_check(nc_def_var_deflate(ncid, varid, 1, 1, level), ncid,
+                                                varid, path, "compression of", NULL, e));
+        return SL_OK;
+    }
+    if (ndims > 0 && packed + (double)chunk_index_bytes(ndims) < raw) {
+        size_t chunk[NC_MAX_VAR_DIMS];
+        for (int k = 0; k < ndims; k++)
+            SL_TRY_RETURN(e, sl_output_nc_check(nc_inq_dimlen(ncid, dims[k], &chunk[k]), ncid, varid,
+                                                path, "dimension length of", NULL, e));
+        SL_TRY_RETURN(e, sl_output_nc_check(nc_def_var_chunking(ncid, varid, NC_CHUNKED, chunk), ncid,
+                                            varid, path, "chunking of", NULL, e));
+        return sl_output_nc_check(nc_def_var_deflate(ncid, varid, 1, 1, level), ncid, varid, path,
+                                  "compression of", NULL, e);
+    }
+    if (raw <= COMPACT_MAX_BYTES)
+        return sl_output_nc_check(nc_def_var_chunking(ncid, varid, NC_COMPACT, NULL), ncid, varid,
+                                  path, "storage of", NULL, e);
+    return SL_OK; /* contiguous, the library's default */
+}
+
+static int storage(ncw *w, int id, int ndims, const int *dims, const double *data, sl_err *e)
+{
+    if (!w->nc4)
+        return SL_OK;
+    return sl_output_nc_storage(w->ncid, id, data, values_of(w, ndims, dims), w->deflate_level,
+                                w->path, e);
 }
 
 /* Define an NC_DOUBLE variable with long_name and units (and standard_name
@@ -207,16 +303,6 @@ static int def_var(ncw *w, const char *name, int ndims, const int *dims, const d
 {
     int id;
     NCK(w, NC_GLOBAL, "defining variable", name, nc_def_var(w->ncid, name, NC_DOUBLE, ndims, dims, &id));
-    SL_TRY_RETURN(e, maybe_deflate(w, id, ndims, dims, e));
-    if (w->nc4 && ndims > 0 && ndims <= 4 && dims[0] == w->time_dim) {
-        /* Record variables: one chunk holding the whole series (the library's default of
-         * one record per chunk makes a compressed file larger than netCDF-3). */
-        size_t chunk[4];
-        chunk[0] = w->n_records > 0 ? w->n_records : 1;
-        for (int k = 1; k < ndims; k++)
-            NCK(w, id, "dimension length of", NULL, nc_inq_dimlen(w->ncid, dims[k], &chunk[k]));
-        NCK(w, id, "chunking of", NULL, nc_def_var_chunking(w->ncid, id, NC_CHUNKED, chunk));
-    }
     SL_TRY_RETURN(e, att_text(w, id, "standard_name", standard_name, e));
     SL_TRY_RETURN(e, att_text(w, id, "long_name", long_name, e));
     SL_TRY_RETURN(e, att_text(w, id, "units", units, e));
@@ -234,6 +320,7 @@ static int def_var(ncw *w, const char *name, int ndims, const int *dims, const d
         data = filled;
         SL_TRY_RETURN(e, att_double(w, id, "_FillValue", NC_FILL_DOUBLE, e));
     }
+    SL_TRY_RETURN(e, storage(w, id, ndims, dims, data, e));
     SL_TRY_RETURN(e, queue(w, id, data, e));
     if (varid)
         *varid = id;
@@ -262,7 +349,7 @@ static int def_zaxis(ncw *w, const char *name, const char *long_name, const doub
     SL_TRY_RETURN(e, att_text(w, id, "bounds", bname, e));
     /* CF 7.1: bounds inherit units etc. from their coordinate; none repeated. */
     NCK(w, NC_GLOBAL, "defining variable", bname, nc_def_var(w->ncid, bname, NC_DOUBLE, 2, bd, &bid));
-    SL_TRY_RETURN(e, maybe_deflate(w, bid, 2, bd, e));
+    SL_TRY_RETURN(e, storage(w, bid, 2, bd, b, e));
     return queue(w, bid, b, e);
 }
 
@@ -484,6 +571,53 @@ static int profile_vars(ncw *w, const sl_output_view *v, int nv, int *zdim, sl_e
     return SL_OK;
 }
 
+/* A flag variable NAME(source) of NC_BYTE codes (CF 3.5: flag_values of the
+ * variable's type, flag_meanings the blank-separated names NAMES_OF(0..N-1)). */
+static int def_flags(ncw *w, const char *name, int ndims, const int *dim, const double *codes,
+                     const char *long_name, const char *(*names_of)(int), int n_flags, sl_err *e)
+{
+    int id;
+    NCK(w, NC_GLOBAL, "defining variable", name, nc_def_var(w->ncid, name, NC_BYTE, ndims, dim, &id));
+    SL_TRY_RETURN(e, storage(w, id, ndims, dim, NULL, e));
+    SL_TRY_RETURN(e, att_text(w, id, "long_name", long_name, e));
+    signed char values[8];
+    char meanings[256] = "";
+    for (int k = 0; k < n_flags && k < 8; k++) {
+        values[k] = (signed char)k;
+        size_t used = strlen(meanings);
+        snprintf(meanings + used, sizeof meanings - used, "%s%s", k ? " " : "", names_of(k));
+    }
+    NCK(w, id, "attribute", "flag_values", nc_put_att_schar(w->ncid, id, "flag_values", NC_BYTE, (size_t)n_flags, values));
+    SL_TRY_RETURN(e, att_text(w, id, "flag_meanings", meanings, e));
+    return queue(w, id, codes, e);
+}
+
+static const char *kind_name_of(int k) { return sl_output_source_kind_name((sl_source_kind)k); }
+
+/* Each source of the plume stage (the order of the JSON "sources" and
+ * "thermals"): its kind and its regime (issue 12: the regime is a per-source
+ * field in every output); regime, the event's, is the highest of them. */
+static int source_vars(ncw *w, const sl_plume *pl, sl_err *e)
+{
+    size_t n = pl->n_thermals;
+    int dim;
+    NCK(w, NC_GLOBAL, "defining dimension", "source", nc_def_dim(w->ncid, "source", n, &dim));
+    double *kind = own(w, n, e), *regime = own(w, n, e), *event = own(w, 1, e);
+    if (kind == NULL || regime == NULL || event == NULL)
+        return e ? e->code : SL_ENOMEM;
+    for (size_t i = 0; i < n; i++) {
+        kind[i] = (double)pl->th[i].kind;
+        regime[i] = (double)pl->th[i].regime;
+    }
+    *event = (double)pl->regime;
+    SL_TRY_RETURN(e, def_flags(w, "source_kind", 1, &dim, kind, "kind of the source", kind_name_of, 3, e));
+    SL_TRY_RETURN(e, def_flags(w, "source_regime", 1, &dim, regime,
+                               "regime of the source's rise (buoyant thermal, blow-out or ballistic)",
+                               sl_plume_regime_name, 3, e));
+    return def_flags(w, "regime", 0, NULL, event, "regime of the event (the highest of its sources)",
+                     sl_plume_regime_name, 3, e);
+}
+
 static int atmosphere_vars(ncw *w, const sl_atmosphere *a, sl_err *e)
 {
     int dim, id;
@@ -572,7 +706,7 @@ static int series_vars(ncw *w, const sl_output_view *v, int nv, int band_dim, sl
     SL_TRY_RETURN(e, att_text(w, id, "bounds", "lat_bnds", e));
     int bd[2] = {ldim, nv}, bid;
     NCK(w, NC_GLOBAL, "defining variable", "lat_bnds", nc_def_var(w->ncid, "lat_bnds", NC_DOUBLE, 2, bd, &bid));
-    SL_TRY_RETURN(e, maybe_deflate(w, bid, 2, bd, e));
+    SL_TRY_RETURN(e, storage(w, bid, 2, bd, lb, e));
     SL_TRY_RETURN(e, queue(w, bid, lb, e));
 
     if (same_cells(s->layer_bottom_m, s->layer_top_m, s->n_layer, inj->band_bottom_m,
@@ -645,6 +779,8 @@ static int write_all(ncw *w, const sl_output_view *v, sl_err *e)
     SL_TRY_RETURN(e, global_attrs(w, v, e));
     NCK(w, NC_GLOBAL, "defining dimension", "nv", nc_def_dim(w->ncid, "nv", 2, &nv));
     SL_TRY_RETURN(e, profile_vars(w, v, nv, &zdim, e));
+    if (v->plume && v->plume->n_thermals > 0)
+        SL_TRY_RETURN(e, source_vars(w, v->plume, e));
     if (v->atm)
         SL_TRY_RETURN(e, atmosphere_vars(w, v->atm, e));
     if (v->series)

@@ -15,7 +15,7 @@
 
 /* Every name a CSV or plot directory may receive (checked before a run). */
 static const char *const csv_names[] = {"profile.csv", "background.csv", "series.csv",
-                                        "series_layers.csv"};
+                                        "series_layers.csv", "sources.csv"};
 static const char *const plot_names[] = {"profile.dat", "background.dat", "decay.dat",
                                          "column.dat",  "steamloft.gp",   "profile.svg",
                                          "profile.png", "decay.svg",      "decay.png",

@@ -136,7 +136,7 @@ void sl_report_end_object(sl_report *r) { end_nested(r, 0); }
 void sl_report_begin_array(sl_report *r, const char *key, const char *label) { begin_nested(r, key, label, 1); }
 void sl_report_end_array(sl_report *r) { end_nested(r, 1); }
 
-static const char *source_kind_name(sl_source_kind k)
+const char *sl_output_source_kind_name(sl_source_kind k)
 {
     switch (k) {
     case SL_SOURCE_SEA_PLUME: return "sea_plume";
@@ -268,9 +268,9 @@ static void emit_partition(sl_report *r, const sl_chain *ch)
     for (size_t i = 0; i < pt->sources.n; i++) {
         const sl_source *s = &pt->sources.src[i];
         char label[48];
-        snprintf(label, sizeof label, "source %zu (%s)", i + 1, source_kind_name(s->kind));
+        snprintf(label, sizeof label, "source %zu (%s)", i + 1, sl_output_source_kind_name(s->kind));
         sl_report_begin_object(r, NULL, label);
-        sl_report_string(r, "kind", source_kind_name(s->kind), "kind");
+        sl_report_string(r, "kind", sl_output_source_kind_name(s->kind), "kind");
         sl_report_number(r, "altitude_m", s->altitude_m, "centre altitude", 1e-3, "km");
         sl_report_number(r, "radius_m", s->radius_m, "radius", 1e-3, "km");
         sl_report_number(r, "air_mass_kg", s->air_mass_kg, "air", 1e-9, "Tg");
@@ -311,7 +311,7 @@ static void emit_plume(sl_report *r, const sl_chain *ch)
     for (size_t i = 0; i < pl->n_thermals; i++) {
         const sl_thermal *th = &pl->th[i];
         char label[48];
-        snprintf(label, sizeof label, "thermal %zu (%s)", i + 1, source_kind_name(th->kind));
+        snprintf(label, sizeof label, "thermal %zu (%s)", i + 1, sl_output_source_kind_name(th->kind));
         sl_report_begin_object(r, NULL, label);
         sl_report_string(r, "regime", sl_plume_regime_name(th->regime), "regime");
         sl_report_number(r, "apex_time_s", th->apex_time_s, "time to apex", 1.0 / 60.0, "min");
@@ -693,7 +693,7 @@ static void text_sea(FILE *o, const sl_chain *ch, fmt_ring *f, int detail)
         const sl_source *sr = &pt->sources.src[i];
         fprintf(o, "    %zu %-9s at %s km, radius %s km, air %s Tg, vapour %s Tg, liquid %s Tg, %s K, "
                    "heat %s Mt\n",
-                i + 1, source_kind_name(sr->kind), f3(f, sr->altitude_m * 1e-3), f3(f, sr->radius_m * 1e-3),
+                i + 1, sl_output_source_kind_name(sr->kind), f3(f, sr->altitude_m * 1e-3), f3(f, sr->radius_m * 1e-3),
                 f3(f, sr->air_mass_kg * 1e-9), f3(f, sr->vapor_mass_kg * 1e-9), f3(f, sr->liquid_mass_kg * 1e-9),
                 f3(f, sr->temperature_K), f3(f, sr->heat_J * mt));
     }
@@ -714,7 +714,7 @@ static void text_rise(FILE *o, const sl_chain *ch, fmt_ring *f, int detail)
         return;
     for (size_t i = 0; i < pl->n_thermals; i++) {
         const sl_thermal *th = &pl->th[i];
-        fprintf(o, "  thermal %zu (%s, %s)\n", i + 1, source_kind_name(th->kind), sl_plume_regime_name(th->regime));
+        fprintf(o, "  thermal %zu (%s, %s)\n", i + 1, sl_output_source_kind_name(th->kind), sl_plume_regime_name(th->regime));
         fprintf(o, "    apex %s km after %s min, radius %s km (%s scale heights), fastest %s m/s\n",
                 f3(f, th->apex_altitude_m * 1e-3), f3(f, th->apex_time_s / 60.0), f3(f, th->apex_radius_m * 1e-3),
                 f3(f, th->apex_radius_m / th->apex_scale_height_m), f3(f, th->max_speed_m_s));

@@ -129,7 +129,7 @@ static inline void build_fixture(int layers_equal_bands)
                               "invented test scenario", "my scenario.ini", NULL, NULL,
                               SL_OUTPUT_USED_ATMOSPHERE | SL_OUTPUT_USED_PLUME |
                                   SL_OUTPUT_USED_STRAT,
-                              5, argv};
+                              5, argv, NULL};
 }
 
 static inline void mk_tmp(void)

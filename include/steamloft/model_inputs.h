@@ -15,7 +15,7 @@
  *     zero / on / on / zero (t0, t0 + 1 s, t0 + D, t0 + D + 1 s) whose
  *     linear-in-time integral is exactly the rate times D.
  *   zonal field (netCDF-4): the box model's excess on (time, altitude,
- *     latitude region), see sl_model_inputs_zonal_write.
+ *     latitude region, one longitude cell), see sl_model_inputs_zonal_write.
  *   forcing series (CSV): annual means of the box model's forcing indicator
  *     with each year's bounds.
  * Every file is staged and renamed through outfile.h. */
@@ -54,9 +54,11 @@ int sl_model_inputs_emission_write(const sl_model_inputs *mi, const char *path,
                                    const sl_emission_grid *g, int cesm, double model_top_m,
                                    int force, double *above_top_kg, sl_err *e);
 
-/* The box model's excess as a zonal-mean field on (time, altitude, lat):
- * mole-fraction anomaly and mass per area, region and box bounds, _FillValue
- * where a region has no box in a layer. */
+/* The box model's excess as a zonal-mean field on (time, altitude, lat, lon)
+ * with lon one cell of bounds 0-360 (the layout CDO's zonmean writes, so CDO
+ * sees a lon-lat grid with cell bounds): mole-fraction anomaly and mass per
+ * area (shuffled and deflated), region and box bounds, _FillValue where a
+ * region has no box in a layer. */
 int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model *m,
                                 const char *path, int force, sl_err *e);
 

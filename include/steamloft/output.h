@@ -19,6 +19,7 @@
 #include "steamloft/atmosphere.h"
 #include "steamloft/err.h"
 #include "steamloft/injection.h"
+#include "steamloft/plume.h"
 
 /* Box-model time series.  Arrays are row-major: excess_kg[(t*n_region+r)*n_layer+l].
  * Layers are contiguous and increasing; regions are contiguous latitude bands
@@ -121,6 +122,7 @@ typedef struct sl_output_view {
     unsigned methods;                 /* SL_OUTPUT_USED_* bits */
     int argc;                         /* command line for history (0: none) */
     char *const *argv;
+    const sl_plume *plume;            /* the run's sources and their regimes, or NULL (decay) */
 } sl_output_view;
 
 /* The reference list for the methods in METHODS (SL_OUTPUT_USED_* bits),

@@ -9,6 +9,10 @@
  *                      latitude_deg, time_s, cloud_area_m2).  This is exactly the
  *                      prescribed-profile format sl_injection_read accepts, so a
  *                      run's profile can be fed to `decay` or edited and re-run.
+ *   sources.csv        source, kind, regime, ballistic_fraction: one row per source of
+ *                      the plume stage (run only), the names as in the JSON ("sea_plume",
+ *                      "airburst", "explosion"; "thermal", "blow-out", "ballistic"), the
+ *                      event's regime in a comment line
  *   background.csv     altitude_km, temperature_K, pressure_Pa, density_kg_m3,
  *                      h2o_ppmv, n2_per_s2 (when the view has an atmosphere)
  *   series.csv         time_days, time_years, global_excess_Tg, then the optional

@@ -18,6 +18,10 @@
  *       removed_<sink> (time)                        the box-model series; <z> is altitude when the
  *                                                    box layers equal the bands, else layer(layer)
  *                                                    with layer_bnds
+ *   source_kind(source), source_regime(source), regime  (a run) CF flag variables (NC_BYTE,
+ *       flag_values 0 1 2): the kind ("sea_plume airburst explosion") and the regime
+ *       ("thermal blow-out ballistic") of each source of the plume stage, in the order of
+ *       the JSON "sources"/"thermals", and the event's regime (the highest)
  *   one scalar variable per sl_output_scalar (e-folding time, burst altitude, ...)
  *   Undefined results are _FillValue (CF 2.5.1), never 0: excess_water_mass where a
  *   region has no box in a layer (below its tropopause), and a scalar the run cannot
@@ -32,6 +36,9 @@
  * quantity without one (mass per band in kg, anomalies, the forcing
  * indicator) has long_name and units only.  Data are written in double
  * precision so that the masses read back equal the run's to rounding.
+ * netCDF-4 and netCDF-3 files of one run hold the same content; in netCDF-4
+ * each variable's storage is chosen by sl_output_nc_storage (compact,
+ * contiguous, or one chunk shuffled and deflated), lossless.
  *
  * The file is written through the outfile module: a temporary file in the
  * same directory, renamed into place when complete; an existing file is not
@@ -90,6 +97,18 @@ typedef struct sl_nc_file {
 } sl_nc_file;
 int sl_output_nc_create(sl_nc_file *f, const char *path, int cmode, int force, sl_err *e);
 int sl_output_nc_finish(sl_nc_file *f, int rc, sl_err *e);
+
+/* The storage of NC_DOUBLE variable VARID of a netCDF-4 file NCID (call in
+ * define mode, before the data are written), chosen from what the HDF5 file
+ * format charges (output_nc.c says how): a variable on the unlimited
+ * dimension is chunked as one chunk of its N values and shuffled and deflated
+ * when that is estimated to save bytes; a fixed-size one is chunked and
+ * deflated only when the estimated saving exceeds the chunk index, else
+ * compact when small, else contiguous.  DATA (N values, NULL if unknown) is
+ * what will be written; DEFLATE_LEVEL 1-9 (0: 4).  Lossless: the values read
+ * back are the values written.  Errors as sl_output_nc_check. */
+int sl_output_nc_storage(int ncid, int varid, const double *data, size_t n, int deflate_level,
+                         const char *path, sl_err *e);
 
 /* A text attribute (NC_CHAR, so netCDF-3 readers work), checked as above;
  * TEXT NULL writes nothing. */

@@ -98,6 +98,11 @@ typedef struct sl_key_results {
 
 void sl_output_key_results(const sl_chain *ch, sl_key_results *k);
 
+/* The name of a source kind as every output spells it: "sea_plume",
+ * "airburst" or "explosion" (JSON "sources"[].kind, sources.csv, the
+ * netCDF source_kind flag_meanings). */
+const char *sl_output_source_kind_name(sl_source_kind k);
+
 /* The validity wording of sl_key_results from the plume regime (REGIME an
  * sl_plume_regime, ignored without a plume) and whether the e-folding time
  * was extrapolated: a few words (SHORT_TEXT) and in full (TEXT).  Also used

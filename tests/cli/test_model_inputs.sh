@@ -122,6 +122,8 @@ if /usr/bin/python3 -c 'import netCDF4, numpy' 2>/dev/null; then
 import sys, numpy as np, netCDF4
 z = netCDF4.Dataset(sys.argv[1]); r = netCDF4.Dataset(sys.argv[2])
 m = z["mass_per_area"][:]
+assert z["mass_per_area"].dimensions == ("time", "altitude", "lat", "lon"), z["mass_per_area"].dimensions
+m = m[..., 0]   # the one longitude cell, 0-360
 lb = np.radians(z["lat_bnds"][:])
 area = 2 * np.pi * 6371008.8 ** 2 * (np.sin(lb[:, 1]) - np.sin(lb[:, 0]))
 tot = (m.filled(0) * area[None, None, :]).sum(axis=(1, 2))
@@ -131,7 +133,7 @@ assert m.mask[:, 0, 1].all() and not m.mask[:, 0, 0].any(), "tropical lowest lay
 assert z["box_bottom"][1, 1] > z["box_bottom"][0, 1] or z["box_bottom"][1, 1] >= 16000
 assert z.dimensions["time"].isunlimited()
 assert "area: mean" in z["mole_fraction_anomaly"].cell_methods
-assert list(z["lon_bnds"][:]) == [0.0, 360.0]
+assert list(z["lon_bnds"][0]) == [0.0, 360.0] and z.dimensions["lon"].size == 1
 assert z.event_time == "2022-01-15T04:15:00Z"
 ' z.nc rz.nc; then sl_ok "zonal field: fill where no box, masses add up to the global excess"
   else sl_fail "zonal field"; fi
@@ -174,6 +176,21 @@ fi
 # CDO: its own grid reading of the emission file and a conservative remap.
 if command -v cdo >/dev/null 2>&1; then
   if cdo -s sinfon e.nc >cdo.txt 2>&1; then sl_ok "cdo sinfon reads the emission file"; else sl_fail "cdo sinfon"; fi
+  # The zonal field: CDO 2.1 (Debian 12) reports, for the demo-like run,
+  #   Grid 2: lonlat points=3 (1x3), lon 180 degrees_east, lat -55 to 55 by 55
+  #           degrees_north, available: cellbounds   (the fields)
+  #   Vertical: altitude levels=11 with bounds;  Time: 241 steps
+  # With lon a scalar coordinate (before) it warned "Inconsistent grid
+  # structure" and put the fields on a generic grid without latitude.
+  nt=$(ncdump -h z.nc | sed -n 's/.*time = UNLIMITED ; \/\/ (\([0-9]*\) currently).*/\1/p')
+  if cdo -s sinfon z.nc >cdo.txt 2>&1 && ! grep -qi "warning" cdo.txt \
+     && grep -q "lonlat  *: points=3 (1x3)" cdo.txt && grep -q "lat : .* degrees_north" cdo.txt \
+     && grep -q "available : cellbounds" cdo.txt && grep -q "altitude  *: levels=11" cdo.txt \
+     && grep -q "bounds : " cdo.txt && grep -q "time : $nt steps" cdo.txt \
+     && [ "$(grep -E ': (mass_per_area|mole_fraction_anomaly) *$' cdo.txt | awk '{print $10}' | sort -u)" = \
+          "$(sed -n 's/^ *\([0-9]*\) : lonlat  *: points=3 (1x3).*/\1/p' cdo.txt)" ]; then
+    sl_ok "cdo sinfon on the zonal file: the fields on a 1x3 lon-lat grid with cell bounds, 11 altitude levels with bounds, $nt times, no warning"
+  else sl_fail "cdo sinfon on the zonal file"; sed 's/^/#   /' cdo.txt | head -24; fi
   # Conservative remapping to a 5-degree grid keeps the mass within 1 %.
   if cdo -s remapcon,r72x36 e.nc rm.nc >cdo.txt 2>&1 && /usr/bin/python3 -c '
 import sys, numpy as np, netCDF4

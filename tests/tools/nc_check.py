@@ -23,7 +23,9 @@ The CF rules checked (CF-1.11, sections cited; standard names from table
 version 83, https://cfconventions.org/standard-names.html):
   2.6   Conventions contains CF-1.11; history, source, references, comment present
   2.5.1 data values finite; an undefined value only as the variable's declared _FillValue
-  3.1   units present on every data variable; no ppm/ppmv/ppbv where a standard_name is set
+  3.1   units present on every data variable but flag variables; no ppm/ppmv/ppbv where a standard_name is set
+  3.5   a flag variable: as many flag_meanings (CF words) as distinct flag_values of its type, no units,
+        every stored code a flag value
   3.3   standard_name only from the CF table copy (tests/cf_standard_names_v83.txt), each
         with units convertible to its canonical units
   4.3   a vertical coordinate has positive up/down, units, axis Z
@@ -36,6 +38,7 @@ Mass bookkeeping: vapor_mass sums to total_vapor_mass; the mass content
 """
 import math
 import os
+import re
 import sys
 
 import netCDF4
@@ -106,6 +109,20 @@ def check_cf(ds):
         is_bounds = any(getattr(v, "bounds", None) == name for v in ds.variables.values())
         if is_bounds:
             ok("units" not in attrs, "%s: bounds variable carries no units of its own" % name)
+            continue
+        if "flag_values" in attrs or "flag_meanings" in attrs:
+            # A flag variable (CF 3.5): codes with meanings, no units; as many
+            # blank-separated meanings as values, the values of the variable's type,
+            # distinct, and every stored code one of them.
+            fv = np.atleast_1d(var.getncattr("flag_values")) if "flag_values" in attrs else np.array([])
+            fm = str(getattr(var, "flag_meanings", "")).split()
+            ok(len(fv) > 0 and len(fv) == len(fm), "%s: %d flag_values, %d flag_meanings" % (name, len(fv), len(fm)))
+            ok(fv.dtype == var.dtype, "%s: flag_values of the variable's type (%s, %s)" % (name, fv.dtype, var.dtype))
+            ok(len(set(fv.tolist())) == len(fv), "%s: distinct flag_values" % name)
+            ok(all(re.fullmatch(r"[A-Za-z0-9_.+@-]+", m) for m in fm), "%s: flag_meanings are CF words" % name)
+            data = np.atleast_1d(np.ma.filled(var[...], fv[0] if len(fv) else 0))
+            ok(set(data.tolist()) <= set(fv.tolist()), "%s: every stored code is a flag value" % name)
+            ok("units" not in attrs, "%s: a flag variable carries no units" % name)
             continue
         ok("units" in attrs, "%s has units" % name)
         sn = getattr(var, "standard_name", None)
