@@ -302,7 +302,7 @@ then sl_ok "netCDF-4 file is as long as its superblock says"; else sl_fail "netC
 # cannot beat netCDF-3's header: the demo run (75 variables, 13 on the
 # unlimited time axis, which must be chunked) stays larger (PRACTICE bound:
 # at most 1.3 times netCDF-3; it was 1.31 with every array of 1024 or more
-# values deflated and the rest contiguous, 1.22 with the storage chosen per
+# values deflated and the rest contiguous, 1.23 with the storage chosen per
 # variable).  Where data outweigh the per-variable cost, netCDF-4 must be the
 # smaller file: the same run with 10-day steps (731 records), the decay run
 # with them, and a 2000-member ensemble against its netCDF-3 copy (nccopy).
