@@ -288,14 +288,14 @@ static int umbrella_piece(const sl_atmosphere *atm, const sl_young_cloud *c, dou
     if (n < 1)
         n = 1;
     double h = (z1 - z0) / n;
+    sl_atmos_cursor cur = {0}; /* the points go upwards: the density query walks with them */
     for (int k = 0; k < n; k++) {
         double mid = z0 + (k + 0.5) * h;
         for (int j = 0; j < 4; j++) {
-            double z = mid + 0.5 * h * x[j];
-            sl_atmos_state a;
+            double z = mid + 0.5 * h * x[j], rho;
             double zq = fmin(fmax(z, atm->altitude_m[0]), atm->altitude_m[atm->n - 1]);
-            SL_TRY_RETURN(e, sl_atmosphere_at(atm, zq, &a, e));
-            sum += 0.5 * h * wt[j] * tent_pdf(c, z) * a.density_kg_m3;
+            SL_TRY_RETURN(e, sl_atmosphere_density(atm, zq, &cur, &rho, e));
+            sum += 0.5 * h * wt[j] * tent_pdf(c, z) * rho;
         }
     }
     *w = sum;

@@ -216,24 +216,44 @@ enum { N_SHELLS = 120 };
 
 /* Waste heat of a water half-space (no floor) under the pressure field
  * P_ic inside r_ic, P_ic (r/r_ic)^-n outside, out to where it falls to
- * P_END (below which the waste heat is negligible), J. */
-static double halfspace_waste_heat_J(double p_ic, double r_ic, double n, double p_end)
+ * P_END (below which the waste heat is negligible), J.  Midpoint rule in
+ * log r on N_SHELLS shells: shell k has the pressure
+ * p_ic (p_end/p_ic)^((k + 1/2)/N_SHELLS), whatever n, so the waste heat per
+ * kilogram of each shell is computed once (halfspace_shells) and a value of
+ * n only changes the shells' radii r_k = r_ic e^((k + 1/2) dl),
+ * dl = ln(p_ic/p_end) / (n N_SHELLS). */
+typedef struct halfspace {
+    double core_J;               /* the isobaric core */
+    double log_ratio;            /* ln(p_ic / p_end); 0 when p_ic <= p_end */
+    double r_ic;
+    double shell_J_kg[N_SHELLS]; /* waste heat per kg of each shell */
+} halfspace;
+
+static void halfspace_shells(halfspace *hs, double p_ic, double r_ic, double p_end)
 {
     const sl_hugoniot *w = &sl_partition_hugoniots[0];
     const double rho_w = 1025.0;
-    double total = waste_heat_J_kg(w, particle_speed_from_pressure(w, p_ic)) * rho_w * 2.0 / 3.0 * SL_PI *
-                   r_ic * r_ic * r_ic;
-    if (p_ic <= p_end)
+    hs->r_ic = r_ic;
+    hs->core_J = waste_heat_J_kg(w, particle_speed_from_pressure(w, p_ic)) * rho_w * 2.0 / 3.0 * SL_PI * r_ic * r_ic * r_ic;
+    hs->log_ratio = p_ic > p_end ? log(p_ic / p_end) : 0.0;
+    /* Pressures by geometric recurrence (no exp or pow per shell; rounding
+     * of the product grows to ~1e-14 over the shells). */
+    double qp = exp(-hs->log_ratio / N_SHELLS), pr = p_ic * exp(-0.5 * hs->log_ratio / N_SHELLS);
+    for (int k = 0; k < N_SHELLS; k++, pr *= qp)
+        hs->shell_J_kg[k] = waste_heat_J_kg(w, particle_speed_from_pressure(w, pr));
+}
+
+static double halfspace_waste_heat_J(const halfspace *hs, double n)
+{
+    const double rho_w = 1025.0;
+    double total = hs->core_J;
+    if (!(hs->log_ratio > 0.0))
         return total;
-    double dl = log(p_ic / p_end) / n / N_SHELLS;
-    /* Shell midpoints r_k = r_ic e^((k + 1/2) dl) and pressures p_ic (r_k/r_ic)^-n
-     * by geometric recurrence (no exp or pow per shell; rounding of the
-     * product grows to ~1e-14 over the shells). */
-    double q = exp(dl), qp = exp(-n * dl);
-    double r = r_ic * exp(0.5 * dl), pr = p_ic * exp(-0.5 * n * dl);
-    for (int k = 0; k < N_SHELLS; k++, r *= q, pr *= qp)
-        total += waste_heat_J_kg(w, particle_speed_from_pressure(w, pr)) * rho_w * 2.0 * SL_PI * r * r * r * dl;
-    return total;
+    double dl = hs->log_ratio / n / N_SHELLS;
+    double q3 = exp(3.0 * dl), r = hs->r_ic * exp(0.5 * dl), r3 = r * r * r, sum = 0.0;
+    for (int k = 0; k < N_SHELLS; k++, r3 *= q3)
+        sum += hs->shell_J_kg[k] * r3;
+    return total + sum * rho_w * 2.0 * SL_PI * dl;
 }
 
 /* Mass of water vaporised and liquid thrown up by the shock method. */
@@ -258,12 +278,14 @@ static int shock_vapor(sl_partition *pt, const sl_partition_input *in, double *v
     /* Energy bound on the decay: raise n until the waste heat is f_t E. */
     const double p_end = 1e8; /* 0.1 GPa: waste heat there is ~1 J/kg */
     double e_target = in->target_heat_fraction * pt->energy_at_sea_J;
-    double wh = halfspace_waste_heat_J(p_ic, r_ic, n, p_end);
+    halfspace hs;
+    halfspace_shells(&hs, p_ic, r_ic, p_end);
+    double wh = halfspace_waste_heat_J(&hs, n);
     if (wh > e_target) {
         /* f(n) = ln(W(n)/E_t) falls with n: bracket it, then the Illinois
          * variant of regula falsi (a few evaluations instead of ~20). */
         double lo = n, flo = log(wh / e_target), hi = 2.0 * n, fhi;
-        while ((fhi = log(halfspace_waste_heat_J(p_ic, r_ic, hi, p_end) / e_target)) > 0 && hi < 1e3) {
+        while ((fhi = log(halfspace_waste_heat_J(&hs, hi) / e_target)) > 0 && hi < 1e3) {
             lo = hi;
             flo = fhi;
             hi *= 2.0;
@@ -271,7 +293,7 @@ static int shock_vapor(sl_partition *pt, const sl_partition_input *in, double *v
         int side = 0;
         for (int it = 0; it < 100 && fabs(hi - lo) > 1e-9 * hi; it++) {
             double mid = (lo * fhi - hi * flo) / (fhi - flo);
-            double fm = log(halfspace_waste_heat_J(p_ic, r_ic, mid, p_end) / e_target);
+            double fm = log(halfspace_waste_heat_J(&hs, mid) / e_target);
             if (fabs(fm) < 1e-7) {
                 lo = hi = mid;
                 break;
@@ -291,7 +313,7 @@ static int shock_vapor(sl_partition *pt, const sl_partition_input *in, double *v
             }
         }
         n = hi;
-        wh = halfspace_waste_heat_J(p_ic, r_ic, n, p_end);
+        wh = halfspace_waste_heat_J(&hs, n);
     }
     pt->target_waste_heat_J = wh;
     pt->peak_pressure_Pa = p_ic;
