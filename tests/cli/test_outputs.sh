@@ -335,20 +335,17 @@ s4=$(size_of "$D/demo4.nc"); s3=$(size_of "$D/demo3.nc")
 echo "# demo run: netCDF-4 $s4 bytes, netCDF-3 $s3 bytes"
 if [ "$s4" -gt 0 ] && [ $((s4 * 10)) -le $((s3 * 13)) ]; then sl_ok "demo run: netCDF-4 at most 1.3 x netCDF-3 ($s4 / $s3)"
 else sl_fail "demo run: netCDF-4 $s4 bytes, over 1.3 x netCDF-3 ($s3)"; fi
-if both_formats step10 "$SL_BIN" run "$SRC/examples/demo.ini" --set strat.step_days=10 \
-   && $PY "$NCS" "$D/step103.nc" "$D/step104.nc" >"$SL_TMP/same" 2>&1; then
-  s4=$(size_of "$D/step104.nc"); s3=$(size_of "$D/step103.nc")
-  echo "# demo run with 10-day steps: netCDF-4 $s4 bytes, netCDF-3 $s3 bytes"
-  if [ "$s4" -lt "$s3" ]; then sl_ok "10-day steps: same content, netCDF-4 smaller ($s4 < $s3 bytes)"
-  else sl_fail "10-day steps: netCDF-4 $s4 bytes not smaller than netCDF-3 $s3"; fi
-else sl_fail "10-day steps: the two formats differ"; sed 's/^/#   /' "$SL_TMP/same" | head; fi
-if both_formats dec "$SL_BIN" decay "$PROF" --set strat.step_days=10 \
-   && $PY "$NCS" "$D/dec3.nc" "$D/dec4.nc" >"$SL_TMP/same" 2>&1; then
-  s4=$(size_of "$D/dec4.nc"); s3=$(size_of "$D/dec3.nc")
-  echo "# decay with 10-day steps: netCDF-4 $s4 bytes, netCDF-3 $s3 bytes"
-  if [ "$s4" -lt "$s3" ]; then sl_ok "decay, 10-day steps: same content, netCDF-4 smaller ($s4 < $s3 bytes)"
-  else sl_fail "decay, 10-day steps: netCDF-4 $s4 bytes not smaller than netCDF-3 $s3"; fi
-else sl_fail "decay: the two formats differ"; sed 's/^/#   /' "$SL_TMP/same" | head; fi
+smaller_nc4() { # NAME WHAT COMMAND...: both formats hold the same content and netCDF-4 is smaller
+  name=$1; what=$2; shift 2
+  if both_formats "$name" "$@" && $PY "$NCS" "$D/${name}3.nc" "$D/${name}4.nc" >"$SL_TMP/same" 2>&1; then
+    s4=$(size_of "$D/${name}4.nc"); s3=$(size_of "$D/${name}3.nc")
+    echo "# $what: netCDF-4 $s4 bytes, netCDF-3 $s3 bytes"
+    if [ "$s4" -lt "$s3" ]; then sl_ok "$what: same content, netCDF-4 smaller ($s4 < $s3 bytes)"
+    else sl_fail "$what: netCDF-4 $s4 bytes not smaller than netCDF-3 $s3"; fi
+  else sl_fail "$what: the two formats differ"; sed 's/^/#   /' "$SL_TMP/same" | head; fi
+}
+smaller_nc4 step10 "demo run with 10-day steps" "$SL_BIN" run "$SRC/examples/demo.ini" --set strat.step_days=10
+smaller_nc4 dec "decay with 10-day steps" "$SL_BIN" decay "$PROF" --set strat.step_days=10
 if command -v nccopy >/dev/null 2>&1; then
   if "$SL_BIN" ensemble "$SRC/examples/ensemble-stony.ini" --members 2000 --seed 1 --netcdf "$D/ens4.nc" >/dev/null 2>&1 \
      && nccopy -k classic "$D/ens4.nc" "$D/ens3.nc" && $PY "$NCS" "$D/ens3.nc" "$D/ens4.nc" >"$SL_TMP/same" 2>&1; then
