@@ -22,7 +22,7 @@ PREFIX  ?= /usr/local
 VERSION := 0.1.0
 DEPGROUPS := build plot$(if $(filter 1,$(MPI)), mpi)
 
-PKGS     = gsl netcdf inih
+PKGS     = gsl netcdf hdf5 zlib inih
 TESTPKGS = check
 CC       = cc
 ifeq ($(MPI),1)

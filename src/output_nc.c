@@ -33,6 +33,8 @@
 #include <math.h>
 #include <netcdf.h>
 #include <netcdf_mem.h>
+#include <hdf5.h>
+#include <zlib.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -190,52 +192,62 @@ static size_t values_of(const ncw *w, int ndims, const int *dims)
 
 /* ---------------------------------------------------------------- storage of a variable
  * Each variable of a netCDF-4 file is an HDF5 dataset, and what its storage
- * costs decides whether the file is smaller than its netCDF-3 twin (measured
- * on the demo run, 95 variables: every variable chunked and deflated made the
- * file larger than netCDF-3).  The costs, from the HDF5 File Format
- * Specification (version 2, sections III.A.1 and IV.A.2.i) for the HDF5-1.8
- * file format netCDF-C writes: a chunked dataset carries a version-1 B-tree
- * node, allocated whole, of 2K+1 keys of 8 + 8 (rank + 1) bytes and 2K child
- * addresses of 8 bytes (K = 32, HDF5's default), about 2.1 kB for rank 1; a
- * contiguous or compact dataset carries none; compact storage keeps the data
- * in the dataset's object header (no separate data block and address).
- * Variables on the unlimited time dimension must be chunked (one chunk holds
- * the whole series: one record per chunk, the library's default, costs a
- * B-tree entry and a chunk per record).  So: a record variable is
- * shuffled and deflated whenever that is estimated to save bytes (the index
- * is paid anyway); a fixed-size variable is chunked and deflated only when
- * the estimated saving exceeds its B-tree node; otherwise it is compact when
- * small and contiguous when large.  The estimate of the deflated size is the
- * order-0 entropy of each byte plane after the shuffle filter, which
- * overestimated zlib level 4 on every array of 891 or more values of the
- * demo run (so the choice errs towards no compression).  Values are never
- * changed: shuffle and deflate are lossless. */
-enum { BTREE_K = 32, COMPACT_MAX_BYTES = 8192 };
+ * costs decides whether the file is smaller than its netCDF-3 twin.  The
+ * costs, from the HDF5 File Format Specification (version 2, sections
+ * III.A.1, IV.A.2.i and IV.A.2.l) for the HDF5-1.8 file format: a chunked
+ * dataset carries a version-1 B-tree node, allocated whole, of 2K+1 keys of
+ * 8 + 8 (rank + 1) bytes and 2K child addresses of 8 bytes (K the file's
+ * istore_k: 32 by default, about 2.1 kB for rank 1; CHUNK_BTREE_K = 1 in the
+ * run and decay files, 112 bytes) and, when filtered, a filter-pipeline message (about 64
+ * bytes for shuffle and deflate); a contiguous or compact dataset carries
+ * neither; compact storage keeps the data in the dataset's object header (no
+ * separate data block and address).  Variables on the unlimited time
+ * dimension must be chunked (one chunk holds the whole series: one record per
+ * chunk, the library's default, costs a B-tree entry and a chunk per record).
+ * The deflated size is not estimated but measured: the values are deflated
+ * here with zlib at the file's level, with and without the shuffle filter's
+ * byte order, which is what HDF5's deflate filter stores for the one chunk
+ * (it calls zlib's compress2 on the chunk; HDF5 User's Guide, "Filters").
+ * So: a record variable is deflated (shuffled or not, whichever is smaller)
+ * when that saves more than the pipeline message; a fixed-size variable is
+ * chunked and deflated only when the saving exceeds the B-tree node and the
+ * pipeline message; otherwise it is compact when small and contiguous when
+ * large.  Values are never changed: shuffle and deflate are lossless. */
+enum { CHUNK_BTREE_K = 1, COMPACT_MAX_BYTES = 8192, PIPELINE_BYTES = 64 };
 
 static size_t chunk_index_bytes(int ndims)
 {
     size_t key = 8 + 8 * (size_t)(ndims + 1);
-    return 24 + (2 * BTREE_K + 1) * key + 2 * BTREE_K * 8;
+    return 24 + (2 * CHUNK_BTREE_K + 1) * key + 2 * CHUNK_BTREE_K * 8;
 }
 
-/* Estimated bytes of N doubles after shuffle and deflate. */
-static double deflated_estimate(const double *x, size_t n)
+/* Bytes zlib's compress2 at LEVEL makes of the N doubles X, in their order
+ * (SHUFFLE 0) or in the shuffle filter's (all first bytes, then all second
+ * bytes, ...); the uncompressed size when that is not smaller or on any
+ * failure (out of memory: the choice is then no compression). */
+static size_t deflated_bytes(const double *x, size_t n, int shuffle, int level)
 {
-    double bits = 0;
-    for (int plane = 0; plane < 8; plane++) {
-        size_t count[256] = {0};
-        for (size_t i = 0; i < n; i++) {
-            unsigned char b[8];
-            memcpy(b, &x[i], 8);
-            count[b[plane]]++;
-        }
-        for (int k = 0; k < 256; k++)
-            if (count[k] > 0) {
-                double q = (double)count[k] / (double)n;
-                bits -= (double)count[k] * log2(q);
+    size_t raw = 8 * n;
+    unsigned char *in = malloc(raw ? raw : 1);
+    uLongf out_n = compressBound((uLong)raw);
+    unsigned char *out = malloc(out_n);
+    size_t result = raw;
+    if (in != NULL && out != NULL) {
+        if (shuffle)
+            for (size_t i = 0; i < n; i++) {
+                unsigned char b[8];
+                memcpy(b, &x[i], 8);
+                for (int k = 0; k < 8; k++)
+                    in[(size_t)k * n + i] = b[k];
             }
+        else
+            memcpy(in, x, raw);
+        if (compress2(out, &out_n, in, (uLong)raw, level) == Z_OK && out_n < raw)
+            result = out_n;
     }
-    return bits / 8.0 + 64.0; /* + the zlib stream and filter-pipeline message */
+    free(in);
+    free(out);
+    return result;
 }
 
 int sl_output_nc_storage(int ncid, int varid, const double *data, size_t n, int deflate_level,
@@ -251,40 +263,37 @@ int sl_output_nc_storage(int ncid, int varid, const double *data, size_t n, int 
     SL_TRY_RETURN(e, sl_output_nc_check(nc_inq_unlimdim(ncid, &unlim), ncid, varid, path,
                                         "inquiring", NULL, e));
     int record = ndims > 0 && unlim >= 0 && dims[0] == unlim;
-    double raw = 8.0 * (double)n;
-    double packed = (data != NULL && n > 0) ? deflated_estimate(data, n) : raw;
     int level = deflate_level > 0 ? deflate_level : 4;
+    size_t raw = 8 * n, packed = raw;
+    int shuffle = 0;
+    if (data != NULL && n > 0) {
+        size_t with = deflated_bytes(data, n, 1, level), without = deflated_bytes(data, n, 0, level);
+        shuffle = with <= without;
+        packed = shuffle ? with : without;
+    }
+    size_t chunk[NC_MAX_VAR_DIMS];
+    for (int k = 0; k < ndims; k++)
+        SL_TRY_RETURN(e, sl_output_nc_check(nc_inq_dimlen(ncid, dims[k], &chunk[k]), ncid, varid,
+                                            path, "dimension length of", NULL, e));
     if (record) {
-        size_t chunk[NC_MAX_VAR_DIMS];
-        chunk[0] = 1;
         size_t inner = 1;
-        for (int k = 1; k < ndims; k++) {
-            SL_TRY_RETURN(e, sl_output_nc_check(nc_inq_dimlen(ncid, dims[k], &chunk[k]), ncid, varid,
-                                                path, "dimension length of", NULL, e));
+        for (int k = 1; k < ndims; k++)
             inner *= chunk[k] ? chunk[k] : 1;
-        }
         chunk[0] = n / inner > 0 ? n / inner : 1;
-        SL_TRY_RETURN(e, sl_output_nc_check(nc_def_var_chunking(ncid, varid, NC_CHUNKED, chunk), ncid,
-                                            varid, path, "chunking of", NULL, e));
-        if (packed < 0.95 * raw)
-            SL_TRY_RETURN(e, sl_output_nc_check(nc_def_var_deflate(ncid, varid, 1, 1, level), ncid,
-                                                varid, path, "compression of", NULL, e));
+    }
+    int deflate = packed + PIPELINE_BYTES < raw;
+    if (!record && !(ndims > 0 && packed + PIPELINE_BYTES + chunk_index_bytes(ndims) < raw)) {
+        if (raw <= COMPACT_MAX_BYTES)
+            return sl_output_nc_check(nc_def_var_chunking(ncid, varid, NC_COMPACT, NULL), ncid, varid,
+                                      path, "storage of", NULL, e);
+        return SL_OK; /* contiguous, the library's default */
+    }
+    SL_TRY_RETURN(e, sl_output_nc_check(nc_def_var_chunking(ncid, varid, NC_CHUNKED, chunk), ncid,
+                                        varid, path, "chunking of", NULL, e));
+    if (!deflate)
         return SL_OK;
-    }
-    if (ndims > 0 && packed + (double)chunk_index_bytes(ndims) < raw) {
-        size_t chunk[NC_MAX_VAR_DIMS];
-        for (int k = 0; k < ndims; k++)
-            SL_TRY_RETURN(e, sl_output_nc_check(nc_inq_dimlen(ncid, dims[k], &chunk[k]), ncid, varid,
-                                                path, "dimension length of", NULL, e));
-        SL_TRY_RETURN(e, sl_output_nc_check(nc_def_var_chunking(ncid, varid, NC_CHUNKED, chunk), ncid,
-                                            varid, path, "chunking of", NULL, e));
-        return sl_output_nc_check(nc_def_var_deflate(ncid, varid, 1, 1, level), ncid, varid, path,
-                                  "compression of", NULL, e);
-    }
-    if (raw <= COMPACT_MAX_BYTES)
-        return sl_output_nc_check(nc_def_var_chunking(ncid, varid, NC_COMPACT, NULL), ncid, varid,
-                                  path, "storage of", NULL, e);
-    return SL_OK; /* contiguous, the library's default */
+    return sl_output_nc_check(nc_def_var_deflate(ncid, varid, shuffle, 1, level), ncid, varid, path,
+                              "compression of", NULL, e);
 }
 
 static int storage(ncw *w, int id, int ndims, const int *dims, const double *data, sl_err *e)
@@ -855,9 +864,21 @@ int sl_output_nc_write(const sl_output_view *v, const char *path, const sl_nc_op
 
     sl_nc_file file;
     /* NC_NOATTCREORD: no attribute creation-order index per HDF5 object. */
-    int rc = sl_output_nc_create(&file, path, w->nc4 ? (NC_NETCDF4 | NC_CLASSIC_MODEL | NC_NOATTCREORD) : 0, o.force, e);
+    int rc = sl_output_nc_create_k(&file, path, w->nc4 ? (NC_NETCDF4 | NC_CLASSIC_MODEL | NC_NOATTCREORD) : 0,
+                                   CHUNK_BTREE_K, o.force, e);
     if (rc == SL_OK) {
         w->ncid = file.ncid;
+        /* Every variable is written whole (write_all), so no fill value need be
+         * stored per variable: without it a netCDF-4 variable's HDF5 object
+         * header holds no fill-value data and no old-style fill message (HDF5
+         * File Format Specification, IV.A.2.e-f; 32 bytes a variable).  The
+         * _FillValue attributes of variables with undefined values are kept. */
+        int old_fill;
+        if (w->nc4)
+            rc = sl_output_nc_check(nc_set_fill(w->ncid, NC_NOFILL, &old_fill), w->ncid, NC_GLOBAL, path,
+                                    "setting the fill mode of", NULL, e);
+    }
+    if (rc == SL_OK) {
         rc = write_all(w, v, e);
     }
     if (rc == SL_OK || file.set != NULL)
@@ -908,11 +929,128 @@ static size_t hdf5_image_bytes(const unsigned char *p, size_t n)
     return (size_t)eof;
 }
 
-/* The file is built in memory (nc_create_mem, nc_close_memio) and its bytes
- * are then put into the stage with plain write(2): a full disk or a quota is
- * then an ordinary write error with its true cause, never a failure inside
- * the HDF5 library (which can crash after a failed write). */
+/* ---------------------------------------------------------------- the empty netCDF-4 file
+ * netCDF-C builds an in-memory netCDF-4 file (nc_create_mem) with HDF5's
+ * default file-creation properties, unlike a file it creates on disk: no
+ * link or attribute creation order, so the file lists its variables and
+ * global attributes alphabetically and netCDF-C refuses to reopen it for
+ * writing (NC_ECANTWRITE).  So the empty file is made here with the HDF5
+ * library (the one netCDF-C uses) and opened with nc_open_memio:
+ *  - link and attribute creation order tracked and indexed on the root
+ *    group, as netCDF-C sets for its files (netCDF-C's hdf5create.c), so the
+ *    order is the order of definition and the file can be reopened;
+ *  - the root group's links and attributes kept in its object header
+ *    (compact storage up to 65535 of each; HDF5 User's Guide, "Groups",
+ *    H5Pset_link_phase_change and H5Pset_attr_phase_change), instead of a
+ *    fractal heap and two version-2 B-trees each;
+ *  - for the run and decay files, whose chunked variables each hold one
+ *    chunk (sl_output_nc_storage), the B-tree of the chunk indexes with K =
+ *    CHUNK_BTREE_K = 1 entries per half node (H5Pset_istore_k; HDF5's default
+ *    32 allocates a node of 2.1 kB per chunked variable).  Measured with HDF5
+ *    1.10.8: K = 1 makes the index grow with the square of the number of
+ *    chunks (43 chunks: 166 kB against 3.7 kB for K = 32), so files of many
+ *    chunks (the emission file) keep the default; a run file appended to in
+ *    place grows the same way (rewrite it with nccopy first);
+ *  - no object modification times (as netCDF-C), the _NCProperties
+ *    attribute netCDF-C writes ("version=2,netcdf=...,hdf5=..."), and for
+ *    the classic model the _nc3_strict attribute by which netCDF-C knows it.
+ * Library version bounds: earliest to 1.8, as netCDF-C sets, so a reader
+ * with HDF5 1.8 or later (netCDF-C 4.x) reads it: a non-default istore_k
+ * is a version-1 superblock (HDF5 File Format Specification, section II.A,
+ * HDF5 1.6 and later), creation-order tracking a version-2 object header of
+ * the root group (HDF5 1.8 and later, what every netCDF-4 file created on
+ * disk by netCDF-C has). */
+static int hdf5_text_att(hid_t loc, const char *name, const char *text)
+{
+    hid_t type = H5Tcopy(H5T_C_S1), space = H5Screate(H5S_SCALAR), att = -1;
+    int ok = type >= 0 && space >= 0 && H5Tset_size(type, strlen(text) + 1) >= 0 &&
+             H5Tset_strpad(type, H5T_STR_NULLTERM) >= 0;
+    if (ok)
+        att = H5Acreate2(loc, name, type, space, H5P_DEFAULT, H5P_DEFAULT);
+    ok = ok && att >= 0 && H5Awrite(att, type, text) >= 0;
+    if (att >= 0)
+        ok = H5Aclose(att) >= 0 && ok;
+    if (space >= 0)
+        H5Sclose(space);
+    if (type >= 0)
+        H5Tclose(type);
+    return ok;
+}
+
+/* The bytes of an empty netCDF-4 file (classic model when CLASSIC; chunk
+ * index B-tree K BTREE_K, 0 for HDF5's default) in *IMAGE
+ * (malloc'd, *N bytes); 0 when the HDF5 library fails (out of memory). */
+static int empty_netcdf4_image(int classic, int btree_k, void **image, size_t *n)
+{
+    *image = NULL;
+    *n = 0;
+    int ok = 0;
+    hid_t fapl = -1, fcpl = -1, file = -1;
+    H5E_BEGIN_TRY
+    {
+        fapl = H5Pcreate(H5P_FILE_ACCESS);
+        fcpl = H5Pcreate(H5P_FILE_CREATE);
+        ok = fapl >= 0 && fcpl >= 0 && H5Pset_fapl_core(fapl, 4096, 0) >= 0 &&
+             H5Pset_libver_bounds(fapl, H5F_LIBVER_EARLIEST, H5F_LIBVER_V18) >= 0 &&
+             (btree_k <= 0 || H5Pset_istore_k(fcpl, (unsigned)btree_k) >= 0) &&
+             H5Pset_obj_track_times(fcpl, 0) >= 0 &&
+             H5Pset_link_creation_order(fcpl, H5P_CRT_ORDER_TRACKED | H5P_CRT_ORDER_INDEXED) >= 0 &&
+             H5Pset_attr_creation_order(fcpl, H5P_CRT_ORDER_TRACKED | H5P_CRT_ORDER_INDEXED) >= 0 &&
+             H5Pset_link_phase_change(fcpl, 65535, 65535) >= 0 &&
+             H5Pset_attr_phase_change(fcpl, 65535, 65535) >= 0;
+        if (ok)
+            ok = (file = H5Fcreate("steamloft-image", H5F_ACC_TRUNC, fcpl, fapl)) >= 0;
+        char props[128], nc_version[32] = "";
+        unsigned major = 0, minor = 0, release = 0;
+        sscanf(nc_inq_libvers(), "%31[^ ]", nc_version);
+        ok = ok && H5get_libversion(&major, &minor, &release) >= 0;
+        snprintf(props, sizeof props, "version=2,netcdf=%s,hdf5=%u.%u.%u", nc_version, major, minor,
+                 release);
+        ok = ok && hdf5_text_att(file, "_NCProperties", props);
+        if (ok && classic) {
+            int one = 1;
+            hid_t space = H5Screate(H5S_SCALAR), att = -1;
+            if (space >= 0)
+                att = H5Acreate2(file, "_nc3_strict", H5T_NATIVE_INT, space, H5P_DEFAULT, H5P_DEFAULT);
+            ok = att >= 0 && H5Awrite(att, H5T_NATIVE_INT, &one) >= 0;
+            if (att >= 0)
+                ok = H5Aclose(att) >= 0 && ok;
+            if (space >= 0)
+                H5Sclose(space);
+        }
+        ok = ok && H5Fflush(file, H5F_SCOPE_GLOBAL) >= 0;
+        ssize_t len = ok ? H5Fget_file_image(file, NULL, 0) : -1;
+        if (len > 0 && (*image = malloc((size_t)len)) != NULL &&
+            H5Fget_file_image(file, *image, (size_t)len) == len)
+            *n = (size_t)len;
+        ok = ok && *n > 0;
+        if (file >= 0)
+            ok = H5Fclose(file) >= 0 && ok;
+        if (fcpl >= 0)
+            H5Pclose(fcpl);
+        if (fapl >= 0)
+            H5Pclose(fapl);
+    }
+    H5E_END_TRY;
+    if (!ok) {
+        free(*image);
+        *image = NULL;
+        *n = 0;
+    }
+    return ok;
+}
+
+/* The file is built in memory (an HDF5 image opened with nc_open_memio, or
+ * nc_create_mem for netCDF-3; nc_close_memio) and its bytes are then put
+ * into the stage with plain write(2): a full disk or a quota is then an
+ * ordinary write error with its true cause, never a failure inside the HDF5
+ * library (which can crash after a failed write). */
 int sl_output_nc_create(sl_nc_file *f, const char *path, int cmode, int force, sl_err *e)
+{
+    return sl_output_nc_create_k(f, path, cmode, 0, force, e);
+}
+
+int sl_output_nc_create_k(sl_nc_file *f, const char *path, int cmode, int btree_k, int force, sl_err *e)
 {
     memset(f, 0, sizeof *f);
     f->ncid = -1;
@@ -926,10 +1064,26 @@ int sl_output_nc_create(sl_nc_file *f, const char *path, int cmode, int force, s
         const char *slash = strrchr(path, '/');
         snprintf(f->base, sizeof f->base, "%s", slash ? slash + 1 : path);
         sl_outset_forget(f->set, f->base); /* re-added by sl_outset_write_file */
-        int st = nc_create_mem(f->base, cmode, 1 << 16, &f->ncid);
+        int st;
+        if (cmode & NC_NETCDF4) {
+            NC_memio mem = {0, NULL, 0};
+            if (!empty_netcdf4_image((cmode & NC_CLASSIC_MODEL) != 0, btree_k, &mem.memory, &mem.size)) {
+                st = NC_ENOMEM;
+            } else {
+                /* netCDF-C owns the image from here (NC_memio without NC_MEMIO_LOCKED) */
+                st = nc_open_memio(f->base, NC_WRITE | (cmode & NC_NOATTCREORD), &mem, &f->ncid);
+                /* on a failure netCDF-C may already have freed the image: not freed here */
+                if (st == NC_NOERR && (st = nc_redef(f->ncid)) != NC_NOERR)
+                    (void)nc_abort(f->ncid);
+            }
+        } else {
+            st = nc_create_mem(f->base, cmode, 1 << 16, &f->ncid);
+        }
         if (st != NC_NOERR) {
             f->ncid = -1;
-            rc = sl_err_set(e, SL_ECANTCREAT, __func__, __LINE__, "cannot create '%s': %s", path, nc_strerror(st));
+            rc = st == NC_ENOMEM ? sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "writing '%s': out of memory", path)
+                                 : sl_err_set(e, SL_ECANTCREAT, __func__, __LINE__, "cannot create '%s': %s", path,
+                                              nc_strerror(st));
         }
     }
     if (rc != SL_OK) {

@@ -96,6 +96,13 @@ typedef struct sl_nc_file {
     sl_outset *set;
 } sl_nc_file;
 int sl_output_nc_create(sl_nc_file *f, const char *path, int cmode, int force, sl_err *e);
+/* The same with the B-tree K of the netCDF-4 file's chunk indexes (HDF5's
+ * istore_k; 0: HDF5's default, 32).  A small K saves about 2 kB per chunked
+ * variable of one chunk but makes an index of many chunks grow with their
+ * square (output_nc.c): only for files whose chunked variables are one chunk
+ * each.  A netCDF-4 file of either lists its variables and attributes in the
+ * order they were defined and can be reopened for writing by netCDF-C. */
+int sl_output_nc_create_k(sl_nc_file *f, const char *path, int cmode, int btree_k, int force, sl_err *e);
 int sl_output_nc_finish(sl_nc_file *f, int rc, sl_err *e);
 
 /* The storage of NC_DOUBLE variable VARID of a netCDF-4 file NCID (call in
