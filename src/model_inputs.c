@@ -508,16 +508,32 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
         SL_FAIL_RETURN(e, SL_EUSAGE, "--zonal: the run has no box-model time series");
     const size_t nt = r->n_times, nl = m->n_layers, nr = SL_STRAT_N_REGIONS, nb = m->n_boxes;
     const double fill = NC_FILL_DOUBLE;
-    double *buf = malloc(nt * nl * nr * sizeof *buf);
+    const size_t nf = nt * nl * nr; /* values of one field */
+    double *buf = malloc(2 * nf * sizeof *buf), *tday = malloc(nt * sizeof *tday);
     double *cb = malloc(nl * nr * sizeof *cb), *ct = malloc(nl * nr * sizeof *ct);
     int rc = SL_OK;
     sl_nc_file W = {.ncid = -1, .path = path}, *wp = &W;
-    if (!buf || !cb || !ct) {
+    if (!buf || !tday || !cb || !ct) {
         rc = SL_ENOMEM;
         sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "out of memory (zonal file)");
         goto done;
     }
-    rc = sl_output_nc_create(wp, path, NC_NETCDF4 | NC_CLASSIC_MODEL, force, e);
+    /* The values first: each variable's storage is chosen from them
+     * (sl_output_nc_storage); every chunked variable is then one chunk. */
+    const double eps = SL_MOLAR_MASS_H2O_KG_MOL / SL_MOLAR_MASS_DRY_AIR_KG_MOL;
+    for (size_t t = 0; t < nt; t++)
+        tday[t] = r->time_s[t] / SL_S_PER_DAY;
+    for (int k = 0; k < 2; k++)
+        for (size_t t = 0; t < nt; t++)
+            for (size_t l = 0; l < nl; l++)
+                for (size_t reg = 0; reg < nr; reg++) {
+                    int b = m->box_of[reg][l];
+                    double x = b >= 0 ? r->box_excess_kg[t * nb + (size_t)b] : fill;
+                    if (b >= 0)
+                        x = k ? x / m->region_area_m2[reg] : x / (eps * m->box_air_kg[b]);
+                    buf[(size_t)k * nf + (t * nl + l) * nr + reg] = x;
+                }
+    rc = sl_output_nc_create_k(wp, path, NC_NETCDF4 | NC_CLASSIC_MODEL, SL_NC_ONE_CHUNK_BTREE_K, force, e);
     if (rc != SL_OK)
         goto done;
     int d_t, d_z, d_y, d_x, d_nv, v_t, v_z, v_zb, v_y, v_yb, v_x, v_xb, v_bb, v_bt, v_q, v_m;
@@ -542,6 +558,8 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
     if ((rc = chk(wp, "time", def_coord(wp->ncid, "time", d_t, d_nv, tunits, "time", "T", &v_t, NULL), e)) != SL_OK)
         goto done;
     if ((rc = chk(wp, "time", att_text(wp->ncid, v_t, "calendar", "standard"), e)) != SL_OK)
+        goto done;
+    if ((rc = sl_output_nc_storage(wp->ncid, v_t, tday, nt, 0, path, e)) != SL_OK)
         goto done;
     if ((rc = chk(wp, "altitude", def_coord(wp->ncid, "altitude", d_z, d_nv, "m", "altitude", "Z", &v_z, &v_zb), e)) != SL_OK)
         goto done;
@@ -574,7 +592,6 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
                                        "of a region starts at the region's tropopause)"), e)) != SL_OK)
             goto done;
     }
-    size_t chunk[4] = {nt, nl, nr, 1};
     if ((rc = chk(wp, "mole_fraction_anomaly", nc_def_var(wp->ncid, "mole_fraction_anomaly", NC_DOUBLE, 4, d4, &v_q), e)) != SL_OK)
         goto done;
     if ((rc = chk(wp, "mass_per_area", nc_def_var(wp->ncid, "mass_per_area", NC_DOUBLE, 4, d4, &v_m), e)) != SL_OK)
@@ -584,11 +601,7 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
     const char *ql[2] = {"excess water vapour mole fraction over background, mean over the box",
                          "excess water in the box per unit area of its latitude region"};
     for (int k = 0; k < 2; k++) {
-        if ((rc = chk(wp, "field", nc_def_var_chunking(wp->ncid, vq[k], NC_CHUNKED, chunk), e)) != SL_OK)
-            goto done;
-        /* Lossless shuffle and deflate: the index of the one chunk is paid anyway
-         * (output_nc.c: what a netCDF-4 variable's storage costs). */
-        if ((rc = chk(wp, "field", nc_def_var_deflate(wp->ncid, vq[k], 1, 1, 4), e)) != SL_OK)
+        if ((rc = sl_output_nc_storage(wp->ncid, vq[k], buf + (size_t)k * nf, nf, 0, path, e)) != SL_OK)
             goto done;
         if ((rc = chk(wp, "field", nc_def_var_fill(wp->ncid, vq[k], 0, &fill), e)) != SL_OK)
             goto done;
@@ -611,10 +624,8 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
     if ((rc = chk(wp, "enddef", nc_enddef(wp->ncid), e)) != SL_OK)
         goto done;
 
-    for (size_t t = 0; t < nt; t++)
-        buf[t] = r->time_s[t] / SL_S_PER_DAY;
     size_t st1 = 0, cn1 = nt;
-    if ((rc = chk(wp, "time", nc_put_vara_double(wp->ncid, v_t, &st1, &cn1, buf), e)) != SL_OK)
+    if ((rc = chk(wp, "time", nc_put_vara_double(wp->ncid, v_t, &st1, &cn1, tday), e)) != SL_OK)
         goto done;
     double zc[SL_STRAT_MAX_LAYERS], zb[2 * SL_STRAT_MAX_LAYERS], lowest = INFINITY;
     for (size_t b = 0; b < nb; b++)
@@ -650,25 +661,15 @@ int sl_model_inputs_zonal_write(const sl_model_inputs *mi, const sl_strat_model 
         goto done;
     if ((rc = chk(wp, "box_top", nc_put_var_double(wp->ncid, v_bt, ct), e)) != SL_OK)
         goto done;
-    const double eps = SL_MOLAR_MASS_H2O_KG_MOL / SL_MOLAR_MASS_DRY_AIR_KG_MOL;
     size_t st4[4] = {0, 0, 0, 0}, cn4[4] = {nt, nl, nr, 1};
-    for (int k = 0; k < 2; k++) {
-        for (size_t t = 0; t < nt; t++)
-            for (size_t l = 0; l < nl; l++)
-                for (size_t reg = 0; reg < nr; reg++) {
-                    int b = m->box_of[reg][l];
-                    double x = b >= 0 ? r->box_excess_kg[t * nb + (size_t)b] : fill;
-                    if (b >= 0)
-                        x = k ? x / m->region_area_m2[reg] : x / (eps * m->box_air_kg[b]);
-                    buf[(t * nl + l) * nr + reg] = x;
-                }
-        if ((rc = chk(wp, "field", nc_put_vara_double(wp->ncid, vq[k], st4, cn4, buf), e)) != SL_OK)
+    for (int k = 0; k < 2; k++)
+        if ((rc = chk(wp, "field", nc_put_vara_double(wp->ncid, vq[k], st4, cn4, buf + (size_t)k * nf), e)) != SL_OK)
             goto done;
-    }
 done:
     if (W.set != NULL) /* closes, writes and renames on success; discards on error */
         rc = sl_output_nc_finish(wp, rc, e);
     free(buf);
+    free(tday);
     free(cb);
     free(ct);
     return rc;

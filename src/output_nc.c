@@ -213,7 +213,7 @@ static size_t values_of(const ncw *w, int ndims, const int *dims)
  * chunked and deflated only when the saving exceeds the B-tree node and the
  * pipeline message; otherwise it is compact when small and contiguous when
  * large.  Values are never changed: shuffle and deflate are lossless. */
-enum { CHUNK_BTREE_K = 1, COMPACT_MAX_BYTES = 8192, PIPELINE_BYTES = 64 };
+enum { CHUNK_BTREE_K = SL_NC_ONE_CHUNK_BTREE_K, COMPACT_MAX_BYTES = 8192, PIPELINE_BYTES = 64 };
 
 static size_t chunk_index_bytes(int ndims)
 {

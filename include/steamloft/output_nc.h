@@ -103,6 +103,8 @@ int sl_output_nc_create(sl_nc_file *f, const char *path, int cmode, int force, s
  * each.  A netCDF-4 file of either lists its variables and attributes in the
  * order they were defined and can be reopened for writing by netCDF-C. */
 int sl_output_nc_create_k(sl_nc_file *f, const char *path, int cmode, int btree_k, int force, sl_err *e);
+/* The K for files whose chunked variables are one chunk each. */
+enum { SL_NC_ONE_CHUNK_BTREE_K = 1 };
 int sl_output_nc_finish(sl_nc_file *f, int rc, sl_err *e);
 
 /* The storage of NC_DOUBLE variable VARID of a netCDF-4 file NCID (call in

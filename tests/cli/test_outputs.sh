@@ -374,6 +374,18 @@ if command -v nccopy >/dev/null 2>&1; then
 else
   sl_skip "nccopy not installed: ensemble netCDF-3 copy not compared"
 fi
+if command -v nccopy >/dev/null 2>&1; then
+  # The zonal field (always netCDF-4) against its netCDF-3 copy.
+  if "$SL_BIN" run "$SRC/examples/demo.ini" --zonal "$D/zon4.nc" >/dev/null 2>&1 \
+     && nccopy -k classic "$D/zon4.nc" "$D/zon3.nc" && $PY "$NCS" "$D/zon3.nc" "$D/zon4.nc" >"$SL_TMP/same" 2>&1; then
+    s4=$(size_of "$D/zon4.nc"); s3=$(size_of "$D/zon3.nc")
+    echo "# demo zonal field: netCDF-4 $s4 bytes, its netCDF-3 copy $s3 bytes"
+    if [ "$s4" -lt "$s3" ]; then sl_ok "zonal field: netCDF-4 smaller than its netCDF-3 copy ($s4 < $s3 bytes)"
+    else sl_fail "zonal field: netCDF-4 $s4 bytes not smaller than its netCDF-3 copy $s3"; fi
+  else sl_fail "zonal field and its netCDF-3 copy"; sed 's/^/#   /' "$SL_TMP/same" | head; fi
+else
+  sl_skip "nccopy not installed: zonal netCDF-3 copy not compared"
+fi
 
 # Nothing stray anywhere: no staging directories left behind.
 if [ -z "$(find "$D" -name '.steamloft-stage-*')" ]; then sl_ok "no staging directories left"; else sl_fail "staging left"; fi
