@@ -208,7 +208,7 @@ static int build_plan(const sl_ens_request *c, sl_scenario *sc, sl_ens_plan *p, 
  * have it. */
 typedef enum out_id {
     O_ENERGY_MT, O_AIRBURST, O_PEAK_DEPOSITION_KM, O_ENERGY_AIR_MT, O_ENERGY_SEA_MT,
-    O_WATER_VAPORIZED_TG, O_SOURCE_VAPOR_TG, O_BLOWOUT, O_SEA_BLOWOUT, O_PLUME_TOP_KM, O_CLOUD_TOP_KM,
+    O_WATER_VAPORIZED_TG, O_SOURCE_VAPOR_TG, O_REGIME, O_SEA_REGIME, O_AIR_REGIME, O_EXPLOSION_REGIME, O_PLUME_TOP_KM, O_CLOUD_TOP_KM,
     O_WATER_RISING_TG, O_STRAT_WATER_TG, O_STRAT_VAPOR_TG, O_STRAT_ICE_TG,
     /* box model */
     O_BOX_INJECTED_TG, O_BOX_INITIAL_TG, O_EFOLDING_YEARS, O_RESIDENCE_YEARS, O_REMAINING_3Y,
@@ -216,37 +216,47 @@ typedef enum out_id {
     O_FORCING_W_M2, O_N_OUT
 } out_id;
 
-enum { FOR_ALL = 0, FOR_IMPACTOR = 1 };
+enum { FOR_ALL = 0, FOR_IMPACTOR = 1, FOR_EXPLOSION = 2 };
+
+#define REGIME_FLAGS "thermal blow-out ballistic"
 
 static const struct {
     sl_ens_output o;
     int only;
 } out_table[O_N_OUT] = {
-    {{"energy_Mt", "4.184e15 J", "kinetic energy at entry, or the explosion energy (Mt TNT)", 0}, FOR_ALL},
-    {{"airburst", "1", "1 when the body burst in the air, 0 when it reached the sea", 0}, FOR_IMPACTOR},
-    {{"peak_deposition_altitude_km", "km", "altitude where the energy deposition peaked", 0}, FOR_IMPACTOR},
-    {{"energy_in_air_Mt", "4.184e15 J", "energy deposited in the atmosphere (Mt TNT)", 0}, FOR_ALL},
-    {{"energy_at_sea_Mt", "4.184e15 J", "energy reaching the sea surface (Mt TNT)", 0}, FOR_ALL},
-    {{"water_vaporized_Tg", "Tg", "sea water vaporised", 0}, FOR_ALL},
-    {{"source_vapor_Tg", "Tg", "water vapour in the initial plume sources", 0}, FOR_ALL},
-    {{"blowout", "1", "1 when a source is outside the buoyant-thermal picture (blow-out or ballistic), 0 for thermals", 0}, FOR_ALL},
-    {{"sea_plume_blowout", "1", "1 when the plume rising from the sea is blow-out or ballistic (no sea plume: 0)", 0}, FOR_ALL},
-    {{"plume_top_km", "km", "highest reach of the thermals", 0}, FOR_ALL},
-    {{"cloud_top_km", "km", "top of the young clouds", 0}, FOR_ALL},
-    {{"water_rising_Tg", "Tg", "water in the clouds after the rise, before freeze-out", 0}, FOR_ALL},
-    {{"stratospheric_water_Tg", "Tg", "water (vapour and ice) above the tropopause", 0}, FOR_ALL},
-    {{"stratospheric_vapor_Tg", "Tg", "of it vapour", 0}, FOR_ALL},
-    {{"stratospheric_ice_Tg", "Tg", "of it ice", 0}, FOR_ALL},
-    {{"box_injected_Tg", "Tg", "water (vapour and ice) entering the box model above its tropopauses", 0}, FOR_ALL},
-    {{"box_initial_excess_Tg", "Tg", "box-model excess water after the young cloud's freeze-out", 0}, FOR_ALL},
-    {{"efolding_years", "year", "time for the stratospheric excess to fall to 1/e (none when nothing entered)", 1}, FOR_ALL},
-    {{"residence_years", "year", "mean residence time of the excess (none when nothing entered)", 1}, FOR_ALL},
-    {{"remaining_3y_fraction", "1", "fraction of the excess left after 3 years (none when nothing entered)", 1}, FOR_ALL},
-    {{"percent_of_background", "percent", "peak excess as a percentage of the background stratospheric water", 0}, FOR_ALL},
-    {{"peak_anomaly_ppmv", "1e-6", "peak global-mean water mole-fraction anomaly above ~100 hPa", 0}, FOR_ALL},
-    {{"peak_column_um", "um", "peak global-mean column anomaly, precipitable micrometres", 0}, FOR_ALL},
-    {{"peak_local_column_um", "um", "peak column anomaly over the young cloud, precipitable micrometres", 0}, FOR_ALL},
-    {{"forcing_W_m2", "W m-2", "peak first-order radiative-forcing indicator (coarse)", 0}, FOR_ALL},
+    {{"energy_Mt", "4.184e15 J", "kinetic energy at entry, or the explosion energy (Mt TNT)", 0, NULL}, FOR_ALL},
+    {{"airburst", "1", "1 when the body burst in the air, 0 when it reached the sea", 0, NULL}, FOR_IMPACTOR},
+    {{"peak_deposition_altitude_km", "km", "altitude where the energy deposition peaked", 0, NULL}, FOR_IMPACTOR},
+    {{"energy_in_air_Mt", "4.184e15 J", "energy deposited in the atmosphere (Mt TNT)", 0, NULL}, FOR_ALL},
+    {{"energy_at_sea_Mt", "4.184e15 J", "energy reaching the sea surface (Mt TNT)", 0, NULL}, FOR_ALL},
+    {{"water_vaporized_Tg", "Tg", "sea water vaporised", 0, NULL}, FOR_ALL},
+    {{"source_vapor_Tg", "Tg", "water vapour in the initial plume sources", 0, NULL}, FOR_ALL},
+    /* Regimes: the codes and names of the run file's source_regime and regime
+     * (sl_plume_regime_name); a source the member does not have: none. */
+    {{"regime", "1", "regime of the event, the highest of its sources: 0 thermal, 1 blow-out, 2 ballistic", 0,
+      REGIME_FLAGS}, FOR_ALL},
+    {{"sea_plume_regime", "1", "regime of the plume rising from the sea: 0 thermal, 1 blow-out, 2 ballistic "
+      "(none when the body did not reach the sea)", 1, REGIME_FLAGS}, FOR_IMPACTOR},
+    {{"airburst_regime", "1", "regime of the air heated along the path: 0 thermal, 1 blow-out, 2 ballistic "
+      "(none when no airburst source)", 1, REGIME_FLAGS}, FOR_IMPACTOR},
+    {{"explosion_regime", "1", "regime of the explosion's fireball: 0 thermal, 1 blow-out, 2 ballistic", 0,
+      REGIME_FLAGS}, FOR_EXPLOSION},
+    {{"plume_top_km", "km", "highest reach of the thermals", 0, NULL}, FOR_ALL},
+    {{"cloud_top_km", "km", "top of the young clouds", 0, NULL}, FOR_ALL},
+    {{"water_rising_Tg", "Tg", "water in the clouds after the rise, before freeze-out", 0, NULL}, FOR_ALL},
+    {{"stratospheric_water_Tg", "Tg", "water (vapour and ice) above the tropopause", 0, NULL}, FOR_ALL},
+    {{"stratospheric_vapor_Tg", "Tg", "of it vapour", 0, NULL}, FOR_ALL},
+    {{"stratospheric_ice_Tg", "Tg", "of it ice", 0, NULL}, FOR_ALL},
+    {{"box_injected_Tg", "Tg", "water (vapour and ice) entering the box model above its tropopauses", 0, NULL}, FOR_ALL},
+    {{"box_initial_excess_Tg", "Tg", "box-model excess water after the young cloud's freeze-out", 0, NULL}, FOR_ALL},
+    {{"efolding_years", "year", "time for the stratospheric excess to fall to 1/e (none when nothing entered)", 1, NULL}, FOR_ALL},
+    {{"residence_years", "year", "mean residence time of the excess (none when nothing entered)", 1, NULL}, FOR_ALL},
+    {{"remaining_3y_fraction", "1", "fraction of the excess left after 3 years (none when nothing entered)", 1, NULL}, FOR_ALL},
+    {{"percent_of_background", "percent", "peak excess as a percentage of the background stratospheric water", 0, NULL}, FOR_ALL},
+    {{"peak_anomaly_ppmv", "1e-6", "peak global-mean water mole-fraction anomaly above ~100 hPa", 0, NULL}, FOR_ALL},
+    {{"peak_column_um", "um", "peak global-mean column anomaly, precipitable micrometres", 0, NULL}, FOR_ALL},
+    {{"peak_local_column_um", "um", "peak column anomaly over the young cloud, precipitable micrometres", 0, NULL}, FOR_ALL},
+    {{"forcing_W_m2", "W m-2", "peak first-order radiative-forcing indicator (coarse)", 0, NULL}, FOR_ALL},
 };
 
 _Static_assert((int)O_N_OUT <= (int)SL_ENS_MAX_OUT, "raise SL_ENS_MAX_OUT");
@@ -311,6 +321,16 @@ static void *chain_ws_new(void *ctx, sl_err *e)
     return w;
 }
 
+/* The regime code of the member's source of KIND (one per kind), NAN when
+ * it has none. */
+static double source_regime(const sl_plume *pl, sl_source_kind kind)
+{
+    for (size_t i = 0; i < pl->n_thermals; i++)
+        if (pl->th[i].kind == kind)
+            return (double)pl->th[i].regime;
+    return NAN;
+}
+
 static double out_value(const sl_chain *ch, const sl_strat_result *b, out_id id)
 {
     const sl_partition *pt = &ch->partition;
@@ -328,12 +348,10 @@ static double out_value(const sl_chain *ch, const sl_strat_result *b, out_id id)
             v += pt->sources.src[i].vapor_mass_kg;
         return sl_kg_to_tg(v);
     }
-    case O_BLOWOUT: return ch->plume.regime != SL_REGIME_THERMAL ? 1.0 : 0.0;
-    case O_SEA_BLOWOUT:
-        for (size_t i = 0; i < ch->plume.n_thermals; i++)
-            if (ch->plume.th[i].kind == SL_SOURCE_SEA_PLUME && ch->plume.th[i].regime != SL_REGIME_THERMAL)
-                return 1.0;
-        return 0.0;
+    case O_REGIME: return (double)ch->plume.regime;
+    case O_SEA_REGIME: return source_regime(&ch->plume, SL_SOURCE_SEA_PLUME);
+    case O_AIR_REGIME: return source_regime(&ch->plume, SL_SOURCE_AIRBURST);
+    case O_EXPLOSION_REGIME: return source_regime(&ch->plume, SL_SOURCE_EXPLOSION);
     case O_PLUME_TOP_KM: return sl_m_to_km(ch->plume.plume_top_m);
     case O_CLOUD_TOP_KM: return sl_m_to_km(ch->plume.cloud_top_m);
     case O_WATER_RISING_TG: return sl_kg_to_tg(ch->plume.water_rising_kg);
@@ -451,7 +469,8 @@ static int ens_chain_init(sl_ens_chain *c, const sl_scenario *sc, const sl_ens_p
         if (strcmp(sl_scenario_params[ids[k]].section, "strat") == 0 || ids[k] == SL_P_SITE_MONTH)
             c->strat_fixed = 0;
     for (int k = 0; k < O_N_OUT; k++) {
-        if (out_table[k].only == FOR_IMPACTOR && sc->kind != SL_SCENARIO_IMPACTOR)
+        if ((out_table[k].only == FOR_IMPACTOR && sc->kind != SL_SCENARIO_IMPACTOR) ||
+            (out_table[k].only == FOR_EXPLOSION && sc->kind != SL_SCENARIO_EXPLOSION))
             continue;
         c->which[c->n_out] = k;
         c->outputs[c->n_out++] = out_table[k].o;

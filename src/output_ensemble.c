@@ -333,6 +333,18 @@ static int nc_define(sl_ens_sink *s, const char *path, size_t np, const double *
         SL_TRY_RETURN(e, def_double(s, m->outputs[j].name, 1, &dm, m->outputs[j].long_name, m->outputs[j].units, 1,
                                     &s->nc_out[j], e));
         SL_TRY_RETURN(e, member_chunks(s, s->nc_out[j], 1, 1, sizeof(double), e));
+        if (m->outputs[j].flag_meanings != NULL) { /* codes 0..n-1 (CF 3.5) */
+            double codes[8];
+            size_t nf = 0;
+            for (const char *q = m->outputs[j].flag_meanings; *q && nf < 8; nf++) {
+                codes[nf] = (double)nf;
+                q += strcspn(q, " ");
+                q += strspn(q, " ");
+            }
+            NCS(s, s->nc_out[j], "attribute", "flag_values",
+                nc_put_att_double(s->nc, s->nc_out[j], "flag_values", NC_DOUBLE, nf, codes));
+            SL_TRY_RETURN(e, att(s, s->nc_out[j], "flag_meanings", m->outputs[j].flag_meanings, e));
+        }
     }
     if (nb > 0 || nt > 0) {
         NCS(s, NC_GLOBAL, "defining dimension", "percentile", nc_def_dim(s->nc, "percentile", np, &dp));

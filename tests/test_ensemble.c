@@ -333,7 +333,7 @@ static int toy_member(void *ws, void *ctx, const sl_ens_plan *plan, const double
     return SL_OK;
 }
 
-static const sl_ens_output toy_outputs[] = {{"y0", "1", "sum", 0}, {"y1", "1", "exp", 0}};
+static const sl_ens_output toy_outputs[] = {{"y0", "1", "sum", 0, NULL}, {"y1", "1", "exp", 0, NULL}};
 
 typedef struct row_log {
     size_t n, last;
@@ -532,7 +532,7 @@ static int gap_member(void *ws, void *ctx, const sl_ens_plan *plan, const double
     return SL_OK;
 }
 
-static const sl_ens_output gap_outputs[] = {{"x", "1", "x", 0}, {"twice_x", "1", "2x if x >= 0.5", 1}};
+static const sl_ens_output gap_outputs[] = {{"x", "1", "x", 0, NULL}, {"twice_x", "1", "2x if x >= 0.5", 1, NULL}};
 
 START_TEST(test_missing_outputs)
 {
@@ -594,7 +594,7 @@ static int ishigami_member(void *ws, void *ctx, const sl_ens_plan *plan, const d
     return SL_OK;
 }
 
-static const sl_ens_output ishigami_outputs[] = {{"y", "1", "Ishigami function", 0}};
+static const sl_ens_output ishigami_outputs[] = {{"y", "1", "Ishigami function", 0, NULL}};
 
 START_TEST(test_first_order_ishigami)
 {
@@ -727,9 +727,9 @@ static int store_member(void *ws, void *ctx, const sl_ens_plan *plan, const doub
     return SL_OK;
 }
 
-static const sl_ens_output store_outputs[] = {{"y0", "1", "sum", 0}, {"y1", "1", "ties", 0},
-                                              {"y2", "1", "gap", 1}, {"y3", "1", "zeros", 0},
-                                              {"y4", "1", "constant", 0}};
+static const sl_ens_output store_outputs[] = {{"y0", "1", "sum", 0, NULL}, {"y1", "1", "ties", 0, NULL},
+                                              {"y2", "1", "gap", 1, NULL}, {"y3", "1", "zeros", 0, NULL},
+                                              {"y4", "1", "constant", 0, NULL}};
 
 /* Bit for bit, NAN equal to NAN. */
 static int same(double a, double b) { return (isnan(a) && isnan(b)) || memcmp(&a, &b, sizeof a) == 0; }

@@ -147,6 +147,9 @@ typedef struct sl_ens_output {
                          * e-folding time when nothing was injected); the
                          * statistics of this output skip it.  0: a non-finite
                          * value makes the member fail. */
+    const char *flag_meanings; /* a code 0, 1, ...: the blank-separated names
+                                * of the codes (CF flag_meanings); NULL for a
+                                * quantity */
 } sl_ens_output;
 
 /* The model run for each member.  ws_new is called once per thread before the

@@ -269,7 +269,7 @@ assert W[-1] > 10 * W[k], W
 S = [float(r["stratospheric_water_Tg"]) for r in rows]
 imp = list(range(k, len(d)))
 assert len(imp) >= 4, imp
-assert any(rows[i]["sea_plume_blowout"] == "1" for i in imp), "no blown-out member in the sweep"
+assert any(rows[i]["sea_plume_regime"] in ("1", "2") for i in imp), "no blown-out member in the sweep"
 assert all(S[j] > S[i] for i, j in zip(imp, imp[1:])), [S[i] for i in imp]
 assert S[imp[-1]] > 10 * S[imp[0]] > 0, (S[imp[0]], S[imp[-1]])
 print("%g %g" % (d[k - 1], d[k]))

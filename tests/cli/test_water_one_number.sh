@@ -49,8 +49,9 @@ else sl_fail "stratospheric water differs between outputs"; sed 's/^/#   /' "$SL
 # One regime per source (issue 12: "the regime is a per-source field in every output"): the
 # kind and regime of each source, in order, are the same in the text summary (-v: "thermal N
 # (kind, regime)"), the JSON ("sources"[].kind, "thermals"[].regime), the CSV (sources.csv) and
-# the netCDF (source_kind, source_regime: CF flags, decoded through flag_meanings), and the
-# event's regime (the highest) likewise.  Two cases: a 1 km stony body at 18 km/s into 4 km of
+# the netCDF (source_kind, source_regime: CF flags, decoded through flag_meanings), the ensemble
+# columns (sea_plume_regime, airburst_regime: codes, CF flags in its netCDF), and the event's
+# regime (the highest) likewise.  Two cases: a 1 km stony body at 18 km/s into 4 km of
 # ocean (the size and speed of Pierazzo et al. 2010; a release much wider than the scale height,
 # so a source outside the buoyant-thermal picture: PRACTICE, the model's own classification) and
 # a small airburst over the sea whose two sources are thermals.  Common practice, no source.
@@ -61,6 +62,10 @@ for c in km small; do
   cp "$SL_TMP/out" "$SL_TMP/$c.txt"
   "$SL_BIN" run --json "$SL_TMP/$c.ini" >"$SL_TMP/$c.json"
   "$SL_BIN" run "$SL_TMP/$c.ini" -o "$SL_TMP/${c}3.nc" --format classic >/dev/null 2>&1
+  # The same body as an ensemble of two identical members: its regime columns.
+  sed 's/^diameter_m *= *\([0-9.]*\).*/diameter_m = choice(\1)/' "$SL_TMP/$c.ini" >"$SL_TMP/${c}e.ini"
+  "$SL_BIN" ensemble "$SL_TMP/${c}e.ini" -n 2 --no-progress -o "$SL_TMP/${c}e.csv" >/dev/null 2>&1
+  "$SL_BIN" ensemble "$SL_TMP/${c}e.ini" -n 2 --no-progress -o "$SL_TMP/${c}e.nc" >/dev/null 2>&1
   if /usr/bin/python3 - "$SL_TMP" "$c" <<'PY'
 import csv, json, re, sys, netCDF4
 t, c = sys.argv[1], sys.argv[2]
@@ -90,6 +95,21 @@ for nc in ("%s/%s.nc" % (t, c), "%s/%s3.nc" % (t, c)):
         got = list(zip(decode("source_kind"), decode("source_regime")))
         if got != want: bad.append("%s: %r against JSON %r" % (nc, got, want))
         if decode("regime") != [event]: bad.append("%s: event regime %r against %r" % (nc, decode("regime"), event))
+# Ensemble columns <kind>_regime and regime: codes whose names are the netCDF's flag_meanings.
+rows = [r for r in csv.DictReader(l for l in open("%s/%se.csv" % (t, c)) if not l.startswith("#"))]
+with netCDF4.Dataset("%s/%se.nc" % (t, c)) as ds:
+    names = ds.variables["regime"].flag_meanings.split()
+    if list(ds.variables["regime"].flag_values) != list(range(len(names))): bad.append("ensemble flag_values")
+    for kind in ("sea_plume", "airburst"):
+        have = [r for k, r in want if k == kind]
+        for where, vals in (("CSV", [rw[kind + "_regime"] for rw in rows]),
+                            ("netCDF", [str(int(x)) if x is not None else "" for x in
+                                        ds.variables[kind + "_regime"][...].filled(-1).tolist()])):
+            got = [names[int(v)] if v not in ("", "-1") else None for v in vals]
+            if got != [have[0] if have else None] * 2:
+                bad.append("ensemble %s %s_regime %r against JSON %r" % (where, kind, got, have))
+    got = [names[int(rw["regime"])] for rw in rows] + [names[int(x)] for x in ds.variables["regime"][...].tolist()]
+    if got != [event] * 4: bad.append("ensemble event regime %r against %r" % (got, event))
 regimes = [r for _, r in want]
 if c == "km" and all(r == "thermal" for r in regimes): bad.append("1 km body: every source thermal")
 if c == "km" and not j["validity"].startswith("rough"): bad.append("1 km body: validity %r" % j["validity"])
@@ -98,7 +118,7 @@ for b in bad: print("# " + b)
 print("# %s: %s; event %s" % (c, ", ".join("%s %s" % w for w in want), event))
 sys.exit(1 if bad else 0)
 PY
-  then sl_ok "$c: one regime per source in text, JSON, CSV and netCDF (both formats)"
+  then sl_ok "$c: one regime per source in text, JSON, CSV, netCDF (both formats) and ensemble columns"
   else sl_fail "$c: the regime per source differs between outputs"; fi
 done
 sl_done
