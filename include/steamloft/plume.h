@@ -116,6 +116,7 @@ typedef struct sl_thermal {
     /* Budgets, integrated with the state (all in J or kg). */
     double water_initial_kg, water_entrained_kg, water_fallout_kg, water_final_kg;
     double energy_initial_J, energy_entrained_J, energy_fallout_J, energy_final_J;
+    double energy_to_air_J;        /* kinetic energy given to the surrounding air as the added mass grew */
     double air_initial_kg, air_entrained_kg;
     size_t n_steps;                /* accepted ODE steps */
 } sl_thermal;
