@@ -1304,10 +1304,9 @@ static int check_query(const sl_atmosphere *atm, double altitude_m, sl_err *e)
     return SL_OK;
 }
 
-/* Interpolated T, ln p and x (and, when D is not NULL, the derivatives in z
- * of T, ln p, x and the molar-mass ratio mr: D[0..3]) at Z. */
+/* Interpolated T, ln p and x (and dT/dz when DTDZ is not NULL) at Z. */
 static void eval_tpx(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur, double *t, double *lp, double *x,
-                     double *mr, double *d)
+                     double *mr, double *dtdz)
 {
     const size_t i = find_interval(atm, z, cur);
     const double dz = z - atm->altitude_m[i];
@@ -1316,12 +1315,8 @@ static void eval_tpx(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur, d
     *lp = c[SPL_LNP + 3] + dz * (c[SPL_LNP + 2] + dz * (c[SPL_LNP + 1] + dz * c[SPL_LNP]));
     *x = c[SPL_X + 3] + dz * (c[SPL_X + 2] + dz * (c[SPL_X + 1] + dz * c[SPL_X]));
     *mr = (c[SPL_M + 3] + dz * (c[SPL_M + 2] + dz * (c[SPL_M + 1] + dz * c[SPL_M]))) / SL_USSA_M0_KG_KMOL;
-    if (d) {
-        d[0] = c[SPL_T + 2] + dz * (2 * c[SPL_T + 1] + dz * 3 * c[SPL_T]);
-        d[1] = c[SPL_LNP + 2] + dz * (2 * c[SPL_LNP + 1] + dz * 3 * c[SPL_LNP]);
-        d[2] = c[SPL_X + 2] + dz * (2 * c[SPL_X + 1] + dz * 3 * c[SPL_X]);
-        d[3] = (c[SPL_M + 2] + dz * (2 * c[SPL_M + 1] + dz * 3 * c[SPL_M])) / SL_USSA_M0_KG_KMOL;
-    }
+    if (dtdz)
+        *dtdz = c[SPL_T + 2] + dz * (2 * c[SPL_T + 1] + dz * 3 * c[SPL_T]);
 }
 
 int sl_atmosphere_density(const sl_atmosphere *atm, double altitude_m, sl_atmos_cursor *cur,
@@ -1338,8 +1333,8 @@ int sl_atmosphere_state(const sl_atmosphere *atm, double altitude_m, sl_atmos_cu
                         sl_err *e)
 {
     SL_TRY_RETURN(e, check_query(atm, altitude_m, e));
-    double t, d[4], lp, x, mr;
-    eval_tpx(atm, altitude_m, cur, &t, &lp, &x, &mr, d);
+    double t, dtdz, lp, x, mr;
+    eval_tpx(atm, altitude_m, cur, &t, &lp, &x, &mr, &dtdz);
     const double p = exp(lp);
     const double g = sl_atmosphere_gravity_m_s2(altitude_m);
     out->altitude_m = altitude_m;
@@ -1347,12 +1342,7 @@ int sl_atmosphere_state(const sl_atmosphere *atm, double altitude_m, sl_atmos_cu
     out->pressure_Pa = p;
     out->h2o_mole_fraction = x;
     out->density_kg_m3 = moist_density(p, t, x, mr);
-    out->n2_per_s2 = g / t * (d[0] + g / SL_CP_DRY_AIR_J_KG_K);
-    /* p/rho = t/S, S = (1 - x) mr/R_d + x/R_v (moist_density) */
-    const double S = (1.0 - x) * mr / SL_R_DRY_AIR_J_KG_K + x / SL_R_VAPOR_J_KG_K;
-    const double dS = (mr / SL_R_DRY_AIR_J_KG_K - 1.0 / SL_R_VAPOR_J_KG_K) * -d[2] + (1.0 - x) * d[3] / SL_R_DRY_AIR_J_KG_K;
-    out->dlnp_dz_per_m = d[1];
-    out->dln_p_over_density_dz_per_m = d[0] / t - dS / S;
+    out->n2_per_s2 = g / t * (dtdz + g / SL_CP_DRY_AIR_J_KG_K);
     out->ice_saturation_mole_fraction = NAN;
     out->gravity_m_s2 = g;
     return SL_OK;

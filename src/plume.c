@@ -32,12 +32,17 @@
  * entrained mass, dissipated into heat.  As A changes at a given impulse
  * the kinetic energy (M + A) w^2/2 changes by -w^2/2 dA: that energy goes
  * to (or, when A shrinks as the thermal rises into thinner air, comes from)
- * the surrounding air and is tallied as E_air, dE_air/dt = (w^2/2) dA/dt
- * (added_rate: dA/dt exactly, from the rates of the state).  With these the
- * total energy E = H + M Phi(z) + (M + A) w^2/2 + E_air, Phi = g0 R0 z/(R0+z),
- * changes only by what entrainment brings, m_e (h_e + Phi), and fallout
- * removes, m_f (h_f + Phi + w^2/2); the fluxes are integrated with the state
- * and the budget closes to the solver tolerance (tests/test_plume.c).
+ * the surrounding air, E_air = integral of (w^2/2) dA.  Its rate jumps
+ * where the phase changes (dA/dt follows dT/dt), so it is not integrated
+ * itself: from the kinetic-energy budget, d((M + A) w^2/2)/dt = w B -
+ * (w^2/2)(m_e + m_f) - (w^2/2) dA/dt, E_air = KE(0) - KE(t) + W(t) with the
+ * work W = integral of [w B - (w^2/2)(m_e + m_f)] dt, a smooth integrand
+ * carried as the state IWORK.  With these the total energy E = H + M Phi(z)
+ * + (M + A) w^2/2 + E_air, Phi = g0 R0 z/(R0+z), changes only by what
+ * entrainment brings, m_e (h_e + Phi), and fallout removes, m_f (h_f + Phi
+ * + w^2/2): the enthalpy equation (adiabatic expansion, dissipation,
+ * fallout) against the mechanical work, to the solver tolerance
+ * (tests/test_plume.c).
  * In the Boussinesq limit (A -> k M) these reduce to the MTT thermal
  * equations, d(b^3)/dt = 3 alpha b^2 w, d((1+k) b^3 w)/dt = b^3 g',
  * d(b^3 g')/dt = -N^2 b^3 w.
@@ -133,7 +138,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-enum { IZ, IMA, IMW, IPI, IH, IEIN, IEOUT, IWIN, IWOUT, IAIN, IEAIR, NY };
+enum { IZ, IMA, IMW, IPI, IH, IEIN, IEOUT, IWIN, IWOUT, IAIN, IWORK, NY };
 
 #define T_TRIPLE SL_T_TRIPLE_K
 #define CPA SL_CP_DRY_AIR_J_KG_K
@@ -151,9 +156,6 @@ enum { IZ, IMA, IMW, IPI, IH, IEIN, IEOUT, IWIN, IWOUT, IAIN, IEAIR, NY };
 /* Below this the saturation vapour pressure over ice is < 1e-8 Pa (Murphy &
  * Koop 2005 hold above 110 K): vapour is taken as zero. */
 #define T_FROZEN_SOLID_K 120.0
-/* Lowest temperature the equilibrium is solved for (the bracket of the ice
- * branch); a thermal expanded below it in the thin upper air is held there. */
-#define T_FLOOR_K (0.5 * T_FROZEN_SOLID_K)
 /* Hottest initial thermal the heat-and-radius set-up makes (PRACTICE: a
  * fireball after its radiative phase is a few thousand kelvin; the ideal-gas,
  * constant-cp model of air is used no hotter).  A source with more heat than
@@ -168,7 +170,6 @@ enum { IZ, IMA, IMW, IPI, IH, IEIN, IEOUT, IWIN, IWOUT, IAIN, IEAIR, NY };
 typedef struct warm_start {
     int ok, ice;
     double H, Ma, Mw, p, T, h_T, h_Ma, h_Mw, h_p;
-    double mv_T;               /* d(vapour)/dT along saturation at fixed Ma, p (kg/K) */
     double es_Pa;              /* saturation pressure at T */
 } warm_start;
 
@@ -188,6 +189,7 @@ struct sl_plume_work {
     warm_start warm;           /* the last saturated solve, for the next one's first guess */
     double es_triple_Pa;       /* saturation pressure at the triple point (sl_water_esat_Pa) */
     sl_err rhs_err;
+    double kinetic0_J;         /* kinetic energy of the rising gas at the start */
 };
 
 /* Events of the rise (ode.h: each positive before it, <= 0 at it). */
@@ -346,16 +348,15 @@ static double h_triple(const sl_plume_work *w, double Ma, double Mw, double p_Pa
  * (error about (dmv/mv)^3/6 < 1e-15 of itself).  Measured on the bench
  * ensemble: within 1e-15 in T of a solve iterated to the last step. */
 static double solve_T(const sl_plume_work *w, double H, double Ma, double Mw, double p, int ice, double lo, double hi,
-                      double flo, double fhi, double guess, double *vap, double *dhdT, double *dmvdT)
+                      double flo, double fhi, double guess, double *vap, double *dhdT)
 {
-    *dhdT = *dmvdT = NAN;
+    *dhdT = NAN;
     double x = (guess > lo && guess < hi) ? guess : (isfinite(hi) ? 0.5 * (lo + hi) : lo + 1.0);
     for (int it = 0; it < 100; it++) {
         double D[4], mv;
         double f = h_sat(w, x, Ma, Mw, p, ice, &mv, D) - H;
         *vap = mv;
         *dhdT = D[0];
-        *dmvdT = D[2];
         if (f == 0.0)
             return x;
         if (f < 0.0) {
@@ -377,9 +378,6 @@ static double solve_T(const sl_plume_work *w, double H, double Ma, double Mw, do
                  4.0 * (c * c + fabs(c * D[3] / D[2]) / 3.0) * adx * adx * adx <= 1.0e-14 * x)) {
                 double v = mv - D[2] * dx + 0.5 * D[3] * dx * dx;
                 *vap = v < Mw ? v : Mw;
-                /* the slopes carried to the root as well (first order) */
-                *dhdT = D[0] - D[1] * dx;
-                *dmvdT = D[2] - D[3] * dx;
                 return x - dx;
             }
             xn = x - dx;
@@ -414,7 +412,7 @@ static double predict_T(const warm_start *ws, int ice, double H, double Ma, doub
  * h = (Ma c_pa + Mw c_c)(T - Tt) - [ice] Mw L_f0 + mv Lambda(T), mv = Ma r_s(T, p),
  * Lambda = L_v0 + [ice] L_f0 + (c_pv - c_c)(T - Tt), dr_s/dp = -r_s/(p - e_s). */
 static void keep_warm(const sl_plume_work *w, warm_start *ws, int ice, double H, double Ma, double Mw, double p,
-                      double T, double mv, double h_T, double mv_T)
+                      double T, double mv, double h_T)
 {
     if (ws == NULL)
         return;
@@ -430,7 +428,6 @@ static void keep_warm(const sl_plume_work *w, warm_start *ws, int ice, double H,
     ws->T = T;
     ws->es_Pa = es;
     ws->h_T = h_T;
-    ws->mv_T = mv_T;
     ws->h_Ma = CPA * dT + rs * lam;
     ws->h_Mw = cc * dT - (ice ? w->lf0_J_kg : 0.0);
     ws->h_p = -Ma * lam * rs / (p - es);
@@ -475,9 +472,9 @@ static void equilibrate_ws(const sl_plume_work *w, double H, double Ma, double M
         /* h_sat - H at lo: at T1, (Ma rs(T1) - Mw) times the latent heat
          * there (the all-vapour enthalpy at T1 is H); at Tt, hl - H. */
         double flo = T1 >= T_TRIPLE ? (Ma * rs1 - Mw) * (w->lv0_J_kg + (CPV - CPL) * (T1 - T_TRIPLE)) : hl - H;
-        double v, hT, vT;
-        *T = solve_T(w, H, Ma, Mw, p, 0, lo, hi, flo, NAN, predict_T(ws, 0, H, Ma, Mw, p, *T), &v, &hT, &vT);
-        keep_warm(w, ws, 0, H, Ma, Mw, p, *T, v, hT, vT);
+        double v, hT;
+        *T = solve_T(w, H, Ma, Mw, p, 0, lo, hi, flo, NAN, predict_T(ws, 0, H, Ma, Mw, p, *T), &v, &hT);
+        keep_warm(w, ws, 0, H, Ma, Mw, p, *T, v, hT);
         *mv = v;
         *ml = Mw - v;
         return;
@@ -485,12 +482,11 @@ static void equilibrate_ws(const sl_plume_work *w, double H, double Ma, double M
     double mc_t = Mw - vap_t;
     double hi_ice = hl - mc_t * w->lf0_J_kg;
     if (H <= hi_ice) {
-        double lo = fmax(T1, T_FLOOR_K);
+        double lo = fmax(T1, 0.5 * T_FROZEN_SOLID_K);
         double flo = T1 >= lo ? (Ma * rs1 - Mw) * (w->lv0_J_kg + w->lf0_J_kg + (CPV - CPI) * (T1 - T_TRIPLE)) : NAN;
-        double v, hT, vT;
-        *T = solve_T(w, H, Ma, Mw, p, 1, lo, T_TRIPLE, flo, hi_ice - H, predict_T(ws, 1, H, Ma, Mw, p, *T), &v, &hT,
-                     &vT);
-        keep_warm(w, ws, 1, H, Ma, Mw, p, *T, v, hT, vT);
+        double v, hT;
+        *T = solve_T(w, H, Ma, Mw, p, 1, lo, T_TRIPLE, flo, hi_ice - H, predict_T(ws, 1, H, Ma, Mw, p, *T), &v, &hT);
+        keep_warm(w, ws, 1, H, Ma, Mw, p, *T, v, hT);
         *mv = v;
         *mi = Mw - v;
         return;
@@ -559,47 +555,6 @@ static int diagnose(sl_plume_work *w, const double *s, diag *d)
     return GSL_SUCCESS;
 }
 
-/* dA/dt (kg/s) of the added mass A = k rho_a V of the state S (diagnosed in
- * D) with the physical rates F of z, Ma, Mw and H.  With V = (Ma R_a +
- * m_v R_v) T / p, A = k (Ma R_a + m_v R_v) T / (p/rho_a): the pressure
- * cancels, so d ln A = (R_a dMa + R_v dm_v)/(Ma R_a + m_v R_v) + dT/T -
- * d ln(p/rho_a).  dT and dm_v follow from dH, dMa, dMw and dp = p (d ln p/dz)
- * dz on the branch the equilibrium is on: all vapour (T linear in H), at
- * saturation (the enthalpy's partial derivatives at the root, warm_start),
- * or at the triple point (T fixed).  Outside the profile the ambient is
- * held (diagnose), so its terms vanish there. */
-static double added_rate(const sl_plume_work *w, const double *s, const diag *d, const double *f)
-{
-    if (!(d->added_kg > 0.0))
-        return 0.0;
-    double Ma = s[IMA] * w->scale[IMA], Mw = s[IMW] * w->scale[IMW];
-    double p = d->amb.pressure_Pa, T = d->T_K, mv = d->vapor_kg;
-    int inside = d->z_m > w->z_bottom_m && d->z_m < w->atm->altitude_m[w->atm->n - 1];
-    double dz = inside ? f[IZ] : 0.0;
-    double dp = p * d->amb.dlnp_dz_per_m * dz;
-    double dT, dmv;
-    if (d->liquid_kg <= 0.0 && d->ice_kg <= 0.0) {
-        double th = T - T_TRIPLE;
-        dT = (f[IH] - CPA * th * f[IMA] - (w->lv0_J_kg + CPV * th) * f[IMW]) / (Ma * CPA + Mw * CPV);
-        dmv = f[IMW];
-    } else {
-        double rs = mv / Ma, es = p * rs / (EPS_RV + rs);
-        if (d->liquid_kg > 0.0 && d->ice_kg > 0.0) {
-            dT = 0.0; /* at the triple point */
-            dmv = rs * f[IMA] - Ma * rs / (p - es) * dp;
-        } else if (T <= T_FLOOR_K) {
-            dT = dmv = 0.0; /* held at the floor of the ice branch (equilibrate_ws) */
-        } else {
-            const warm_start *ws = &w->warm; /* the saturated solve of this state */
-            dT = (f[IH] - ws->h_Ma * f[IMA] - ws->h_Mw * f[IMW] - ws->h_p * dp) / ws->h_T;
-            dmv = rs * f[IMA] + ws->mv_T * dT - Ma * rs / (p - es) * dp;
-        }
-    }
-    double G = Ma * RA + mv * RV;
-    double dlnA = (RA * f[IMA] + RV * dmv) / G + dT / T - d->amb.dln_p_over_density_dz_per_m * dz;
-    return isfinite(dlnA) ? d->added_kg * dlnA : 0.0;
-}
-
 static int rhs(double t, const double *s, double *ds, void *params)
 {
     (void)t;
@@ -631,17 +586,23 @@ static int rhs(double t, const double *s, double *ds, void *params)
     f[IWIN] = q_e * me;
     f[IWOUT] = mf;
     f[IAIN] = (1.0 - q_e) * me;
-    f[IEAIR] = kin * added_rate(w, s, &d, f);
+    f[IWORK] = vel * d.buoy_N - kin * (me + mf);
     for (int i = 0; i < NY; i++)
         ds[i] = f[i] / w->scale[i];
     return GSL_SUCCESS;
+}
+
+/* Kinetic energy (J) of the thermal and its added mass, (M + A) w^2/2. */
+static double kinetic_energy(const diag *d)
+{
+    return 0.5 * (d->mass_kg + d->added_kg) * d->w_m_s * d->w_m_s;
 }
 
 /* Total energy (J) of the scaled state: H + M Phi + (M + A) w^2/2. */
 static double total_energy(const sl_plume_work *w, const double *s, const diag *d)
 {
     double H = s[IH] * w->scale[IH];
-    return H + d->mass_kg * d->phi_J_kg + 0.5 * (d->mass_kg + d->added_kg) * d->w_m_s * d->w_m_s;
+    return H + d->mass_kg * d->phi_J_kg + kinetic_energy(d);
 }
 
 /* ------------------------------------------------------------------ events */
@@ -829,7 +790,10 @@ static void finish_budget(sl_plume_work *w, sl_thermal *out, const double *s, co
     out->energy_entrained_J = s[IEIN] * w->scale[IEIN];
     out->energy_fallout_J = s[IEOUT] * w->scale[IEOUT];
     out->energy_final_J = total_energy(w, s, d);
-    out->energy_to_air_J = s[IEAIR] * w->scale[IEAIR];
+    /* What the changes of A gave the surrounding air: the work of buoyancy,
+     * less the kinetic energy entrainment and fallout took, less the gain in
+     * kinetic energy (the KE budget; see the header comment). */
+    out->energy_to_air_J = w->kinetic0_J + s[IWORK] * w->scale[IWORK] - kinetic_energy(d);
     out->air_kg = s[IMA] * w->scale[IMA];
     out->vapor_kg = d->vapor_kg;
     out->liquid_kg = d->liquid_kg;
@@ -1003,6 +967,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * ambient pressure; the spray's volume is neglected, as everywhere). */
     double A0 = w->k * amb.density_kg_m3 * (st.air_kg * RA + mv0 * RV) * T_eq / amb.pressure_Pa;
     out->energy_initial_J = H0 + M0 * phi0 + (M0 + A0) * kin0;
+    w->kinetic0_J = (M1 + A0) * kin0;
 
     /* The ballistic part: specific energy of the gas above ambient air
      * (latent heat included: it is released as the expanding vapour
@@ -1038,7 +1003,11 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     double Ls = fmax(st.radius_m, 1.0);
     double Us = sqrt(SL_USSA_G0_M_S2 * Ls);
     double Es = M1 * CPA * amb.temperature_K;
-    double Sa = st.air_kg, Sw = fmax(Mw1, st.air_kg);
+    /* The water on its own scale, or a thousandth of the air's when it is less
+     * (a little water in much air is then still followed to the tolerance:
+     * with the air's scale, 1e-6 of a dry thermal's air was a few tenths of
+     * a per cent of its water). */
+    double Sa = st.air_kg, Sw = Mw1 > 1.0e-3 * Sa ? Mw1 : 1.0e-3 * Sa;
     double sc[NY] = {Ls, Sa, Sw, (M1 + A0) * Us, Es, Es, Es, Sw, fmax(spray, Sw), Sa, Es};
     memcpy(w->scale, sc, sizeof sc);
 

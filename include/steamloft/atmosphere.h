@@ -26,8 +26,6 @@ typedef struct sl_atmos_state {
                                    N^2 = (g/T)(dT/dz + g/cp), s-2 */
     double ice_saturation_mole_fraction; /* e_ice(T)/p, mol mol-1 */
     double gravity_m_s2;        /* g at this altitude (inverse square) */
-    double dlnp_dz_per_m;       /* d(ln p)/dz of the interpolated profile, m-1 */
-    double dln_p_over_density_dz_per_m; /* d(ln(p/rho))/dz, m-1 (p/rho = R T of the moist air) */
 } sl_atmos_state;
 
 /* Opaque interpolation tables (Steffen splines, see atmosphere.c). */
