@@ -336,12 +336,19 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
     double thick = c->top_m - c->bottom_m;
     int tent = thick > 0.0 && c->peak_m >= c->bottom_m && c->peak_m <= c->top_m;
     /* Placement by mass: the umbrella's weight of each band, normalised by
-     * their sum (so the shares add up to 1 to rounding). */
+     * their sum (so the shares add up to 1 to rounding).  The weights are
+     * kept for the placement below (on the stack, for up to WEIGHT_CACHE
+     * bands; more are computed again, to the same values). */
+    enum { WEIGHT_CACHE = 1024 };
+    double wcache[WEIGHT_CACHE];
+    int cached = inj->n_bands <= WEIGHT_CACHE;
     double wsum = 0.0;
     if (tent) {
         for (size_t i = 0; i < inj->n_bands; i++) {
             double wb;
             SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, c, inj->band_bottom_m[i], inj->band_top_m[i], &wb, e));
+            if (cached)
+                wcache[i] = wb;
             wsum += wb;
         }
         if (!(wsum > 0.0))
@@ -356,7 +363,10 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
                 continue;
             if (tent) {
                 double wb;
-                SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, c, a, b, &wb, e));
+                if (cached) /* the band clipped to the cloud: the same integral */
+                    wb = wcache[i];
+                else
+                    SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, c, a, b, &wb, e));
                 f = wb / wsum;
             } else
                 f = (b - a) / thick;

@@ -190,6 +190,11 @@ struct sl_plume_work {
     double es_triple_Pa;       /* saturation pressure at the triple point (sl_water_esat_Pa) */
     sl_err rhs_err;
     double kinetic0_J;         /* kinetic energy of the rising gas at the start */
+    /* The event values of the state the right-hand side saw last (the end of
+     * a trial step, where the events are evaluated next when it is
+     * accepted): reused when the state is the same, bit for bit. */
+    double last_s[NY], last_g[3];
+    int last_ok;
 };
 
 /* Events of the rise (ode.h: each positive before it, <= 0 at it). */
@@ -197,6 +202,7 @@ enum { EV_APEX = 0,            /* w: the apex (terminal) */
        EV_NEUTRAL,             /* buoyancy force: the neutral level (not terminal, the first only) */
        EV_TOP,                 /* z_top - z: the top of the atmosphere profile (terminal) */
        N_EVENTS };
+_Static_assert(N_EVENTS == 3, "sl_plume_work.last_g holds the event values");
 
 /* Diagnosed quantities of a state. */
 typedef struct diag {
@@ -561,8 +567,13 @@ static int rhs(double t, const double *s, double *ds, void *params)
     sl_plume_work *w = params;
     diag d;
     int st = diagnose(w, s, &d);
+    w->last_ok = st == GSL_SUCCESS;
     if (st != GSL_SUCCESS)
         return st;
+    memcpy(w->last_s, s, sizeof w->last_s);
+    w->last_g[EV_APEX] = d.w_m_s;
+    w->last_g[EV_NEUTRAL] = d.buoy_N;
+    w->last_g[EV_TOP] = w->z_top_m - d.z_m;
     double q_e, h_e;
     ambient(w, &d.amb, &q_e, &h_e);
     double b = d.radius_m, vel = d.w_m_s;
@@ -614,6 +625,10 @@ static int events(double t, const double *s, double *g, void *params)
 {
     (void)t;
     sl_plume_work *w = params;
+    if (w->last_ok && memcmp(s, w->last_s, sizeof w->last_s) == 0) {
+        memcpy(g, w->last_g, sizeof w->last_g);
+        return GSL_SUCCESS;
+    }
     double T_keep = w->T_guess;
     warm_start warm_keep = w->warm;
     diag d;
@@ -919,6 +934,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     w->z_bottom_m = zlo;
     w->z_top_m = fmin(zhi, THERMAL_TOP_M);
     w->rhs_failed = 0;
+    w->last_ok = 0; /* the scales change with each source */
     w->T_guess = 0.0;
 
     out->source_altitude_m = src->altitude_m;
