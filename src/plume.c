@@ -191,6 +191,7 @@ struct sl_plume_work {
     double es_triple_Pa;       /* saturation pressure at the triple point (sl_water_esat_Pa) */
     sl_err rhs_err;
     double kinetic0_J;         /* kinetic energy of the rising gas at the start */
+    int rising;                /* the source starts at rest or rising: w >= 0 up to the apex */
     /* The event values of the state the right-hand side saw last (the end of
      * a trial step, where the events are evaluated next when it is
      * accepted): reused when the state is the same, bit for bit. */
@@ -578,7 +579,13 @@ static int rhs(double t, const double *s, double *ds, void *params)
     double q_e, h_e;
     ambient(w, &d.amb, &q_e, &h_e);
     double b = d.radius_m, vel = d.w_m_s;
-    double me = FOUR_PI * b * b * w->alpha * d.amb.density_kg_m3 * fabs(vel);
+    /* m_e takes |w|; a thermal that starts at rest or rising has w >= 0 up to
+     * its apex, where the rise stops (terminal event), so there w itself is
+     * used: the same values, and past the apex, inside the step that finds
+     * it, a smooth continuation instead of the kink of |w|, which cost
+     * several rejected steps at every apex (the state at the apex is then
+     * computed by a step that ends there, ode.h). */
+    double me = FOUR_PI * b * b * w->alpha * d.amb.density_kg_m3 * (w->rising ? vel : fabs(vel));
     double mc = d.liquid_kg + d.ice_kg;
     double mf = mc > 0.0 ? 0.75 * w->v_fall / b * mc : 0.0;
     double hf = 0.0;
@@ -963,6 +970,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     out->ballistic_fraction = above_top ? 1.0 : ballistic_weight(fmax(r_fireball, st.radius_m) / out->scale_height_m);
 
     double w0 = src->vertical_speed_m_s, phi0 = potential_J_kg(z_src);
+    w->rising = w0 >= 0.0;
     double kin0 = 0.5 * w0 * w0;
 
     /* Spray collapse: the source's water is first brought to equilibrium at
