@@ -218,7 +218,7 @@ typedef enum out_id {
 
 enum { FOR_ALL = 0, FOR_IMPACTOR = 1, FOR_EXPLOSION = 2 };
 
-#define REGIME_FLAGS "thermal blow-out ballistic"
+#define REGIME_FLAGS SL_PLUME_REGIME_FLAG_MEANINGS
 
 static const struct {
     sl_ens_output o;

@@ -198,7 +198,7 @@ static size_t values_of(const ncw *w, int ndims, const int *dims)
  * dataset carries a version-1 B-tree node, allocated whole, of 2K+1 keys of
  * 8 + 8 (rank + 1) bytes and 2K child addresses of 8 bytes (K the file's
  * istore_k: 32 by default, about 2.1 kB for rank 1; CHUNK_BTREE_K = 1 in the
- * run and decay files, 112 bytes) and, when filtered, a filter-pipeline message (about 64
+ * run, decay and zonal files, 112 bytes) and, when filtered, a filter-pipeline message (about 64
  * bytes for shuffle and deflate); a contiguous or compact dataset carries
  * neither; compact storage keeps the data in the dataset's object header (no
  * separate data block and address).  Variables on the unlimited time

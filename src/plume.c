@@ -174,6 +174,12 @@ typedef struct warm_start {
     double es_Pa;              /* saturation pressure at T */
 } warm_start;
 
+/* Events of the rise (ode.h: each positive before it, <= 0 at it). */
+enum { EV_APEX = 0,            /* w: the apex (terminal) */
+       EV_NEUTRAL,             /* buoyancy force: the neutral level (not terminal, the first only) */
+       EV_TOP,                 /* z_top - z: the top of the atmosphere profile (terminal) */
+       N_EVENTS };
+
 struct sl_plume_work {
     sl_ode *ode;               /* the ODE-with-events layer (ode.h) */
     double y[NY], y_tmp[NY];
@@ -195,16 +201,9 @@ struct sl_plume_work {
     /* The event values of the state the right-hand side saw last (the end of
      * a trial step, where the events are evaluated next when it is
      * accepted): reused when the state is the same, bit for bit. */
-    double last_s[NY], last_g[3];
+    double last_s[NY], last_g[N_EVENTS];
     int last_ok;
 };
-
-/* Events of the rise (ode.h: each positive before it, <= 0 at it). */
-enum { EV_APEX = 0,            /* w: the apex (terminal) */
-       EV_NEUTRAL,             /* buoyancy force: the neutral level (not terminal, the first only) */
-       EV_TOP,                 /* z_top - z: the top of the atmosphere profile (terminal) */
-       N_EVENTS };
-_Static_assert(N_EVENTS == 3, "sl_plume_work.last_g holds the event values");
 
 /* Diagnosed quantities of a state. */
 typedef struct diag {
@@ -1032,7 +1031,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * (a little water in much air is then still followed to the tolerance:
      * with the air's scale, 1e-6 of a dry thermal's air was a few tenths of
      * a per cent of its water). */
-    double Sa = st.air_kg, Sw = Mw1 > 1.0e-3 * Sa ? Mw1 : 1.0e-3 * Sa;
+    double Sa = st.air_kg, Sw = fmax(Mw1, 1.0e-3 * Sa);
     double sc[NY] = {Ls, Sa, Sw, (M1 + A0) * Us, Es, Es, Es, Sw, fmax(spray, Sw), Sa, Es};
     memcpy(w->scale, sc, sizeof sc);
 

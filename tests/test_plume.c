@@ -237,8 +237,11 @@ START_TEST(test_added_mass_light_bubble)
         sl_err e = {0};
         ck_assert_msg(sl_plume_rise(&pl, &atm, &s, &th, &e) == SL_OK, "%s", e.msg);
         double want = apex_by_energy(&atm, z0, T0, ks[c]);
-        printf("light bubble, k = %.1f: apex %.1f m, by energy %.1f m\n", ks[c], th.apex_altitude_m, want);
-        SL_CK_REL(th.apex_altitude_m - z0, want - z0, 1e-5);
+        printf("light bubble, k = %.1f: apex %.3f m, by energy %.3f m\n", ks[c], th.apex_altitude_m, want);
+        /* 1e-6 of the rise: the quadrature is good to ~1e-9 of it and the solver runs at
+         * rtol 1e-9; the rest allows for the bubble's dp = -rho_a g dz against the spline's
+         * p(z) (measured agreement: under 1 mm in 26-30 km) */
+        SL_CK_REL(th.apex_altitude_m - z0, want - z0, 1e-6);
         apex[c] = th.apex_altitude_m;
         sl_plume_free(&pl);
     }

@@ -86,6 +86,8 @@ typedef enum sl_plume_regime {
 
 /* "thermal", "blow-out" or "ballistic". */
 const char *sl_plume_regime_name(int regime);
+/* The names of the codes 0, 1, 2 in order, blank-separated (CF flag_meanings). */
+#define SL_PLUME_REGIME_FLAG_MEANINGS "thermal blow-out ballistic"
 
 /* The rise of one source. */
 typedef struct sl_thermal {
