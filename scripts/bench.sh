@@ -43,7 +43,7 @@ run() { # threads members tag
 rate() { sed -n 's/.* (\([0-9.e+]*\) members\/s)$/\1/p' "$tmp/$1.out"; }
 mem() { sed -n 's/.*peak resident memory \([0-9.]*\) MiB.*/\1/p' "$tmp/$1.err"; }
 cpu() { sed -n 's/.*user CPU .*, \([0-9.e+-]*\) ms per member (getrusage).*/\1/p' "$tmp/$1.err"; }
-stages() { sed -n 's/^steamloft: chain stages, thread CPU ms per member (rank 0, all threads): //p' "$tmp/$1.err"; }
+stages() { sed -n 's/^steamloft: chain stages, thread CPU ms per member ([^)]*): //p' "$tmp/$1.err"; }
 
 echo "steamloft bench: $("$bin" --version | head -1)"
 echo "machine: $(nproc) cores; load average now: $(cut -d' ' -f1-3 /proc/loadavg)"

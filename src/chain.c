@@ -285,10 +285,14 @@ int sl_chain_run_from(const sl_scenario *sc, sl_chain *ch, int first_stage, sl_e
     if (first_stage != SL_CHAIN_T_ATMOSPHERE && first_stage != SL_CHAIN_T_STRAT)
         SL_FAIL_RETURN(e, SL_EINTERNAL, "chain: cannot be entered at stage %d", first_stage);
     ch->scenario = *sc;
+    const int timed = ch->time_every <= 1 || ch->runs % ch->time_every == 0;
+    ch->runs++;
+    ch->timed_runs += timed;
     for (int k = first_stage; k < SL_CHAIN_N_TIMED; k++) {
-        double t0 = chain_clock_s();
+        double t0 = timed ? chain_clock_s() : 0.0;
         int rc = chain_stages[k](sc, ch, e);
-        ch->stage_s[k] += chain_clock_s() - t0;
+        if (timed)
+            ch->stage_s[k] += chain_clock_s() - t0;
         if (rc != SL_OK)
             return sl_err_push(e, rc, __func__, __LINE__);
     }

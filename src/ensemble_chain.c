@@ -290,6 +290,8 @@ static void chain_ws_free(void *p)
     /* Workspaces are freed serially after the member loop: no race. */
     for (int k = 0; k < SL_CHAIN_N_TIMED; k++)
         w->owner->stage_s[k] += w->chain.stage_s[k];
+    w->owner->runs += w->chain.runs;
+    w->owner->timed_runs += w->chain.timed_runs;
     sl_chain_free(&w->chain);
     free(w);
 }
@@ -315,9 +317,11 @@ static void *chain_ws_new(void *ctx, sl_err *e)
     sl_err_clear(&warm);
     if (set_inputs(c, &w->sc, si, &warm) == SL_OK)
         (void)sl_chain_run(&w->sc, &w->chain, &warm);
-    /* Time only the members. */
+    /* Time only the members, one in SL_CHAIN_TIME_EVERY. */
     for (int k = 0; k < SL_CHAIN_N_TIMED; k++)
         w->chain.stage_s[k] = 0;
+    w->chain.runs = w->chain.timed_runs = 0;
+    w->chain.time_every = SL_CHAIN_TIME_EVERY;
     return w;
 }
 
@@ -536,17 +540,20 @@ static void print_timing(const sl_ens_chain *ch, const sl_ens_result *r)
     double user_s = (double)ru.ru_utime.tv_sec + 1e-6 * (double)ru.ru_utime.tv_usec;
     fprintf(stderr, "steamloft: peak resident memory %.1f MiB (getrusage ru_maxrss)\n",
             (double)ru.ru_maxrss / 1024.0);
-    double total = 0;
+    /* The timed members stand for all (SL_CHAIN_TIME_EVERY). */
+    double scale = ch->timed_runs > 0 ? (double)ch->runs / (double)ch->timed_runs : 0.0;
+    double stage[SL_CHAIN_N_TIMED], total = 0;
     for (int k = 0; k < SL_CHAIN_N_TIMED; k++)
-        total += ch->stage_s[k];
+        total += stage[k] = scale * ch->stage_s[k];
     double n = r->n_members ? (double)r->n_members : 1.0;
     fprintf(stderr, "steamloft: user CPU %.4g s for the whole command, %.4g ms per member (getrusage); "
                     "wall %.4g ms per member per thread\n",
             user_s, 1e3 * user_s / n, 1e3 * r->wall_s * r->threads / n);
-    fprintf(stderr, "steamloft: chain stages, thread CPU ms per member (rank 0, all threads):");
+    fprintf(stderr, "steamloft: chain stages, thread CPU ms per member (rank 0, all threads; timed on one member "
+                    "in %d):", SL_CHAIN_TIME_EVERY);
     for (int k = 0; k < SL_CHAIN_N_TIMED; k++)
-        fprintf(stderr, " %s %.4g (%.1f %%)", sl_chain_stage_names[k], 1e3 * ch->stage_s[k] / n,
-                total > 0 ? 100 * ch->stage_s[k] / total : 0.0);
+        fprintf(stderr, " %s %.4g (%.1f %%)", sl_chain_stage_names[k], 1e3 * stage[k] / n,
+                total > 0 ? 100 * stage[k] / total : 0.0);
     fprintf(stderr, "; chain %.4g ms; outside the chain %.4g ms\n", 1e3 * total / n, 1e3 * (user_s - total) / n);
 }
 

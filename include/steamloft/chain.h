@@ -26,6 +26,8 @@
 #include "steamloft/strat.h"
 
 /* The stages of the chain, in order; each is timed (for `make bench`). */
+/* Ensembles time one member in this many (sl_chain.time_every). */
+#define SL_CHAIN_TIME_EVERY 16
 enum { SL_CHAIN_T_ATMOSPHERE = 0, SL_CHAIN_T_ENTRY, SL_CHAIN_T_PARTITION, SL_CHAIN_T_PLUME,
        SL_CHAIN_T_STRAT, SL_CHAIN_N_TIMED };
 extern const char *const sl_chain_stage_names[SL_CHAIN_N_TIMED];
@@ -77,7 +79,14 @@ typedef struct sl_chain {
     int strat_linear;              /* set by the caller: the box model by its linear response
                                       (sl_strat_run_linear; ensembles), built once per model */
     sl_strat_response strat_response;
-    double stage_s[SL_CHAIN_N_TIMED]; /* thread CPU seconds per stage, summed over runs */
+    /* Stage times: thread CPU seconds per stage, summed over the timed runs.
+     * The caller may time only every time_every-th run (0 or 1: every run;
+     * ensembles time every SL_CHAIN_TIME_EVERY-th member, as reading the
+     * thread clock is a system call, about 2 % of a member's CPU time); the
+     * run counts scale the sums to all runs. */
+    double stage_s[SL_CHAIN_N_TIMED];
+    long runs, timed_runs;
+    int time_every;
 } sl_chain;
 
 /* Run every stage for the finished scenario SC into CH.  On failure CH keeps
