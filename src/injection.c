@@ -263,42 +263,33 @@ static int cloud_level(const sl_atmosphere *atm, double altitude_m, double *r_ic
     return SL_OK;
 }
 
-/* Triangular profile of a cloud (bottom to top, mode at peak_m): its
- * density per metre of height at Z (integrates to 1 over the layer). */
-static double tent_pdf(const sl_young_cloud *c, double z)
-{
-    double a = c->bottom_m, b = c->top_m, m = c->peak_m;
-    if (z <= a || z >= b)
-        return 0.0;
-    if (z <= m)
-        return m > a ? 2.0 * (z - a) / ((b - a) * (m - a)) : 0.0;
-    return b > m ? 2.0 * (b - z) / ((b - a) * (b - m)) : 0.0;
-}
-
-/* Integral of tent_pdf * rho_a over [Z0, Z1] on a smooth piece (no mode
- * inside): 4-point Gauss-Legendre on sub-intervals of at most 500 m (the
- * density changes by < 8 % over one; the rule is then exact to ~1e-9). */
+/* Integral of the cloud's triangular profile (bottom to top, mode at
+ * peak_m; it integrates to 1 over the layer) times rho_a over [Z0, Z1] on
+ * one side of the mode: the tent is linear there, alpha + beta z, so the
+ * integral is alpha M0 + beta M1 from the layer's air-mass moments
+ * (sl_atmosphere_layer_mass; measured against 0.5 m Simpson sums on the
+ * tropical profile, within 1.4e-11 per 1 km band, where 4-point
+ * Gauss-Legendre on 500 m pieces straddling the profile's levels erred by up
+ * to 4e-6 near the tropopause). */
 static int umbrella_piece(const sl_atmosphere *atm, const sl_young_cloud *c, double z0, double z1, double *w,
                           sl_err *e)
 {
-    static const double x[4] = {-0.8611363115940526, -0.3399810435848563, 0.3399810435848563, 0.8611363115940526};
-    static const double wt[4] = {0.3478548451374538, 0.6521451548625461, 0.6521451548625461, 0.3478548451374538};
-    double sum = 0.0;
-    int n = (int)ceil((z1 - z0) / 500.0);
-    if (n < 1)
-        n = 1;
-    double h = (z1 - z0) / n;
-    sl_atmos_cursor cur = {0}; /* the points go upwards: the density query walks with them */
-    for (int k = 0; k < n; k++) {
-        double mid = z0 + (k + 0.5) * h;
-        for (int j = 0; j < 4; j++) {
-            double z = mid + 0.5 * h * x[j], rho;
-            double zq = fmin(fmax(z, atm->altitude_m[0]), atm->altitude_m[atm->n - 1]);
-            SL_TRY_RETURN(e, sl_atmosphere_density(atm, zq, &cur, &rho, e));
-            sum += 0.5 * h * wt[j] * tent_pdf(c, z) * rho;
+    double a = c->bottom_m, b = c->top_m, m = c->peak_m, zm = 0.5 * (z0 + z1);
+    double alpha = 0.0, beta = 0.0;
+    if (zm <= m) {
+        if (m > a) {
+            beta = 2.0 / ((b - a) * (m - a));
+            alpha = -a * beta;
         }
+    } else if (b > m) {
+        beta = -2.0 / ((b - a) * (b - m));
+        alpha = -b * beta;
     }
-    *w = sum;
+    sl_atmos_cursor cur = {0};
+    double m0, m1;
+    if (sl_atmosphere_layer_mass(atm, z0, z1, &cur, &m0, &m1) != SL_OK)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "young cloud: no air mass for the layer %g-%g m", z0, z1);
+    *w = alpha * m0 + beta * m1;
     return SL_OK;
 }
 

@@ -3,7 +3,7 @@
  * (pressure and N), hydrostatic balance of every built-in profile, the WMO
  * tropopause and cold point against the standard and the AFGL tables, the
  * background water against AFGL and the Hunga-implied stratospheric burden,
- * and error handling. */
+ * the air-mass moments against GSL's adaptive quadrature, and error handling. */
 #include "sl_test.h"
 
 #include "steamloft/atmosphere.h"
@@ -12,6 +12,7 @@
 #include "steamloft/water.h"
 
 #include <gsl/gsl_errno.h>
+#include <gsl/gsl_integration.h>
 #include <gsl/gsl_interp.h>
 #include <stdio.h>
 #include <string.h>
@@ -723,6 +724,87 @@ START_TEST(test_low_column_join)
 }
 END_TEST
 
+/* Density (or z times it, when the int in PARAMS is 1) for GSL's quadrature. */
+typedef struct moment_fn {
+    const sl_atmosphere *atm;
+    int first;
+} moment_fn;
+
+static double moment_integrand(double z, void *params)
+{
+    const moment_fn *m = params;
+    sl_err e = {0};
+    double rho = NAN;
+    const double lo = m->atm->altitude_m[0], hi = m->atm->altitude_m[m->atm->n - 1];
+    sl_atmosphere_density(m->atm, fmin(fmax(z, lo), hi), NULL, &rho, &e);
+    return m->first ? z * rho : rho;
+}
+
+START_TEST(test_mass_moments)
+{
+    /* The air-mass moments of layers (integrals of rho and z rho) against GSL's adaptive Gauss-Kronrod quadrature (gsl_integration_qagp,
+     * the reference library; PRACTICE) of the same interpolated density, with
+     * the profile's levels as break points: layers inside the profile, across
+     * many levels, thin ones inside one level interval, and ones reaching
+     * below and above the profile (where the end level's density is held,
+     * as documented).  Tolerance 1e-10 relative: 4-point Gauss-Legendre on
+     * pieces of at most 500 m inside one level interval, where the density
+     * is smooth, is exact to about 1e-12.
+     * Then hydrostatics (DERIVED, the profiles' definition): the mass of a
+     * layer times gravity, g(z) taken linear across it through the first
+     * moment, is its pressure difference, to 2e-3 (the spline-derivative
+     * tolerance of test_hydrostatic_balance), for the layers below 86 km. */
+    const char *names[] = {"tropical", "us1976", "subarctic-winter"};
+    const double layers[][2] = {{0.0, 1000.0},    {12345.6, 22259.9}, {16020.0, 16030.0}, {26900.3, 59500.7},
+                                {-300.0, 800.0}, {99000.0, 100000.0}, {998000.0, 1001000.0}};
+    gsl_integration_workspace *ws = gsl_integration_workspace_alloc(2000);
+    ck_assert_ptr_nonnull(ws);
+    for (size_t k = 0; k < sizeof names / sizeof names[0]; k++) {
+        sl_atmosphere a;
+        sl_err e = {0};
+        ck_assert_msg(sl_atmosphere_init(&a, names[k], &e) == SL_OK, "%s: %s", names[k], e.msg);
+        const double zlo = a.altitude_m[0], zhi = a.altitude_m[a.n - 1];
+        for (size_t l = 0; l < sizeof layers / sizeof layers[0]; l++) {
+            const double z1 = layers[l][0], z2 = layers[l][1];
+            double m0, m1;
+            sl_atmos_cursor cur = {0};
+            ck_assert_int_eq(sl_atmosphere_layer_mass(&a, z1, z2, &cur, &m0, &m1), SL_OK);
+            /* break points: the layer's ends, the profile's ends and every level between */
+            double pts[2100];
+            size_t np = 0;
+            pts[np++] = z1;
+            if (z1 < zlo && z2 > zlo)
+                pts[np++] = zlo;
+            for (size_t i = 0; i < a.n && np < 2090; i++)
+                if (a.altitude_m[i] > z1 && a.altitude_m[i] < z2)
+                    pts[np++] = a.altitude_m[i];
+            if (z1 < zhi && z2 > zhi)
+                pts[np++] = zhi;
+            pts[np++] = z2;
+            for (int first = 0; first <= 1; first++) {
+                moment_fn mf = {&a, first};
+                gsl_function F = {moment_integrand, &mf};
+                double ref = NAN, err = NAN;
+                ck_assert_int_eq(gsl_integration_qagp(&F, pts, np, 0.0, 1e-13, 2000, ws, &ref, &err), GSL_SUCCESS);
+                const double got = first ? m1 : m0;
+                ck_assert_msg(fabs(got / ref - 1.0) < 1e-10, "%s, %g-%g m, moment %d: %.15g against %.15g", names[k],
+                              z1, z2, first, got, ref);
+            }
+            if (z1 >= zlo && z2 <= 86000.0) { /* above, the standard is not hydrostatic (test_hydrostatic_balance) */
+                sl_atmos_state s1, s2;
+                ck_assert_int_eq(sl_atmosphere_at(&a, z1, &s1, &e), SL_OK);
+                ck_assert_int_eq(sl_atmosphere_at(&a, z2, &s2, &e), SL_OK);
+                const double g1 = s1.gravity_m_s2, dg = (s2.gravity_m_s2 - g1) / (z2 - z1);
+                const double weight = g1 * m0 + dg * (m1 - z1 * m0);
+                SL_CK_REL(weight, s1.pressure_Pa - s2.pressure_Pa, 2e-3);
+            }
+        }
+        sl_atmosphere_free(&a);
+    }
+    gsl_integration_workspace_free(ws);
+}
+END_TEST
+
 static Suite *atmosphere_suite(void)
 {
     sl_err_gsl_handler_off();
@@ -743,6 +825,7 @@ static Suite *atmosphere_suite(void)
     tcase_add_test(tc, test_netcdf_readback);
     tcase_add_test(tc, test_shipped_files);
     tcase_add_test(tc, test_light_queries_match);
+    tcase_add_test(tc, test_mass_moments);
     tcase_add_test(tc, test_low_column_join);
     suite_add_tcase(s, tc);
     return s;
