@@ -63,7 +63,7 @@
  * the sea fall as bodies grow past the size where it starts, and Meteor
  * Crater's intact half argues for one break.
  *
- * Numerics: GSL odeiv2 Runge-Kutta-Fehlberg 4(5) on variables scaled by their
+ * Numerics: Dormand-Prince 5(4) (src/ode.c) on variables scaled by their
  * natural sizes, stepped here with the error control so that the derivative
  * at the end of a step is reused at the start of the next.  No cap on the
  * step size: the energy given to the air on a step is spread over the
@@ -345,10 +345,10 @@ static int ensure_work(sl_entry *en, const sl_entry_params *p, sl_err *e)
         en->w = w;
     }
     if (en->w->ode == NULL) {
-        /* Runge-Kutta-Fehlberg 4(5) on the scaled state; a trial outside the
+        /* Dormand-Prince 5(4) on the scaled state; a trial outside the
          * domain is retried four times shorter; at the smallest step an error
          * above the tolerance is rounding and the step is taken. */
-        sl_ode_config oc = {.dim = NY, .stepper = SL_ODE_RKF45, .rhs = rhs_scaled, .events = events,
+        sl_ode_config oc = {.dim = NY, .rhs = rhs_scaled, .events = events,
                             .n_events = N_EVENTS, .atol = 1e-8, .rtol = 1e-8, .fail_shrink = 0.25,
                             .accept_at_h_min = 1, .event_xtol = 1e-12};
         SL_TRY_RETURN(e, sl_ode_init(&en->w->ode, &oc, e));

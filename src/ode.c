@@ -2,30 +2,28 @@
  *
  * The step-size logic follows gsl_odeiv2_evolve_apply (GSL 2.x): a trial
  * that leaves the domain is retried shorter, an error above the tolerance
- * retries with the step gsl_odeiv2_control_hadjust proposes, an accepted
- * step proposes the next one; a step that would pass t_end ends on it.  The
- * difference: the derivative at a step's end is kept and passed to the next
- * step as its first stage (GSL's evolve evaluates it again), and it is the
- * slope of the cubic Hermite interpolant on which events are located. */
+ * retries with the step GSL's standard control proposes (the same formula,
+ * hadjust below), an accepted step proposes the next one; a step that would
+ * pass t_end ends on it.  The stepper is Dormand-Prince 5(4), whose last
+ * stage is the derivative at the step's end: it is the first stage of the
+ * next step and the slope of the cubic Hermite interpolant on which events
+ * are located. */
 #include "steamloft/ode.h"
 
 #include <gsl/gsl_errno.h>
-#include <gsl/gsl_odeiv2.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
 struct sl_ode {
     sl_ode_config cfg;
-    gsl_odeiv2_step *step;
-    gsl_odeiv2_control *ctl;
-    gsl_odeiv2_system sys;
     long trials, rhs_calls;
     int rhs_status;
     double t, t_prev, h;
     int terminal[SL_ODE_MAX_EVENTS], active[SL_ODE_MAX_EVENTS];
-    /* One block of 8 dim + 3 n_events doubles. */
+    /* One block of 14 dim + 3 (n_events + 1) doubles. */
     double *y, *f, *y_prev, *f_prev, *y_try, *f_try, *y_err, *y_tmp;
+    double *k2, *k3, *k4, *k5, *k6, *y_stage; /* the stepper's stages */
     double *g, *g_prev, *g_tmp;
     double *block;
 };
@@ -40,14 +38,89 @@ static int counted_rhs(double t, const double y[], double dydt[], void *params)
     return st;
 }
 
+/* One trial of Dormand & Prince (1980, J. Comput. Appl. Math. 6, 19) 5(4)
+ * from (T, Y) over H, with K1 the derivative at the start: Y becomes the
+ * fifth-order solution, YERR its difference from the embedded fourth-order
+ * one, K7 the derivative at the end (the seventh stage; "first same as
+ * last").  Six right-hand-side calls.  Coefficients as in Hairer, Norsett &
+ * Wanner (1993), Solving ODEs I, table II.5.2. */
+static int dp45_apply(sl_ode *o, double t, double h, double *y, double *yerr, const double *k1, double *k7)
+{
+    static const double a21 = 1.0 / 5.0;
+    static const double a31 = 3.0 / 40.0, a32 = 9.0 / 40.0;
+    static const double a41 = 44.0 / 45.0, a42 = -56.0 / 15.0, a43 = 32.0 / 9.0;
+    static const double a51 = 19372.0 / 6561.0, a52 = -25360.0 / 2187.0, a53 = 64448.0 / 6561.0, a54 = -212.0 / 729.0;
+    static const double a61 = 9017.0 / 3168.0, a62 = -355.0 / 33.0, a63 = 46732.0 / 5247.0, a64 = 49.0 / 176.0,
+                        a65 = -5103.0 / 18656.0;
+    static const double b1 = 35.0 / 384.0, b3 = 500.0 / 1113.0, b4 = 125.0 / 192.0, b5 = -2187.0 / 6784.0,
+                        b6 = 11.0 / 84.0;
+    /* b - b^, the fifth- minus the fourth-order weights */
+    static const double e1 = 71.0 / 57600.0, e3 = -71.0 / 16695.0, e4 = 71.0 / 1920.0, e5 = -17253.0 / 339200.0,
+                        e6 = 22.0 / 525.0, e7 = -1.0 / 40.0;
+    const size_t n = o->cfg.dim;
+    double *ys = o->y_stage, *k2 = o->k2, *k3 = o->k3, *k4 = o->k4, *k5 = o->k5, *k6 = o->k6;
+    int st;
+    for (size_t i = 0; i < n; i++)
+        ys[i] = y[i] + h * a21 * k1[i];
+    if ((st = counted_rhs(t + h / 5.0, ys, k2, o)) != GSL_SUCCESS)
+        return st;
+    for (size_t i = 0; i < n; i++)
+        ys[i] = y[i] + h * (a31 * k1[i] + a32 * k2[i]);
+    if ((st = counted_rhs(t + 0.3 * h, ys, k3, o)) != GSL_SUCCESS)
+        return st;
+    for (size_t i = 0; i < n; i++)
+        ys[i] = y[i] + h * (a41 * k1[i] + a42 * k2[i] + a43 * k3[i]);
+    if ((st = counted_rhs(t + 0.8 * h, ys, k4, o)) != GSL_SUCCESS)
+        return st;
+    for (size_t i = 0; i < n; i++)
+        ys[i] = y[i] + h * (a51 * k1[i] + a52 * k2[i] + a53 * k3[i] + a54 * k4[i]);
+    if ((st = counted_rhs(t + h * (8.0 / 9.0), ys, k5, o)) != GSL_SUCCESS)
+        return st;
+    for (size_t i = 0; i < n; i++)
+        ys[i] = y[i] + h * (a61 * k1[i] + a62 * k2[i] + a63 * k3[i] + a64 * k4[i] + a65 * k5[i]);
+    if ((st = counted_rhs(t + h, ys, k6, o)) != GSL_SUCCESS)
+        return st;
+    for (size_t i = 0; i < n; i++)
+        ys[i] = y[i] + h * (b1 * k1[i] + b3 * k3[i] + b4 * k4[i] + b5 * k5[i] + b6 * k6[i]);
+    if ((st = counted_rhs(t + h, ys, k7, o)) != GSL_SUCCESS)
+        return st;
+    for (size_t i = 0; i < n; i++) {
+        yerr[i] = h * (e1 * k1[i] + e3 * k3[i] + e4 * k4[i] + e5 * k5[i] + e6 * k6[i] + e7 * k7[i]);
+        y[i] = ys[i];
+    }
+    return GSL_SUCCESS;
+}
+
+enum { HADJ_DEC = -1, HADJ_NIL = 0, HADJ_INC = 1 };
+
+/* GSL's standard step control (gsl_odeiv2_control_standard_new with a_y = 1,
+ * a_dydt = 0, for a method of order 5): r = max_i |err_i| / (atol + rtol
+ * |y_i|); above 1.1 the step shrinks by 0.9 r^(-1/5), at most 5 times;
+ * below 0.5 it grows by 0.9 r^(-1/6), at most 5 times. */
+static int hadjust(const sl_ode *o, const double *y, const double *yerr, double *h)
+{
+    double rmax = 2.2250738585072014e-308; /* DBL_MIN, as GSL */
+    for (size_t i = 0; i < o->cfg.dim; i++) {
+        const double r = fabs(yerr[i]) / (o->cfg.rtol * fabs(y[i]) + o->cfg.atol);
+        rmax = r > rmax ? r : rmax;
+    }
+    if (rmax > 1.1) {
+        const double r = 0.9 / pow(rmax, 1.0 / 5.0);
+        *h *= r < 0.2 ? 0.2 : r;
+        return HADJ_DEC;
+    }
+    if (rmax < 0.5) {
+        const double r = 0.9 / pow(rmax, 1.0 / 6.0);
+        *h *= r > 5.0 ? 5.0 : (r < 1.0 ? 1.0 : r);
+        return HADJ_INC;
+    }
+    return HADJ_NIL;
+}
+
 void sl_ode_free(sl_ode *ode)
 {
     if (ode == NULL)
         return;
-    if (ode->step)
-        gsl_odeiv2_step_free(ode->step);
-    if (ode->ctl)
-        gsl_odeiv2_control_free(ode->ctl);
     free(ode->block);
     free(ode);
 }
@@ -70,15 +143,14 @@ int sl_ode_init(sl_ode **out, const sl_ode_config *cfg, sl_err *e)
     if (!(o->cfg.event_xtol > 0.0))
         o->cfg.event_xtol = 1e-12;
     size_t n = cfg->dim, m = cfg->n_events;
-    o->block = malloc((8 * n + 3 * (m + 1)) * sizeof(double));
-    o->step = gsl_odeiv2_step_alloc(cfg->stepper == SL_ODE_RKF45 ? gsl_odeiv2_step_rkf45 : gsl_odeiv2_step_rkck, n);
-    o->ctl = gsl_odeiv2_control_standard_new(cfg->atol, cfg->rtol, 1.0, 0.0);
-    if (o->block == NULL || o->step == NULL || o->ctl == NULL) {
+    o->block = malloc((14 * n + 3 * (m + 1)) * sizeof(double));
+    if (o->block == NULL) {
         sl_ode_free(o);
         SL_FAIL_RETURN(e, SL_ENOMEM, "ode: out of memory for the solver");
     }
     double *p = o->block;
-    double **vec[] = {&o->y, &o->f, &o->y_prev, &o->f_prev, &o->y_try, &o->f_try, &o->y_err, &o->y_tmp};
+    double **vec[] = {&o->y,     &o->f,  &o->y_prev, &o->f_prev, &o->y_try, &o->f_try, &o->y_err,
+                      &o->y_tmp, &o->k2, &o->k3,     &o->k4,     &o->k5,    &o->k6,    &o->y_stage};
     for (size_t i = 0; i < sizeof vec / sizeof vec[0]; i++, p += n)
         *vec[i] = p;
     o->g = p;
@@ -86,14 +158,13 @@ int sl_ode_init(sl_ode **out, const sl_ode_config *cfg, sl_err *e)
     o->g_tmp = p + 2 * (m + 1);
     for (size_t i = 0; i < m; i++)
         o->terminal[i] = o->active[i] = 1;
-    o->sys = (gsl_odeiv2_system){counted_rhs, NULL, n, o};
     *out = o;
     return SL_OK;
 }
 
 int sl_ode_set_tolerance(sl_ode *ode, double atol, double rtol, sl_err *e)
 {
-    if (gsl_odeiv2_control_init(ode->ctl, atol, rtol, 1.0, 0.0) != GSL_SUCCESS)
+    if (!(atol >= 0.0) || !(rtol >= 0.0) || !(atol + rtol > 0.0))
         SL_FAIL_RETURN(e, SL_EINTERNAL, "ode: cannot set the tolerances %g (absolute), %g (relative)", atol, rtol);
     ode->cfg.atol = atol;
     ode->cfg.rtol = rtol;
@@ -135,7 +206,6 @@ int sl_ode_restart(sl_ode *ode, double t0, const double y0[], double h0, sl_err 
     memcpy(ode->y, y0, n * sizeof(double));
     ode->t = ode->t_prev = t0;
     ode->h = h0;
-    gsl_odeiv2_step_reset(ode->step);
     int st = counted_rhs(t0, ode->y, ode->f, ode);
     if (st != GSL_SUCCESS)
         SL_FAIL_RETURN(e, SL_ENUMERIC, "ode: right-hand side failed at the start, t = %.9g (%s)", t0,
@@ -240,8 +310,7 @@ static int to_event(sl_ode *o, double te, sl_err *e)
     double h = te - o->t_prev;
     memcpy(o->y_try, o->y_prev, n * sizeof(double));
     if (h != 0.0) {
-        gsl_odeiv2_step_reset(o->step);
-        int st = gsl_odeiv2_step_apply(o->step, o->t_prev, h, o->y_try, o->y_err, o->f_prev, o->f_try, &o->sys);
+        int st = dp45_apply(o, o->t_prev, h, o->y_try, o->y_err, o->f_prev, o->f_try);
         if (st != GSL_SUCCESS)
             SL_FAIL_RETURN(e, SL_ENUMERIC, "ode: step to the event at t = %.9g failed (%s)", te, gsl_strerror(st));
     } else {
@@ -275,11 +344,10 @@ int sl_ode_step(sl_ode *o, double t_end, int *kind, sl_ode_hits *hits, sl_err *e
             h = t_end - t0;
         memcpy(o->y_try, o->y_prev, n * sizeof(double));
         o->rhs_status = GSL_SUCCESS;
-        int st = gsl_odeiv2_step_apply(o->step, t0, h, o->y_try, o->y_err, o->f_prev, o->f_try, &o->sys);
+        int st = dp45_apply(o, t0, h, o->y_try, o->y_err, o->f_prev, o->f_try);
         if (st != GSL_SUCCESS) {
             if (st != GSL_EDOM)
                 SL_FAIL_RETURN(e, SL_ENUMERIC, "ode: step from t = %.9g failed (%s)", t0, gsl_strerror(st));
-            gsl_odeiv2_step_reset(o->step);
             double h_new = h * c->fail_shrink;
             if (c->h_min > 0.0 ? !(h_new > c->h_min) : t0 + h_new == t0) {
                 o->h = h_new;
@@ -290,8 +358,8 @@ int sl_ode_step(sl_ode *o, double t_end, int *kind, sl_ode_hits *hits, sl_err *e
             continue;
         }
         double h_new = h;
-        int adj = gsl_odeiv2_control_hadjust(o->ctl, o->step, o->y_try, o->y_err, o->f_try, &h_new);
-        if (adj == GSL_ODEIV_HADJ_DEC) {
+        int adj = hadjust(o, o->y_try, o->y_err, &h_new);
+        if (adj == HADJ_DEC) {
             if (c->h_min > 0.0 && h > c->h_min) {
                 h = fmax(h_new, c->h_min);
                 continue;
