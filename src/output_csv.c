@@ -13,6 +13,7 @@
 #include "steamloft/output_text.h"
 #include "steamloft/units.h"
 
+#include <float.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -223,48 +224,152 @@ int sl_output_csv_write(const sl_output_view *v, const char *dir, int force, sl_
 
 /* ------------------------------------------------------------ number text */
 
+/* The fast path below needs a long double with at least a 64-bit
+ * significand (x86's extended format, or quadruple precision): its powers of
+ * ten up to 1e27 are exact (5^27 < 2^64), and a product or quotient of exact
+ * operands is within 2^-64 of itself.  Elsewhere every number takes the
+ * snprintf/strtod path. */
+#if LDBL_MANT_DIG >= 64
+#define SL_CSV_FAST 1
+static const long double pow10_ld[28] = {
+    1e0L,  1e1L,  1e2L,  1e3L,  1e4L,  1e5L,  1e6L,  1e7L,  1e8L,  1e9L,  1e10L, 1e11L, 1e12L, 1e13L,
+    1e14L, 1e15L, 1e16L, 1e17L, 1e18L, 1e19L, 1e20L, 1e21L, 1e22L, 1e23L, 1e24L, 1e25L, 1e26L, 1e27L};
+
+/* Y = AX 10^(16 - XE) in [1e16, 1e17), AX's 17 significant digits before
+ * the point, for 1e-11 <= AX < 1e16 (where the power needed is exact): Y is
+ * within 2^-7 of the exact product (below 2^57).  0 outside that range or
+ * when the long double is not what it says (then neither fast_round nor
+ * fast_reads_back may be used). */
+static int fast_scaled(double ax, long double *y, int *xe_out)
+{
+    /* The significand at run time, not only as the header says: under an
+     * emulator (valgrind computes x87 long doubles in double precision) the
+     * sum below rounds back to one, and every number takes the slow path. */
+    volatile long double one = 1.0L, tiny = 0x1p-63L;
+    if (!(ax >= 1e-11 && ax < 1e16) || one + tiny == one)
+        return 0;
+    int xe = (int)floor(log10(ax));
+    for (int tries = 0; tries < 3; tries++) {
+        int pw = 16 - xe;
+        if (pw < 0 || pw > 27)
+            return 0;
+        *y = (long double)ax * pow10_ld[pw];
+        if (*y < 1e16L)
+            xe--;
+        else if (*y >= 1e17L)
+            xe++;
+        else {
+            *xe_out = xe;
+            return 1;
+        }
+    }
+    return 0;
+}
+
+/* AX's PREC (15-17) significant digits correctly rounded, as "%.*e" gives
+ * them, into D with the decimal exponent *XP, from Y of fast_scaled: Y /
+ * 10^(17 - PREC) is within 2^-7 of the exact value in units of the last
+ * digit, so rounding it is exact unless its fraction lies within 0.02 of one
+ * half (a possible tie: 0, and the caller asks snprintf). */
+static int fast_round(long double y, int xe, int prec, char *d, int *xp)
+{
+    long double z = y / pow10_ld[17 - prec], fl = floorl(z), fr = z - fl;
+    if (fabsl(fr - 0.5L) < 0.02L)
+        return 0;
+    unsigned long long n = (unsigned long long)fl + (fr > 0.5L ? 1u : 0u);
+    *xp = xe;
+    if ((long double)n >= pow10_ld[prec]) { /* 99..9.6 rounds up to 10^PREC */
+        n /= 10u;
+        ++*xp;
+    }
+    for (int k = prec - 1; k >= 0; k--) {
+        d[k] = (char)('0' + (int)(n % 10u));
+        n /= 10u;
+    }
+    return 1;
+}
+
+/* Whether the decimal D[0..prec-1] x 10^(XP - prec + 1) reads back as AX > 0
+ * (round to nearest, ties to even, as strtod): 1 or 0 when its value, known
+ * to 2^-64 of itself, is clearly inside or outside the interval of reals that
+ * round to AX; -1 when it is too close to the interval's edge to tell. */
+static int fast_reads_back(const char *d, int prec, int xp, double ax)
+{
+    int e10 = xp - prec + 1;
+    if (e10 < -27 || e10 > 27)
+        return -1;
+    unsigned long long n = 0;
+    for (int k = 0; k < prec; k++)
+        n = 10u * n + (unsigned long long)(d[k] - '0');
+    long double v = e10 >= 0 ? (long double)n * pow10_ld[e10] : (long double)n / pow10_ld[-e10];
+    /* The edges: halfway to the neighbouring doubles (exact in long double). */
+    long double lo = 0.5L * ((long double)ax + (long double)nextafter(ax, 0.0));
+    long double hi = 0.5L * ((long double)ax + (long double)nextafter(ax, INFINITY));
+    long double m = (long double)ax * 0x1p-62L;
+    if (v > lo + m && v < hi - m)
+        return 1;
+    if (v < lo - m || v > hi + m)
+        return 0;
+    return -1;
+}
+#endif
+
 void sl_csv_number_text(char *buf, double x)
 {
     if (!isfinite(x) || x == 0.0) {
         snprintf(buf, 32, "%.15g", x);
         return;
     }
-    char e17[40];
-    snprintf(e17, sizeof e17, "%.16e", x); /* [-]d.dddddddddddddddde[+-]XX */
-    int neg = e17[0] == '-';
-    const char *p = e17 + neg;
+    int neg = x < 0.0, fast = 0, xe_fast = 0, xe = 0, have17 = 0;
     char dig[18];
-    dig[0] = p[0];
-    memcpy(dig + 1, p + 2, 16);
-    dig[17] = 0;
-    int xe = atoi(p + 19);
+#ifdef SL_CSV_FAST
+    long double y = 0.0L;
+    fast = fast_scaled(fabs(x), &y, &xe_fast);
+#endif
     for (int prec = 15; prec <= 17; prec++) {
         char d[18];
-        int xp = xe;
-        if (prec < 17) {
-            /* round the 17 digits to PREC; a tie in the dropped digits (which
-             * stood for an exact value on either side) goes to snprintf */
-            int tie = prec == 16 ? dig[16] == '5' : (dig[15] == '5' && dig[16] == '0');
-            if (tie) {
-                snprintf(buf, 32, "%.*g", prec, x);
-                if (strtod(buf, NULL) == x)
-                    return;
-                continue;
+        int xp = 0, done = 0;
+#ifdef SL_CSV_FAST
+        done = fast && fast_round(y, xe_fast, prec, d, &xp);
+#endif
+        if (!done) {
+            if (!have17) {
+                char e17[40];
+                snprintf(e17, sizeof e17, "%.16e", x); /* [-]d.dddddddddddddddde[+-]XX */
+                const char *p = e17 + neg;
+                dig[0] = p[0];
+                memcpy(dig + 1, p + 2, 16);
+                dig[17] = 0;
+                xe = atoi(p + 19);
+                have17 = 1;
             }
-            memcpy(d, dig, (size_t)prec);
-            if (dig[prec] >= '5') {
-                int k = prec - 1;
-                while (k >= 0 && d[k] == '9')
-                    d[k--] = '0';
-                if (k >= 0)
-                    d[k]++;
-                else {
-                    d[0] = '1'; /* 99..9 -> 100..0 */
-                    xp++;
+            xp = xe;
+            if (prec < 17) {
+                /* round the 17 digits to PREC; a tie in the dropped digits
+                 * (which stood for an exact value on either side) goes to
+                 * snprintf */
+                int tie = prec == 16 ? dig[16] == '5' : (dig[15] == '5' && dig[16] == '0');
+                if (tie) {
+                    snprintf(buf, 32, "%.*g", prec, x);
+                    if (strtod(buf, NULL) == x)
+                        return;
+                    continue;
                 }
+                memcpy(d, dig, (size_t)prec);
+                if (dig[prec] >= '5') {
+                    int k = prec - 1;
+                    while (k >= 0 && d[k] == '9')
+                        d[k--] = '0';
+                    if (k >= 0)
+                        d[k]++;
+                    else {
+                        d[0] = '1'; /* 99..9 -> 100..0 */
+                        xp++;
+                    }
+                }
+            } else {
+                memcpy(d, dig, 17);
             }
-        } else {
-            memcpy(d, dig, 17);
         }
         /* the %g layout of PREC digits D with exponent XP */
         int np = prec;
@@ -305,7 +410,16 @@ void sl_csv_number_text(char *buf, double x)
             }
         }
         *o = 0;
-        if (prec == 17 || strtod(buf, NULL) == x)
+        if (prec == 17)
+            return;
+        int back = -1;
+#ifdef SL_CSV_FAST
+        if (fast)
+            back = fast_reads_back(d, prec, xp, fabs(x));
+#endif
+        if (back < 0)
+            back = strtod(buf, NULL) == x;
+        if (back)
             return;
     }
 }

@@ -59,6 +59,44 @@ START_TEST(number_text_matches_printf)
             fprintf(stderr, "%.17g: %s (printf) vs %s\n", x, a, b);
     }
     ck_assert_int_eq(n_bad, 0);
+    /* The range of the long-double fast path (1e-11 to 1e16): random
+     * significands over every binary exponent there, the doubles next to
+     * powers of ten, and decimals of 1-17 digits (short ones read back at 15
+     * digits, 16- and 17-digit ones sit on the ties). */
+    long n_fast = 0;
+    for (long i = 0; i < 400000; i++) {
+        s ^= s << 13;
+        s ^= s >> 7;
+        s ^= s << 17;
+        double x;
+        int kind = (int)(i % 4);
+        if (kind < 2) {
+            int be = -37 + (int)((s >> 52) % 91); /* 2^-37 ~ 7e-12 to 2^53 ~ 9e15 */
+            x = ldexp(1.0 + (double)(s & 0xFFFFFFFFFFFFFULL) * 0x1p-52, be);
+        } else if (kind == 2) {
+            x = pow(10.0, (double)((int)(s % 27) - 11));
+            for (int k = (int)((s >> 8) % 7) - 3; k != 0; k += k > 0 ? -1 : 1)
+                x = nextafter(x, k > 0 ? INFINITY : 0.0);
+        } else {
+            char t[48];
+            int nd = 1 + (int)(s % 17);
+            unsigned long long m = (s >> 8) % 100000000000000000ULL, mod = 1;
+            for (int k = 0; k < nd; k++)
+                mod *= 10;
+            snprintf(t, sizeof t, "%llue%d", m % mod, (int)((s >> 3) % 27) - 11 - nd);
+            x = strtod(t, NULL);
+            if (!(x >= 1e-11 && x < 1e16))
+                continue;
+        }
+        x *= (s & 2) ? -1.0 : 1.0;
+        n_fast++;
+        reference_text(a, x);
+        sl_csv_number_text(b, x);
+        if (strcmp(a, b) != 0 && n_bad++ < 5)
+            fprintf(stderr, "%.17g: %s (printf) vs %s\n", x, a, b);
+    }
+    ck_assert_msg(n_fast > 350000, "%ld", n_fast);
+    ck_assert_int_eq(n_bad, 0);
 }
 END_TEST
 
