@@ -3,8 +3,12 @@
  * The step-size logic follows gsl_odeiv2_evolve_apply (GSL 2.x): a trial
  * that leaves the domain is retried shorter, an error above the tolerance
  * retries with the step GSL's standard control proposes (the same formula,
- * hadjust below), an accepted step proposes the next one; a step that would
- * pass t_end ends on it.  The stepper is Dormand-Prince 5(4), whose last
+ * hadjust below), an accepted step proposes the next one, but not a longer
+ * one when a trial of this step was rejected (Hairer, Norsett & Wanner 1993,
+ * Solving ODEs I, sec. II.4: facmax = 1 right after a rejection; 5 % fewer
+ * plume and 7 % fewer entry right-hand sides on the bench ensemble, whose
+ * right-hand sides have kinks at the tropopause and at phase changes); a
+ * step that would pass t_end ends on it.  The stepper is Dormand-Prince 5(4), whose last
  * stage is the derivative at the step's end: it is the first stage of the
  * next step and the slope of the cubic Hermite interpolant on which events
  * are located. */
@@ -334,7 +338,7 @@ int sl_ode_step(sl_ode *o, double t_end, int *kind, sl_ode_hits *hits, sl_err *e
     memcpy(o->f_prev, o->f, n * sizeof(double));
     memcpy(o->g_prev, o->g, c->n_events * sizeof(double));
     o->t_prev = t0;
-    int final = 0;
+    int final = 0, rejected = 0;
     for (;;) {
         o->trials++;
         if (c->h_max > 0.0 && h > c->h_max)
@@ -362,16 +366,20 @@ int sl_ode_step(sl_ode *o, double t_end, int *kind, sl_ode_hits *hits, sl_err *e
         if (adj == HADJ_DEC) {
             if (c->h_min > 0.0 && h > c->h_min) {
                 h = fmax(h_new, c->h_min);
+                rejected = 1;
                 continue;
             }
             if (c->h_min <= 0.0 && h_new < h && t0 + h_new != t0) {
                 h = h_new;
+                rejected = 1;
                 continue;
             }
             if (!c->accept_at_h_min)
                 SL_FAIL_RETURN(e, SL_ENUMERIC, "ode: tolerance not reachable at t = %.9g (step %g)", t0, h);
             h_new = c->h_min > 0.0 ? c->h_min : h;
         }
+        if (rejected && h_new > h)
+            h_new = h;
         o->h = h_new;
         break;
     }

@@ -3,8 +3,8 @@
  *
  * The embedded Runge-Kutta pair of Dormand & Prince 5(4) with the standard
  * error control of GSL (|err_i| <= atol + rtol |y_i|, the step rule of
- * gsl_odeiv2_control_standard_new) advances the state one accepted step at
- * a time.  Its last stage is the derivative at the end of the step, which is
+ * gsl_odeiv2_control_standard_new, with no growth of the next step after a
+ * rejected trial) advances the state one accepted step at a time.  Its last stage is the derivative at the end of the step, which is
  * the first stage of the next one, so every trial costs six right-hand-side
  * calls (Cash-Karp 4(5) of GSL, used before, cost six too, but the
  * Dormand-Prince pair's smaller error constants take fewer trials: 5.5 %
