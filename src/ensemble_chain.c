@@ -319,7 +319,7 @@ static chain_ws *median_ws(sl_ens_chain *c, int *ran)
  * on the medians (a failure of that run is not an error: members report
  * their own).  The first thread takes the workspace of extras_layout's
  * median run, the same warm-up: one setup of the atmospheres and of the box
- * model's response fewer, about 5 % of a 2000-member run on one thread. */
+ * model's response fewer, about 3 % of a 2000-member run on one thread. */
 static void *chain_ws_new(void *ctx, sl_err *e)
 {
     sl_ens_chain *c = ctx;

@@ -8,10 +8,10 @@
  * Solving ODEs I, sec. II.4: facmax = 1 right after a rejection; 5 % fewer
  * plume and 7 % fewer entry right-hand sides on the bench ensemble, whose
  * right-hand sides have kinks at the tropopause and at phase changes); a
- * step that would pass t_end ends on it.  The stepper is Dormand-Prince 5(4), whose last
- * stage is the derivative at the step's end: it is the first stage of the
- * next step and the slope of the cubic Hermite interpolant on which events
- * are located. */
+ * step that would pass t_end ends on it.  The stepper is Dormand-Prince
+ * 5(4), whose last stage is the derivative at the step's end: it is the
+ * first stage of the next step and the slope of the cubic Hermite
+ * interpolant on which events are located. */
 #include "steamloft/ode.h"
 
 #include <gsl/gsl_errno.h>

@@ -4,13 +4,15 @@
  * The embedded Runge-Kutta pair of Dormand & Prince 5(4) with the standard
  * error control of GSL (|err_i| <= atol + rtol |y_i|, the step rule of
  * gsl_odeiv2_control_standard_new, with no growth of the next step after a
- * rejected trial) advances the state one accepted step at a time.  Its last stage is the derivative at the end of the step, which is
- * the first stage of the next one, so every trial costs six right-hand-side
- * calls (Cash-Karp 4(5) of GSL, used before, cost six too, but the
+ * rejected trial) advances the state one accepted step at a time.  Its last
+ * stage is the derivative at the end of the step, which is the first stage
+ * of the next one, so every trial costs six right-hand-side calls
+ * (Cash-Karp 4(5) of GSL, used before, cost six too, but the
  * Dormand-Prince pair's smaller error constants take fewer trials: 5.5 %
- * fewer instructions per bench member), and the cubic Hermite interpolant through the
- * two end states and their derivatives (Hairer, Norsett & Wanner 1993,
- * Solving ODEs I, sec. II.6) is the step's dense output at no extra cost.
+ * fewer instructions per bench member), and the cubic Hermite interpolant
+ * through the two end states and their derivatives (Hairer, Norsett &
+ * Wanner 1993, Solving ODEs I, sec. II.6) is the step's dense output at no
+ * extra cost.
  *
  * Events are sign changes of user functions g_i(t, y): an event happens on
  * a step when g_i goes from > 0 at the step's start to <= 0 at its end.  Its
