@@ -742,8 +742,9 @@ static double moment_integrand(double z, void *params)
 
 START_TEST(test_mass_moments)
 {
-    /* The air-mass moments of layers (integrals of rho and z rho) against GSL's adaptive Gauss-Kronrod quadrature (gsl_integration_qagp,
-     * the reference library; PRACTICE) of the same interpolated density, with
+    /* The air-mass moments of layers (integrals of rho and z rho) against
+     * GSL's adaptive Gauss-Kronrod quadrature (gsl_integration_qagp, the
+     * reference library; PRACTICE) of the same interpolated density, with
      * the profile's levels as break points: layers inside the profile, across
      * many levels, thin ones inside one level interval, and ones reaching
      * below and above the profile (where the end level's density is held,

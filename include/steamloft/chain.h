@@ -25,9 +25,10 @@
 #include "steamloft/stage_params.h"
 #include "steamloft/strat.h"
 
-/* The stages of the chain, in order; each is timed (for `make bench`). */
 /* Ensembles time one member in this many (sl_chain.time_every). */
 #define SL_CHAIN_TIME_EVERY 16
+
+/* The stages of the chain, in order; each is timed (for `make bench`). */
 enum { SL_CHAIN_T_ATMOSPHERE = 0, SL_CHAIN_T_ENTRY, SL_CHAIN_T_PARTITION, SL_CHAIN_T_PLUME,
        SL_CHAIN_T_STRAT, SL_CHAIN_N_TIMED };
 extern const char *const sl_chain_stage_names[SL_CHAIN_N_TIMED];
