@@ -107,6 +107,14 @@ START_TEST(vapor_fraction_with_pressure)
     ck_assert_int_eq(sl_partition_solve(&pt, &in, &e), SL_OK);
     SL_CK_RANGE(pt.incipient_vapor_pressure_Pa, 2e9, 10e9);
     SL_CK_RANGE(pt.complete_vapor_pressure_Pa, 20e9, 200e9);
+    /* The two pressures invert the vapour fraction (DERIVED: they are where
+     * it first reaches 1e-9 and 1): 1e-9 of the pressure below, it has not;
+     * 1e-9 above, it has. */
+    const double t0 = in.sea_temperature_K, pi = pt.incipient_vapor_pressure_Pa, pc = pt.complete_vapor_pressure_Pa;
+    ck_assert(sl_partition_vapor_fraction(pi * (1.0 - 1e-9), t0, NULL) < 1e-9);
+    ck_assert(sl_partition_vapor_fraction(pi * (1.0 + 1e-9), t0, NULL) >= 1e-9);
+    ck_assert(sl_partition_vapor_fraction(pc * (1.0 - 1e-9), t0, NULL) < 1.0);
+    ck_assert(sl_partition_vapor_fraction(pc * (1.0 + 1e-9), t0, NULL) == 1.0);
     sl_entry_free(&en);
 }
 END_TEST
