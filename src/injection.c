@@ -267,8 +267,8 @@ static int cloud_level(const sl_atmosphere *atm, double altitude_m, double *r_ic
  * peak_m; it integrates to 1 over the layer) times rho_a over [Z0, Z1] on
  * one side of the mode: the tent is linear there, alpha + beta z, so the
  * integral is alpha M0 + beta M1 from the layer's air-mass moments
- * (sl_atmosphere_layer_mass; measured against 0.5 m Simpson sums on the
- * tropical profile, within 1.4e-11 per 1 km band, where 4-point
+ * (sl_atmosphere_layer_mass; measured against fine Simpson sums on the
+ * tropical profile, within 3e-11 per 1 km band, where 4-point
  * Gauss-Legendre on 500 m pieces straddling the profile's levels erred by up
  * to 4e-6 near the tropopause). */
 static int umbrella_piece(const sl_atmosphere *atm, const sl_young_cloud *c, double z0, double z1, double *w,
@@ -287,8 +287,7 @@ static int umbrella_piece(const sl_atmosphere *atm, const sl_young_cloud *c, dou
     }
     sl_atmos_cursor cur = {0};
     double m0, m1;
-    if (sl_atmosphere_layer_mass(atm, z0, z1, &cur, &m0, &m1) != SL_OK)
-        SL_FAIL_RETURN(e, SL_EINTERNAL, "young cloud: no air mass for the layer %g-%g m", z0, z1);
+    SL_TRY_RETURN(e, sl_atmosphere_layer_mass(atm, z0, z1, &cur, &m0, &m1, e));
     *w = alpha * m0 + beta * m1;
     return SL_OK;
 }

@@ -202,7 +202,8 @@ double sl_partition_vapor_fraction(double pressure_Pa, double sea_temperature_K,
  * T0); the particle speed that leaves that waste heat by Newton's method
  * (e_w(u) = u^2/2 - c_s^2 (X - ln(1 + X)), X = S u/C, is increasing and
  * convex, so after the first step the iterates fall monotonically onto the
- * root); then the Hugoniot, P = rho (C + S u) u.  It replaces a bisection in
+ * root, in floating point until rounding turns them back); then the
+ * Hugoniot, P = rho (C + S u) u.  It replaces a bisection in
  * log pressure to 1e-7, whose answer lay up to 1e-7 above the root (the
  * reported incipient and complete vaporisation pressures move by that much,
  * the water vaporised by far less), at a twentieth of the cost. */
@@ -219,7 +220,9 @@ static double pressure_for_fraction(double x_target, double t0)
         const double f = 0.5 * u * u - cs * cs * bracket - e_t, slope = u * x / (1.0 + x);
         const double du = f / slope;
         u -= du;
-        if (!(fabs(du) > 1e-15 * u))
+        /* Converged, or (after the first step, which comes from below) the
+         * descent has reached rounding and turns back. */
+        if (!(fabs(du) > 1e-15 * u) || (it > 0 && !(du > 0.0)))
             break;
     }
     return w->density_kg_m3 * (w->c_m_s + w->s * u) * u;

@@ -769,7 +769,7 @@ START_TEST(test_mass_moments)
             const double z1 = layers[l][0], z2 = layers[l][1];
             double m0, m1;
             sl_atmos_cursor cur = {0};
-            ck_assert_int_eq(sl_atmosphere_layer_mass(&a, z1, z2, &cur, &m0, &m1), SL_OK);
+            ck_assert_msg(sl_atmosphere_layer_mass(&a, z1, z2, &cur, &m0, &m1, &e) == SL_OK, "%s", e.msg);
             /* break points: the layer's ends, the profile's ends and every level between */
             double pts[2100];
             size_t np = 0;

@@ -6,9 +6,10 @@
  * gsl_odeiv2_control_standard_new, with no growth of the next step after a
  * rejected trial) advances the state one accepted step at a time.  Its last
  * stage is the derivative at the end of the step, which is the first stage
- * of the next one, so every trial costs six right-hand-side calls
- * (Cash-Karp 4(5) of GSL, used before, cost six too, but the
- * Dormand-Prince pair's smaller error constants take fewer trials: 5.5 %
+ * of the next one, so every trial costs six right-hand-side calls (GSL's
+ * pairs used before, Runge-Kutta-Fehlberg 4(5) for the entry and Cash-Karp
+ * 4(5) for the plume, cost six too, but the Dormand-Prince pair's smaller
+ * error constants take fewer trials: 5.5 %
  * fewer instructions per bench member), and the cubic Hermite interpolant
  * through the two end states and their derivatives (Hairer, Norsett &
  * Wanner 1993, Solving ODEs I, sec. II.6) is the step's dense output at no
