@@ -159,14 +159,18 @@ int sl_partition_planar_impact(const sl_hugoniot *p, const sl_hugoniot *t, doubl
     return SL_OK;
 }
 
+/* The release work's bracket X - ln(1 + X), X = S u/C; for small X it loses
+ * digits, so its series X^2/2 - X^3/3 + X^4/4 there. */
+static double release_bracket(double x)
+{
+    return x < 1e-3 ? x * x * (0.5 - x / 3.0 + 0.25 * x * x) : x - log1p(x);
+}
+
 /* Waste heat left in water shocked to particle speed U (J/kg). */
 static double waste_heat_J_kg(const sl_hugoniot *w, double u)
 {
-    double x = w->s * u / w->c_m_s;
     double cs = w->c_m_s / w->s;
-    /* For small x the bracket loses digits: use its series x^2/2 - x^3/3 + x^4/4. */
-    double bracket = x < 1e-3 ? x * x * (0.5 - x / 3.0 + 0.25 * x * x) : x - log1p(x);
-    double ew = 0.5 * u * u - cs * cs * bracket;
+    double ew = 0.5 * u * u - cs * cs * release_bracket(w->s * u / w->c_m_s);
     return ew > 0 ? ew : 0.0;
 }
 
@@ -203,10 +207,10 @@ double sl_partition_vapor_fraction(double pressure_Pa, double sea_temperature_K,
  * (e_w(u) = u^2/2 - c_s^2 (X - ln(1 + X)), X = S u/C, is increasing and
  * convex, so after the first step the iterates fall monotonically onto the
  * root, in floating point until rounding turns them back); then the
- * Hugoniot, P = rho (C + S u) u.  It replaces a bisection in
- * log pressure to 1e-7, whose answer lay up to 1e-7 above the root (the
- * reported incipient and complete vaporisation pressures move by that much,
- * the water vaporised by far less), at a twentieth of the cost. */
+ * Hugoniot, P = rho (C + S u) u.  It replaces a bisection in log pressure
+ * to 1e-7, whose answer lay up to 1e-7 above the root (the reported
+ * incipient and complete vaporisation pressures move by that much, the
+ * water vaporised by far less), at a twentieth of the cost. */
 static double pressure_for_fraction(double x_target, double t0)
 {
     const sl_hugoniot *w = &sl_partition_hugoniots[0];
@@ -216,8 +220,7 @@ static double pressure_for_fraction(double x_target, double t0)
     double u = sqrt(2.0 * fmax(e_t, 0.0));
     for (int it = 0; it < 60 && u > 0.0; it++) {
         const double x = w->s * u / w->c_m_s;
-        const double bracket = x < 1e-3 ? x * x * (0.5 - x / 3.0 + 0.25 * x * x) : x - log1p(x);
-        const double f = 0.5 * u * u - cs * cs * bracket - e_t, slope = u * x / (1.0 + x);
+        const double f = 0.5 * u * u - cs * cs * release_bracket(x) - e_t, slope = u * x / (1.0 + x);
         const double du = f / slope;
         u -= du;
         /* Converged, or (after the first step, which comes from below) the

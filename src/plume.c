@@ -82,10 +82,11 @@
  * Measured: ~26 accepted steps and under 0.1 ms per thermal (bench
  * ensemble) at the default tolerance; 12000 random sources (1e3-1e14 kg of
  * air, up to 100 times as much water, 160-9000 K, 0-90 km, or heat
- * 1e9-1e20 J in 10 m-30 km spheres; three profiles) all rise without failure, the energy budget closed
- * to 4e-6 and the water budget to 1e-15 (with the added mass on the thermal's
- * own mass; with it on the displaced air, the 600 sources of
- * tests/test_plume.c close the energy budget to 1.5e-7).
+ * 1e9-1e20 J in 10 m-30 km spheres; three profiles) all rise without
+ * failure, the energy budget closed to 4e-6 and the water budget to 1e-15
+ * (with the added mass on the thermal's own mass; with it on the displaced
+ * air, the 600 sources of tests/test_plume.c close the energy budget to
+ * 1.5e-7).
  *
  * Cloud rule.  The young cloud spans the layer between the neutral-buoyancy
  * level z_N (where the buoyancy force first vanished) and the highest reach
@@ -1036,7 +1037,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * (0.02 Tg in 2600 Tg of air) moved its water by 5.5e-4 when the
      * tolerance was halved, by 6e-5 with the humidity's scale (0.4 % more
      * instructions per bench member). */
-    double q_src = fmax(amb.h2o_mole_fraction, 0.0) * RA / RV; /* kg water per kg dry air */
+    double q_src = sl_water_mixing_ratio_from_mole_fraction(fmax(amb.h2o_mole_fraction, 0.0)); /* kg per kg dry air */
     double Sa = st.air_kg, Sw = fmax(Mw1, fmax(fmin(q_src, 1.0e-3), 1.0e-6) * Sa);
     double sc[NY] = {Ls, Sa, Sw, (M1 + A0) * Us, Es, Es, Es, Sw, fmax(spray, Sw), Sa, Es};
     memcpy(w->scale, sc, sizeof sc);

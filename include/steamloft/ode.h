@@ -9,11 +9,10 @@
  * of the next one, so every trial costs six right-hand-side calls (GSL's
  * pairs used before, Runge-Kutta-Fehlberg 4(5) for the entry and Cash-Karp
  * 4(5) for the plume, cost six too, but the Dormand-Prince pair's smaller
- * error constants take fewer trials: 5.5 %
- * fewer instructions per bench member), and the cubic Hermite interpolant
- * through the two end states and their derivatives (Hairer, Norsett &
- * Wanner 1993, Solving ODEs I, sec. II.6) is the step's dense output at no
- * extra cost.
+ * error constants take fewer trials: 5.5 % fewer instructions per bench
+ * member), and the cubic Hermite interpolant through the two end states and
+ * their derivatives (Hairer, Norsett & Wanner 1993, Solving ODEs I, sec.
+ * II.6) is the step's dense output at no extra cost.
  *
  * Events are sign changes of user functions g_i(t, y): an event happens on
  * a step when g_i goes from > 0 at the step's start to <= 0 at its end.  Its
