@@ -21,6 +21,7 @@
  *   rank correlation (gsl_stats_spearman, average ranks for ties).
  * - A progress bar on stderr (rate and time left). */
 #include "steamloft/ensemble.h"
+#include "steamloft/sort.h"
 #include "steamloft/units.h"
 #include "steamloft/units_table.h"
 
@@ -926,8 +927,9 @@ int sl_ens_percentiles(const sl_ens_result *r, size_t j, const double *pct, size
         return SL_ENOMEM;
     size_t n = 0;
     int rc = gather_ok(r, j, buf, &n, e);
+    if (rc == SL_OK)
+        rc = sl_sort_doubles(buf, n, e);
     if (rc == SL_OK) {
-        gsl_sort(buf, 1, n);
         for (size_t k = 0; k < np; k++)
             vals[k] = n ? gsl_stats_quantile_from_sorted_data(buf, 1, n, pct[k] / 100.0) : NAN;
         *n_ok = n;
@@ -1108,32 +1110,21 @@ int sl_ens_first_order(const sl_ens_result *r, size_t i, size_t j, double *s1, s
     return rc;
 }
 
-/* A value and its member, sorted by value then member (a total order, so
- * the result does not depend on the sort algorithm). */
-typedef struct keyed {
-    double v;
-    uint32_t m;
-} keyed;
+/* The sort space is two columns of doubles: a (value, member) pair fits in
+ * two doubles. */
+_Static_assert(sizeof(sl_sort_pair) <= 2 * sizeof(double), "the sort space is two columns of doubles");
 
-_Static_assert(sizeof(keyed) <= 2 * sizeof(double), "the sort space is two columns of doubles");
-
-static int keyed_cmp(const void *pa, const void *pb)
-{
-    const keyed *a = pa, *b = pb;
-    if (a->v < b->v)
-        return -1;
-    if (a->v > b->v)
-        return 1;
-    return (a->m > b->m) - (a->m < b->m);
-}
-
-/* ORDER[0..ns-1] = the members m with IN[m] (all n members when IN is NULL)
- * sorted by their value COL[m] (ties by member); returns ns.  The sort space
- * WORK is two columns of doubles whose first column is COL: the values are
- * compacted to the front in member order, then spread to (value, member)
- * pairs from the back (pair k fills doubles 2k and 2k+1, all at or above k
- * and read already), so no third column is needed; COL is overwritten. */
-static size_t sort_members(keyed *work, double *col, const unsigned char *in, size_t n, uint32_t *order)
+/* ORDER[0..ns-1] = the ns members m with IN[m] (all n members when IN is
+ * NULL) sorted by their value COL[m], ties by member (a stable sort of pairs
+ * laid out in member order: a total order, so the result does not depend on
+ * the sort algorithm).  The sort space WORK is two columns of doubles whose
+ * first column is COL: the values are compacted to the front in member
+ * order, then spread to (value, member) pairs from the back (pair k fills
+ * doubles 2k and 2k+1, all at or above k and read already), so the pairs
+ * need no column of their own; COL is overwritten.  The sort itself takes a
+ * scratch copy of the pairs while it runs (src/sort.c). */
+static int sort_members(sl_sort_pair *work, double *col, const unsigned char *in, size_t n, uint32_t *order,
+                        sl_err *e)
 {
     size_t ns = n;
     if (in) {
@@ -1148,13 +1139,13 @@ static size_t sort_members(keyed *work, double *col, const unsigned char *in, si
             continue;
         k--;
         double v = col[k];
-        work[k].v = v;
-        work[k].m = (uint32_t)m;
+        work[k].value = v;
+        work[k].member = (uint32_t)m;
     }
-    qsort(work, ns, sizeof *work, keyed_cmp);
+    SL_TRY_RETURN(e, sl_sort_pairs(work, ns, e));
     for (k = 0; k < ns; k++)
-        order[k] = work[k].m;
-    return ns;
+        order[k] = work[k].member;
+    return SL_OK;
 }
 
 /* Twice the average ranks (1-based) of the NS members listed in ORDERED
@@ -1280,16 +1271,16 @@ int sl_ens_sensitivity(const sl_ens_result *r, double *rho, double *s1, sl_err *
         rc = sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "out of memory ranking %zu members", n);
         goto out;
     }
-    keyed *work = (keyed *)(void *)xy;
+    sl_sort_pair *work = (sl_sort_pair *)(void *)xy;
     double *xc = xy, *yc = xy + n;
     uint32_t *ry2 = r2, *rx2 = r2 + n;
     /* Each input sorted once over all members. */
     for (size_t i = 0; i < ni && rc == SL_OK; i++) {
         rc = sl_ens_column(r, i, xc, e);
-        if (rc == SL_OK) {
-            sort_members(work, xc, NULL, n, ford);
+        if (rc == SL_OK)
+            rc = sort_members(work, xc, NULL, n, ford, e);
+        if (rc == SL_OK)
             rc = orders_put(&io, i, ford, e);
-        }
     }
     for (size_t j = 0; j < no && rc == SL_OK; j++) {
         /* The members this output's statistics use, then their order by the
@@ -1304,8 +1295,9 @@ int sl_ens_sensitivity(const sl_ens_result *r, double *rho, double *s1, sl_err *
         }
         if (ns < 3)
             continue;
-        sort_members(work, xc, in, n, ford);
-        rc = sl_ens_column(r, ni + j, yc, e);
+        rc = sort_members(work, xc, in, n, ford, e);
+        if (rc == SL_OK)
+            rc = sl_ens_column(r, ni + j, yc, e);
         if (rc != SL_OK)
             break;
         double mean = 0, var = 0;

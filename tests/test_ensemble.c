@@ -3,6 +3,7 @@
  * counts, failed members kept) and the statistics. */
 #include "sl_test.h"
 #include "steamloft/ensemble.h"
+#include "steamloft/sort.h"
 #include "steamloft/units.h"
 #include "ens_reference.h"
 
@@ -54,6 +55,71 @@ static double cdf_flux_angle_deg(double th_deg, const void *c)
            hi = sin(sl_deg_to_rad(lim[1]));
     return (s * s - lo * lo) / (hi * hi - lo * lo);
 }
+
+/* The radix sorts against the C library's qsort with the comparison the
+ * statistics rely on (value by <, then member): the same permutation, for
+ * arrays with negative numbers, both zeros, subnormals, infinities, wide
+ * exponent ranges and many ties (REFERENCE: qsort, C11 7.22.5.2). */
+static int pair_cmp(const void *pa, const void *pb)
+{
+    const sl_sort_pair *a = pa, *b = pb;
+    if (a->value < b->value)
+        return -1;
+    if (a->value > b->value)
+        return 1;
+    return (a->member > b->member) - (a->member < b->member);
+}
+
+static int double_cmp(const void *pa, const void *pb)
+{
+    double a = *(const double *)pa, b = *(const double *)pb;
+    return (a > b) - (a < b);
+}
+
+START_TEST(test_radix_sort)
+{
+    sl_err e = {0};
+    const size_t sizes[] = {0, 1, 2, 3, 17, 2048, 100003};
+    uint64_t state = 0x9E3779B97F4A7C15u;
+    for (size_t t = 0; t < sizeof sizes / sizeof sizes[0]; t++) {
+        size_t n = sizes[t];
+        sl_sort_pair *p = malloc((n + 1) * sizeof *p), *q = malloc((n + 1) * sizeof *q);
+        double *x = malloc((n + 1) * sizeof *x), *y = malloc((n + 1) * sizeof *y);
+        ck_assert(p && q && x && y);
+        for (size_t i = 0; i < n; i++) {
+            state = state * 6364136223846793005u + 1442695040888963407u;
+            uint32_t r = (uint32_t)(state >> 33);
+            double v;
+            switch (r % 8) {
+            case 0: v = (double)(r % 5) - 2.0; break;            /* ties, both signs */
+            case 1: v = (r & 64) ? -0.0 : 0.0; break;            /* both zeros */
+            case 2: v = ldexp((double)(r % 1000), -1074 + (int)(r % 40)); break; /* subnormals */
+            case 3: v = (r & 64) ? -INFINITY : INFINITY; break;
+            case 4: v = ldexp(1.0 + (double)r / 4294967296.0, (int)(r % 2000) - 1000); break;
+            case 5: v = -ldexp(1.0 + (double)r / 4294967296.0, (int)(r % 2000) - 1000); break;
+            default: v = ((double)r / 4294967296.0 - 0.5) * 1e6; break;
+            }
+            p[i].value = q[i].value = x[i] = y[i] = v;
+            p[i].member = q[i].member = (uint32_t)i;
+        }
+        ck_assert_int_eq(sl_sort_pairs(p, n, &e), SL_OK);
+        qsort(q, n, sizeof *q, pair_cmp);
+        for (size_t i = 0; i < n; i++) {
+            ck_assert_msg(p[i].member == q[i].member, "n %zu, position %zu: member %u, qsort %u", n, i,
+                          (unsigned)p[i].member, (unsigned)q[i].member);
+            ck_assert(p[i].value == q[i].value);
+        }
+        ck_assert_int_eq(sl_sort_doubles(x, n, &e), SL_OK);
+        qsort(y, n, sizeof *y, double_cmp);
+        for (size_t i = 0; i < n; i++)
+            ck_assert_msg(x[i] == y[i], "n %zu, position %zu: %g, qsort %g", n, i, x[i], y[i]);
+        free(p);
+        free(q);
+        free(x);
+        free(y);
+    }
+}
+END_TEST
 
 START_TEST(test_flux_angle_law)
 {
@@ -884,6 +950,7 @@ static Suite *ensemble_suite(void)
     tcase_add_test(tc, test_sensitivity_batch);
     tcase_add_test(tc, test_binned_percentiles);
     tcase_add_test(tc, test_column_store);
+    tcase_add_test(tc, test_radix_sort);
     suite_add_tcase(s, tc);
     return s;
 }
