@@ -65,8 +65,13 @@ void sl_ens_hist_add(sl_ens_hist *h, const double *values)
             continue;
         h->count[k * (h->n_bins + 3) + slot_of(h, x)]++;
         h->n[k]++;
-        h->vmin[k] = fmin(h->vmin[k], x);
-        h->vmax[k] = fmax(h->vmax[k], x);
+        /* fmin and fmax for a finite X and bounds that are never NaN, as
+         * comparisons (gcc calls libm for fmin/fmax; this runs once per band
+         * and time of every member). */
+        if (x < h->vmin[k])
+            h->vmin[k] = x;
+        if (x > h->vmax[k])
+            h->vmax[k] = x;
     }
 }
 
