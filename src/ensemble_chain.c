@@ -405,10 +405,12 @@ static void extras(const sl_ens_chain *c, const sl_chain *ch, double *x)
     same = b->n_times == c->n_time && q0 > 0.0;
     for (size_t i = 0; i < c->n_time; i++)
         x[c->n_band + i] = same ? b->global_excess_kg[i] / q0 : NAN;
-    /* For the sweep's rows (sweep_rows.h): regime, e-folding extrapolated. */
+    /* For the sweep's rows (sweep_rows.h): regime, e-folding extrapolated,
+     * widest thermal. */
     x[c->n_band + c->n_time] = ch->have_plume ? (double)ch->plume.regime : -1.0;
     x[c->n_band + c->n_time + 1] = ch->have_strat_model && ch->strat.efolding_extrapolated &&
                                    b->initial_excess_kg > 0.0 && isfinite(b->efolding_s);
+    x[c->n_band + c->n_time + 2] = ch->have_plume ? ch->plume.widest_thermal : 0.0;
 }
 
 static int chain_member(void *ws, void *ctx, const sl_ens_plan *plan, const double *in_si,

@@ -4,6 +4,7 @@
  * scenario's [site] date, else nominal (2000-MM-01, MM the scenario's month
  * or January). */
 #include "steamloft/output_chain.h"
+#include "steamloft/output_text.h"
 
 #include "steamloft/date.h"
 #include "steamloft/units.h"
@@ -88,6 +89,11 @@ int sl_output_chain_init(sl_output_chain *oc, const sl_chain *ch, const sl_strat
                      "buoyant thermal; its water is shared between the thermal and a ballistic flight "
                      "that re-enters over a wide area: the roughest numbers of this tool",
                      sl_plume_regime_name(pl->regime), per);
+        } else if (pl->widest_thermal >= SL_PLUME_WIDE_SCALE_HEIGHTS) {
+            /* The same words as the text summary's and the JSON's validity. */
+            char brief[64];
+            sl_output_validity(1, pl->regime, pl->widest_thermal, 0, brief, sizeof brief, oc->regime_note,
+                               sizeof oc->regime_note);
         }
     }
 

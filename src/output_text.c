@@ -454,19 +454,25 @@ void sl_output_key_results(const sl_chain *ch, sl_key_results *k)
         k->efolding_extrapolated = st->efolding_extrapolated && isfinite(k->efolding_years);
         k->mean_residence_years = sl_s_to_years(st->mean_residence_s) + undefined;
     }
-    sl_output_validity(ch->have_plume, ch->have_plume ? (int)ch->plume.regime : -1, k->efolding_extrapolated,
-                       k->validity_short, sizeof k->validity_short, k->validity, sizeof k->validity);
+    sl_output_validity(ch->have_plume, ch->have_plume ? (int)ch->plume.regime : -1,
+                       ch->have_plume ? ch->plume.widest_thermal : 0.0, k->efolding_extrapolated, k->validity_short,
+                       sizeof k->validity_short, k->validity, sizeof k->validity);
 }
 
-void sl_output_validity(int have_plume, int regime, int efolding_extrapolated, char *short_text, size_t ns,
-                        char *text, size_t n)
+void sl_output_validity(int have_plume, int regime, double widest_thermal, int efolding_extrapolated,
+                        char *short_text, size_t ns, char *text, size_t n)
 {
-    /* Validity in a few words.  The plume stage's own validity line replaces
-     * this wording when it lands (one function, called here). */
+    /* A thermal-regime event whose widest thermal is several scale heights
+     * across at its apex: the sphere of the bulk-thermal picture then spans
+     * air of very different density, its top comes from the stratified-mass
+     * rule, and the explosion clouds of this width come out lower than the
+     * observed ones (docs/physics.md section 6). */
+    int strained = have_plume && regime == SL_REGIME_THERMAL && widest_thermal >= SL_PLUME_WIDE_SCALE_HEIGHTS;
     snprintf(short_text, ns, "%s",
              !have_plume ? "no plume"
              : regime == SL_REGIME_BALLISTIC ? "rough: ballistic"
-             : regime != SL_REGIME_THERMAL ? "rough: blow-out" : "thermal model");
+             : regime != SL_REGIME_THERMAL ? "rough: blow-out"
+             : strained ? "strained: wide thermal" : "thermal model");
     if (efolding_extrapolated)
         strncat(short_text, "; e-fold extrapolated", ns - strlen(short_text) - 1);
     if (have_plume && regime == SL_REGIME_BALLISTIC)
@@ -477,6 +483,12 @@ void sl_output_validity(int have_plume, int regime, int efolding_extrapolated, c
         snprintf(text, n,
                  "rough: blow-out, the release is larger than the scale height; its water is shared "
                  "between the thermal and the ballistic re-entry");
+    else if (strained)
+        snprintf(text, n,
+                 "strained: a thermal %.1f scale heights wide at its apex, where the bulk-thermal picture "
+                 "stretches; its top comes from the stratified-mass rule, and explosion clouds this wide "
+                 "come out lower than the observed ones",
+                 widest_thermal);
     else if (have_plume)
         snprintf(text, n, "within the thermal-plume model");
     else

@@ -127,7 +127,10 @@
  * its reach clipped at 120 km.  The regime of each source is in every
  * output, with a validity line; these numbers are the roughest of the tool.
  * Each thermal also reports its radius over the scale height at the apex:
- * near 1 for a 1-2 Mt cloud, 2.2 for 15 Mt, where the bulk thermal strains.
+ * near 1 for a 1-2 Mt cloud, 2.2 for 15 Mt, where the bulk thermal strains;
+ * from SL_PLUME_WIDE_SCALE_HEIGHTS (3.2 for 50 Mt) its top is capped (see
+ * sl_plume_rise) and the event's widest_thermal makes every output's
+ * validity line say "strained".
  *
  * Units: SI throughout (m, s, kg, J, K, Pa). */
 #include "steamloft/plume.h"
@@ -836,8 +839,6 @@ static void finish_budget(sl_plume_work *w, sl_thermal *out, const double *s, co
  * result does not depend on where the profile ends (atmosphere branch,
  * issue 12; the ballistic regime replaces this stop). */
 #define THERMAL_TOP_M 120000.0
-/* Cloud top of a wide thermal above its centre, in ambient scale heights (see sl_plume_rise). */
-#define TOP_SCALE_HEIGHTS 3.0
 
 /* ------------------------------------------------------------------ ballistic */
 
@@ -1150,9 +1151,9 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     /* Highest reach: apex + radius, but for a thermal wider than a few scale
      * heights the energetics: at its apex the gas has about the ambient
      * temperature, so its mass is stratified with the ambient scale height
-     * and only e^-3 = 5 % of it lies more than TOP_SCALE_HEIGHTS above the
+     * and only e^-3 = 5 % of it lies more than SL_PLUME_WIDE_SCALE_HEIGHTS above the
      * centre (PRACTICE, no source for the 5 %); the two agree at b = 3 H. */
-    out->top_altitude_m = d.z_m + fmin(d.radius_m, TOP_SCALE_HEIGHTS * out->apex_scale_height_m);
+    out->top_altitude_m = d.z_m + fmin(d.radius_m, SL_PLUME_WIDE_SCALE_HEIGHTS * out->apex_scale_height_m);
     finish_budget(w, out, w->y, &d);
     if (out->regime == SL_REGIME_BLOWOUT) {
         if (!have_neutral)
@@ -1242,6 +1243,7 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
     inj->tropopause_altitude_m = atm->tropopause_altitude_m;
     pl->n_thermals = 0;
     pl->regime = SL_REGIME_THERMAL;
+    pl->widest_thermal = 0.0;
     pl->plume_top_m = pl->cloud_bottom_m = pl->cloud_top_m = pl->neutral_altitude_m = NAN;
     pl->tropopause_altitude_m = atm->tropopause_altitude_m;
 #define SL_WATER_BUDGET_ZERO(name, sign, label) pl->name##_kg = 0.0;
@@ -1256,6 +1258,9 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
         pl->n_thermals++;
         if (th->regime > pl->regime)
             pl->regime = th->regime;
+        if (th->regime == SL_REGIME_THERMAL && th->apex_scale_height_m > 0.0 &&
+            th->apex_radius_m / th->apex_scale_height_m > pl->widest_thermal)
+            pl->widest_thermal = th->apex_radius_m / th->apex_scale_height_m;
         double water = th->vapor_kg + th->liquid_kg + th->ice_kg;
         if (!(pl->plume_top_m >= th->top_altitude_m))
             pl->plume_top_m = th->top_altitude_m;

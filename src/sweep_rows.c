@@ -202,8 +202,9 @@ int sl_sweep_rows_init(sl_sweep_rows *r, const sl_ens_plan *p, const sl_ens_mode
     r->status = calloc(n + 1, sizeof *r->status);
     r->regime = calloc(n + 1, sizeof *r->regime);
     r->extrapolated = calloc(n + 1, sizeof *r->extrapolated);
+    r->widest = calloc(n + 1, sizeof *r->widest);
     r->reason = calloc((n + 1) * SL_ENS_REASON_LEN, 1);
-    if (!r->in || !r->out || !r->status || !r->regime || !r->extrapolated || !r->reason) {
+    if (!r->in || !r->out || !r->status || !r->regime || !r->extrapolated || !r->widest || !r->reason) {
         sl_sweep_rows_free(r);
         SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory for the sweep's rows");
     }
@@ -225,6 +226,7 @@ void sl_sweep_rows_add(sl_sweep_rows *r, size_t m, const double *in, const doubl
     r->n_failed += !ok;
     r->regime[m] = ok && isfinite(tail[0]) ? (int)tail[0] : -1;
     r->extrapolated[m] = ok && tail[1] > 0.5;
+    r->widest[m] = ok && isfinite(tail[2]) ? tail[2] : 0.0;
     snprintf(r->reason + m * SL_ENS_REASON_LEN, SL_ENS_REASON_LEN, "%s", reason ? reason : "");
 }
 
@@ -237,6 +239,7 @@ void sl_sweep_rows_free(sl_sweep_rows *r)
     free(r->status);
     free(r->regime);
     free(r->extrapolated);
+    free(r->widest);
     free(r->reason);
     memset(r, 0, sizeof *r);
 }
@@ -288,7 +291,7 @@ int sl_sweep_rows_text(FILE *f, const char *scenario, const sl_ens_plan *p, cons
         for (int q = 0; q < SL_SWEEP_ROW_OUT; q++)
             sl_output_fmt3(v[q], sizeof v[q], r->out[mi * SL_SWEEP_ROW_OUT + (size_t)q]);
         int rg = r->regime[mi];
-        sl_output_validity(rg >= 0, rg, r->extrapolated[mi], vs, sizeof vs, vl, sizeof vl);
+        sl_output_validity(rg >= 0, rg, r->widest[mi], r->extrapolated[mi], vs, sizeof vs, vl, sizeof vl);
         fprintf(f, "%-8s %9s %11s %9s %9s  %s\n", rg >= 0 ? sl_plume_regime_name(rg) : "none", v[0], v[1], v[2],
                 v[3], vs);
     }
@@ -322,7 +325,7 @@ void sl_sweep_rows_json(sl_report *rep, const sl_ens_plan *p, const sl_sweep_row
         }
         int rg = r->regime[mi];
         char vs[64], vl[256];
-        sl_output_validity(rg >= 0, rg, r->extrapolated[mi], vs, sizeof vs, vl, sizeof vl);
+        sl_output_validity(rg >= 0, rg, r->widest[mi], r->extrapolated[mi], vs, sizeof vs, vl, sizeof vl);
         sl_report_string(rep, "regime", rg >= 0 ? sl_plume_regime_name(rg) : "none", "");
         for (int q = 0; q < SL_SWEEP_ROW_OUT; q++)
             sl_report_number(rep, row_outputs[q], r->out[mi * SL_SWEEP_ROW_OUT + (size_t)q], "", 1, "");

@@ -104,11 +104,13 @@ void sl_output_key_results(const sl_chain *ch, sl_key_results *k);
 const char *sl_output_source_kind_name(sl_source_kind k);
 
 /* The validity wording of sl_key_results from the plume regime (REGIME an
- * sl_plume_regime, ignored without a plume) and whether the e-folding time
- * was extrapolated: a few words (SHORT_TEXT) and in full (TEXT).  Also used
- * for the rows of a sweep. */
-void sl_output_validity(int have_plume, int regime, int efolding_extrapolated, char *short_text, size_t ns,
-                        char *text, size_t n);
+ * sl_plume_regime, ignored without a plume), the widest thermal-regime
+ * source in apex scale heights (sl_plume.widest_thermal: strained from
+ * SL_PLUME_WIDE_SCALE_HEIGHTS) and whether the e-folding time was
+ * extrapolated: a few words (SHORT_TEXT) and in full (TEXT).  Also used for
+ * the rows of a sweep and for the validity note of CSV, netCDF and plots. */
+void sl_output_validity(int have_plume, int regime, double widest_thermal, int efolding_extrapolated,
+                        char *short_text, size_t ns, char *text, size_t n);
 
 /* The summary of a finished chain.  Text: it opens with the answer (water
  * above the tropopause, share of the background, e-folding time, regime,

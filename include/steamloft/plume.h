@@ -89,6 +89,13 @@ const char *sl_plume_regime_name(int regime);
 /* The names of the codes 0, 1, 2 in order, blank-separated (CF flag_meanings). */
 #define SL_PLUME_REGIME_FLAG_MEANINGS "thermal blow-out ballistic"
 
+/* Scale heights (p/(rho g) at the apex) of a thermal's apex radius from which
+ * its top is the apex plus this many scale heights rather than plus its
+ * radius (plume.c, sl_plume_rise: its gas is stratified like the air, e^-3 of
+ * its mass lies higher) and the outputs' validity line calls the thermal
+ * strained (docs/physics.md section 6; PRACTICE). */
+#define SL_PLUME_WIDE_SCALE_HEIGHTS 3.0
+
 /* The rise of one source. */
 typedef struct sl_thermal {
     int regime;                    /* sl_plume_regime */
@@ -132,6 +139,10 @@ typedef struct sl_plume {
     sl_thermal th[SL_MAX_SOURCES];
     /* Whole event (all sources). */
     int regime;                    /* the highest regime of its sources */
+    double widest_thermal;         /* the largest apex_radius_m / apex_scale_height_m of its
+                                    * thermal-regime sources (0 if none): from
+                                    * SL_PLUME_WIDE_SCALE_HEIGHTS the validity line says the
+                                    * bulk-thermal picture is strained */
     double plume_top_m;            /* highest thermal top */
     double cloud_bottom_m, cloud_top_m; /* envelope of the clouds */
     double neutral_altitude_m;     /* of the source carrying the most water to its apex */

@@ -23,7 +23,7 @@
 
 #include <stdio.h>
 
-enum { SL_SWEEP_MAX_ROWS = 200, SL_SWEEP_ROW_EXTRAS = 2 };
+enum { SL_SWEEP_MAX_ROWS = 200, SL_SWEEP_ROW_EXTRAS = 3 };
 
 /* Add a text grid input for scenario key ID (KEY its "section.key") from
  * VALUES "V1,V2,..." (blanks around a value trimmed) to the plan: IDS[the new
@@ -62,6 +62,7 @@ typedef struct sl_sweep_rows {
     int *status;
     int *regime;      /* sl_plume_regime, -1 without a plume or for a failed member */
     int *extrapolated;
+    double *widest;   /* sl_plume.widest_thermal, 0 without a plume or for a failed member */
     char *reason;     /* n x SL_ENS_REASON_LEN */
 } sl_sweep_rows;
 
@@ -69,7 +70,8 @@ typedef struct sl_sweep_rows {
  * SL_ENOMEM. */
 int sl_sweep_rows_init(sl_sweep_rows *r, const sl_ens_plan *p, const sl_ens_model *m, sl_err *e);
 /* Member M's row: its inputs, outputs, the extras' last SL_SWEEP_ROW_EXTRAS
- * values (TAIL: regime code, e-folding extrapolated), status and reason. */
+ * values (TAIL: regime code, e-folding extrapolated, widest thermal), status
+ * and reason. */
 void sl_sweep_rows_add(sl_sweep_rows *r, size_t m, const double *in, const double *out, const double *tail,
                        int status, const char *reason);
 void sl_sweep_rows_free(sl_sweep_rows *r);

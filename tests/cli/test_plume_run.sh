@@ -63,6 +63,36 @@ print("# 15 Mt: top %.1f km, sea water vaporised %.3g Tg" % (d["cloud_top_m"] / 
 PY
 then sl_ok "BRAVO cloud top within 15 %, sea water vaporised"; else sl_fail "BRAVO cloud top or sea water"; fi
 
+# The validity line of a thermal that is wide at its apex (include/steamloft/plume.h,
+# SL_PLUME_WIDE_SCALE_HEIGHTS = 3; docs/physics.md section 6): NECTAR (about 1.2 scale heights)
+# is within the thermal model; a 50 Mt surface burst (about 3.2) is strained, in the same words in
+# the text summary, the JSON, the CSV headers and the netCDF attribute.
+if /usr/bin/python3 - "$SL_TMP/nectar.json" <<'PY'
+import json, sys
+d = json.load(open(sys.argv[1]))
+r = max(t["apex_radius_to_scale_height"] for t in d["thermals"])
+assert r < 3 and d["validity"] == "within the thermal-plume model", (r, d["validity"])
+PY
+then sl_ok "NECTAR: within the thermal model"; else sl_fail "NECTAR validity"; fi
+printf '[explosion]\nenergy_Mt = 50\naltitude_m = 0\n[site]\nlatitude_deg = 11.7\natmosphere = tropical\n' >"$SL_TMP/y50.ini"
+sl_expect_exit 0 "run a 50 Mt surface burst" "$SL_BIN" --force run --json "$SL_TMP/y50.ini" -o "$SL_TMP/y50.nc" --csv "$SL_TMP/y50csv"
+cp "$SL_TMP/out" "$SL_TMP/y50.json"
+sl_expect_exit 0 "50 Mt text summary" "$SL_BIN" run "$SL_TMP/y50.ini"
+if /usr/bin/python3 - "$SL_TMP/y50.json" "$SL_TMP/out" "$SL_TMP/y50.nc" "$SL_TMP/y50csv" <<'PY'
+import glob, json, subprocess, sys
+d = json.load(open(sys.argv[1]))
+r = max(t["apex_radius_to_scale_height"] for t in d["thermals"] if t["regime"] == "thermal")
+v = d["validity"]
+assert d["regime"] == "thermal" and r >= 3 and v.startswith("strained: a thermal %.1f scale heights" % r), (r, v)
+text = open(sys.argv[2]).read()
+assert ("validity" in text) and (v in " ".join(text.split())), "text summary lacks the validity line"
+nc = subprocess.run(["ncdump", "-h", sys.argv[3]], capture_output=True, text=True, check=True).stdout
+assert 'validity_warning = "%s"' % v in nc, "netCDF validity_warning differs"
+csvs = glob.glob(sys.argv[4] + "/*.csv")
+assert csvs and all("# validity: " + v in open(f).read() for f in csvs), "a CSV header lacks the validity"
+PY
+then sl_ok "50 Mt: strained validity, one wording in text, JSON, CSV and netCDF"; else sl_fail "50 Mt strained validity"; fi
+
 # A wider entrainment makes a lower cloud (MTT: z_max ~ alpha^-3/4).
 printf '[plume]\nentrainment_coefficient = 0.35\n' >>"$SL_TMP/nectar.ini"
 sl_expect_exit 0 "run with alpha 0.35" "$SL_BIN" run --json "$SL_TMP/nectar.ini"
