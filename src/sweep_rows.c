@@ -287,7 +287,7 @@ int sl_sweep_rows_text(FILE *f, const char *scenario, const sl_ens_plan *p, cons
             fprintf(f, "%-8s %s\n", "FAILED", r->reason + mi * SL_ENS_REASON_LEN);
             continue;
         }
-        char v[SL_SWEEP_ROW_OUT][32], vs[64], vl[256];
+        char v[SL_SWEEP_ROW_OUT][32], vs[64], vl[320];
         for (int q = 0; q < SL_SWEEP_ROW_OUT; q++)
             sl_output_fmt3(v[q], sizeof v[q], r->out[mi * SL_SWEEP_ROW_OUT + (size_t)q]);
         int rg = r->regime[mi];
@@ -324,7 +324,7 @@ void sl_sweep_rows_json(sl_report *rep, const sl_ens_plan *p, const sl_sweep_row
             continue;
         }
         int rg = r->regime[mi];
-        char vs[64], vl[256];
+        char vs[64], vl[320];
         sl_output_validity(rg >= 0, rg, r->widest[mi], r->extrapolated[mi], vs, sizeof vs, vl, sizeof vl);
         sl_report_string(rep, "regime", rg >= 0 ? sl_plume_regime_name(rg) : "none", "");
         for (int q = 0; q < SL_SWEEP_ROW_OUT; q++)

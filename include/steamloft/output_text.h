@@ -92,7 +92,7 @@ typedef struct sl_key_results {
     double efolding_years;       /* efolding_years (NaN when nothing entered) */
     int efolding_extrapolated;   /* efolding_extrapolated */
     double mean_residence_years; /* mean_residence_years */
-    char validity[256];          /* validity: how far to trust the numbers, in words */
+    char validity[320];          /* validity: how far to trust the numbers, in words */
     char validity_short[64];     /* the same in a few words, for tables */
 } sl_key_results;
 
