@@ -804,10 +804,10 @@ static void steffen_coefficients(const double *x, const double *y, size_t n, dou
     }
 }
 
-static void eval_tpx(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur, double *t, double *lp, double *x,
-                     double *mr, double *dtdz);
+static inline void eval_tpx(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur, double *t, double *lp,
+                            double *x, double *mr, double *dtdz);
 static double moist_density(double p, double t, double x, double mr);
-static size_t find_interval(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur);
+static inline size_t find_interval(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur);
 
 /* The integrals of rho and z rho over [Z0, Z1] inside one level interval
  * (where the interpolants are cubics and the density smooth) and at most
@@ -1353,18 +1353,14 @@ int sl_atmosphere_init(sl_atmosphere *atm, const char *name_or_path, sl_err *e)
 /* ---- queries ------------------------------------------------------------ */
 
 /* Index i of the level interval holding Z (z_i <= Z < z_(i+1); the top level
- * belongs to the last interval), the interval gsl_interp_bsearch finds: the
- * cursor's interval if it still holds Z, else a walk up from the look-up
- * table's cell.  Z is inside the profile (check_query). */
-static size_t find_interval(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur)
+ * belongs to the last interval), the interval gsl_interp_bsearch finds,
+ * when the cursor's interval does not hold Z: a walk up from the look-up
+ * table's cell.  Z is inside the profile (check_query).  Out of line, so the
+ * cursor's test below stays small enough to be inlined into every query. */
+static size_t find_interval_walk(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur)
 {
     const double *za = atm->altitude_m;
     const size_t n = atm->n;
-    if (cur) {
-        const size_t i = cur->interval;
-        if (i + 1 < n && z >= za[i] && (z < za[i + 1] || i + 2 == n))
-            return i;
-    }
     const struct sl_atmosphere_splines *sp = atm->sp;
     size_t k = (size_t)((z - za[0]) * sp->lut_inv_dz_m);
     if (k > sp->n_lut)
@@ -1380,20 +1376,40 @@ static size_t find_interval(const sl_atmosphere *atm, double z, sl_atmos_cursor 
     return i;
 }
 
-static int check_query(const sl_atmosphere *atm, double altitude_m, sl_err *e)
+/* The same interval: the cursor's if it still holds Z, else the walk. */
+static inline size_t find_interval(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur)
+{
+    if (cur) {
+        const double *za = atm->altitude_m;
+        const size_t n = atm->n, i = cur->interval;
+        if (i + 1 < n && z >= za[i] && (z < za[i + 1] || i + 2 == n))
+            return i;
+    }
+    return find_interval_walk(atm, z, cur);
+}
+
+/* The messages of check_query, out of line (never taken in a good run). */
+static int query_failed(const sl_atmosphere *atm, double altitude_m, sl_err *e)
 {
     if (!atm || !atm->sp || !atm->sp->coef || atm->n < 3)
         SL_FAIL_RETURN(e, SL_EINTERNAL, "atmosphere query: profile not initialised");
     const double *za = atm->altitude_m;
-    if (!(altitude_m >= za[0] && altitude_m <= za[atm->n - 1]))
-        SL_FAIL_RETURN(e, SL_EDATA, "altitude %.6g m is outside atmosphere profile '%s' (%.6g to %.6g m)",
-                       altitude_m, atm->name, za[0], za[atm->n - 1]);
-    return SL_OK;
+    SL_FAIL_RETURN(e, SL_EDATA, "altitude %.6g m is outside atmosphere profile '%s' (%.6g to %.6g m)",
+                   altitude_m, atm->name, za[0], za[atm->n - 1]);
 }
 
-/* Interpolated T, ln p and x (and dT/dz when DTDZ is not NULL) at Z. */
-static void eval_tpx(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur, double *t, double *lp, double *x,
-                     double *mr, double *dtdz)
+static inline int check_query(const sl_atmosphere *atm, double altitude_m, sl_err *e)
+{
+    if (atm && atm->sp && atm->sp->coef && atm->n >= 3 && altitude_m >= atm->altitude_m[0] &&
+        altitude_m <= atm->altitude_m[atm->n - 1])
+        return SL_OK;
+    return query_failed(atm, altitude_m, e);
+}
+
+/* Interpolated T, ln p and x (and dT/dz when DTDZ is not NULL) at Z;
+ * inline, so the density-only query computes no dT/dz. */
+static inline void eval_tpx(const sl_atmosphere *atm, double z, sl_atmos_cursor *cur, double *t, double *lp,
+                            double *x, double *mr, double *dtdz)
 {
     const size_t i = find_interval(atm, z, cur);
     const double dz = z - atm->altitude_m[i];
