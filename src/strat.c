@@ -187,6 +187,13 @@ static const int arctic_months[12] = {1, 1, 0, 0, 0, 0, 0, 0, 0, 0, 0, 1};
 
 static double mass_ratio(void) { return SL_MOLAR_MASS_H2O_KG_MOL / SL_MOLAR_MASS_DRY_AIR_KG_MOL; }
 
+/* fmax and fmin of the C library, inline for the loops over the output rows
+ * (gcc -O2 calls libm for them on x86-64): the same result for every pair of
+ * arguments, the one that is not NaN when the other is, the second when they
+ * compare equal (so +0 and -0 come out as from glibc). */
+static inline double max_of(double x, double y) { return x > y || y != y ? x : y; }
+static inline double min_of(double x, double y) { return x < y || y != y ? x : y; }
+
 /* Share of a hemisphere's extratropics poleward of LAT_DEG. */
 static double polar_cap_fraction(double lat_deg, double edge_deg)
 {
@@ -1056,8 +1063,10 @@ int sl_strat_result_init(sl_strat_result *r, const sl_strat_model *m, sl_err *e)
 
 /* ------------------------------------------------------------------ run */
 
-/* Area of the young cloud at time T (see the header comment). */
-static double cloud_area(const sl_strat_params *p, double a0, double lat_deg, double region_area, double t_s)
+/* Area of the young cloud A0 at latitude LAT_DEG once it has spread round
+ * the latitude circle (see the header comment): once per run, not at every
+ * output time (a cosine and a square root). */
+static double zonal_area(double a0, double lat_deg, double region_area)
 {
     double width = sqrt(a0);
     double circle = 2.0 * SL_PI * SL_EARTH_MEAN_RADIUS_M * cos(sl_deg_to_rad(lat_deg));
@@ -1066,6 +1075,13 @@ static double cloud_area(const sl_strat_params *p, double a0, double lat_deg, do
         a_zonal = a0;
     if (a_zonal > region_area)
         a_zonal = region_area;
+    return a_zonal;
+}
+
+/* Area of the young cloud at time T (see the header comment); A_ZONAL from
+ * zonal_area. */
+static double cloud_area(const sl_strat_params *p, double a0, double a_zonal, double region_area, double t_s)
+{
     if (t_s <= p->zonal_spread_time_s)
         return a0 + (a_zonal - a0) * t_s / p->zonal_spread_time_s;
     if (t_s <= p->region_spread_time_s)
@@ -1139,9 +1155,10 @@ static void cold_point_clip(const sl_strat_model *m, double *y)
 }
 
 /* The global series of row I from the excess Q (kg), the forcing F (W m-2)
- * and the excess per region COL (kg). */
+ * and the excess per region COL (kg); the young cloud of area A0 (zonal area
+ * A_ZONAL) in region CLOUD_REGION. */
 static void record_series(const sl_strat_model *m, sl_strat_result *r, size_t i, double t_s, double q, double f,
-                          const double col[SL_STRAT_N_REGIONS], double a0, double lat_deg, int cloud_region)
+                          const double col[SL_STRAT_N_REGIONS], double a0, double a_zonal, int cloud_region)
 {
     r->time_s[i] = t_s;
     r->global_excess_kg[i] = q;
@@ -1151,14 +1168,14 @@ static void record_series(const sl_strat_model *m, sl_strat_result *r, size_t i,
     r->forcing_W_m2[i] = f;
     double local = 0.0;
     for (int g = 0; g < SL_STRAT_N_REGIONS; g++)
-        local = fmax(local, col[g] / m->region_area_m2[g]);
+        local = max_of(local, col[g] / m->region_area_m2[g]);
     if (a0 > 0.0 && t_s < m->par.region_spread_time_s)
-        local = fmax(local, q / cloud_area(&m->par, a0, lat_deg, m->region_area_m2[cloud_region], t_s));
+        local = max_of(local, q / cloud_area(&m->par, a0, a_zonal, m->region_area_m2[cloud_region], t_s));
     r->local_column_kg_m2[i] = local;
 }
 
 static void record(const sl_strat_model *m, sl_strat_result *r, size_t i, double t_s, const double *y, double a0,
-                   double lat_deg, int cloud_region)
+                   double a_zonal, int cloud_region)
 {
     size_t nb = m->n_boxes;
     double q = 0.0, f = 0.0;
@@ -1180,7 +1197,7 @@ static void record(const sl_strat_model *m, sl_strat_result *r, size_t i, double
             }
         r->layer_anomaly_mole_fraction[i * m->n_layers + k] = qk / (mk * mass_ratio());
     }
-    record_series(m, r, i, t_s, q, f, col, a0, lat_deg, cloud_region);
+    record_series(m, r, i, t_s, q, f, col, a0, a_zonal, cloud_region);
 }
 
 /* Q at time T by log-linear interpolation of the global excess (n points). */
@@ -1353,8 +1370,8 @@ int sl_strat_run(const sl_strat_model *m, const sl_injection *inj, sl_strat_resu
 
 /* The scalar results from the recorded series (global excess, percent of
  * background, columns, forcing) of R, for an initial excess Q0 (kg) and the
- * young cloud (area A0, latitude, region). */
-static void series_scalars(const sl_strat_model *m, sl_strat_result *r, double q0, double a0, double lat_deg,
+ * young cloud (area A0, zonal area A_ZONAL, region). */
+static void series_scalars(const sl_strat_model *m, sl_strat_result *r, double q0, double a0, double a_zonal,
                            int rc_cloud)
 {
     const sl_strat_params *p = &m->par;
@@ -1397,20 +1414,21 @@ static void series_scalars(const sl_strat_model *m, sl_strat_result *r, double q
     r->percent_of_background_peak = r->peak_global_anomaly_mole_fraction = 0.0;
     r->peak_global_column_kg_m2 = r->peak_local_column_kg_m2 = r->forcing_indicator_W_m2 = 0.0;
     for (size_t i = 0; i < no; i++) {
-        r->percent_of_background_peak = fmax(r->percent_of_background_peak, r->percent_of_background[i]);
-        r->peak_global_anomaly_mole_fraction = fmax(r->peak_global_anomaly_mole_fraction, r->global_anomaly_mole_fraction[i]);
-        r->peak_global_column_kg_m2 = fmax(r->peak_global_column_kg_m2, r->global_column_kg_m2[i]);
-        r->peak_local_column_kg_m2 = fmax(r->peak_local_column_kg_m2, r->local_column_kg_m2[i]);
-        r->forcing_indicator_W_m2 = fmax(r->forcing_indicator_W_m2, r->forcing_W_m2[i]);
+        r->percent_of_background_peak = max_of(r->percent_of_background_peak, r->percent_of_background[i]);
+        r->peak_global_anomaly_mole_fraction =
+            max_of(r->peak_global_anomaly_mole_fraction, r->global_anomaly_mole_fraction[i]);
+        r->peak_global_column_kg_m2 = max_of(r->peak_global_column_kg_m2, r->global_column_kg_m2[i]);
+        r->peak_local_column_kg_m2 = max_of(r->peak_local_column_kg_m2, r->local_column_kg_m2[i]);
+        r->forcing_indicator_W_m2 = max_of(r->forcing_indicator_W_m2, r->forcing_W_m2[i]);
     }
     /* Early phase, daily. */
     for (size_t i = 0; i < r->n_early; i++) {
         double t = (double)i * SL_S_PER_DAY;
-        double a = a0 > 0.0 ? cloud_area(p, a0, lat_deg, m->region_area_m2[rc_cloud], t) : SL_EARTH_AREA_M2;
+        double a = a0 > 0.0 ? cloud_area(p, a0, a_zonal, m->region_area_m2[rc_cloud], t) : SL_EARTH_AREA_M2;
         r->early_time_s[i] = t;
         r->early_area_m2[i] = a;
         r->early_column_kg_m2[i] = excess_at(r, nr, t) / a;
-        r->peak_local_column_kg_m2 = fmax(r->peak_local_column_kg_m2, r->early_column_kg_m2[i]);
+        r->peak_local_column_kg_m2 = max_of(r->peak_local_column_kg_m2, r->early_column_kg_m2[i]);
     }
 }
 
@@ -1421,6 +1439,7 @@ static int integrate(const sl_strat_model *m, sl_strat_result *r, double a0, dou
     const sl_strat_params *p = &m->par;
     size_t nb = m->n_boxes, n = m->n_aug;
     double *y = r->work, *y2 = r->work + n;
+    const double a_zonal = zonal_area(a0, lat_deg, m->region_area_m2[rc_cloud]);
     cold_point_clip(m, y);
     double injected = 0.0;
     for (size_t j = 0; j < n; j++)
@@ -1434,7 +1453,7 @@ static int integrate(const sl_strat_model *m, sl_strat_result *r, double a0, dou
     /* Integrate. */
     double h = m->internal_step_s;
     double worst = 0.0;
-    record(m, r, 0, 0.0, y, a0, lat_deg, rc_cloud);
+    record(m, r, 0, 0.0, y, a0, a_zonal, rc_cloud);
     /* Nothing above the tropopause (no water entered): the state stays zero,
      * so the propagator products are skipped (0 * P = 0 exactly). */
     int empty = injected == 0.0;
@@ -1447,7 +1466,7 @@ static int integrate(const sl_strat_model *m, sl_strat_result *r, double a0, dou
             y2 = tmp;
             cold_point_clip(m, y);
         }
-        record(m, r, i, (double)i * p->step_s, y, a0, lat_deg, rc_cloud);
+        record(m, r, i, (double)i * p->step_s, y, a0, a_zonal, rc_cloud);
         double tot = 0.0;
         for (size_t j = 0; j < n; j++) {
             if (y[j] < 0.0)
@@ -1455,14 +1474,14 @@ static int integrate(const sl_strat_model *m, sl_strat_result *r, double a0, dou
             tot += y[j];
         }
         if (injected > 0.0)
-            worst = fmax(worst, fabs(tot - injected) / injected);
+            worst = max_of(worst, fabs(tot - injected) / injected);
     }
     r->budget_max_rel_error = worst;
     /* Conservation to rounding: 1e-12 allows ~1e4 roundings of 1e-16 (PRACTICE). */
     if (worst > 1e-12)
         SL_FAIL_RETURN(e, SL_EINTERNAL, "strat: mass budget off by %.3g of the injection", worst);
 
-    series_scalars(m, r, q0, a0, lat_deg, rc_cloud);
+    series_scalars(m, r, q0, a0, a_zonal, rc_cloud);
     return SL_OK;
 }
 
@@ -1574,6 +1593,17 @@ int sl_strat_response_init(sl_strat_response *rs, const sl_strat_model *m, sl_er
     return SL_OK;
 }
 
+/* OUT += A COL over 2 PAIRS values: restrict and of even length, so gcc -O2
+ * turns it into packed two-lane arithmetic (the same operations per
+ * element, the same bits; a trip count it cannot tell is even keeps it
+ * scalar). */
+static void add_scaled(size_t pairs, double *restrict out, const double *restrict col, double a)
+{
+    for (size_t k = 0; k < 2 * pairs; k++)
+        out[k] += col[k] * a;
+}
+_Static_assert(RESP_ROWS % 2 == 0, "add_scaled runs over pairs of the response's rows");
+
 static double dot(const double *restrict a, const double *restrict b, size_t n)
 {
     double s = 0.0;
@@ -1636,10 +1666,9 @@ int sl_strat_run_linear(const sl_strat_model *m, const sl_strat_response *rs, co
         const double yb = y[b];
         if (yb == 0.0)
             continue;
-        const double *restrict col = rs->rows + b * nk;
-        for (size_t k = 0; k < nk; k++)
-            out[k] += col[k] * yb;
+        add_scaled(m->n_run * (RESP_ROWS / 2), out, rs->rows + b * nk, yb);
     }
+    const double a_zonal = zonal_area(a0, inj->latitude_deg, m->region_area_m2[rc_cloud]);
     for (size_t i = 0; i < m->n_run; i++) {
         const double *row = out + i * RESP_ROWS;
         double q = i == 0 ? q0 : row[RESP_EXCESS];
@@ -1648,13 +1677,13 @@ int sl_strat_run_linear(const sl_strat_model *m, const sl_strat_response *rs, co
         for (int g = 0; g < SL_STRAT_N_REGIONS; g++)
             col[g] = row[RESP_REGION0 + (size_t)g];
         double tot = row[RESP_TOTAL] + sinks0;
-        record_series(m, r, i, (double)i * m->par.step_s, q, f, col, a0, inj->latitude_deg, rc_cloud);
-        worst = fmax(worst, fabs(tot - injected) / injected);
+        record_series(m, r, i, (double)i * m->par.step_s, q, f, col, a0, a_zonal, rc_cloud);
+        worst = max_of(worst, fabs(tot - injected) / injected);
     }
     r->budget_max_rel_error = worst;
     if (worst > 1e-12)
         SL_FAIL_RETURN(e, SL_EINTERNAL, "strat: mass budget off by %.3g of the injection", worst);
-    series_scalars(m, r, q0, a0, inj->latitude_deg, rc_cloud);
+    series_scalars(m, r, q0, a0, a_zonal, rc_cloud);
     r->has_detail = 0;
     return SL_OK;
 }
