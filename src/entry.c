@@ -111,6 +111,14 @@ static const long max_steps = 2000000;
 /* Stefan-Boltzmann constant, W m-2 K-4 (CODATA 2018, exact in the SI). */
 static const double stefan_boltzmann = 5.670374419e-8;
 
+/* fmax and fmin of the C library, inline for the right-hand side and the
+ * deposit on every step (gcc -O2 calls libm for them on x86-64): the same
+ * result for every pair of arguments, the one that is not NaN when the other
+ * is, the second when they compare equal (so +0 and -0 come out as from
+ * glibc). */
+static inline double max_of(double x, double y) { return x > y || y != y ? x : y; }
+static inline double min_of(double x, double y) { return x < y || y != y ? x : y; }
+
 struct sl_entry_work {
     sl_ode *ode;                  /* the ODE-with-events layer (ode.h) */
 };
@@ -129,6 +137,11 @@ typedef struct rhs_ctx {
     double ablation_k;            /* C_H / (2 Q) */
     double flux_cap_kg_s3;        /* sigma T_r^4 / Q: the ablation flux limit, kg/(m2 s) */
     double scale[NY];             /* the solver integrates y[i] / scale[i] */
+    /* The density of the last right-hand side: the break-up event at the end
+     * of a step is evaluated at the state whose derivative was just taken
+     * (the last stage of the stepper), so its density is known (the query
+     * is a function of the altitude alone). */
+    double last_h_m, last_rho_kg_m3;
 } rhs_ctx;
 
 /* A group waiting to be flown: its state where it formed. */
@@ -176,6 +189,8 @@ static int rhs(double t, const double y[], double f[], void *params)
     int st = air_density(c, h, &rho);
     if (st != GSL_SUCCESS)
         return st;
+    c->last_h_m = h;
+    c->last_rho_kg_m3 = rho;
     double Rh = c->R_m + h;
     double g = c->g0_m_s2 > 0 ? c->g0_m_s2 * (c->R_m / Rh) * (c->R_m / Rh) : 0.0;
     double area = SL_PI * r * r;
@@ -183,7 +198,7 @@ static int rhs(double t, const double y[], double f[], void *params)
     double sg = sin(gam), cg = cos(gam);
     /* Heat flux to the surface: C_H of the air's energy flux, at most the
      * black-body flux of the shock layer (the large-body limit). */
-    double flux = fmin(c->ablation_k * rho * v * v * v, c->flux_cap_kg_s3);
+    double flux = min_of(c->ablation_k * rho * v * v * v, c->flux_cap_kg_s3);
     double dm = -flux * area;
 
     f[Y_V] = -drag / m + g * sg;
@@ -204,30 +219,43 @@ static int rhs(double t, const double y[], double f[], void *params)
     return GSL_SUCCESS;
 }
 
+/* Y = YS times the scales, YS = Y over them: restrict and NY (even) long,
+ * so gcc -O2 vectorises them (the same products and quotients, the same
+ * bits); through the rhs_ctx pointer it could not rule out that the output
+ * overlaps the scales and kept them scalar. */
+_Static_assert(NY % 2 == 0, "the scaling loops run in pairs");
+static void times_scale(const double *restrict scale, const double *restrict ys, double *restrict y)
+{
+    for (int i = 0; i < NY; i++)
+        y[i] = ys[i] * scale[i];
+}
+
+static void over_scale(const double *restrict scale, const double *restrict y, double *restrict ys)
+{
+    for (int i = 0; i < NY; i++)
+        ys[i] = y[i] / scale[i];
+}
+
 /* The solver sees every variable divided by its natural size, so one error
  * control with absolute and relative tolerance tol fits all of them. */
 static int rhs_scaled(double t, const double ys[], double fs[], void *params)
 {
     rhs_ctx *c = params;
     double y[NY], f[NY];
-    for (int i = 0; i < NY; i++)
-        y[i] = ys[i] * c->scale[i];
+    times_scale(c->scale, ys, y);
     int st = rhs(t, y, f, params);
-    for (int i = 0; i < NY; i++)
-        fs[i] = f[i] / c->scale[i];
+    over_scale(c->scale, f, fs);
     return st;
 }
 
 static void to_scaled(const rhs_ctx *c, const double y[], double ys[])
 {
-    for (int i = 0; i < NY; i++)
-        ys[i] = y[i] / c->scale[i];
+    over_scale(c->scale, y, ys);
 }
 
 static void from_scaled(const rhs_ctx *c, const double ys[], double y[])
 {
-    for (int i = 0; i < NY; i++)
-        y[i] = ys[i] * c->scale[i];
+    times_scale(c->scale, ys, y);
 }
 
 /* Event functions: positive before the event, crossing zero at it. */
@@ -239,8 +267,8 @@ static int event_value(rhs_ctx *c, int ev, const double y[], double *out)
             *out = 1.0;
             return GSL_SUCCESS;
         }
-        double rho;
-        if (air_density(c, y[Y_H], &rho) != GSL_SUCCESS)
+        double rho = c->last_rho_kg_m3;
+        if (y[Y_H] != c->last_h_m && air_density(c, y[Y_H], &rho) != GSL_SUCCESS)
             return GSL_EBADFUNC;
         *out = (c->strength_Pa - rho * y[Y_V] * y[Y_V]) / c->strength_Pa;
         return GSL_SUCCESS;
@@ -379,12 +407,12 @@ static void deposit_profile(sl_entry *en, double h0, double h1, double de, const
     if (de == 0.0)
         return;
     double w = en->band_width_m, top = w * (double)en->n_bands;
-    double lo = fmin(fmax(fmin(h0, h1), 0.0), top), hi = fmin(fmax(fmax(h0, h1), 0.0), top);
+    double lo = min_of(max_of(min_of(h0, h1), 0.0), top), hi = min_of(max_of(max_of(h0, h1), 0.0), top);
     double span = h1 - h0, done = 0.0;
     if (fabs(span) > 1e-9 * w && hi > lo) {
         size_t i0 = band_of(en, lo), i1 = band_of(en, hi);
         for (size_t i = i0; i <= i1; i++) {
-            double b = fmax(lo, (double)i * w), t = fmin(hi, (double)(i + 1) * w);
+            double b = max_of(lo, (double)i * w), t = min_of(hi, (double)(i + 1) * w);
             if (!(t > b))
                 continue;
             double sb = (b - h0) / span, st = (t - h0) / span;
@@ -852,7 +880,7 @@ int sl_entry_solve(sl_entry *en, const sl_entry_params *p, const sl_entry_air *a
     memset(&s, 0, sizeof s);
     s.en = en;
     s.p = p;
-    s.c = (rhs_ctx){.p = p, .air = air, .e = e, .phase = PHASE_INTACT, .air_failed = 0,
+    s.c = (rhs_ctx){.p = p, .air = air, .e = e, .phase = PHASE_INTACT, .air_failed = 0, .last_h_m = NAN,
                     .R_m = p->flat_no_gravity ? INFINITY : SL_EARTH_MEAN_RADIUS_M,
                     .g0_m_s2 = p->flat_no_gravity ? 0.0 : SL_USSA_G0_M_S2,
                     .ablation_k = p->heat_transfer_coefficient / (2.0 * p->heat_of_ablation_J_kg),
