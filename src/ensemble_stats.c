@@ -1,6 +1,7 @@
 /* ensemble_stats: binned percentiles of per-member series (see the
  * sl_ens_hist part of include/steamloft/ensemble.h). */
 #include "steamloft/ensemble.h"
+#include "steamloft/minmax.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -65,13 +66,9 @@ void sl_ens_hist_add(sl_ens_hist *h, const double *values)
             continue;
         h->count[k * (h->n_bins + 3) + slot_of(h, x)]++;
         h->n[k]++;
-        /* fmin and fmax for a finite X and bounds that are never NaN, as
-         * comparisons (gcc calls libm for fmin/fmax; this runs once per band
-         * and time of every member). */
-        if (x < h->vmin[k])
-            h->vmin[k] = x;
-        if (x > h->vmax[k])
-            h->vmax[k] = x;
+        /* Inline (minmax.h): this runs once per band and time of every member. */
+        h->vmin[k] = sl_min(h->vmin[k], x);
+        h->vmax[k] = sl_max(h->vmax[k], x);
     }
 }
 

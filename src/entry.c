@@ -82,6 +82,7 @@
  * is an independent check of the solution.  The workspace is allocated once
  * and reused; nothing is allocated per step or per group. */
 #include "steamloft/entry.h"
+#include "steamloft/minmax.h"
 #include "steamloft/ode.h"
 #include "steamloft/units.h"
 
@@ -110,14 +111,6 @@ static const double leave_margin_m = 1000.0;
 static const long max_steps = 2000000;
 /* Stefan-Boltzmann constant, W m-2 K-4 (CODATA 2018, exact in the SI). */
 static const double stefan_boltzmann = 5.670374419e-8;
-
-/* fmax and fmin of the C library, inline for the right-hand side and the
- * deposit on every step (gcc -O2 calls libm for them on x86-64): the same
- * result for every pair of arguments, the one that is not NaN when the other
- * is, the second when they compare equal (so +0 and -0 come out as from
- * glibc). */
-static inline double max_of(double x, double y) { return x > y || y != y ? x : y; }
-static inline double min_of(double x, double y) { return x < y || y != y ? x : y; }
 
 struct sl_entry_work {
     sl_ode *ode;                  /* the ODE-with-events layer (ode.h) */
@@ -198,7 +191,7 @@ static int rhs(double t, const double y[], double f[], void *params)
     double sg = sin(gam), cg = cos(gam);
     /* Heat flux to the surface: C_H of the air's energy flux, at most the
      * black-body flux of the shock layer (the large-body limit). */
-    double flux = min_of(c->ablation_k * rho * v * v * v, c->flux_cap_kg_s3);
+    double flux = sl_min(c->ablation_k * rho * v * v * v, c->flux_cap_kg_s3);
     double dm = -flux * area;
 
     f[Y_V] = -drag / m + g * sg;
@@ -407,12 +400,12 @@ static void deposit_profile(sl_entry *en, double h0, double h1, double de, const
     if (de == 0.0)
         return;
     double w = en->band_width_m, top = w * (double)en->n_bands;
-    double lo = min_of(max_of(min_of(h0, h1), 0.0), top), hi = min_of(max_of(max_of(h0, h1), 0.0), top);
+    double lo = sl_min(sl_max(sl_min(h0, h1), 0.0), top), hi = sl_min(sl_max(sl_max(h0, h1), 0.0), top);
     double span = h1 - h0, done = 0.0;
     if (fabs(span) > 1e-9 * w && hi > lo) {
         size_t i0 = band_of(en, lo), i1 = band_of(en, hi);
         for (size_t i = i0; i <= i1; i++) {
-            double b = max_of(lo, (double)i * w), t = min_of(hi, (double)(i + 1) * w);
+            double b = sl_max(lo, (double)i * w), t = sl_min(hi, (double)(i + 1) * w);
             if (!(t > b))
                 continue;
             double sb = (b - h0) / span, st = (t - h0) / span;

@@ -134,6 +134,7 @@
  *
  * Units: SI throughout (m, s, kg, J, K, Pa). */
 #include "steamloft/plume.h"
+#include "steamloft/minmax.h"
 #include "steamloft/ode.h"
 #include "steamloft/units.h"
 #include "steamloft/water.h"
@@ -478,12 +479,8 @@ static void equilibrate_ws(const sl_plume_work *w, double H, double Ma, double M
          * Mw L_f0 + Ma c_pa at hi; at the 640 K cap (no condensate) h_sat is
          * the all-vapour enthalpy, above H since T1 < 640 K.  So the bracket
          * needs no check. */
-        /* (fmax and fmin as comparisons: every operand is finite here, and
-         * gcc calls libm for them on every right-hand side.) */
-        double lo = T1 > T_TRIPLE ? T1 : T_TRIPLE;
-        double hi = T1 + Mw * (w->lv0_J_kg + w->lf0_J_kg) / (Ma * CPA) + 1.0;
-        if (hi > T_NO_CONDENSATE_K)
-            hi = T_NO_CONDENSATE_K;
+        double lo = sl_max(T1, T_TRIPLE);
+        double hi = sl_min(T1 + Mw * (w->lv0_J_kg + w->lf0_J_kg) / (Ma * CPA) + 1.0, T_NO_CONDENSATE_K);
         /* h_sat - H at lo: at T1, (Ma rs(T1) - Mw) times the latent heat
          * there (the all-vapour enthalpy at T1 is H); at Tt, hl - H. */
         double flo = T1 >= T_TRIPLE ? (Ma * rs1 - Mw) * (w->lv0_J_kg + (CPV - CPL) * (T1 - T_TRIPLE)) : hl - H;
@@ -497,7 +494,7 @@ static void equilibrate_ws(const sl_plume_work *w, double H, double Ma, double M
     double mc_t = Mw - vap_t;
     double hi_ice = hl - mc_t * w->lf0_J_kg;
     if (H <= hi_ice) {
-        double lo = T1 > 0.5 * T_FROZEN_SOLID_K ? T1 : 0.5 * T_FROZEN_SOLID_K;
+        double lo = sl_max(T1, 0.5 * T_FROZEN_SOLID_K);
         double flo = T1 >= lo ? (Ma * rs1 - Mw) * (w->lv0_J_kg + w->lf0_J_kg + (CPV - CPI) * (T1 - T_TRIPLE)) : NAN;
         double v, hT;
         *T = solve_T(w, H, Ma, Mw, p, 1, lo, T_TRIPLE, flo, hi_ice - H, predict_T(ws, 1, H, Ma, Mw, p, *T), &v, &hT);
@@ -538,10 +535,7 @@ static int diagnose(sl_plume_work *w, const double *s, diag *d)
     double z = s[IZ] * w->scale[IZ];
     double Ma = s[IMA] * w->scale[IMA], Mw = s[IMW] * w->scale[IMW];
     double Pi = s[IPI] * w->scale[IPI], H = s[IH] * w->scale[IH];
-    /* The query altitude clamped to the profile (comparisons, not libm's
-     * fmin/fmax: a NaN z is refused below before zq is used). */
-    const double ztop = w->atm->altitude_m[w->atm->n - 1];
-    double zq = z < w->z_bottom_m ? w->z_bottom_m : z > ztop ? ztop : z;
+    double zq = sl_min(sl_max(z, w->z_bottom_m), w->atm->altitude_m[w->atm->n - 1]);
     /* A trial state of a too-long step can be unphysical: GSL_EDOM makes the
      * evolve retry with a shorter step (GSL_EBADFUNC would abort). */
     if (!isfinite(z) || !isfinite(Ma) || !isfinite(Mw) || !isfinite(H) || Ma <= 0.0 || Mw < 0.0)

@@ -143,6 +143,7 @@
  * the background water above 16 km (the reference domain), and the global
  * mean anomaly is the excess over the air of that domain. */
 #include "steamloft/strat.h"
+#include "steamloft/minmax.h"
 #include "steamloft/units.h"
 
 #include <gsl/gsl_eigen.h>
@@ -186,13 +187,6 @@ static const int arctic_months[12] = {1, 1, 0, 0, 0, 0, 0, 0, 0, 0, 0, 1};
 #define MIN_BOX_M 500.0
 
 static double mass_ratio(void) { return SL_MOLAR_MASS_H2O_KG_MOL / SL_MOLAR_MASS_DRY_AIR_KG_MOL; }
-
-/* fmax and fmin of the C library, inline for the loops over the output rows
- * (gcc -O2 calls libm for them on x86-64): the same result for every pair of
- * arguments, the one that is not NaN when the other is, the second when they
- * compare equal (so +0 and -0 come out as from glibc). */
-static inline double max_of(double x, double y) { return x > y || y != y ? x : y; }
-static inline double min_of(double x, double y) { return x < y || y != y ? x : y; }
 
 /* Share of a hemisphere's extratropics poleward of LAT_DEG. */
 static double polar_cap_fraction(double lat_deg, double edge_deg)
@@ -1168,9 +1162,9 @@ static void record_series(const sl_strat_model *m, sl_strat_result *r, size_t i,
     r->forcing_W_m2[i] = f;
     double local = 0.0;
     for (int g = 0; g < SL_STRAT_N_REGIONS; g++)
-        local = max_of(local, col[g] / m->region_area_m2[g]);
+        local = sl_max(local, col[g] / m->region_area_m2[g]);
     if (a0 > 0.0 && t_s < m->par.region_spread_time_s)
-        local = max_of(local, q / cloud_area(&m->par, a0, a_zonal, m->region_area_m2[cloud_region], t_s));
+        local = sl_max(local, q / cloud_area(&m->par, a0, a_zonal, m->region_area_m2[cloud_region], t_s));
     r->local_column_kg_m2[i] = local;
 }
 
@@ -1414,12 +1408,12 @@ static void series_scalars(const sl_strat_model *m, sl_strat_result *r, double q
     r->percent_of_background_peak = r->peak_global_anomaly_mole_fraction = 0.0;
     r->peak_global_column_kg_m2 = r->peak_local_column_kg_m2 = r->forcing_indicator_W_m2 = 0.0;
     for (size_t i = 0; i < no; i++) {
-        r->percent_of_background_peak = max_of(r->percent_of_background_peak, r->percent_of_background[i]);
+        r->percent_of_background_peak = sl_max(r->percent_of_background_peak, r->percent_of_background[i]);
         r->peak_global_anomaly_mole_fraction =
-            max_of(r->peak_global_anomaly_mole_fraction, r->global_anomaly_mole_fraction[i]);
-        r->peak_global_column_kg_m2 = max_of(r->peak_global_column_kg_m2, r->global_column_kg_m2[i]);
-        r->peak_local_column_kg_m2 = max_of(r->peak_local_column_kg_m2, r->local_column_kg_m2[i]);
-        r->forcing_indicator_W_m2 = max_of(r->forcing_indicator_W_m2, r->forcing_W_m2[i]);
+            sl_max(r->peak_global_anomaly_mole_fraction, r->global_anomaly_mole_fraction[i]);
+        r->peak_global_column_kg_m2 = sl_max(r->peak_global_column_kg_m2, r->global_column_kg_m2[i]);
+        r->peak_local_column_kg_m2 = sl_max(r->peak_local_column_kg_m2, r->local_column_kg_m2[i]);
+        r->forcing_indicator_W_m2 = sl_max(r->forcing_indicator_W_m2, r->forcing_W_m2[i]);
     }
     /* Early phase, daily. */
     for (size_t i = 0; i < r->n_early; i++) {
@@ -1428,7 +1422,7 @@ static void series_scalars(const sl_strat_model *m, sl_strat_result *r, double q
         r->early_time_s[i] = t;
         r->early_area_m2[i] = a;
         r->early_column_kg_m2[i] = excess_at(r, nr, t) / a;
-        r->peak_local_column_kg_m2 = max_of(r->peak_local_column_kg_m2, r->early_column_kg_m2[i]);
+        r->peak_local_column_kg_m2 = sl_max(r->peak_local_column_kg_m2, r->early_column_kg_m2[i]);
     }
 }
 
@@ -1474,7 +1468,7 @@ static int integrate(const sl_strat_model *m, sl_strat_result *r, double a0, dou
             tot += y[j];
         }
         if (injected > 0.0)
-            worst = max_of(worst, fabs(tot - injected) / injected);
+            worst = sl_max(worst, fabs(tot - injected) / injected);
     }
     r->budget_max_rel_error = worst;
     /* Conservation to rounding: 1e-12 allows ~1e4 roundings of 1e-16 (PRACTICE). */
@@ -1678,7 +1672,7 @@ int sl_strat_run_linear(const sl_strat_model *m, const sl_strat_response *rs, co
             col[g] = row[RESP_REGION0 + (size_t)g];
         double tot = row[RESP_TOTAL] + sinks0;
         record_series(m, r, i, (double)i * m->par.step_s, q, f, col, a0, a_zonal, rc_cloud);
-        worst = max_of(worst, fabs(tot - injected) / injected);
+        worst = sl_max(worst, fabs(tot - injected) / injected);
     }
     r->budget_max_rel_error = worst;
     if (worst > 1e-12)
