@@ -252,12 +252,14 @@ double sl_injection_vapor_above_kg(const sl_injection *inj, double altitude_m)
 
 /* Ice-saturation and background mixing ratios (kg/kg dry air) at ALTITUDE_M,
  * the altitude clamped into the profile (above its top the top level is used). */
-static int cloud_level(const sl_atmosphere *atm, double altitude_m, double *r_ice, double *r_bg, sl_err *e)
+static int cloud_level(const sl_atmosphere *atm, double altitude_m, sl_atmos_cursor *cur, double *r_ice,
+                       double *r_bg, sl_err *e)
 {
     double z = fmin(fmax(altitude_m, atm->altitude_m[0]), atm->altitude_m[atm->n - 1]);
     sl_atmos_state a;
-    SL_TRY_RETURN(e, sl_atmosphere_at(atm, z, &a, e));
-    double xi = a.ice_saturation_mole_fraction, xb = a.h2o_mole_fraction;
+    /* sl_atmosphere_at's numbers, with the search carried from band to band. */
+    SL_TRY_RETURN(e, sl_atmosphere_state(atm, z, cur, &a, e));
+    double xi = sl_water_esat_ice_Pa(a.temperature_K) / a.pressure_Pa, xb = a.h2o_mole_fraction;
     *r_ice = xi >= 1.0 ? INFINITY : sl_water_mixing_ratio_from_mole_fraction(fmax(xi, 0.0));
     *r_bg = sl_water_mixing_ratio_from_mole_fraction(fmin(fmax(xb, 0.0), 0.999));
     return SL_OK;
@@ -271,8 +273,8 @@ static int cloud_level(const sl_atmosphere *atm, double altitude_m, double *r_ic
  * tropical profile, within 3e-11 per 1 km band, where 4-point
  * Gauss-Legendre on 500 m pieces straddling the profile's levels erred by up
  * to 4e-6 near the tropopause). */
-static int umbrella_piece(const sl_atmosphere *atm, const sl_young_cloud *c, double z0, double z1, double *w,
-                          sl_err *e)
+static int umbrella_piece(const sl_atmosphere *atm, const sl_young_cloud *c, double z0, double z1,
+                          sl_atmos_cursor *cur, double *w, sl_err *e)
 {
     double a = c->bottom_m, b = c->top_m, m = c->peak_m, zm = 0.5 * (z0 + z1);
     double alpha = 0.0, beta = 0.0;
@@ -285,15 +287,16 @@ static int umbrella_piece(const sl_atmosphere *atm, const sl_young_cloud *c, dou
         beta = -2.0 / ((b - a) * (b - m));
         alpha = -b * beta;
     }
-    sl_atmos_cursor cur = {0};
     double m0, m1;
-    SL_TRY_RETURN(e, sl_atmosphere_layer_mass(atm, z0, z1, &cur, &m0, &m1, e));
+    SL_TRY_RETURN(e, sl_atmosphere_layer_mass(atm, z0, z1, cur, &m0, &m1, e));
     *w = alpha * m0 + beta * m1;
     return SL_OK;
 }
 
-int sl_injection_umbrella_weight(const sl_atmosphere *atm, const sl_young_cloud *c, double z0, double z1, double *w,
-                                 sl_err *e)
+/* sl_injection_umbrella_weight with the caller's search cursor (the cursor
+ * only says where a search starts: the numbers are the same). */
+static int umbrella_weight(const sl_atmosphere *atm, const sl_young_cloud *c, double z0, double z1,
+                           sl_atmos_cursor *cur, double *w, sl_err *e)
 {
     *w = 0.0;
     double a = fmax(z0, c->bottom_m), b = fmin(z1, c->top_m);
@@ -301,12 +304,19 @@ int sl_injection_umbrella_weight(const sl_atmosphere *atm, const sl_young_cloud 
         return SL_OK;
     double m = c->peak_m, w1 = 0.0, w2 = 0.0;
     if (m > a && m < b) {
-        SL_TRY_RETURN(e, umbrella_piece(atm, c, a, m, &w1, e));
-        SL_TRY_RETURN(e, umbrella_piece(atm, c, m, b, &w2, e));
+        SL_TRY_RETURN(e, umbrella_piece(atm, c, a, m, cur, &w1, e));
+        SL_TRY_RETURN(e, umbrella_piece(atm, c, m, b, cur, &w2, e));
     } else
-        SL_TRY_RETURN(e, umbrella_piece(atm, c, a, b, &w1, e));
+        SL_TRY_RETURN(e, umbrella_piece(atm, c, a, b, cur, &w1, e));
     *w = w1 + w2;
     return SL_OK;
+}
+
+int sl_injection_umbrella_weight(const sl_atmosphere *atm, const sl_young_cloud *c, double z0, double z1, double *w,
+                                 sl_err *e)
+{
+    sl_atmos_cursor cur = {0};
+    return umbrella_weight(atm, c, z0, z1, &cur, w, e);
 }
 
 int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl_young_cloud *c,
@@ -324,6 +334,7 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
         SL_FAIL_RETURN(e, SL_EDATA, "young cloud %g-%g m lies outside the bands (valid range %g to %g m)", c->bottom_m,
                        c->top_m, lo, hi);
     double thick = c->top_m - c->bottom_m;
+    sl_atmos_cursor cur = {0};
     int tent = thick > 0.0 && c->peak_m >= c->bottom_m && c->peak_m <= c->top_m;
     /* Placement by mass: the umbrella's weight of each band, normalised by
      * their sum (so the shares add up to 1 to rounding).  The weights are
@@ -336,7 +347,7 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
     if (tent) {
         for (size_t i = 0; i < inj->n_bands; i++) {
             double wb;
-            SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, c, inj->band_bottom_m[i], inj->band_top_m[i], &wb, e));
+            SL_TRY_RETURN(e, umbrella_weight(atm, c, inj->band_bottom_m[i], inj->band_top_m[i], &cur, &wb, e));
             if (cached)
                 wcache[i] = wb;
             wsum += wb;
@@ -356,7 +367,7 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
                 if (cached) /* the band clipped to the cloud: the same integral */
                     wb = wcache[i];
                 else
-                    SL_TRY_RETURN(e, sl_injection_umbrella_weight(atm, c, a, b, &wb, e));
+                    SL_TRY_RETURN(e, umbrella_weight(atm, c, a, b, &cur, &wb, e));
                 f = wb / wsum;
             } else
                 f = (b - a) / thick;
@@ -368,7 +379,7 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
             f = 1.0;
         }
         double r_ice = 0.0, r_bg = 0.0;
-        SL_TRY_RETURN(e, cloud_level(atm, 0.5 * (a + b), &r_ice, &r_bg, e));
+        SL_TRY_RETURN(e, cloud_level(atm, 0.5 * (a + b), &cur, &r_ice, &r_bg, e));
         double air = c->air_kg * f, water = c->water_kg * f;
         double vap = fmin(water, air * r_ice);
         double ice = water - vap;
