@@ -66,12 +66,52 @@ static int ambient(const sl_atmosphere *atm, double altitude_m, sl_partition_air
     return SL_OK;
 }
 
+/* The shared set-up's profile built from KEY (a built-in name or the path
+ * used), or NULL. */
+static const sl_atmosphere *shared_profile(const sl_chain_shared *sh, const char *key)
+{
+    if (sh == NULL)
+        return NULL;
+    for (size_t i = 0; i < sh->n_atm; i++)
+        if (strcmp(sh->atm_key[i], key) == 0)
+            return &sh->atm[i];
+    return NULL;
+}
+
+/* Profile KEY (a built-in name or a path) for the chain: borrowed from the
+ * shared set-up when it holds it; while the set-up is open and has room,
+ * built into it and borrowed (so the other chains of the ensemble, and this
+ * chain's other uses of the same profile, build it no more); else built into
+ * OWN.  *OUT is the profile to use, *BORROWED whether it is not OWN.  On
+ * failure OWN is left zeroed and the message is sl_atmosphere_init's. */
+static int get_profile(sl_chain *ch, const char *key, sl_atmosphere *own, const sl_atmosphere **out, int *borrowed,
+                       sl_err *e)
+{
+    sl_chain_shared *sh = ch->shared;
+    const sl_atmosphere *got = shared_profile(sh, key);
+    if (got == NULL && sh != NULL && sh->open && sh->n_atm < SL_CHAIN_SHARED_MAX_ATM &&
+        strlen(key) < sizeof sh->atm_key[0]) {
+        SL_TRY_RETURN(e, sl_atmosphere_init(&sh->atm[sh->n_atm], key, e));
+        snprintf(sh->atm_key[sh->n_atm], sizeof sh->atm_key[0], "%s", key);
+        got = &sh->atm[sh->n_atm++];
+    }
+    if (got != NULL) {
+        *out = got;
+        *borrowed = 1;
+        return SL_OK;
+    }
+    SL_TRY_RETURN(e, sl_atmosphere_init(own, key, e));
+    *out = own;
+    *borrowed = 0;
+    return SL_OK;
+}
+
 static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
 {
     const char *name = sl_scenario_text(sc, SL_P_SITE_ATMOSPHERE);
     if (ch->have_atmosphere && strcmp(ch->atmosphere_name, name) == 0)
         return SL_OK;
-    if (ch->have_atmosphere) { /* a built-in is set aside, a file profile freed */
+    if (ch->have_atmosphere && !ch->atmosphere_borrowed) { /* a built-in is set aside, a file profile freed */
         int slot = -1;
         for (int i = 0; sl_atmosphere_builtin_names[i] && i < SL_ATMOSPHERE_MAX_BUILTINS; i++)
             if (strcmp(ch->atmosphere_name, sl_atmosphere_builtin_names[i]) == 0)
@@ -83,8 +123,9 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         } else {
             sl_atmosphere_free(&ch->atmosphere);
         }
-        ch->have_atmosphere = 0;
     }
+    ch->have_atmosphere = ch->atmosphere_borrowed = 0; /* a borrowed one is only let go */
+    ch->atm = NULL;
     int builtin = 0;
     for (int i = 0; sl_atmosphere_builtin_names[i] && i < SL_ATMOSPHERE_MAX_BUILTINS; i++)
         if (strcmp(name, sl_atmosphere_builtin_names[i]) == 0) {
@@ -94,6 +135,7 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
                 memset(&ch->builtin_cache[i], 0, sizeof ch->builtin_cache[i]);
                 ch->have_builtin_cache[i] = 0;
                 snprintf(ch->atmosphere_name, sizeof ch->atmosphere_name, "%s", name);
+                ch->atm = &ch->atmosphere;
                 ch->have_atmosphere = 1;
                 return SL_OK;
             }
@@ -108,7 +150,7 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         if (access(near, R_OK) == 0)
             use = near;
     }
-    int rc = sl_atmosphere_init(&ch->atmosphere, use, e);
+    int rc = get_profile(ch, use, &ch->atmosphere, &ch->atm, &ch->atmosphere_borrowed, e);
     if (rc != SL_OK) {
         /* The atmosphere module's message already says what is valid (the
          * built-in names for an unknown name, file and line for a bad file). */
@@ -117,6 +159,8 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         sl_scenario_where(sc, SL_P_SITE_ATMOSPHERE, at, sizeof at);
         snprintf(inner, sizeof inner, "%.380s", e ? e->msg : "");
         sl_atmosphere_free(&ch->atmosphere);
+        ch->atm = NULL;
+        ch->atmosphere_borrowed = 0;
         if (raw)
             SL_FAIL_RETURN(e, rc, "%s = %s: %s", at, raw, inner);
         SL_FAIL_RETURN(e, rc, "%s: atmosphere %s: %s", sc->path, name, inner);
@@ -154,7 +198,7 @@ static int stage_plume(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         ch->band_top_m = b1;
         ch->band_width_m = bw;
     }
-    SL_TRY_RETURN(e, sl_plume_solve(&ch->plume, &ch->atmosphere, &ch->partition.sources, &ch->injection, e));
+    SL_TRY_RETURN(e, sl_plume_solve(&ch->plume, ch->atm, &ch->partition.sources, &ch->injection, e));
     ch->injection.latitude_deg = sl_rad_to_deg(sl_scenario_value(sc, SL_P_SITE_LATITUDE));
     {   /* where and when, carried into the files (emission.h: the [site] keys) */
         sl_emission_params ep;
@@ -166,10 +210,24 @@ static int stage_plume(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     return SL_OK;
 }
 
+/* Let go of the box model in use: free what the chain owns, forget what
+ * it borrowed. */
+static void release_box_model(sl_chain *ch)
+{
+    sl_strat_response_free(&ch->strat_response);
+    sl_strat_result_free(&ch->strat);
+    sl_strat_model_free(&ch->strat_model);
+    ch->box_model = NULL;
+    ch->box_response = NULL;
+    ch->have_strat_model = 0;
+}
+
 /* Box-model set-up: the regional backgrounds (built-in climatologies named by
  * [strat], or the files of ch->box_input) and the model are kept while they
  * do not change, so an ensemble pays the model set-up (~2 ms) once per
- * thread; each run is ~0.2 ms. */
+ * thread, or once per run when its chains share one set-up (the profiles
+ * and the model borrowed from ch->shared when it holds them for the same
+ * names and parameters); each run is ~0.2 ms. */
 int sl_chain_prepare_box(const sl_scenario *sc, sl_chain *ch, sl_err *e)
 {
     const sl_param_id ids[2] = {SL_P_STRAT_TROPICS_ATMOSPHERE, SL_P_STRAT_EXTRATROPICS_ATMOSPHERE};
@@ -179,13 +237,15 @@ int sl_chain_prepare_box(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         const char *name = file && file[0] ? file : sl_scenario_text(sc, ids[i]);
         if (ch->have_strat_atmosphere[i] && strcmp(ch->strat_atmosphere_name[i], name) == 0)
             continue;
-        if (ch->have_strat_atmosphere[i])
+        changed = 1;
+        if (ch->have_strat_atmosphere[i] && !ch->strat_atmosphere_borrowed[i])
             sl_atmosphere_free(&ch->strat_atmosphere[i]);
-        ch->have_strat_atmosphere[i] = 0;
-        SL_TRY_RETURN(e, sl_atmosphere_init(&ch->strat_atmosphere[i], name, e));
+        ch->have_strat_atmosphere[i] = ch->strat_atmosphere_borrowed[i] = 0;
+        ch->box_atm[i] = NULL;
+        SL_TRY_RETURN(e, get_profile(ch, name, &ch->strat_atmosphere[i], &ch->box_atm[i],
+                                     &ch->strat_atmosphere_borrowed[i], e));
         ch->have_strat_atmosphere[i] = 1;
         snprintf(ch->strat_atmosphere_name[i], sizeof ch->strat_atmosphere_name[i], "%s", name);
-        changed = 1;
     }
     sl_strat_params p;
     sl_strat_params_from_scenario(&p, sc);
@@ -193,16 +253,33 @@ int sl_chain_prepare_box(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     if (!changed && !sl_strat_params_equal(&p, &ch->strat_params))
         changed = 1;
     if (changed) {
-        sl_strat_response_free(&ch->strat_response);
-        sl_strat_result_free(&ch->strat);
-        sl_strat_model_free(&ch->strat_model);
-        ch->have_strat_model = 0;
-        const sl_atmosphere *atm[SL_STRAT_N_REGIONS] = {&ch->strat_atmosphere[1], &ch->strat_atmosphere[0],
-                                                        &ch->strat_atmosphere[1]};
-        SL_TRY_RETURN(e, sl_strat_model_init(&ch->strat_model, &p, atm, e));
-        int rc = sl_strat_result_init(&ch->strat, &ch->strat_model, e);
+        release_box_model(ch);
+        sl_chain_shared *sh = ch->shared;
+        const int shared_atm = ch->strat_atmosphere_borrowed[0] && ch->strat_atmosphere_borrowed[1];
+        if (sh != NULL && sh->have_box && shared_atm && strcmp(sh->box_atm_key[0], ch->strat_atmosphere_name[0]) == 0 &&
+            strcmp(sh->box_atm_key[1], ch->strat_atmosphere_name[1]) == 0 && sl_strat_params_equal(&p, &sh->box_model.par)) {
+            ch->box_model = &sh->box_model;
+            if (sh->have_box_response)
+                ch->box_response = &sh->box_response;
+        } else {
+            /* Built into the shared set-up while it is open and has no model
+             * yet (the profiles are then its own too), else into the chain. */
+            const int into_shared = sh != NULL && sh->open && !sh->have_box && shared_atm &&
+                                    strlen(ch->strat_atmosphere_name[0]) < sizeof sh->box_atm_key[0] &&
+                                    strlen(ch->strat_atmosphere_name[1]) < sizeof sh->box_atm_key[1];
+            sl_strat_model *m = into_shared ? &sh->box_model : &ch->strat_model;
+            const sl_atmosphere *atm[SL_STRAT_N_REGIONS] = {ch->box_atm[1], ch->box_atm[0], ch->box_atm[1]};
+            SL_TRY_RETURN(e, sl_strat_model_init(m, &p, atm, e));
+            if (into_shared) {
+                sh->have_box = 1;
+                for (int i = 0; i < 2; i++)
+                    snprintf(sh->box_atm_key[i], sizeof sh->box_atm_key[i], "%s", ch->strat_atmosphere_name[i]);
+            }
+            ch->box_model = m;
+        }
+        int rc = sl_strat_result_init(&ch->strat, ch->box_model, e);
         if (rc != SL_OK) {
-            sl_strat_model_free(&ch->strat_model);
+            release_box_model(ch);
             return sl_err_push(e, rc, __func__, __LINE__);
         }
         ch->strat_params = p;
@@ -222,7 +299,7 @@ static int stage_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     sl_site_choose(sc, &ch->site);
     SL_TRY_RETURN(e, load_atmosphere(sc, ch, e));
     sl_partition_input_from_scenario(&ch->partition_input, sc);
-    SL_TRY_RETURN(e, ambient(&ch->atmosphere, 0.0, &ch->partition_input.air_at_sea, e));
+    SL_TRY_RETURN(e, ambient(ch->atm, 0.0, &ch->partition_input.air_at_sea, e));
     return SL_OK;
 }
 
@@ -235,7 +312,7 @@ static int stage_entry(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     }
     sl_entry_params p;
     sl_entry_params_from_scenario(&p, sc);
-    air_ctx actx = {&ch->atmosphere, {0}};
+    air_ctx actx = {ch->atm, {0}};
     sl_entry_air air = {atmosphere_density, &actx};
     SL_TRY_RETURN(e, sl_entry_solve(&ch->entry, &p, &air, e));
     ch->has_entry = 1;
@@ -251,7 +328,7 @@ static int stage_partition(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     (void)sc;
     sl_partition_input *in = &ch->partition_input;
     ch->air_source_altitude_m = in->air_source_altitude_m;
-    SL_TRY_RETURN(e, ambient(&ch->atmosphere, in->air_source_altitude_m, &in->air_at_source, e));
+    SL_TRY_RETURN(e, ambient(ch->atm, in->air_source_altitude_m, &in->air_at_source, e));
     SL_TRY_RETURN(e, sl_partition_solve(&ch->partition, in, e));
     return SL_OK;
 }
@@ -260,13 +337,23 @@ static int stage_strat(const sl_scenario *sc, sl_chain *ch, sl_err *e)
 {
     SL_TRY_RETURN(e, sl_chain_prepare_box(sc, ch, e));
     if (!ch->strat_linear) {
-        SL_TRY_RETURN(e, sl_strat_run(&ch->strat_model, &ch->injection, &ch->strat, e));
+        SL_TRY_RETURN(e, sl_strat_run(ch->box_model, &ch->injection, &ch->strat, e));
         return SL_OK;
     }
-    /* Ensembles: the box model by its linear response, built once per model. */
-    if (ch->strat_response.rows == NULL)
-        SL_TRY_RETURN(e, sl_strat_response_init(&ch->strat_response, &ch->strat_model, e));
-    SL_TRY_RETURN(e, sl_strat_run_linear(&ch->strat_model, &ch->strat_response, &ch->injection, &ch->strat, e));
+    /* Ensembles: the box model by its linear response, built once per model
+     * (into the shared set-up with the shared model while it is open). */
+    if (ch->box_response == NULL) {
+        sl_chain_shared *sh = ch->shared;
+        if (sh != NULL && ch->box_model == &sh->box_model && sh->open && !sh->have_box_response) {
+            SL_TRY_RETURN(e, sl_strat_response_init(&sh->box_response, ch->box_model, e));
+            sh->have_box_response = 1;
+            ch->box_response = &sh->box_response;
+        } else {
+            SL_TRY_RETURN(e, sl_strat_response_init(&ch->strat_response, ch->box_model, e));
+            ch->box_response = &ch->strat_response;
+        }
+    }
+    SL_TRY_RETURN(e, sl_strat_run_linear(ch->box_model, ch->box_response, &ch->injection, &ch->strat, e));
     return SL_OK;
 }
 
@@ -309,12 +396,26 @@ const sl_source_list *sl_chain_sources(const sl_chain *ch)
     return &ch->partition.sources;
 }
 
+void sl_chain_shared_free(sl_chain_shared *sh)
+{
+    if (sh == NULL)
+        return;
+    if (sh->have_box_response)
+        sl_strat_response_free(&sh->box_response);
+    if (sh->have_box)
+        sl_strat_model_free(&sh->box_model);
+    for (size_t i = 0; i < sh->n_atm; i++)
+        sl_atmosphere_free(&sh->atm[i]);
+    memset(sh, 0, sizeof *sh);
+}
+
 void sl_chain_free(sl_chain *ch)
 {
     if (ch == NULL)
         return;
+    /* Only what the chain owns: borrowed set-up belongs to ch->shared. */
     sl_entry_free(&ch->entry);
-    if (ch->have_atmosphere)
+    if (ch->have_atmosphere && !ch->atmosphere_borrowed)
         sl_atmosphere_free(&ch->atmosphere);
     for (int i = 0; i < SL_ATMOSPHERE_MAX_BUILTINS; i++)
         if (ch->have_builtin_cache[i])
@@ -326,7 +427,7 @@ void sl_chain_free(sl_chain *ch)
     sl_strat_result_free(&ch->strat);
     sl_strat_model_free(&ch->strat_model);
     for (int i = 0; i < 2; i++)
-        if (ch->have_strat_atmosphere[i])
+        if (ch->have_strat_atmosphere[i] && !ch->strat_atmosphere_borrowed[i])
             sl_atmosphere_free(&ch->strat_atmosphere[i]);
     memset(ch, 0, sizeof *ch);
 }

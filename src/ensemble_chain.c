@@ -306,6 +306,7 @@ static chain_ws *median_ws(sl_ens_chain *c, int *ran)
     if (w == NULL)
         return NULL;
     w->chain.strat_linear = c->strat_fixed;
+    w->chain.shared = &c->shared;
     double si[SL_P_COUNT + SL_ENS_MAX_VARY];
     for (size_t k = 0; k < c->plan->n_inputs && k < sizeof si / sizeof si[0]; k++)
         si[k] = sl_dist_median(&c->plan->inputs[k].dist) * c->plan->inputs[k].to_si;
@@ -440,6 +441,8 @@ static void ens_chain_free(sl_ens_chain *c)
     free(c->time_s);
     c->band_bottom_m = c->band_top_m = c->time_s = NULL;
     c->n_band = c->n_time = 0;
+    /* Last: every chain that borrowed from it is freed by now. */
+    sl_chain_shared_free(&c->shared);
 }
 
 /* The layout of the extras from one serial run on the inputs' medians (no
@@ -449,7 +452,11 @@ static void ens_chain_free(sl_ens_chain *c)
 static int extras_layout(sl_ens_chain *c, sl_err *e)
 {
     int ran = 0, rc = SL_OK;
+    /* The median run fills the shared set-up (serially: no thread runs yet);
+     * closed after it, so the members' chains only read it. */
+    c->shared.open = 1;
     chain_ws *w = median_ws(c, &ran);
+    c->shared.open = 0;
     if (w == NULL)
         SL_FAIL_RETURN(e, SL_ENOMEM, "out of memory for the median run");
     if (ran) {
@@ -459,7 +466,10 @@ static int extras_layout(sl_ens_chain *c, sl_err *e)
         c->band_top_m = malloc((nb + 1) * sizeof(double));
         c->time_s = malloc((nt + 1) * sizeof(double));
         if (!c->band_bottom_m || !c->band_top_m || !c->time_s) {
-            ens_chain_free(c);
+            free(c->band_bottom_m);
+            free(c->band_top_m);
+            free(c->time_s);
+            c->band_bottom_m = c->band_top_m = c->time_s = NULL;
             rc = sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "out of memory for the profile layout");
         } else {
             c->n_band = nb;

@@ -10,7 +10,10 @@
  * The atmosphere is loaded on the first run and kept while later scenarios
  * name the same profile; the entry and plume workspaces are allocated once,
  * the injection bands again only when the band keys change.  No global
- * state: one chain per thread. */
+ * state: one chain per thread; chains of one ensemble may borrow read-only
+ * set-up from one sl_chain_shared.  The structs atmosphere, strat_atmosphere
+ * and strat_model hold what the chain owns; atm, box_atm and box_model point
+ * at what it uses (the same unless borrowed). */
 #ifndef STEAMLOFT_CHAIN_H
 #define STEAMLOFT_CHAIN_H
 
@@ -44,12 +47,44 @@ typedef struct sl_chain_box_input {
     int cloud_freeze_out;
 } sl_chain_box_input;
 
+/* Read-only set-up shared by the chains of one ensemble (one per thread):
+ * the background profiles and the box model with its linear response, built
+ * once per run instead of once per thread.  Filled while OPEN by the runs of
+ * one chain (the ensemble's serial run on the inputs' medians, before any
+ * thread starts): a profile or model that chain needs is then built here
+ * instead of in the chain.  Closed (OPEN 0), it is never written again and
+ * chains only borrow from it (const pointers into it), so threads can share
+ * it; what it does not hold a chain builds and owns itself, as without it.
+ * Its owner frees it with sl_chain_shared_free after every chain that
+ * borrows from it. */
+enum { SL_CHAIN_SHARED_MAX_ATM = 3 }; /* the site's profile and the box model's two */
+typedef struct sl_chain_shared {
+    int open;
+    size_t n_atm;
+    sl_atmosphere atm[SL_CHAIN_SHARED_MAX_ATM];
+    char atm_key[SL_CHAIN_SHARED_MAX_ATM][2 * SL_SCENARIO_PATH_LEN]; /* the name or path it was built from */
+    int have_box;                  /* box_model is built, from the profiles named box_atm_key */
+    char box_atm_key[2][2 * SL_SCENARIO_PATH_LEN];
+    sl_strat_model box_model;      /* its parameters: box_model.par */
+    int have_box_response;         /* box_response is box_model's linear response */
+    sl_strat_response box_response;
+} sl_chain_shared;
+
+/* Release everything; safe on a zeroed struct. */
+void sl_chain_shared_free(sl_chain_shared *sh);
+
 typedef struct sl_chain {
     sl_scenario scenario;          /* copy of the scenario last run */
+    /* Set by the caller before the first run (NULL: none): the set-up this
+     * chain borrows from, and fills while it is open.  Borrowed, not freed. */
+    sl_chain_shared *shared;
     sl_site_choice site;           /* the atmosphere and sea surface used, and why
                                       (site-aware defaults, site.h) */
-    sl_atmosphere atmosphere;      /* the background profile */
-    int have_atmosphere;
+    sl_atmosphere atmosphere;      /* the background profile when the chain owns it */
+    const sl_atmosphere *atm;      /* the background profile in use: &atmosphere, or borrowed
+                                      from the shared set-up (atmosphere then unused) */
+    int have_atmosphere;           /* atm is valid */
+    int atmosphere_borrowed;       /* atm points into the shared set-up */
     char atmosphere_name[SL_SCENARIO_RAW_LEN]; /* what it was loaded from */
     /* Built-in profiles set aside when a later scenario named another one
      * (site-aware defaults switch profiles with the latitude of ensemble
@@ -69,17 +104,21 @@ typedef struct sl_chain {
     /* Box model: backgrounds of the tropics [0] and extratropics [1], and the
      * model (propagators), rebuilt only when [strat] keys, the month or the
      * backgrounds change; the result arrays are reused. */
-    sl_atmosphere strat_atmosphere[2];
+    sl_atmosphere strat_atmosphere[2];       /* owned ones (see box_atm) */
+    const sl_atmosphere *box_atm[2];         /* in use: &strat_atmosphere[i] or borrowed */
     int have_strat_atmosphere[2];
+    int strat_atmosphere_borrowed[2];
     char strat_atmosphere_name[2][SL_SCENARIO_RAW_LEN];
     sl_chain_box_input box_input;  /* set by the caller before the run, kept */
     sl_strat_params strat_params;  /* of the model built */
-    sl_strat_model strat_model;
-    int have_strat_model;
+    sl_strat_model strat_model;    /* owned model (see box_model) */
+    const sl_strat_model *box_model; /* in use: &strat_model, or borrowed from the shared set-up */
+    int have_strat_model;          /* box_model is valid */
     sl_strat_result strat;         /* valid when have_strat_model after a successful run */
     int strat_linear;              /* set by the caller: the box model by its linear response
                                       (sl_strat_run_linear; ensembles), built once per model */
-    sl_strat_response strat_response;
+    sl_strat_response strat_response; /* owned response (see box_response) */
+    const sl_strat_response *box_response; /* in use, or NULL: not built yet */
     /* Stage times: thread CPU seconds per stage, summed over the timed runs.
      * The caller may time only every time_every-th run (0 or 1: every run;
      * ensembles time every SL_CHAIN_TIME_EVERY-th member, as reading the
@@ -103,8 +142,9 @@ int sl_chain_run(const sl_scenario *sc, sl_chain *ch, sl_err *e);
 int sl_chain_run_from(const sl_scenario *sc, sl_chain *ch, int first_stage, sl_err *e);
 
 /* Set up the box model of SC (the backgrounds and the model, kept while they
- * do not change) without running it: ch->strat_params, ch->strat_model and
- * ch->strat_atmosphere are then valid (`decay --calibrate`). */
+ * do not change) without running it: ch->strat_params, ch->box_model and
+ * ch->box_atm are then valid, and for a chain without a shared set-up also
+ * ch->strat_model and ch->strat_atmosphere (`decay --calibrate`). */
 int sl_chain_prepare_box(const sl_scenario *sc, sl_chain *ch, sl_err *e);
 
 /* The sources handed to the plume stage (valid after a successful run). */

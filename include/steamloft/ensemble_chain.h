@@ -70,6 +70,8 @@ typedef struct sl_ens_chain {
     double *band_bottom_m, *band_top_m, *time_s; /* owned */
     double tropopause_m;      /* of the median run, for the plot */
     void *spare_ws;           /* the median run's workspace, handed to the first thread (owned until then) */
+    sl_chain_shared shared;   /* set-up every workspace's chain borrows (the profiles, the box model
+                                 and its response), filled by the median run, then read only; owned */
     double stage_s[SL_CHAIN_N_TIMED]; /* summed over the workspaces when freed (timed runs) */
     long runs, timed_runs;            /* likewise: member runs, and those of them timed */
 } sl_ens_chain;
