@@ -305,16 +305,58 @@ static double eddy_K_m2_s(double z_m)
  * (phi/D_H)(T/T500)^(1+alpha_H) e^tau150). */
 enum { UY_TAU = SP_H, UY_J, UY_N };
 
-/* Right-hand side at Z; ABOVE100 picks the side of the 100 km switch of M. */
-static void ussa_rhs(double z_m, const double *y, int above100, double t500, double *dy)
+/* The parts of the right-hand side that depend on Z alone (temperature,
+ * gravity, eddy diffusion, the diffusion coefficients' temperature powers,
+ * the transport terms): computed once per distinct altitude, as a step's two
+ * midpoint stages share one and its end is the next step's start.  Each is
+ * the very expression the right-hand side used inline, so the profile is
+ * the same to the bit; the powers and exponentials here were three quarters
+ * of the integration's cost. */
+typedef struct ussa_zterms {
+    double z_m;          /* the altitude they are for (NaN: none yet) */
+    double t, tp, gr, kz;
+    double da[N_SP];     /* a_i (T/273.15)^b_i, i = O .. He and H */
+    double tau_k[SP_H];  /* the transport term tau_i * 1e-3, i = O .. He */
+    double h_pow;        /* (T/T500)^(1 + alpha_H) */
+    int hydrogen;        /* Z >= 150 km */
+} ussa_zterms;
+
+static void ussa_zterms_at(double z_m, double t500, ussa_zterms *q)
 {
     double tp, t = ussa_upper_T(z_m, &tp);
     const double g = sl_atmosphere_gravity_m_s2(z_m);
-    const double gr = g / (SL_USSA_RSTAR_J_KMOL_K * t);
+    q->z_m = z_m;
+    q->t = t;
+    q->tp = tp;
+    q->gr = g / (SL_USSA_RSTAR_J_KMOL_K * t);
+    q->kz = eddy_K_m2_s(z_m);
+    const double zk = z_m * 1e-3;
+    for (int i = SP_O; i < SP_H; i++) {
+        q->da[i] = sp_a[i] * pow(t / 273.15, sp_b[i]);
+        const double v = zk - sp_U[i];
+        double tau = sp_Q[i] * v * v * exp(-sp_W[i] * v * v * v);
+        if (i == SP_O && zk < O_SMALL_U) {
+            const double w = O_SMALL_U - zk;
+            tau += O_SMALL_Q * w * w * exp(-O_SMALL_W * w * w * w);
+        }
+        q->tau_k[i] = tau * 1e-3;
+    }
+    q->hydrogen = z_m >= UZ_H_M;
+    q->da[SP_H] = q->h_pow = 0.0;
+    if (q->hydrogen) {
+        q->da[SP_H] = sp_a[SP_H] * pow(t / 273.15, sp_b[SP_H]);
+        q->h_pow = pow(t / t500, 1.0 + sp_alpha[SP_H]);
+    }
+}
+
+/* Right-hand side at the altitude of Q; ABOVE100 picks the side of the
+ * 100 km switch of M. */
+static void ussa_rhs(const ussa_zterms *q, const double *y, int above100, double *dy)
+{
+    const double t = q->t, tp = q->tp, gr = q->gr, kz = q->kz;
     double n[SP_H];
     for (int i = 0; i < SP_H; i++)
         n[i] = exp(y[i]);
-    const double kz = eddy_K_m2_s(z_m), zk = z_m * 1e-3;
     const double n3 = n[SP_N2] + n[SP_O] + n[SP_O2];
     const double m3 = (n[SP_N2] * sp_molar_mass[SP_N2] + n[SP_O] * sp_molar_mass[SP_O] +
                        n[SP_O2] * sp_molar_mass[SP_O2]) / n3;
@@ -323,41 +365,43 @@ static void ussa_rhs(double z_m, const double *y, int above100, double t500, dou
         const int light = i == SP_O || i == SP_O2;
         const double nb = light ? n[SP_N2] : n3;
         const double mb = !above100 ? SL_USSA_M0_KG_KMOL : (light ? sp_molar_mass[SP_N2] : m3);
-        const double d = sp_a[i] * pow(t / 273.15, sp_b[i]) / nb;
+        const double d = q->da[i] / nb;
         const double f = gr * (d * sp_molar_mass[i] + kz * mb) / (d + kz) +
                          d / (d + kz) * sp_alpha[i] * tp / t;
-        const double v = zk - sp_U[i];
-        double tau = sp_Q[i] * v * v * exp(-sp_W[i] * v * v * v);
-        if (i == SP_O && zk < O_SMALL_U) {
-            const double w = O_SMALL_U - zk;
-            tau += O_SMALL_Q * w * w * exp(-O_SMALL_W * w * w * w);
-        }
-        dy[i] = -tp / t - f - tau * 1e-3;
+        dy[i] = -tp / t - f - q->tau_k[i];
     }
     dy[UY_TAU] = dy[UY_J] = 0.0;
-    if (z_m >= UZ_H_M) {
+    if (q->hydrogen) {
         const double n5 = n3 + n[SP_AR] + n[SP_HE];
-        const double dh = sp_a[SP_H] * pow(t / 273.15, sp_b[SP_H]) / n5;
+        const double dh = q->da[SP_H] / n5;
         dy[UY_TAU] = gr * sp_molar_mass[SP_H];
-        dy[UY_J] = H_PHI / dh * pow(t / t500, 1.0 + sp_alpha[SP_H]) * exp(y[UY_TAU]);
+        dy[UY_J] = H_PHI / dh * q->h_pow * exp(y[UY_TAU]);
     }
 }
 
-static void ussa_rk4(double za, double zb, double *y, double t500)
+/* One RK4 step from ZA to ZB.  Q_END holds the Z terms of the last step's
+ * end, taken as this step's start when the altitude is the same, and is left
+ * with this step's end. */
+static void ussa_rk4(double za, double zb, double *y, double t500, ussa_zterms *q_end)
 {
     const int above100 = 0.5 * (za + zb) > UZ_M100;
     double k1[UY_N], k2[UY_N], k3[UY_N], k4[UY_N], yt[UY_N];
     const double h = zb - za;
-    ussa_rhs(za, y, above100, t500, k1);
+    ussa_zterms qm;
+    if (!(q_end->z_m == za))
+        ussa_zterms_at(za, t500, q_end);
+    ussa_rhs(q_end, y, above100, k1);
+    ussa_zterms_at(za + 0.5 * h, t500, &qm);
     for (int j = 0; j < UY_N; j++)
         yt[j] = y[j] + 0.5 * h * k1[j];
-    ussa_rhs(za + 0.5 * h, yt, above100, t500, k2);
+    ussa_rhs(&qm, yt, above100, k2);
     for (int j = 0; j < UY_N; j++)
         yt[j] = y[j] + 0.5 * h * k2[j];
-    ussa_rhs(za + 0.5 * h, yt, above100, t500, k3);
+    ussa_rhs(&qm, yt, above100, k3);
     for (int j = 0; j < UY_N; j++)
         yt[j] = y[j] + h * k3[j];
-    ussa_rhs(zb, yt, above100, t500, k4);
+    ussa_zterms_at(zb, t500, q_end);
+    ussa_rhs(q_end, yt, above100, k4);
     for (int j = 0; j < UY_N; j++)
         y[j] += h / 6.0 * (k1[j] + 2.0 * k2[j] + 2.0 * k3[j] + k4[j]);
 }
@@ -380,6 +424,8 @@ static void ussa_upper(size_t n, const double *z, double *t_out, double *p_out, 
     const double zend = n == 0 ? UZ7_M : (z[n - 1] >= UZ_H_M ? fmax(z[n - 1], UZ11_M) : z[n - 1]);
     double *tau_at = work, *j_at = work + n, *nt_at = work + 2 * n, *mass_at = work + 3 * n;
     size_t k = 0, jn = 0;
+    ussa_zterms q_end;
+    q_end.z_m = NAN;
     for (;;) {
         while (k < n && z[k] <= zc + 1e-9) { /* requested altitudes reached */
             double nt = 0.0, mass = 0.0;
@@ -413,7 +459,7 @@ static void ussa_upper(size_t n, const double *z, double *t_out, double *p_out, 
             steps = 1;
         const double h = (znext - zc) / steps;
         for (int s = 0; s < steps; s++)
-            ussa_rk4(zc + s * h, s + 1 == steps ? znext : zc + (s + 1) * h, y, t500);
+            ussa_rk4(zc + s * h, s + 1 == steps ? znext : zc + (s + 1) * h, y, t500, &q_end);
         zc = znext;
     }
     for (size_t i = 0; i < n; i++) {
