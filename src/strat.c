@@ -1229,6 +1229,21 @@ static void add_columns4(size_t pairs, double *restrict out, const double *restr
         out[a] += c0[a] * y0 + c1[a] * y1 + c2[a] * y2 + c3[a] * y3;
 }
 
+/* Two passes of add_columns4 in one (columns C[0..3], then C[4..7]): OUT is
+ * read and written once per eight columns, each element still getting
+ * (OUT + the first four terms) + the next four, in the order of two passes. */
+static void add_columns8(size_t pairs, double *restrict out, const double *restrict c0, size_t n,
+                         const double *restrict y)
+{
+    const double *restrict c1 = c0 + n, *restrict c2 = c1 + n, *restrict c3 = c2 + n, *restrict c4 = c3 + n,
+                           *restrict c5 = c4 + n, *restrict c6 = c5 + n, *restrict c7 = c6 + n;
+    const double y0 = y[0], y1 = y[1], y2 = y[2], y3 = y[3], y4 = y[4], y5 = y[5], y6 = y[6], y7 = y[7];
+    for (size_t a = 0; a < 2 * pairs; a++) {
+        const double first = out[a] + (c0[a] * y0 + c1[a] * y1 + c2[a] * y2 + c3[a] * y3);
+        out[a] = first + (c4[a] * y4 + c5[a] * y5 + c6[a] * y6 + c7[a] * y7);
+    }
+}
+
 /* OUT = P Y for the augmented state (n values, the first NB boxes), as a sum
  * of columns (stored contiguously, so the inner loop vectorises; an odd last
  * element on its own, in the same order of operations).  The sink columns of
@@ -1239,6 +1254,14 @@ static void propagate(const double *P, size_t n, size_t nb, const double *y, dou
         out[a] = a < nb ? 0.0 : y[a];
     const size_t pairs = n / 2, last = n - 1;
     size_t b = 0;
+    for (; b + 8 <= nb; b += 8) { /* eight columns per pass over OUT, summed as two groups of four */
+        const double *restrict c0 = P + b * n;
+        add_columns8(pairs, out, c0, n, y + b);
+        if (n % 2)
+            for (size_t g = 0; g < 8; g += 4)
+                out[last] += c0[g * n + last] * y[b + g] + c0[(g + 1) * n + last] * y[b + g + 1] +
+                             c0[(g + 2) * n + last] * y[b + g + 2] + c0[(g + 3) * n + last] * y[b + g + 3];
+    }
     for (; b + 4 <= nb; b += 4) { /* four columns per pass over OUT */
         const double *restrict c0 = P + b * n, *restrict c1 = c0 + n, *restrict c2 = c1 + n,
                                *restrict c3 = c2 + n;
