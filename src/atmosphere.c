@@ -497,8 +497,63 @@ static double ussa_low_molar_mass(double z_m)
     return SL_USSA_M0_KG_KMOL * (ussa_m_ratio[i] + f * (ussa_m_ratio[i + 1] - ussa_m_ratio[i]));
 }
 
-/* T, p, rho and M of the standard at N sorted altitudes in 0-1000 km. */
-static int ussa_profile(size_t n, const double *z, double *t, double *p, double *rho, double *m, sl_err *e)
+/* ussa_upper at N sorted altitudes Z above 86 km, through CACHE (may be
+ * NULL): its values when it holds these very altitudes (the built-in level
+ * grid is the same above 80 km for every built-in profile), else computed,
+ * and kept in CACHE when it is still empty.  ussa_upper's value at each
+ * altitude does not depend on which outputs are asked for, so a cached value
+ * is the one a fresh integration gives, to the bit. */
+static int ussa_upper_cached(size_t n, const double *z, double *t, double *p, double *rho, double *m,
+                             sl_atmosphere_cache *c, sl_err *e)
+{
+    const int hit = c != NULL && c->n == n && memcmp(c->z, z, n * sizeof *z) == 0;
+    if (!hit) {
+        const int fill = c != NULL && c->n == 0;
+        double *work = malloc(4 * n * sizeof(double));
+        double *keep = fill ? malloc(5 * n * sizeof(double)) : NULL;
+        if (!work || (fill && !keep)) {
+            free(work);
+            free(keep);
+            SL_FAIL_RETURN(e, SL_ENOMEM, "U.S. Standard Atmosphere 1976: out of memory");
+        }
+        if (!fill) {
+            ussa_upper(n, z, t, p, rho, m, work);
+            free(work);
+            return SL_OK;
+        }
+        memcpy(keep, z, n * sizeof(double));
+        c->z = keep;
+        c->t = keep + n;
+        c->p = keep + 2 * n;
+        c->rho = keep + 3 * n;
+        c->m = keep + 4 * n;
+        c->n = n;
+        ussa_upper(n, z, c->t, c->p, c->rho, c->m, work);
+        free(work);
+    }
+    if (t)
+        memcpy(t, c->t, n * sizeof(double));
+    if (p)
+        memcpy(p, c->p, n * sizeof(double));
+    if (rho)
+        memcpy(rho, c->rho, n * sizeof(double));
+    if (m)
+        memcpy(m, c->m, n * sizeof(double));
+    return SL_OK;
+}
+
+void sl_atmosphere_cache_free(sl_atmosphere_cache *c)
+{
+    if (c == NULL)
+        return;
+    free(c->z); /* one block: z, t, p, rho, m */
+    memset(c, 0, sizeof *c);
+}
+
+/* T, p, rho and M of the standard at N sorted altitudes in 0-1000 km (above
+ * 86 km through CACHE, see ussa_upper_cached; NULL: none). */
+static int ussa_profile(size_t n, const double *z, double *t, double *p, double *rho, double *m,
+                        sl_atmosphere_cache *cache, sl_err *e)
 {
     size_t i = 0;
     for (; i < n && z[i] <= UZ7_M; i++) {
@@ -517,11 +572,8 @@ static int ussa_profile(size_t n, const double *z, double *t, double *p, double 
     }
     if (i == n)
         return SL_OK;
-    double *work = malloc(4 * (n - i) * sizeof(double));
-    if (!work)
-        SL_FAIL_RETURN(e, SL_ENOMEM, "U.S. Standard Atmosphere 1976: out of memory");
-    ussa_upper(n - i, z + i, t ? t + i : NULL, p ? p + i : NULL, rho ? rho + i : NULL, m ? m + i : NULL, work);
-    free(work);
+    SL_TRY_RETURN(e, ussa_upper_cached(n - i, z + i, t ? t + i : NULL, p ? p + i : NULL, rho ? rho + i : NULL,
+                                       m ? m + i : NULL, cache, e));
     return SL_OK;
 }
 
@@ -532,7 +584,7 @@ int sl_atmosphere_us1976(double altitude_m, double *temperature_K, double *press
     if (!(z >= 0.0 && z <= USSA_TOP_M))
         SL_FAIL_RETURN(e, SL_EDATA, "U.S. Standard Atmosphere 1976: altitude %.6g m outside 0 to %.0f m", z,
                        USSA_TOP_M);
-    SL_TRY_RETURN(e, ussa_profile(1, &z, temperature_K, pressure_Pa, density_kg_m3, NULL, e));
+    SL_TRY_RETURN(e, ussa_profile(1, &z, temperature_K, pressure_Pa, density_kg_m3, NULL, NULL, e));
     return SL_OK;
 }
 
@@ -992,7 +1044,8 @@ static int fill_molar_mass(sl_atmosphere *atm, const double *molar_mass, int uss
     if (atm->altitude_m[n - 1] > USSA_TOP_M)
         SL_FAIL_RETURN(e, SL_EDATA, "atmosphere '%s': levels above %.0f km (the top of the standard's composition)",
                        atm->name, USSA_TOP_M * 1e-3);
-    SL_TRY_RETURN(e, ussa_profile(n - i0, atm->altitude_m + i0, NULL, NULL, NULL, atm->molar_mass_kg_kmol + i0, e));
+    SL_TRY_RETURN(e, ussa_profile(n - i0, atm->altitude_m + i0, NULL, NULL, NULL, atm->molar_mass_kg_kmol + i0,
+                                  NULL, e));
     return SL_OK;
 }
 
@@ -1167,7 +1220,7 @@ static int builtin_grid(const double *kinks, size_t nk, double **z_out, size_t *
 /* us1976 (HUMID 0): the dry standard, T, p, rho and M exactly as the standard
  * defines them.  us1976-humid: the same temperature and pressure with the
  * background water model (the moist density is then 0.5 % lower at sea level). */
-static int init_us1976(sl_atmosphere *atm, int humid, sl_err *e)
+static int init_us1976(sl_atmosphere *atm, int humid, sl_atmosphere_cache *cache, sl_err *e)
 {
     double kinks[7];
     for (int k = 1; k < 7; k++) /* geometric altitudes of the geopotential layer bases */
@@ -1182,7 +1235,7 @@ static int init_us1976(sl_atmosphere *atm, int humid, sl_err *e)
             rc = sl_err_set(e, SL_ENOMEM, __func__, __LINE__, "atmosphere: cannot allocate us1976 levels");
     }
     if (rc == SL_OK)
-        rc = ussa_profile(n, z, buf, buf + n, NULL, buf + 2 * n, e);
+        rc = ussa_profile(n, z, buf, buf + n, NULL, buf + 2 * n, cache, e);
     if (rc == SL_OK)
         rc = build_full(atm, humid ? "us1976-humid" : "us1976",
                         humid ? "U.S. Standard Atmosphere 1976 (NOAA-S/T 76-1562) temperature and pressure, "
@@ -1196,7 +1249,7 @@ static int init_us1976(sl_atmosphere *atm, int humid, sl_err *e)
     return rc == SL_OK ? SL_OK : sl_err_push(e, rc, __func__, __LINE__);
 }
 
-static int init_zone(sl_atmosphere *atm, const zone_def *zd, sl_err *e)
+static int init_zone(sl_atmosphere *atm, const zone_def *zd, sl_atmosphere_cache *cache, sl_err *e)
 {
     double kinks[32];
     size_t nk = 0;
@@ -1224,7 +1277,7 @@ static int init_zone(sl_atmosphere *atm, const zone_def *zd, sl_err *e)
     size_t i0 = 0;
     while (i0 < n && z[i0] <= 80000.0)
         mm[i0++] = SL_USSA_M0_KG_KMOL;
-    int rc = ussa_profile(n - i0, z + i0, NULL, NULL, NULL, mm + i0, e);
+    int rc = ussa_profile(n - i0, z + i0, NULL, NULL, NULL, mm + i0, cache, e);
     if (rc == SL_OK) {
         sl_atmosphere tmp;
         memset(&tmp, 0, sizeof tmp);
@@ -1263,7 +1316,7 @@ static int init_zone(sl_atmosphere *atm, const zone_def *zd, sl_err *e)
  * join.  join_altitude_m and the source line record it. */
 #define JOIN_BLEND_M 10000.0
 
-static int join_low_column(sl_atmosphere *atm, sl_err *e)
+static int join_low_column(sl_atmosphere *atm, sl_atmosphere_cache *cache, sl_err *e)
 {
     const size_t nu = atm->n;
     const double zj = atm->altitude_m[nu - 1];
@@ -1284,7 +1337,7 @@ static int join_low_column(sl_atmosphere *atm, sl_err *e)
     }
     best_rms = sqrt(best_rms / (double)nu);
     sl_atmosphere zone;
-    SL_TRY_RETURN(e, init_zone(&zone, &zones[best], e));
+    SL_TRY_RETURN(e, init_zone(&zone, &zones[best], cache, e));
     size_t k0 = 0;
     while (k0 < zone.n && zone.altitude_m[k0] <= zj + 1.0)
         k0++;
@@ -1322,7 +1375,7 @@ static int join_low_column(sl_atmosphere *atm, sl_err *e)
         size_t i0 = 0;
         while (i0 < m && zu[i0] <= 80000.0)
             mm[i0++] = SL_USSA_M0_KG_KMOL;
-        rc = ussa_profile(m - i0, zu + i0, NULL, NULL, NULL, mm + i0, e);
+        rc = ussa_profile(m - i0, zu + i0, NULL, NULL, NULL, mm + i0, cache, e);
         if (rc == SL_OK) {
             water_src ws = {2, NULL, x + nu - 1};
             integrate_pressure(m, zu, t + nu - 1, mm, &ws, p + nu - 1);
@@ -1366,16 +1419,22 @@ static int looks_like_netcdf(const char *path, int *is_nc)
 
 int sl_atmosphere_init(sl_atmosphere *atm, const char *name_or_path, sl_err *e)
 {
+    SL_TRY_RETURN(e, sl_atmosphere_init_cached(atm, name_or_path, NULL, e));
+    return SL_OK;
+}
+
+int sl_atmosphere_init_cached(sl_atmosphere *atm, const char *name_or_path, sl_atmosphere_cache *cache, sl_err *e)
+{
     if (!atm || !name_or_path)
         SL_FAIL_RETURN(e, SL_EINTERNAL, "sl_atmosphere_init: NULL argument");
     memset(atm, 0, sizeof *atm);
     if (strcmp(name_or_path, "us1976") == 0 || strcmp(name_or_path, "us1976-humid") == 0) {
-        SL_TRY_RETURN(e, init_us1976(atm, name_or_path[6] == '-', e));
+        SL_TRY_RETURN(e, init_us1976(atm, name_or_path[6] == '-', cache, e));
         return SL_OK;
     }
     for (size_t k = 0; k < sizeof zones / sizeof zones[0]; k++)
         if (strcmp(name_or_path, zones[k].name) == 0) {
-            SL_TRY_RETURN(e, init_zone(atm, &zones[k], e));
+            SL_TRY_RETURN(e, init_zone(atm, &zones[k], cache, e));
             return SL_OK;
         }
     int is_nc = 0;
@@ -1388,7 +1447,7 @@ int sl_atmosphere_init(sl_atmosphere *atm, const char *name_or_path, sl_err *e)
         SL_TRY_RETURN(e, sl_atmosphere_read_netcdf_(atm, name_or_path, e));
     else
         SL_TRY_RETURN(e, sl_atmosphere_read_text_(atm, name_or_path, e));
-    const int rc = join_low_column(atm, e);
+    const int rc = join_low_column(atm, cache, e);
     if (rc != SL_OK) {
         sl_atmosphere_free(atm);
         return sl_err_push(e, rc, __func__, __LINE__);

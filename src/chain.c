@@ -91,7 +91,7 @@ static int get_profile(sl_chain *ch, const char *key, sl_atmosphere *own, const 
     const sl_atmosphere *got = shared_profile(sh, key);
     if (got == NULL && sh != NULL && sh->open && sh->n_atm < SL_CHAIN_SHARED_MAX_ATM &&
         strlen(key) < sizeof sh->atm_key[0]) {
-        SL_TRY_RETURN(e, sl_atmosphere_init(&sh->atm[sh->n_atm], key, e));
+        SL_TRY_RETURN(e, sl_atmosphere_init_cached(&sh->atm[sh->n_atm], key, &sh->ussa_cache, e));
         snprintf(sh->atm_key[sh->n_atm], sizeof sh->atm_key[0], "%s", key);
         got = &sh->atm[sh->n_atm++];
     }
@@ -406,6 +406,7 @@ void sl_chain_shared_free(sl_chain_shared *sh)
         sl_strat_model_free(&sh->box_model);
     for (size_t i = 0; i < sh->n_atm; i++)
         sl_atmosphere_free(&sh->atm[i]);
+    sl_atmosphere_cache_free(&sh->ussa_cache);
     memset(sh, 0, sizeof *sh);
 }
 

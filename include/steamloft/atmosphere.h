@@ -85,6 +85,26 @@ extern const char *const sl_atmosphere_builtin_names[];
  * joined_onto and the source line record it. */
 int sl_atmosphere_init(sl_atmosphere *atm, const char *name_or_path, sl_err *e);
 
+/* What the built-in profiles have in common: the standard's diffusion
+ * integration above 86 km (its composition, and for us1976 its temperature
+ * and pressure) on the built-in level grid, the same above 80 km for every
+ * built-in profile.  sl_atmosphere_init_cached computes it on the first
+ * build that needs it and takes it from the cache on the next ones, with
+ * the same values to the bit; several built-in profiles built in one run
+ * (the site's and the box model's backgrounds) then integrate once.  Zero
+ * it before the first use; it is written by the builds, so one thread at a
+ * time; release with sl_atmosphere_cache_free. */
+typedef struct sl_atmosphere_cache {
+    size_t n;                  /* altitudes held; 0: empty */
+    double *z, *t, *p, *rho, *m; /* one block */
+} sl_atmosphere_cache;
+
+/* sl_atmosphere_init through CACHE (NULL: none, = sl_atmosphere_init). */
+int sl_atmosphere_init_cached(sl_atmosphere *atm, const char *name_or_path, sl_atmosphere_cache *cache, sl_err *e);
+
+/* Release the cache's tables; safe on a zeroed one. */
+void sl_atmosphere_cache_free(sl_atmosphere_cache *c);
+
 /* Build a profile named NAME from N >= 3 levels (copied; strictly increasing
  * finite altitudes, temperatures 50-2000 K).  PRESSURE_PA_OR_NULL NULL: the
  * pressure is integrated hydrostatically (moist air, inverse-square gravity)

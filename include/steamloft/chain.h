@@ -60,6 +60,7 @@ typedef struct sl_chain_box_input {
 enum { SL_CHAIN_SHARED_MAX_ATM = 3 }; /* the site's profile and the box model's two */
 typedef struct sl_chain_shared {
     int open;
+    sl_atmosphere_cache ussa_cache; /* what the built-in profiles built here have in common */
     size_t n_atm;
     sl_atmosphere atm[SL_CHAIN_SHARED_MAX_ATM];
     char atm_key[SL_CHAIN_SHARED_MAX_ATM][2 * SL_SCENARIO_PATH_LEN]; /* the name or path it was built from */
