@@ -732,8 +732,12 @@ static double water_at(const water_src *ws, const double *z, size_t i, double zq
 }
 
 /* Integrate ln p upward from p[0] with RK4, 4 steps per level interval, T
- * linear in z within each interval. */
+ * linear in z within each interval.  Only the background water model (mode
+ * 1) depends on the stage pressure: for dry or given water WATER skips the
+ * exponential (water_at does not read P then). */
 #define MR(zq) (ma == mb ? ma : ma + (mb - ma) * ((zq) - z[i]) / (z[i + 1] - z[i]))
+#define WATER(zq, tq, lq) \
+    (ws->mode == 0 ? 0.0 : water_at(ws, z, i, (zq), (tq), ws->mode == 1 ? exp(lq) : NAN))
 static void integrate_pressure(size_t n, const double *z, const double *t, const double *m, const water_src *ws,
                                double *p)
 {
@@ -749,18 +753,19 @@ static void integrate_pressure(size_t n, const double *z, const double *t, const
             const double ta = t[i] + (t[i + 1] - t[i]) * (za - z[i]) / (z[i + 1] - z[i]);
             const double tb = t[i] + (t[i + 1] - t[i]) * (zb - z[i]) / (z[i + 1] - z[i]);
             const double tc = t[i] + (t[i + 1] - t[i]) * (zc - z[i]) / (z[i + 1] - z[i]);
-            const double k1 = dlnp_dz(za, ta, water_at(ws, z, i, za, ta, exp(lp)), MR(za));
+            const double k1 = dlnp_dz(za, ta, WATER(za, ta, lp), MR(za));
             const double l2 = lp + 0.5 * h * k1;
-            const double k2 = dlnp_dz(zb, tb, water_at(ws, z, i, zb, tb, exp(l2)), MR(zb));
+            const double k2 = dlnp_dz(zb, tb, WATER(zb, tb, l2), MR(zb));
             const double l3 = lp + 0.5 * h * k2;
-            const double k3 = dlnp_dz(zb, tb, water_at(ws, z, i, zb, tb, exp(l3)), MR(zb));
+            const double k3 = dlnp_dz(zb, tb, WATER(zb, tb, l3), MR(zb));
             const double l4 = lp + h * k3;
-            const double k4 = dlnp_dz(zc, tc, water_at(ws, z, i, zc, tc, exp(l4)), MR(zc));
+            const double k4 = dlnp_dz(zc, tc, WATER(zc, tc, l4), MR(zc));
             lp += h / 6.0 * (k1 + 2.0 * k2 + 2.0 * k3 + k4);
         }
         p[i + 1] = exp(lp);
     }
 }
+#undef WATER
 
 #define TROPOPAUSE_FLOOR_PA 50000.0
 #define WMO_LAPSE_K_M 2.0e-3
