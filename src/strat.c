@@ -1250,8 +1250,10 @@ static void add_columns8(size_t pairs, double *restrict out, const double *restr
  * P are unit vectors: sinks keep their value plus what flows in. */
 static void propagate(const double *P, size_t n, size_t nb, const double *y, double *restrict out)
 {
-    for (size_t a = 0; a < n; a++)
-        out[a] = a < nb ? 0.0 : y[a];
+    for (size_t a = 0; a < nb; a++) /* the boxes: sums of columns */
+        out[a] = 0.0;
+    for (size_t a = nb; a < n; a++) /* the sinks: their value, plus what flows in */
+        out[a] = y[a];
     const size_t pairs = n / 2, last = n - 1;
     size_t b = 0;
     for (; b + 8 <= nb; b += 8) { /* eight columns per pass over OUT, summed as two groups of four */
