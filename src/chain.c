@@ -341,14 +341,23 @@ static int stage_strat(const sl_scenario *sc, sl_chain *ch, sl_err *e)
         return SL_OK;
     }
     /* Ensembles: the box model by its linear response, built once per model
-     * (into the shared set-up with the shared model while it is open). */
-    if (ch->box_response == NULL) {
+     * (into the shared set-up with the shared model while it is open: for
+     * the regions of this run's latitude only when every borrower injects
+     * at it, sh->same_latitude).  A run at a latitude the response in use
+     * does not cover gets the chain's own full response, built once. */
+    const double lat = ch->injection.latitude_deg;
+    if (ch->box_response == NULL || !sl_strat_response_covers(ch->box_response, lat)) {
         sl_chain_shared *sh = ch->shared;
-        if (sh != NULL && ch->box_model == &sh->box_model && sh->open && !sh->have_box_response) {
-            SL_TRY_RETURN(e, sl_strat_response_init(&sh->box_response, ch->box_model, e));
+        if (ch->box_response == NULL && sh != NULL && ch->box_model == &sh->box_model && sh->open &&
+            !sh->have_box_response) {
+            const unsigned regions =
+                sh->same_latitude ? sl_strat_regions_of_latitude(&ch->box_model->par, lat) : SL_STRAT_ALL_REGIONS;
+            SL_TRY_RETURN(e, sl_strat_response_init_regions(&sh->box_response, ch->box_model, regions, e));
             sh->have_box_response = 1;
             ch->box_response = &sh->box_response;
         } else {
+            sl_strat_response_free(&ch->strat_response);
+            ch->box_response = NULL;
             SL_TRY_RETURN(e, sl_strat_response_init(&ch->strat_response, ch->box_model, e));
             ch->box_response = &ch->strat_response;
         }

@@ -455,6 +455,12 @@ static int extras_layout(sl_ens_chain *c, sl_err *e)
     /* The median run fills the shared set-up (serially: no thread runs yet);
      * closed after it, so the members' chains only read it. */
     c->shared.open = 1;
+    /* One latitude for every member (no input sets it): the box model's
+     * linear response needs the columns of its regions only. */
+    c->shared.same_latitude = 1;
+    for (size_t k = 0; k < c->plan->n_inputs; k++)
+        if (c->ids[k] == SL_P_SITE_LATITUDE)
+            c->shared.same_latitude = 0;
     chain_ws *w = median_ws(c, &ran);
     c->shared.open = 0;
     if (w == NULL)

@@ -1304,6 +1304,34 @@ int sl_strat_run_boxes(const sl_strat_model *m, const double *box_kg, sl_strat_r
     return SL_OK;
 }
 
+/* Latitude: tropics, the hemisphere's extratropics (*RX), or a linear split
+ * across the ramp around the edge: the tropical share of an injection at
+ * LAT_DEG (the rest goes to *RX). */
+static double latitude_split(const sl_strat_params *p, double lat_deg, int *rx)
+{
+    double alat = fabs(lat_deg), w_t;
+    if (p->edge_ramp_deg > 0.0)
+        w_t = fmin(1.0, fmax(0.0, (p->tropics_edge_deg + p->edge_ramp_deg - alat) / (2.0 * p->edge_ramp_deg)));
+    else
+        w_t = alat <= p->tropics_edge_deg ? 1.0 : 0.0;
+    *rx = lat_deg < 0.0 ? SL_STRAT_SOUTH : SL_STRAT_NORTH;
+    return w_t;
+}
+
+unsigned sl_strat_regions_of_latitude(const sl_strat_params *p, double latitude_deg)
+{
+    /* Exactly initial_state's choice: place() into the tropics when w_t > 0,
+     * into the extratropics RX when w_t < 1, nowhere else. */
+    int rx;
+    const double w_t = latitude_split(p, latitude_deg, &rx);
+    unsigned mask = 0;
+    if (w_t > 0.0)
+        mask |= 1u << SL_STRAT_TROPICS;
+    if (w_t < 1.0)
+        mask |= 1u << rx;
+    return mask;
+}
+
 /* The state at t = 0 in r->work (boxes and sinks) for injection INJ: the
  * latitude split, the young cloud's area and (on request) its freeze-out,
  * the bands placed into the boxes.  *A0 and *RC_CLOUD get the cloud's area
@@ -1321,14 +1349,8 @@ static int initial_state(const sl_strat_model *m, const sl_injection *inj, sl_st
     double *y = r->work;
     memset(y, 0, sizeof(double) * 2 * n);
 
-    /* Latitude: tropics, the hemisphere's extratropics, or a linear split
-     * across the ramp around the edge. */
-    double alat = fabs(inj->latitude_deg), w_t;
-    if (p->edge_ramp_deg > 0.0)
-        w_t = fmin(1.0, fmax(0.0, (p->tropics_edge_deg + p->edge_ramp_deg - alat) / (2.0 * p->edge_ramp_deg)));
-    else
-        w_t = alat <= p->tropics_edge_deg ? 1.0 : 0.0;
-    int rx = inj->latitude_deg < 0.0 ? SL_STRAT_SOUTH : SL_STRAT_NORTH;
+    int rx;
+    const double w_t = latitude_split(p, inj->latitude_deg, &rx);
     int rc_cloud = w_t >= 0.5 ? SL_STRAT_TROPICS : rx;
     /* Cloud area: the profile's, else the default or the smallest area that
      * holds the water at ice saturation, whichever is larger.  Freeze-out
@@ -1576,12 +1598,27 @@ void sl_strat_response_free(sl_strat_response *rs)
  * tell whether the cold-point clip would act). */
 int sl_strat_response_init(sl_strat_response *rs, const sl_strat_model *m, sl_err *e)
 {
+    SL_TRY_RETURN(e, sl_strat_response_init_regions(rs, m, SL_STRAT_ALL_REGIONS, e));
+    return SL_OK;
+}
+
+int sl_strat_response_covers(const sl_strat_response *rs, double latitude_deg)
+{
+    return (sl_strat_regions_of_latitude(&rs->par, latitude_deg) & ~rs->regions) == 0;
+}
+
+/* Each column is the integration of a unit mass from its own box alone, so
+ * leaving out the columns of boxes an injection cannot reach changes none
+ * of the others; those stay zero (and meet zero masses in the products). */
+int sl_strat_response_init_regions(sl_strat_response *rs, const sl_strat_model *m, unsigned regions, sl_err *e)
+{
     memset(rs, 0, sizeof *rs);
     size_t nb = m->n_boxes, n = m->n_aug, nr = m->n_run, ns = (nr - 1) * m->substeps;
     rs->n_boxes = nb;
     rs->n_run = nr;
     rs->n_steps = ns;
     rs->par = m->par;
+    rs->regions = regions & SL_STRAT_ALL_REGIONS;
     rs->rows = calloc(nr * RESP_ROWS * nb, sizeof(double));
     rs->clip = calloc((ns ? ns : 1) * nb, sizeof(double));
     rs->clip_max = calloc(nb ? nb : 1, sizeof(double));
@@ -1594,6 +1631,8 @@ int sl_strat_response_init(sl_strat_response *rs, const sl_strat_model *m, sl_er
     int bt = m->box_of[SL_STRAT_TROPICS][lowest_layer(m, SL_STRAT_TROPICS)];
     double h = m->internal_step_s;
     for (size_t b = 0; b < nb; b++) {
+        if (!(rs->regions & (1u << m->box_region[b])))
+            continue;
         double *u = y, *u2 = y + n;
         memset(y, 0, 2 * n * sizeof(double));
         u[b] = 1.0;
@@ -1675,6 +1714,9 @@ int sl_strat_run_linear(const sl_strat_model *m, const sl_strat_response *rs, co
     double a0 = 0.0;
     int rc_cloud = SL_STRAT_TROPICS;
     SL_TRY_RETURN(e, initial_state(m, inj, r, &a0, &rc_cloud, e));
+    if (!sl_strat_response_covers(rs, inj->latitude_deg))
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "strat: the linear response lacks the regions of latitude %g deg",
+                       inj->latitude_deg);
     size_t nb = m->n_boxes, n = m->n_aug;
     const double *y = r->work;
     double q0 = 0.0, sinks0 = 0.0;

@@ -67,6 +67,9 @@ typedef struct sl_chain_shared {
     int have_box;                  /* box_model is built, from the profiles named box_atm_key */
     char box_atm_key[2][2 * SL_SCENARIO_PATH_LEN];
     sl_strat_model box_model;      /* its parameters: box_model.par */
+    int same_latitude;             /* set by the owner: every chain that borrows injects at the
+                                      latitude of the run that fills the set-up, so box_response
+                                      holds the columns of that latitude's regions only */
     int have_box_response;         /* box_response is box_model's linear response */
     sl_strat_response box_response;
 } sl_chain_shared;

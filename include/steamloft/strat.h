@@ -226,6 +226,8 @@ int sl_strat_run_boxes(const sl_strat_model *m, const double *box_kg, sl_strat_r
 typedef struct sl_strat_response {
     size_t n_boxes, n_run, n_steps;
     sl_strat_params par;  /* of the model it was built for */
+    unsigned regions;     /* bits 1 << region: the regions whose boxes have their columns
+                             (SL_STRAT_ALL_REGIONS for sl_strat_response_init); the others are zero */
     double *rows;         /* [n_boxes][n_run][SL_STRAT_RESPONSE_ROWS]: excess, forcing, excess
                              per region, total mass, per unit mass in each box */
     double *clip;         /* [n_steps][n_boxes]: tropical bottom box after each internal step */
@@ -234,6 +236,23 @@ typedef struct sl_strat_response {
 
 /* Build RS for model M.  SL_ENOMEM. */
 int sl_strat_response_init(sl_strat_response *rs, const sl_strat_model *m, sl_err *e);
+
+enum { SL_STRAT_ALL_REGIONS = (1u << SL_STRAT_N_REGIONS) - 1u };
+
+/* The regions an injection at LATITUDE_DEG puts water in under P (the
+ * tropics, the hemisphere's extratropics, or both across the edge ramp), as
+ * bits 1 << region. */
+unsigned sl_strat_regions_of_latitude(const sl_strat_params *p, double latitude_deg);
+
+/* RS for the boxes of REGIONS only (bits 1 << region): each column is its
+ * own box's integration, so the columns built are those of the full
+ * response, bit for bit, at a fraction of the cost (an ensemble at one site
+ * injects into one region or two).  sl_strat_run_linear then gives the
+ * full response's results for any injection it covers and refuses others. */
+int sl_strat_response_init_regions(sl_strat_response *rs, const sl_strat_model *m, unsigned regions, sl_err *e);
+
+/* 1 when RS has every column an injection at LATITUDE_DEG can need. */
+int sl_strat_response_covers(const sl_strat_response *rs, double latitude_deg);
 /* Release RS; safe on a zeroed struct. */
 void sl_strat_response_free(sl_strat_response *rs);
 
@@ -246,7 +265,8 @@ void sl_strat_response_free(sl_strat_response *rs);
  * instead, so the results equal sl_strat_run's to rounding (a test checks
  * 1e-9 relative) in every case.  After the short path r->has_detail is 0:
  * box_excess_kg, sink_kg and layer_anomaly_mole_fraction are not filled.
- * Errors as sl_strat_run; SL_EINTERNAL when RS was built for another model. */
+ * Errors as sl_strat_run; SL_EINTERNAL when RS was built for another model
+ * or lacks the regions of the injection's latitude (sl_strat_response_covers). */
 int sl_strat_run_linear(const sl_strat_model *m, const sl_strat_response *rs, const sl_injection *inj,
                         sl_strat_result *r, sl_err *e);
 
