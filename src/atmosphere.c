@@ -668,31 +668,70 @@ static double strat_h2o(double dz_m)
     return H2O_ENTRY + 2.0 * ch4_entry * oxidised;
 }
 
-static double background_h2o(const water_ctx *w, double z_m, double t_K, double p_Pa)
+/* The background water in two parts: what depends on the altitude and
+ * temperature alone (the saturation pressures, the stratospheric mixing
+ * ratio), and the rest, given the pressure.  The hydrostatic integration's
+ * two midpoint stages share an altitude and a temperature, so they compute
+ * the first part once.  Together they are the model's one expression: the
+ * saturation pressure of the cap reuses the liquid or ice value already at
+ * hand (sl_water_esat_Pa is one of those two functions at the same T). */
+typedef struct water_tz {
+    int troposphere;   /* below the tropopause (or none) */
+    int ice_cap;       /* T below the triple point: capped at ice saturation */
+    double e_liquid_Pa, e_ice_Pa; /* troposphere: e_s over liquid water and over ice (when ice_cap) */
+    double x_strat;    /* above it: the mixing ratio */
+    double e_sat_Pa;   /* sl_water_esat_Pa(T) */
+} water_tz;
+
+static void background_h2o_tz(const water_ctx *w, double z_m, double t_K, water_tz *q)
+{
+    q->troposphere = !isfinite(w->tropopause_m) || z_m < w->tropopause_m;
+    q->ice_cap = t_K < SL_T_TRIPLE_K;
+    if (q->troposphere) {
+        q->e_liquid_Pa = sl_water_esat_liquid_Pa(t_K);
+        q->e_ice_Pa = !(t_K >= SL_T_TRIPLE_K) ? sl_water_esat_ice_Pa(t_K) : NAN;
+        q->e_sat_Pa = t_K >= SL_T_TRIPLE_K ? q->e_liquid_Pa : q->e_ice_Pa;
+        q->x_strat = NAN;
+    } else {
+        if (!isfinite(w->stratopause_m) || z_m <= w->stratopause_m)
+            q->x_strat = strat_h2o(z_m - w->tropopause_m);
+        else
+            q->x_strat = strat_h2o(w->stratopause_m - w->tropopause_m) * meso_factor(z_m - w->stratopause_m);
+        q->e_sat_Pa = sl_water_esat_Pa(t_K);
+        q->e_liquid_Pa = q->e_ice_Pa = NAN;
+    }
+}
+
+static double background_h2o_p(const water_ctx *w, const water_tz *q, double p_Pa)
 {
     double x;
-    if (!isfinite(w->tropopause_m) || z_m < w->tropopause_m) {
+    if (q->troposphere) {
         double rh = RH_SURFACE * (p_Pa / w->surface_pressure_Pa - RH_Q_TOP) / (1.0 - RH_Q_TOP);
         if (rh < 0.0)
             rh = 0.0;
-        double ev = rh * sl_water_esat_liquid_Pa(t_K);
-        if (t_K < SL_T_TRIPLE_K) {
-            const double ei = sl_water_esat_ice_Pa(t_K);
+        double ev = rh * q->e_liquid_Pa;
+        if (q->ice_cap) {
+            const double ei = q->e_ice_Pa;
             if (ev > ei)
                 ev = ei;
         }
         x = ev / p_Pa;
         if (x < H2O_ENTRY)
             x = H2O_ENTRY;
-    } else if (!isfinite(w->stratopause_m) || z_m <= w->stratopause_m) {
-        x = strat_h2o(z_m - w->tropopause_m);
     } else {
-        x = strat_h2o(w->stratopause_m - w->tropopause_m) * meso_factor(z_m - w->stratopause_m);
+        x = q->x_strat;
     }
-    const double xs = sl_water_esat_Pa(t_K) / p_Pa;
+    const double xs = q->e_sat_Pa / p_Pa;
     if (isfinite(xs) && x > xs)
         x = xs;
     return x;
+}
+
+static double background_h2o(const water_ctx *w, double z_m, double t_K, double p_Pa)
+{
+    water_tz q;
+    background_h2o_tz(w, z_m, t_K, &q);
+    return background_h2o_p(w, &q, p_Pa);
 }
 
 /* ---- level arrays, hydrostatics, markers --------------------------------- */
@@ -734,10 +773,14 @@ static double water_at(const water_src *ws, const double *z, size_t i, double zq
 /* Integrate ln p upward from p[0] with RK4, 4 steps per level interval, T
  * linear in z within each interval.  Only the background water model (mode
  * 1) depends on the stage pressure: for dry or given water WATER skips the
- * exponential (water_at does not read P then). */
+ * exponential (water_at does not read P then); for the model, the part that
+ * depends on z and T alone is computed once per stage altitude (Q: the two
+ * midpoint stages share theirs). */
 #define MR(zq) (ma == mb ? ma : ma + (mb - ma) * ((zq) - z[i]) / (z[i + 1] - z[i]))
-#define WATER(zq, tq, lq) \
-    (ws->mode == 0 ? 0.0 : water_at(ws, z, i, (zq), (tq), ws->mode == 1 ? exp(lq) : NAN))
+#define WATER(q, zq, tq, lq)                                                                               \
+    (ws->mode == 0   ? 0.0                                                                                  \
+     : ws->mode == 1 ? background_h2o_p(ws->ctx, &(q), exp(lq))                                            \
+                     : water_at(ws, z, i, (zq), (tq), NAN))
 static void integrate_pressure(size_t n, const double *z, const double *t, const double *m, const water_src *ws,
                                double *p)
 {
@@ -753,13 +796,19 @@ static void integrate_pressure(size_t n, const double *z, const double *t, const
             const double ta = t[i] + (t[i + 1] - t[i]) * (za - z[i]) / (z[i + 1] - z[i]);
             const double tb = t[i] + (t[i + 1] - t[i]) * (zb - z[i]) / (z[i + 1] - z[i]);
             const double tc = t[i] + (t[i + 1] - t[i]) * (zc - z[i]) / (z[i + 1] - z[i]);
-            const double k1 = dlnp_dz(za, ta, WATER(za, ta, lp), MR(za));
+            water_tz qa, qb, qc;
+            if (ws->mode == 1) {
+                background_h2o_tz(ws->ctx, za, ta, &qa);
+                background_h2o_tz(ws->ctx, zb, tb, &qb);
+                background_h2o_tz(ws->ctx, zc, tc, &qc);
+            }
+            const double k1 = dlnp_dz(za, ta, WATER(qa, za, ta, lp), MR(za));
             const double l2 = lp + 0.5 * h * k1;
-            const double k2 = dlnp_dz(zb, tb, WATER(zb, tb, l2), MR(zb));
+            const double k2 = dlnp_dz(zb, tb, WATER(qb, zb, tb, l2), MR(zb));
             const double l3 = lp + 0.5 * h * k2;
-            const double k3 = dlnp_dz(zb, tb, WATER(zb, tb, l3), MR(zb));
+            const double k3 = dlnp_dz(zb, tb, WATER(qb, zb, tb, l3), MR(zb));
             const double l4 = lp + h * k3;
-            const double k4 = dlnp_dz(zc, tc, WATER(zc, tc, l4), MR(zc));
+            const double k4 = dlnp_dz(zc, tc, WATER(qc, zc, tc, l4), MR(zc));
             lp += h / 6.0 * (k1 + 2.0 * k2 + 2.0 * k3 + k4);
         }
         p[i + 1] = exp(lp);
