@@ -896,7 +896,7 @@ static int strat_water(sl_atmosphere *a, sl_err *e)
         double f[3];
         for (int k = 0; k < 3; k++) {
             sl_atmos_state s;
-            SL_TRY_RETURN(e, sl_atmosphere_at(a, lo + 0.5 * k * (hi - lo), &s, e));
+            SL_TRY_RETURN(e, sl_atmosphere_state(a, lo + 0.5 * k * (hi - lo), NULL, &s, e)); /* no ice saturation needed */
             f[k] = s.h2o_mole_fraction * s.pressure_Pa / (SL_R_VAPOR_J_KG_K * s.temperature_K);
         }
         sum += (hi - lo) / 6.0 * (f[0] + 4.0 * f[1] + f[2]);
@@ -1184,7 +1184,7 @@ static int build_body(sl_atmosphere *atm, const char *name, const char *source, 
     SL_TRY_RETURN(e, build_splines(atm, e));
     for (size_t i = 0; i < n; i++) {
         sl_atmos_state s;
-        SL_TRY_RETURN(e, sl_atmosphere_at(atm, atm->altitude_m[i], &s, e));
+        SL_TRY_RETURN(e, sl_atmosphere_state(atm, atm->altitude_m[i], NULL, &s, e)); /* N^2 only */
         atm->n2_per_s2[i] = s.n2_per_s2;
     }
     find_markers(atm);
