@@ -298,8 +298,9 @@ static void chain_ws_free(void *p)
 
 /* A workspace that has run the chain once on the inputs' medians, so the
  * atmosphere is loaded and the box model's response built here, serially
- * (netCDF profiles must not be read from parallel threads); *RAN says
- * whether that run succeeded.  NULL when out of memory. */
+ * (netCDF profiles must not be read from parallel threads): into the shared
+ * set-up on the first call (extras_layout), borrowed from it on the later
+ * ones; *RAN says whether that run succeeded.  NULL when out of memory. */
 static chain_ws *median_ws(sl_ens_chain *c, int *ran)
 {
     chain_ws *w = calloc(1, sizeof *w);
@@ -319,8 +320,8 @@ static chain_ws *median_ws(sl_ens_chain *c, int *ran)
 /* One workspace per thread, made before the member loop, warmed up by a run
  * on the medians (a failure of that run is not an error: members report
  * their own).  The first thread takes the workspace of extras_layout's
- * median run, the same warm-up: one setup of the atmospheres and of the box
- * model's response fewer, about 3 % of a 2000-member run on one thread. */
+ * median run, the same warm-up; the others borrow its set-up (c->shared), so
+ * their warm-up is one run of the stages, not a set-up of their own. */
 static void *chain_ws_new(void *ctx, sl_err *e)
 {
     sl_ens_chain *c = ctx;
@@ -505,7 +506,8 @@ static int ens_chain_init(sl_ens_chain *c, const sl_scenario *sc, const sl_ens_p
     c->ids = ids;
     /* The box model (its propagators and linear response) depends on the
      * [strat] keys and the month only; when none is uncertain it is built
-     * once per thread and each member costs a few dot products. */
+     * once per run (shared by the threads) and each member costs a few dot
+     * products. */
     c->strat_fixed = 1;
     for (size_t k = 0; k < p->n_inputs; k++)
         if (strcmp(sl_scenario_params[ids[k]].section, "strat") == 0 || ids[k] == SL_P_SITE_MONTH)
