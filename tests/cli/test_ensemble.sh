@@ -218,6 +218,37 @@ EOF
 if [ $? -eq 0 ]; then sl_ok "member inputs reproduce from the documented seeding with numpy's MT19937"; else
   sl_fail "documented seeding"; sed 's/^/#   /' "$SL_TMP/py.txt" | tail -3; fi
 
+# ---- The set-up an ensemble's threads share (sl_chain_shared: profiles, box model, its linear
+# response for the median latitude's regions) must give each member what a single run gives.
+# A sweep over latitude (tropics, edge, both extratropics: other regions than the median's, so
+# members build their own response) and the climate-zone profiles with them; each row against
+# `steamloft run` at that latitude (printed to 10 digits), and 1 against 3 threads byte for byte.
+printf '[impactor]\ndiameter_m = 300\ndensity_kg_m3 = 2700\nspeed_km_s = 18\nangle_deg = 45\n[site]\nlatitude_deg = 5\nocean_depth_m = 4000\n' >"$SL_TMP/lat.ini"
+mkdir -p "$SL_TMP/lat1" "$SL_TMP/lat3"
+(cd "$SL_TMP/lat1" && OMP_NUM_THREADS=1 "$SL_BIN" sweep ../lat.ini --vary site.latitude_deg=-60,-25,0,20,50 -o lat.csv >/dev/null 2>err.txt)
+rc1=$?
+(cd "$SL_TMP/lat3" && OMP_NUM_THREADS=3 "$SL_BIN" sweep ../lat.ini --vary site.latitude_deg=-60,-25,0,20,50 -o lat.csv >/dev/null 2>err.txt)
+if [ $rc1 -eq 0 ] && cmp -s "$SL_TMP/lat1/lat.csv" "$SL_TMP/lat3/lat.csv"; then sl_ok "latitude sweep: identical on 1 and 3 threads"; else
+  sl_fail "latitude sweep differs between 1 and 3 threads (or failed)"; fi
+for la in -60 -25 0 20 50; do
+  "$SL_BIN" run --json --set site.latitude_deg=$la "$SL_TMP/lat.ini" >"$SL_TMP/lat_$la.json" 2>/dev/null
+done
+if $PY - "$SL_TMP/lat1/lat.csv" "$SL_TMP" <<'EOF' >"$SL_TMP/py.txt" 2>&1
+import csv, json, sys
+rows = list(csv.DictReader(l for l in open(sys.argv[1]) if not l.startswith("#")))
+assert len(rows) == 5, len(rows)
+for r in rows:
+    la = float(r["site.latitude_deg"])
+    d = json.load(open("%s/lat_%d.json" % (sys.argv[2], la)))
+    for col, key, f in (("stratospheric_water_Tg", "stratospheric_water_kg", 1e9),
+                        ("efolding_years", "efolding_years", 1.0),
+                        ("percent_of_background", "percent_of_background", 1.0)):
+        a, b = float(r[col]) * f, d[key]
+        assert abs(a - b) <= 1e-9 * max(abs(a), abs(b)), (la, col, a, b)
+EOF
+then sl_ok "latitude sweep rows equal single runs (stratospheric water, e-folding, percent of background)"; else
+  sl_fail "latitude sweep vs single runs"; sed 's/^/#   /' "$SL_TMP/py.txt" | tail -3; fi
+
 # ---- Sobol: deterministic across threads too.
 (cd "$SL_TMP/t1" && OMP_NUM_THREADS=1 "$SL_BIN" ensemble ../ens.ini -n 64 --sobol -o sob.csv >/dev/null 2>&1)
 (cd "$SL_TMP/t2" && OMP_NUM_THREADS=2 "$SL_BIN" ensemble ../ens.ini -n 64 --sobol -o sob.csv >/dev/null 2>&1)
