@@ -3,9 +3,12 @@
 #include "sl_test.h"
 #include "steamloft/units.h"
 #include "steamloft/units_table.h"
+#include "steamloft/minmax.h"
 
 #include <math.h>
 #include <stdio.h>
+#include <stdint.h>
+#include <string.h>
 
 /* Read NAME = value lines that /usr/bin/python3 prints from scipy.constants
  * (CODATA 2018 and the conventional units, an outside reference: Debian's
@@ -26,6 +29,35 @@ static int scipy_constants(double *v, int n)
         ;
     return pclose(p) == 0 && got == n;
 }
+
+/* sl_max and sl_min against the C library's fmax and fmin (REFERENCE:
+ * glibc, called through volatile pointers so the compiler cannot fold the
+ * calls): the same bits for every pair of zeros and NaNs of both signs,
+ * infinities and numbers, and equal values. */
+static double (*volatile libm_fmax)(double, double) = fmax;
+static double (*volatile libm_fmin)(double, double) = fmin;
+
+static uint64_t bits_of(double x)
+{
+    uint64_t u;
+    memcpy(&u, &x, sizeof u);
+    return u;
+}
+
+START_TEST(test_minmax_as_libm)
+{
+    const double v[] = {0.0, -0.0, NAN, -NAN, INFINITY, -INFINITY, 1.0, -1.0, 2.5, 1e-310, -1e-310};
+    const size_t n = sizeof v / sizeof v[0];
+    for (size_t i = 0; i < n; i++)
+        for (size_t j = 0; j < n; j++) {
+            double x = v[i], y = v[j];
+            ck_assert_msg(bits_of(sl_max(x, y)) == bits_of(libm_fmax(x, y)), "sl_max(%g, %g) = %g, fmax %g", x, y,
+                          sl_max(x, y), libm_fmax(x, y));
+            ck_assert_msg(bits_of(sl_min(x, y)) == bits_of(libm_fmin(x, y)), "sl_min(%g, %g) = %g, fmin %g", x, y,
+                          sl_min(x, y), libm_fmin(x, y));
+        }
+}
+END_TEST
 
 START_TEST(test_constants_against_scipy)
 {
@@ -118,6 +150,7 @@ static Suite *units_suite(void)
     tcase_add_test(tc, test_constants_against_scipy);
     tcase_add_test(tc, test_conversions);
     tcase_add_test(tc, test_unit_table);
+    tcase_add_test(tc, test_minmax_as_libm);
     suite_add_tcase(s, tc);
     return s;
 }
