@@ -142,6 +142,72 @@ START_TEST(test_response_for_other_model)
 }
 END_TEST
 
+/* A response built for some regions only (sl_strat_response_init_regions,
+ * what an ensemble at one site shares between its threads): the columns it
+ * has are the full response's bit for bit, the others zero; it covers the
+ * latitudes that inject only into its regions (tropics at 0 deg; the edge
+ * ramp needs the tropics and that hemisphere's extratropics), gives the full
+ * response's results there, and is refused elsewhere (SL_EINTERNAL), never
+ * silently used. */
+START_TEST(test_partial_response)
+{
+    fixture f;
+    fixture_init(&f);
+    sl_err e = {0};
+    sl_strat_params p;
+    sl_strat_params_default(&p);
+    sl_strat_model m;
+    sl_strat_response full, part;
+    sl_strat_result a, b;
+    ck_assert_int_eq(sl_strat_model_init(&m, &p, f.atm, &e), SL_OK);
+    ck_assert_int_eq(sl_strat_result_init(&a, &m, &e), SL_OK);
+    ck_assert_int_eq(sl_strat_result_init(&b, &m, &e), SL_OK);
+    ck_assert_int_eq(sl_strat_response_init(&full, &m, &e), SL_OK);
+    unsigned tropics = sl_strat_regions_of_latitude(&p, 0.0);
+    ck_assert_uint_eq(tropics, 1u << SL_STRAT_TROPICS);
+    unsigned ramp_n = sl_strat_regions_of_latitude(&p, p.tropics_edge_deg);
+    ck_assert_uint_eq(ramp_n, (1u << SL_STRAT_TROPICS) | (1u << SL_STRAT_NORTH));
+    ck_assert_uint_eq(sl_strat_regions_of_latitude(&p, -60.0), 1u << SL_STRAT_SOUTH);
+    ck_assert_int_eq(sl_strat_response_init_regions(&part, &m, tropics, &e), SL_OK);
+    ck_assert_uint_eq(part.regions, tropics);
+    size_t nk = m.n_run * SL_STRAT_RESPONSE_ROWS, n_built = 0;
+    for (size_t bx = 0; bx < m.n_boxes; bx++) {
+        const double *cf = full.rows + bx * nk, *cp = part.rows + bx * nk;
+        int built = 0;
+        for (size_t k = 0; k < nk; k++)
+            built |= cp[k] != 0.0;
+        if (built) {
+            n_built++;
+            ck_assert_msg(memcmp(cf, cp, nk * sizeof *cf) == 0, "box %zu: the partial column differs", bx);
+        }
+    }
+    ck_assert_msg(n_built > 0 && n_built < m.n_boxes, "%zu of %zu columns built", n_built, m.n_boxes);
+    ck_assert(sl_strat_response_covers(&part, 0.0));
+    ck_assert(!sl_strat_response_covers(&part, p.tropics_edge_deg));
+    ck_assert(!sl_strat_response_covers(&part, -60.0));
+    ck_assert(sl_strat_response_covers(&full, -60.0));
+    sl_injection inj;
+    memset(&inj, 0, sizeof inj);
+    ck_assert_int_eq(sl_injection_init_uniform(&inj, 0.0, 100.0e3, 1.0e3, &e), SL_OK);
+    ck_assert_int_eq(sl_injection_add_layer(&inj, 1.0e9, 0.0, 18.0e3, 30.0e3, &e), SL_OK);
+    inj.latitude_deg = 0.0;
+    ck_assert_msg(sl_strat_run_linear(&m, &part, &inj, &a, &e) == SL_OK, "%s", e.msg);
+    ck_assert_msg(sl_strat_run_linear(&m, &full, &inj, &b, &e) == SL_OK, "%s", e.msg);
+    ck_assert(a.efolding_s == b.efolding_s && a.percent_of_background_peak == b.percent_of_background_peak);
+    for (size_t i = 0; i < m.n_run; i++)
+        ck_assert(a.global_excess_kg[i] == b.global_excess_kg[i]);
+    inj.latitude_deg = -60.0;
+    ck_assert_int_eq(sl_strat_run_linear(&m, &part, &inj, &a, &e), SL_EINTERNAL);
+    sl_injection_free(&inj);
+    sl_strat_response_free(&part);
+    sl_strat_response_free(&full);
+    sl_strat_result_free(&a);
+    sl_strat_result_free(&b);
+    sl_strat_model_free(&m);
+    fixture_free(&f);
+}
+END_TEST
+
 static Suite *strat_linear_suite(void)
 {
     Suite *s = suite_create("strat_linear");
@@ -149,6 +215,7 @@ static Suite *strat_linear_suite(void)
     tcase_set_timeout(tc, 120);
     tcase_add_test(tc, test_linear_equals_direct);
     tcase_add_test(tc, test_response_for_other_model);
+    tcase_add_test(tc, test_partial_response);
     suite_add_tcase(s, tc);
     return s;
 }

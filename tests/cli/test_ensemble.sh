@@ -219,10 +219,11 @@ if [ $? -eq 0 ]; then sl_ok "member inputs reproduce from the documented seeding
   sl_fail "documented seeding"; sed 's/^/#   /' "$SL_TMP/py.txt" | tail -3; fi
 
 # ---- The set-up an ensemble's threads share (sl_chain_shared: profiles, box model, its linear
-# response for the median latitude's regions) must give each member what a single run gives.
-# A sweep over latitude (tropics, edge, both extratropics: other regions than the median's, so
-# members build their own response) and the climate-zone profiles with them; each row against
-# `steamloft run` at that latitude (printed to 10 digits), and 1 against 3 threads byte for byte.
+# response) must give each member what a single run gives.  A sweep over latitude (tropics, edge,
+# both extratropics: the shared response then has every region, and the site-aware climate-zone
+# profile changes with the latitude, so members borrow some profiles and build others); each row
+# against `steamloft run` at that latitude (full precision), and 1 against 3 threads byte for byte.
+# The partial response of a fixed latitude is tested in tests/test_strat_linear.c.
 printf '[impactor]\ndiameter_m = 300\ndensity_kg_m3 = 2700\nspeed_km_s = 18\nangle_deg = 45\n[site]\nlatitude_deg = 5\nocean_depth_m = 4000\n' >"$SL_TMP/lat.ini"
 mkdir -p "$SL_TMP/lat1" "$SL_TMP/lat3"
 (cd "$SL_TMP/lat1" && OMP_NUM_THREADS=1 "$SL_BIN" sweep ../lat.ini --vary site.latitude_deg=-60,-25,0,20,50 -o lat.csv >/dev/null 2>err.txt)
