@@ -90,7 +90,9 @@ int sl_output_chain_init(sl_output_chain *oc, const sl_chain *ch, const sl_strat
                      "that re-enters over a wide area: the roughest numbers of this tool",
                      sl_plume_regime_name(pl->regime), per);
         } else if (pl->widest_thermal >= SL_PLUME_WIDE_SCALE_HEIGHTS) {
-            /* The same words as the text summary's and the JSON's validity. */
+            /* The same words as the text summary's and the JSON's validity (the
+             * files' note is about the plume, as for the other regimes: it
+             * leaves out the e-folding's "extrapolated" remark). */
             char brief[64];
             sl_output_validity(1, pl->regime, pl->widest_thermal, 0, brief, sizeof brief, oc->regime_note,
                                sizeof oc->regime_note);

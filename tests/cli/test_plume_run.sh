@@ -86,6 +86,8 @@ v = d["validity"]
 assert d["regime"] == "thermal" and r >= 3 and v.startswith("strained: a thermal %.1f scale heights" % r), (r, v)
 text = open(sys.argv[2]).read()
 assert ("validity" in text) and (v in " ".join(text.split())), "text summary lacks the validity line"
+# The files' note is the plume's part of it (without an e-folding remark, which this case has not).
+assert "extrapolated" not in v, v
 nc = subprocess.run(["ncdump", "-h", sys.argv[3]], capture_output=True, text=True, check=True).stdout
 assert 'validity_warning = "%s"' % v in nc, "netCDF validity_warning differs"
 csvs = glob.glob(sys.argv[4] + "/*.csv")
