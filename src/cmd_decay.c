@@ -250,20 +250,19 @@ static int decay(const decay_opts *o, sl_chain *ch, const sl_cli_globals *g, sl_
     ch->box_input = o->box;
     if (o->calibrate) {
         SL_TRY_RETURN(e, sl_chain_prepare_box(&sc, ch, e));
-        const sl_atmosphere *atm[SL_STRAT_N_REGIONS] = {&ch->strat_atmosphere[1], &ch->strat_atmosphere[0],
-                                                        &ch->strat_atmosphere[1]};
+        const sl_atmosphere *atm[SL_STRAT_N_REGIONS] = {ch->box_atm[1], ch->box_atm[0], ch->box_atm[1]};
         return sl_output_text_calibration(stdout, &ch->strat_params, atm, e);
     }
     SL_TRY_RETURN(e, load_injection(o, &sc, &ch->injection, source, sizeof source, e));
     SL_TRY_RETURN(e, sl_chain_run_from(&sc, ch, SL_CHAIN_T_STRAT, e));
     /* The pipe's flux is the tropical 100-hPa flux: a mid-latitude profile in
      * the tropics (tropopause near 11 km) slows the whole circulation. */
-    if (g->verbosity >= 0 && ch->strat_model.tropopause_m[SL_STRAT_TROPICS] < 14.0e3)
+    if (g->verbosity >= 0 && ch->box_model->tropopause_m[SL_STRAT_TROPICS] < 14.0e3)
         fprintf(stderr,
                 "steamloft decay: warning: the tropical background '%s' has its tropopause at %.1f km; the box "
                 "model is calibrated for a tropical profile there (--tropics-atmosphere tropical)\n",
-                ch->strat_atmosphere[0].name, sl_m_to_km(ch->strat_model.tropopause_m[SL_STRAT_TROPICS]));
-    SL_TRY_RETURN(e, sl_output_text_decay(stdout, &ch->strat_model, &ch->strat, source, o->json, e));
+                ch->box_atm[0]->name, sl_m_to_km(ch->box_model->tropopause_m[SL_STRAT_TROPICS]));
+    SL_TRY_RETURN(e, sl_output_text_decay(stdout, ch->box_model, &ch->strat, source, o->json, e));
     if (o->series)
         sl_output_text_strat_series(stdout, &ch->strat);
     if (sl_output_request_any(&o->out))

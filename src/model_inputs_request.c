@@ -152,7 +152,7 @@ int sl_model_inputs_request_write(const sl_model_inputs_request *rq, const sl_ch
     sl_emission_params_from_scenario(&ep, sc);
     sl_model_inputs mi = {0};
     mi.inj = &ch->injection;
-    mi.atm = ch->have_atmosphere ? &ch->atmosphere : NULL;
+    mi.atm = ch->have_atmosphere ? ch->atm : NULL;
     mi.strat = ch->have_strat_model ? &ch->strat : NULL;
     mi.latitude_deg = sl_rad_to_deg(sl_scenario_value(sc, SL_P_SITE_LATITUDE));
     mi.longitude_deg = sl_rad_to_deg(sl_scenario_value(sc, SL_P_SITE_LONGITUDE));
@@ -203,7 +203,7 @@ int sl_model_inputs_request_write(const sl_model_inputs_request *rq, const sl_ch
         done_forcing = rc == SL_OK;
     }
     if (rc == SL_OK && rq->zonal_path)
-        rc = sl_model_inputs_zonal_write(&mi, ch->have_strat_model ? &ch->strat_model : NULL,
+        rc = sl_model_inputs_zonal_write(&mi, ch->have_strat_model ? ch->box_model : NULL,
                                          rq->zonal_path, force, e);
     if (rc != SL_OK && !force) {
         if (done_forcing)

@@ -133,7 +133,7 @@ int sl_output_chain_init(sl_output_chain *oc, const sl_chain *ch, const sl_strat
         methods |= SL_OUTPUT_USED_PLUME;
     if (series)
         methods |= SL_OUTPUT_USED_STRAT;
-    oc->view = (sl_output_view){&ch->injection, &ch->atmosphere, series, oc->scalars, n, oc->params,
+    oc->view = (sl_output_view){&ch->injection, ch->atm, series, oc->scalars, n, oc->params,
                                 np, oc->title, sc->path, oc->event_time,
                                 oc->regime_note[0] ? oc->regime_note : NULL, methods,
                                 g ? g->full_argc : 0, g ? g->full_argv : NULL,

@@ -20,14 +20,14 @@ int sl_output_decay_write(const sl_output_request *out, const sl_chain *ch, cons
             params[np++] = (sl_output_param){i ? "decay.extratropics_atmosphere" : "decay.tropics_atmosphere",
                                              ch->box_input.atmosphere[i], 0, "set"};
     sl_output_strat os;
-    SL_TRY_RETURN(e, sl_output_strat_init(&os, &ch->strat_model, &ch->strat, e));
+    SL_TRY_RETURN(e, sl_output_strat_init(&os, ch->box_model, &ch->strat, e));
     char title[600], event_time[32];
     snprintf(title, sizeof title, "steamloft decay of %s", source);
     /* Nominal date: the month may be known, the day and year are not. */
     int month = ch->strat_params.start_month;
     snprintf(event_time, sizeof event_time, "2000-%02d-01 00:00:00", month >= 1 && month <= 12 ? month : 1);
     double lat = ch->injection.latitude_deg, edge = ch->strat_params.tropics_edge_deg;
-    const sl_atmosphere *atm = &ch->strat_atmosphere[lat < -edge || lat > edge ? 1 : 0];
+    const sl_atmosphere *atm = ch->box_atm[lat < -edge || lat > edge ? 1 : 0];
     sl_output_view v = {&ch->injection, atm, &os.series, os.scalars, os.n_scalars, params, np, title,
                         profile, event_time, NULL,
                         SL_OUTPUT_USED_ATMOSPHERE | SL_OUTPUT_USED_WATER | SL_OUTPUT_USED_STRAT,

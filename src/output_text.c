@@ -406,7 +406,7 @@ void sl_output_text_strat(sl_report *r, const sl_strat_model *m, const sl_strat_
 static void emit_strat(sl_report *r, const sl_chain *ch)
 {
     if (ch->have_strat_model)
-        sl_output_text_strat(r, &ch->strat_model, &ch->strat);
+        sl_output_text_strat(r, ch->box_model, &ch->strat);
 }
 
 static void emit_parameters(sl_report *r, const sl_chain *ch)
@@ -448,7 +448,7 @@ void sl_output_key_results(const sl_chain *ch, sl_key_results *k)
         const sl_strat_result *st = &ch->strat;
         const double undefined = st->initial_excess_kg > 0.0 ? 0.0 : NAN;
         k->strat_injected_kg = st->injected_kg;
-        k->background_burden_kg = ch->strat_model.reference_background_kg;
+        k->background_burden_kg = ch->box_model->reference_background_kg;
         k->percent_of_background = st->percent_of_background_peak;
         k->efolding_years = sl_s_to_years(st->efolding_s) + undefined;
         k->efolding_extrapolated = st->efolding_extrapolated && isfinite(k->efolding_years);
@@ -602,9 +602,9 @@ static void text_event(FILE *o, const sl_chain *ch, const sl_key_results *k, fmt
     double lat = sc->value_si[SL_P_SITE_LATITUDE] * 180.0 / SL_PI;
     row(o, "place", "%s %s, %s E, ocean %s m deep", f3(f, fabs(lat)), lat < 0 ? "S" : "N",
         f3(f, sc->value_si[SL_P_SITE_LONGITUDE] * 180.0 / SL_PI), f3(f, sc->value_si[SL_P_SITE_OCEAN_DEPTH]));
-    row(o, "atmosphere, sea surface", "%s, %s K", ch->atmosphere.name, f3(f, sc->value_si[SL_P_SITE_SST]));
+    row(o, "atmosphere, sea surface", "%s, %s K", ch->atm->name, f3(f, sc->value_si[SL_P_SITE_SST]));
     char site_line[640]; /* site-aware defaults and a low column's join (site.c) */
-    if (sl_site_describe(&ch->site, &ch->atmosphere, site_line, sizeof site_line))
+    if (sl_site_describe(&ch->site, ch->atm, site_line, sizeof site_line))
         row(o, "site defaults", "%s", site_line);
     if (detail) {
         int m = (int)lround(sc->value_si[SL_P_SITE_MONTH]);
@@ -831,9 +831,9 @@ int sl_output_text_summary(FILE *out, const sl_chain *ch, int json, int detail, 
     sl_report_string(&r, "name", k.name, "name");
     sl_report_string(&r, "kind", k.kind, "event");
     sl_report_string(&r, "validity", k.validity, "validity");
-    sl_report_string(&r, "atmosphere", ch->atmosphere.name, "atmosphere");
+    sl_report_string(&r, "atmosphere", ch->atm->name, "atmosphere");
     char site_line[640]; /* site-aware defaults and a low column's join (site.c) */
-    if (sl_site_describe(&ch->site, &ch->atmosphere, site_line, sizeof site_line))
+    if (sl_site_describe(&ch->site, ch->atm, site_line, sizeof site_line))
         sl_report_string(&r, "site_defaults", site_line, "site defaults");
     double energy = ch->partition.energy_total_J;
     sl_report_number(&r, "energy_J", energy, "energy", 1.0, "J");
