@@ -1,6 +1,7 @@
 # steamloft Makefile.  Toggles (set on the command line, e.g. `make MPI=1`):
 #   OPENMP=1   OpenMP across ensemble members (default on; OPENMP=0 to disable)
 #   MPI=0      MPI=1 builds with mpicc for cluster ensembles
+#   LTO=1      link-time optimisation of the program (default on; LTO=0 to disable)
 #   BUILD=dir  build directory; default build/ (serial) and build-mpi/ (MPI=1),
 #              so the two configurations never share objects
 #   PREFIX, DESTDIR for `make install` and `make uninstall`
@@ -29,8 +30,19 @@ ifeq ($(MPI),1)
   CC = mpicc
   CPPFLAGS += -DSL_HAVE_MPI
 endif
-CFLAGS   ?= -O2 -g
+# -O3 and link-time optimisation: about 7 % less CPU time per scenario than
+# -O2 on the bench ensemble, with byte-identical member files (neither lets the
+# compiler reassociate or contract floating-point arithmetic: no -ffast-math,
+# and -std=c11 keeps -ffp-contract=off).  The library's objects carry both the
+# LTO code and ordinary code (-ffat-lto-objects): the program is linked with
+# LTO, the test programs without it (faster to build, same arithmetic).
+CFLAGS   ?= -O3 -g
+LTO      ?= 1
 override CFLAGS +=  -std=c11 -Wall -Wextra -Wpedantic -MMD -MP
+ifeq ($(LTO),1)
+  override CFLAGS += -flto=auto -ffat-lto-objects
+  BIN_LDFLAGS := -flto=auto
+endif
 CPPFLAGS += -D_GNU_SOURCE -Iinclude -I$(BUILD)/gen -DSL_VERSION=\"$(VERSION)\"
 PKG_CFLAGS := $(shell pkg-config --cflags $(PKGS) 2>/dev/null)
 PKG_LIBS   := $(shell pkg-config --libs $(PKGS) 2>/dev/null)
@@ -101,11 +113,11 @@ $(LIB): $(OBJ)
 	ar rcs $@ $^
 
 $(BIN): $(BUILD)/obj/main.o $(LIB)
-	$(CC) $(LDFLAGS) -o $@ $^ $(LDLIBS)
+	$(CC) $(CFLAGS) $(LDFLAGS) $(BIN_LDFLAGS) -o $@ $^ $(LDLIBS)
 
 $(BUILD)/tests/%: tests/%.c tests/sl_test.h $(LIB)
 	@mkdir -p $(@D)
-	$(CC) $(CPPFLAGS) -Itests $(CFLAGS) $(LDFLAGS) -o $@ $< $(LIB) $(LDLIBS) $(CHECK_LIBS)
+	$(CC) $(CPPFLAGS) -Itests $(CFLAGS) -fno-lto $(LDFLAGS) -o $@ $< $(LIB) $(LDLIBS) $(CHECK_LIBS)
 
 check: ensure-test-deps
 	@$(MAKE) --no-print-directory check-run
@@ -161,7 +173,7 @@ atmospheres: build
 
 sanitize: ensure-test-deps
 	@LSAN_OPTIONS=suppressions=$(CURDIR)/tests/lsan.supp:print_suppressions=0 \
-	  $(MAKE) --no-print-directory BUILD=build-sanitize OPENMP=$(OPENMP) \
+	  $(MAKE) --no-print-directory BUILD=build-sanitize OPENMP=$(OPENMP) LTO=0 \
 	  CFLAGS="-O1 -g -fsanitize=address,undefined -fno-sanitize-recover=undefined -fno-omit-frame-pointer" \
 	  LDFLAGS="-fsanitize=address,undefined" check-run
 

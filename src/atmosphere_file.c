@@ -178,7 +178,7 @@ static int check_levels(const origin *o, size_t n, const double *z, const double
         }
     }
     if (z[0] <= 86000.0 && z[0] >= 0.0) {
-        double p_std;
+        double p_std = NAN;
         SL_TRY_RETURN(e, sl_atmosphere_us1976(z[0], NULL, &p_std, NULL, e));
         if (!(p[0] > p_std / 3.0 && p[0] < 3.0 * p_std)) {
             where(o, 0, Q_PRES, w, sizeof w);

@@ -117,7 +117,7 @@ int sl_cmd_atmos(int argc, char **argv, const sl_cli_globals *g)
         if (unit) {
             char num[64];
             snprintf(num, sizeof num, "%.*s", (int)(len - strlen(unit)), at_text);
-            double v;
+            double v = NAN;
             if (sl_cli_parse_double(num, "--at PRESSURE", &v, &e) != SL_OK || !(v > 0.0))
                 return sl_cli_usage_error(g, "atmos", "--at %s: the pressure must be a positive number of %s",
                                           at_text, unit);

@@ -115,7 +115,7 @@ static int parse_args(int argc, char **argv, ens_cli *c, const sl_cli_globals *g
     *done = 0;
     int ch;
     while ((ch = getopt_long(argc, argv, ":n:s:o:p:x:j:h", opts, NULL)) != -1) {
-        size_t v;
+        size_t v = 0;
         switch (ch) {
         case 'h': print_help(c->cmd); *done = 1; return EX_OK;
         case 'n':

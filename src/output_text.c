@@ -875,7 +875,7 @@ void sl_output_text_strat_series(FILE *out, const sl_strat_result *r)
 int sl_output_text_calibration(FILE *out, const sl_strat_params *p,
                                const sl_atmosphere *const atm[SL_STRAT_N_REGIONS], sl_err *e)
 {
-    sl_strat_params fit;
+    sl_strat_params fit = *p; /* filled by sl_strat_calibrate */
     sl_strat_calibration before, after;
     SL_TRY_RETURN(e, sl_strat_diagnose(p, atm, &before, e));
     SL_TRY_RETURN(e, sl_strat_calibrate(p, atm, &fit, &after, e));

@@ -287,7 +287,7 @@ static int shock_vapor(sl_partition *pt, const sl_partition_input *in, double *v
     imp.density_kg_m3 = in->impactor_density_kg_m3; /* the body's own bulk density */
     const sl_hugoniot *w = &sl_partition_hugoniots[0];
     double vn = en->sea_speed_m_s * sin(en->sea_angle_rad);
-    double u, p_ic;
+    double u = NAN, p_ic = NAN;
     SL_TRY_RETURN(e, sl_partition_planar_impact(&imp, w, vn, &u, &p_ic, e));
     double v_km_s = vn * 1e-3;
     double a_m = cbrt(3.0 * en->sea_mass_kg / (4.0 * SL_PI * in->impactor_density_kg_m3));
