@@ -31,6 +31,9 @@
 # 1000000 --seed 1 --threads 2 -o out.csv --netcdf out.nc` on 2 quiet cores: 110 s wall (107 s to
 # the end of the members), 208 s user CPU, 89.1 MiB peak RSS; the member CSV byte-identical to the
 # 1-thread run's (189 s).
+# Measured 2026-12-04 (issue 14: -O3 and link-time optimisation), same command, the machine slower
+# than in the run above (the -O2 build took 11.5-12.5 s wall for 1e5 members, 10.6-11.9 s the new
+# one, in alternating pairs): 114 s wall, 213 s user CPU, 89.5 MiB peak RSS.
 set -u
 build=${1:-build}
 bin="$build/steamloft"
