@@ -30,7 +30,7 @@ ifeq ($(MPI),1)
   CC = mpicc
   CPPFLAGS += -DSL_HAVE_MPI
 endif
-# -O3 and link-time optimisation: about 7 % less CPU time per scenario than
+# -O3 and link-time optimisation: 5-7 % less CPU time per scenario than
 # -O2 on the bench ensemble, with byte-identical member files (neither lets the
 # compiler reassociate or contract floating-point arithmetic: no -ffast-math,
 # and -std=c11 keeps -ffp-contract=off).  The library's objects carry both the
