@@ -271,15 +271,19 @@ typedef struct chain_ws {
  * derived defaults exactly as for one run). */
 static int set_inputs(const sl_ens_chain *c, sl_scenario *sc, const double *in_si, sl_err *e)
 {
+    enum { MAX_IN = SL_P_COUNT + SL_ENS_MAX_VARY };
+    sl_param_id ids[MAX_IN];
+    const char *labels[MAX_IN];
+    size_t n = c->plan->n_inputs;
+    if (n > MAX_IN)
+        SL_FAIL_RETURN(e, SL_EINTERNAL, "ensemble: %zu inputs, at most %d", n, (int)MAX_IN);
     *sc = *c->base;
-    for (size_t k = 0; k < c->plan->n_inputs; k++) {
-        const char *label = sl_ens_input_label(c->plan, k, in_si[k]); /* a text key: its index */
-        if (label)
-            SL_TRY_RETURN(e, sl_scenario_set_text(sc, (sl_param_id)c->ids[k], label, e));
-        else
-            SL_TRY_RETURN(e, sl_scenario_set_id(sc, (sl_param_id)c->ids[k], in_si[k], e));
+    for (size_t k = 0; k < n; k++) {
+        ids[k] = (sl_param_id)c->ids[k];
+        labels[k] = sl_ens_input_label(c->plan, k, in_si[k]); /* a text key: its index */
     }
-    return SL_OK;
+    /* All keys, then the derived defaults once (not once per key). */
+    return sl_scenario_set_values(sc, n, ids, in_si, labels, e);
 }
 
 static void chain_ws_free(void *p)

@@ -879,6 +879,25 @@ int sl_scenario_set_text(sl_scenario *sc, sl_param_id id, const char *text, sl_e
     return SL_OK;
 }
 
+int sl_scenario_set_values(sl_scenario *sc, size_t n, const sl_param_id *ids, const double *values_si,
+                           const char *const *texts, sl_err *e)
+{
+    const int finished = sc->finished;
+    sc->finished = 0; /* no resolve per key: once, below */
+    for (size_t k = 0; k < n; k++) {
+        int rc = texts && texts[k] ? sl_scenario_set_text(sc, ids[k], texts[k], e)
+                                   : sl_scenario_set_id(sc, ids[k], values_si[k], e);
+        if (rc != SL_OK) {
+            sc->finished = finished;
+            return rc;
+        }
+    }
+    sc->finished = finished;
+    if (finished)
+        SL_TRY_RETURN(e, resolve(sc, e));
+    return SL_OK;
+}
+
 int sl_scenario_set(sl_scenario *sc, const char *section_dot_key, double value_si, sl_err *e)
 {
     int id = sl_scenario_find(section_dot_key);

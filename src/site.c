@@ -16,24 +16,26 @@ static void say(char *why, size_t n, const char *text)
 const char *sl_site_atmosphere(double latitude_deg, int month, char *why, size_t why_len)
 {
     const double a = fabs(latitude_deg);
-    char buf[192];
+    /* The reason is written only when asked for (the ensemble resolves every
+     * member's site without one: no formatting per member). */
+    const int tell = why && why_len > 0;
     if (!(a < 90.0 + 1e-9) || month < 0 || month > 12) {
         say(why, why_len, "latitude or month out of range: us1976-humid");
         return "us1976-humid";
     }
     if (a < SL_SITE_TROPICS_EDGE_DEG) {
-        snprintf(buf, sizeof buf, "latitude %.1f deg is within %.0f deg of the equator: tropical (all year)",
-                 latitude_deg, SL_SITE_TROPICS_EDGE_DEG);
-        say(why, why_len, buf);
+        if (tell)
+            snprintf(why, why_len, "latitude %.1f deg is within %.0f deg of the equator: tropical (all year)",
+                     latitude_deg, SL_SITE_TROPICS_EDGE_DEG);
         return "tropical";
     }
     const int sub = a >= SL_SITE_SUBARCTIC_EDGE_DEG;
     const char *band = sub ? "sub-arctic" : "mid-latitude";
     if (month == 0) {
-        snprintf(buf, sizeof buf,
-                 "latitude %.1f deg is %s, month not given: the annual-mean standard us1976-humid", latitude_deg,
-                 band);
-        say(why, why_len, buf);
+        if (tell)
+            snprintf(why, why_len,
+                     "latitude %.1f deg is %s, month not given: the annual-mean standard us1976-humid", latitude_deg,
+                     band);
         return "us1976-humid";
     }
     /* Northern summer April-September; the southern hemisphere flips. */
@@ -42,9 +44,9 @@ const char *sl_site_atmosphere(double latitude_deg, int month, char *why, size_t
         summer = !summer;
     const char *name = sub ? (summer ? "subarctic-summer" : "subarctic-winter")
                            : (summer ? "midlatitude-summer" : "midlatitude-winter");
-    snprintf(buf, sizeof buf, "latitude %.1f deg is %s (%s hemisphere), month %d is its %s: %s", latitude_deg, band,
-             latitude_deg < 0.0 ? "southern" : "northern", month, summer ? "summer" : "winter", name);
-    say(why, why_len, buf);
+    if (tell)
+        snprintf(why, why_len, "latitude %.1f deg is %s (%s hemisphere), month %d is its %s: %s", latitude_deg,
+                 band, latitude_deg < 0.0 ? "southern" : "northern", month, summer ? "summer" : "winter", name);
     return name;
 }
 

@@ -376,6 +376,59 @@ START_TEST(date_sets_the_month)
 }
 END_TEST
 
+START_TEST(set_values_resolves_once_on_the_final_values)
+{
+    /* sl_scenario_set_values (an ensemble member's inputs): the keys first,
+     * then the derived defaults once, so a check that ties two keys together
+     * sees both new values.  Set one key at a time, the month is checked
+     * against the old date and refused. */
+    const char *t = "[explosion]\nenergy_Mt = 1\n[site]\nlatitude_deg = 30\ndate = 2022-01-15\nmonth = 1\n";
+    sl_scenario sc, one;
+    sl_err e = {0};
+    ck_assert_int_eq(sl_scenario_load_string(&sc, "m.ini", t, &e), SL_OK);
+    one = sc;
+    ck_assert_int_eq(sl_scenario_set_id(&one, SL_P_SITE_MONTH, 7.0, &e), SL_EDATA);
+    ck_assert_ptr_nonnull(strstr(e.msg, "does not agree with [site] date"));
+    const sl_param_id ids[2] = {SL_P_SITE_DATE, SL_P_SITE_MONTH};
+    const double v[2] = {NAN, 7.0};
+    const char *x[2] = {"2022-07-01", NULL}; /* the date is a text key */
+    ck_assert_int_eq(sl_scenario_set_values(&sc, 2, ids, v, x, &e), SL_OK);
+    ck_assert_double_eq(sl_scenario_value(&sc, SL_P_SITE_DATE), 19174.0 * 86400.0);
+    ck_assert_double_eq(sl_scenario_value(&sc, SL_P_SITE_MONTH), 7.0);
+    ck_assert_int_eq(sc.finished, 1);
+    /* Derived defaults as one key at a time gives them: northern summer at
+     * 50 N, a mid-latitude sea; a text key through TEXTS. */
+    const char *b = "[impactor]\ndiameter_m = 40\ndensity_kg_m3 = 3300\nspeed_km_s = 19\nangle_deg = 45\n"
+                    "[site]\nlatitude_deg = 10\nmonth = 1\n";
+    sl_scenario a, s1;
+    ck_assert_int_eq(sl_scenario_load_string(&a, "b.ini", b, &e), SL_OK);
+    s1 = a;
+    const sl_param_id k3[3] = {SL_P_SITE_LATITUDE, SL_P_IMPACTOR_DENSITY, SL_P_PARTITION_METHOD};
+    const double v3[3] = {sl_deg_to_rad(50.0), 7800.0, NAN};
+    const char *x3[3] = {NULL, NULL, "shock"};
+    ck_assert_int_eq(sl_scenario_set_values(&a, 3, k3, v3, x3, &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_set_id(&s1, SL_P_SITE_LATITUDE, v3[0], &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_set_id(&s1, SL_P_IMPACTOR_DENSITY, v3[1], &e), SL_OK);
+    ck_assert_int_eq(sl_scenario_set_text(&s1, SL_P_PARTITION_METHOD, "shock", &e), SL_OK);
+    for (int id = 0; id < SL_P_COUNT; id++) {
+        ck_assert_msg(a.origin[id] == s1.origin[id], "origin of %s", sl_scenario_params[id].key);
+        ck_assert_msg(memcmp(&a.value_si[id], &s1.value_si[id], sizeof(double)) == 0, "value of %s",
+                      sl_scenario_params[id].key);
+        ck_assert_str_eq(a.raw[id], s1.raw[id]);
+    }
+    ck_assert_str_eq(sl_scenario_text(&a, SL_P_SITE_ATMOSPHERE), "midlatitude-winter");
+    ck_assert_double_eq(sl_scenario_value(&a, SL_P_IMPACTOR_STRENGTH),
+                        sl_scenario_value(&a, SL_P_ENTRY_IRON_STRENGTH));
+    /* A bad value stops there, with its range; the scenario stays finished. */
+    const sl_param_id k2[2] = {SL_P_IMPACTOR_DIAMETER, SL_P_IMPACTOR_SPEED};
+    const double v2[2] = {30.0, 5000.0};
+    ck_assert_int_eq(sl_scenario_set_values(&a, 2, k2, v2, NULL, &e), SL_EDATA);
+    ck_assert_ptr_nonnull(strstr(e.msg, "11 to 73 km/s"));
+    ck_assert_int_eq(a.finished, 1);
+    ck_assert_double_eq(sl_scenario_value(&a, SL_P_IMPACTOR_DIAMETER), 30.0);
+}
+END_TEST
+
 static Suite *scenario_suite(void)
 {
     Suite *s = suite_create("scenario");
@@ -390,6 +443,7 @@ static Suite *scenario_suite(void)
     tcase_add_test(tc, provenance_lists_resolved_values);
     tcase_add_test(tc, override_as_written_in_the_file);
     tcase_add_test(tc, date_sets_the_month);
+    tcase_add_test(tc, set_values_resolves_once_on_the_final_values);
     suite_add_tcase(s, tc);
     return s;
 }

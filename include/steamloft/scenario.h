@@ -363,6 +363,17 @@ int sl_scenario_set_id(sl_scenario *sc, sl_param_id id, double value_si, sl_err 
  * member). */
 int sl_scenario_set_text(sl_scenario *sc, sl_param_id id, const char *text, sl_err *e);
 
+/* Set N keys at once: key IDS[k] to VALUES_SI[k] as sl_scenario_set_id does,
+ * or, where TEXTS and TEXTS[k] are not NULL, to that text as
+ * sl_scenario_set_text does.  On a finished scenario the derived defaults are
+ * re-resolved once, after the last key, so the checks that tie keys together
+ * (a month that must agree with the date, an airburst below the start
+ * altitude) see the final values, not a mixture of old and new ones.  Stops
+ * at the first error (the codes of those two functions), the keys before it
+ * set.  Allocates nothing (an ensemble calls it for every member). */
+int sl_scenario_set_values(sl_scenario *sc, size_t n, const sl_param_id *ids, const double *values_si,
+                           const char *const *texts, sl_err *e);
+
 /* SI value of a numeric key (NaN when unset). */
 double sl_scenario_value(const sl_scenario *sc, sl_param_id id);
 /* Whether a key has a value (given, defaulted, derived or set). */
