@@ -111,6 +111,7 @@ static int load_atmosphere(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     const char *name = sl_scenario_text(sc, SL_P_SITE_ATMOSPHERE);
     if (ch->have_atmosphere && strcmp(ch->atmosphere_name, name) == 0)
         return SL_OK;
+    sl_cloud_levels_forget(&ch->cloud_levels); /* another profile (a set-aside one comes back by a struct move) */
     if (ch->have_atmosphere && !ch->atmosphere_borrowed) { /* a built-in is set aside, a file profile freed */
         int slot = -1;
         for (int i = 0; sl_atmosphere_builtin_names[i] && i < SL_ATMOSPHERE_MAX_BUILTINS; i++)
@@ -193,11 +194,14 @@ static int stage_plume(const sl_scenario *sc, sl_chain *ch, sl_err *e)
     }
     if (ch->injection.n_bands == 0 || b0 != ch->band_bottom_m || b1 != ch->band_top_m || bw != ch->band_width_m) {
         sl_injection_free(&ch->injection);
+        sl_cloud_levels_forget(&ch->cloud_levels); /* a new grid may reuse the old arrays' addresses */
         SL_TRY_RETURN(e, sl_injection_init_uniform(&ch->injection, b0, b1, bw, e));
         ch->band_bottom_m = b0;
         ch->band_top_m = b1;
         ch->band_width_m = bw;
     }
+    SL_TRY_RETURN(e, sl_cloud_levels_bind(&ch->cloud_levels, ch->atm, &ch->injection, e));
+    ch->plume.levels = &ch->cloud_levels;
     SL_TRY_RETURN(e, sl_plume_solve(&ch->plume, ch->atm, &ch->partition.sources, &ch->injection, e));
     ch->injection.latitude_deg = sl_rad_to_deg(sl_scenario_value(sc, SL_P_SITE_LATITUDE));
     {   /* where and when, carried into the files (emission.h: the [site] keys) */
@@ -433,6 +437,7 @@ void sl_chain_free(sl_chain *ch)
     sl_partition_free(&ch->partition);
     sl_plume_free(&ch->plume);
     sl_injection_free(&ch->injection);
+    sl_cloud_levels_free(&ch->cloud_levels);
     sl_strat_response_free(&ch->strat_response);
     sl_strat_result_free(&ch->strat);
     sl_strat_model_free(&ch->strat_model);

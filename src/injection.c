@@ -273,20 +273,27 @@ static int cloud_level(const sl_atmosphere *atm, double altitude_m, sl_atmos_cur
  * tropical profile, within 3e-11 per 1 km band, where 4-point
  * Gauss-Legendre on 500 m pieces straddling the profile's levels erred by up
  * to 4e-6 near the tropopause). */
+static void umbrella_coeffs(const sl_young_cloud *c, double z0, double z1, double *alpha, double *beta)
+{
+    double a = c->bottom_m, b = c->top_m, m = c->peak_m, zm = 0.5 * (z0 + z1);
+    *alpha = 0.0;
+    *beta = 0.0;
+    if (zm <= m) {
+        if (m > a) {
+            *beta = 2.0 / ((b - a) * (m - a));
+            *alpha = -a * *beta;
+        }
+    } else if (b > m) {
+        *beta = -2.0 / ((b - a) * (b - m));
+        *alpha = -b * *beta;
+    }
+}
+
 static int umbrella_piece(const sl_atmosphere *atm, const sl_young_cloud *c, double z0, double z1,
                           sl_atmos_cursor *cur, double *w, sl_err *e)
 {
-    double a = c->bottom_m, b = c->top_m, m = c->peak_m, zm = 0.5 * (z0 + z1);
-    double alpha = 0.0, beta = 0.0;
-    if (zm <= m) {
-        if (m > a) {
-            beta = 2.0 / ((b - a) * (m - a));
-            alpha = -a * beta;
-        }
-    } else if (b > m) {
-        beta = -2.0 / ((b - a) * (b - m));
-        alpha = -b * beta;
-    }
+    double alpha, beta;
+    umbrella_coeffs(c, z0, z1, &alpha, &beta);
     double m0, m1;
     SL_TRY_RETURN(e, sl_atmosphere_layer_mass(atm, z0, z1, cur, &m0, &m1, e));
     *w = alpha * m0 + beta * m1;
@@ -294,9 +301,11 @@ static int umbrella_piece(const sl_atmosphere *atm, const sl_young_cloud *c, dou
 }
 
 /* sl_injection_umbrella_weight with the caller's search cursor (the cursor
- * only says where a search starts: the numbers are the same). */
+ * only says where a search starts: the numbers are the same) and, for band I
+ * = [Z0, Z1] covered whole by the cloud and not split at its mode, the band's
+ * moments from LV (kept there on first use; LV NULL: computed). */
 static int umbrella_weight(const sl_atmosphere *atm, const sl_young_cloud *c, double z0, double z1,
-                           sl_atmos_cursor *cur, double *w, sl_err *e)
+                           sl_atmos_cursor *cur, double *w, sl_cloud_levels *lv, size_t i, sl_err *e)
 {
     *w = 0.0;
     double a = fmax(z0, c->bottom_m), b = fmin(z1, c->top_m);
@@ -306,6 +315,14 @@ static int umbrella_weight(const sl_atmosphere *atm, const sl_young_cloud *c, do
     if (m > a && m < b) {
         SL_TRY_RETURN(e, umbrella_piece(atm, c, a, m, cur, &w1, e));
         SL_TRY_RETURN(e, umbrella_piece(atm, c, m, b, cur, &w2, e));
+    } else if (lv && a == z0 && b == z1) {
+        if (!(lv->have[i] & 1u)) {
+            SL_TRY_RETURN(e, sl_atmosphere_layer_mass(atm, z0, z1, cur, &lv->m0[i], &lv->m1[i], e));
+            lv->have[i] |= 1u;
+        }
+        double alpha, beta;
+        umbrella_coeffs(c, a, b, &alpha, &beta);
+        w1 = alpha * lv->m0[i] + beta * lv->m1[i];
     } else
         SL_TRY_RETURN(e, umbrella_piece(atm, c, a, b, cur, &w1, e));
     *w = w1 + w2;
@@ -316,11 +333,61 @@ int sl_injection_umbrella_weight(const sl_atmosphere *atm, const sl_young_cloud 
                                  sl_err *e)
 {
     sl_atmos_cursor cur = {0};
-    return umbrella_weight(atm, c, z0, z1, &cur, w, e);
+    return umbrella_weight(atm, c, z0, z1, &cur, w, NULL, 0, e);
 }
 
 int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl_young_cloud *c,
                            double sediment_fraction, sl_freeze_out *tally, sl_err *e)
+{
+    return sl_injection_add_cloud_kept(inj, atm, c, sediment_fraction, tally, NULL, e);
+}
+
+int sl_cloud_levels_bind(sl_cloud_levels *lv, const sl_atmosphere *atm, const sl_injection *inj, sl_err *e)
+{
+    size_t n = inj->n_bands;
+    if (n > lv->cap) {
+        sl_cloud_levels_free(lv);
+        lv->have = calloc(n, 1);
+        lv->m0 = malloc(n * sizeof(double));
+        lv->m1 = malloc(n * sizeof(double));
+        lv->r_ice = malloc(n * sizeof(double));
+        lv->r_bg = malloc(n * sizeof(double));
+        if (!lv->have || !lv->m0 || !lv->m1 || !lv->r_ice || !lv->r_bg) {
+            sl_cloud_levels_free(lv);
+            SL_FAIL_RETURN(e, SL_ENOMEM, "cloud levels: out of memory for %zu bands", n);
+        }
+        lv->cap = n;
+    } else if (lv->atm != atm || lv->grid != inj->band_bottom_m || lv->n_bands != n) {
+        memset(lv->have, 0, lv->cap);
+    }
+    lv->atm = atm;
+    lv->grid = inj->band_bottom_m;
+    lv->n_bands = n;
+    return SL_OK;
+}
+
+void sl_cloud_levels_forget(sl_cloud_levels *lv)
+{
+    if (lv && lv->have)
+        memset(lv->have, 0, lv->cap);
+    if (lv)
+        lv->atm = NULL;
+}
+
+void sl_cloud_levels_free(sl_cloud_levels *lv)
+{
+    if (lv == NULL)
+        return;
+    free(lv->have);
+    free(lv->m0);
+    free(lv->m1);
+    free(lv->r_ice);
+    free(lv->r_bg);
+    memset(lv, 0, sizeof *lv);
+}
+
+int sl_injection_add_cloud_kept(sl_injection *inj, const sl_atmosphere *atm, const sl_young_cloud *c,
+                                double sediment_fraction, sl_freeze_out *tally, sl_cloud_levels *lv, sl_err *e)
 {
     sl_freeze_out t = {0};
     if (inj == NULL || inj->n_bands == 0 || atm == NULL || atm->n < 2 || c == NULL)
@@ -335,6 +402,9 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
                        c->top_m, lo, hi);
     double thick = c->top_m - c->bottom_m;
     sl_atmos_cursor cur = {0};
+    /* Kept values only where LV belongs to this profile and these bands. */
+    if (!(lv && lv->atm == atm && lv->grid == inj->band_bottom_m && lv->n_bands == inj->n_bands))
+        lv = NULL;
     int tent = thick > 0.0 && c->peak_m >= c->bottom_m && c->peak_m <= c->top_m;
     /* Placement by mass: the umbrella's weight of each band, normalised by
      * their sum (so the shares add up to 1 to rounding).  The weights are
@@ -347,7 +417,7 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
     if (tent) {
         for (size_t i = 0; i < inj->n_bands; i++) {
             double wb;
-            SL_TRY_RETURN(e, umbrella_weight(atm, c, inj->band_bottom_m[i], inj->band_top_m[i], &cur, &wb, e));
+            SL_TRY_RETURN(e, umbrella_weight(atm, c, inj->band_bottom_m[i], inj->band_top_m[i], &cur, &wb, lv, i, e));
             if (cached)
                 wcache[i] = wb;
             wsum += wb;
@@ -367,7 +437,7 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
                 if (cached) /* the band clipped to the cloud: the same integral */
                     wb = wcache[i];
                 else
-                    SL_TRY_RETURN(e, umbrella_weight(atm, c, a, b, &cur, &wb, e));
+                    SL_TRY_RETURN(e, umbrella_weight(atm, c, a, b, &cur, &wb, NULL, 0, e));
                 f = wb / wsum;
             } else
                 f = (b - a) / thick;
@@ -379,7 +449,15 @@ int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl
             f = 1.0;
         }
         double r_ice = 0.0, r_bg = 0.0;
-        SL_TRY_RETURN(e, cloud_level(atm, 0.5 * (a + b), &cur, &r_ice, &r_bg, e));
+        if (lv && thick > 0.0 && a == inj->band_bottom_m[i] && b == inj->band_top_m[i]) {
+            if (!(lv->have[i] & 2u)) {
+                SL_TRY_RETURN(e, cloud_level(atm, 0.5 * (a + b), &cur, &lv->r_ice[i], &lv->r_bg[i], e));
+                lv->have[i] |= 2u;
+            }
+            r_ice = lv->r_ice[i];
+            r_bg = lv->r_bg[i];
+        } else
+            SL_TRY_RETURN(e, cloud_level(atm, 0.5 * (a + b), &cur, &r_ice, &r_bg, e));
         double air = c->air_kg * f, water = c->water_kg * f;
         double vap = fmin(water, air * r_ice);
         double ice = water - vap;

@@ -1232,7 +1232,7 @@ static int add_layer(sl_plume *pl, sl_injection *inj, const sl_atmosphere *atm, 
     c.water_kg = water * keep;
     c.peak_m = tent ? fmin(fmax(peak, c.bottom_m), c.top_m) : NAN;
     sl_freeze_out fo;
-    SL_TRY_RETURN(e, sl_injection_add_cloud(inj, atm, &c, pl->par.ice_sediment_fraction, &fo, e));
+    SL_TRY_RETURN(e, sl_injection_add_cloud_kept(inj, atm, &c, pl->par.ice_sediment_fraction, &fo, pl->levels, e));
     pl->water_sedimented_kg += fo.sedimented_kg;
     pl->water_air_humidity_kg += fo.background_kg;
     return SL_OK;

@@ -633,6 +633,73 @@ START_TEST(test_freeze_out)
 END_TEST
 
 
+/* Kept cloud levels (sl_cloud_levels): clouds placed with the whole bands'
+ * values kept from cloud to cloud give the same bits as clouds placed
+ * without them, for tents, uniform layers and a thin sheet, on one profile
+ * and after a switch to another; a binding to another profile or grid is not
+ * used. */
+static void place_both(sl_injection *a, sl_injection *b, const sl_atmosphere *atm, const sl_young_cloud *c,
+                       sl_cloud_levels *lv)
+{
+    sl_err e = {0};
+    sl_freeze_out fa, fb;
+    sl_injection_clear(a);
+    sl_injection_clear(b);
+    ck_assert_int_eq(sl_injection_add_cloud(a, atm, c, 0.5, &fa, &e), SL_OK);
+    ck_assert_int_eq(sl_injection_add_cloud_kept(b, atm, c, 0.5, &fb, lv, &e), SL_OK);
+    ck_assert(memcmp(a->vapor_kg, b->vapor_kg, a->n_bands * sizeof(double)) == 0);
+    ck_assert(memcmp(a->ice_kg, b->ice_kg, a->n_bands * sizeof(double)) == 0);
+    ck_assert(memcmp(&fa, &fb, sizeof fa) == 0);
+}
+
+START_TEST(test_kept_cloud_levels)
+{
+    sl_atmosphere trop = {0}, sub = {0};
+    sl_err e = {0};
+    ck_assert_msg(sl_atmosphere_init(&trop, "tropical", &e) == SL_OK, "%s", e.msg);
+    ck_assert_msg(sl_atmosphere_init(&sub, "subarctic-winter", &e) == SL_OK, "%s", e.msg);
+    sl_injection a = {0}, b = {0};
+    ck_assert_int_eq(sl_injection_init_uniform(&a, 0.0, 100e3, 1e3, &e), SL_OK);
+    ck_assert_int_eq(sl_injection_init_uniform(&b, 0.0, 100e3, 1e3, &e), SL_OK);
+    const sl_young_cloud clouds[] = {
+        {20000.0, 50000.0, 1.0e12, 1.0e9, 24000.0}, /* a tent, mode inside a band */
+        {17300.0, 34500.0, 9.0e11, 5.0e8, 17300.0}, /* mode at the bottom, partial end bands */
+        {12000.0, 22000.0, 3.0e11, 2.0e8, 15000.0}, /* mode on a band edge */
+        {15500.0, 28250.0, 2.0e11, 1.0e8, NAN},     /* uniform */
+        {26000.0, 26000.0, 1.0e10, 1.0e7, NAN},     /* a thin sheet */
+    };
+    const size_t nc = sizeof clouds / sizeof clouds[0];
+    sl_cloud_levels lv = {0};
+    ck_assert_int_eq(sl_cloud_levels_bind(&lv, &trop, &b, &e), SL_OK);
+    for (int pass = 0; pass < 2; pass++) /* the second pass reads what the first kept */
+        for (size_t k = 0; k < nc; k++)
+            place_both(&a, &b, &trop, &clouds[k], &lv);
+    size_t kept = 0;
+    for (size_t i = 0; i < lv.n_bands; i++)
+        kept += lv.have[i] == 3u;
+    ck_assert_msg(kept >= 30, "%zu bands kept", kept); /* 20-50 km whole, and more */
+    /* Bound to the tropical profile, used on another: not used (same bits). */
+    place_both(&a, &b, &sub, &clouds[0], &lv);
+    /* Rebound to the other profile: the kept values are dropped and refilled. */
+    ck_assert_int_eq(sl_cloud_levels_bind(&lv, &sub, &b, &e), SL_OK);
+    for (size_t i = 0; i < lv.n_bands; i++)
+        ck_assert_int_eq(lv.have[i], 0);
+    for (size_t k = 0; k < nc; k++)
+        place_both(&a, &b, &sub, &clouds[k], &lv);
+    /* Forgotten: nothing kept. */
+    sl_cloud_levels_forget(&lv);
+    ck_assert_ptr_null(lv.atm);
+    for (size_t i = 0; i < lv.n_bands; i++)
+        ck_assert_int_eq(lv.have[i], 0);
+    place_both(&a, &b, &sub, &clouds[0], &lv); /* unbound: computed */
+    sl_cloud_levels_free(&lv);
+    sl_injection_free(&a);
+    sl_injection_free(&b);
+    sl_atmosphere_free(&trop);
+    sl_atmosphere_free(&sub);
+}
+END_TEST
+
 /* Placement by mass: the umbrella's volume is spread by the triangular
  * profile peaked at the neutral level and its mass is that volume times the
  * ambient density (Sparks 1986; Woods 1988).  Checked against an independent
@@ -1022,6 +1089,7 @@ static Suite *plume_suite(void)
     tcase_add_test(tc, test_spray_collapse);
     tcase_add_test(tc, test_reuse_is_deterministic);
     tcase_add_test(tc, test_sources_add_up);
+    tcase_add_test(tc, test_kept_cloud_levels);
     tcase_add_test(tc, test_random_sources);
     suite_add_tcase(s, tc);
     return s;

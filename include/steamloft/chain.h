@@ -105,6 +105,9 @@ typedef struct sl_chain {
     int have_plume;
     sl_injection injection;        /* lofted water by altitude band */
     double band_bottom_m, band_top_m, band_width_m; /* the bands the injection holds */
+    sl_cloud_levels cloud_levels;  /* the whole bands' cloud-level values on atm and these bands,
+                                      kept from member to member (injection.h); forgotten whenever
+                                      the profile or the bands change */
     /* Box model: backgrounds of the tropics [0] and extratropics [1], and the
      * model (propagators), rebuilt only when [strat] keys, the month or the
      * backgrounds change; the result arrays are reused. */

@@ -124,4 +124,37 @@ typedef struct sl_freeze_out {
 int sl_injection_add_cloud(sl_injection *inj, const sl_atmosphere *atm, const sl_young_cloud *cloud,
                            double sediment_fraction, sl_freeze_out *tally, sl_err *e);
 
+/* What a band the young cloud covers whole needs from the profile, kept from
+ * one cloud to the next: its air-mass moments (the umbrella weight) and the
+ * ice-saturation and background mixing ratios at its middle (the
+ * freeze-out).  They depend only on the profile and the band, so a caller
+ * that places many clouds on one profile and one band grid (a chain running
+ * ensemble members) computes each once; partial bands are computed every
+ * time.  The numbers are the same bits as without it.  Opt-in: the values
+ * are tied to the profile and the grid by pointer, so the owner must call
+ * sl_cloud_levels_forget whenever its profile or band grid may have changed,
+ * even at the same address. */
+typedef struct sl_cloud_levels {
+    const sl_atmosphere *atm;  /* the profile the kept values belong to (NULL: none yet) */
+    const double *grid;        /* the band_bottom_m array of the injection they belong to */
+    size_t n_bands, cap;
+    unsigned char *have;       /* per band: bit 0 moments kept, bit 1 mixing ratios kept */
+    double *m0, *m1;           /* air mass and its first moment over the band (sl_atmosphere_layer_mass) */
+    double *r_ice, *r_bg;      /* ice-saturation and background mixing ratios at the band's middle */
+} sl_cloud_levels;
+
+/* Tie LV to ATM and the bands of INJ: kept values are dropped when either
+ * differs from the last call.  Allocates only when the grid outgrows what LV
+ * holds (SL_ENOMEM). */
+int sl_cloud_levels_bind(sl_cloud_levels *lv, const sl_atmosphere *atm, const sl_injection *inj, sl_err *e);
+/* Drop every kept value (the profile or the grid may change in place). */
+void sl_cloud_levels_forget(sl_cloud_levels *lv);
+void sl_cloud_levels_free(sl_cloud_levels *lv);
+
+/* sl_injection_add_cloud with the whole bands' values taken from, and kept
+ * in, LV when LV is bound to ATM and INJ (sl_cloud_levels_bind); LV NULL or
+ * bound to others: computed as sl_injection_add_cloud does. */
+int sl_injection_add_cloud_kept(sl_injection *inj, const sl_atmosphere *atm, const sl_young_cloud *cloud,
+                                double sediment_fraction, sl_freeze_out *tally, sl_cloud_levels *lv, sl_err *e);
+
 #endif

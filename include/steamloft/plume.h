@@ -135,6 +135,8 @@ typedef struct sl_plume_work sl_plume_work; /* opaque: GSL stepper, control, evo
 typedef struct sl_plume {
     sl_plume_params par;
     sl_plume_work *work;
+    sl_cloud_levels *levels;       /* set by the caller (NULL: none): the whole bands' cloud-level
+                                    * values kept between solves (injection.h); borrowed, not freed */
     size_t n_thermals;
     sl_thermal th[SL_MAX_SOURCES];
     /* Whole event (all sources). */
