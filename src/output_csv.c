@@ -15,6 +15,7 @@
 
 #include <float.h>
 #include <math.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -237,7 +238,7 @@ static const long double pow10_ld[28] = {
 
 /* Y = AX 10^(16 - XE) in [1e16, 1e17), AX's 17 significant digits before
  * the point, for 1e-11 <= AX < 1e16 (where the power needed is exact): Y is
- * within 2^-7 of the exact product (below 2^57).  0 outside that range or
+ * within 2^-8 of the exact product (below 2^57).  0 outside that range or
  * when the long double is not what it says (then neither fast_round nor
  * fast_reads_back may be used). */
 static int fast_scaled(double ax, long double *y, int *xe_out)
@@ -248,7 +249,14 @@ static int fast_scaled(double ax, long double *y, int *xe_out)
     volatile long double one = 1.0L, tiny = 0x1p-63L;
     if (!(ax >= 1e-11 && ax < 1e16) || one + tiny == one)
         return 0;
-    int xe = (int)floor(log10(ax));
+    /* floor(log10 AX), or one less, from the binary exponent (AX is normal
+     * here): the loop below settles it in at most two tries, to the one XE
+     * with Y in [1e16, 1e17), as it did from floor(log10(AX)). */
+    uint64_t bits;
+    memcpy(&bits, &ax, sizeof bits);
+    int xe = (int)floor((double)((int)((bits >> 52) & 0x7ffu) - 1023) * 0.30102999566398120);
+    if (16 - xe > 27)
+        xe = 16 - 27;
     for (int tries = 0; tries < 3; tries++) {
         int pw = 16 - xe;
         if (pw < 0 || pw > 27)
@@ -267,14 +275,20 @@ static int fast_scaled(double ax, long double *y, int *xe_out)
 }
 
 /* AX's PREC (15-17) significant digits correctly rounded, as "%.*e" gives
- * them, into D with the decimal exponent *XP, from Y of fast_scaled: Y /
- * 10^(17 - PREC) is within 2^-7 of the exact value in units of the last
- * digit, so rounding it is exact unless its fraction lies within 0.02 of one
- * half (a possible tie: 0, and the caller asks snprintf). */
-static int fast_round(long double y, int xe, int prec, char *d, int *xp)
+ * them, as the integer *N_OUT with the decimal exponent *XP, from Y of
+ * fast_scaled.  In units of the last digit, Z = Y / 10^(17 - PREC) is within
+ * 2^-8 of the exact value for PREC 17 (Y itself, below 2^57, rounded once to
+ * a 64-bit significand: half its unit of 2^-7), 9e-4 for 16 (that error over
+ * ten, plus half the division's unit, 2^-11 below 2^54) and 7e-5 for 15
+ * (plus 2^-15 below 2^50), so rounding it is exact unless its fraction lies
+ * within a window of more than twice that of one half (a possible tie: 0,
+ * and the caller asks snprintf).  With one window of 0.02 for all three,
+ * about 4 % of the numbers went to snprintf at each precision. */
+static int fast_round(long double y, int xe, int prec, unsigned long long *n_out, int *xp)
 {
+    static const long double tie_window[3] = {2.5e-4L, 2.0e-3L, 1.0e-2L}; /* PREC 15, 16, 17 */
     long double z = y / pow10_ld[17 - prec], fl = floorl(z), fr = z - fl;
-    if (fabsl(fr - 0.5L) < 0.02L)
+    if (fabsl(fr - 0.5L) < tie_window[prec - 15])
         return 0;
     unsigned long long n = (unsigned long long)fl + (fr > 0.5L ? 1u : 0u);
     *xp = xe;
@@ -282,29 +296,32 @@ static int fast_round(long double y, int xe, int prec, char *d, int *xp)
         n /= 10u;
         ++*xp;
     }
-    for (int k = prec - 1; k >= 0; k--) {
-        d[k] = (char)('0' + (int)(n % 10u));
-        n /= 10u;
-    }
+    *n_out = n; /* its digits only when they are laid out (digits_of) */
     return 1;
 }
 
-/* Whether the decimal D[0..prec-1] x 10^(XP - prec + 1) reads back as AX > 0
+/* Whether the decimal N x 10^(XP - prec + 1) (N of PREC digits) reads back as AX > 0
  * (round to nearest, ties to even, as strtod): 1 or 0 when its value, known
  * to 2^-64 of itself, is clearly inside or outside the interval of reals that
  * round to AX; -1 when it is too close to the interval's edge to tell. */
-static int fast_reads_back(const char *d, int prec, int xp, double ax)
+static int fast_reads_back(unsigned long long n, int prec, int xp, double ax)
 {
     int e10 = xp - prec + 1;
     if (e10 < -27 || e10 > 27)
         return -1;
-    unsigned long long n = 0;
-    for (int k = 0; k < prec; k++)
-        n = 10u * n + (unsigned long long)(d[k] - '0');
     long double v = e10 >= 0 ? (long double)n * pow10_ld[e10] : (long double)n / pow10_ld[-e10];
     /* The edges: halfway to the neighbouring doubles (exact in long double). */
-    long double lo = 0.5L * ((long double)ax + (long double)nextafter(ax, 0.0));
-    long double hi = 0.5L * ((long double)ax + (long double)nextafter(ax, INFINITY));
+    /* The neighbouring doubles of AX (positive, finite, below DBL_MAX):
+     * nextafter's, from the bit pattern one down and one up. */
+    uint64_t b, bd, bu;
+    memcpy(&b, &ax, sizeof b);
+    bd = b - 1u;
+    bu = b + 1u;
+    double down, up;
+    memcpy(&down, &bd, sizeof down);
+    memcpy(&up, &bu, sizeof up);
+    long double lo = 0.5L * ((long double)ax + (long double)down);
+    long double hi = 0.5L * ((long double)ax + (long double)up);
     long double m = (long double)ax * 0x1p-62L;
     if (v > lo + m && v < hi - m)
         return 1;
@@ -313,6 +330,58 @@ static int fast_reads_back(const char *d, int prec, int xp, double ax)
     return -1;
 }
 #endif
+
+/* The PREC decimal digits of N into D (N < 10^PREC). */
+static void digits_of(unsigned long long n, int prec, char *d)
+{
+    for (int k = prec - 1; k >= 0; k--) {
+        d[k] = (char)('0' + (int)(n % 10u));
+        n /= 10u;
+    }
+}
+
+/* The %g layout of PREC digits D with decimal exponent XP into BUF. */
+static void layout_g(char *buf, int neg, const char *d, int prec, int xp)
+{
+    int np = prec;
+    while (np > 1 && d[np - 1] == '0')
+        np--;
+    char *o = buf;
+    if (neg)
+        *o++ = '-';
+    if (xp < -4 || xp >= prec) {
+        *o++ = d[0];
+        if (np > 1) {
+            *o++ = '.';
+            memcpy(o, d + 1, (size_t)(np - 1));
+            o += np - 1;
+        }
+        *o++ = 'e';
+        int ax = xp < 0 ? -xp : xp;
+        *o++ = xp < 0 ? '-' : '+';
+        if (ax >= 100)
+            *o++ = (char)('0' + ax / 100);
+        *o++ = (char)('0' + ax / 10 % 10);
+        *o++ = (char)('0' + ax % 10);
+    } else if (xp < 0) {
+        *o++ = '0';
+        *o++ = '.';
+        for (int k = 0; k < -xp - 1; k++)
+            *o++ = '0';
+        memcpy(o, d, (size_t)np);
+        o += np;
+    } else {
+        int ni = xp + 1; /* digits before the point */
+        memcpy(o, d, (size_t)ni);
+        o += ni;
+        if (np > ni) {
+            *o++ = '.';
+            memcpy(o, d + ni, (size_t)(np - ni));
+            o += np - ni;
+        }
+    }
+    *o = 0;
+}
 
 void sl_csv_number_text(char *buf, double x)
 {
@@ -329,8 +398,9 @@ void sl_csv_number_text(char *buf, double x)
     for (int prec = 15; prec <= 17; prec++) {
         char d[18];
         int xp = 0, done = 0;
+        unsigned long long nf = 0; /* the fast path's digits as a number */
 #ifdef SL_CSV_FAST
-        done = fast && fast_round(y, xe_fast, prec, d, &xp);
+        done = fast && fast_round(y, xe_fast, prec, &nf, &xp);
 #endif
         if (!done) {
             if (!have17) {
@@ -371,52 +441,28 @@ void sl_csv_number_text(char *buf, double x)
                 memcpy(d, dig, 17);
             }
         }
-        /* the %g layout of PREC digits D with exponent XP */
-        int np = prec;
-        while (np > 1 && d[np - 1] == '0')
-            np--;
-        char *o = buf;
-        if (neg)
-            *o++ = '-';
-        if (xp < -4 || xp >= prec) {
-            *o++ = d[0];
-            if (np > 1) {
-                *o++ = '.';
-                memcpy(o, d + 1, (size_t)(np - 1));
-                o += np - 1;
-            }
-            *o++ = 'e';
-            int ax = xp < 0 ? -xp : xp;
-            *o++ = xp < 0 ? '-' : '+';
-            if (ax >= 100)
-                *o++ = (char)('0' + ax / 100);
-            *o++ = (char)('0' + ax / 10 % 10);
-            *o++ = (char)('0' + ax % 10);
-        } else if (xp < 0) {
-            *o++ = '0';
-            *o++ = '.';
-            for (int k = 0; k < -xp - 1; k++)
-                *o++ = '0';
-            memcpy(o, d, (size_t)np);
-            o += np;
-        } else {
-            int ni = xp + 1; /* digits before the point */
-            memcpy(o, d, (size_t)ni);
-            o += ni;
-            if (np > ni) {
-                *o++ = '.';
-                memcpy(o, d + ni, (size_t)(np - ni));
-                o += np - ni;
-            }
-        }
-        *o = 0;
-        if (prec == 17)
+        if (prec == 17) {
+            if (done)
+                digits_of(nf, prec, d);
+            layout_g(buf, neg, d, prec, xp);
             return;
+        }
+        /* Whether these digits read back, decided before they are written
+         * out (most numbers need 16 or 17 digits: one layout, not three). */
         int back = -1;
 #ifdef SL_CSV_FAST
-        if (fast)
-            back = fast_reads_back(d, prec, xp, fabs(x));
+        if (fast) {
+            if (!done) /* digits from the snprintf path */
+                for (int k = 0; k < prec; k++)
+                    nf = 10u * nf + (unsigned long long)(d[k] - '0');
+            back = fast_reads_back(nf, prec, xp, fabs(x));
+        }
 #endif
+        if (back == 0)
+            continue;
+        if (done)
+            digits_of(nf, prec, d);
+        layout_g(buf, neg, d, prec, xp);
         if (back < 0)
             back = strtod(buf, NULL) == x;
         if (back)
