@@ -34,7 +34,9 @@
 # 1-thread run's (189 s).
 # Measured 2026-12-04 (issue 14: -O3 and link-time optimisation), same command, the machine slower
 # than in the run above (the -O2 build took 11.5-12.5 s wall for 1e5 members, 10.6-11.9 s the new
-# one, in alternating pairs): 114 s wall, 213 s user CPU, 89.5 MiB peak RSS.
+# one, in alternating pairs): 114 s wall, 213 s user CPU, 89.5 MiB peak RSS.  With the inputs set
+# once per member, the kept cloud levels and the faster CSV numbers: 106 s wall, 198 s user CPU,
+# 89.4 MiB.
 set -u
 build=${1:-build}
 bin="$build/steamloft"
