@@ -384,7 +384,8 @@ int sl_chain_run_from(const sl_scenario *sc, sl_chain *ch, int first_stage, sl_e
         SL_FAIL_RETURN(e, SL_EINTERNAL, "chain: the scenario was not finished (sl_scenario_finish)");
     if (first_stage != SL_CHAIN_T_ATMOSPHERE && first_stage != SL_CHAIN_T_STRAT)
         SL_FAIL_RETURN(e, SL_EINTERNAL, "chain: cannot be entered at stage %d", first_stage);
-    ch->scenario = *sc;
+    if (sc != &ch->scenario) /* an ensemble member's inputs are set in place (ensemble_chain.c) */
+        ch->scenario = *sc;
     const int timed = ch->time_every <= 1 || ch->runs % ch->time_every == 0;
     ch->runs++;
     ch->timed_runs += timed;

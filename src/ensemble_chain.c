@@ -262,8 +262,7 @@ static const struct {
 _Static_assert((int)O_N_OUT <= (int)SL_ENS_MAX_OUT, "raise SL_ENS_MAX_OUT");
 
 typedef struct chain_ws {
-    sl_scenario sc;
-    sl_chain chain;
+    sl_chain chain;                /* a member's scenario is set in chain.scenario itself: no copy */
     sl_ens_chain *owner;
 } chain_ws;
 
@@ -317,7 +316,8 @@ static chain_ws *median_ws(sl_ens_chain *c, int *ran)
         si[k] = sl_dist_median(&c->plan->inputs[k].dist) * c->plan->inputs[k].to_si;
     sl_err warm;
     sl_err_clear(&warm);
-    *ran = set_inputs(c, &w->sc, si, &warm) == SL_OK && sl_chain_run(&w->sc, &w->chain, &warm) == SL_OK;
+    *ran = set_inputs(c, &w->chain.scenario, si, &warm) == SL_OK &&
+           sl_chain_run(&w->chain.scenario, &w->chain, &warm) == SL_OK;
     return w;
 }
 
@@ -425,8 +425,8 @@ static int chain_member(void *ws, void *ctx, const sl_ens_plan *plan, const doub
     (void)plan;
     const sl_ens_chain *c = ctx;
     chain_ws *w = ws;
-    SL_TRY_RETURN(e, set_inputs(c, &w->sc, in_si, e));
-    SL_TRY_RETURN(e, sl_chain_run(&w->sc, &w->chain, e));
+    SL_TRY_RETURN(e, set_inputs(c, &w->chain.scenario, in_si, e));
+    SL_TRY_RETURN(e, sl_chain_run(&w->chain.scenario, &w->chain, e));
     for (size_t j = 0; j < c->n_out; j++)
         out[j] = out_value(&w->chain, &w->chain.strat, (out_id)c->which[j]);
     extras(c, &w->chain, out + c->n_out);

@@ -78,7 +78,7 @@ typedef struct sl_chain_shared {
 void sl_chain_shared_free(sl_chain_shared *sh);
 
 typedef struct sl_chain {
-    sl_scenario scenario;          /* copy of the scenario last run */
+    sl_scenario scenario;          /* the scenario last run: a copy, or set in place by an ensemble member */
     /* Set by the caller before the first run (NULL: none): the set-up this
      * chain borrows from, and fills while it is open.  Borrowed, not freed. */
     sl_chain_shared *shared;
