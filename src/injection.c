@@ -273,30 +273,28 @@ static int cloud_level(const sl_atmosphere *atm, double altitude_m, sl_atmos_cur
  * tropical profile, within 3e-11 per 1 km band, where 4-point
  * Gauss-Legendre on 500 m pieces straddling the profile's levels erred by up
  * to 4e-6 near the tropopause). */
-static void umbrella_coeffs(const sl_young_cloud *c, double z0, double z1, double *alpha, double *beta)
+static double umbrella_from_moments(const sl_young_cloud *c, double z0, double z1, double m0, double m1)
 {
     double a = c->bottom_m, b = c->top_m, m = c->peak_m, zm = 0.5 * (z0 + z1);
-    *alpha = 0.0;
-    *beta = 0.0;
+    double alpha = 0.0, beta = 0.0;
     if (zm <= m) {
         if (m > a) {
-            *beta = 2.0 / ((b - a) * (m - a));
-            *alpha = -a * *beta;
+            beta = 2.0 / ((b - a) * (m - a));
+            alpha = -a * beta;
         }
     } else if (b > m) {
-        *beta = -2.0 / ((b - a) * (b - m));
-        *alpha = -b * *beta;
+        beta = -2.0 / ((b - a) * (b - m));
+        alpha = -b * beta;
     }
+    return alpha * m0 + beta * m1;
 }
 
 static int umbrella_piece(const sl_atmosphere *atm, const sl_young_cloud *c, double z0, double z1,
                           sl_atmos_cursor *cur, double *w, sl_err *e)
 {
-    double alpha, beta;
-    umbrella_coeffs(c, z0, z1, &alpha, &beta);
     double m0, m1;
     SL_TRY_RETURN(e, sl_atmosphere_layer_mass(atm, z0, z1, cur, &m0, &m1, e));
-    *w = alpha * m0 + beta * m1;
+    *w = umbrella_from_moments(c, z0, z1, m0, m1);
     return SL_OK;
 }
 
@@ -320,9 +318,7 @@ static int umbrella_weight(const sl_atmosphere *atm, const sl_young_cloud *c, do
             SL_TRY_RETURN(e, sl_atmosphere_layer_mass(atm, z0, z1, cur, &lv->m0[i], &lv->m1[i], e));
             lv->have[i] |= 1u;
         }
-        double alpha, beta;
-        umbrella_coeffs(c, a, b, &alpha, &beta);
-        w1 = alpha * lv->m0[i] + beta * lv->m1[i];
+        w1 = umbrella_from_moments(c, a, b, lv->m0[i], lv->m1[i]);
     } else
         SL_TRY_RETURN(e, umbrella_piece(atm, c, a, b, cur, &w1, e));
     *w = w1 + w2;
@@ -368,10 +364,11 @@ int sl_cloud_levels_bind(sl_cloud_levels *lv, const sl_atmosphere *atm, const sl
 
 void sl_cloud_levels_forget(sl_cloud_levels *lv)
 {
-    if (lv && lv->have)
+    if (lv == NULL)
+        return;
+    if (lv->have)
         memset(lv->have, 0, lv->cap);
-    if (lv)
-        lv->atm = NULL;
+    lv->atm = NULL;
 }
 
 void sl_cloud_levels_free(sl_cloud_levels *lv)

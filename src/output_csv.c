@@ -310,9 +310,9 @@ static int fast_reads_back(unsigned long long n, int prec, int xp, double ax)
     if (e10 < -27 || e10 > 27)
         return -1;
     long double v = e10 >= 0 ? (long double)n * pow10_ld[e10] : (long double)n / pow10_ld[-e10];
-    /* The edges: halfway to the neighbouring doubles (exact in long double). */
-    /* The neighbouring doubles of AX (positive, finite, below DBL_MAX):
-     * nextafter's, from the bit pattern one down and one up. */
+    /* The edges: halfway to the neighbouring doubles (exact in long double),
+     * which for AX positive, finite and below DBL_MAX are nextafter's: the
+     * bit pattern one down and one up. */
     uint64_t b, bd, bu;
     memcpy(&b, &ax, sizeof b);
     bd = b - 1u;

@@ -393,6 +393,8 @@ START_TEST(set_values_resolves_once_on_the_final_values)
     const double v[2] = {NAN, 7.0};
     const char *x[2] = {"2022-07-01", NULL}; /* the date is a text key */
     ck_assert_int_eq(sl_scenario_set_values(&sc, 2, ids, v, x, &e), SL_OK);
+    /* 2022-07-01T00:00Z: 19174 days after 1970-01-01 (DERIVED; 2022-07-15 is
+     * day 19188 in date_sets_the_month above). */
     ck_assert_double_eq(sl_scenario_value(&sc, SL_P_SITE_DATE), 19174.0 * 86400.0);
     ck_assert_double_eq(sl_scenario_value(&sc, SL_P_SITE_MONTH), 7.0);
     ck_assert_int_eq(sc.finished, 1);
