@@ -49,11 +49,11 @@
 # size resumed beyond) by +25 % and -2 % (+11 % in all; +6.6 % to +0.1 % when only trials failing
 # by 3 to 100 times the tolerance were retried, so at least part of the entry's rejections there
 # are not the profile's); the step rule's constants (safety 0.8, acceptance at 1.0, growth
-# exponent 1/5, growth below 0.8) moved the total by -1.0 to +2.7 %; a
-# second-order warm start of the saturation solve (1.87 Halley iterations per solve) gave 3.7 %
-# more iterations; state scales rounded to powers of two, so that the scaled rates are products
-# with exact reciprocals instead of quotients, no change in user CPU (1.682 against 1.698 s for
-# 1e4 members, 5 alternating runs; outputs at the solver's noise level).
+# exponent 1/5, growth below 0.8) moved the total by -1.0 to +2.7 %; a second-order warm start of
+# the saturation solve (1.87 Halley iterations per solve) gave 3.7 % more iterations; state scales
+# rounded to powers of two, so that the scaled rates are products with exact reciprocals instead
+# of quotients, no change in user CPU (1.682 against 1.698 s for 1e4 members, 5 alternating runs;
+# outputs at the solver's noise level).
 set -u
 build=${1:-build}
 bin="$build/steamloft"
