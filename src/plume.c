@@ -144,7 +144,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-enum { IZ, IMA, IMW, IPI, IH, IEIN, IEOUT, IWIN, IWOUT, IAIN, IWORK, NY };
+enum { IZ, IMA, IMW, IPI, IH, IEIN, IEOUT, IWIN, IWOUT, IWORK, NY };
 
 #define T_TRIPLE SL_T_TRIPLE_K
 #define CPA SL_CP_DRY_AIR_J_KG_K
@@ -567,16 +567,14 @@ static int diagnose(sl_plume_work *w, const double *s, diag *d)
     return GSL_SUCCESS;
 }
 
-/* DS = F / SCALE element by element: the first NY - 1 (an even number) in
- * two-lane packed divisions, which gcc -O2 makes of a loop of that known
- * length over restrict arguments (IEEE division gives the same bits either
- * way), the last alone; once per right-hand side. */
-_Static_assert((NY - 1) % 2 == 0, "the packed part of scaled_rates needs an even length");
+/* DS = F / SCALE element by element, in two-lane packed divisions, which
+ * gcc -O2 makes of a loop of that known even length over restrict arguments
+ * (IEEE division gives the same bits either way); once per right-hand side. */
+_Static_assert(NY % 2 == 0, "scaled_rates runs in pairs");
 static void scaled_rates(double *restrict ds, const double *restrict f, const double *restrict scale)
 {
-    for (int i = 0; i < NY - 1; i++)
+    for (int i = 0; i < NY; i++)
         ds[i] = f[i] / scale[i];
-    ds[NY - 1] = f[NY - 1] / scale[NY - 1];
 }
 
 static int rhs(double t, const double *s, double *ds, void *params)
@@ -620,7 +618,6 @@ static int rhs(double t, const double *s, double *ds, void *params)
     f[IEOUT] = mf * (hf + d.phi_J_kg + kin);
     f[IWIN] = q_e * me;
     f[IWOUT] = mf;
-    f[IAIN] = (1.0 - q_e) * me;
     f[IWORK] = vel * d.buoy_N - kin * (me + mf);
     scaled_rates(ds, f, w->scale);
     return GSL_SUCCESS;
@@ -824,7 +821,7 @@ static void finish_budget(sl_plume_work *w, sl_thermal *out, const double *s, co
     out->water_final_kg = s[IMW] * w->scale[IMW];
     out->water_entrained_kg = s[IWIN] * w->scale[IWIN];
     out->water_fallout_kg = s[IWOUT] * w->scale[IWOUT];
-    out->air_entrained_kg = s[IAIN] * w->scale[IAIN];
+    out->air_entrained_kg = s[IMA] * w->scale[IMA] - out->air_initial_kg;
     out->energy_entrained_J = s[IEIN] * w->scale[IEIN];
     out->energy_fallout_J = s[IEOUT] * w->scale[IEOUT];
     out->energy_final_J = total_energy(w, s, d);
@@ -1052,7 +1049,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * instructions per bench member). */
     double q_src = sl_water_mixing_ratio_from_mole_fraction(fmax(amb.h2o_mole_fraction, 0.0)); /* kg per kg dry air */
     double Sa = st.air_kg, Sw = fmax(Mw1, fmax(fmin(q_src, 1.0e-3), 1.0e-6) * Sa);
-    double sc[NY] = {Ls, Sa, Sw, (M1 + A0) * Us, Es, Es, Es, Sw, fmax(spray, Sw), Sa, Es};
+    double sc[NY] = {Ls, Sa, Sw, (M1 + A0) * Us, Es, Es, Es, Sw, fmax(spray, Sw), Es};
     memcpy(w->scale, sc, sizeof sc);
 
     double y0[NY] = {0};
