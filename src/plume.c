@@ -540,7 +540,7 @@ static int diagnose(sl_plume_work *w, const double *s, diag *d)
      * evolve retry with a shorter step (GSL_EBADFUNC would abort). */
     if (!isfinite(z) || !isfinite(Ma) || !isfinite(Mw) || !isfinite(H) || Ma <= 0.0 || Mw < 0.0)
         return GSL_EDOM;
-    int rc = sl_atmosphere_state(w->atm, zq, &w->atm_cursor, &d->amb, &w->rhs_err); /* no ice saturation */
+    int rc = sl_atmosphere_air(w->atm, zq, &w->atm_cursor, &d->amb, &w->rhs_err);
     if (rc != SL_OK) {
         w->rhs_failed = 1;
         return GSL_EBADFUNC;

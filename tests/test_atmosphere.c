@@ -575,7 +575,8 @@ START_TEST(test_light_queries_match)
      * reference library; PRACTICE: the same published algorithm, Steffen 1990)
      * on the levels of every built-in profile: bit for bit (tolerance 0),
      * since the coefficients are computed in GSL's order of operations.  Then
-     * the light queries (density only; state without ice saturation) with a
+     * the light queries (density only; state without ice saturation; the air
+     * without N^2 and gravity) with a
      * cursor walked up, down and at random give exactly the numbers of
      * sl_atmosphere_at: the cursor only changes where the search starts. */
     for (int k = 0; sl_atmosphere_builtin_names[k]; k++) {
@@ -605,11 +606,12 @@ START_TEST(test_light_queries_match)
             sl_atmos_cursor *cs[3] = {&up, &down, &rnd};
             for (int j = 0; j < 3; j++) {
                 const double z = zs[j];
-                sl_atmos_state full, light;
+                sl_atmos_state full, light, air;
                 double rho;
                 ck_assert_int_eq(sl_atmosphere_at(&a, z, &full, &e), SL_OK);
                 ck_assert_int_eq(sl_atmosphere_state(&a, z, cs[j], &light, &e), SL_OK);
                 ck_assert_int_eq(sl_atmosphere_density(&a, z, cs[j], &rho, &e), SL_OK);
+                ck_assert_int_eq(sl_atmosphere_air(&a, z, cs[j], &air, &e), SL_OK);
                 double t = gsl_interp_eval(it, a.altitude_m, a.temperature_K, z, NULL);
                 double dt = gsl_interp_eval_deriv(it, a.altitude_m, a.temperature_K, z, NULL);
                 double lp = gsl_interp_eval(ip, a.altitude_m, lnp, z, NULL);
@@ -624,12 +626,19 @@ START_TEST(test_light_queries_match)
                                   light.gravity_m_s2 == full.gravity_m_s2 && rho == full.density_kg_m3,
                               "%s at %.17g m: light query differs", nm, z);
                 ck_assert(isnan(light.ice_saturation_mole_fraction));
+                ck_assert_msg(air.temperature_K == full.temperature_K && air.pressure_Pa == full.pressure_Pa &&
+                                  air.density_kg_m3 == full.density_kg_m3 &&
+                                  air.h2o_mole_fraction == full.h2o_mole_fraction && air.altitude_m == z,
+                              "%s at %.17g m: air query differs", nm, z);
+                ck_assert(isnan(air.n2_per_s2) && isnan(air.gravity_m_s2) && isnan(air.ice_saturation_mole_fraction));
             }
         }
         sl_atmos_cursor c = {0};
         double rho;
         ck_assert_int_eq(sl_atmosphere_density(&a, z1 + 1.0, &c, &rho, &e), SL_EDATA);
         ck_assert_int_eq(sl_atmosphere_density(&a, z0 - 1.0, NULL, &rho, &e), SL_EDATA);
+        sl_atmos_state air;
+        ck_assert_int_eq(sl_atmosphere_air(&a, z1 + 1.0, &c, &air, &e), SL_EDATA);
         gsl_interp_free(it);
         gsl_interp_free(ip);
         gsl_interp_free(ix);

@@ -144,6 +144,12 @@ int sl_atmosphere_density(const sl_atmosphere *atm, double altitude_m, sl_atmos_
 int sl_atmosphere_state(const sl_atmosphere *atm, double altitude_m, sl_atmos_cursor *cur, sl_atmos_state *out,
                         sl_err *e);
 
+/* The air only: temperature, pressure, water mole fraction and density (the
+ * same values as sl_atmosphere_state), altitude set; N^2, gravity and ice
+ * saturation are NaN.  What the plume's right-hand side reads. */
+int sl_atmosphere_air(const sl_atmosphere *atm, double altitude_m, sl_atmos_cursor *cur, sl_atmos_state *out,
+                      sl_err *e);
+
 /* Air-mass moments of the layer [Z0, Z1] (Z0 <= Z1): *M0 the integral of
  * the moist-air density (kg m-2), *M1 that of z times it (kg m-1).  Whole
  * cells of at most 500 m inside one level interval from tables, the parts
