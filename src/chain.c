@@ -11,6 +11,7 @@
  * a scenario file is looked for next to that file first, then from the
  * working directory. */
 #include "steamloft/chain.h"
+#include "steamloft/minmax.h"
 #include "steamloft/units.h"
 #include "steamloft/water.h"
 
@@ -57,7 +58,7 @@ static int atmosphere_density(void *ctx, double altitude_m, double *rho, sl_err 
 static int ambient(const sl_atmosphere *atm, double altitude_m, sl_partition_air *out, sl_err *e)
 {
     double lo = atm->altitude_m[0], hi = atm->altitude_m[atm->n - 1];
-    double h = fmin(fmax(altitude_m, lo), hi);
+    double h = sl_min(sl_max(altitude_m, lo), hi);
     sl_atmos_state s;
     SL_TRY_RETURN(e, sl_atmosphere_at(atm, h, &s, e));
     out->temperature_K = s.temperature_K;

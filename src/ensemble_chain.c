@@ -3,6 +3,7 @@
  * include/steamloft/ensemble_chain.h).  No physics here: only which stage
  * result is which output. */
 #include "steamloft/ensemble_chain.h"
+#include "steamloft/minmax.h"
 
 #include "steamloft/output_ensemble.h"
 #include "steamloft/strat.h"
@@ -40,7 +41,7 @@ static double key_to_si(int id)
 static int check_support(const sl_dist *d, int id, const char *where, int quiet, sl_err *e)
 {
     const sl_param_def *p = &sl_scenario_params[id];
-    double lo = p->min_value, hi = p->max_value, slack = 1e-12 * fmax(fabs(lo), fabs(hi));
+    double lo = p->min_value, hi = p->max_value, slack = 1e-12 * sl_max(fabs(lo), fabs(hi));
     char range[96], desc[128];
     sl_scenario_range_text((sl_param_id)id, range, sizeof range);
     sl_dist_describe(d, desc, sizeof desc);
@@ -51,8 +52,8 @@ static int check_support(const sl_dist *d, int id, const char *where, int quiet,
     case SL_DIST_CHOICE:
         a = b = d->values[0];
         for (size_t i = 1; i < d->n_values; i++) {
-            a = fmin(a, d->values[i]);
-            b = fmax(b, d->values[i]);
+            a = sl_min(a, d->values[i]);
+            b = sl_max(b, d->values[i]);
         }
         if (p->type == SL_PT_INT)
             for (size_t i = 0; i < d->n_values; i++)
@@ -85,7 +86,7 @@ static int check_support(const sl_dist *d, int id, const char *where, int quiet,
                            "%s: %s reaches %g %s, outside the valid range %s; truncate the law, "
                            "e.g. flux_angle(%g, %g)",
                            where, desc, a < lo - slack ? a : b, unit_sym(id), range,
-                           fmax(a, lo), fmin(b, hi));
+                           sl_max(a, lo), sl_min(b, hi));
         SL_FAIL_RETURN(e, SL_EDATA, "%s: %s reaches outside the valid range %s", where, desc, range);
     }
     return SL_OK;

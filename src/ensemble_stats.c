@@ -91,12 +91,12 @@ double sl_ens_hist_percentile(const sl_ens_hist *h, size_t k, double p)
     }
     double v;
     if (s == 0)
-        v = fmin(0.0, h->vmax[k]);
+        v = sl_min(0.0, h->vmax[k]);
     else if (s == 1)
         v = pow(10.0, h->lo_log10);
     else if (s >= h->n_bins + 2)
         v = h->vmax[k];
     else
         v = pow(10.0, h->lo_log10 + ((double)(s - 2) + 0.5) / h->per_decade);
-    return fmin(fmax(v, h->vmin[k]), h->vmax[k]);
+    return sl_min(sl_max(v, h->vmin[k]), h->vmax[k]);
 }

@@ -591,16 +591,16 @@ static int burst(solver *s, const pending *q, const double y[NY], sl_err *e)
     if (air_density(&s->c, y[Y_H], &rho) != GSL_SUCCESS)
         return sl_err_push(e, e ? e->code : SL_ENUMERIC, __func__, __LINE__);
     double ek = g->count * 0.5 * y[Y_M] * y[Y_V] * y[Y_V];
-    double sg = fmax(sin(y[Y_GAMMA]), 1e-3);
-    double len = 2.0 * q->cloud_radius_m * sg * sqrt(p->density_kg_m3 / (p->drag_coefficient * fmax(rho, 1e-30)));
-    double top = fmax(y[Y_H], 0.0), w = en->band_width_m;
+    double sg = sl_max(sin(y[Y_GAMMA]), 1e-3);
+    double len = 2.0 * q->cloud_radius_m * sg * sqrt(p->density_kg_m3 / (p->drag_coefficient * sl_max(rho, 1e-30)));
+    double top = sl_max(y[Y_H], 0.0), w = en->band_width_m;
     double f_sea = exp(-top / len);
     if (f_sea < 1e-6)
         f_sea = 0.0;
     double e_sea = ek * f_sea, e_air = ek - e_sea, done = 0.0;
     size_t itop = band_of(en, top);
     for (size_t i = 0; i <= itop; i++) {
-        double b = (double)i * w, t = fmin(top, (double)(i + 1) * w);
+        double b = (double)i * w, t = sl_min(top, (double)(i + 1) * w);
         if (!(t > b))
             continue;
         double part = ek * (exp(-(top - t) / len) - exp(-(top - b) / len));
@@ -638,8 +638,8 @@ static void finish(solver *s, const pending *q, const double y[NY], int end, dou
     g->end = end;
     g->end_altitude_m = y[Y_H];
     g->lateral_spread_m += q->lateral_speed_m_s * (t - q->t);
-    en->time_s = fmax(en->time_s, t);
-    en->ground_range_m = fmax(en->ground_range_m, y[Y_X]);
+    en->time_s = sl_max(en->time_s, t);
+    en->ground_range_m = sl_max(en->ground_range_m, y[Y_X]);
     switch (end) {
     case SL_ENTRY_END_SEA:
         g->sea_mass_kg = g->count * y[Y_M];
@@ -652,7 +652,7 @@ static void finish(solver *s, const pending *q, const double y[NY], int end, dou
         if (!g->cloud) {
             en->sea_pieces += g->count;
             en->sea_fragment_energy_J += ek;
-            en->sea_footprint_m = fmax(en->sea_footprint_m, g->lateral_spread_m);
+            en->sea_footprint_m = sl_max(en->sea_footprint_m, g->lateral_spread_m);
         }
         break;
     case SL_ENTRY_END_LEFT:
@@ -688,7 +688,7 @@ static int fly(solver *s, pending *q, long *n_steps, sl_err *e)
     c->spread_limit_m = p->burst_spread_factor * q->cloud_radius_m;
     /* ablated away: below 1e-9 of the group's mass, or below what the
      * tolerance resolves in the scaled mass */
-    c->gone_mass_kg = fmax(gone_mass_fraction, 10.0 * p->relative_tolerance) * y[Y_M];
+    c->gone_mass_kg = sl_max(gone_mass_fraction, 10.0 * p->relative_tolerance) * y[Y_M];
     double ek0 = 0.5 * y[Y_M] * y[Y_V] * y[Y_V];
     const double scale[NY] = {y[Y_V], y[Y_M], 1.0, p->start_altitude_m, p->start_altitude_m,
                               y[Y_R], 0.01 * y[Y_V], ek0, ek0, ek0};
@@ -723,7 +723,7 @@ static int fly(solver *s, pending *q, long *n_steps, sl_err *e)
                 en->energy_ablation_J += g->count * y[Y_EABL];
                 en->gravity_work_J += g->count * y[Y_WGRAV];
                 en->energy_in_air_J += g->count * (y[Y_EDRAG] + y[Y_EABL]);
-                en->time_s = fmax(en->time_s, t);
+                en->time_s = sl_max(en->time_s, t);
                 g->end = SL_ENTRY_END_SPLIT;
                 g->end_altitude_m = y[Y_H];
                 g->lateral_spread_m += q->lateral_speed_m_s * (t - q->t);
@@ -812,7 +812,7 @@ static int fly(solver *s, pending *q, long *n_steps, sl_err *e)
         switch (first) {
         case EV_SPREAD:
             g->lateral_spread_m += q->lateral_speed_m_s * (t - q->t);
-            en->time_s = fmax(en->time_s, t);
+            en->time_s = sl_max(en->time_s, t);
             return burst(s, q, y, e);
         case EV_SEA:
             finish(s, q, y, SL_ENTRY_END_SEA, t);
@@ -843,7 +843,7 @@ static void find_peak(sl_entry *en)
         double a = en->band_energy_J[ib - 1], b = en->band_energy_J[ib + 1];
         double den = a - 2.0 * eb + b;
         if (den < 0)
-            off = fmin(0.5, fmax(-0.5, 0.5 * (a - b) / den));
+            off = sl_min(0.5, sl_max(-0.5, 0.5 * (a - b) / den));
     }
     en->peak_deposition_J_m = eb / w;
     en->peak_altitude_m = ((double)ib + 0.5 + off) * w;
@@ -922,7 +922,7 @@ double sl_entry_energy_between(const sl_entry *en, double bottom_m, double top_m
 {
     double sum = 0.0, w = en->band_width_m;
     for (size_t i = 0; i < en->n_bands; i++) {
-        double b = fmax(bottom_m, (double)i * w), t = fmin(top_m, (double)(i + 1) * w);
+        double b = sl_max(bottom_m, (double)i * w), t = sl_min(top_m, (double)(i + 1) * w);
         if (t > b)
             sum += en->band_energy_J[i] * (t - b) / w;
     }

@@ -40,6 +40,7 @@
  * huge water excess of an impact plume the crystals grow large and fall, f_s
  * towards 1.  It is a leading uncertainty and meant to be varied in ensembles. */
 #include "steamloft/injection.h"
+#include "steamloft/minmax.h"
 
 #include "steamloft/date.h"
 #include "steamloft/infile.h"
@@ -165,8 +166,8 @@ int sl_injection_add_layer(sl_injection *inj, double vapor_kg, double ice_kg, do
     double vap_left = vapor_kg, ice_left = ice_kg;
     size_t last = 0;
     for (size_t i = 0; i < inj->n_bands; i++) {
-        double a = fmax(bottom_m, inj->band_bottom_m[i]);
-        double b = fmin(top_m, inj->band_top_m[i]);
+        double a = sl_max(bottom_m, inj->band_bottom_m[i]);
+        double b = sl_min(top_m, inj->band_top_m[i]);
         if (b <= a)
             continue;
         double f = (b - a) / thick;
@@ -178,8 +179,8 @@ int sl_injection_add_layer(sl_injection *inj, double vapor_kg, double ice_kg, do
     }
     /* The shares sum to 1 only to rounding; give the rounding residue to the
      * last band touched so the layer's mass is conserved to the last bit we can. */
-    inj->vapor_kg[last] = fmax(0.0, inj->vapor_kg[last] + vap_left);
-    inj->ice_kg[last] = fmax(0.0, inj->ice_kg[last] + ice_left);
+    inj->vapor_kg[last] = sl_max(0.0, inj->vapor_kg[last] + vap_left);
+    inj->ice_kg[last] = sl_max(0.0, inj->ice_kg[last] + ice_left);
     return SL_OK;
 }
 
@@ -255,7 +256,7 @@ double sl_injection_vapor_above_kg(const sl_injection *inj, double altitude_m)
 static int cloud_level(const sl_atmosphere *atm, double altitude_m, sl_atmos_cursor *cur, double *r_ice,
                        double *r_bg, sl_err *e)
 {
-    double z = fmin(fmax(altitude_m, atm->altitude_m[0]), atm->altitude_m[atm->n - 1]);
+    double z = sl_min(sl_max(altitude_m, atm->altitude_m[0]), atm->altitude_m[atm->n - 1]);
     sl_atmos_state a;
     /* sl_atmosphere_at's numbers, with the search carried from band to band. */
     SL_TRY_RETURN(e, sl_atmosphere_state(atm, z, cur, &a, e));
@@ -306,7 +307,7 @@ static int umbrella_weight(const sl_atmosphere *atm, const sl_young_cloud *c, do
                            sl_atmos_cursor *cur, double *w, sl_cloud_levels *lv, size_t i, sl_err *e)
 {
     *w = 0.0;
-    double a = fmax(z0, c->bottom_m), b = fmin(z1, c->top_m);
+    double a = sl_max(z0, c->bottom_m), b = sl_min(z1, c->top_m);
     if (!(b > a))
         return SL_OK;
     double m = c->peak_m, w1 = 0.0, w2 = 0.0;
@@ -425,8 +426,8 @@ int sl_injection_add_cloud_kept(sl_injection *inj, const sl_atmosphere *atm, con
     for (size_t i = 0; i < inj->n_bands && c->water_kg > 0.0; i++) {
         double a, b, f;
         if (thick > 0.0) {
-            a = fmax(c->bottom_m, inj->band_bottom_m[i]);
-            b = fmin(c->top_m, inj->band_top_m[i]);
+            a = sl_max(c->bottom_m, inj->band_bottom_m[i]);
+            b = sl_min(c->top_m, inj->band_top_m[i]);
             if (b <= a)
                 continue;
             if (tent) {
@@ -456,10 +457,10 @@ int sl_injection_add_cloud_kept(sl_injection *inj, const sl_atmosphere *atm, con
         } else
             SL_TRY_RETURN(e, cloud_level(atm, 0.5 * (a + b), &cur, &r_ice, &r_bg, e));
         double air = c->air_kg * f, water = c->water_kg * f;
-        double vap = fmin(water, air * r_ice);
+        double vap = sl_min(water, air * r_ice);
         double ice = water - vap;
         double sed = ice * sediment_fraction;
-        double anomaly = fmax(vap - air * r_bg, 0.0);
+        double anomaly = sl_max(vap - air * r_bg, 0.0);
         inj->vapor_kg[i] += anomaly;
         inj->ice_kg[i] += ice - sed;
         t.frozen_kg += ice;

@@ -78,6 +78,7 @@
  * fireball is enlarged to q = 0.9.  The impactor's water is shared between
  * the air and sea sources in proportion to their energies. */
 #include "steamloft/partition.h"
+#include "steamloft/minmax.h"
 #include "steamloft/units.h"
 #include "steamloft/water.h"
 
@@ -217,7 +218,7 @@ static double pressure_for_fraction(double x_target, double t0)
     const double s_t = s_liquid_1atm_J_kg_K + x_target * (s_vapor_1atm_J_kg_K - s_liquid_1atm_J_kg_K);
     const double e_t = SL_CP_LIQUID_J_KG_K * (SL_T_TRIPLE_K * exp(s_t / SL_CP_LIQUID_J_KG_K) - t0);
     const double cs = w->c_m_s / w->s;
-    double u = sqrt(2.0 * fmax(e_t, 0.0));
+    double u = sqrt(2.0 * sl_max(e_t, 0.0));
     for (int it = 0; it < 60 && u > 0.0; it++) {
         const double x = w->s * u / w->c_m_s;
         const double f = 0.5 * u * u - cs * cs * release_bracket(x) - e_t, slope = u * x / (1.0 + x);
@@ -292,7 +293,7 @@ static int shock_vapor(sl_partition *pt, const sl_partition_input *in, double *v
     double v_km_s = vn * 1e-3;
     double a_m = cbrt(3.0 * en->sea_mass_kg / (4.0 * SL_PI * in->impactor_density_kg_m3));
     double r_ic = a_m * pow(10.0, -0.346 + 0.211 * log10(v_km_s));
-    double n = fmax(1.0, -1.84 + 2.61 * log10(v_km_s));
+    double n = sl_max(1.0, -1.84 + 2.61 * log10(v_km_s));
     pt->decay_exponent_pvm = n;
     /* Energy bound on the decay: raise n until the waste heat is f_t E. */
     const double p_end = 1e8; /* 0.1 GPa: waste heat there is ~1 J/kg */
@@ -364,7 +365,7 @@ static int shock_vapor(sl_partition *pt, const sl_partition_input *in, double *v
         for (int k = 0; k < nk; k++, r *= q, pr *= qp) {
             double x = sl_partition_vapor_fraction(pr, t0, &liq_f);
             /* Shell of the hemisphere, cut at the sea floor: area 2 pi r min(r, d). */
-            double dvol = 2.0 * SL_PI * r * fmin(r, d) * r * dl;
+            double dvol = 2.0 * SL_PI * r * sl_min(r, d) * r * dl;
             vap += x * rho_w * dvol;
             liq += liq_f * rho_w * dvol;
         }
@@ -393,7 +394,7 @@ static double fireball_heat_J(double energy_J, double cap_fraction, const sl_par
     double vol = 4.0 / 3.0 * SL_PI * r * r * r;
     double hold = air->density_kg_m3 * vol * SL_CP_DRY_AIR_J_KG_K * air->temperature_K *
                   (1.0 - air->temperature_K / T_fireball_max_K);
-    return fmin(cap_fraction * energy_J, hold);
+    return sl_min(cap_fraction * energy_J, hold);
 }
 
 /* Fireball of buoyant heat Q at ambient AIR: fills radius, air mass, temperature. */
@@ -449,7 +450,7 @@ static int solve_explosion(sl_partition *pt, const sl_partition_input *in, sl_er
      * impact's budget physics (the vapour fraction f_v of [partition]
      * vapor_energy_fraction; the rest heats the sea, waves and spray), and the
      * steam, at the boiling point, rises in the fireball. */
-    double h = fmax(in->explosion_altitude_m, 0.0), R = fireball_radius_m(E, &in->air_at_source);
+    double h = sl_max(in->explosion_altitude_m, 0.0), R = fireball_radius_m(E, &in->air_at_source);
     double vap = 0.0, E_w = 0.0;
     if (h < R && in->ocean_depth_m > 0.0 && in->sea_temperature_K > 250.0 && in->sea_temperature_K < 373.0) {
         double share = (R - h) * (R - h) * (2.0 * R + h) / (4.0 * R * R * R);
@@ -468,7 +469,7 @@ static int solve_explosion(sl_partition *pt, const sl_partition_input *in, sl_er
     fireball(&s, E, Q, &in->air_at_source);
     s.vapor_mass_kg = vap;
     /* A burst at the surface sits on it: its centre is one radius up. */
-    s.altitude_m = fmax(in->explosion_altitude_m, s.radius_m);
+    s.altitude_m = sl_max(in->explosion_altitude_m, s.radius_m);
     pt->energy_other_J = E - s.heat_J - pt->energy_vaporization_J;
     return add_source(pt, &s, e);
 }
@@ -537,12 +538,12 @@ int sl_partition_solve(sl_partition *pt, const sl_partition_input *in, sl_err *e
     }
     /* The thrown-up liquid leaves at the boiling point: its heating comes
      * out of what is left (it is limited to that). */
-    double dT_boil = fmax(0.0, boiling_K - in->sea_temperature_K);
+    double dT_boil = sl_max(0.0, boiling_K - in->sea_temperature_K);
     double e_liq = liq * SL_CP_LIQUID_J_KG_K * dT_boil;
     double e_left = E_w - heat - vap * hv;
     if (e_liq > e_left) {
         liq = e_left > 0 ? liq * e_left / e_liq : 0.0;
-        e_liq = fmax(e_left, 0.0);
+        e_liq = sl_max(e_left, 0.0);
     }
     pt->energy_to_water_J = E_w;
     pt->water_vaporized_kg = vap;
@@ -566,7 +567,7 @@ int sl_partition_solve(sl_partition *pt, const sl_partition_input *in, sl_err *e
         sl_source s = {0};
         s.kind = SL_SOURCE_AIRBURST;
         fireball(&s, e_air, fireball_heat_J(e_air, fa, &in->air_at_source), &in->air_at_source);
-        s.altitude_m = fmax(in->air_source_altitude_m, s.radius_m);
+        s.altitude_m = sl_max(in->air_source_altitude_m, s.radius_m);
         s.vapor_mass_kg = water_air;
         SL_TRY_RETURN(e, add_source(pt, &s, e));
     }

@@ -769,7 +769,7 @@ static int source_state(const sl_source *src, const sl_atmos_state *amb, start *
         double V = FOUR_PI / 3.0 * src->radius_m * src->radius_m * src->radius_m;
         double Q = src->heat_J, cw = st->vapor_kg * CPV + st->liquid_kg * CPL;
         double lo = Ta * (1.0 + 1.0e-12), hi = cw > 0.0 ? Ta + Q / cw : INFINITY;
-#define PV_OF(T) ((fmax(0.0, (Q / ((T) - Ta) - cw) / CPA) * RA + st->vapor_kg * RV) * (T) - p * V)
+#define PV_OF(T) ((sl_max(0.0, (Q / ((T) - Ta) - cw) / CPA) * RA + st->vapor_kg * RV) * (T) - p * V)
         double T_root = NAN;
         if (!isfinite(hi) || PV_OF(hi) <= 0.0) {
             if (!isfinite(hi))
@@ -788,7 +788,7 @@ static int source_state(const sl_source *src, const sl_atmos_state *amb, start *
         double ma_cap = (Q / (T_FIREBALL_CAP_K - Ta) - cw) / CPA;
         if (T_root <= T_FIREBALL_CAP_K) {
             st->T_K = T_root;
-            st->air_kg = fmax(0.0, (Q / (T_root - Ta) - cw) / CPA);
+            st->air_kg = sl_max(0.0, (Q / (T_root - Ta) - cw) / CPA);
         } else if (ma_cap > 0.0) {
             /* Too much heat for the sphere below the cap: the gas at the cap
              * temperature holding the heat fills a larger volume. */
@@ -859,7 +859,7 @@ static double ballistic_weight(double x)
 {
     if (!(x > 1.0))
         return 0.0;
-    return fmin(1.0, log(x) / log(X_BALLISTIC));
+    return sl_min(1.0, log(x) / log(X_BALLISTIC));
 }
 
 /* Column mass per area above Z (kg/m2): p(z)/g(z), hydrostatic. */
@@ -889,11 +889,11 @@ static int ballistic_flight(const sl_atmosphere *atm, double z0_m, double m_gas_
     double vz2 = 0.5 * v * v;
     double rise = vz2 < 1.999 * g0 * R ? vz2 * R / (2.0 * g0 * R - vz2) : APOGEE_MAX_M;
     out->launch_speed_m_s = v;
-    out->apogee_m = fmin(z0_m + rise, APOGEE_MAX_M);
-    out->reentry_range_m = fmin(v * v / g0, 0.5 * SL_PI * SL_USSA_R0_M);
-    double area = fmin(SL_PI * out->reentry_range_m * out->reentry_range_m, SL_EARTH_AREA_M2);
+    out->apogee_m = sl_min(z0_m + rise, APOGEE_MAX_M);
+    out->reentry_range_m = sl_min(v * v / g0, 0.5 * SL_PI * SL_USSA_R0_M);
+    double area = sl_min(SL_PI * out->reentry_range_m * out->reentry_range_m, SL_EARTH_AREA_M2);
     double sigma = area > 0.0 ? m_gas_kg / area : INFINITY;
-    double zlo = atm->altitude_m[0], zhi = fmin(atm->altitude_m[atm->n - 1], fmax(out->apogee_m, zlo));
+    double zlo = atm->altitude_m[0], zhi = sl_min(atm->altitude_m[atm->n - 1], sl_max(out->apogee_m, zlo));
     double clo = 0.0, chi = 0.0;
     SL_TRY_RETURN(e, column_above(atm, zlo, &clo, e));
     SL_TRY_RETURN(e, column_above(atm, zhi, &chi, e));
@@ -918,7 +918,7 @@ static int ballistic_flight(const sl_atmosphere *atm, double z0_m, double m_gas_
     SL_TRY_RETURN(e, sl_atmosphere_at(atm, zr, &ar, e));
     double hr = ar.pressure_Pa / (ar.density_kg_m3 * gravity_m_s2(zr));
     out->reentry_bottom_m = zr;
-    out->reentry_top_m = fmin(zr + 2.0 * hr, atm->altitude_m[atm->n - 1]);
+    out->reentry_top_m = sl_min(zr + 2.0 * hr, atm->altitude_m[atm->n - 1]);
     return SL_OK;
 }
 
@@ -950,7 +950,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     w->alpha = pl->par.entrainment_alpha;
     w->v_fall = pl->par.fallout_speed_m_s;
     w->z_bottom_m = zlo;
-    w->z_top_m = fmin(zhi, THERMAL_TOP_M);
+    w->z_top_m = sl_min(zhi, THERMAL_TOP_M);
     w->rhs_failed = 0;
     w->last_ok = 0; /* the scales change with each source */
     w->T_guess = 0.0;
@@ -976,8 +976,8 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * scale height.  It is still followed with the thermal equations (the
      * best estimate this model has of how high the buoyant gas goes) and
      * flagged; see "Regime" in the header comment. */
-    int blowout_at_start = fmax(r_fireball, st.radius_m) > out->scale_height_m;
-    out->ballistic_fraction = above_top ? 1.0 : ballistic_weight(fmax(r_fireball, st.radius_m) / out->scale_height_m);
+    int blowout_at_start = sl_max(r_fireball, st.radius_m) > out->scale_height_m;
+    out->ballistic_fraction = above_top ? 1.0 : ballistic_weight(sl_max(r_fireball, st.radius_m) / out->scale_height_m);
 
     double w0 = src->vertical_speed_m_s, phi0 = potential_J_kg(z_src);
     w->rising = w0 >= 0.0;
@@ -1035,7 +1035,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     /* Scales of the state (the solver works on y/scale, tolerances rtol):
      * each mass on its own scale, so a little air in much steam (or the
      * reverse) is still followed to the tolerance. */
-    double Ls = fmax(st.radius_m, 1.0);
+    double Ls = sl_max(st.radius_m, 1.0);
     double Us = sqrt(SL_USSA_G0_M_S2 * Ls);
     double Es = M1 * CPA * amb.temperature_K;
     /* The water on its own scale, or, when it is less, the water the air
@@ -1047,9 +1047,9 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * (0.02 Tg in 2600 Tg of air) moved its water by 5.5e-4 when the
      * tolerance was halved, by 6e-5 with the humidity's scale (0.4 % more
      * instructions per bench member). */
-    double q_src = sl_water_mixing_ratio_from_mole_fraction(fmax(amb.h2o_mole_fraction, 0.0)); /* kg per kg dry air */
-    double Sa = st.air_kg, Sw = fmax(Mw1, fmax(fmin(q_src, 1.0e-3), 1.0e-6) * Sa);
-    double sc[NY] = {Ls, Sa, Sw, (M1 + A0) * Us, Es, Es, Es, Sw, fmax(spray, Sw), Es};
+    double q_src = sl_water_mixing_ratio_from_mole_fraction(sl_max(amb.h2o_mole_fraction, 0.0)); /* kg per kg dry air */
+    double Sa = st.air_kg, Sw = sl_max(Mw1, sl_max(sl_min(q_src, 1.0e-3), 1.0e-6) * Sa);
+    double sc[NY] = {Ls, Sa, Sw, (M1 + A0) * Us, Es, Es, Es, Sw, sl_max(spray, Sw), Es};
     memcpy(w->scale, sc, sizeof sc);
 
     double y0[NY] = {0};
@@ -1091,7 +1091,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
     double t = 0.0;
     double tau = sqrt(Ls / SL_USSA_G0_M_S2);
     double tmax = pl->par.max_time_s;
-    out->max_speed_m_s = fmax(0.0, w_prev);
+    out->max_speed_m_s = sl_max(0.0, w_prev);
     sl_ode *ode = w->ode;
     sl_ode_event_mode(ode, EV_APEX, 1, 1);
     sl_ode_event_mode(ode, EV_NEUTRAL, 0, !have_neutral);
@@ -1155,17 +1155,17 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
      * temperature, so its mass is stratified with the ambient scale height
      * and only e^-3 = 5 % of it lies more than SL_PLUME_WIDE_SCALE_HEIGHTS above the
      * centre (PRACTICE, no source for the 5 %); the two agree at b = 3 H. */
-    out->top_altitude_m = d.z_m + fmin(d.radius_m, SL_PLUME_WIDE_SCALE_HEIGHTS * out->apex_scale_height_m);
+    out->top_altitude_m = d.z_m + sl_min(d.radius_m, SL_PLUME_WIDE_SCALE_HEIGHTS * out->apex_scale_height_m);
     finish_budget(w, out, w->y, &d);
     if (out->regime == SL_REGIME_BLOWOUT) {
         if (!have_neutral)
             out->neutral_altitude_m = d.z_m;
-        out->top_altitude_m = fmin(out->top_altitude_m, w->z_top_m);
+        out->top_altitude_m = sl_min(out->top_altitude_m, w->z_top_m);
         out->cloud_top_m = d.z_m;
-        out->cloud_bottom_m = fmax(zlo, d.z_m - d.radius_m);
+        out->cloud_bottom_m = sl_max(zlo, d.z_m - d.radius_m);
     } else {
         /* The cloud rule: from the neutral level to the thermal's highest reach. */
-        out->cloud_bottom_m = fmax(zlo, fmin(out->neutral_altitude_m, out->top_altitude_m));
+        out->cloud_bottom_m = sl_max(zlo, sl_min(out->neutral_altitude_m, out->top_altitude_m));
         out->cloud_top_m = out->top_altitude_m;
         /* A thermal whose top reaches past the top of the atmosphere profile
          * has blown out of it as well (it has grown to many scale heights). */
@@ -1188,7 +1188,7 @@ int sl_plume_rise(sl_plume *pl, const sl_atmosphere *atm, const sl_source *src, 
         out->regime = SL_REGIME_BALLISTIC;
     /* Highest reach: the water-weighted mean of the two parts. */
     double f = out->ballistic_fraction;
-    out->top_altitude_m = (1.0 - f) * out->top_altitude_m + f * fmax(out->apogee_m, out->top_altitude_m);
+    out->top_altitude_m = (1.0 - f) * out->top_altitude_m + f * sl_max(out->apogee_m, out->top_altitude_m);
     return SL_OK;
 }
 
@@ -1223,11 +1223,11 @@ static int add_layer(sl_plume *pl, sl_injection *inj, const sl_atmosphere *atm, 
     if (keep == 0.0)
         return SL_OK;
     sl_young_cloud c;
-    c.bottom_m = fmin(fmax(cb, band_lo), band_hi);
-    c.top_m = fmin(fmax(ct, band_lo), band_hi);
+    c.bottom_m = sl_min(sl_max(cb, band_lo), band_hi);
+    c.top_m = sl_min(sl_max(ct, band_lo), band_hi);
     c.air_kg = air * keep;
     c.water_kg = water * keep;
-    c.peak_m = tent ? fmin(fmax(peak, c.bottom_m), c.top_m) : NAN;
+    c.peak_m = tent ? sl_min(sl_max(peak, c.bottom_m), c.top_m) : NAN;
     sl_freeze_out fo;
     SL_TRY_RETURN(e, sl_injection_add_cloud_kept(inj, atm, &c, pl->par.ice_sediment_fraction, &fo, pl->levels, e));
     pl->water_sedimented_kg += fo.sedimented_kg;
@@ -1278,9 +1278,9 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
         if (wet || !any_wet) {
             /* Envelope of the thermal part's cloud and the ballistic part's layer. */
             double fb = th->ballistic_fraction;
-            double cb = fb >= 1.0 ? th->reentry_bottom_m : fb > 0.0 ? fmin(th->cloud_bottom_m, th->reentry_bottom_m)
+            double cb = fb >= 1.0 ? th->reentry_bottom_m : fb > 0.0 ? sl_min(th->cloud_bottom_m, th->reentry_bottom_m)
                                                                      : th->cloud_bottom_m;
-            double ct = fb >= 1.0 ? th->reentry_top_m : fb > 0.0 ? fmax(th->cloud_top_m, th->reentry_top_m)
+            double ct = fb >= 1.0 ? th->reentry_top_m : fb > 0.0 ? sl_max(th->cloud_top_m, th->reentry_top_m)
                                                                   : th->cloud_top_m;
             if (!(pl->cloud_bottom_m <= cb))
                 pl->cloud_bottom_m = cb;
@@ -1295,7 +1295,7 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
         pl->water_background_kg += th->water_entrained_kg;
         pl->water_fallout_kg += th->water_fallout_kg;
         pl->water_rising_kg += water;
-        t_last = fmax(t_last, th->apex_time_s);
+        t_last = sl_max(t_last, th->apex_time_s);
         /* The thermal part and the ballistic part, each in its layer. */
         double f = th->ballistic_fraction;
         /* Placement by mass: the thermal's umbrella is widest at its neutral-
@@ -1311,21 +1311,21 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
             SL_TRY_RETURN(e, add_layer(pl, inj, atm, th->reentry_bottom_m, th->reentry_top_m, NAN, air * f, water * f,
                                        e));
         }
-        area += (1.0 - f) * fmin(SL_PI * th->apex_radius_m * th->apex_radius_m, SL_EARTH_AREA_M2) +
-                f * fmin(SL_PI * th->reentry_range_m * th->reentry_range_m, SL_EARTH_AREA_M2);
+        area += (1.0 - f) * sl_min(SL_PI * th->apex_radius_m * th->apex_radius_m, SL_EARTH_AREA_M2) +
+                f * sl_min(SL_PI * th->reentry_range_m * th->reentry_range_m, SL_EARTH_AREA_M2);
     }
     if (src->n == 0) /* nothing rose: report zeros, never NaN */
         pl->plume_top_m = pl->cloud_bottom_m = pl->cloud_top_m = pl->neutral_altitude_m = 0.0;
     inj->time_s = t_last;
-    inj->cloud_area_m2 = fmin(area, SL_EARTH_AREA_M2);
+    inj->cloud_area_m2 = sl_min(area, SL_EARTH_AREA_M2);
     /* The budget's last lines: the excess in the bands, split at the one
      * tropopause (the box model uses the same, strat.c). */
     double bands = sl_injection_total_vapor_kg(inj) + sl_injection_total_ice_kg(inj);
     if (isfinite(atm->tropopause_altitude_m)) {
         pl->stratospheric_water_kg = sl_injection_mass_above_kg(inj, atm->tropopause_altitude_m);
         pl->stratospheric_vapor_kg = sl_injection_vapor_above_kg(inj, atm->tropopause_altitude_m);
-        pl->stratospheric_ice_kg = fmax(pl->stratospheric_water_kg - pl->stratospheric_vapor_kg, 0.0);
+        pl->stratospheric_ice_kg = sl_max(pl->stratospheric_water_kg - pl->stratospheric_vapor_kg, 0.0);
     }
-    pl->water_troposphere_kg = fmax(bands - pl->stratospheric_water_kg, 0.0) + pl->water_below_bands_kg;
+    pl->water_troposphere_kg = sl_max(bands - pl->stratospheric_water_kg, 0.0) + pl->water_below_bands_kg;
     return SL_OK;
 }

@@ -438,7 +438,7 @@ static int build_geometry(sl_strat_model *m, const sl_atmosphere *const atm[SL_S
         SL_FAIL_RETURN(e, SL_ENOMEM, "strat: out of memory for the cloud tables");
     for (int r = 0; r < SL_STRAT_N_REGIONS; r++) {
         for (size_t i = 0; i < m->n_fine; i++) {
-            double z = fmax((double)i * FINE_DZ_M, atm[r]->altitude_m[0]);
+            double z = sl_max((double)i * FINE_DZ_M, atm[r]->altitude_m[0]);
             SL_TRY_RETURN(e, state_at(atm[r], z, &st, e));
             double room = st.ice_saturation_mole_fraction - st.h2o_mole_fraction;
             m->fine_density_kg_m3[r * m->n_fine + i] = st.density_kg_m3;
@@ -1092,12 +1092,12 @@ static double cloud_room_kg(const sl_strat_model *m, int r, double a0, double z0
     /* Trapezoid rule on the fine nodes, cells cut at z0 and z1. */
     if (!(z1 > z0))
         return 0.0;
-    size_t i0 = (size_t)fmax(0.0, floor(z0 / dz)), i1 = (size_t)fmax(0.0, ceil(z1 / dz));
+    size_t i0 = (size_t)sl_max(0.0, floor(z0 / dz)), i1 = (size_t)sl_max(0.0, ceil(z1 / dz));
     if (i1 + 1 > m->n_fine)
         i1 = m->n_fine - 1;
     for (size_t i = i0; i < i1; i++) {
         double lo = (double)i * dz, hi = lo + dz;
-        double a = fmax(lo, z0), b = fmin(hi, z1);
+        double a = sl_max(lo, z0), b = sl_min(hi, z1);
         if (b > a)
             room += 0.5 * (t[i] + t[i + 1]) * (b - a);
     }
@@ -1120,19 +1120,19 @@ static double place(const sl_strat_model *m, int r, double mass, double z0, doub
             break;
         }
     if (z0 < tp)
-        below += mass * (fmin(z1, tp) - z0) / width;
-    double za = fmax(z0, tp); /* the part above the tropopause starts here */
+        below += mass * (sl_min(z1, tp) - z0) / width;
+    double za = sl_max(z0, tp); /* the part above the tropopause starts here */
     if (za >= z1)
         return below;
     double ztop = m->box_top_m[top_box], zbot = m->box_bottom_m[bottom_box];
     if (z1 > ztop)
-        y[top_box] += mass * (z1 - fmax(za, ztop)) / width;
+        y[top_box] += mass * (z1 - sl_max(za, ztop)) / width;
     if (za < zbot)
-        y[bottom_box] += mass * (fmin(z1, zbot) - za) / width;
+        y[bottom_box] += mass * (sl_min(z1, zbot) - za) / width;
     for (size_t b = 0; b < m->n_boxes; b++) {
         if (m->box_region[b] != r)
             continue;
-        double a = fmax(za, m->box_bottom_m[b]), c = fmin(z1, m->box_top_m[b]);
+        double a = sl_max(za, m->box_bottom_m[b]), c = sl_min(z1, m->box_top_m[b]);
         if (c > a)
             y[b] += mass * (c - a) / width;
     }
@@ -1311,7 +1311,7 @@ static double latitude_split(const sl_strat_params *p, double lat_deg, int *rx)
 {
     double alat = fabs(lat_deg), w_t;
     if (p->edge_ramp_deg > 0.0)
-        w_t = fmin(1.0, fmax(0.0, (p->tropics_edge_deg + p->edge_ramp_deg - alat) / (2.0 * p->edge_ramp_deg)));
+        w_t = sl_min(1.0, sl_max(0.0, (p->tropics_edge_deg + p->edge_ramp_deg - alat) / (2.0 * p->edge_ramp_deg)));
     else
         w_t = alat <= p->tropics_edge_deg ? 1.0 : 0.0;
     *rx = lat_deg < 0.0 ? SL_STRAT_SOUTH : SL_STRAT_NORTH;
@@ -1367,15 +1367,15 @@ static int initial_state(const sl_strat_model *m, const sl_injection *inj, sl_st
             double z0 = inj->band_bottom_m[i], z1 = inj->band_top_m[i];
             double water = inj->vapor_kg[i] + inj->ice_kg[i];
             if (z1 > tp && z1 > z0 && water > 0.0 && isfinite(water)) {
-                double lo = fmax(z0, tp);
+                double lo = sl_max(z0, tp);
                 double room_m2 = cloud_room_kg(m, rc_cloud, 1.0, lo, z1);
                 double area = room_m2 > 0.0 ? water * (z1 - lo) / (z1 - z0) / room_m2 : 0.0;
-                need = fmax(need, area);
+                need = sl_max(need, area);
             }
         }
-        a0 = fmax(a0, need);
+        a0 = sl_max(a0, need);
     }
-    a0 = fmin(a0, m->region_area_m2[rc_cloud]);
+    a0 = sl_min(a0, m->region_area_m2[rc_cloud]);
     /* One tropopause: the injection's (the plume stage's) when it has one. */
     double tp_inj = inj->tropopause_altitude_m;
     double not_entered = 0.0, frozen = 0.0;
@@ -1392,7 +1392,7 @@ static int initial_state(const sl_strat_model *m, const sl_injection *inj, sl_st
         double tp = isfinite(tp_inj) ? tp_inj : m->tropopause_m[rc_cloud];
         double keep = 1.0;
         if (freeze && z1 > tp) {
-            double lo = fmax(z0, tp);
+            double lo = sl_max(z0, tp);
             double above = water * (z1 - lo) / (z1 - z0);
             double room = cloud_room_kg(m, rc_cloud, a0, lo, z1);
             if (above > room) {
@@ -1646,7 +1646,7 @@ int sl_strat_response_init_regions(sl_strat_response *rs, const sl_strat_model *
                     u = u2;
                     u2 = t;
                     rs->clip[k * nb + b] = u[bt];
-                    rs->clip_max[b] = fmax(rs->clip_max[b], u[bt]);
+                    rs->clip_max[b] = sl_max(rs->clip_max[b], u[bt]);
                 }
             /* Column b of the response (what a unit mass in box b gives). */
             double *row = rs->rows + b * nr * RESP_ROWS + i * RESP_ROWS;
