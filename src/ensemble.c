@@ -5,7 +5,8 @@
  * file does:
  *
  * - Sampling the distributions of src/dist.c (each by its inverse CDF).
- * - Monte Carlo with gsl_rng_mt19937, one seed per member from the base seed
+ * - Monte Carlo with the MT19937 draws of gsl_rng_mt19937 (made lazily, to the
+ *   bit GSL's: src/rng.c), one seed per member from the base seed
  *   and the member index through splitmix64 (Steele, Lea & Flood 2014) and the
  *   MurmurHash3 32-bit finaliser (a bijection, so seeds within a run are
  *   distinct); Sobol low-discrepancy points (gsl_qrng_sobol, Bratley & Fox
@@ -21,13 +22,13 @@
  *   rank correlation (gsl_stats_spearman, average ranks for ties).
  * - A progress bar on stderr (rate and time left). */
 #include "steamloft/ensemble.h"
+#include "steamloft/rng.h"
 #include "steamloft/sort.h"
 #include "steamloft/units.h"
 #include "steamloft/units_table.h"
 
 #include <gsl/gsl_cdf.h>
 #include <gsl/gsl_qrng.h>
-#include <gsl/gsl_rng.h>
 #include <gsl/gsl_sort.h>
 #include <gsl/gsl_statistics_double.h>
 
@@ -214,11 +215,11 @@ void sl_ens_plan_free(sl_ens_plan *p)
 
 /* ---------------------------------------------------------------- sampling */
 
-static void sample_mc(const sl_ens_plan *p, gsl_rng *r, size_t m, double *x)
+static void sample_mc(const sl_ens_plan *p, sl_rng *r, size_t m, double *x)
 {
-    gsl_rng_set(r, sl_ens_member_seed(p->seed, m));
+    sl_rng_set(r, sl_ens_member_seed(p->seed, m));
     for (size_t k = 0; k < p->n_inputs; k++)
-        x[k] = sl_dist_quantile(&p->inputs[k].dist, gsl_rng_uniform_pos(r));
+        x[k] = sl_dist_quantile(&p->inputs[k].dist, sl_rng_uniform_pos(r));
 }
 
 static void sample_grid(const sl_ens_plan *p, size_t m, double *x)
@@ -257,12 +258,12 @@ int sl_ens_sample(const sl_ens_plan *p, size_t first, size_t count, double *valu
         return SL_OK;
     }
     if (p->mode == SL_ENS_MONTE_CARLO) {
-        gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+        sl_rng *r = malloc(sizeof *r);
         if (r == NULL)
-            SL_FAIL_RETURN(e, SL_ENOMEM, "cannot allocate gsl_rng");
+            SL_FAIL_RETURN(e, SL_ENOMEM, "cannot allocate the random number generator");
         for (size_t i = 0; i < count; i++)
             sample_mc(p, r, first + i, values + i * ni);
-        gsl_rng_free(r);
+        free(r);
         return SL_OK;
     }
     gsl_qrng *q = gsl_qrng_alloc(gsl_qrng_sobol, (unsigned)ni);
@@ -525,7 +526,7 @@ void sl_ens_result_free(sl_ens_result *r)
 typedef struct run_mem {
     int n_threads;
     void **ws;
-    gsl_rng **rng;
+    sl_rng *rng;       /* one generator per thread (Monte Carlo) */
     double *si;        /* n_threads x n_inputs */
     gsl_qrng *qrng;
     double *qu;        /* Sobol point */
@@ -546,10 +547,6 @@ static void run_mem_free(run_mem *rm, const sl_ens_model *m)
         for (int t = 0; t < rm->n_threads; t++)
             if (rm->ws[t] && m->ws_free)
                 m->ws_free(rm->ws[t]);
-    if (rm->rng)
-        for (int t = 0; t < rm->n_threads; t++)
-            if (rm->rng[t])
-                gsl_rng_free(rm->rng[t]);
     if (rm->qrng)
         gsl_qrng_free(rm->qrng);
     free(rm->ws);
@@ -675,7 +672,7 @@ int sl_ens_run(const sl_ens_plan *p, const sl_ens_model *m, const sl_ens_run_opt
     rm.si = malloc(((size_t)nt * ni + 1) * sizeof *rm.si);
     if (!rm.ws || !rm.rng || !rm.si)
         SETUP_FAIL(SL_ENOMEM, "out of memory for %d thread workspaces", nt);
-    /* Workspaces and generators: one per thread, made here, never in the loop. */
+    /* Workspaces and generators (rm.rng above): one per thread, made here, never in the loop. */
     for (int t = 0; t < nt; t++) {
         if (m->ws_new) {
             rm.ws[t] = m->ws_new(m->ctx, e);
@@ -684,11 +681,6 @@ int sl_ens_run(const sl_ens_plan *p, const sl_ens_model *m, const sl_ens_run_opt
                 sl_err_push(e, rc, __func__, __LINE__);
                 goto setup_sync;
             }
-        }
-        if (p->mode == SL_ENS_MONTE_CARLO) {
-            rm.rng[t] = gsl_rng_alloc(gsl_rng_mt19937);
-            if (rm.rng[t] == NULL)
-                SETUP_FAIL(SL_ENOMEM, "cannot allocate gsl_rng");
         }
     }
     if (p->mode == SL_ENS_SOBOL) {
@@ -800,7 +792,7 @@ setup_sync:
             size_t i = i0 + li * stride;
             double *in = rmp->lin + li * ni;
             if (pp->mode == SL_ENS_MONTE_CARLO)
-                sample_mc(pp, rmp->rng[t], first + i, in);
+                sample_mc(pp, &rmp->rng[t], first + i, in);
             else
                 memcpy(in, rmp->blk_in + i * ni, ni * sizeof *in);
             run_one(pp, mm, rmp->ws[t], rmp->si + (size_t)t * ni, in, rmp->lout + li * nw,

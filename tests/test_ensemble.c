@@ -3,6 +3,7 @@
  * counts, failed members kept) and the statistics. */
 #include "sl_test.h"
 #include "steamloft/ensemble.h"
+#include "steamloft/rng.h"
 #include "steamloft/sort.h"
 #include "steamloft/units.h"
 #include "ens_reference.h"
@@ -11,6 +12,7 @@
 #include <stdlib.h>
 #include <unistd.h>
 
+#include <gsl/gsl_rng.h>
 #include <gsl/gsl_sort.h>
 #include <gsl/gsl_statistics_double.h>
 #include <stdio.h>
@@ -275,6 +277,44 @@ START_TEST(test_seeding)
     /* Different base seeds give different members; seeds fit 32 bits. */
     ck_assert_uint_ne(sl_ens_member_seed(1, 0), sl_ens_member_seed(2, 0));
     ck_assert_uint_le(sl_ens_member_seed(99, 7), UINT64_C(0xffffffff));
+}
+END_TEST
+
+START_TEST(test_rng_matches_gsl)
+{
+    /* The lazy MT19937 against GSL's gsl_rng_mt19937 (the reference library):
+     * the same 32-bit outputs and the same uniform_pos doubles, bit for bit,
+     * for seed 0 (GSL's 4357), 1, the largest 32-bit seed, a seed above 32 bits
+     * (GSL keeps its low 32), member seeds, and runs of draws that end in the
+     * lazy part (1-226), at the switch to the full state (227, 228) and after
+     * one and two regenerations of the state (700, 1300). */
+    gsl_rng *ref = gsl_rng_alloc(gsl_rng_mt19937);
+    ck_assert_ptr_nonnull(ref);
+    sl_rng g;
+    const unsigned long seeds[] = {0ul, 1ul, 4357ul, 0xfffffffful, 0x123456789abcul, sl_ens_member_seed(1, 0),
+                                   sl_ens_member_seed(1, 1999), sl_ens_member_seed(7, 123456)};
+    const size_t runs[] = {1, 5, 226, 227, 228, 700, 1300};
+    for (size_t a = 0; a < sizeof seeds / sizeof seeds[0]; a++)
+        for (size_t b = 0; b < sizeof runs / sizeof runs[0]; b++) {
+            gsl_rng_set(ref, seeds[a]);
+            sl_rng_set(&g, seeds[a]);
+            for (size_t j = 0; j < runs[b]; j++) {
+                if (j % 2 == 0)
+                    ck_assert_msg(sl_rng_get(&g) == (uint32_t)gsl_rng_get(ref), "seed %lu draw %zu", seeds[a], j);
+                else
+                    ck_assert_msg(sl_rng_uniform_pos(&g) == gsl_rng_uniform_pos(ref), "seed %lu draw %zu", seeds[a],
+                                  j);
+            }
+        }
+    /* Many member seeds, five draws each (the bench ensemble's use). */
+    for (size_t m = 0; m < 20000; m++) {
+        unsigned long sd = sl_ens_member_seed(3, m);
+        gsl_rng_set(ref, sd);
+        sl_rng_set(&g, sd);
+        for (int j = 0; j < 5; j++)
+            ck_assert_msg(sl_rng_uniform_pos(&g) == gsl_rng_uniform_pos(ref), "member %zu draw %d", m, j);
+    }
+    gsl_rng_free(ref);
 }
 END_TEST
 
@@ -941,6 +981,7 @@ static Suite *ensemble_suite(void)
     tcase_add_test(tc, test_normal_lognormal_moments);
     tcase_add_test(tc, test_sobol);
     tcase_add_test(tc, test_seeding);
+    tcase_add_test(tc, test_rng_matches_gsl);
     tcase_add_test(tc, test_parse_errors);
     tcase_add_test(tc, test_vary);
     tcase_add_test(tc, test_member_loop);
