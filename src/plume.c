@@ -134,6 +134,7 @@
  *
  * Units: SI throughout (m, s, kg, J, K, Pa). */
 #include "steamloft/plume.h"
+#include "steamloft/cuberoot.h"
 #include "steamloft/minmax.h"
 #include "steamloft/ode.h"
 #include "steamloft/units.h"
@@ -557,7 +558,7 @@ static int diagnose(sl_plume_work *w, const double *s, diag *d)
     if (!(d->T_K > 0.0) || !isfinite(d->T_K))
         return GSL_EDOM;
     d->volume_m3 = (Ma * RA + d->vapor_kg * RV) * d->T_K / d->amb.pressure_Pa;
-    d->radius_m = cbrt(d->volume_m3 * 3.0 / FOUR_PI);
+    d->radius_m = sl_cbrt(d->volume_m3 * 3.0 / FOUR_PI); /* cuberoot.h: the hot loop */
     d->mass_kg = Ma + Mw;
     d->added_kg = w->k * d->amb.density_kg_m3 * d->volume_m3;
     d->w_m_s = Pi / (d->mass_kg + d->added_kg);
@@ -810,7 +811,7 @@ static int source_state(const sl_source *src, const sl_atmos_state *amb, start *
         SL_FAIL_RETURN(e, SL_EDATA, "%s source: no air in the initial thermal (heat %g J cannot be held by %g kg of water)",
                        what, src->heat_J, st->vapor_kg + st->liquid_kg);
     st->volume_m3 = (st->air_kg * RA + st->vapor_kg * RV) * st->T_K / p;
-    st->radius_m = cbrt(st->volume_m3 * 3.0 / FOUR_PI);
+    st->radius_m = sl_cbrt(st->volume_m3 * 3.0 / FOUR_PI);
     return SL_OK;
 }
 
