@@ -232,35 +232,61 @@ static double pressure_for_fraction(double x_target, double t0)
     return w->density_kg_m3 * (w->c_m_s + w->s * u) * u;
 }
 
-enum { N_SHELLS = 120 };
+/* Gauss-Legendre rule of 16 points on [-1, 1], the nodes above 0 and their
+ * weights (the rule is symmetric), as GSL's gsl_integration_glfixed_point
+ * gives them for n = 16.  The shock method's integrals are over pieces of
+ * ln r (or ln p) on which the integrand is smooth and exponential-like,
+ * where 16 points agree with GSL's adaptive QAGP to 1e-12 or better
+ * (tests/test_partition.c).  The midpoint rule on 120 shells it replaced
+ * was off by up to 9e-5 in the water vaporised on the bench ensemble
+ * (against 2e5 shells), at twice the cost. */
+enum { GL_HALF = 8 };
+static const double gl_node[GL_HALF] = {0.095012509837637441, 0.28160355077925892, 0.45801677765722737,
+                                        0.61787624440264377,  0.755404408355003,   0.86563120238783176,
+                                        0.9445750230732326,   0.98940093499164994};
+static const double gl_weight[GL_HALF] = {0.1894506104550685,  0.18260341504492358, 0.16915651939500254,
+                                          0.14959598881657674, 0.12462897125553388, 0.095158511682492786,
+                                          0.062253523938647894, 0.027152459411754096};
+enum { GL_POINTS = 2 * GL_HALF };
+
+/* The GL_POINTS nodes of [A, B] (ascending) and their weights. */
+static void gl_points(double a, double b, double *x, double *w)
+{
+    const double h = 0.5 * (b - a), c = 0.5 * (a + b);
+    for (int k = 0; k < GL_HALF; k++) {
+        x[GL_HALF - 1 - k] = c - h * gl_node[k];
+        x[GL_HALF + k] = c + h * gl_node[k];
+        w[GL_HALF - 1 - k] = w[GL_HALF + k] = h * gl_weight[k];
+    }
+}
 
 /* Waste heat of a water half-space (no floor) under the pressure field
  * P_ic inside r_ic, P_ic (r/r_ic)^-n outside, out to where it falls to
- * P_END (below which the waste heat is negligible), J.  Midpoint rule in
- * log r on N_SHELLS shells: shell k has the pressure
- * p_ic (p_end/p_ic)^((k + 1/2)/N_SHELLS), whatever n, so the waste heat per
- * kilogram of each shell is computed once (halfspace_shells) and a value of
- * n only changes the shells' radii r_k = r_ic e^((k + 1/2) dl),
- * dl = ln(p_ic/p_end) / (n N_SHELLS). */
+ * P_END (below which the waste heat is negligible), J.  In s = ln(p_ic/p)
+ * the shell at s has the radius r_ic e^(s/n), so the integral is
+ * (2 pi rho_w r_ic^3 / n) int_0^S e_w(p_ic e^-s) e^(3 s/n) ds over
+ * S = ln(p_ic/p_end): the Gauss-Legendre nodes in s do not depend on n, so
+ * the waste heat per kilogram at each node is computed once
+ * (halfspace_nodes) and a value of n only changes the factors e^(3 s/n). */
 typedef struct halfspace {
-    double core_J;               /* the isobaric core */
-    double log_ratio;            /* ln(p_ic / p_end); 0 when p_ic <= p_end */
+    double core_J;             /* the isobaric core */
+    double log_ratio;          /* S = ln(p_ic / p_end); 0 when p_ic <= p_end */
     double r_ic;
-    double shell_J_kg[N_SHELLS]; /* waste heat per kg of each shell */
+    double s[GL_POINTS];       /* the nodes in s */
+    double wq_J_kg[GL_POINTS]; /* their weights times the waste heat per kg there */
 } halfspace;
 
-static void halfspace_shells(halfspace *hs, double p_ic, double r_ic, double p_end)
+static void halfspace_nodes(halfspace *hs, double p_ic, double r_ic, double p_end)
 {
     const sl_hugoniot *w = &sl_partition_hugoniots[0];
     const double rho_w = 1025.0;
     hs->r_ic = r_ic;
     hs->core_J = waste_heat_J_kg(w, particle_speed_from_pressure(w, p_ic)) * rho_w * 2.0 / 3.0 * SL_PI * r_ic * r_ic * r_ic;
     hs->log_ratio = p_ic > p_end ? log(p_ic / p_end) : 0.0;
-    /* Pressures by geometric recurrence (no exp or pow per shell; rounding
-     * of the product grows to ~1e-14 over the shells). */
-    double qp = exp(-hs->log_ratio / N_SHELLS), pr = p_ic * exp(-0.5 * hs->log_ratio / N_SHELLS);
-    for (int k = 0; k < N_SHELLS; k++, pr *= qp)
-        hs->shell_J_kg[k] = waste_heat_J_kg(w, particle_speed_from_pressure(w, pr));
+    double wt[GL_POINTS];
+    gl_points(0.0, hs->log_ratio, hs->s, wt);
+    for (int k = 0; k < GL_POINTS; k++)
+        hs->wq_J_kg[k] = wt[k] * waste_heat_J_kg(w, particle_speed_from_pressure(w, p_ic * exp(-hs->s[k])));
 }
 
 static double halfspace_waste_heat_J(const halfspace *hs, double n)
@@ -269,11 +295,12 @@ static double halfspace_waste_heat_J(const halfspace *hs, double n)
     double total = hs->core_J;
     if (!(hs->log_ratio > 0.0))
         return total;
-    double dl = hs->log_ratio / n / N_SHELLS;
-    double q3 = exp(3.0 * dl), r = hs->r_ic * exp(0.5 * dl), r3 = r * r * r, sum = 0.0;
-    for (int k = 0; k < N_SHELLS; k++, r3 *= q3)
-        sum += hs->shell_J_kg[k] * r3;
-    return total + sum * rho_w * 2.0 * SL_PI * dl;
+    const double k3 = 3.0 / n;
+    double sum = 0.0;
+    for (int k = 0; k < GL_POINTS; k++)
+        sum += hs->wq_J_kg[k] * exp(k3 * hs->s[k]);
+    const double r3 = hs->r_ic * hs->r_ic * hs->r_ic;
+    return total + sum * rho_w * 2.0 * SL_PI * r3 / n;
 }
 
 /* Mass of water vaporised and liquid thrown up by the shock method. */
@@ -299,7 +326,7 @@ static int shock_vapor(sl_partition *pt, const sl_partition_input *in, double *v
     const double p_end = 1e8; /* 0.1 GPa: waste heat there is ~1 J/kg */
     double e_target = in->target_heat_fraction * pt->energy_at_sea_J;
     halfspace hs;
-    halfspace_shells(&hs, p_ic, r_ic, p_end);
+    halfspace_nodes(&hs, p_ic, r_ic, p_end);
     double wh = halfspace_waste_heat_J(&hs, n);
     if (wh > e_target) {
         /* f(n) = ln(W(n)/E_t) falls with n: bracket it, then the Illinois
@@ -346,8 +373,11 @@ static int shock_vapor(sl_partition *pt, const sl_partition_input *in, double *v
     double r_max = p_ic > p_inc ? r_ic * pow(p_ic / p_inc, 1.0 / n) : 0.0;
     double d = in->ocean_depth_m;
     double rho_w = 1025.0;
-    /* Midpoint rule in log r over the decay zone (the integrand is smooth in
-     * log r), and the core in one piece. */
+    /* The core in one piece; the decay zone in l = ln(r/r_ic) by the
+     * Gauss-Legendre rule on the pieces where the integrand is smooth: cut
+     * where the vapour fraction reaches 1 (inside it, all vapour) and at the
+     * sea floor (the shell's area, 2 pi r min(r, d), bends there); the
+     * vapour fraction falls to 0 at the end, r_max. */
     double vap = 0, liq = 0;
     if (r_max > 0) {
         double liq_f;
@@ -357,17 +387,33 @@ static int shock_vapor(sl_partition *pt, const sl_partition_input *in, double *v
             core_vol = SL_PI * d * (r_ic * r_ic - d * d / 3.0);
         vap += x_core * rho_w * core_vol;
         liq += liq_f * rho_w * core_vol;
-        const int nk = N_SHELLS;
-        double dl = log(r_max / r_ic) / nk;
-        /* Radii and pressures by geometric recurrence (no exp or pow per
-         * shell; the products' rounding grows to ~1e-14 over the shells). */
-        double q = exp(dl), qp = exp(-n * dl), r = r_ic * exp(0.5 * dl), pr = p_ic * exp(-0.5 * n * dl);
-        for (int k = 0; k < nk; k++, r *= q, pr *= qp) {
-            double x = sl_partition_vapor_fraction(pr, t0, &liq_f);
-            /* Shell of the hemisphere, cut at the sea floor: area 2 pi r min(r, d). */
-            double dvol = 2.0 * SL_PI * r * sl_min(r, d) * r * dl;
-            vap += x * rho_w * dvol;
-            liq += liq_f * rho_w * dvol;
+        const double l_max = log(r_max / r_ic);
+        const double p_c = pt->complete_vapor_pressure_Pa;
+        const double l_c = p_ic > p_c ? log(p_ic / p_c) / n : 0.0;  /* all vapour below */
+        const double l_d = d > r_ic ? log(d / r_ic) : 0.0;          /* the sea floor */
+        double cut[4] = {0.0, sl_min(l_c, l_max), sl_min(l_d, l_max), l_max};
+        if (cut[1] > cut[2]) { /* ascending */
+            double tmp = cut[1];
+            cut[1] = cut[2];
+            cut[2] = tmp;
+        }
+        for (int j = 0; j < 3; j++) {
+            if (!(cut[j + 1] > cut[j]))
+                continue;
+            const int all_vapor = cut[j + 1] <= l_c;
+            double l[GL_POINTS], wt[GL_POINTS];
+            gl_points(cut[j], cut[j + 1], l, wt);
+            for (int k = 0; k < GL_POINTS; k++) {
+                const double r = r_ic * exp(l[k]);
+                double x = 1.0;
+                liq_f = 0.0;
+                if (!all_vapor)
+                    x = sl_partition_vapor_fraction(p_ic * exp(-n * l[k]), t0, &liq_f);
+                /* Shell of the hemisphere, cut at the sea floor: area 2 pi r min(r, d). */
+                const double dvol = 2.0 * SL_PI * r * sl_min(r, d) * r * wt[k];
+                vap += x * rho_w * dvol;
+                liq += liq_f * rho_w * dvol;
+            }
         }
     }
     *vap_kg = vap;
