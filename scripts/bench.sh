@@ -55,12 +55,14 @@
 # of quotients, no change in user CPU (1.682 against 1.698 s for 1e4 members, 5 alternating runs;
 # outputs at the solver's noise level).
 # Measured 2026-12-04 (issue 14, the levers that reached the target; user CPU for 1e4 members,
-# medians of 5-7 alternating runs, 1 thread): the saturation solve's early stop loosened to a vapour
-# step of 2e-3 and an error estimate of 1e-10 T (1.87 -> 1.33 enthalpy evaluations per solve),
-# 1.55 -> 1.45 s; the inline cube root (cuberoot.h), about 1 % (1.47 -> 1.45 s); the shock
-# method's integrals by Gauss-Legendre pieces instead of 120 midpoint shells, with the CSV numbers'
-# floor taken without x87 control-word changes (perf had shown the formatting grow from 2 to 6 % of
-# the run when the partition code changed, the time on fldcw/frndint), 1.47 -> 1.41 s.  `make
+# 1 thread, each an A/B pair of binaries in 5-7 alternating runs, medians; the pairs ran at
+# different times, so their absolute seconds do not chain): the saturation solve's early stop
+# loosened to a vapour step of 2e-3 and an error estimate of 1e-10 T (1.87 -> 1.33 enthalpy
+# evaluations per solve), 1.55 -> 1.45 s (-6.5 %); the inline cube root (cuberoot.h), 1.47 -> 1.45 s
+# (about -1 %, at the noise); the shock method's integrals by Gauss-Legendre pieces instead of 120
+# midpoint shells, with the CSV numbers' floor taken without x87 control-word changes (perf had shown
+# the formatting grow from 2 to 6 % of the run when the partition code changed, the time on
+# fldcw/frndint), 1.47 -> 1.41 s (-4 %).  `make
 # bench` then: 0.1437 ms per scenario (median of 5: 0.1401 to 0.1479; 0.1559 before, same quiet
 # machine), partition 0.0100 -> 0.0042 ms.  The million-member command above: 86 s wall (83 s to
 # the end of the members), 161 s user CPU, 89.2 MiB peak RSS.  Profile (perf, 2e4 members) after:

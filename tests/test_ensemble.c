@@ -285,13 +285,14 @@ START_TEST(test_rng_matches_gsl)
     /* The lazy MT19937 against GSL's gsl_rng_mt19937 (the reference library):
      * the same 32-bit outputs and the same uniform_pos doubles, bit for bit,
      * for seed 0 (GSL's 4357), 1, the largest 32-bit seed, a seed above 32 bits
-     * (GSL keeps its low 32), member seeds, and runs of draws that end in the
+     * where long has 64 (GSL keeps its low 32), member seeds, and runs of draws that end in the
      * lazy part (1-226), at the switch to the full state (227, 228) and after
      * one and two regenerations of the state (700, 1300). */
     gsl_rng *ref = gsl_rng_alloc(gsl_rng_mt19937);
     ck_assert_ptr_nonnull(ref);
     sl_rng g;
-    const unsigned long seeds[] = {0ul, 1ul, 4357ul, 0xfffffffful, 0x123456789abcul, sl_ens_member_seed(1, 0),
+    const unsigned long seeds[] = {0ul, 1ul, 4357ul, 0xfffffffful, (unsigned long)0x123456789abcull /* 64-bit long */,
+                                   sl_ens_member_seed(1, 0),
                                    sl_ens_member_seed(1, 1999), sl_ens_member_seed(7, 123456)};
     const size_t runs[] = {1, 5, 226, 227, 228, 700, 1300};
     for (size_t a = 0; a < sizeof seeds / sizeof seeds[0]; a++)

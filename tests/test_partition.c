@@ -216,17 +216,27 @@ static double vapor_integrand(double r, void *par)
            fmin(r, f->depth_m);
 }
 
+static double liquid_integrand(double r, void *par)
+{
+    const shock_field *f = par;
+    double liq = 0.0;
+    sl_partition_vapor_fraction(f->p_ic * pow(r / f->r_ic, -f->n), f->t0, &liq);
+    return liq * 1025.0 * 2.0 * SL_PI * r * fmin(r, f->depth_m);
+}
+
 START_TEST(shock_integrals_against_adaptive)
 {
-    const double diam[] = {300, 1000, 3000, 1000};
-    const double angle[] = {90, 45, 60, 45};
-    const double depth[] = {5000, 5000, 5000, 300};
+    /* Deep water; a floor shallower than the core (300 m); a floor between
+     * the core and the all-vapour radius (2000 m under a 3 km body). */
+    const double diam[] = {300, 1000, 3000, 1000, 3000};
+    const double angle[] = {90, 45, 60, 45, 60};
+    const double depth[] = {5000, 5000, 5000, 300, 2000};
     sl_entry en = {0};
     sl_err e = {0};
     gsl_integration_workspace *ws = gsl_integration_workspace_alloc(2000);
     ck_assert_ptr_nonnull(ws);
-    int n_vapor = 0;
-    for (int c = 0; c < 4; c++) {
+    int n_vapor = 0, n_liquid = 0;
+    for (int c = 0; c < 5; c++) {
         run_entry(&en, diam[c], 3000, 18.0, angle[c]);
         sl_partition_input in = impact_input(&en, 3000, SL_PARTITION_SHOCK, depth[c]);
         sl_partition pt;
@@ -262,17 +272,30 @@ START_TEST(shock_integrals_against_adaptive)
         ck_assert_int_eq(gsl_integration_qagp(&F, pts_v, np, 0.0, 1e-12, 2000, ws, &res, &abserr), GSL_SUCCESS);
         double core_vol = f.depth_m < f.r_ic ? SL_PI * f.depth_m * (f.r_ic * f.r_ic - f.depth_m * f.depth_m / 3.0)
                                              : 2.0 / 3.0 * SL_PI * f.r_ic * f.r_ic * f.r_ic;
-        double vap = sl_partition_vapor_fraction(f.p_ic, f.t0, NULL) * 1025.0 * core_vol + res;
-        printf("shock integrals: D %g m, %g deg, depth %g m: waste heat %.6e J (rel. diff %.1e), vapour %.6e kg (%.1e)%s\n",
+        double liq_core = 0.0;
+        double vap = sl_partition_vapor_fraction(f.p_ic, f.t0, &liq_core) * 1025.0 * core_vol + res;
+        /* The liquid thrown up (partly vaporised water), unless the energy
+         * left for heating it capped it (then nothing is left over). */
+        F.function = liquid_integrand;
+        ck_assert_int_eq(gsl_integration_qagp(&F, pts_v, np, 0.0, 1e-12, 2000, ws, &res, &abserr), GSL_SUCCESS);
+        double liq = liq_core * 1025.0 * core_vol + res;
+        printf("shock integrals: D %g m, %g deg, depth %g m: waste heat %.6e J (rel. diff %.1e), vapour %.6e kg "
+               "(%.1e), liquid %.6e kg (%.1e)%s\n",
                diam[c], angle[c], depth[c], pt.target_waste_heat_J, pt.target_waste_heat_J / wh - 1.0,
-               pt.water_vaporized_kg, pt.water_vaporized_kg / vap - 1.0, pt.vapor_capped ? ", capped" : "");
+               pt.water_vaporized_kg, pt.water_vaporized_kg / vap - 1.0, pt.water_liquid_lofted_kg,
+               pt.water_liquid_lofted_kg / liq - 1.0, pt.vapor_capped ? ", capped" : "");
         SL_CK_REL(pt.target_waste_heat_J, wh, 1e-9);
         if (!pt.vapor_capped) {
             SL_CK_REL(pt.water_vaporized_kg, vap, 1e-9);
             n_vapor++;
+            if (pt.energy_other_J > 0.0) {
+                SL_CK_REL(pt.water_liquid_lofted_kg, liq, 1e-9);
+                n_liquid++;
+            }
         }
     }
-    ck_assert_int_ge(n_vapor, 3);
+    ck_assert_int_ge(n_vapor, 4);
+    ck_assert_int_ge(n_liquid, 3);
     gsl_integration_workspace_free(ws);
     sl_entry_free(&en);
 }

@@ -5,12 +5,12 @@
  * sl_rng_uniform_pos is gsl_rng_uniform_pos on it (the 32-bit output over
  * 2^32, drawn again if 0), so the numbers are GSL's to the bit
  * (tests/test_ensemble.c compares them).  It is made lazily: each member is
- * seeded afresh and draws a few numbers, and the j-th draw of a freshly
- * seeded generator (j < 227) needs only the first j + 398 of the 624 seed
- * words and one step of the state's twist, where gsl_rng_set computes all
- * 624 words and the first draw twists all of them.  From the 228th draw on
- * the whole state is completed as GSL's and the generator goes on as GSL's
- * does.  No allocation; a generator is one thread's. */
+ * seeded afresh and draws a few numbers, and draw j of a freshly seeded
+ * generator (counting from 0, j < 227) needs only the first j + 398 of the
+ * 624 seed words and one step of the state's twist, where gsl_rng_set
+ * computes all 624 words and the first draw twists all of them.  From draw
+ * 227 on the whole state is completed as GSL's and the generator goes on as
+ * GSL's does.  No allocation; a generator is one thread's. */
 #ifndef STEAMLOFT_RNG_H
 #define STEAMLOFT_RNG_H
 
