@@ -278,10 +278,11 @@ static int fast_scaled(double ax, long double *y, int *xe_out)
  * x87 the sum Z + 2^63 is Z rounded to an integer (its unit there is 1) and
  * its significand holds that integer below the leading bit, so no floorl and
  * no conversion to an integer is needed: both change the x87 control word
- * (fldcw), which cost about a third of the time of this file's numbers and,
- * measured in the bench ensemble, up to three times more when the code
- * around it changed.  The rounding mode does not matter: the integer is
- * within 1 of Z and the difference, exact, says which way to correct. */
+ * (fldcw).  In one build of the bench ensemble perf put 6 % of the run in
+ * this file's numbers, most of it on floorl's frndint and fldcw, where the
+ * build before had 2 %; without them it is 2 % in both.  The rounding mode
+ * does not matter: the integer is within 1 of Z and the difference, exact,
+ * says which way to correct. */
 static unsigned long long floor_ld(long double z, long double *frac)
 {
 #if LDBL_MANT_DIG == 64 && (defined(__x86_64__) || defined(__i386__))

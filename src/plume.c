@@ -364,7 +364,7 @@ static double h_triple(const sl_plume_work *w, double Ma, double Mw, double p_Pa
  * relative tolerance (1e-6), in 1.33 evaluations of h_sat per solve.  The
  * bounds were 1e-5 and 1e-14 (T within 3.4e-15, vapour 5.4e-13, 1.87
  * evaluations per solve); the member outputs moved less than when the
- * plume's tolerance is halved (scripts/compare-physics.sh; issue 14). */
+ * plume's tolerance is halved (scripts/compare-physics.sh). */
 #define SOLVE_VAPOR_STEP 2.0e-3
 #define SOLVE_T_ERR 1.0e-10
 static double solve_T(const sl_plume_work *w, double H, double Ma, double Mw, double p, int ice, double lo, double hi,
