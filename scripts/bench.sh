@@ -62,9 +62,9 @@
 # (about -1 %, at the noise); the shock method's integrals by Gauss-Legendre pieces instead of 120
 # midpoint shells, with the CSV numbers' floor taken without x87 control-word changes (perf had shown
 # the formatting grow from 2 to 6 % of the run when the partition code changed, the time on
-# fldcw/frndint), 1.47 -> 1.41 s (-4 %).  `make
-# bench` then: 0.1437 ms per scenario (median of 5: 0.1401 to 0.1479; 0.1559 before, same quiet
-# machine), partition 0.0100 -> 0.0042 ms.  The million-member command above: 86 s wall (83 s to
+# fldcw/frndint), 1.47 -> 1.41 s (-4 %).  `make bench` then: 0.1437 ms per scenario (median of 5:
+# 0.1401 to 0.1479; 0.1559 before, same quiet machine; later readings 0.1481 and 0.1461, medians of
+# 5 and 9), partition 0.0100 -> 0.0042 ms.  The million-member command above: 86 s wall (83 s to
 # the end of the members), 161 s user CPU, 89.2 MiB peak RSS.  Profile (perf, 2e4 members) after:
 # the plume's right-hand side (diagnose, saturation solve, enthalpy) about 32 %, libm exp 8.5 %,
 # the entry's right-hand side and its density query 11 % with sincos 2.9 %, the ODE layer 6.6 %,

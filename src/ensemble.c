@@ -258,12 +258,9 @@ int sl_ens_sample(const sl_ens_plan *p, size_t first, size_t count, double *valu
         return SL_OK;
     }
     if (p->mode == SL_ENS_MONTE_CARLO) {
-        sl_rng *r = malloc(sizeof *r);
-        if (r == NULL)
-            SL_FAIL_RETURN(e, SL_ENOMEM, "cannot allocate the random number generator");
+        sl_rng r; /* 2.5 kB, no allocation */
         for (size_t i = 0; i < count; i++)
-            sample_mc(p, r, first + i, values + i * ni);
-        free(r);
+            sample_mc(p, &r, first + i, values + i * ni);
         return SL_OK;
     }
     gsl_qrng *q = gsl_qrng_alloc(gsl_qrng_sobol, (unsigned)ni);

@@ -102,6 +102,7 @@ static const double s_liquid_1atm_J_kg_K = SL_WATER_S_LIQUID_1ATM_J_KG_K;
 static const double s_vapor_1atm_J_kg_K = SL_WATER_S_VAPOR_1ATM_J_KG_K;
 static const double p_release_Pa = 101325.0;
 static const double salinity_g_kg = 35.0;   /* standard sea water */
+static const double rho_seawater_kg_m3 = 1025.0; /* sea water: the shocked target's mass and the cavity's target (PRACTICE) */
 static const double fireball_r_1mt_m = 1097.0;
 static const double fireball_exponent = 0.393;
 static const double fireball_q_max = 0.9;
@@ -125,7 +126,7 @@ double sl_partition_cavity_diameter_m(double diameter_m, double density_kg_m3, d
                                       double angle_rad)
 {
     /* Collins et al. 2005: D_tc = 1.365 (rho_i/rho_t)^(1/3) L^0.78 v^0.44 g^-0.22 sin^(1/3) theta. */
-    const double rho_w = 1025.0; /* sea water */
+    const double rho_w = rho_seawater_kg_m3;
     return 1.365 * cbrt(density_kg_m3 / rho_w) * pow(diameter_m, 0.78) * pow(speed_m_s, 0.44) *
            pow(SL_USSA_G0_M_S2, -0.22) * cbrt(sin(angle_rad));
 }
@@ -280,7 +281,7 @@ typedef struct halfspace {
 static void halfspace_nodes(halfspace *hs, double p_ic, double r_ic, double p_end)
 {
     const sl_hugoniot *w = &sl_partition_hugoniots[0];
-    const double rho_w = 1025.0;
+    const double rho_w = rho_seawater_kg_m3;
     hs->r_ic = r_ic;
     hs->core_J = waste_heat_J_kg(w, particle_speed_from_pressure(w, p_ic)) * rho_w * 2.0 / 3.0 * SL_PI * r_ic * r_ic * r_ic;
     hs->log_ratio = p_ic > p_end ? log(p_ic / p_end) : 0.0;
@@ -292,7 +293,7 @@ static void halfspace_nodes(halfspace *hs, double p_ic, double r_ic, double p_en
 
 static double halfspace_waste_heat_J(const halfspace *hs, double n)
 {
-    const double rho_w = 1025.0;
+    const double rho_w = rho_seawater_kg_m3;
     double total = hs->core_J;
     if (!(hs->log_ratio > 0.0))
         return total;
@@ -373,7 +374,7 @@ static int shock_vapor(sl_partition *pt, const sl_partition_input *in, double *v
     /* Out to where the pressure falls to the incipient level. */
     double r_max = p_ic > p_inc ? r_ic * pow(p_ic / p_inc, 1.0 / n) : 0.0;
     double d = in->ocean_depth_m;
-    double rho_w = 1025.0;
+    const double rho_w = rho_seawater_kg_m3;
     /* The core in one piece; the decay zone in l = ln(r/r_ic) by the
      * Gauss-Legendre rule on the pieces where the integrand is smooth: cut
      * where the vapour fraction reaches 1 (inside it, all vapour) and at the
