@@ -170,6 +170,37 @@ print("# apogee %.0f km, re-entry footprint %.0f km across" % (t["apogee_m"] / 1
 PY
 then sl_ok "1 km body: water above 100 km, back over more than 1000 km"; else sl_fail "1 km body ballistic reach"; fi
 
+# The explosion clouds of docs/physics.md section 6 are the model's: the
+# tops, the NECTAR bottom, the slope over 1-50 Mt and the rise-stop times
+# quoted there equal what scripts/explosion-clouds.sh prints from this build
+# (a physics change that moves them must change the text too).
+if sh "${SL_SRCDIR:-.}/scripts/explosion-clouds.sh" "$SL_BIN" >"$SL_TMP/clouds" 2>"$SL_TMP/clouds.err" &&
+  /usr/bin/python3 - "$SL_TMP/clouds" "${SL_SRCDIR:-.}/docs/physics.md" <<'PY'
+import re, sys
+rows = {}
+slope = None
+for line in open(sys.argv[1]):
+    f = line.split()
+    if len(f) == 6 and re.match(r"^[0-9.]+$", f[0]):
+        rows[f[0]] = f[1:]
+    m = re.search(r"1-50 Mt: ([0-9.]+)", line)
+    if m:
+        slope = float(m.group(1))
+assert sorted(rows) == sorted(["1", "1.69", "5", "15", "50"]) and slope is not None, (rows, slope)
+doc = " ".join(open(sys.argv[2]).read().split())
+want = ["1 Mt top %s km" % rows["1"][0],
+        "1.69 Mt top/bottom %s/%s km" % (rows["1.69"][0], rows["1.69"][1]),
+        "5 Mt %s km" % rows["5"][0], "15 Mt %s km" % rows["15"][0], "50 Mt %s km" % rows["50"][0],
+        "over these five is %.2f" % slope,
+        "The rise stops after %s min (1 Mt) to %s min (50 Mt)" % (rows["1"][3], rows["50"][3])]
+missing = [w for w in want if w not in doc]
+for line in open(sys.argv[1]):
+    print("# " + line.rstrip())
+assert not missing, missing
+PY
+then sl_ok "docs/physics.md quotes the explosion clouds of this build"; else
+  sed 's/^/#   /' "$SL_TMP/clouds.err" | head -5; sl_fail "docs/physics.md explosion clouds differ from scripts/explosion-clouds.sh"; fi
+
 # The top of the explosion range high up: 1e5 Mt at 80 km.  Its fireball,
 # sized in the thin air there, would be centred far above the profile's top;
 # it is wholly ballistic (a regime, not an error: issue 17's range sweep
