@@ -224,6 +224,20 @@ double sl_injection_mass_above_kg(const sl_injection *inj, double altitude_m)
     return s;
 }
 
+double sl_injection_mass_below_kg(const sl_injection *inj, double altitude_m)
+{
+    double s = 0.0;
+    for (size_t i = 0; inj != NULL && i < inj->n_bands; i++) {
+        double b0 = inj->band_bottom_m[i], b1 = inj->band_top_m[i];
+        double m = inj->vapor_kg[i] + inj->ice_kg[i];
+        if (b1 <= altitude_m)
+            s += m;
+        else if (b0 < altitude_m)
+            s += m * (altitude_m - b0) / (b1 - b0);
+    }
+    return s;
+}
+
 void sl_injection_free(sl_injection *inj)
 {
     if (inj == NULL)

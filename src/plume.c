@@ -1328,12 +1328,15 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
     inj->cloud_area_m2 = sl_min(area, SL_EARTH_AREA_M2);
     /* The budget's last lines: the excess in the bands, split at the one
      * tropopause (the box model uses the same, strat.c). */
-    double bands = sl_injection_total_vapor_kg(inj) + sl_injection_total_ice_kg(inj);
+    double below = sl_injection_total_vapor_kg(inj) + sl_injection_total_ice_kg(inj);
     if (isfinite(atm->tropopause_altitude_m)) {
         pl->stratospheric_water_kg = sl_injection_mass_above_kg(inj, atm->tropopause_altitude_m);
         pl->stratospheric_vapor_kg = sl_injection_vapor_above_kg(inj, atm->tropopause_altitude_m);
         pl->stratospheric_ice_kg = sl_max(pl->stratospheric_water_kg - pl->stratospheric_vapor_kg, 0.0);
+        /* Its own sum, not the bands less the stratospheric part: nothing
+         * below the tropopause is 0, not the rounding of a difference. */
+        below = sl_injection_mass_below_kg(inj, atm->tropopause_altitude_m);
     }
-    pl->water_troposphere_kg = sl_max(bands - pl->stratospheric_water_kg, 0.0) + pl->water_below_bands_kg;
+    pl->water_troposphere_kg = below + pl->water_below_bands_kg;
     return SL_OK;
 }

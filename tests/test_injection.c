@@ -78,6 +78,12 @@ START_TEST(test_add_layer_conserves)
     SL_CK_REL(sl_injection_mass_above_kg(&inj, 17500.0), (m + ice) * 4100.0 / 9300.0, 1e-13);
     SL_CK_REL(sl_injection_mass_above_kg(&inj, 0.0), m + ice, 1e-15);
     ck_assert(sl_injection_mass_above_kg(&inj, 30000.0) == 0.0);
+    /* Below 17.5 km: the rest, (17.5-12.3)/9.3 (DERIVED), and nothing below the layer is exactly 0,
+     * not the rounding of a difference. */
+    SL_CK_REL(sl_injection_mass_below_kg(&inj, 17500.0), (m + ice) * 5200.0 / 9300.0, 1e-13);
+    ck_assert(sl_injection_mass_below_kg(&inj, 12000.0) == 0.0);
+    SL_CK_REL(sl_injection_mass_below_kg(&inj, 30000.0), m + ice, 1e-15);
+    SL_CK_REL(sl_injection_mass_below_kg(&inj, 17500.0) + sl_injection_mass_above_kg(&inj, 17500.0), m + ice, 1e-15);
     /* A zero-thickness layer lands whole in the band holding it. */
     ck_assert_int_eq(sl_injection_add_layer(&inj, 5.0, 0.0, 40500.0, 40500.0, &e), SL_OK);
     ck_assert(inj.vapor_kg[40] == 5.0);
