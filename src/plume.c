@@ -1328,6 +1328,7 @@ int sl_plume_solve(sl_plume *pl, const sl_atmosphere *atm, const sl_source_list 
     inj->cloud_area_m2 = sl_min(area, SL_EARTH_AREA_M2);
     /* The budget's last lines: the excess in the bands, split at the one
      * tropopause (the box model uses the same, strat.c). */
+    /* Without a tropopause (a profile read from a file may have none) every band is below it. */
     double below = sl_injection_total_vapor_kg(inj) + sl_injection_total_ice_kg(inj);
     if (isfinite(atm->tropopause_altitude_m)) {
         pl->stratospheric_water_kg = sl_injection_mass_above_kg(inj, atm->tropopause_altitude_m);
