@@ -372,7 +372,9 @@ static void write_script(FILE *fp, const sl_output_view *v)
     if (v->regime_note && v->regime_note[0]) {
         /* The full note is in the netCDF and CSV files; the plot gets its head. */
         char head[96];
-        size_t k = strcspn(v->regime_note, ":;.");
+        size_t k = strcspn(v->regime_note, ":;.(");
+        while (k > 0 && v->regime_note[k - 1] == ' ') /* "blow-out regime (sources ...": no dangling bracket */
+            k--;
         snprintf(head, sizeof head, "%.*s: see the validity warning", (int)(k < 60 ? k : 60),
                  v->regime_note);
         fputs("validity = ", fp);

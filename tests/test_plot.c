@@ -218,6 +218,34 @@ START_TEST(data_values)
 }
 END_TEST
 
+/* The plot carries the head of the validity warning, cut before its first
+ * clause or bracket: no dangling "(" (the wording of output_chain.c). */
+START_TEST(validity_head)
+{
+    build_fixture(0);
+    mk_tmp();
+    sl_err e = {0};
+    sl_plot_options o = {0, 0, NULL};
+    sl_plot_result res;
+    F.view.regime_note = "blow-out regime (sources: sea_plume blow-out): a release wider than the scale height";
+    ck_assert_msg(sl_plot_write(&F.view, tmpdir, &o, &res, &e) == SL_OK, "%s", e.msg);
+    F.view.regime_note = NULL;
+    char p[500], line[256];
+    snprintf(p, sizeof p, "%s/steamloft.gp", tmpdir);
+    FILE *f = fopen(p, "r");
+    ck_assert_ptr_nonnull(f);
+    int found = 0;
+    while (fgets(line, sizeof line, f))
+        if (strncmp(line, "validity = ", 11) == 0) {
+            ck_assert_str_eq(line, "validity = \"blow-out regime: see the validity warning\"\n");
+            found = 1;
+        }
+    fclose(f);
+    ck_assert(found);
+    rm_tmp();
+}
+END_TEST
+
 /* An invented ensemble: 1-km bands from 10 to 50 km, median lofted water a
  * Gaussian around 30 km, the 5th and 95th percentiles a third and three times
  * it, and the 5th zero in the lowest band (below the log axis: it must not be
@@ -472,6 +500,7 @@ static Suite *suite(int render)
         tcase_add_test(tc, no_line_at_the_axis_edge);
     }
     tcase_add_test(tc, data_values);
+    tcase_add_test(tc, validity_head);
     tcase_add_test(tc, missing_gnuplot_is_a_warning);
     tcase_add_test(tc, existing_image_not_overwritten);
     tcase_add_test(tc, ensemble_data);
