@@ -64,9 +64,12 @@
  * Air share (an airburst, or the trail of a body that reaches the sea) and
  * explosions, one heat rule: the buoyant heat is that of the air filling the
  * fireball at its maximum size at 3000 K, but at most a fraction f_a of the
- * energy (default 0.4: the thermal-radiation 35 % and blast 50 % of a nuclear
- * burst, Glasstone & Dolan 1977, bracket it; the near-field waste heat of the
- * blast wave, Brode 1968); the cap binds from about 1 Mt up.  A burst whose
+ * energy (default 0.5: at most the blast's 50 % of a nuclear burst stays as
+ * heat near the fireball once its 35 % thermal radiation has left, Glasstone &
+ * Dolan 1977; the near-field waste heat of the blast wave, Brode 1968; the
+ * value is fitted together with the plume's entrainment coefficient to two
+ * observed explosion clouds, docs/physics.md section 6, and sits at that
+ * bound); the cap binds from about 2 Mt up.  A burst whose
  * fireball reaches the sea vaporises sea water (solve_explosion: the thermal
  * radiation in the part of the sphere below the surface, then the budget
  * method's vapour fraction); the steam rises in the fireball.  The fireball's

@@ -3,7 +3,9 @@
  * Physics.  Each source is an instantaneous release of buoyancy, a "thermal"
  * in the sense of Morton, Taylor & Turner (1956, Proc. R. Soc. A 234, 1-23):
  * a sphere of radius b rising at speed w, entraining ambient air through its
- * surface at the velocity alpha*w (alpha ~ 0.25, Scorer 1957; Turner 1973).
+ * surface at the velocity alpha*w (0.2-0.35 in laboratory thermals, Scorer
+ * 1957; Turner 1973; 0.29 fitted to two explosion clouds, docs/physics.md
+ * section 6).
  * The equations are written for masses rather than volumes, so they hold
  * across several scale heights (the volcanic-plume form of Woods 1988, Bull.
  * Volcanol. 50, 169; here for a thermal, not a maintained plume).  State:
@@ -96,7 +98,7 @@
  * Volcanol. 48, 3-15, SEEN).  We prefer it to the simpler placement
  * (centred on z_N, apex radius as half-thickness)
  * because in a deep atmosphere the thermal's radius grows with the density
- * scale height as well as by entrainment (b_apex ~ 0.45 z_apex for a 1-2 Mt
+ * scale height as well as by entrainment (b_apex ~ 0.5 z_apex for a 1-2 Mt
  * cloud), which put the cloud bottom far below the observed one; the rule
  * used reproduces the 1.69 Mt surface-burst cloud (top 21.6 km, bottom
  * 12.3 km) within the tolerance of tests/test_plume.c.  In the Boussinesq
@@ -127,8 +129,8 @@
  * its reach clipped at 120 km.  The regime of each source is in every
  * output, with a validity line; these numbers are the roughest of the tool.
  * Each thermal also reports its radius over the scale height at the apex:
- * near 1 for a 1-2 Mt cloud, 2.2 for 15 Mt, where the bulk thermal strains;
- * from SL_PLUME_WIDE_SCALE_HEIGHTS (3.2 for 50 Mt) its top is capped (see
+ * near 1 for a 1-2 Mt cloud, 2.35 for 15 Mt, where the bulk thermal strains;
+ * from SL_PLUME_WIDE_SCALE_HEIGHTS (3.4 for 50 Mt) its top is capped (see
  * sl_plume_rise) and the event's widest_thermal makes every output's
  * validity line say "strained".
  *
@@ -222,7 +224,7 @@ typedef struct diag {
 
 void sl_plume_params_default(sl_plume_params *par)
 {
-    par->entrainment_alpha = 0.25;   /* Scorer 1957; Turner 1973 (MEM) */
+    par->entrainment_alpha = 0.29;   /* fitted to two explosion clouds (docs/physics.md section 6) */
     par->added_mass_k = 0.5;         /* sphere in potential flow (MEM-high) */
     par->fallout_speed_m_s = 1.0;    /* drizzle/snow fall speed order (Rogers & Yau 1989, MEM) */
     par->ice_sediment_fraction = 0.5;/* PRACTICE, between the end-members (see injection.c) */

@@ -154,12 +154,14 @@ END_TEST
 
 START_TEST(explosion_and_errors)
 {
-    /* An [explosion] becomes one source with the stated heat fraction. */
+    /* An [explosion] becomes one source with the default heat fraction, 0.5 of
+     * the yield when that is less than the air of its maximum fireball holds at
+     * 3000 K (from about 2 Mt up; partition.c). */
     sl_chain ch = {0};
-    run_text(&ch, "[explosion]\nenergy_Mt = 1.69\naltitude_m = 0\n[site]\nlatitude_deg = 11.6\n");
+    run_text(&ch, "[explosion]\nenergy_Mt = 15\naltitude_m = 0\n[site]\nlatitude_deg = 11.6\n");
     ck_assert(!ch.has_entry);
     ck_assert_uint_eq(ch.partition.sources.n, 1);
-    SL_CK_REL(ch.partition.sources.src[0].heat_J, 0.4 * sl_mt_to_j(1.69), 1e-12);
+    SL_CK_REL(ch.partition.sources.src[0].heat_J, 0.5 * sl_mt_to_j(15.0), 1e-12);
     /* A missing atmosphere file: named with the scenario file and line. */
     sl_scenario sc;
     sl_err e = {0};

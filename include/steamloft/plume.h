@@ -62,7 +62,7 @@
 
 /* Parameters (scenario section [plume]); defaults from sl_plume_params_default. */
 typedef struct sl_plume_params {
-    double entrainment_alpha;      /* alpha in u_e = alpha*w; 0.25 (Scorer 1957; Turner 1973) */
+    double entrainment_alpha;      /* alpha in u_e = alpha*w; 0.29 (fitted, docs/physics.md section 6) */
     double added_mass_k;           /* added-mass coefficient; 0.5 (sphere in potential flow) */
     double fallout_speed_m_s;      /* settling speed of condensate relative to the thermal; 1.0 */
     double ice_sediment_fraction;  /* share of the ice formed at cloud level that falls out; 0.5 */

@@ -5,7 +5,7 @@
 sl_expect_exit 0 "params lists keys" "$SL_BIN" params
 sl_expect_grep "$SL_TMP/out" "speed_km_s .*11 to 73 km/s" "params shows unit and range"
 sl_expect_grep "$SL_TMP/out" "^\[explosion\]" "params shows the [explosion] section"
-sl_expect_grep "$SL_TMP/out" "heat_fraction .*default 0.4" "params shows defaults"
+sl_expect_grep "$SL_TMP/out" "heat_fraction .*default 0.5" "params shows defaults"
 sl_expect_grep "$SL_TMP/out" "Screening estimate" "params carries the caution"
 sl_expect_exit 0 "params --ini" "$SL_BIN" params --ini
 cp "$SL_TMP/out" "$SL_TMP/template.ini"
