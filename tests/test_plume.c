@@ -349,10 +349,10 @@ START_TEST(test_explosion_clouds)
      * secondary source quoting a round number. */
     SL_CK_REL(th.cloud_top_m, 40000.0, 0.15);
     /* Rise time: the observed window is 4-14 min (above) and BRAVO's top rose
-     * for ~6 min.  Our 15 Mt thermal stops earlier, at 3.9 min: it reaches the
+     * for ~6 min.  Our 15 Mt thermal stops earlier, at 3.6 min: it reaches the
      * stratosphere (N ~ 0.02 s-1) within 2 min and a thermal stops there about
      * a quarter buoyancy period later.  A known limit of the bulk thermal (its
-     * apex radius, 13 km, exceeds the stratospheric scale height); asserted:
+     * apex radius, 14 km, exceeds the stratospheric scale height); asserted:
      * 3-14 min, so a further speed-up of the rise fails this check. */
     SL_CK_RANGE(th.apex_time_s, 180.0, 840.0);
     sl_plume_free(&pl);
