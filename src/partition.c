@@ -66,10 +66,10 @@
  * fireball at its maximum size at 3000 K, but at most a fraction f_a of the
  * energy (default 0.5: at most the blast's 50 % of a nuclear burst stays as
  * heat near the fireball once its 35 % thermal radiation has left, Glasstone &
- * Dolan 1977; the near-field waste heat of the blast wave, Brode 1968; the
- * value is fitted together with the plume's entrainment coefficient to two
- * observed explosion clouds, docs/physics.md section 6, and sits at that
- * bound); the cap binds from about 2 Mt up.  A burst whose
+ * Dolan 1977, from memory; the near-field waste heat of the blast wave, Brode
+ * 1968; PRACTICE: the calibration with the plume's entrainment coefficient on
+ * two observed explosion clouds would take more, docs/physics.md section 6,
+ * and is held at this bound); the cap binds from about 2 Mt up.  A burst whose
  * fireball reaches the sea vaporises sea water (solve_explosion: the thermal
  * radiation in the part of the sphere below the surface, then the budget
  * method's vapour fraction); the steam rises in the fireball.  The fireball's

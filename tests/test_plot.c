@@ -227,7 +227,7 @@ START_TEST(validity_head)
     sl_err e = {0};
     sl_plot_options o = {0, 0, NULL};
     sl_plot_result res;
-    F.view.regime_note = "blow-out regime (sources: sea_plume blow-out): a release wider than the scale height";
+    F.view.regime_note = "blow-out regime (sources: 1 blow-out, 2 thermal): a release wider than the scale height";
     ck_assert_msg(sl_plot_write(&F.view, tmpdir, &o, &res, &e) == SL_OK, "%s", e.msg);
     F.view.regime_note = NULL;
     char p[500], line[256];

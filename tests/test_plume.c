@@ -764,7 +764,7 @@ END_TEST
  * tropical profile (20.5 S).  Its top comes out near the observed ~57 km
  * (Carr et al. 2022; Proud et al. 2022; from memory), within 10 %.  The
  * observed water had its bulk at 22-27 km with little above 35 km (Millan
- * et al. 2022; Xu et al. 2022; Khaykin et al. 2022, SEEN abstracts):
+ * et al. 2022; Xu et al. 2022; Khaykin et al. 2022; docs/references.md):
  * asserted, the fullest 1 km band lies inside 22-27 km and less than a
  * quarter of the water above 35 km.  With the calibrated entrainment
  * coefficient (0.29, fitted to two explosion clouds, not to this source)

@@ -73,7 +73,8 @@ double sl_injection_total_vapor_kg(const sl_injection *inj);
 double sl_injection_total_ice_kg(const sl_injection *inj);
 /* Vapour + ice above ALTITUDE_M (bands split proportionally). */
 double sl_injection_mass_above_kg(const sl_injection *inj, double altitude_m);
-/* Vapour + ice below ALTITUDE_M, the same split: the two add up to the total to rounding. */
+/* Vapour + ice below ALTITUDE_M, the same split: the two add up to the total to rounding (a NaN
+ * altitude gives 0 for both; the plume stage then counts every band as below). */
 double sl_injection_mass_below_kg(const sl_injection *inj, double altitude_m);
 /* Set every band's vapour and ice to zero, keeping the bands (for reuse of one
  * profile across ensemble members without allocation). */

@@ -105,8 +105,8 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u, SL_PF_DATE 
     X(EXPLOSION_HEAT, "explosion", "heat_fraction", SL_PT_REAL, "1", 0.5, 0.05, 1.0, 0u, NULL,     \
       "largest fraction of the energy left as buoyant heat in the fireball; the heat is that of "   \
       "the air in the fireball at its maximum size at 3000 K, at most this fraction (0.5, the "     \
-      "blast's share of Glasstone & Dolan 1977: fitted with [plume] entrainment_coefficient to the " \
-      "1.69 Mt and 15 Mt surface-burst clouds, docs/physics.md section 6)")                        \
+      "blast's share of Glasstone & Dolan 1977, the upper bound of the calibration with [plume] "   \
+      "entrainment_coefficient on the 1.69 Mt and 15 Mt clouds, docs/physics.md section 6)")       \
     X(SITE_LATITUDE, "site", "latitude_deg", SL_PT_REAL, "deg", SL_NODEFAULT, -90.0, 90.0,         \
       SL_PF_REQUIRED, NULL, "latitude of the impact or burst point")                                \
     X(SITE_LONGITUDE, "site", "longitude_deg", SL_PT_REAL, "deg", 0.0, -180.0, 360.0, 0u, NULL,    \
@@ -196,9 +196,9 @@ enum { SL_PF_REQUIRED = 1u, SL_PF_DERIVED = 2u, SL_PF_OPTIONAL = 4u, SL_PF_DATE 
       0.0, 0u, "auto|basalt|granite|iron|ice",                                                       \
       "shock method: linear Hugoniot of the impactor (auto: iron above 5000 kg/m3, else basalt)")  \
     X(PLUME_ALPHA, "plume", "entrainment_coefficient", SL_PT_REAL, "1", 0.29, 0.0, 1.0, 0u, NULL,  \
-      "alpha: entrainment velocity alpha*w through the thermal's surface (0.29, fitted with "       \
-      "[explosion] heat_fraction to the 1.69 Mt and 15 Mt surface-burst clouds within the 0.2-0.35 " \
-      "of laboratory thermals, docs/physics.md section 6; 0 = a parcel that does not mix)")         \
+      "alpha: entrainment velocity alpha*w through the thermal's surface (0.29, fitted to the "     \
+      "1.69 Mt and 15 Mt surface-burst clouds within the 0.2-0.35 of laboratory thermals, "          \
+      "docs/physics.md section 6; 0 = a parcel that does not mix)")                                 \
     X(PLUME_ADDED_MASS, "plume", "added_mass_coefficient", SL_PT_REAL, "1", 0.5, 0.0, 2.0, 0u,     \
       NULL, "k: share of the displaced air accelerated with the thermal (0.5, sphere in potential " \
       "flow); changes the rise time, not the height")                                               \

@@ -7,16 +7,18 @@
 #   Observed: Castle NECTAR, 1.69 Mt surface burst at Bikini, cloud top 21.6 km
 #   and bottom 12.3 km (test report, SEEN in a secondary source), each weighed
 #   by its 10 % tolerance; Castle BRAVO, 15 Mt surface burst, top near 40 km
-#   (from memory), weighed by its 15 %.  Both in the tropical profile.
-#   Misfit: the sum of the squared relative misses in those units.
+#   (the secondary source of tests/test_plume.c), weighed by its 15 %.  Both in
+#   the tropical profile.  Misfit: the sum of the squared relative misses in
+#   those units.
 #   Grid: alpha 0.20-0.35 by 0.01 (the spread of laboratory thermals, Scorer
 #   1957, Turner 1973, from memory; Morrison et al. 2023 find a factor of 3
 #   with the initial aspect ratio, SEEN abstract); heat fraction 0.35-0.50 by
 #   0.05 (from the 35 % thermal radiation to the 50 % blast of a nuclear burst,
-#   Glasstone & Dolan 1977, from memory: more than the blast's share cannot stay
-#   as heat near the fireball).
-# The grid's best point lies on the heat fraction's upper bound: the thermal
-# wants more heat to reach BRAVO than the bound allows (BRAVO -11 %).
+#   Glasstone & Dolan 1977, from memory; that no more than the blast's share
+#   stays as heat near the fireball is PRACTICE, no source).
+# Alpha is set by NECTAR (whose heat is its 3000 K fireball's for any fraction
+# above 0.48); the heat fraction acts on BRAVO alone and ends on its upper
+# bound, past which the misfit would keep falling (docs/physics.md section 6).
 . "$(dirname "$0")/lib.inc"
 [ -x /usr/bin/python3 ] || { echo "# SKIP /usr/bin/python3 missing"; exit 77; }
 printf '[explosion]\nenergy_Mt = 1.69\naltitude_m = 0\n[site]\nlatitude_deg = 11.6\natmosphere = tropical\n' >"$SL_TMP/nectar.ini"
