@@ -6,6 +6,7 @@
 #include "steamloft/atmosphere.h"
 #include "steamloft/injection.h"
 #include "steamloft/plume.h"
+#include "steamloft/scenario.h"
 #include "steamloft/units.h"
 #include "steamloft/water.h"
 
@@ -115,6 +116,21 @@ static double default_alpha(void)
     sl_plume_params_default(&par);
     return par.entrainment_alpha;
 }
+
+/* The plume module's defaults are the scenario table's (the one place of a
+ * default): the checks above that take default_alpha() then run what a
+ * scenario without [plume] keys runs.  All of these keys are unitless or SI. */
+START_TEST(test_defaults_are_the_table)
+{
+    sl_plume_params par;
+    sl_plume_params_default(&par);
+    ck_assert(par.entrainment_alpha == sl_scenario_params[SL_P_PLUME_ALPHA].default_value);
+    ck_assert(par.added_mass_k == sl_scenario_params[SL_P_PLUME_ADDED_MASS].default_value);
+    ck_assert(par.fallout_speed_m_s == sl_scenario_params[SL_P_PLUME_FALLOUT_SPEED].default_value);
+    ck_assert(par.ice_sediment_fraction == sl_scenario_params[SL_P_PLUME_ICE_SEDIMENT].default_value);
+    ck_assert(par.rtol == sl_scenario_params[SL_P_PLUME_RTOL].default_value);
+}
+END_TEST
 
 static void init_plume(sl_plume *pl, double alpha, double k, double rtol, double v_fall)
 {
@@ -1088,6 +1104,7 @@ static Suite *plume_suite(void)
     tcase_add_test(tc, test_boussinesq_point_source);
     tcase_add_test(tc, test_added_mass_light_bubble);
     tcase_add_test(tc, test_quarter_power_law);
+    tcase_add_test(tc, test_defaults_are_the_table);
     tcase_add_test(tc, test_explosion_clouds);
     tcase_add_test(tc, test_budgets_close);
     tcase_add_test(tc, test_dry_plume_lofts_no_water);
