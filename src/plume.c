@@ -17,7 +17,9 @@
  *   H    enthalpy of the mixture (J)           dH/dt   = m_e h_e - m_f h_f - rho_a g V w
  *                                                        + m_e w^2 / 2
  *
- * with the entrainment rate m_e = 4 pi b^2 alpha rho_a |w|, V = 4/3 pi b^3 the
+ * with the entrainment rate m_e = 4 pi b^2 alpha rho_a |w| (ambient density: an
+ * entrainment coefficient independent of the density ratio, as Salizzoni et
+ * al. 2024, J. Fluid Mech. 995, find for jets, SEEN abstract), V = 4/3 pi b^3 the
  * gas volume (ideal-gas mixture of dry air and vapour at the ambient
  * pressure p(z); condensate volume neglected), q_e and h_e the specific
  * humidity and enthalpy of the ambient moist air, g(z) = g0 (R0/(R0+z))^2.
