@@ -210,32 +210,33 @@ double sl_injection_total_ice_kg(const sl_injection *inj)
     return s;
 }
 
-double sl_injection_mass_above_kg(const sl_injection *inj, double altitude_m)
+/* The water of the bands on one side of ALTITUDE_M (BELOW: under it, else
+ * above), the band holding it shared in proportion to height; vapour alone or
+ * vapour + ice.  A NaN altitude gives 0 on either side. */
+static double mass_on_side(const sl_injection *inj, double altitude_m, int below, int with_ice)
 {
     double s = 0.0;
     for (size_t i = 0; inj != NULL && i < inj->n_bands; i++) {
         double b0 = inj->band_bottom_m[i], b1 = inj->band_top_m[i];
-        double m = inj->vapor_kg[i] + inj->ice_kg[i];
-        if (altitude_m <= b0)
+        double m = with_ice ? inj->vapor_kg[i] + inj->ice_kg[i] : inj->vapor_kg[i];
+        int whole = below ? b1 <= altitude_m : altitude_m <= b0;
+        int part = below ? b0 < altitude_m : altitude_m < b1;
+        if (whole)
             s += m;
-        else if (altitude_m < b1)
-            s += m * (b1 - altitude_m) / (b1 - b0);
+        else if (part)
+            s += m * (below ? altitude_m - b0 : b1 - altitude_m) / (b1 - b0);
     }
     return s;
 }
 
+double sl_injection_mass_above_kg(const sl_injection *inj, double altitude_m)
+{
+    return mass_on_side(inj, altitude_m, 0, 1);
+}
+
 double sl_injection_mass_below_kg(const sl_injection *inj, double altitude_m)
 {
-    double s = 0.0;
-    for (size_t i = 0; inj != NULL && i < inj->n_bands; i++) {
-        double b0 = inj->band_bottom_m[i], b1 = inj->band_top_m[i];
-        double m = inj->vapor_kg[i] + inj->ice_kg[i];
-        if (b1 <= altitude_m)
-            s += m;
-        else if (b0 < altitude_m)
-            s += m * (altitude_m - b0) / (b1 - b0);
-    }
-    return s;
+    return mass_on_side(inj, altitude_m, 1, 1);
 }
 
 void sl_injection_free(sl_injection *inj)
@@ -252,15 +253,7 @@ void sl_injection_free(sl_injection *inj)
 
 double sl_injection_vapor_above_kg(const sl_injection *inj, double altitude_m)
 {
-    double s = 0.0;
-    for (size_t i = 0; inj != NULL && i < inj->n_bands; i++) {
-        double b0 = inj->band_bottom_m[i], b1 = inj->band_top_m[i];
-        if (altitude_m <= b0)
-            s += inj->vapor_kg[i];
-        else if (altitude_m < b1)
-            s += inj->vapor_kg[i] * (b1 - altitude_m) / (b1 - b0);
-    }
-    return s;
+    return mass_on_side(inj, altitude_m, 0, 0);
 }
 
 /* ---------------------------------------------------------------- freeze-out */
